@@ -1,0 +1,44 @@
+# linktriage: set-up and checks. `make demo` and `make test` are all a newcomer needs.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test check lint typecheck unit bench model clean
+
+$(STAMP): pyproject.toml constraints.txt
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/pip install --quiet --upgrade pip
+	$(BIN)/pip install --quiet -c constraints.txt -e '.[test]'
+	touch $(STAMP)
+
+## demo: set up, then show the whole job on the built-in demo network
+demo: $(STAMP)
+	$(BIN)/linktriage demo
+
+## test: set up, then run every check (format, lint, types, tests)
+test: check
+
+check: lint typecheck unit
+
+lint: $(STAMP)
+	$(BIN)/ruff format --check .
+	$(BIN)/ruff check .
+
+typecheck: $(STAMP)
+	$(BIN)/mypy src
+
+unit: $(STAMP)
+	$(BIN)/pytest
+
+## bench: throughput and model-quality benchmarks (prints their figures)
+bench: $(STAMP)
+	$(BIN)/python bench/diagnose_throughput.py
+	$(BIN)/python bench/model_quality.py
+
+## model: rebuild the packaged model from the simulated prior
+model: $(STAMP)
+	$(BIN)/linktriage train --out src/linktriage/model/default.json
+
+clean:
+	rm -rf $(VENV) .pytest_cache .mypy_cache .ruff_cache

@@ -1,0 +1,119 @@
+"""The counter catalogue: every counter name the snapshot format knows, its width, what it counts.
+
+Names are the MIB object names (RFC 2863 IF-MIB, RFC 3635 EtherLike-MIB, RFC 2819 RMON-MIB).
+A name without ``HC`` is a Counter32 and wraps at 2^32; the ``ifHC...`` and ``dot3HCStats...``
+names are Counter64 and wrap at 2^64 (RFC 2578 sections 7.1.6 and 7.1.10).
+
+Counters are grouped into *quantities*: one physical count that a device may report as a
+Counter64, a Counter32, or both. The window prefers the 64-bit form where both polls have it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from enum import StrEnum
+
+#: Octets of preamble, start-of-frame delimiter (8) and minimum inter-frame gap (12) that every
+#: frame costs on the wire beyond its own length (IEEE 802.3 clause 4.4.2; the 96-bit gap is
+#: from memory, the frame-rate arithmetic is in the shared standards notes).
+WIRE_OVERHEAD_OCTETS = 20
+#: Minimum frame, FCS included (IEEE 802.3 clause 4.4.2 minFrameSize 512 bits; RFC 2819).
+MIN_FRAME_OCTETS = 64
+
+
+class Unit(StrEnum):
+    """What one increment of a counter stands for; sets the fastest it can possibly grow."""
+
+    OCTETS = "octets"
+    PACKETS = "packets"  # traffic: at most one per minimum-size frame
+    EVENTS = "events"  # errors, discards, collisions: also at most one per frame
+
+    @property
+    def traffic(self) -> bool:
+        """Traffic counters can really run at line rate; exception counters in practice cannot."""
+        return self is not Unit.EVENTS
+
+
+@dataclass(frozen=True, slots=True)
+class Quantity:
+    """One count a port may report, under its Counter64 name, its Counter32 name, or both."""
+
+    key: str
+    unit: Unit
+    hc: str | None
+    c32: str | None
+
+
+QUANTITIES: tuple[Quantity, ...] = (
+    Quantity("in_octets", Unit.OCTETS, "ifHCInOctets", "ifInOctets"),
+    Quantity("out_octets", Unit.OCTETS, "ifHCOutOctets", "ifOutOctets"),
+    Quantity("in_ucast", Unit.PACKETS, "ifHCInUcastPkts", "ifInUcastPkts"),
+    Quantity("in_mcast", Unit.PACKETS, "ifHCInMulticastPkts", "ifInMulticastPkts"),
+    Quantity("in_bcast", Unit.PACKETS, "ifHCInBroadcastPkts", "ifInBroadcastPkts"),
+    Quantity("out_ucast", Unit.PACKETS, "ifHCOutUcastPkts", "ifOutUcastPkts"),
+    Quantity("out_mcast", Unit.PACKETS, "ifHCOutMulticastPkts", "ifOutMulticastPkts"),
+    Quantity("out_bcast", Unit.PACKETS, "ifHCOutBroadcastPkts", "ifOutBroadcastPkts"),
+    Quantity("in_errors", Unit.EVENTS, None, "ifInErrors"),
+    Quantity("out_errors", Unit.EVENTS, None, "ifOutErrors"),
+    Quantity("in_discards", Unit.EVENTS, None, "ifInDiscards"),
+    Quantity("out_discards", Unit.EVENTS, None, "ifOutDiscards"),
+    Quantity("fcs_errors", Unit.EVENTS, "dot3HCStatsFCSErrors", "dot3StatsFCSErrors"),
+    Quantity(
+        "alignment_errors", Unit.EVENTS, "dot3HCStatsAlignmentErrors", "dot3StatsAlignmentErrors"
+    ),
+    Quantity("symbol_errors", Unit.EVENTS, "dot3HCStatsSymbolErrors", "dot3StatsSymbolErrors"),
+    Quantity("late_collisions", Unit.EVENTS, None, "dot3StatsLateCollisions"),
+    Quantity("single_collisions", Unit.EVENTS, None, "dot3StatsSingleCollisionFrames"),
+    Quantity("multiple_collisions", Unit.EVENTS, None, "dot3StatsMultipleCollisionFrames"),
+    Quantity("excessive_collisions", Unit.EVENTS, None, "dot3StatsExcessiveCollisions"),
+    Quantity("frame_too_longs", Unit.EVENTS, "dot3HCStatsFrameTooLongs", "dot3StatsFrameTooLongs"),
+    Quantity(
+        "mac_receive_errors",
+        Unit.EVENTS,
+        "dot3HCStatsInternalMacReceiveErrors",
+        "dot3StatsInternalMacReceiveErrors",
+    ),
+    Quantity("undersize", Unit.EVENTS, None, "etherStatsUndersizePkts"),
+    Quantity("fragments", Unit.EVENTS, None, "etherStatsFragments"),
+    Quantity("oversize", Unit.EVENTS, None, "etherStatsOversizePkts"),
+    Quantity("jabbers", Unit.EVENTS, None, "etherStatsJabbers"),
+)
+
+QUANTITY_KEYS: tuple[str, ...] = tuple(q.key for q in QUANTITIES)
+
+
+@dataclass(frozen=True, slots=True)
+class CounterColumn:
+    """One counter name as it appears in a snapshot, with its width and unit."""
+
+    name: str
+    bits: int
+    unit: Unit
+
+
+def _columns() -> tuple[CounterColumn, ...]:
+    columns: list[CounterColumn] = []
+    for q in QUANTITIES:
+        if q.hc is not None:
+            columns.append(CounterColumn(q.hc, 64, q.unit))
+        if q.c32 is not None:
+            columns.append(CounterColumn(q.c32, 32, q.unit))
+    return tuple(columns)
+
+
+#: Every counter column of the format, in a fixed order (the column order of poll tables).
+COLUMNS: tuple[CounterColumn, ...] = _columns()
+COLUMN_INDEX: dict[str, int] = {c.name: i for i, c in enumerate(COLUMNS)}
+COUNTER32_MAX = 2**32 - 1
+COUNTER64_MAX = 2**64 - 1
+
+
+def max_rate_per_second(unit: Unit, speed_bps: float) -> float:
+    """The fastest a counter of ``unit`` can grow on a link of ``speed_bps``.
+
+    Octets: line rate over 8. Packets and events: one per minimum-size frame and its overhead,
+    1,488,095 per second at 1 Gb/s (64 + 20 octets per frame, IEEE 802.3 clause 4.4.2).
+    """
+    if unit is Unit.OCTETS:
+        return speed_bps / 8.0
+    return speed_bps / ((MIN_FRAME_OCTETS + WIRE_OVERHEAD_OCTETS) * 8.0)

@@ -1,0 +1,191 @@
+"""The demo network: Larkmoor Civic Library, an invented organisation with a few faults planted.
+
+Two sites: the central library (a core switch and wiring closets in the east and west
+wings) and a branch annex. Most ports are healthy; a handful carry one planted fault each,
+so the demo and the documentation can show every verdict on ports with a story behind
+them. Counters come from :mod:`linktriage.simulate`, deterministically for a given seed.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from linktriage.polls import PollTable
+from linktriage.simulate import DEFAULT_START, G, M, render_polls, sample_parameters
+from linktriage.verdicts import Verdict
+
+ORGANISATION = "Larkmoor Civic Library"
+DEFAULT_SEED = 7
+
+
+@dataclass(frozen=True, slots=True)
+class DemoPort:
+    """One port of the demo network, and what is planted on it (None: nothing, healthy)."""
+
+    site: str
+    device: str
+    port: str
+    serves: str
+    planted: Verdict | None = None
+    overrides: dict[str, Any] = field(default_factory=dict)
+
+
+_COPPER_1G = {"fiber": 0.0, "speed_bps": G, "max_speed_bps": G, "hc": True, "dot3": True}
+_FIBER_10G = {
+    "fiber": 1.0,
+    "speed_bps": 10 * G,
+    "max_speed_bps": 10 * G,
+    "poe": 0.0,
+    "hc": True,
+    "dot3": True,
+    "rx_alarm_dbm": -14.4,
+}
+
+PLANTED: tuple[DemoPort, ...] = (
+    DemoPort(
+        "central",
+        "lark-east-idf2",
+        "port14",
+        "desk phone and PC, east wing reading room",
+        Verdict.CABLE_FAULT,
+        {**_COPPER_1G, "poe": 1.0, "rx_util": 0.03, "rx_ber": 2e-8, "link_changes": 4.0},
+    ),
+    DemoPort(
+        "central",
+        "lark-east-idf2",
+        "port7",
+        "label printer, circulation desk",
+        Verdict.DUPLEX_MISMATCH,
+        {"speed_bps": 100 * M, "max_speed_bps": G, "rx_util": 0.08, "tx_util": 0.05},
+    ),
+    DemoPort(
+        "central",
+        "lark-east-idf1",
+        "port19",
+        "catalogue kiosk, east wing lobby",
+        Verdict.NEGOTIATION_DEGRADED,
+        {"speed_bps": 100 * M, "max_speed_bps": G, "half_duplex": 0.0, "rx_util": 0.15},
+    ),
+    DemoPort(
+        "central",
+        "lark-east-idf1",
+        "up1",
+        "uplink to lark-core1",
+        Verdict.OPTIC_DEGRADED,
+        {**_FIBER_10G, "rx_margin_db": -1.2, "rx_ber": 3e-9, "rx_util": 0.12},
+    ),
+    DemoPort(
+        "central",
+        "lark-core1",
+        "up3",
+        "downlink to lark-west-idf1",
+        Verdict.UNIDIRECTIONAL,
+        {**_FIBER_10G, "rx_margin_db": 6.0, "rx_util": 0.0, "tx_util": 0.09},
+    ),
+    DemoPort(
+        "central",
+        "lark-core1",
+        "up5",
+        "link to the annex",
+        Verdict.CONGESTION,
+        {**_FIBER_10G, "rx_margin_db": 7.5, "tx_util": 0.94, "out_discard_ratio": 4e-3},
+    ),
+    DemoPort(
+        "annex",
+        "lark-annex-sw1",
+        "port3",
+        "archive storage server",
+        Verdict.MTU_MISMATCH,
+        {**_COPPER_1G, "poe": 0.0, "mtu": 1500.0, "giant_ratio": 0.02, "rx_util": 0.2},
+    ),
+    DemoPort(
+        "central",
+        "lark-west-idf1",
+        "port22",
+        "study room wall outlet, usually empty",
+        Verdict.INSUFFICIENT_TRAFFIC,
+        {**_COPPER_1G, "rx_util": 2e-7, "tx_util": 4e-7},
+    ),
+    DemoPort(
+        "central",
+        "lark-west-idf1",
+        "port9",
+        "meeting room display",
+        Verdict.LINK_DOWN,
+        {**_COPPER_1G, "down": True},
+    ),
+    DemoPort(
+        "annex",
+        "lark-annex-sw1",
+        "port11",
+        "new self-service terminal, added this morning",
+        Verdict.NO_DATA,
+        {**_COPPER_1G, "polls": 1},
+    ),
+)
+
+_ACCESS = {
+    "lark-east-idf1": ("central", 24),
+    "lark-east-idf2": ("central", 24),
+    "lark-west-idf1": ("central", 24),
+    "lark-annex-sw1": ("annex", 12),
+}
+
+
+def demo_ports() -> list[DemoPort]:
+    """Every port of the demo network: the planted ones and healthy ones around them."""
+    planted = {(p.device, p.port): p for p in PLANTED}
+    ports: list[DemoPort] = []
+    for device, (site, count) in _ACCESS.items():
+        names = [f"port{i}" for i in range(1, count + 1)] + ["up1"]
+        for name in names:
+            uplink = name.startswith("up")
+            serves = "uplink to lark-core1" if uplink else "desk outlet"
+            default = DemoPort(site, device, name, serves, None, _FIBER_10G if uplink else {})
+            ports.append(planted.get((device, name), default))
+    for n in range(1, 7):
+        name = f"up{n}"
+        default = DemoPort("central", "lark-core1", name, "fiber link", None, _FIBER_10G)
+        ports.append(planted.get(("lark-core1", name), default))
+    return ports
+
+
+# The guard verdicts are planted on healthy-looking ports; the tree's classes are sampled.
+_SAMPLED_AS = {
+    Verdict.INSUFFICIENT_TRAFFIC: Verdict.HEALTHY,
+    Verdict.LINK_DOWN: Verdict.HEALTHY,
+    Verdict.NO_DATA: Verdict.HEALTHY,
+}
+
+
+def demo_polls(*, seed: int = DEFAULT_SEED, end_time: float = DEFAULT_START) -> PollTable:
+    """Two polls, five minutes apart, of every demo port (one poll where none is planted)."""
+    ports = demo_ports()
+    rng = np.random.default_rng(seed)
+    labels = [
+        Verdict.HEALTHY if p.planted is None else _SAMPLED_AS.get(p.planted, p.planted)
+        for p in ports
+    ]
+    params = sample_parameters(labels, rng)
+    params["window_s"] = 300.0
+    params["polls"] = 2
+    params["stray_errors"] = 0.0
+    # Office hours on gigabit desk outlets: every healthy port carries enough to be judged.
+    background = [row for row, p in enumerate(ports) if p.planted is None]
+    for key, value in {**_COPPER_1G, "half_duplex": 0.0, "mtu": 1500.0}.items():
+        params.loc[background, key] = value
+    params.loc[background, "rx_util"] = rng.uniform(0.02, 0.25, len(background))
+    params.loc[background, "tx_util"] = rng.uniform(0.02, 0.25, len(background))
+    for row, port in enumerate(ports):
+        for key, value in port.overrides.items():
+            params.loc[row, key] = value
+    return render_polls(
+        params,
+        rng,
+        device=[p.device for p in ports],
+        port=[p.port for p in ports],
+        end_time=end_time,
+    )

@@ -1,0 +1,79 @@
+"""Terminal text: a one-line-per-port table, and the full explanation of one port."""
+
+from __future__ import annotations
+
+import textwrap
+from collections.abc import Sequence
+from typing import IO
+
+from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord
+from linktriage.messages import ber_line, sig
+
+WIDTH = 88
+_HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "DECIDING ANSWER")
+
+
+def _deciding(record: DiagnosisRecord) -> str:
+    """The last question the tree asked, which is the one that settled the verdict."""
+    if not record["questions"]:
+        return record["note"] or ""
+    q = record["questions"][-1]
+    return f"{q['question']} {q['said']}"
+
+
+def table_rows(records: Sequence[DiagnosisRecord]) -> list[str]:
+    """Fixed-width rows: device, port, verdict, confidence, window, deciding answer."""
+    cells = [
+        (
+            r["device"],
+            r["port"],
+            r["verdict"],
+            f"{r['confidence']:.2f}",
+            f"{sig(r['window_s'], 3)} s",
+            _deciding(r),
+        )
+        for r in records
+    ]
+    widths = [max(len(row[k]) for row in [_HEADER, *cells]) for k in range(5)]
+    lines = []
+    for row in [_HEADER, *cells]:
+        left = "  ".join(cell.ljust(widths[k]) for k, cell in enumerate(row[:5]))
+        lines.append(f"{left}  {row[5]}".rstrip())
+    return lines
+
+
+def write_table(batch: DiagnosisBatch, rows: Sequence[int], out: IO[str]) -> None:
+    """The table for the ports in ``rows``."""
+    for line in table_rows([batch.record(i) for i in rows]):
+        out.write(line + "\n")
+
+
+def _wrapped(text: str, first: str, rest: str) -> list[str]:
+    return textwrap.wrap(text, WIDTH, initial_indent=first, subsequent_indent=rest) or [first]
+
+
+def explanation(record: DiagnosisRecord) -> str:
+    """Everything about one port's diagnosis, for a person to read and act on."""
+    lines = [
+        f"{record['device']} {record['port']}: {record['title']} ({record['verdict']}), "
+        f"confidence {record['confidence']:.2f}",
+        f"window {sig(record['window_s'], 3)} s over {record['polls']} polls, "
+        f"model {record['model_version']}",
+    ]
+    if record["note"]:
+        lines.append(f"note: {record['note']}")
+    lines += ["", "Questions asked"]
+    for n, q in enumerate(record["questions"], start=1):
+        lines += _wrapped(q["question"], f"  {n}. ", "     ")
+        lines += _wrapped(q["said"], "     -> ", "        ")
+    ber = record["bit_errors"]
+    if ber is not None:
+        lines += ["", *_wrapped(ber_line(ber["phy"], ber["estimate"], ber["objective"]), "", "")]
+    lines += ["", "Check next"]
+    for check in record["next_checks"]:
+        lines += _wrapped(check, "  - ", "    ")
+    if record["cautions"]:
+        lines += ["", "Safety"]
+        for caution in record["cautions"]:
+            lines += _wrapped(caution, "  ! ", "    ")
+    return "\n".join(lines)

@@ -1,0 +1,258 @@
+"""The verdict ids, what each means, the next physical checks, and the cautions that go with them.
+
+The ids are fixed by the snapshot format. The first eight are what the tree can answer; the
+last three are answered by the guards before the tree is asked. Checks and cautions are
+written for an engineer about to walk to a wiring closet; cautions depend on the port (PoE,
+fiber) and always defer to local codes and licensed practice.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from enum import StrEnum
+
+
+class Verdict(StrEnum):
+    """Every diagnosis ends in exactly one of these."""
+
+    HEALTHY = "healthy"
+    CABLE_FAULT = "cable_fault"
+    DUPLEX_MISMATCH = "duplex_mismatch"
+    NEGOTIATION_DEGRADED = "negotiation_degraded"
+    MTU_MISMATCH = "mtu_mismatch"
+    OPTIC_DEGRADED = "optic_degraded"
+    UNIDIRECTIONAL = "unidirectional"
+    CONGESTION = "congestion"
+    INSUFFICIENT_TRAFFIC = "insufficient_traffic"
+    LINK_DOWN = "link_down"
+    NO_DATA = "no_data"
+
+
+TREE_VERDICTS: tuple[Verdict, ...] = tuple(Verdict)[:8]
+GUARD_VERDICTS: tuple[Verdict, ...] = tuple(Verdict)[8:]
+#: Verdicts that mean something on the link needs a person's attention.
+FAULTS: frozenset[Verdict] = frozenset(TREE_VERDICTS) - {Verdict.HEALTHY}
+
+
+class Caution(StrEnum):
+    """Safety and service notes; each is shown only where it applies to the port."""
+
+    FIBER_EYES = (
+        "Never look into a fiber end, a patch cord or an open transceiver port: the light "
+        "is infrared, invisible, and can injure your eyes (laser classes of IEC 60825-1). "
+        "Inspect end faces with a fiber scope or video probe, and cap open ports."
+    )
+    POE_POWER = (
+        "This port supplies Power over Ethernet: unplugging or re-patching it switches off "
+        "whatever it feeds (a phone, camera, wireless access point, perhaps a door, alarm or "
+        "other life-safety device). Find out what is connected and agree a time first. It "
+        "carries up to 57 V DC (IEEE 802.3af/at/bt): use PoE-tolerant test equipment."
+    )
+    WORK_AT_HEIGHT = (
+        "Tracing a cable through ceilings, risers or floor voids: follow the site's rules for "
+        "ladders and work at height, and do not work alone."
+    )
+    MAINS = (
+        "Stay with the data cabling: anything involving mains power (electrical panels, "
+        "outlets, rack power distribution) is work for a licensed electrician."
+    )
+    SERVICE_BREAK = (
+        "Re-patching, re-seating or re-configuring this port interrupts the link for "
+        "everything behind it: tell its users first."
+    )
+    LOCAL_CODES = (
+        "These are suggestions for a trained technician: local codes, site safety rules and "
+        "licensed practice come first."
+    )
+
+
+@dataclass(frozen=True, slots=True)
+class Guide:
+    """What a verdict means and what to check, on copper and on fiber."""
+
+    title: str
+    meaning: str
+    checks: tuple[str, ...]
+    fiber_checks: tuple[str, ...] | None = None  # when fiber needs different steps
+
+
+_CABLE_COPPER = (
+    "Look at the patch cords at both ends: kinks, crushed or stapled runs, a broken latch, a "
+    "cord under a chair castor or a door.",
+    "Swap the patch cord at one end for a known-good one, then at the other end, and watch "
+    "whether the errors stop after each swap.",
+    "If they do not, test the permanent link with a cable certifier for its category "
+    "(TIA-568: at most 90 m of permanent link plus 10 m of cords in a channel).",
+    "Check the terminations at the patch panel and the outlet: untwisted or split pairs, "
+    "a loose punch-down.",
+    "A gigabit port that links at 100 Mb/s usually has a broken pair: 1000BASE-T needs all "
+    "four pairs, 100BASE-TX only two.",
+    "Look for the cable running alongside fluorescent fittings, motors or power cables.",
+)
+_CABLE_FIBER = (
+    "Clean both connectors and inspect the end faces with a fiber scope before re-seating "
+    "(IEC 61300-3-35 describes what a clean end face looks like).",
+    "Swap the patch cords for known-good ones, one end at a time.",
+    "Check received power against the module's thresholds at both ends.",
+)
+
+GUIDES: dict[Verdict, Guide] = {
+    Verdict.HEALTHY: Guide(
+        "healthy",
+        "No fault signature in the window.",
+        (
+            "Nothing to fix on this link. If users still report trouble, look beyond it: the "
+            "uplink, the far-end device, or the application.",
+            "A fault that comes and goes shows up in later windows: ask again if it recurs.",
+        ),
+    ),
+    Verdict.CABLE_FAULT: Guide(
+        "cable or connector fault",
+        "Physical-layer errors at ordinary load: damaged cabling, connectors or terminations.",
+        _CABLE_COPPER,
+        _CABLE_FIBER,
+    ),
+    Verdict.DUPLEX_MISMATCH: Guide(
+        "duplex mismatch",
+        "The two ends disagree on duplex: one sends while the other thinks the wire is shared.",
+        (
+            "Compare speed and duplex on both ends: a fixed setting at one end and "
+            "auto-negotiation at the other leaves the auto end at half duplex.",
+            "Configure both ends alike: auto-negotiation on both (1000BASE-T requires it), "
+            "or the same fixed speed and full duplex on both.",
+            "After the change, late collisions at the half-duplex end and FCS errors at the "
+            "full-duplex end should stop.",
+        ),
+    ),
+    Verdict.NEGOTIATION_DEGRADED: Guide(
+        "negotiation degraded",
+        "The link came up slower, or at half duplex, below what the port supports.",
+        (
+            "Check both ends' settings: a fixed speed or duplex, or an advertisement "
+            "limited to lower speeds.",
+            "If both ends auto-negotiate and still come up slow, test the cable: a missing "
+            "or broken pair leaves a gigabit link at 100 Mb/s.",
+            "Check what the far end supports: an older device may only run at this speed, "
+            "in which case the link is as fast as it can be.",
+        ),
+    ),
+    Verdict.MTU_MISMATCH: Guide(
+        "MTU mismatch",
+        "Frames arrive longer than this port accepts and are dropped, with no FCS errors.",
+        (
+            "Compare the MTU at both ends and along the path: switch ports, VLAN and routed "
+            "interfaces, virtual switches, storage and tunnel endpoints.",
+            "Confirm with a do-not-fragment ping at the size in question from a host on each "
+            "side (8972 octets of payload for a 9000-octet IPv4 MTU).",
+            "Use one MTU across the layer-2 domain; jumbo frames only where every hop agrees.",
+        ),
+    ),
+    Verdict.OPTIC_DEGRADED: Guide(
+        "optic degraded",
+        "Received light is near or under the module's low thresholds.",
+        (
+            "Compare received power with the far end's transmit power: the difference is "
+            "the link's loss; set it against the link's loss budget.",
+            "Clean both connectors, inspect the end faces with a fiber scope, and re-seat.",
+            "Check patch cords for tight bends or crush; swap for a known-good cord.",
+            "If the loss stays high, test the link with a light source and power meter (or "
+            "an OTDR) against its design (TIA-568 cabled-fiber and connector allowances).",
+            "If the far end transmits low, or a module runs hot or at high bias current, "
+            "replace that transceiver.",
+        ),
+    ),
+    Verdict.UNIDIRECTIONAL: Guide(
+        "one-way link",
+        "Traffic flows one way only on a link that is up.",
+        (
+            "Swap the patch cord, then test each pair of the cable run.",
+            "Look at the far end: a one-way link usually shows there as receive-only or "
+            "transmit-only too.",
+            "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
+            "loops and black holes.",
+        ),
+        (
+            "Check that transmit at each end is patched to receive at the other, and that "
+            "neither strand is broken; compare received power at both ends.",
+            "Look at the far end: a one-way link usually shows there as receive-only or "
+            "transmit-only too.",
+            "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
+            "loops and black holes.",
+        ),
+    ),
+    Verdict.CONGESTION: Guide(
+        "congestion",
+        "Discards at high utilisation with no error signature: a capacity problem, not a fault.",
+        (
+            "Find what fills the link: the busiest hosts and flows on this port.",
+            "Look at utilisation across the day: a nightly backup peak may be acceptable, "
+            "a sustained one needs capacity.",
+            "Options: aggregate or upgrade the link, move heavy users, or prioritise voice "
+            "and interactive traffic.",
+        ),
+    ),
+    Verdict.INSUFFICIENT_TRAFFIC: Guide(
+        "not enough traffic to judge",
+        "Too few frames in the window to tell a healthy error rate from a faulty one.",
+        (
+            "Ask again over a longer window or at a busier time.",
+            "Or run a throughput test between two hosts across this link, then ask again.",
+        ),
+    ),
+    Verdict.LINK_DOWN: Guide(
+        "link down",
+        "The port is not up, so there is nothing to measure.",
+        (
+            "Check that the far-end device is powered and its port enabled.",
+            "Check whether this port is administratively down or shut by a protection "
+            "feature (port security, storm control, error shutdown).",
+            "Check the cable is plugged in at both ends; swap the patch cord.",
+        ),
+        (
+            "Check that the far-end device is powered and its port enabled.",
+            "Check whether this port is administratively down or shut by a protection "
+            "feature (port security, storm control, error shutdown).",
+            "Check both transceivers are seated and supported, and that light arrives.",
+        ),
+    ),
+    Verdict.NO_DATA: Guide(
+        "no usable data",
+        "Fewer than two usable polls of this port.",
+        (
+            "A window needs two polls: poll again in a few minutes.",
+            "If the counters were reset (a reboot, counters cleared), the window restarts "
+            "at the next poll.",
+            "Check that the poller reads this port's counters at all.",
+        ),
+    ),
+}
+
+
+def next_checks(verdict: Verdict, *, fiber: bool | None) -> list[str]:
+    """The physical checks to do next, fiber-specific where the medium changes them."""
+    guide = GUIDES[verdict]
+    if fiber and guide.fiber_checks is not None:
+        return list(guide.fiber_checks)
+    return list(guide.checks)
+
+
+def cautions(verdict: Verdict, *, poe: bool | None, fiber: bool | None) -> list[str]:
+    """The cautions for acting on ``verdict`` at this port; empty when nothing is touched."""
+    light = fiber is not False  # unknown medium: warn as if it could be fiber
+    chosen: list[Caution] = []
+    if verdict in (Verdict.CABLE_FAULT, Verdict.LINK_DOWN, Verdict.UNIDIRECTIONAL):
+        chosen += [Caution.FIBER_EYES] if light else []
+        chosen += [Caution.POE_POWER] if poe else []
+        chosen += [Caution.WORK_AT_HEIGHT]
+        chosen += [Caution.MAINS] if verdict is Verdict.CABLE_FAULT else []
+        chosen += [Caution.SERVICE_BREAK]
+    elif verdict is Verdict.OPTIC_DEGRADED:
+        chosen += [Caution.FIBER_EYES, Caution.SERVICE_BREAK]
+    elif verdict in (Verdict.DUPLEX_MISMATCH, Verdict.NEGOTIATION_DEGRADED):
+        chosen += [Caution.POE_POWER] if poe else []
+        chosen += [Caution.SERVICE_BREAK]
+    elif verdict is Verdict.MTU_MISMATCH:
+        chosen += [Caution.SERVICE_BREAK]
+    if chosen:
+        chosen.append(Caution.LOCAL_CODES)
+    return [c.value for c in chosen]

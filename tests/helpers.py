@@ -1,0 +1,61 @@
+"""Small builders for hand-written snapshot lines, so tests state only what matters."""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+from linktriage.polls import PollTable
+from linktriage.snapshot import read_snapshots
+
+T0 = "2026-03-02T08:00:00Z"
+
+
+def line(
+    time: str = T0,
+    counters: dict[str, int] | None = None,
+    *,
+    device: str = "lark-test-sw1",
+    port: str = "port1",
+    oper_status: str = "up",
+    **fields: Any,
+) -> str:
+    """One snapshot line as JSON text."""
+    record = {
+        "device": device,
+        "port": port,
+        "time": time,
+        "oper_status": oper_status,
+        "counters": counters or {},
+        **fields,
+    }
+    return json.dumps(record)
+
+
+def polls(*lines: str) -> PollTable:
+    """Parse lines that must all be valid."""
+    result = read_snapshots(lines)
+    assert result.problems == [], result.problems
+    return result.polls
+
+
+def artefact_of(clf: Any, features: list[str]) -> Any:
+    """A fitted scikit-learn tree as a linktriage artefact (with a placeholder summary)."""
+    from linktriage.model.artefact import TrainingSummary, TreeArtefact, content_version
+    from linktriage.model.train import tree_arrays
+
+    arrays = tree_arrays(clf)
+    classes = [str(c) for c in clf.classes_]
+    summary = TrainingSummary(
+        seed=0, simulated_ports=0, rows=0, folds=5, ccp_alpha=0.0, selection="test",
+        cv_macro_f1=0.0, cv_macro_f1_se=0.0, best_cv_macro_f1=0.0, best_ccp_alpha=0.0,
+        per_class_recall={}, healthy_false_alarm=0.0, guard_resolution=1e-5,
+        sklearn_version="test",
+    )  # fmt: skip
+    return TreeArtefact(
+        version=content_version(features, classes, arrays),
+        features=features,
+        classes=classes,
+        tree=arrays,
+        training=summary,
+    )

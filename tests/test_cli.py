@@ -1,0 +1,146 @@
+"""The command line as an engineer uses it."""
+
+from __future__ import annotations
+
+import json
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from linktriage.cli import main
+
+COMMANDS = ["diagnose", "ask", "train", "model", "demo"]
+
+
+def run(*args: str) -> tuple[int, str, str]:
+    result = CliRunner().invoke(main, list(args))
+    return result.exit_code, result.stdout, result.stderr
+
+
+def test_diagnose_json_gives_one_object_per_port(snapshots: Path) -> None:
+    code, out, err = run(
+        "diagnose", "--snapshots", str(snapshots / "counter32-device.jsonl"), "--json"
+    )
+    assert code == 0
+    records = [json.loads(text) for text in out.splitlines()]
+    assert [r["port"] for r in records] == ["port1", "port2"]
+    assert "6 snapshots of 2 ports diagnosed; 0 lines skipped" in err
+
+
+def test_diagnose_reports_bad_lines_on_stderr_and_goes_on(snapshots: Path) -> None:
+    path = snapshots / "bad-lines.jsonl"
+    code, out, err = run("diagnose", "--snapshots", str(path))
+    assert code == 0
+    assert f"{path}:2: skipped: time: Input should have timezone info" in err
+    assert "8 lines skipped" in err
+    assert "lark-east-idf2" in out
+
+
+def test_diagnose_suspects_lists_only_faults(snapshots: Path) -> None:
+    code, out, _ = run(
+        "diagnose", "--snapshots", str(snapshots / "demo-network.jsonl"), "--suspects", "--json"
+    )
+    assert code == 0
+    verdicts = {json.loads(t)["verdict"] for t in out.splitlines()}
+    assert "healthy" not in verdicts
+    assert "cable_fault" in verdicts
+    assert "insufficient_traffic" not in verdicts  # a guard verdict is not a fault
+
+
+def test_diagnose_reads_standard_input(snapshots: Path) -> None:
+    text = (snapshots / "format-example.jsonl").read_text()
+    result = CliRunner().invoke(main, ["diagnose", "--snapshots", "-", "--json"], input=text)
+    assert result.exit_code == 0
+    assert json.loads(result.stdout)["verdict"] == "cable_fault"
+
+
+def test_diagnose_of_a_missing_file_fails_with_a_message(tmp_path: Path) -> None:
+    code, _, err = run("diagnose", "--snapshots", str(tmp_path / "none.jsonl"))
+    assert code == 1
+    assert "Cannot read snapshot file" in err
+    assert "Traceback" not in err
+
+
+def test_ask_explains_one_demo_port() -> None:
+    code, out, _ = run("ask", "lark-east-idf2", "port14")
+    assert code == 0
+    assert "cable or connector fault" in out
+    assert "Questions asked" in out and "Check next" in out and "Safety" in out
+    assert "Power over Ethernet" in out
+
+
+def test_ask_json_is_one_record() -> None:
+    code, out, _ = run("ask", "lark-core1", "up3", "--json")
+    assert code == 0
+    assert json.loads(out)["verdict"] == "unidirectional"
+
+
+def test_ask_suggests_close_names_for_an_unknown_device_or_port() -> None:
+    code, _, err = run("ask", "lark-east-idf3", "port1")
+    assert code == 1
+    assert "No device named 'lark-east-idf3'" in err
+    assert "Did you mean: lark-east-idf2" in err
+    code, _, err = run("ask", "lark-core1", "up33")
+    assert code == 1
+    assert "lark-core1 has no port named 'up33'" in err and "up3" in err
+
+
+def test_model_shows_the_card_and_json() -> None:
+    code, out, _ = run("model")
+    assert code == 0 and "leaves" in out and "1-SE" in out
+    code, out, _ = run("model", "--json")
+    card = json.loads(out)
+    assert card["leaves"] <= 40
+    assert card["criterion"] == "gini"
+    assert abs(sum(card["feature_importances"].values()) - 1.0) < 1e-3
+
+
+def test_train_writes_a_model_that_the_other_commands_then_use(tmp_path: Path) -> None:
+    target = tmp_path / "m.json"
+    code, out, _ = run("train", "--out", str(target), "--ports", "2000", "--seed", "3")
+    assert code == 0 and target.exists()
+    code, out, _ = run("model", "--model", str(target), "--json")
+    assert json.loads(out)["training"]["simulated_ports"] == 2000
+
+
+def test_train_writes_to_the_data_directory_by_default(tmp_path: Path) -> None:
+    code, _, _ = run("train", "--ports", "2000")
+    assert code == 0
+    trained = tmp_path / "home" / "model.json"  # LINKTRIAGE_HOME, set by conftest
+    assert trained.exists()
+    _, out, _ = run("model", "--json")
+    assert json.loads(out)["source"] == str(trained)
+
+
+def test_a_broken_model_file_is_a_clear_error(tmp_path: Path) -> None:
+    bad = tmp_path / "bad.json"
+    bad.write_text("{}")
+    code, _, err = run("model", "--model", str(bad))
+    assert code == 1
+    assert "is not a linktriage model artefact" in err
+
+
+def test_demo_shows_suspects_explanations_and_safety() -> None:
+    code, out, _ = run("demo")
+    assert code == 0
+    assert "Larkmoor Civic Library" in out
+    assert "$ linktriage ask lark-east-idf2 port14" in out
+    assert "Never look into a fiber" in out
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_every_command_has_help(command: str) -> None:
+    code, out, _ = run(command, "--help")
+    assert code == 0
+    assert "Usage:" in out and len(out.splitlines()) > 3
+
+
+def test_the_installed_console_script_runs() -> None:
+    exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
+    assert exe is not None
+    done = subprocess.run([exe, "--version"], capture_output=True, text=True, check=True)
+    assert done.stdout.startswith("linktriage, version ")

@@ -1,0 +1,44 @@
+"""README and help stay true to the code."""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from linktriage.cli import main
+from linktriage.verdicts import Verdict
+
+ROOT = Path(__file__).resolve().parent.parent
+README = (ROOT / "README.md").read_text(encoding="utf-8")
+
+
+def test_readme_opens_with_the_job_then_the_two_set_up_commands() -> None:
+    paragraphs = README.split("\n\n")
+    assert paragraphs[0].startswith("# linktriage")
+    assert "on-call network engineer" in paragraphs[1]
+    assert "make demo" in paragraphs[2] and "make test" in paragraphs[2]
+
+
+@pytest.mark.parametrize("command", sorted(main.commands))
+def test_every_command_and_its_options_are_in_the_readme(command: str) -> None:
+    assert f"linktriage {command}" in README
+    cmd = main.commands[command]
+    for param in cmd.params:
+        for opt in getattr(param, "opts", []):
+            if opt.startswith("--") and opt != "--help":
+                usage = re.search(rf"linktriage {command}[^\n]*", README)
+                assert usage is not None and opt in usage.group(0), (command, opt)
+
+
+def test_every_verdict_is_in_the_readme() -> None:
+    for verdict in Verdict:
+        assert f"`{verdict.value}`" in README
+
+
+def test_the_readme_ask_example_is_what_ask_prints() -> None:
+    block = README.split("$ linktriage ask lark-east-idf2 port14\n", 1)[1].split("  ...")[0]
+    out = CliRunner().invoke(main, ["ask", "lark-east-idf2", "port14"]).stdout
+    assert out.startswith(block)

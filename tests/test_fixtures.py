@@ -1,0 +1,31 @@
+"""The recorded snapshot files: current with the demo network, and diagnosed as labelled."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import pytest
+
+from linktriage.diagnosis import Model, diagnose
+from linktriage.snapshot import read_snapshot_file
+from linktriage.verdicts import Verdict
+
+FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
+sys.path.insert(0, str(FIXTURES))
+from record_demo import recordings  # noqa: E402
+
+
+def test_the_recorded_files_match_what_the_demo_network_produces() -> None:
+    for path, content in recordings().items():
+        assert path.read_text(encoding="utf-8") == content, (
+            f"rerun fixtures/record_demo.py ({path.name})"
+        )
+
+
+@pytest.mark.parametrize("verdict", list(Verdict))
+def test_each_verdict_file_is_diagnosed_as_its_verdict(verdict: Verdict, model: Model) -> None:
+    result = read_snapshot_file(FIXTURES / "snapshots" / "verdicts" / f"{verdict.value}.jsonl")
+    assert result.problems == []
+    batch = diagnose(result.polls, model)
+    assert batch.verdict == [verdict]

@@ -1,0 +1,80 @@
+"""The simulator keeps the counter relations the standards define."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from linktriage.counters import COLUMN_INDEX
+from linktriage.polls import PollTable
+from linktriage.simulate import render_polls, sample_parameters, simulate_prior
+from linktriage.verdicts import Verdict
+from linktriage.window import compute_windows
+
+
+def _ports(
+    verdict: Verdict, n: int = 300, seed: int = 1, **set_: object
+) -> tuple[pd.DataFrame, PollTable]:
+    rng = np.random.default_rng(seed)
+    params = sample_parameters([verdict] * n, rng)
+    for key, value in set_.items():
+        params[key] = value
+    names = [f"port{i}" for i in range(n)]
+    return params, render_polls(params, rng, device=["sw"] * n, port=names)
+
+
+def test_the_same_seed_simulates_the_same_counters() -> None:
+    a, labels_a = simulate_prior(500, np.random.default_rng(4))
+    b, labels_b = simulate_prior(500, np.random.default_rng(4))
+    np.testing.assert_array_equal(a.counters, b.counters)
+    np.testing.assert_array_equal(labels_a, labels_b)
+
+
+def test_in_errors_are_the_sum_of_the_dot3_receive_errors() -> None:
+    # RFC 3635 section 3.2.10: ifInErrors = Alignment + FCS + FrameTooLongs + InternalMacRx.
+    _, table = _ports(Verdict.CABLE_FAULT, dot3=True, hc=True)
+    d = compute_windows(table).deltas
+    total = d["alignment_errors"] + d["fcs_errors"] + d["frame_too_longs"] + d["mac_receive_errors"]
+    np.testing.assert_array_equal(d["in_errors"], total)
+
+
+def test_full_duplex_ports_count_no_collisions() -> None:
+    # RFC 3635: the collision counters "do not increment in full-duplex mode".
+    params, table = _ports(Verdict.DUPLEX_MISMATCH, dot3=True)
+    d = compute_windows(table).deltas
+    full = params["half_duplex"].to_numpy() == 0.0
+    assert full.any()
+    assert np.all(d["late_collisions"][full] == 0)
+    assert np.all(d["single_collisions"][full] == 0)
+
+
+def test_symbol_errors_do_not_count_at_ten_megabit() -> None:
+    # RFC 3635 dot3StatsSymbolErrors: "does not increment when operating at 10 Mb/s".
+    _, table = _ports(Verdict.CABLE_FAULT, speed_bps=10**7, max_speed_bps=10**7, dot3=True)
+    d = compute_windows(table).deltas
+    assert np.all(d["symbol_errors"] == 0)
+    assert np.any(d["fcs_errors"] > 0)
+
+
+def test_late_collisions_grow_with_the_load_at_the_half_duplex_end() -> None:
+    # The half-duplex end collides with whatever the full-duplex end sends: more receive
+    # load, more late collisions per sent frame.
+    params, table = _ports(Verdict.DUPLEX_MISMATCH, n=2000, dot3=True)
+    d = compute_windows(table).deltas
+    half = params["half_duplex"].to_numpy() == 1.0
+    load = params["rx_util"].to_numpy()[half]
+    late = (d["late_collisions"] / d["out_ucast"])[half]
+    busy = load > np.median(load)
+    assert np.median(late[busy]) > 5 * np.median(late[~busy])
+
+
+def test_counter32_devices_report_no_hc_counters() -> None:
+    _, table = _ports(Verdict.HEALTHY, hc=False)
+    assert not table.present[:, COLUMN_INDEX["ifHCInOctets"]].any()
+    assert table.present[:, COLUMN_INDEX["ifInOctets"]].all()
+    assert (table.counters[:, COLUMN_INDEX["ifInOctets"]] < 2**32).all()
+
+
+def test_devices_without_ethernet_counters_leave_them_out() -> None:
+    _, table = _ports(Verdict.HEALTHY, dot3=False)
+    assert not table.present[:, COLUMN_INDEX["dot3StatsFCSErrors"]].any()
