@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import random
 import shutil
 import subprocess
 import sys
@@ -144,3 +145,32 @@ def test_the_installed_console_script_runs() -> None:
     assert exe is not None
     done = subprocess.run([exe, "--version"], capture_output=True, text=True, check=True)
     assert done.stdout.startswith("linktriage, version ")
+
+
+def test_a_mixed_file_in_any_order_gives_each_port_its_own_verdict(
+    snapshots: Path, tmp_path: Path
+) -> None:
+    # Files from different pollers: Counter32-only with wraps, no EtherLike counters,
+    # several polls per port, bad lines among good ones; then every line shuffled.
+    sources = [
+        snapshots / "counter32-device.jsonl",
+        snapshots / "bad-lines.jsonl",
+        snapshots / "format-example.jsonl",
+        *sorted((snapshots / "verdicts").glob("*.jsonl")),
+    ]
+    alone: dict[tuple[str, str], str] = {}
+    lines: list[str] = []
+    for source in sources:
+        _, out, _ = run("diagnose", "--snapshots", str(source), "--json")
+        for text in out.splitlines():
+            record = json.loads(text)
+            alone[record["device"], record["port"]] = record["verdict"]
+        lines += source.read_text(encoding="utf-8").splitlines()
+    random.Random(5).shuffle(lines)
+    mixed = tmp_path / "mixed.jsonl"
+    mixed.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    code, out, err = run("diagnose", "--snapshots", str(mixed), "--json")
+    assert code == 0
+    together = {(r["device"], r["port"]): r["verdict"] for r in map(json.loads, out.splitlines())}
+    assert together == alone
+    assert "8 lines skipped" in err

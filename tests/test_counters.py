@@ -4,7 +4,17 @@ from __future__ import annotations
 
 import pytest
 
-from linktriage.counters import COLUMNS, QUANTITIES, Unit, max_rate_per_second
+from linktriage.counters import (
+    COLUMNS,
+    FRAME_OVERHEAD_OCTETS,
+    MAX_UNTAGGED_FRAME_OCTETS,
+    MIN_FRAME_OCTETS,
+    QUANTITIES,
+    SLOT_TIME_BITS,
+    Unit,
+    max_rate_per_second,
+)
+from linktriage.messages import QUESTIONS
 
 
 def test_hc_names_are_counter64_and_the_rest_counter32() -> None:
@@ -60,3 +70,22 @@ def test_counter64_octets_at_one_terabit_wrap_in_just_under_five_years() -> None
     # to wrap in just under 5 years".
     years = 2**64 / max_rate_per_second(Unit.OCTETS, 1e12) / (365.25 * 86400)
     assert 4.5 < years < 5.0
+
+
+def test_frame_limits_and_slot_time() -> None:
+    # IEEE 802.3 clause 4.4.2 (quoted): minFrameSize 64 octets, maxUntaggedFrameSize 1518
+    # octets, slotTime 512 bit times at 10/100 Mb/s; RFC 2819 uses the same 64 and 1518 for
+    # etherStatsUndersizePkts and etherStatsOversizePkts.
+    assert MIN_FRAME_OCTETS * 8 == SLOT_TIME_BITS
+    assert MAX_UNTAGGED_FRAME_OCTETS == 1518
+    # RFC 3635 section 3.2.7: the standard Ethernet MTU is 1500 octets.
+    assert 1500 + FRAME_OVERHEAD_OCTETS == MAX_UNTAGGED_FRAME_OCTETS
+    # 512 bit times at 10 Mb/s are 51.2 microseconds.
+    slot_s = SLOT_TIME_BITS / 10e6
+    assert slot_s == pytest.approx(51.2e-6)
+
+
+def test_the_questions_state_the_standard_limits() -> None:
+    assert "shorter than 64 octets" in QUESTIONS["runt_ratio"][0]
+    assert "after the first 512 bit times" in QUESTIONS["late_collision_ratio"][0]
+    assert "plus 18 octets" in QUESTIONS["giant_ratio"][0]

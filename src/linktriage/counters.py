@@ -17,8 +17,18 @@ from enum import StrEnum
 #: frame costs on the wire beyond its own length (IEEE 802.3 clause 4.4.2; the 96-bit gap is
 #: from memory, the frame-rate arithmetic is in the shared standards notes).
 WIRE_OVERHEAD_OCTETS = 20
-#: Minimum frame, FCS included (IEEE 802.3 clause 4.4.2 minFrameSize 512 bits; RFC 2819).
+#: Minimum frame, FCS included (IEEE 802.3 clause 4.4.2 minFrameSize 512 bits; RFC 2819:
+#: etherStatsUndersizePkts counts frames "less than 64 octets long").
 MIN_FRAME_OCTETS = 64
+#: Largest untagged frame, FCS included (IEEE 802.3 clause 4.4.2 maxUntaggedFrameSize, as
+#: quoted; RFC 2819: etherStatsOversizePkts counts frames "longer than 1518 octets").
+MAX_UNTAGGED_FRAME_OCTETS = 1518
+#: Ethernet header and FCS around the payload: 1500-octet MTU (RFC 3635 section 3.2.7)
+#: plus 18 gives the 1518-octet frame.
+FRAME_OVERHEAD_OCTETS = 18
+#: slotTime at 10 and 100 Mb/s: a collision later than this is a late collision
+#: (IEEE 802.3 clause 4.4.2, as quoted; RFC 3635 dot3StatsLateCollisions).
+SLOT_TIME_BITS = 512
 
 
 class Unit(StrEnum):

@@ -9,6 +9,8 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 
+from linktriage.counters import FRAME_OVERHEAD_OCTETS, MIN_FRAME_OCTETS, SLOT_TIME_BITS
+
 #: For each feature: the question asked when the tree splits on it (``{t}`` is the
 #: threshold as it reads), answered "yes" when the measured value is above the threshold,
 #: and the noun used when a split asks only whether the device reports it at all.
@@ -20,14 +22,19 @@ QUESTIONS: dict[str, tuple[str, str]] = {
         "receive error counts",
     ),
     "runt_ratio": (
-        "More than {t} received frames are runts, shorter than 64 octets?",
+        f"More than {{t}} received frames are runts, shorter than {MIN_FRAME_OCTETS} octets?",
         "runt counts (RMON)",
     ),
     "giant_ratio": (
-        "More than {t} received frames too long for this port?",
+        "More than {t} received frames too long for this port "
+        f"(its MTU plus {FRAME_OVERHEAD_OCTETS} octets of header and FCS)?",
         "frame-too-long counts",
     ),
-    "late_collision_ratio": ("Late collisions on more than {t} sent frames?", "late collisions"),
+    "late_collision_ratio": (
+        f"Late collisions (after the first {SLOT_TIME_BITS} bit times) on more than {{t}} "
+        "sent frames?",
+        "late collisions",
+    ),
     "collision_ratio": ("Collisions on more than {t} sent frames?", "collision counts"),
     "in_discard_ratio": (
         "More than {t} received frames discarded without an error?",

@@ -21,6 +21,7 @@ Physics used:
   load it sends itself (the half-duplex end aborts and jams).
 * Optic degradation: bit error ratio climbs steeply as received power approaches the
   receiver's sensitivity (a steep BER-vs-power curve; the slope here is illustrative).
+  Optical powers are reported as SFF-8472 words of 0.1 uW, so they carry its rounding.
 
 Nuisances make the prior honest: stray errors on healthy ports, devices without EtherLike
 or RMON counters, Counter32-only devices, unknown maximum speed, transceivers without
@@ -36,6 +37,7 @@ import numpy as np
 import pandas as pd
 
 from linktriage.counters import COLUMN_INDEX, COLUMNS, QUANTITIES, WIRE_OVERHEAD_OCTETS
+from linktriage.optics import sff8472_power_dbm, sff8472_power_raw
 from linktriage.polls import PollTable
 from linktriage.verdicts import TREE_VERDICTS, Verdict
 
@@ -386,10 +388,16 @@ def _window_counts(
     """How much each quantity grows over the whole window, drawn from the parameters."""
     n = len(p)
     rx_pkts = np.floor(
-        p["rx_util"].to_numpy() * speed * dt / ((p["rx_frame_octets"].to_numpy() + 20) * 8)
+        p["rx_util"].to_numpy()
+        * speed
+        * dt
+        / ((p["rx_frame_octets"].to_numpy() + WIRE_OVERHEAD_OCTETS) * 8)
     )
     tx_pkts = np.floor(
-        p["tx_util"].to_numpy() * speed * dt / ((p["tx_frame_octets"].to_numpy() + 20) * 8)
+        p["tx_util"].to_numpy()
+        * speed
+        * dt
+        / ((p["tx_frame_octets"].to_numpy() + WIRE_OVERHEAD_OCTETS) * 8)
     )
     bits = p["rx_frame_octets"].to_numpy() * 8
     fer = -np.expm1(bits * np.log1p(-p["rx_ber"].to_numpy()))
@@ -441,6 +449,12 @@ def _window_counts(
     }
 
 
+def _as_reported(dbm: np.ndarray) -> np.ndarray:
+    """A power in dBm as a module reports it: an SFF-8472 word of 0.1 uW, read back."""
+    reported = sff8472_power_dbm(sff8472_power_raw(dbm)).round(2)
+    return np.where(np.isnan(dbm), np.nan, reported)
+
+
 def _optics(p: pd.DataFrame, rng: Rng) -> dict[str, np.ndarray]:
     """Transceiver readings for fiber ports with diagnostics; NaN elsewhere."""
     alarm = p["rx_alarm_dbm"].to_numpy(np.float64)
@@ -449,10 +463,10 @@ def _optics(p: pd.DataFrame, rng: Rng) -> dict[str, np.ndarray]:
     n = len(p)
     nan = np.full(n, np.nan)
     return {
-        "rx_power_dbm": np.where(has, alarm + margin, nan),
+        "rx_power_dbm": _as_reported(np.where(has, alarm + margin, nan)),
         "rx_power_low_alarm_dbm": np.where(has, alarm, nan),
         "rx_power_low_warn_dbm": np.where(has, alarm + rng.uniform(1.0, 3.0, n), nan),
-        "tx_power_dbm": np.where(has, p["tx_power_dbm"].to_numpy(np.float64), nan),
+        "tx_power_dbm": _as_reported(np.where(has, p["tx_power_dbm"].to_numpy(np.float64), nan)),
         "tx_power_low_alarm_dbm": np.where(has, -11.0, nan),
         "temperature_c": np.where(has, rng.uniform(25.0, 55.0, n), nan),
         "bias_ma": np.where(has, rng.uniform(5.0, 40.0, n), nan),
