@@ -174,3 +174,12 @@ def test_a_mixed_file_in_any_order_gives_each_port_its_own_verdict(
     together = {(r["device"], r["port"]): r["verdict"] for r in map(json.loads, out.splitlines())}
     assert together == alone
     assert "8 lines skipped" in err
+
+
+def test_a_reader_that_stops_early_gets_no_traceback(snapshots: Path) -> None:
+    exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
+    assert exe is not None
+    path = snapshots / "demo-network.jsonl"
+    cmd = f"'{exe}' diagnose --json --snapshots '{path}' | head -c 100 > /dev/null"
+    done = subprocess.run(["bash", "-c", cmd], capture_output=True, text=True, check=False)
+    assert "Traceback" not in done.stderr

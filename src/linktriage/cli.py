@@ -48,6 +48,7 @@ class _Group(click.Group):
             _fail(exc)
 
 
+
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="linktriage")
 def main() -> None:
@@ -201,6 +202,15 @@ def model(as_json: bool, model_path: Path | None) -> None:
         click.echo(model_card(loaded.artefact, source=loaded.source))
 
 
+# The planted faults the demo walks through in full; the rest appear in its table.
+_DEMO_STORIES = {
+    Verdict.CABLE_FAULT,
+    Verdict.DUPLEX_MISMATCH,
+    Verdict.OPTIC_DEGRADED,
+    Verdict.INSUFFICIENT_TRAFFIC,
+}
+
+
 @main.command()
 @_model_option
 def demo(model_path: Path | None) -> None:
@@ -234,12 +244,3 @@ def demo(model_path: Path | None) -> None:
         f"\n{'=' * 88}\nAsk about any other port: linktriage ask DEVICE PORT "
         "(e.g. linktriage ask lark-core1 up3)."
     )
-
-
-# The planted faults the demo walks through in full; the rest appear in its table.
-_DEMO_STORIES = {
-    Verdict.CABLE_FAULT,
-    Verdict.DUPLEX_MISMATCH,
-    Verdict.OPTIC_DEGRADED,
-    Verdict.INSUFFICIENT_TRAFFIC,
-}

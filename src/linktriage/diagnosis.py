@@ -8,7 +8,7 @@ is built only when asked for, with the per-leaf wording worked out once.
 from __future__ import annotations
 
 from collections.abc import Iterator
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
 from typing import TypedDict
@@ -63,19 +63,14 @@ class DiagnosisRecord(TypedDict):
     note: str | None
 
 
-@dataclass(frozen=True)
 class Model:
     """A loaded model: the artefact, its compiled arrays and the question wording."""
 
-    artefact: TreeArtefact
-    tree: CompiledTree = field(init=False)
-    explainer: Explainer = field(init=False)
-    source: str = "the packaged default model"
-
-    def __post_init__(self) -> None:
-        tree = CompiledTree(self.artefact)
-        object.__setattr__(self, "tree", tree)
-        object.__setattr__(self, "explainer", Explainer(tree))
+    def __init__(self, artefact: TreeArtefact, *, source: str = "the packaged default model"):
+        self.artefact = artefact
+        self.source = source  # where it was loaded from, for the model card
+        self.tree = CompiledTree(artefact)
+        self.explainer = Explainer(self.tree)
 
     @property
     def version(self) -> str:

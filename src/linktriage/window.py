@@ -86,28 +86,51 @@ class WindowTable:
 def compute_windows(polls: PollTable, *, max_window_s: float = DEFAULT_MAX_WINDOW_S) -> WindowTable:
     """Group polls by port and compute each port's window (see the module docstring)."""
     keys = polls.device.astype(object) + "\x1f" + polls.port.astype(object)
-    codes, uniques = pd.factorize(pd.Series(keys, dtype=object), sort=False)
+    codes, _ = pd.factorize(pd.Series(keys, dtype=object), sort=False)
     order = np.lexsort((polls.time, codes))
     codes_s = codes[order]
     time_s = polls.time[order]
     # Same port, same time: keep the later line (lexsort is stable, so it sorts last).
     dup = np.zeros(len(order), np.bool_)
     dup[:-1] = (codes_s[1:] == codes_s[:-1]) & (time_s[1:] == time_s[:-1])
-    order = order[~dup]
-    p = polls.take(order)
-    codes_s = codes_s[~dup]
-    return _windows_of_sorted(p, codes_s, len(uniques), max_window_s)
+    if len(order) == 0:
+        return _no_windows()
+    return _windows_of_sorted(polls.take(order[~dup]), codes_s[~dup], max_window_s)
+
+
+def _no_windows() -> WindowTable:
+    """The windows of a table with no polls: no ports."""
+    none = np.zeros(0)
+    whole = np.zeros(0, np.int64)
+    return WindowTable(
+        device=np.zeros(0, object),
+        port=np.zeros(0, object),
+        status=np.zeros(0, np.int8),
+        note=np.zeros(0, object),
+        polls_used=whole,
+        polls_seen=whole,
+        resets=whole,
+        start_time=none,
+        end_time=none,
+        window_s=none,
+        oper_status=np.zeros(0, object),
+        state=dict.fromkeys(STATE_FIELDS, none),
+        optics=dict.fromkeys(OPTICS_FIELDS, none),
+        deltas={q.key: none for q in QUANTITIES},
+        link_changes=none,
+        status_changes=whole,
+    )
 
 
 def _windows_of_sorted(
-    p: PollTable, codes: npt.NDArray[np.intp], n_ports: int, max_window_s: float
+    p: PollTable, codes: npt.NDArray[np.intp], max_window_s: float
 ) -> WindowTable:
     m = len(p)
     idx = np.arange(m)
     start = np.ones(m, np.bool_)
     start[1:] = codes[1:] != codes[:-1]
     starts = np.flatnonzero(start)
-    last = np.r_[starts[1:] - 1, m - 1] if m else np.zeros(0, np.intp)
+    last = np.r_[starts[1:] - 1, m - 1]
 
     # --- every interval (row i against row i-1); row 0 and port starts are not intervals
     interval = ~start
@@ -167,13 +190,13 @@ def _windows_of_sorted(
     partial[1:] = incomplete[:-1] & interval[1:]
 
     # --- the window: since the last reset, reaching back at most max_window_s
-    seg = np.maximum.accumulate(np.where(start | reset | partial, idx, 0)) if m else idx
+    seg = np.maximum.accumulate(np.where(start | reset | partial, idx, 0))
     seg_start = seg[last]
     cutoff = p.time[last] - max_window_s
     candidate = np.where(
         (p.time >= cutoff[group_of_row]) & (idx >= seg_start[group_of_row]), idx, m
     )
-    first_ok = np.minimum.reduceat(candidate, starts) if m else candidate
+    first_ok = np.minimum.reduceat(candidate, starts)
     win_start = np.where(
         seg_start < last, np.maximum(seg_start, np.minimum(first_ok, last - 1)), last
     )
@@ -197,7 +220,7 @@ def _windows_of_sorted(
     flips[1:] = p.oper_status[1:] != p.oper_status[:-1]
 
     polls_seen = np.diff(np.r_[starts, m])
-    resets = np.add.reduceat(reset.astype(np.int64), starts) if m else np.zeros(0, np.int64)
+    resets = np.add.reduceat(reset.astype(np.int64), starts)
     oper = p.oper_status[last]
     no_counters = np.all(np.isnan(np.stack(list(deltas.values()), axis=1)), axis=1)
     status, note = _status(oper, polls_used, polls_seen, no_counters, partial[last] & ~reset[last])
