@@ -90,6 +90,14 @@ def test_ask_suggests_close_names_for_an_unknown_device_or_port() -> None:
     assert "lark-core1 has no port named 'up33'" in err and "up3" in err
 
 
+def test_ask_takes_a_unique_part_of_a_device_name_and_refuses_an_ambiguous_one() -> None:
+    code, out, _ = run("ask", "idf2", "PORT14")
+    assert code == 0 and "lark-east-idf2 port14: cable or connector fault" in out
+    code, _, err = run("ask", "east", "port1")
+    assert code == 1
+    assert "'east' fits 2 devices" in err and "lark-east-idf1, lark-east-idf2" in err
+
+
 def test_model_shows_the_card_and_json() -> None:
     code, out, _ = run("model")
     assert code == 0 and "leaves" in out and "1-SE" in out

@@ -3,8 +3,14 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
-from linktriage.demo_network import ORGANISATION, PLANTED, demo_polls, demo_ports
+from linktriage.counters import COLUMN_INDEX
+from linktriage.demo_network import ORGANISATION, PLANTED, DemoNetwork, demo_polls, demo_ports
+from linktriage.diagnosis import Model, diagnose
+from linktriage.errors import PollError
+from linktriage.polls import PollTable
+from linktriage.simulate import DEFAULT_START
 from linktriage.verdicts import Verdict
 
 
@@ -28,3 +34,33 @@ def test_the_demo_is_the_same_on_every_run() -> None:
 def test_names_belong_to_the_invented_organisation() -> None:
     assert ORGANISATION == "Larkmoor Civic Library"
     assert all(p.device.startswith("lark-") for p in demo_ports())
+
+
+def test_the_live_network_grows_its_counters_with_time() -> None:
+    clock = [DEFAULT_START]
+    network = DemoNetwork(clock=lambda: clock[0])
+    first = network.poll("lark-east-idf2", ["port1", "port14"])
+    clock[0] += 300.0
+    second = network.poll("lark-east-idf2", ["port1", "port14"])
+    assert (second.time - first.time == 300.0).all()
+    column = COLUMN_INDEX["ifHCInOctets"]
+    assert (second.counters[:, column] > first.counters[:, column]).all()
+
+
+def test_polls_five_minutes_apart_are_the_recorded_demo(model: Model) -> None:
+    clock = [DEFAULT_START - 300.0]
+    network = DemoNetwork(clock=lambda: clock[0])
+    before = network.poll("lark-east-idf2")
+    clock[0] = DEFAULT_START
+    after = network.poll("lark-east-idf2")
+    live = diagnose(PollTable.concat([before, after]), model)
+    recorded = diagnose(demo_polls(), model)
+    for i, port in enumerate(live.port):
+        row = recorded.index_of("lark-east-idf2", port)
+        assert row is not None
+        assert live.record(i) == recorded.record(row)
+
+
+def test_polling_a_device_outside_the_network_names_it() -> None:
+    with pytest.raises(PollError, match="lark-nowhere"):
+        DemoNetwork().poll("lark-nowhere")

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import difflib
 import json
 import sys
 from collections.abc import Callable, Sequence
@@ -12,7 +11,7 @@ from typing import Any, TypeVar
 import click
 
 from linktriage import __version__
-from linktriage.errors import LinktriageError, UnknownPortError
+from linktriage.errors import LinktriageError
 from linktriage.verdicts import FAULTS, Verdict
 
 F = TypeVar("F", bound=Callable[..., Any])
@@ -46,7 +45,6 @@ class _Group(click.Group):
             return super().invoke(ctx)
         except LinktriageError as exc:
             _fail(exc)
-
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
@@ -107,20 +105,6 @@ def diagnose(
     )
 
 
-def _find_port(devices: dict[str, list[str]], device: str, port: str) -> None:
-    """Refuse a device or port the network does not have, naming the closest ones."""
-    if device not in devices:
-        raise UnknownPortError(
-            f"No device named {device!r} in the demo network.",
-            suggestions=difflib.get_close_matches(device, list(devices), n=3, cutoff=0.5),
-        )
-    if port not in devices[device]:
-        raise UnknownPortError(
-            f"{device} has no port named {port!r}.",
-            suggestions=difflib.get_close_matches(port, devices[device], n=3, cutoff=0.5),
-        )
-
-
 @main.command()
 @click.argument("device")
 @click.argument("port")
@@ -128,17 +112,14 @@ def _find_port(devices: dict[str, list[str]], device: str, port: str) -> None:
 @_model_option
 def ask(device: str, port: str, as_json: bool, model_path: Path | None) -> None:
     """Diagnose one port of the demo network, with the full explanation."""
-    from linktriage.demo_network import demo_polls, demo_ports
+    from linktriage.demo_network import DemoNetwork, demo_polls
     from linktriage.diagnosis import Model, diagnose
     from linktriage.render.jsonl import dumps
     from linktriage.render.text import explanation
 
-    devices: dict[str, list[str]] = {}
-    for p in demo_ports():
-        devices.setdefault(p.device, []).append(p.port)
-    _find_port(devices, device, port)
+    ref = DemoNetwork().find(device, port)
     batch = diagnose(demo_polls(), Model.load(model_path))
-    row = batch.index_of(device, port)
+    row = batch.index_of(ref.device, ref.port)
     assert row is not None  # every demo port is polled
     record = batch.record(row)
     click.echo(dumps(record) if as_json else explanation(record))

@@ -3,18 +3,32 @@
 Two sites: the central library (a core switch and wiring closets in the east and west
 wings) and a branch annex. Most ports are healthy; a handful carry one planted fault each,
 so the demo and the documentation can show every verdict on ports with a story behind
-them. Counters come from :mod:`linktriage.simulate`, deterministically for a given seed.
+them. Counters come from :mod:`linktriage.simulate`, deterministically for a given seed,
+and grow with time: the network can be polled at any moment, like real switches.
 """
 
 from __future__ import annotations
 
+import time
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+import pandas as pd
 
+from linktriage.errors import PollError
+from linktriage.network import Network, PortRef
 from linktriage.polls import PollTable
-from linktriage.simulate import DEFAULT_START, G, M, render_polls, sample_parameters
+from linktriage.simulate import (
+    DEFAULT_START,
+    Expect,
+    G,
+    M,
+    PortConstants,
+    sample_parameters,
+    window_counts,
+)
 from linktriage.verdicts import Verdict
 
 ORGANISATION = "Larkmoor Civic Library"
@@ -121,9 +135,9 @@ PLANTED: tuple[DemoPort, ...] = (
         "annex",
         "lark-annex-sw1",
         "port11",
-        "new self-service terminal, added this morning",
+        "self-service terminal; a script clears its counters at every poll",
         Verdict.NO_DATA,
-        {**_COPPER_1G, "polls": 1},
+        {**_COPPER_1G, "cleared": True},
     ),
 )
 
@@ -159,20 +173,82 @@ _SAMPLED_AS = {
     Verdict.LINK_DOWN: Verdict.HEALTHY,
     Verdict.NO_DATA: Verdict.HEALTHY,
 }
+# Counters start this long before the fixed demo time, so every poll finds them running.
+_RUNNING_S = 86_400.0
 
 
-def demo_polls(*, seed: int = DEFAULT_SEED, end_time: float = DEFAULT_START) -> PollTable:
-    """Two polls, five minutes apart, of every demo port (one poll where none is planted)."""
-    ports = demo_ports()
-    rng = np.random.default_rng(seed)
+class DemoNetwork(Network):
+    """Larkmoor's ports with counters that grow smoothly with time: poll it at any moment.
+
+    Each port's counters rise at the mean rates of its simulated parameters, so two polls
+    any time apart give the window a real switch would; ``clock`` says what time it is.
+    """
+
+    def __init__(self, *, seed: int = DEFAULT_SEED, clock: Callable[[], float] = time.time) -> None:
+        self.clock = clock
+        self.seed = seed
+        self._ports = demo_ports()
+        self._refs = [PortRef(p.site, p.device, p.port, p.serves) for p in self._ports]
+        rng = np.random.default_rng(seed)
+        self.params = _parameters(self._ports, rng)
+        self.epoch = DEFAULT_START - _RUNNING_S
+        self.constants = PortConstants.draw(self.params, rng, np.full(len(self._ports), self.epoch))
+        reference = 1e6  # rates from a long window, so that rounding down costs nothing
+        counts = window_counts(self.params, Expect(), np.full(len(self._ports), reference))
+        self.rates = {key: value / reference for key, value in counts.items()}
+        self.flaps_per_s = (
+            self.params["link_changes"].to_numpy() / self.params["window_s"].to_numpy()
+        )
+        self._rows = {(p.device, p.port): i for i, p in enumerate(self._ports)}
+
+    def ports(self) -> list[PortRef]:
+        return list(self._refs)
+
+    def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
+        refs = self.devices().get(device)
+        if refs is None:
+            raise PollError(device, "not part of the demo network")
+        names = [r.port for r in refs] if ports is None else list(ports)
+        rows = np.array([self._rows[(device, name)] for name in names], np.intp)
+        return self.poll_rows(rows, self.clock())
+
+    def poll_all(self, at: float) -> PollTable:
+        """Every port of the network, read at ``at``."""
+        return self.poll_rows(np.arange(len(self._ports)), at)
+
+    def poll_rows(self, rows: np.ndarray, at: float) -> PollTable:
+        p = self.params.iloc[rows].reset_index(drop=True)
+        elapsed = at - self.epoch
+        cleared = p["cleared"].to_numpy(np.bool_)
+        steps = {k: np.where(cleared, 0.0, v[rows] * elapsed) for k, v in self.rates.items()}
+        constants = PortConstants(
+            starts={k: v[rows] for k, v in self.constants.starts.items()},
+            link_changes=self.constants.link_changes[rows],
+            discontinuity=np.where(cleared, at, self.constants.discontinuity[rows]),
+            reported=self.constants.reported[rows],
+        )
+        return constants.table(
+            p,
+            np.random.default_rng(self.seed),  # the same transceiver readings at every poll
+            steps,
+            device=[self._ports[i].device for i in rows],
+            port=[self._ports[i].port for i in rows],
+            time=np.full(len(rows), at),
+            down=p["down"].to_numpy(np.bool_),
+            link_changes=self.flaps_per_s[rows] * elapsed,
+        )
+
+
+def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame:
+    """Simulation parameters of every demo port, with the planted overrides applied."""
     labels = [
         Verdict.HEALTHY if p.planted is None else _SAMPLED_AS.get(p.planted, p.planted)
         for p in ports
     ]
     params = sample_parameters(labels, rng)
     params["window_s"] = 300.0
-    params["polls"] = 2
     params["stray_errors"] = 0.0
+    params["cleared"] = False
     # Office hours on gigabit desk outlets: every healthy port carries enough to be judged.
     background = [row for row, p in enumerate(ports) if p.planted is None]
     for key, value in {**_COPPER_1G, "half_duplex": 0.0, "mtu": 1500.0}.items():
@@ -182,10 +258,10 @@ def demo_polls(*, seed: int = DEFAULT_SEED, end_time: float = DEFAULT_START) -> 
     for row, port in enumerate(ports):
         for key, value in port.overrides.items():
             params.loc[row, key] = value
-    return render_polls(
-        params,
-        rng,
-        device=[p.device for p in ports],
-        port=[p.port for p in ports],
-        end_time=end_time,
-    )
+    return params
+
+
+def demo_polls(*, seed: int = DEFAULT_SEED, end_time: float = DEFAULT_START) -> PollTable:
+    """Two polls, five minutes apart, of every port of the demo network."""
+    network = DemoNetwork(seed=seed)
+    return PollTable.concat([network.poll_all(end_time - 300.0), network.poll_all(end_time)])

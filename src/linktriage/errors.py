@@ -5,7 +5,9 @@
     LinktriageError          anything linktriage raises on purpose
     ├── InputError           something a person supplied is wrong; safe to show as it is
     │   ├── SnapshotFileError    a snapshot file cannot be opened or decoded at all
-    │   └── UnknownPortError     a device or port name that is not known (with close matches)
+    │   ├── UnknownPortError     a device or port name that is not known (with close matches)
+    │   └── AmbiguousNameError   a short name that fits several devices (with the candidates)
+    ├── PollError            a device could not be read; names the device
     └── ModelError           a model artefact is missing, malformed or of another format
 
 A malformed *line* of a snapshot file is not an exception: it is reported as a
@@ -44,6 +46,22 @@ class UnknownPortError(InputError):
         hint = f"Did you mean: {', '.join(suggestions)}?" if suggestions else None
         super().__init__(message, hint=hint)
         self.suggestions = suggestions
+
+
+class AmbiguousNameError(InputError):
+    """A short name that fits several devices; ``candidates`` lists them."""
+
+    def __init__(self, message: str, *, candidates: list[str]) -> None:
+        super().__init__(message, hint=f"Which one: {', '.join(candidates)}?")
+        self.candidates = candidates
+
+
+class PollError(LinktriageError):
+    """A device could not be read (timeout, refusal, garbage); ``device`` names it."""
+
+    def __init__(self, device: str, message: str, *, hint: str | None = None) -> None:
+        super().__init__(f"{device}: {message}", hint=hint)
+        self.device = device
 
 
 class ModelError(LinktriageError):

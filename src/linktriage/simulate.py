@@ -32,6 +32,7 @@ windows.
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -300,66 +301,100 @@ def render_polls(
     """Cumulative counters at two or three polls per port, as a poller would read them."""
     n = len(params)
     p = params.reset_index(drop=True)
-    speed = p["speed_bps"].to_numpy(np.float64)
     dt = p["window_s"].to_numpy(np.float64)
-    counts = _window_counts(p, rng, speed, dt)
+    counts = window_counts(p, Draw(rng), dt)
 
     end = np.broadcast_to(np.asarray(end_time, np.float64), (n,))
     polls = p["polls"].to_numpy(np.int64)
     fractions = [np.zeros(n), np.where(polls == 3, rng.uniform(0.3, 0.7, n), np.nan), np.ones(n)]
-    hc = p["hc"].to_numpy(np.bool_)
-    dot3 = p["dot3"].to_numpy(np.bool_)
-    rmon = p["rmon"].to_numpy(np.bool_)
-    starts = {
-        c.name: (
-            rng.integers(0, 2**32, n, dtype=np.uint64)
-            if c.bits == 32
-            else rng.integers(0, 2**48, n, dtype=np.uint64)
-        )
-        for c in COLUMNS
-    }
-    lc0 = rng.integers(0, 40, n).astype(np.float64)
-    disc = np.where(rng.random(n) < 0.5, end - rng.uniform(86_400, 90 * 86_400, n), np.nan)
-    reported = _reported_columns(hc, dot3, rmon)
-
+    ports = PortConstants.draw(p, rng, end)
     tables = []
     for k, frac in enumerate(fractions):
         keep = polls >= (2, 3, 1)[k]
         f = np.nan_to_num(frac)
+        steps = {key: counts[key] * f for key in counts}
+        last = k == len(fractions) - 1
+        down = last & p["down"].to_numpy(np.bool_)
+        table = ports.table(
+            p, rng, steps, device=device, port=port, time=end - dt * (1.0 - f), down=down,
+            link_changes=p["link_changes"].to_numpy() * f,
+        )  # fmt: skip
+        tables.append(table.take(np.flatnonzero(keep)))
+    return PollTable.concat(tables)
+
+
+@dataclass(frozen=True, slots=True)
+class PortConstants:
+    """What a simulated port keeps from poll to poll: counter offsets, names it reports."""
+
+    starts: dict[str, np.ndarray]  # counter name -> value at the start
+    link_changes: np.ndarray
+    discontinuity: np.ndarray
+    reported: np.ndarray
+
+    @classmethod
+    def draw(cls, p: pd.DataFrame, rng: Rng, end: np.ndarray) -> PortConstants:
+        n = len(p)
+        starts = {
+            c.name: (
+                rng.integers(0, 2**32, n, dtype=np.uint64)
+                if c.bits == 32
+                else rng.integers(0, 2**48, n, dtype=np.uint64)
+            )
+            for c in COLUMNS
+        }
+        lc0 = rng.integers(0, 40, n).astype(np.float64)
+        disc = np.where(rng.random(n) < 0.5, end - rng.uniform(86_400, 90 * 86_400, n), np.nan)
+        reported = _reported_columns(
+            p["hc"].to_numpy(np.bool_), p["dot3"].to_numpy(np.bool_), p["rmon"].to_numpy(np.bool_)
+        )
+        return cls(starts, lc0, disc, reported)
+
+    def table(
+        self,
+        p: pd.DataFrame,
+        rng: Rng,
+        steps: dict[str, np.ndarray],
+        *,
+        device: Sequence[str],
+        port: Sequence[str],
+        time: np.ndarray,
+        down: np.ndarray,
+        link_changes: np.ndarray,
+        discontinuity: np.ndarray | None = None,
+    ) -> PollTable:
+        """The poll table when each quantity has grown by ``steps`` since the start."""
+        n = len(p)
         counters = np.zeros((n, len(COLUMNS)), np.uint64)
         for q in QUANTITIES:
-            step = np.floor(counts[q.key] * f).astype(np.uint64)
+            step = np.floor(steps[q.key]).astype(np.uint64)
             for name in (q.hc, q.c32):
                 if name is not None:
                     j = COLUMN_INDEX[name]
-                    value = starts[name] + step  # unsigned: wraps modulo 2^64
+                    value = self.starts[name] + step  # unsigned: wraps modulo 2^64
                     if COLUMNS[j].bits == 32:
                         value &= np.uint64(0xFFFFFFFF)
                     counters[:, j] = value
-        last = k == len(fractions) - 1
-        status = np.where(last & p["down"].to_numpy(np.bool_), "down", "up").astype(object)
-        links = lc0 + np.floor(p["link_changes"].to_numpy() * f)
-        table = PollTable.from_columns(
+        links = self.link_changes + np.floor(link_changes)
+        return PollTable.from_columns(
             device=np.asarray(device, dtype=object),
             port=np.asarray(port, dtype=object),
-            time=end - dt * (1.0 - f),
-            oper_status=status,
+            time=time,
+            oper_status=np.where(down, "down", "up").astype(object),
             state={
-                "speed_bps": speed,
+                "speed_bps": p["speed_bps"].to_numpy(np.float64),
                 "max_speed_bps": p["max_speed_bps"].to_numpy(np.float64),
                 "mtu": p["mtu"].to_numpy(np.float64),
                 "link_changes": np.where(p["reports_link_changes"], links, np.nan),
-                "discontinuity": disc,
+                "discontinuity": self.discontinuity if discontinuity is None else discontinuity,
                 "half_duplex": p["half_duplex"].to_numpy(np.float64),
                 "fiber": p["fiber"].to_numpy(np.float64),
                 "poe": p["poe"].to_numpy(np.float64),
             },
             optics=_optics(p, rng),
             counters=counters,
-            present=reported.copy(),
+            present=self.reported.copy(),
         )
-        tables.append(table.take(np.flatnonzero(keep)))
-    return PollTable.concat(tables)
 
 
 def _reported_columns(hc: np.ndarray, dot3: np.ndarray, rmon: np.ndarray) -> np.ndarray:
@@ -382,11 +417,40 @@ def _reported_columns(hc: np.ndarray, dot3: np.ndarray, rmon: np.ndarray) -> np.
     return present
 
 
-def _window_counts(
-    p: pd.DataFrame, rng: Rng, speed: np.ndarray, dt: np.ndarray
-) -> dict[str, np.ndarray]:
-    """How much each quantity grows over the whole window, drawn from the parameters."""
+class Draw:
+    """Counts drawn at random around their means, for the training prior."""
+
+    def __init__(self, rng: Rng) -> None:
+        self.rng = rng
+
+    def binomial(self, n: np.ndarray, p: np.ndarray) -> np.ndarray:
+        return self.rng.binomial(n.astype(np.int64), np.clip(p, 0.0, 1.0)).astype(np.float64)
+
+    def poisson(self, mean: np.ndarray) -> np.ndarray:
+        return self.rng.poisson(mean).astype(np.float64)
+
+    def uniform(self, low: float, high: float, n: int) -> np.ndarray:
+        return self.rng.uniform(low, high, n)
+
+
+class Expect:
+    """Counts at their means, so that counters grow smoothly with time (the live demo)."""
+
+    def binomial(self, n: np.ndarray, p: np.ndarray) -> np.ndarray:
+        mean: np.ndarray = n * np.clip(p, 0.0, 1.0)
+        return mean
+
+    def poisson(self, mean: np.ndarray) -> np.ndarray:
+        return np.array(mean, np.float64)
+
+    def uniform(self, low: float, high: float, n: int) -> np.ndarray:
+        return np.full(n, (low + high) / 2)
+
+
+def window_counts(p: pd.DataFrame, draw: Draw | Expect, dt: np.ndarray) -> dict[str, np.ndarray]:
+    """How much each quantity grows over a window of ``dt`` seconds."""
     n = len(p)
+    speed = p["speed_bps"].to_numpy(np.float64)
     rx_pkts = np.floor(
         p["rx_util"].to_numpy()
         * speed
@@ -402,48 +466,48 @@ def _window_counts(
     bits = p["rx_frame_octets"].to_numpy() * 8
     fer = -np.expm1(bits * np.log1p(-p["rx_ber"].to_numpy()))
     fer = np.clip(fer + p["extra_crc_ratio"].to_numpy(), 0.0, 0.5)
-    crc = rng.binomial(rx_pkts.astype(np.int64), fer) + rng.poisson(p["stray_errors"].to_numpy())
-    alignment = rng.binomial(crc, np.clip(p["alignment_share"].to_numpy(), 0, 1))
+    crc = draw.binomial(rx_pkts, fer) + draw.poisson(p["stray_errors"].to_numpy())
+    alignment = draw.binomial(crc, p["alignment_share"].to_numpy())
     fcs = crc - alignment
     ten_meg = speed <= 10 * M  # symbol errors do not increment at 10 Mb/s (RFC 3635)
-    symbols = np.where(ten_meg, 0, rng.poisson(crc * p["symbols_per_error"].to_numpy()))
-    giants = rng.poisson(rx_pkts * p["giant_ratio"].to_numpy())
-    fragments = rng.poisson(rx_pkts * p["runt_ratio"].to_numpy())
-    undersize = rng.poisson(rx_pkts * 1e-9)
-    in_disc = rng.poisson(rx_pkts * p["in_discard_ratio"].to_numpy())
-    out_disc = rng.poisson(tx_pkts * p["out_discard_ratio"].to_numpy())
-    late = rng.poisson(tx_pkts * p["late_ratio"].to_numpy())
-    coll = rng.poisson(tx_pkts * p["collision_ratio"].to_numpy())
-    single = rng.binomial(coll, 0.7)
-    excessive = rng.binomial(coll - single, 0.02)
+    symbols = np.where(ten_meg, 0.0, draw.poisson(crc * p["symbols_per_error"].to_numpy()))
+    giants = draw.poisson(rx_pkts * p["giant_ratio"].to_numpy())
+    fragments = draw.poisson(rx_pkts * p["runt_ratio"].to_numpy())
+    undersize = draw.poisson(rx_pkts * 1e-9)
+    in_disc = draw.poisson(rx_pkts * p["in_discard_ratio"].to_numpy())
+    out_disc = draw.poisson(tx_pkts * p["out_discard_ratio"].to_numpy())
+    late = draw.poisson(tx_pkts * p["late_ratio"].to_numpy())
+    coll = draw.poisson(tx_pkts * p["collision_ratio"].to_numpy())
+    single = draw.binomial(coll, np.full(n, 0.7))
+    excessive = draw.binomial(coll - single, np.full(n, 0.02))
     multiple = coll - single - excessive
-    mcast_in = rng.uniform(0.005, 0.05, n)
-    mcast_out = rng.uniform(0.005, 0.05, n)
+    mcast_in = draw.uniform(0.005, 0.05, n)
+    mcast_out = draw.uniform(0.005, 0.05, n)
     return {
-        "in_octets": np.floor(rx_pkts * p["rx_frame_octets"].to_numpy()),
-        "out_octets": np.floor(tx_pkts * p["tx_frame_octets"].to_numpy()),
-        "in_ucast": np.floor(rx_pkts * (1 - 2 * mcast_in)),
-        "in_mcast": np.floor(rx_pkts * mcast_in),
-        "in_bcast": np.floor(rx_pkts * mcast_in),
-        "out_ucast": np.floor(tx_pkts * (1 - 2 * mcast_out)),
-        "out_mcast": np.floor(tx_pkts * mcast_out),
-        "out_bcast": np.floor(tx_pkts * mcast_out),
+        "in_octets": rx_pkts * p["rx_frame_octets"].to_numpy(),
+        "out_octets": tx_pkts * p["tx_frame_octets"].to_numpy(),
+        "in_ucast": rx_pkts * (1 - 2 * mcast_in),
+        "in_mcast": rx_pkts * mcast_in,
+        "in_bcast": rx_pkts * mcast_in,
+        "out_ucast": tx_pkts * (1 - 2 * mcast_out),
+        "out_mcast": tx_pkts * mcast_out,
+        "out_bcast": tx_pkts * mcast_out,
         # RFC 3635 section 3.2.10: ifInErrors sums alignment, FCS, too-long and MAC errors.
-        "in_errors": (alignment + fcs + giants).astype(np.float64),
-        "out_errors": (late + excessive).astype(np.float64),
-        "in_discards": in_disc.astype(np.float64),
-        "out_discards": out_disc.astype(np.float64),
-        "fcs_errors": fcs.astype(np.float64),
-        "alignment_errors": alignment.astype(np.float64),
-        "symbol_errors": symbols.astype(np.float64),
-        "late_collisions": late.astype(np.float64),
-        "single_collisions": single.astype(np.float64),
-        "multiple_collisions": multiple.astype(np.float64),
-        "excessive_collisions": excessive.astype(np.float64),
-        "frame_too_longs": giants.astype(np.float64),
+        "in_errors": alignment + fcs + giants,
+        "out_errors": late + excessive,
+        "in_discards": in_disc,
+        "out_discards": out_disc,
+        "fcs_errors": fcs,
+        "alignment_errors": alignment,
+        "symbol_errors": symbols,
+        "late_collisions": late,
+        "single_collisions": single,
+        "multiple_collisions": multiple,
+        "excessive_collisions": excessive,
+        "frame_too_longs": giants,
         "mac_receive_errors": np.zeros(n),
-        "undersize": undersize.astype(np.float64),
-        "fragments": fragments.astype(np.float64),
+        "undersize": undersize,
+        "fragments": fragments,
         "oversize": np.zeros(n),
         "jabbers": np.zeros(n),
     }
