@@ -2,12 +2,19 @@
 
 from __future__ import annotations
 
+import os
+from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
 
+from linktriage.demo_network import DemoClock, DemoNetwork
 from linktriage.diagnosis import Model
 from linktriage.model.artefact import TreeArtefact
+from linktriage.service import Triage
+from linktriage.settings import Settings
+from linktriage.simulate import DEFAULT_START
+from linktriage.store import Store
 
 ROOT = Path(__file__).resolve().parent.parent
 SNAPSHOTS = ROOT / "fixtures" / "snapshots"
@@ -17,6 +24,9 @@ SNAPSHOTS = ROOT / "fixtures" / "snapshots"
 def clean_environment(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     """Every test gets its own empty data directory: no trained model from elsewhere."""
     monkeypatch.setenv("LINKTRIAGE_HOME", str(tmp_path / "home"))
+    for name in list(os.environ):
+        if name.startswith(("LINKTRIAGE_", "SLACK_")) and name != "LINKTRIAGE_HOME":
+            monkeypatch.delenv(name)
     monkeypatch.delenv("XDG_DATA_HOME", raising=False)
 
 
@@ -30,3 +40,30 @@ def model() -> Model:
 def snapshots() -> Path:
     """The folder of recorded snapshot files."""
     return SNAPSHOTS
+
+
+@pytest.fixture
+def store(tmp_path: Path) -> Iterator[Store]:
+    """A real SQLite store in a file of its own."""
+    opened = Store(f"sqlite:///{tmp_path / 'store.sqlite'}")
+    yield opened
+    opened.close()
+
+
+@pytest.fixture
+def clock() -> DemoClock:
+    """Simulated time, starting at the demo network's fixed moment."""
+    return DemoClock(DEFAULT_START)
+
+
+@pytest.fixture
+def triage(store: Store, model: Model, clock: DemoClock) -> Triage:
+    """The bot's service on the demo network, a real store and simulated time."""
+    return Triage(
+        network=DemoNetwork(clock=clock),
+        store=store,
+        model=model,
+        settings=Settings(),
+        clock=clock,
+        sleep=clock.sleep,
+    )

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 import sys
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Any, TypeVar
 
@@ -149,7 +149,7 @@ def train(out: Path | None, seed: int | None, ports: int | None) -> None:
     from linktriage.model.train import TrainingConfig
     from linktriage.model.train import train as run_training
     from linktriage.paths import trained_model_path
-    from linktriage.render.card import model_card
+    from linktriage.render.card import card_text, model_card_data
 
     cfg = TrainingConfig()
     if seed is not None:
@@ -165,7 +165,7 @@ def train(out: Path | None, seed: int | None, ports: int | None) -> None:
     target = out or trained_model_path()
     target.parent.mkdir(parents=True, exist_ok=True)
     artefact.save(target)
-    click.echo(model_card(artefact, source=str(target)))
+    click.echo(card_text(model_card_data(artefact, source=str(target))))
 
 
 @main.command()
@@ -174,13 +174,141 @@ def train(out: Path | None, seed: int | None, ports: int | None) -> None:
 def model(as_json: bool, model_path: Path | None) -> None:
     """Show the model's card: version, size, pruning, scores, what it looks at."""
     from linktriage.diagnosis import Model
-    from linktriage.render.card import model_card, model_card_data
+    from linktriage.render.card import card_text, model_card_data
 
     loaded = Model.load(model_path)
+    card = model_card_data(loaded.artefact, source=loaded.source)
+    click.echo(json.dumps(card) if as_json else card_text(card))
+
+
+def _config_option(func: F) -> F:
+    return click.option(
+        "--config",
+        "config_path",
+        type=click.Path(dir_okay=False, path_type=Path),
+        default=None,
+        help="Settings file (TOML). Default: $LINKTRIAGE_CONFIG, else config.toml in the "
+        "data directory if present, else built-in defaults.",
+    )(func)
+
+
+@main.command()
+@_config_option
+@_model_option
+def chat(config_path: Path | None, model_path: Path | None) -> None:
+    """Talk to the bot at a local prompt: the same commands as in the team channel."""
+    from linktriage.chat.console import PROMPT, Console
+    from linktriage.diagnosis import Model
+    from linktriage.service import Triage
+    from linktriage.settings import LabelSettings, load_settings
+
+    # The console is one local, trusted person: channel and group rules are for Slack.
+    settings = load_settings(config_path).model_copy(update={"labels": LabelSettings()})
+    console = Console(Triage.from_settings(settings, model=Model.load(model_path)))
+    interactive = sys.stdin.isatty()
+
+    def lines() -> Iterator[str]:
+        while True:
+            try:
+                yield input(PROMPT) if interactive else next(sys.stdin)
+            except (EOFError, StopIteration):
+                return
+
+    console.run(lines(), click.echo)
+
+
+@main.group()
+def config() -> None:
+    """Check the settings."""
+
+
+@config.command("check")
+@_config_option
+def config_check(config_path: Path | None) -> None:
+    """Validate the settings and show what they amount to (secrets masked)."""
+    from linktriage.settings import config_path as find_config
+    from linktriage.settings import load_settings
+    from linktriage.store import Store
+
+    settings = load_settings(config_path)
+    source = find_config(config_path)
+    click.echo(f"settings from {source or 'built-in defaults'} and the environment")
+    for section in ("slack", "store", "chat", "schedule", "labels", "network"):
+        values = getattr(settings, section).model_dump()
+        click.echo(f"[{section}] " + ", ".join(f"{k}={v!r}" for k, v in values.items()))
+    problems = _slack_problems(settings)
+    for name in ("slack_bot_token", "slack_app_token", "slack_signing_secret"):
+        present = getattr(settings, name) is not None
+        click.echo(f"{name.upper()}: {'set' if present else 'not set'}")
+    click.echo(f"Slack Web API: {settings.slack_api_url}")
+    store = Store(settings.store.resolved_url())
+    click.echo(f"store: {store.describe()}, schema version {store.schema_version()}")
+    store.close()
+    if problems:
+        for problem in problems:
+            click.echo(f"problem: {problem}", err=True)
+        sys.exit(1)
+    click.echo("settings are usable")
+
+
+def _slack_problems(settings: Any) -> list[str]:
+    """What `serve` would lack with these settings."""
+    problems = []
+    if settings.slack_bot_token is None:
+        problems.append("SLACK_BOT_TOKEN is not set: the bot cannot post")
+    if settings.slack.mode == "socket" and settings.slack_app_token is None:
+        problems.append("SLACK_APP_TOKEN is not set: Socket Mode needs an app-level token")
+    if settings.slack.mode == "http" and settings.slack_signing_secret is None:
+        problems.append("SLACK_SIGNING_SECRET is not set: HTTP mode cannot verify requests")
+    if settings.slack.channel is None:
+        problems.append("[slack] channel is not set: digests have nowhere to go")
+    return problems
+
+
+@main.group(invoke_without_command=True)
+@click.option("--json", "as_json", is_flag=True, help="One JSON object per label per line.")
+@_config_option
+@click.pass_context
+def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
+    """List the labels engineers gave (what they found on a port)."""
+    if ctx.invoked_subcommand is not None:
+        return
+    from dataclasses import asdict
+
+    from linktriage.settings import load_settings
+    from linktriage.store import Store
+
+    store = Store(load_settings(config_path).store.resolved_url())
+    found = store.labels()
     if as_json:
-        click.echo(json.dumps(model_card_data(loaded.artefact, source=loaded.source)))
+        for label in found:
+            click.echo(json.dumps(asdict(label)))
+        return
+    click.echo(f"{len(found)} labels")
+    for label in found:
+        agreed = "=" if label.verdict == label.model_verdict else f"(model: {label.model_verdict})"
+        click.echo(
+            f"{label.id:>4} {label.device} {label.port}: {label.verdict} {agreed} "
+            f"by {label.user_id} via {label.source}: {label.note}"
+        )
+
+
+@labels.command("export")
+@click.argument("out", type=click.Path(dir_okay=False, allow_dash=True, path_type=Path))
+@_config_option
+def labels_export(out: Path, config_path: Path | None) -> None:
+    """Write the labels as training rows (CSV: the features, then the label)."""
+    from linktriage.labelled import label_frame
+    from linktriage.settings import load_settings
+    from linktriage.store import Store
+
+    store = Store(load_settings(config_path).store.resolved_url())
+    frame = label_frame(store.labels())
+    if str(out) == "-":
+        frame.to_csv(sys.stdout, index=False)
     else:
-        click.echo(model_card(loaded.artefact, source=loaded.source))
+        frame.to_csv(out, index=False)
+        click.echo(f"wrote {len(frame)} labelled rows to {out}", err=True)
 
 
 # The planted faults the demo walks through in full; the rest appear in its table.

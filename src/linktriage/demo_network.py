@@ -177,6 +177,19 @@ _SAMPLED_AS = {
 _RUNNING_S = 86_400.0
 
 
+class DemoClock:
+    """Simulated time for the simulated network: waiting for a second poll takes no time."""
+
+    def __init__(self, start: float) -> None:
+        self.now = start
+
+    def __call__(self) -> float:
+        return self.now
+
+    def sleep(self, seconds: float) -> None:
+        self.now += seconds
+
+
 class DemoNetwork(Network):
     """Larkmoor's ports with counters that grow smoothly with time: poll it at any moment.
 

@@ -62,6 +62,7 @@ class PollError(LinktriageError):
     def __init__(self, device: str, message: str, *, hint: str | None = None) -> None:
         super().__init__(f"{device}: {message}", hint=hint)
         self.device = device
+        self.reason = message
 
 
 class ModelError(LinktriageError):

@@ -145,3 +145,42 @@ def ber_line(phy: str, estimate: float, objective: float) -> str:
         f"Estimated bit error ratio {estimate:.1e}, {verdict} the {phy} objective "
         f"of {objective:.0e}."
     )
+
+
+# --- chat
+def help_lines(command: str) -> list[str]:
+    """What the bot's help says, one line each."""
+    return [
+        f"`{command} DEVICE PORT`: diagnose one port now (a unique part of the device name "
+        "will do).",
+        f"`{command} suspects [SITE]`: the suspect links, worst first.",
+        f"`{command} model`: the model's card.",
+        "Reply in the thread of an answer with what you found, e.g. "
+        "`cable_fault, crushed patch cord behind the desk`, or `confirmed`; in a digest's "
+        "thread start with the link's number: `3: duplex forced on the printer`.",
+    ]
+
+
+LABEL_PROMPT = "Found it? Reply in this thread with what it was, or use the buttons."
+LABEL_NOT_ALLOWED = "Labels from this channel or person are not taken here."
+LABEL_WHICH = "Which was it: {options}? Reply with one of them."
+LABEL_WHICH_LINK = (
+    "Say which link first: its number in the list (`3: cable_fault ...`) or its name "
+    "(`DEVICE PORT cable_fault ...`)."
+)
+LABEL_NOT_A_FAULT = (
+    "The answer was `{verdict}`, which is not a fault or `healthy`; say what you found, "
+    "e.g. `cable_fault, crushed patch cord`."
+)
+LABEL_STORE_FAILED = "Could not record that label ({reason}). Please try again."
+LABEL_GONE = "That answer is no longer in the store."
+
+
+def label_recorded(who: str, verdict: str, model_verdict: str, where: str, note: str) -> str:
+    """The thread's acknowledgement of a stored label (``who`` as the transport names people)."""
+    agreed = "confirms" if verdict == model_verdict else f"corrects {model_verdict} to"
+    note_text = f": {note}" if note else ""
+    return (
+        f"Recorded: {who} {agreed} {verdict} on {where}{note_text}. "
+        "The next training run learns from it."
+    )

@@ -32,6 +32,17 @@ TREE_VERDICTS: tuple[Verdict, ...] = tuple(Verdict)[:8]
 GUARD_VERDICTS: tuple[Verdict, ...] = tuple(Verdict)[8:]
 #: Verdicts that mean something on the link needs a person's attention.
 FAULTS: frozenset[Verdict] = frozenset(TREE_VERDICTS) - {Verdict.HEALTHY}
+#: How urgently each fault wants a visit, for ranking suspect links: a link that corrupts
+#: or loses traffic ranks above one that is slow or full.
+SEVERITY: dict[Verdict, int] = {
+    Verdict.CABLE_FAULT: 5,
+    Verdict.OPTIC_DEGRADED: 5,
+    Verdict.UNIDIRECTIONAL: 5,
+    Verdict.DUPLEX_MISMATCH: 4,
+    Verdict.MTU_MISMATCH: 3,
+    Verdict.CONGESTION: 3,
+    Verdict.NEGOTIATION_DEGRADED: 2,
+}
 
 
 class Caution(StrEnum):

@@ -30,27 +30,28 @@ def model_card_data(artefact: TreeArtefact, *, source: str) -> dict[str, Any]:
     }
 
 
-def model_card(artefact: TreeArtefact, *, source: str) -> str:
-    """The card as text for a terminal."""
-    t = artefact.training
-    recall = ", ".join(f"{c} {r:.3f}" for c, r in sorted(t.per_class_recall.items()))
-    top = sorted(importances(artefact).items(), key=lambda kv: -kv[1])
+def card_text(card: dict[str, Any]) -> str:
+    """The card (``model_card_data``) as text for a terminal."""
+    t = card["training"]
+    recall = ", ".join(f"{c} {r:.3f}" for c, r in sorted(t["per_class_recall"].items()))
+    top = sorted(card["feature_importances"].items(), key=lambda kv: -kv[1])
     important = ", ".join(f"{name} {value:.2f}" for name, value in top if value >= 0.01)
     return "\n".join(
         [
-            f"model {artefact.version} ({source})",
-            f"  tree: {artefact.leaves} leaves, depth {artefact.depth}, Gini impurity, "
-            f"ccp_alpha {t.ccp_alpha:.3g}",
-            f"  pruning: {t.selection}",
-            f"  trained on {t.rows:,} rows from {t.simulated_ports:,} simulated ports "
-            f"(seed {t.seed}) and {t.labelled_rows:,} confirmed labels",
-            f"  cross-validated macro-F1 {t.cv_macro_f1:.3f} +/- {t.cv_macro_f1_se:.3f} "
-            f"({t.folds} folds; best {t.best_cv_macro_f1:.3f} at ccp_alpha {t.best_ccp_alpha:.3g})",
-            f"  healthy ports called faulty: {sig(t.healthy_false_alarm * 100)}%",
+            f"model {card['version']} ({card['source']})",
+            f"  tree: {card['leaves']} leaves, depth {card['depth']}, Gini impurity, "
+            f"ccp_alpha {t['ccp_alpha']:.3g}",
+            f"  pruning: {t['selection']}",
+            f"  trained on {t['rows']:,} rows from {t['simulated_ports']:,} simulated ports "
+            f"(seed {t['seed']}) and {t['labelled_rows']:,} confirmed labels",
+            f"  cross-validated macro-F1 {t['cv_macro_f1']:.3f} +/- {t['cv_macro_f1_se']:.3f} "
+            f"({t['folds']} folds; best {t['best_cv_macro_f1']:.3f} "
+            f"at ccp_alpha {t['best_ccp_alpha']:.3g})",
+            f"  healthy ports called faulty: {sig(t['healthy_false_alarm'] * 100)}%",
             f"  recall per class: {recall}",
             f"  features that matter: {important}",
             f"  guards: judged only with enough traffic to resolve an error ratio of "
-            f"{t.guard_resolution:.0e}",
-            f"  scikit-learn {t.sklearn_version}",
+            f"{t['guard_resolution']:.0e}",
+            f"  scikit-learn {t['sklearn_version']}",
         ]
     )

@@ -1,0 +1,137 @@
+"""Reading what an engineer found from a thread reply: "cable_fault, crushed patch cord".
+
+A reply names a verdict by its id ("cable_fault"), by its words ("cable fault"), or by a
+phrase of the trade ("crushed patch cord", "dirty SFP", "forced 100/full on the printer");
+"confirmed" or "correct" agrees with the bot. Whatever follows is kept as the note. In a
+digest's thread a reply first says which link it is about: its number ("3: duplex ...")
+or its name ("lark-east-idf2 port14 cable ..."). A reply that names no verdict is talk,
+not a label; one whose phrases point two ways is asked to pick.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from linktriage.verdicts import TREE_VERDICTS, Verdict
+
+# Phrases of the trade, each with a weight: a specific one ("sfp") outweighs a general
+# one ("connector") when a reply has both.
+PHRASES: dict[Verdict, tuple[tuple[str, int], ...]] = {
+    Verdict.UNIDIRECTIONAL: (
+        ("one-way", 3), ("one way", 3), ("unidirectional", 3), ("swapped fib", 3),
+        ("swapped strand", 3), ("broken strand", 3), ("crossed fib", 3), ("tx/rx", 2),
+        ("rx/tx", 2),
+    ),
+    Verdict.OPTIC_DEGRADED: (
+        ("optic", 3), ("sfp", 3), ("transceiver", 3), ("dirty", 2), ("light level", 3),
+        ("rx power", 3), ("dbm", 2), ("attenuat", 2), ("end face", 2), ("ferrule", 2),
+        ("fiber", 1), ("fibre", 1),
+    ),
+    Verdict.DUPLEX_MISMATCH: (("duplex", 3), ("late collision", 3)),
+    Verdict.NEGOTIATION_DEGRADED: (
+        ("autoneg", 3), ("auto-neg", 3), ("negotiat", 3), ("forced speed", 3),
+        ("hard-coded speed", 3), ("hardcoded speed", 3), ("speed", 1),
+    ),
+    Verdict.MTU_MISMATCH: (("mtu", 3), ("jumbo", 3), ("frame size", 2), ("giant", 2)),
+    Verdict.CONGESTION: (
+        ("congest", 3), ("capacity", 2), ("saturat", 2), ("oversubscri", 2),
+        ("bandwidth", 1), ("backup job", 2),
+    ),
+    Verdict.CABLE_FAULT: (
+        ("cable", 2), ("cord", 2), ("patch", 1), ("crimp", 2), ("punch", 2), ("jack", 2),
+        ("pair", 1), ("termination", 2), ("rj45", 2), ("rj-45", 2), ("keystone", 2),
+        ("crushed", 2), ("kinked", 2), ("connector", 1),
+    ),
+    Verdict.HEALTHY: (
+        ("healthy", 3), ("false alarm", 3), ("nothing wrong", 3), ("no fault", 3),
+        ("all good", 2), ("works fine", 2),
+    ),
+}  # fmt: skip
+_CONFIRM = re.compile(r"\b(confirmed|confirm|correct|agreed|right call|spot on)\b|\+1")
+_NEGATION = re.compile(r"\b(not|no|wrong|isn't|wasn't|nope)\b")
+_ITEM = re.compile(r"^\s*#?(\d{1,3})\s*[:.)\-]\s*")
+# A phrase counts where a word starts with it: "pair" is in "bad pair", not in "repaired".
+_PATTERNS = {
+    verdict: tuple((re.compile(r"\b" + re.escape(phrase)), weight) for phrase, weight in phrases)
+    for verdict, phrases in PHRASES.items()
+}
+
+
+@dataclass(frozen=True, slots=True)
+class LabelIntent:
+    """A label read from a reply: the verdict (None: agree with the bot) and the note."""
+
+    verdict: Verdict | None
+    note: str
+    item: int | None = None  # which link of a digest, by its number
+    device: str | None = None
+    port: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Unclear:
+    """A reply that reads as a label but points at more than one verdict."""
+
+    candidates: list[Verdict]
+
+
+def _explicit(text: str) -> list[tuple[Verdict, int, int]]:
+    """Verdict ids or their words ("cable fault", "cable-fault"), with where they stand."""
+    found = []
+    for verdict in TREE_VERDICTS:
+        words = verdict.value.replace("_", r"[ _\-]")
+        for match in re.finditer(rf"\b{words}\b", text, re.IGNORECASE):
+            found.append((verdict, match.start(), match.end()))
+    return found
+
+
+def parse_label(
+    text: str, *, names: list[tuple[str, str]] | None = None
+) -> LabelIntent | Unclear | None:
+    """The label in a reply, an :class:`Unclear` one, or None for a reply that is not one.
+
+    ``names`` lists the (device, port) pairs a reply may name first (a digest's links).
+    """
+    rest = re.sub(r"<[@#!][^>]*>", " ", text).strip()  # mentions are not part of it
+    item = None
+    device = port = None
+    numbered = _ITEM.match(rest)
+    if numbered:
+        item = int(numbered[1])
+        rest = rest[numbered.end() :]
+    elif names:
+        for d, p in names:
+            match = re.match(rf"\s*{re.escape(d)}\s+{re.escape(p)}\b[\s:,\-]*", rest, re.IGNORECASE)
+            if match:
+                device, port, rest = d, p, rest[match.end() :]
+                break
+    explicit = _explicit(rest)
+    if explicit:
+        verdicts = {v for v, _, _ in explicit}
+        if len(verdicts) > 1:
+            return Unclear(sorted(verdicts, key=list(Verdict).index))
+        verdict, start, end = min(explicit, key=lambda e: e[1])
+        return LabelIntent(verdict, _note(rest[:start] + " " + rest[end:]), item, device, port)
+    lowered = rest.lower()
+    scores = {
+        v: sum(w for pattern, w in patterns if pattern.search(lowered))
+        for v, patterns in _PATTERNS.items()
+    }
+    ranked = sorted(scores.items(), key=lambda kv: -kv[1])
+    (first, best), (second, runner_up) = ranked[0], ranked[1]
+    if best > 0:
+        # Two readings about as strong ("cable or optic?"): ask rather than guess.
+        if runner_up >= 2 and runner_up >= best - 1:
+            return Unclear(sorted([first, second], key=list(Verdict).index))
+        return LabelIntent(first, _note(rest), item, device, port)
+    if _CONFIRM.search(lowered) and not _NEGATION.search(lowered):
+        return LabelIntent(None, _note(rest), item, device, port)
+    return None
+
+
+def _note(text: str) -> str:
+    """The free text of a reply, tidied where a verdict was lifted out of it."""
+    text = re.sub(r"\s+", " ", text)
+    text = re.sub(r"\s+([,.;:])", r"\1", text)
+    return text.strip(" ,.;:-")

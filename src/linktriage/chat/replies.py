@@ -1,0 +1,98 @@
+"""Replies as plain data: what the bot answers, before any transport draws it."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+from linktriage.diagnosis import DiagnosisRecord
+
+Visibility = Literal["channel", "ephemeral"]
+
+
+@dataclass(frozen=True, slots=True)
+class DiagnosisReply:
+    """One port diagnosed: the record as answered, and the id that labels refer to."""
+
+    record: DiagnosisRecord
+    diagnosis_id: int
+    site: str
+    serves: str
+    visibility: Visibility = "channel"
+
+
+@dataclass(frozen=True, slots=True)
+class SuspectItem:
+    """One suspect link in a list: its rank, verdict and the one-line reason."""
+
+    rank: int
+    record: DiagnosisRecord
+    diagnosis_id: int
+    reason: str
+    new: bool = False
+
+
+@dataclass(frozen=True, slots=True)
+class SuspectsReply:
+    """Suspect links, ranked by severity; a digest also says what is new and what cleared."""
+
+    title: str
+    items: list[SuspectItem]
+    ports_checked: int
+    failed_devices: list[str]
+    at: float
+    since: float | None = None  # the digest before this one, if any
+    cleared: list[str] = field(default_factory=list)  # "device port" no longer suspect
+    digest_id: int | None = None
+    visibility: Visibility = "channel"
+
+
+@dataclass(frozen=True, slots=True)
+class HelpReply:
+    """How to talk to the bot."""
+
+    command: str
+    visibility: Visibility = "ephemeral"
+
+
+@dataclass(frozen=True, slots=True)
+class ModelReply:
+    """The model's card."""
+
+    card: dict[str, Any]
+    visibility: Visibility = "ephemeral"
+
+
+@dataclass(frozen=True, slots=True)
+class ErrorReply:
+    """Something could not be done; never a stack trace."""
+
+    message: str
+    hint: str | None = None
+    visibility: Visibility = "ephemeral"
+
+
+@dataclass(frozen=True, slots=True)
+class LabelReply:
+    """A label stored: who found what on which port, and what the model had said."""
+
+    user: str
+    device: str
+    port: str
+    verdict: str
+    model_verdict: str
+    note: str
+    visibility: Visibility = "channel"
+
+
+@dataclass(frozen=True, slots=True)
+class LabelRefused:
+    """A reply read as a label that was not stored, and why (said in the thread)."""
+
+    message: str
+    visibility: Visibility = "channel"
+
+
+Reply = (
+    DiagnosisReply | SuspectsReply | HelpReply | ModelReply | ErrorReply | LabelReply | LabelRefused
+)

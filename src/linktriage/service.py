@@ -1,0 +1,479 @@
+"""The bot's work, free of any transport: answer commands, gather polls, digest, label.
+
+Every chat transport (Slack, the console) and every job calls into :class:`Triage`; it
+knows the network, the store and the model, takes its clock and its sleep from outside
+so tests and the demo run it on a fixed clock, and answers with the plain data of
+:mod:`linktriage.chat.replies`.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import math
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from linktriage.chat.commands import (
+    COMMAND,
+    CommandError,
+    DiagnosePort,
+    ListSuspects,
+    ShowHelp,
+    ShowModel,
+    parse,
+)
+from linktriage.chat.labels import LabelIntent, Unclear, parse_label
+from linktriage.chat.replies import (
+    DiagnosisReply,
+    ErrorReply,
+    HelpReply,
+    LabelRefused,
+    LabelReply,
+    ModelReply,
+    Reply,
+    SuspectItem,
+    SuspectsReply,
+)
+from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, Model, diagnose
+from linktriage.errors import LinktriageError, PollError
+from linktriage.features import FEATURE_NAMES
+from linktriage.messages import (
+    LABEL_GONE,
+    LABEL_NOT_A_FAULT,
+    LABEL_NOT_ALLOWED,
+    LABEL_STORE_FAILED,
+    LABEL_WHICH,
+    LABEL_WHICH_LINK,
+)
+from linktriage.network import Network, PortRef
+from linktriage.polls import PollTable
+from linktriage.render.card import model_card_data
+from linktriage.settings import Settings
+from linktriage.store import Store, StoredDiagnosis, StoreError
+from linktriage.verdicts import FAULTS, SEVERITY, TREE_VERDICTS, Verdict
+
+#: Members of a chat user group, by group id (Slack: usergroups.users.list).
+GroupMembers = Callable[[str], set[str]]
+
+
+@dataclass(frozen=True, slots=True)
+class PollRound:
+    """What one poll of the whole network stored, and which devices did not answer."""
+
+    stored: int
+    failed: dict[str, str]  # device -> why
+
+
+@dataclass
+class Triage:
+    """Answers for one network, from one store, with one model."""
+
+    network: Network
+    store: Store
+    model: Model
+    settings: Settings
+    clock: Callable[[], float] = time.time
+    sleep: Callable[[float], None] = time.sleep
+    members_of: GroupMembers | None = None
+    _groups_cache: dict[str, tuple[float, set[str]]] = field(default_factory=dict)
+
+    @classmethod
+    def from_settings(
+        cls,
+        settings: Settings,
+        *,
+        model: Model | None = None,
+        members_of: GroupMembers | None = None,
+    ) -> Triage:
+        """The service for the network the settings name, on their store.
+
+        The demo network runs on simulated time: a second poll is taken at once, as if the
+        quick window had passed.
+        """
+        from linktriage.demo_network import DemoClock, DemoNetwork
+
+        clock = DemoClock(time.time())
+        return cls(
+            network=DemoNetwork(clock=clock),
+            store=Store(settings.store.resolved_url()),
+            model=model or Model.load(),
+            settings=settings,
+            clock=clock,
+            sleep=clock.sleep,
+            members_of=members_of,
+        )
+
+    # --- commands
+    def handle(self, text: str, *, user: str | None = None, channel: str | None = None) -> Reply:
+        """Run one command; anything that goes wrong becomes an :class:`ErrorReply`."""
+        try:
+            command = parse(text)
+            reply: Reply
+            if isinstance(command, ShowHelp):
+                reply = HelpReply(COMMAND)
+            elif isinstance(command, ShowModel):
+                reply = self.model_card()
+            elif isinstance(command, ListSuspects):
+                reply = self.suspects(command.site, channel=channel)
+            else:
+                assert isinstance(command, DiagnosePort)
+                reply = self.diagnose_port(command.device, command.port, user=user, channel=channel)
+        except LinktriageError as exc:  # bad text, unknown names, a device that fails
+            reply = ErrorReply(exc.message, exc.hint)
+        self._audit(text, reply, user=user, channel=channel)
+        return reply
+
+    def _audit(self, text: str, reply: Reply, *, user: str | None, channel: str | None) -> None:
+        outcome = (
+            f"error: {reply.message}" if isinstance(reply, ErrorReply) else type(reply).__name__
+        )
+        # An audit entry that cannot be written must not cost the answer.
+        with contextlib.suppress(StoreError):
+            self.store.audit(text, outcome, at=self.clock(), user_id=user, channel=channel)
+
+    def model_card(self) -> ModelReply:
+        return ModelReply(model_card_data(self.model.artefact, source=self.model.source))
+
+    # --- one port
+    def diagnose_port(
+        self,
+        device: str,
+        port: str,
+        *,
+        user: str | None = None,
+        channel: str | None = None,
+        origin: str = "chat",
+    ) -> DiagnosisReply:
+        """Diagnose one port now, from its stored history if recent, else two fresh polls."""
+        ref = self.network.find(device, port)
+        polls, failed = self._gather([ref])
+        if failed:
+            raise PollError(ref.device, failed[ref.device])
+        batch = diagnose(polls, self.model)
+        row = batch.index_of(ref.device, ref.port)
+        if row is None:
+            raise PollError(ref.device, f"answered without port {ref.port}")
+        diagnosis_id = self._keep(batch, row, origin=origin, user=user, channel=channel)
+        return DiagnosisReply(batch.record(row), diagnosis_id, ref.site, ref.serves)
+
+    # --- many ports
+    def suspects(
+        self, site: str | None = None, *, channel: str | None = None, kind: str = "suspects"
+    ) -> SuspectsReply:
+        """The suspect links of a site (default: everywhere), ranked by severity."""
+        refs = self.network.ports()
+        if site is not None:
+            sites = self.network.sites()
+            chosen = [s for s in sites if s.lower() == site.lower()]
+            if not chosen:
+                raise CommandError(f"No site named {site!r}.", hint=f"Sites: {', '.join(sites)}.")
+            refs = [r for r in refs if r.site == chosen[0]]
+        polls, failed = self._gather(refs)
+        batch = diagnose(polls, self.model)
+        items: list[SuspectItem] = []
+        for row in _ranked_faults(batch):
+            diagnosis_id = self._keep(batch, row, origin=kind, channel=channel)
+            record = batch.record(row)
+            items.append(SuspectItem(len(items) + 1, record, diagnosis_id, _reason(record)))
+        where = "everywhere" if site is None else f"at {refs[0].site if refs else site}"
+        return SuspectsReply(
+            title=f"Suspect links {where}",
+            items=items,
+            ports_checked=len(batch),
+            failed_devices=sorted(failed),
+            at=self.clock(),
+        )
+
+    def digest(self, *, channel: str | None = None) -> SuspectsReply:
+        """The scheduled digest: suspects, what is new since the last one, what cleared."""
+        previous = self.store.last_digest()
+        current = self.suspects(channel=channel, kind="digest")
+        before = {(i["device"], i["port"]) for i in previous.items} if previous else set()
+        now = {(i.record["device"], i.record["port"]) for i in current.items}
+        items = [
+            SuspectItem(
+                i.rank,
+                i.record,
+                i.diagnosis_id,
+                i.reason,
+                new=previous is not None and (i.record["device"], i.record["port"]) not in before,
+            )
+            for i in current.items
+        ]
+        digest_id = self.store.add_digest(
+            [
+                {
+                    "device": i.record["device"],
+                    "port": i.record["port"],
+                    "verdict": i.record["verdict"],
+                    "diagnosis_id": i.diagnosis_id,
+                }
+                for i in items
+            ],
+            at=current.at,
+            kind="digest",
+            channel=channel,
+        )
+        return SuspectsReply(
+            title="Digest of suspect links",
+            items=items,
+            ports_checked=current.ports_checked,
+            failed_devices=current.failed_devices,
+            at=current.at,
+            since=previous.at if previous else None,
+            cleared=sorted(f"{d} {p}" for d, p in before - now),
+            digest_id=digest_id,
+        )
+
+    def posted(self, reply: Reply, *, channel: str, ts: str) -> bool:
+        """Remember where an answer was posted, so replies in its thread can label it.
+
+        Returns False for answers that have no thread worth reading (help, errors, ...).
+        """
+        if isinstance(reply, DiagnosisReply):
+            self.store.attach_message(reply.diagnosis_id, channel, ts)
+            return True
+        if isinstance(reply, SuspectsReply) and reply.items:
+            digest_id = reply.digest_id
+            if digest_id is None:
+                digest_id = self.store.add_digest(
+                    _listed(reply.items), at=reply.at, kind="suspects", channel=channel
+                )
+            self.store.attach_digest_message(digest_id, channel, ts)
+            return True
+        return False
+
+    def poll_round(self) -> PollRound:
+        """Poll every device once and keep the answers: the poll job."""
+        stored = 0
+        failed: dict[str, str] = {}
+        for device in self.network.devices():
+            try:
+                stored += self.store.add_polls(self.network.poll(device))
+            except PollError as exc:
+                failed[device] = exc.reason
+        return PollRound(stored, failed)
+
+    def _gather(self, refs: list[PortRef]) -> tuple[PollTable, dict[str, str]]:
+        """Polls for these ports: stored recent ones plus one fresh poll each, or two
+        fresh polls ``quick_window_s`` apart where nothing recent is stored."""
+        wanted: dict[str, list[str]] = {}
+        for ref in refs:
+            wanted.setdefault(ref.device, []).append(ref.port)
+        since = self.clock() - self.settings.chat.recent_poll_s
+        tables: list[PollTable] = []
+        missing: dict[str, list[str]] = {}
+        for device, ports in wanted.items():
+            stored = self.store.polls_since(since, device=device)
+            stored = stored.take(np.flatnonzero(np.isin(stored.port, ports)))
+            tables.append(stored)
+            have = set(stored.port.tolist())
+            lacking = [p for p in ports if p not in have]
+            if lacking:
+                missing[device] = lacking
+        failed = self._poll_into(tables, wanted)
+        if missing:
+            self.sleep(self.settings.chat.quick_window_s)
+            retry = {d: ps for d, ps in missing.items() if d not in failed}
+            failed.update(self._poll_into(tables, retry))
+        return PollTable.concat(tables), failed
+
+    def _poll_into(self, tables: list[PollTable], wanted: dict[str, list[str]]) -> dict[str, str]:
+        failed = {}
+        for device, ports in wanted.items():
+            try:
+                fresh = self.network.poll(device, ports)
+            except PollError as exc:
+                failed[device] = exc.reason
+                continue
+            self.store.add_polls(fresh)
+            tables.append(fresh)
+        return failed
+
+    def _keep(
+        self,
+        batch: DiagnosisBatch,
+        row: int,
+        *,
+        origin: str,
+        user: str | None = None,
+        channel: str | None = None,
+    ) -> int:
+        features = {
+            name: (None if math.isnan(v) else v)
+            for name, v in zip(FEATURE_NAMES, batch.values[row], strict=True)
+        }
+        return self.store.add_diagnosis(
+            dict(batch.record(row)),
+            features,
+            at=self.clock(),
+            origin=origin,
+            asked_by=user,
+            channel=channel,
+        )
+
+    # --- labels
+    def may_label(self, user: str, channel: str | None) -> bool:
+        """Whether this person, in this channel, may label (settings: [labels])."""
+        rules = self.settings.labels
+        if rules.channels and channel not in rules.channels:
+            return False
+        if not rules.user_groups:
+            return True
+        return any(user in self._members(group) for group in rules.user_groups)
+
+    def _members(self, group: str) -> set[str]:
+        cached = self._groups_cache.get(group)
+        if cached is not None and self.clock() - cached[0] < 300:
+            return cached[1]
+        members = self.members_of(group) if self.members_of is not None else set()
+        self._groups_cache[group] = (self.clock(), members)
+        return members
+
+    def label_reply(
+        self,
+        text: str,
+        *,
+        user: str,
+        channel: str,
+        thread_ts: str,
+        event_key: str,
+        source: str = "thread",
+    ) -> LabelReply | LabelRefused | None:
+        """A reply in a thread of ours, read as a label; None when there is nothing to say
+        (not our thread, not a label, or a retry of one already recorded)."""
+        diagnosis = self.store.diagnosis_for_message(channel, thread_ts)
+        names = None
+        digest = None
+        if diagnosis is None:
+            digest = self.store.digest_for_message(channel, thread_ts)
+            if digest is None:
+                return None
+            names = [(i["device"], i["port"]) for i in digest.items]
+        intent = parse_label(text, names=names)
+        if intent is None:
+            return None
+        if not self.may_label(user, channel):
+            return LabelRefused(LABEL_NOT_ALLOWED)
+        if isinstance(intent, Unclear):
+            options = " or ".join(f"`{v.value}`" for v in intent.candidates)
+            return LabelRefused(LABEL_WHICH.format(options=options))
+        if digest is not None:
+            diagnosis = self._digest_target(digest.items, intent)
+            if diagnosis is None:
+                return LabelRefused(LABEL_WHICH_LINK)
+        assert diagnosis is not None
+        return self.record_label(
+            diagnosis,
+            intent.verdict,
+            intent.note,
+            user=user,
+            channel=channel,
+            source=source,
+            event_key=event_key,
+        )
+
+    def _digest_target(
+        self, items: list[dict[str, object]], intent: LabelIntent
+    ) -> StoredDiagnosis | None:
+        chosen = None
+        if intent.item is not None and 1 <= intent.item <= len(items):
+            chosen = items[intent.item - 1]
+        elif intent.device is not None:
+            chosen = next(
+                (i for i in items if (i["device"], i["port"]) == (intent.device, intent.port)), None
+            )
+        if chosen is None:
+            return None
+        return self.store.diagnosis(int(str(chosen["diagnosis_id"])))
+
+    def label_button(
+        self,
+        diagnosis_id: int,
+        verdict: str | None,
+        *,
+        user: str,
+        channel: str | None,
+        event_key: str,
+    ) -> LabelReply | LabelRefused | None:
+        """A press of "confirm" (verdict None) or a pick of what it really was."""
+        diagnosis = self.store.diagnosis(diagnosis_id)
+        if diagnosis is None:
+            return LabelRefused(LABEL_GONE)
+        if not self.may_label(user, channel):
+            return LabelRefused(LABEL_NOT_ALLOWED)
+        chosen = None if verdict is None else Verdict(verdict)
+        return self.record_label(
+            diagnosis, chosen, "", user=user, channel=channel, source="button", event_key=event_key
+        )
+
+    def record_label(
+        self,
+        diagnosis: StoredDiagnosis,
+        verdict: Verdict | None,
+        note: str,
+        *,
+        user: str,
+        channel: str | None,
+        source: str,
+        event_key: str,
+    ) -> LabelReply | LabelRefused | None:
+        """Store a label, then say so; a retry of a stored one says nothing."""
+        found = verdict if verdict is not None else Verdict(diagnosis.verdict)
+        if found not in TREE_VERDICTS:
+            return LabelRefused(LABEL_NOT_A_FAULT.format(verdict=found.value))
+        try:
+            stored = self.store.add_label(
+                diagnosis,
+                found.value,
+                note=note,
+                user_id=user,
+                channel=channel,
+                source=source,
+                event_key=event_key,
+                at=self.clock(),
+            )
+        except StoreError as exc:
+            return LabelRefused(LABEL_STORE_FAILED.format(reason=exc.message))
+        if not stored:
+            return None
+        return LabelReply(
+            user, diagnosis.device, diagnosis.port, found.value, diagnosis.verdict, note
+        )
+
+
+def _listed(items: list[SuspectItem]) -> list[dict[str, object]]:
+    """A list of suspects as the store keeps it: which link, what verdict, which answer."""
+    return [
+        {
+            "device": i.record["device"],
+            "port": i.record["port"],
+            "verdict": i.record["verdict"],
+            "diagnosis_id": i.diagnosis_id,
+        }
+        for i in items
+    ]
+
+
+def _ranked_faults(batch: DiagnosisBatch) -> list[int]:
+    rows = [i for i, v in enumerate(batch.verdict) if v in FAULTS]
+    return sorted(
+        rows,
+        key=lambda i: (
+            -SEVERITY[batch.verdict[i]],
+            -batch.confidence[i],
+            batch.device[i],
+            batch.port[i],
+        ),
+    )
+
+
+def _reason(record: DiagnosisRecord) -> str:
+    """The question that settled the verdict, as it reads."""
+    if not record["questions"]:
+        return record["note"] or ""
+    last = record["questions"][-1]
+    return f"{last['question']} {last['said']}"

@@ -1,0 +1,478 @@
+"""The store: poll history, what was answered where, labels, digests and the audit log.
+
+SQLite by default (one file under the data directory, in WAL mode so the bot's threads
+read while one writes); any SQLAlchemy URL, e.g. PostgreSQL, otherwise. The schema grows
+by numbered migrations, each applied in the same transaction that records it, so a store
+is never left half-migrated. Polls are kept as lines of the snapshot format: the history
+of a port reads back through the same parser as any snapshot file.
+
+Labels carry an *event key* (a Slack event id, or a button press's own id) under a
+unique constraint: the same event delivered twice is stored once.
+"""
+
+from __future__ import annotations
+
+import json
+import time
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import sqlalchemy as sa
+from sqlalchemy.engine import Connection, Engine
+
+from linktriage.errors import LinktriageError
+from linktriage.polls import PollTable
+from linktriage.snapshot import iter_snapshots, read_snapshots
+
+
+class StoreError(LinktriageError):
+    """The store cannot be opened or written; the message says which operation failed."""
+
+
+metadata = sa.MetaData()
+
+schema_version = sa.Table(
+    "schema_version",
+    metadata,
+    sa.Column("version", sa.Integer, primary_key=True),
+    sa.Column("description", sa.Text, nullable=False),
+    sa.Column("applied_at", sa.Float, nullable=False),
+)
+polls = sa.Table(
+    "polls",
+    metadata,
+    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("device", sa.Text, nullable=False),
+    sa.Column("port", sa.Text, nullable=False),
+    sa.Column("time", sa.Float, nullable=False),
+    sa.Column("line", sa.Text, nullable=False),  # one line of the snapshot format
+    sa.Index("polls_by_port", "device", "port", "time"),
+    sa.Index("polls_by_time", "time"),
+)
+diagnoses = sa.Table(
+    "diagnoses",
+    metadata,
+    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("at", sa.Float, nullable=False),
+    sa.Column("device", sa.Text, nullable=False),
+    sa.Column("port", sa.Text, nullable=False),
+    sa.Column("verdict", sa.Text, nullable=False),
+    sa.Column("confidence", sa.Float, nullable=False),
+    sa.Column("model_version", sa.Text, nullable=False),
+    sa.Column("features", sa.Text, nullable=False),  # JSON: feature name -> value or null
+    sa.Column("record", sa.Text, nullable=False),  # JSON: the diagnosis as answered
+    sa.Column("origin", sa.Text, nullable=False),  # chat, console, digest, cli
+    sa.Column("asked_by", sa.Text),
+    sa.Column("channel", sa.Text),
+    sa.Column("message_ts", sa.Text),
+    sa.Index("diagnoses_by_message", "channel", "message_ts"),
+)
+labels = sa.Table(
+    "labels",
+    metadata,
+    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("at", sa.Float, nullable=False),
+    sa.Column("diagnosis_id", sa.Integer, sa.ForeignKey("diagnoses.id"), nullable=False),
+    sa.Column("device", sa.Text, nullable=False),
+    sa.Column("port", sa.Text, nullable=False),
+    sa.Column("verdict", sa.Text, nullable=False),  # what the engineer found
+    sa.Column("model_verdict", sa.Text, nullable=False),  # what the model had said
+    sa.Column("model_version", sa.Text, nullable=False),
+    sa.Column("features", sa.Text, nullable=False),
+    sa.Column("note", sa.Text, nullable=False),
+    sa.Column("user_id", sa.Text, nullable=False),
+    sa.Column("channel", sa.Text),
+    sa.Column("source", sa.Text, nullable=False),  # thread, button, console
+    sa.Column("event_key", sa.Text, nullable=False, unique=True),
+)
+digests = sa.Table(
+    "digests",
+    metadata,
+    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("at", sa.Float, nullable=False),
+    sa.Column("kind", sa.Text, nullable=False),  # digest (scheduled) or suspects (asked for)
+    sa.Column("channel", sa.Text),
+    sa.Column("message_ts", sa.Text),
+    sa.Column("items", sa.Text, nullable=False),  # JSON: [{device, port, verdict, diagnosis_id}]
+    sa.Index("digests_by_message", "channel", "message_ts"),
+)
+audit = sa.Table(
+    "audit",
+    metadata,
+    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("at", sa.Float, nullable=False),
+    sa.Column("user_id", sa.Text),
+    sa.Column("channel", sa.Text),
+    sa.Column("command", sa.Text, nullable=False),
+    sa.Column("outcome", sa.Text, nullable=False),
+)
+
+
+@dataclass(frozen=True, slots=True)
+class Migration:
+    version: int
+    description: str
+    apply: Callable[[Connection], None]
+
+
+def _initial_schema(conn: Connection) -> None:
+    metadata.create_all(conn, tables=[polls, diagnoses, labels, digests, audit])
+
+
+#: Every schema change, in order. A new change is a new entry; old entries never change.
+MIGRATIONS: tuple[Migration, ...] = (
+    Migration(1, "polls, diagnoses, labels, digests, audit", _initial_schema),
+)
+
+
+@dataclass(frozen=True, slots=True)
+class StoredDiagnosis:
+    """A diagnosis as it was answered, with where it was posted."""
+
+    id: int
+    at: float
+    device: str
+    port: str
+    verdict: str
+    model_version: str
+    features: dict[str, float | None]
+    record: dict[str, Any]
+    channel: str | None
+    message_ts: str | None
+
+
+@dataclass(frozen=True, slots=True)
+class Label:
+    """What an engineer found on a port, tied to the diagnosis it answers."""
+
+    id: int
+    at: float
+    diagnosis_id: int
+    device: str
+    port: str
+    verdict: str
+    model_verdict: str
+    model_version: str
+    features: dict[str, float | None]
+    note: str
+    user_id: str
+    channel: str | None
+    source: str
+
+
+@dataclass(frozen=True, slots=True)
+class Digest:
+    """A posted list of suspect links (a digest or an answer), in the order it listed them."""
+
+    id: int
+    at: float
+    kind: str
+    channel: str | None
+    message_ts: str | None
+    items: list[dict[str, Any]]
+
+
+def _new_id(result: sa.CursorResult[Any]) -> int:
+    key = result.inserted_primary_key
+    if key is None:
+        raise StoreError("the database returned no id for a new row")
+    return int(key[0])
+
+
+def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
+    cursor = dbapi_connection.cursor()
+    cursor.execute("PRAGMA journal_mode=WAL")  # readers do not wait for the writer
+    cursor.execute("PRAGMA foreign_keys=ON")
+    cursor.execute("PRAGMA busy_timeout=5000")
+    cursor.close()
+
+
+class Store:
+    """The store behind one SQLAlchemy URL, migrated to the current schema on opening."""
+
+    def __init__(self, url: str) -> None:
+        self.url = url
+        try:
+            self.engine: Engine = sa.create_engine(url)
+            if self.engine.dialect.name == "sqlite":
+                sa.event.listen(self.engine, "connect", _sqlite_pragmas)
+                self._make_parent_dir(url)
+            self.migrate()
+        except sa.exc.SQLAlchemyError as exc:
+            raise StoreError(f"Cannot open the store at {self._safe_url()}: {exc}") from exc
+
+    def _safe_url(self) -> str:
+        return sa.make_url(self.url).render_as_string(hide_password=True)
+
+    def describe(self) -> str:
+        """The store's URL with any password hidden, fit to print."""
+        return self._safe_url()
+
+    @staticmethod
+    def _make_parent_dir(url: str) -> None:
+        database = sa.make_url(url).database
+        if database and database != ":memory:":
+            Path(database).parent.mkdir(parents=True, exist_ok=True)
+
+    def migrate(self) -> int:
+        """Apply every migration not yet applied; returns the schema version."""
+        with self.engine.begin() as conn:
+            schema_version.create(conn, checkfirst=True)
+        done = self.schema_version()
+        for migration in MIGRATIONS:
+            if migration.version <= done:
+                continue
+            with self.engine.begin() as conn:  # the change and its record, or neither
+                migration.apply(conn)
+                conn.execute(
+                    schema_version.insert().values(
+                        version=migration.version,
+                        description=migration.description,
+                        applied_at=time.time(),
+                    )
+                )
+        return self.schema_version()
+
+    def schema_version(self) -> int:
+        with self.engine.connect() as conn:
+            value = conn.execute(sa.select(sa.func.max(schema_version.c.version))).scalar()
+        return int(value or 0)
+
+    def close(self) -> None:
+        self.engine.dispose()
+
+    # --- polls
+    def add_polls(self, table: PollTable) -> int:
+        """Keep every row of a poll table; returns how many."""
+        rows = [
+            {
+                "device": snap.device,
+                "port": snap.port,
+                "time": snap.time.timestamp(),
+                "line": snap.model_dump_json(exclude_none=True),
+            }
+            for snap in iter_snapshots(table)
+        ]
+        if rows:
+            with self._writing("keep polls") as conn:
+                conn.execute(polls.insert(), rows)
+        return len(rows)
+
+    def polls_since(
+        self, since: float, *, device: str | None = None, port: str | None = None
+    ) -> PollTable:
+        """Stored polls at or after ``since``, for one port, one device or all."""
+        query = sa.select(polls.c.line).where(polls.c.time >= since).order_by(polls.c.id)
+        if device is not None:
+            query = query.where(polls.c.device == device)
+        if port is not None:
+            query = query.where(polls.c.port == port)
+        with self.engine.connect() as conn:
+            lines = [row.line for row in conn.execute(query)]
+        return read_snapshots(lines).polls
+
+    def prune_polls(self, before: float) -> int:
+        """Forget polls older than ``before``; returns how many."""
+        with self._writing("prune polls") as conn:
+            return int(conn.execute(polls.delete().where(polls.c.time < before)).rowcount)
+
+    # --- diagnoses
+    def add_diagnosis(
+        self,
+        record: dict[str, Any],
+        features: dict[str, float | None],
+        *,
+        at: float,
+        origin: str,
+        asked_by: str | None = None,
+        channel: str | None = None,
+    ) -> int:
+        """Keep what was answered; returns its id."""
+        with self._writing("keep the diagnosis") as conn:
+            result = conn.execute(
+                diagnoses.insert().values(
+                    at=at,
+                    device=record["device"],
+                    port=record["port"],
+                    verdict=record["verdict"],
+                    confidence=record["confidence"],
+                    model_version=record["model_version"],
+                    features=json.dumps(features),
+                    record=json.dumps(record),
+                    origin=origin,
+                    asked_by=asked_by,
+                    channel=channel,
+                )
+            )
+            return _new_id(result)
+
+    def attach_message(self, diagnosis_id: int, channel: str, message_ts: str) -> None:
+        """Remember which chat message carries a diagnosis, so its thread can label it."""
+        with self._writing("remember the message") as conn:
+            conn.execute(
+                diagnoses.update()
+                .where(diagnoses.c.id == diagnosis_id)
+                .values(channel=channel, message_ts=message_ts)
+            )
+
+    def diagnosis(self, diagnosis_id: int) -> StoredDiagnosis | None:
+        return self._one_diagnosis(diagnoses.c.id == diagnosis_id)
+
+    def diagnosis_for_message(self, channel: str, message_ts: str) -> StoredDiagnosis | None:
+        return self._one_diagnosis(
+            (diagnoses.c.channel == channel) & (diagnoses.c.message_ts == message_ts)
+        )
+
+    def _one_diagnosis(self, where: sa.ColumnElement[bool]) -> StoredDiagnosis | None:
+        with self.engine.connect() as conn:
+            row = conn.execute(sa.select(diagnoses).where(where).limit(1)).first()
+        if row is None:
+            return None
+        return StoredDiagnosis(
+            id=row.id,
+            at=row.at,
+            device=row.device,
+            port=row.port,
+            verdict=row.verdict,
+            model_version=row.model_version,
+            features=json.loads(row.features),
+            record=json.loads(row.record),
+            channel=row.channel,
+            message_ts=row.message_ts,
+        )
+
+    # --- labels
+    def add_label(
+        self,
+        diagnosis: StoredDiagnosis,
+        verdict: str,
+        *,
+        note: str,
+        user_id: str,
+        channel: str | None,
+        source: str,
+        event_key: str,
+        at: float,
+    ) -> bool:
+        """Keep a label; False when the same event was already stored (a retry)."""
+        try:
+            with self._writing("keep the label") as conn:
+                conn.execute(
+                    labels.insert().values(
+                        at=at,
+                        diagnosis_id=diagnosis.id,
+                        device=diagnosis.device,
+                        port=diagnosis.port,
+                        verdict=verdict,
+                        model_verdict=diagnosis.verdict,
+                        model_version=diagnosis.model_version,
+                        features=json.dumps(diagnosis.features),
+                        note=note,
+                        user_id=user_id,
+                        channel=channel,
+                        source=source,
+                        event_key=event_key,
+                    )
+                )
+        except StoreError as exc:
+            if isinstance(exc.__cause__, sa.exc.IntegrityError) and self._has_event(event_key):
+                return False
+            raise
+        return True
+
+    def _has_event(self, event_key: str) -> bool:
+        with self.engine.connect() as conn:
+            found = conn.execute(
+                sa.select(labels.c.id).where(labels.c.event_key == event_key)
+            ).first()
+        return found is not None
+
+    def labels(self) -> list[Label]:
+        """Every label, oldest first."""
+        with self.engine.connect() as conn:
+            rows = conn.execute(sa.select(labels).order_by(labels.c.id)).all()
+        return [
+            Label(
+                id=r.id,
+                at=r.at,
+                diagnosis_id=r.diagnosis_id,
+                device=r.device,
+                port=r.port,
+                verdict=r.verdict,
+                model_verdict=r.model_verdict,
+                model_version=r.model_version,
+                features=json.loads(r.features),
+                note=r.note,
+                user_id=r.user_id,
+                channel=r.channel,
+                source=r.source,
+            )
+            for r in rows
+        ]
+
+    # --- digests
+    def add_digest(
+        self, items: Sequence[dict[str, Any]], *, at: float, kind: str, channel: str | None
+    ) -> int:
+        """Keep a posted list of suspects (``kind``: digest or suspects); returns its id."""
+        with self._writing("keep the digest") as conn:
+            result = conn.execute(
+                digests.insert().values(
+                    at=at, kind=kind, channel=channel, items=json.dumps(list(items))
+                )
+            )
+            return _new_id(result)
+
+    def attach_digest_message(self, digest_id: int, channel: str, message_ts: str) -> None:
+        with self._writing("remember the digest message") as conn:
+            conn.execute(
+                digests.update()
+                .where(digests.c.id == digest_id)
+                .values(channel=channel, message_ts=message_ts)
+            )
+
+    def last_digest(self) -> Digest | None:
+        """The newest scheduled digest."""
+        return self._one_digest(digests.c.kind == "digest")
+
+    def digest_for_message(self, channel: str, message_ts: str) -> Digest | None:
+        return self._one_digest(
+            (digests.c.channel == channel) & (digests.c.message_ts == message_ts)
+        )
+
+    def _one_digest(self, where: sa.ColumnElement[bool]) -> Digest | None:
+        with self.engine.connect() as conn:
+            query = sa.select(digests).where(where).order_by(digests.c.id.desc()).limit(1)
+            row = conn.execute(query).first()
+        if row is None:
+            return None
+        return Digest(row.id, row.at, row.kind, row.channel, row.message_ts, json.loads(row.items))
+
+    # --- audit
+    def audit(
+        self, command: str, outcome: str, *, at: float, user_id: str | None, channel: str | None
+    ) -> None:
+        """Note a command and how it ended."""
+        with self._writing("note the command") as conn:
+            conn.execute(
+                audit.insert().values(
+                    at=at, user_id=user_id, channel=channel, command=command, outcome=outcome
+                )
+            )
+
+    def audit_log(self) -> list[dict[str, Any]]:
+        with self.engine.connect() as conn:
+            return [dict(r._mapping) for r in conn.execute(sa.select(audit).order_by(audit.c.id))]
+
+    # --- writing
+    @contextmanager
+    def _writing(self, what: str) -> Iterator[Connection]:
+        """A write transaction whose database errors become :class:`StoreError`."""
+        try:
+            with self.engine.begin() as conn:
+                yield conn
+        except sa.exc.SQLAlchemyError as exc:
+            raise StoreError(f"Could not {what}: {exc.__class__.__name__}: {exc}") from exc
