@@ -204,7 +204,8 @@ def chat(config_path: Path | None, model_path: Path | None) -> None:
 
     # The console is one local, trusted person: channel and group rules are for Slack.
     settings = load_settings(config_path).model_copy(update={"labels": LabelSettings()})
-    console = Console(Triage.from_settings(settings, model=Model.load(model_path)))
+    triage = Triage.from_settings(settings, model=Model.load(model_path), simulated_time=True)
+    console = Console(triage)
     interactive = sys.stdin.isatty()
 
     def lines() -> Iterator[str]:
@@ -215,6 +216,83 @@ def chat(config_path: Path | None, model_path: Path | None) -> None:
                 return
 
     console.run(lines(), click.echo)
+
+
+@main.command()
+@click.option("--http", "http_mode", is_flag=True, help="Serve HTTP (default: [slack] mode).")
+@click.option("--port", type=click.IntRange(1, 65535), default=None, help="HTTP port.")
+@click.option("--no-jobs", is_flag=True, help="Answer only: no poll job, no digest job.")
+@_config_option
+@_model_option
+def serve(
+    http_mode: bool,
+    port: int | None,
+    no_jobs: bool,
+    config_path: Path | None,
+    model_path: Path | None,
+) -> None:
+    """Run the chat bot in Slack, with the poll and digest jobs.
+
+    Tokens come from the environment: SLACK_BOT_TOKEN always, SLACK_APP_TOKEN for Socket
+    Mode (the default), SLACK_SIGNING_SECRET for HTTP mode (endpoint /slack/events).
+    """
+    import logging
+    import signal
+
+    from linktriage.chat.blocks import message_for
+    from linktriage.chat.slack import (
+        build_app,
+        group_members,
+        http_server,
+        run_socket_mode,
+        web_client,
+    )
+    from linktriage.diagnosis import Model
+    from linktriage.schedule import Jobs, start_scheduler
+    from linktriage.service import Triage
+    from linktriage.settings import load_settings
+
+    logging.basicConfig(
+        level=logging.INFO, format="%(asctime)s %(levelname)s %(name)s: %(message)s"
+    )
+    settings = load_settings(config_path)
+    if http_mode:
+        settings = settings.model_copy(
+            update={"slack": settings.slack.model_copy(update={"mode": "http"})}
+        )
+    missing = [p for p in _slack_problems(settings) if "channel" not in p]
+    if missing:
+        raise LinktriageError("Cannot start: " + "; ".join(missing) + ".")
+    client = web_client(settings)
+    triage = Triage.from_settings(
+        settings, model=Model.load(model_path), members_of=group_members(client)
+    )
+    app = build_app(triage, settings, client=client)
+    channel = settings.slack.channel
+
+    def post_digest(reply: Any) -> None:
+        if channel is None:
+            return
+        posted = client.chat_postMessage(channel=channel, **message_for(reply))
+        triage.posted(reply, channel=channel, ts=posted["ts"])
+
+    scheduler = None
+    if not no_jobs:
+        scheduler = start_scheduler(Jobs(triage, post_digest, channel), settings.schedule)
+    signal.signal(signal.SIGTERM, lambda *_: sys.exit(0))  # systemd stops it: shut down cleanly
+    try:
+        if settings.slack.mode == "http":
+            server = http_server(app, port or settings.slack.http_port)
+            click.echo(
+                f"linktriage: listening on port {server.server_address[1]}, /slack/events", err=True
+            )
+            server.serve_forever()
+        else:
+            click.echo("linktriage: connecting to Slack in Socket Mode", err=True)
+            run_socket_mode(app, settings)
+    finally:
+        if scheduler is not None:
+            scheduler.shutdown(wait=False)
 
 
 @main.group()

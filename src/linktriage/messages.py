@@ -162,6 +162,9 @@ def help_lines(command: str) -> list[str]:
 
 
 LABEL_PROMPT = "Found it? Reply in this thread with what it was, or use the buttons."
+DIGEST_PROMPT = (
+    "Reply in this thread with a link's number and what you found: `3: cable_fault, crushed cord`."
+)
 LABEL_NOT_ALLOWED = "Labels from this channel or person are not taken here."
 LABEL_WHICH = "Which was it: {options}? Reply with one of them."
 LABEL_WHICH_LINK = (

@@ -87,22 +87,27 @@ class Triage:
         *,
         model: Model | None = None,
         members_of: GroupMembers | None = None,
+        simulated_time: bool = False,
     ) -> Triage:
         """The service for the network the settings name, on their store.
 
-        The demo network runs on simulated time: a second poll is taken at once, as if the
-        quick window had passed.
+        With ``simulated_time`` (the console on the demo network) waiting for a second
+        poll takes no time: the clock jumps as if the quick window had passed.
         """
         from linktriage.demo_network import DemoClock, DemoNetwork
 
-        clock = DemoClock(time.time())
+        clock: Callable[[], float] = time.time
+        sleep: Callable[[float], None] = time.sleep
+        if simulated_time:
+            demo_clock = DemoClock(time.time())
+            clock, sleep = demo_clock, demo_clock.sleep
         return cls(
             network=DemoNetwork(clock=clock),
             store=Store(settings.store.resolved_url()),
             model=model or Model.load(),
             settings=settings,
             clock=clock,
-            sleep=clock.sleep,
+            sleep=sleep,
             members_of=members_of,
         )
 

@@ -129,7 +129,11 @@ class Settings(BaseSettings):
     """Everything linktriage is told at start."""
 
     model_config = SettingsConfigDict(
-        env_prefix="LINKTRIAGE_", env_nested_delimiter="__", extra="forbid", frozen=True
+        env_prefix="LINKTRIAGE_",
+        env_nested_delimiter="__",
+        extra="forbid",
+        frozen=True,
+        populate_by_name=True,
     )
 
     slack: SlackSettings = SlackSettings()

@@ -1,0 +1,109 @@
+"""A local stand-in for Slack's Web API, so the bot's real client talks to something real.
+
+It answers the methods the bot calls (auth.test, chat.postMessage, usergroups.users.list)
+and response_url webhooks, and records every call for tests to assert on. Runs on an
+ephemeral loopback port in a thread of its own.
+"""
+
+from __future__ import annotations
+
+import json
+import threading
+import time
+from dataclasses import dataclass, field
+from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
+from typing import Any
+from urllib.parse import parse_qs
+
+BOT_USER = "U0LTBOT"
+
+
+@dataclass
+class Call:
+    method: str
+    params: dict[str, Any]
+    token: str | None
+
+
+@dataclass
+class SlackEmulator:
+    usergroups: dict[str, list[str]] = field(default_factory=dict)
+    failures: dict[str, str] = field(default_factory=dict)  # method -> Slack error code
+    calls: list[Call] = field(default_factory=list)
+    _server: ThreadingHTTPServer | None = None
+    _ts: int = 0
+
+    def start(self) -> SlackEmulator:
+        emulator = self
+
+        class Handler(BaseHTTPRequestHandler):
+            def do_POST(self) -> None:
+                raw = self.rfile.read(int(self.headers.get("Content-Length") or 0)).decode()
+                if "json" in (self.headers.get("Content-Type") or ""):
+                    params = json.loads(raw or "{}")
+                else:
+                    params = {k: v[0] for k, v in parse_qs(raw).items()}
+                auth = self.headers.get("Authorization", "")
+                token = auth.removeprefix("Bearer ") if auth else params.get("token")
+                answer = emulator._answer(self.path, params, token)
+                body = (answer if isinstance(answer, str) else json.dumps(answer)).encode()
+                self.send_response(200)
+                self.send_header("Content-Type", "application/json")
+                self.send_header("Content-Length", str(len(body)))
+                self.end_headers()
+                self.wfile.write(body)
+
+            def log_message(self, format: str, *args: Any) -> None:
+                pass
+
+        self._server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
+        threading.Thread(target=self._server.serve_forever, daemon=True).start()
+        return self
+
+    def stop(self) -> None:
+        if self._server is not None:
+            self._server.shutdown()
+            self._server.server_close()
+
+    @property
+    def port(self) -> int:
+        assert self._server is not None
+        return int(self._server.server_address[1])
+
+    @property
+    def api_url(self) -> str:
+        return f"http://127.0.0.1:{self.port}/api/"
+
+    @property
+    def response_url(self) -> str:
+        return f"http://127.0.0.1:{self.port}/hooks/respond"
+
+    def _answer(self, path: str, params: dict[str, Any], token: str | None) -> dict[str, Any] | str:
+        method = path.removeprefix("/api/") if path.startswith("/api/") else "response_url"
+        self.calls.append(Call(method, params, token))
+        if method == "response_url":
+            return "ok"
+        if method in self.failures:
+            return {"ok": False, "error": self.failures[method]}
+        if method == "auth.test":
+            return {"ok": True, "team_id": "T0LARK", "user_id": BOT_USER, "bot_id": "B0LTBOT",
+                    "team": "Larkmoor Civic Library", "user": "linktriage"}  # fmt: skip
+        if method == "chat.postMessage":
+            self._ts += 1
+            ts = f"{1772438400 + self._ts}.000100"
+            return {"ok": True, "channel": params.get("channel"), "ts": ts, "message": params}
+        if method == "usergroups.users.list":
+            return {"ok": True, "users": self.usergroups.get(str(params.get("usergroup")), [])}
+        return {"ok": False, "error": "unknown_method"}
+
+    def called(self, method: str) -> list[Call]:
+        return [c for c in self.calls if c.method == method]
+
+    def wait_for(self, method: str, count: int = 1, timeout: float = 10.0) -> list[Call]:
+        deadline = time.monotonic() + timeout
+        while time.monotonic() < deadline:
+            found = self.called(method)
+            if len(found) >= count:
+                return found
+            time.sleep(0.02)
+        raise AssertionError(f"expected {count} {method} calls, got {len(self.called(method))}")
