@@ -116,13 +116,39 @@ def test_train_writes_a_model_that_the_other_commands_then_use(tmp_path: Path) -
     assert json.loads(out)["training"]["simulated_ports"] == 2000
 
 
-def test_train_writes_to_the_data_directory_by_default(tmp_path: Path) -> None:
-    code, _, _ = run("train", "--ports", "2000")
+def test_train_keeps_every_model_and_use_rolls_back() -> None:
+    code, _, _ = run("train", "--ports", "2000", "--seed", "1")
     assert code == 0
-    trained = tmp_path / "home" / "model.json"  # LINKTRIAGE_HOME, set by conftest
-    assert trained.exists()
     _, out, _ = run("model", "--json")
-    assert json.loads(out)["source"] == str(trained)
+    first = json.loads(out)
+    assert first["source"] == "the current kept model" and first["trained_at"] is not None
+    code, _, _ = run("train", "--ports", "2000", "--seed", "2")
+    _, out, _ = run("model", "--json")
+    second = json.loads(out)
+    assert second["version"] != first["version"]
+    assert [k["version"] for k in second["kept_versions"]] == [first["version"], second["version"]]
+    code, out, _ = run("model", "--use", first["version"])
+    assert code == 0 and f"* kept {first['version']}" in out
+    code, _, err = run("model", "--use", "nope")
+    assert code == 1 and "No kept model 'nope'" in err
+
+
+def test_train_with_labels_reports_the_held_out_comparison() -> None:
+    text = "lark-east-idf2 port14\nreply confirmed\nlark-core1 up3\nreply confirmed\n"
+    text += "lark-east-idf2 port7\nreply negotiation_degraded, the printer only does 100/full\n"
+    CliRunner().invoke(main, ["chat"], input=text)
+    code, out, err = run("train", "--with-labels", "--ports", "2000")
+    assert code == 0, err
+    assert "learnt from 2 labels; on 1 held out the candidate scores" in err
+    assert "and 2 confirmed labels" in out
+    _, out, _ = run("model", "--json")
+    (kept,) = json.loads(out)["kept_versions"]
+    assert kept["labelled_rows"] == 2 and kept["evaluation"]["held_out_labels"] == 1
+
+
+def test_train_with_too_few_labels_says_how_many_are_needed() -> None:
+    code, _, err = run("train", "--with-labels", "--ports", "2000")
+    assert code == 1 and "at least 2 are needed" in err
 
 
 def test_a_broken_model_file_is_a_clear_error(tmp_path: Path) -> None:

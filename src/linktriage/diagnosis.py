@@ -29,7 +29,6 @@ from linktriage.messages import (
 )
 from linktriage.model.artefact import CompiledTree, TreeArtefact
 from linktriage.model.explain import Explainer, QuestionRecord, rounded
-from linktriage.paths import trained_model_path
 from linktriage.phy import ber_objective, estimate_ber, phy_name
 from linktriage.polls import PollTable
 from linktriage.verdicts import GUIDES, Verdict, cautions, next_checks
@@ -66,9 +65,16 @@ class DiagnosisRecord(TypedDict):
 class Model:
     """A loaded model: the artefact, its compiled arrays and the question wording."""
 
-    def __init__(self, artefact: TreeArtefact, *, source: str = "the packaged default model"):
+    def __init__(
+        self,
+        artefact: TreeArtefact,
+        *,
+        source: str = "the packaged default model",
+        trained_at: float | None = None,
+    ) -> None:
         self.artefact = artefact
         self.source = source  # where it was loaded from, for the model card
+        self.trained_at = trained_at  # None for the packaged model
         self.tree = CompiledTree(artefact)
         self.explainer = Explainer(self.tree)
 
@@ -82,12 +88,16 @@ class Model:
 
     @classmethod
     def load(cls, path: str | Path | None = None) -> Model:
-        """The model at ``path``; else the one ``linktriage train`` wrote; else the packaged one."""
+        """The model at ``path``; else the current one of the data directory's registry
+        (``linktriage train``, ``linktriage model --use``); else the packaged one."""
+        from linktriage.model.registry import Registry
+
         if path is not None:
             return cls(TreeArtefact.load(path), source=str(path))
-        trained = trained_model_path()
-        if trained.exists():
-            return cls(TreeArtefact.load(trained), source=str(trained))
+        kept = Registry().current()
+        if kept is not None:
+            artefact, entry = kept
+            return cls(artefact, source="the current kept model", trained_at=entry.trained_at)
         return cls(TreeArtefact.default())
 
 

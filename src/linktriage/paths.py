@@ -17,8 +17,3 @@ def data_dir() -> Path:
     xdg = os.environ.get("XDG_DATA_HOME")
     base = Path(xdg) if xdg else Path.home() / ".local" / "share"
     return base / "linktriage"
-
-
-def trained_model_path() -> Path:
-    """Where ``linktriage train`` writes by default, and where the tools look first."""
-    return data_dir() / "model.json"

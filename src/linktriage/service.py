@@ -140,7 +140,11 @@ class Triage:
             self.store.audit(text, outcome, at=self.clock(), user_id=user, channel=channel)
 
     def model_card(self) -> ModelReply:
-        return ModelReply(model_card_data(self.model.artefact, source=self.model.source))
+        return ModelReply(
+            model_card_data(
+                self.model.artefact, source=self.model.source, trained_at=self.model.trained_at
+            )
+        )
 
     # --- one port
     def diagnose_port(

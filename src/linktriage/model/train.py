@@ -19,7 +19,7 @@ import numpy as np
 import numpy.typing as npt
 import sklearn
 from sklearn.metrics import f1_score, recall_score
-from sklearn.model_selection import StratifiedKFold, cross_val_predict
+from sklearn.model_selection import StratifiedKFold
 from sklearn.tree import DecisionTreeClassifier
 
 from linktriage.features import FEATURE_NAMES, feature_matrix, feature_table
@@ -43,6 +43,8 @@ class TrainingConfig:
     candidate_alphas: int = 24
     healthy_weight: float = 3.0
     resolution: float = DEFAULT_RESOLUTION
+    #: How much one confirmed label outweighs one simulated row.
+    label_weight: float = 20.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -63,6 +65,17 @@ def prior_rows(n: int, seed: int, *, resolution: float = DEFAULT_RESOLUTION) -> 
     guarded = apply_guards(windows, table, resolution=resolution)
     keep = np.array([v is None for v in guarded])
     return PriorRows(feature_matrix(table)[keep], labels[keep], n)
+
+
+@dataclass(frozen=True, slots=True)
+class LabelledRows:
+    """Confirmed labels as training rows: the feature row of each verdict, what was found."""
+
+    x: npt.NDArray[np.float32]
+    y: npt.NDArray[np.object_]
+
+    def __len__(self) -> int:
+        return len(self.y)
 
 
 def class_weights(y: npt.NDArray[np.object_], healthy_weight: float) -> dict[str, float]:
@@ -95,13 +108,16 @@ def _candidate_alphas(
     y: npt.NDArray[np.object_],
     weights: dict[str, float],
     cfg: TrainingConfig,
+    sample_weight: npt.NDArray[np.float64] | None = None,
 ) -> npt.NDArray[np.float64]:
     """Alphas of the pruning path, thinned to ``candidate_alphas`` spread evenly in log scale.
 
     The path's tail of tiny alphas (down to rounding noise) only prunes single leaves off a
     huge tree; the trees worth comparing lie within six decades of the largest alpha.
     """
-    path = _tree(0.0, weights, cfg.seed).cost_complexity_pruning_path(x, y)
+    path = _tree(0.0, weights, cfg.seed).cost_complexity_pruning_path(
+        x, y, sample_weight=sample_weight
+    )
     alphas: npt.NDArray[np.float64] = np.unique(path.ccp_alphas)[:-1]  # last: the root alone
     alphas = alphas[alphas > alphas[-1] * 1e-6]
     targets = np.geomspace(alphas[0], alphas[-1], cfg.candidate_alphas)
@@ -110,22 +126,37 @@ def _candidate_alphas(
     return chosen
 
 
+def _folds(
+    x: npt.NDArray[np.float32], y: npt.NDArray[np.object_], cfg: TrainingConfig
+) -> list[tuple[npt.NDArray[np.intp], npt.NDArray[np.intp]]]:
+    return list(StratifiedKFold(cfg.folds, shuffle=True, random_state=cfg.seed).split(x, y))
+
+
+def _part(
+    sample_weight: npt.NDArray[np.float64] | None, rows: npt.NDArray[np.intp]
+) -> npt.NDArray[np.float64] | None:
+    return None if sample_weight is None else sample_weight[rows]
+
+
 def score_alphas(
     x: npt.NDArray[np.float32],
     y: npt.NDArray[np.object_],
     alphas: npt.NDArray[np.float64],
     weights: dict[str, float],
     cfg: TrainingConfig,
+    sample_weight: npt.NDArray[np.float64] | None = None,
 ) -> list[AlphaScore]:
     """Stratified k-fold macro-F1 and full-data leaf count for every candidate alpha."""
-    folds = list(StratifiedKFold(cfg.folds, shuffle=True, random_state=cfg.seed).split(x, y))
+    folds = _folds(x, y, cfg)
     scores = []
     for alpha in alphas:
         fold_scores = []
         for train, test in folds:
-            clf = _tree(float(alpha), weights, cfg.seed).fit(x[train], y[train])
+            clf = _tree(float(alpha), weights, cfg.seed)
+            clf.fit(x[train], y[train], sample_weight=_part(sample_weight, train))
             fold_scores.append(f1_score(y[test], clf.predict(x[test]), average="macro"))
-        leaves = _tree(float(alpha), weights, cfg.seed).fit(x, y).get_n_leaves()
+        full = _tree(float(alpha), weights, cfg.seed).fit(x, y, sample_weight=sample_weight)
+        leaves = full.get_n_leaves()
         s = np.asarray(fold_scores)
         scores.append(
             AlphaScore(
@@ -149,19 +180,30 @@ def choose_alpha(scores: list[AlphaScore], max_leaves: int) -> tuple[AlphaScore,
     return choice, f"best cross-validated tree with at most {max_leaves} leaves"
 
 
-def train(cfg: TrainingConfig | None = None) -> TreeArtefact:
-    """Build the pruned tree from the simulated prior and describe how it was chosen."""
+def train(cfg: TrainingConfig | None = None, labelled: LabelledRows | None = None) -> TreeArtefact:
+    """Build the pruned tree from the simulated prior (and confirmed labels, weighted
+    ``label_weight`` each) and describe how it was chosen."""
     cfg = cfg or TrainingConfig()
     prior = prior_rows(cfg.simulated_ports, cfg.seed, resolution=cfg.resolution)
     x, y = prior.x, prior.y.astype(str)
+    sample_weight = None
+    if labelled is not None and len(labelled):
+        x = np.vstack([x, labelled.x])
+        y = np.concatenate([y, labelled.y.astype(str)])
+        sample_weight = np.r_[np.ones(len(prior.y)), np.full(len(labelled), cfg.label_weight)]
     weights = class_weights(y, cfg.healthy_weight)
-    scores = score_alphas(x, y, _candidate_alphas(x, y, weights, cfg), weights, cfg)
+    alphas = _candidate_alphas(x, y, weights, cfg, sample_weight)
+    scores = score_alphas(x, y, alphas, weights, cfg, sample_weight)
     chosen, why = choose_alpha(scores, cfg.max_leaves)
     best = max(scores, key=lambda s: s.mean)
-    clf = _tree(chosen.alpha, weights, cfg.seed).fit(x, y)
+    clf = _tree(chosen.alpha, weights, cfg.seed).fit(x, y, sample_weight=sample_weight)
 
-    cv = StratifiedKFold(cfg.folds, shuffle=True, random_state=cfg.seed)
-    predicted = cross_val_predict(_tree(chosen.alpha, weights, cfg.seed), x, y, cv=cv)
+    predicted = np.empty(len(y), dtype=object)
+    for fold_train, fold_test in _folds(x, y, cfg):
+        fold = _tree(chosen.alpha, weights, cfg.seed)
+        fold.fit(x[fold_train], y[fold_train], sample_weight=_part(sample_weight, fold_train))
+        predicted[fold_test] = fold.predict(x[fold_test])
+    predicted = predicted.astype(str)
     classes = [str(c) for c in clf.classes_]
     recall = recall_score(y, predicted, labels=classes, average=None, zero_division=0.0)
     healthy = y == Verdict.HEALTHY.value
@@ -174,6 +216,7 @@ def train(cfg: TrainingConfig | None = None) -> TreeArtefact:
         seed=cfg.seed,
         simulated_ports=prior.simulated_ports,
         rows=len(y),
+        labelled_rows=0 if labelled is None else len(labelled),
         folds=cfg.folds,
         ccp_alpha=chosen.alpha,
         selection=why,

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from datetime import UTC, datetime
 from typing import Any
 
 from linktriage.messages import sig
@@ -15,11 +16,14 @@ def importances(artefact: TreeArtefact) -> dict[str, float]:
     return {f: round(float(v), 4) for f, v in zip(artefact.features, values, strict=True)}
 
 
-def model_card_data(artefact: TreeArtefact, *, source: str) -> dict[str, Any]:
+def model_card_data(
+    artefact: TreeArtefact, *, source: str, trained_at: float | None = None
+) -> dict[str, Any]:
     """The card as plain data (``linktriage model --json``): everything but the tree arrays."""
     return {
         "version": artefact.version,
         "source": source,
+        "trained_at": trained_at,
         "leaves": artefact.leaves,
         "depth": artefact.depth,
         "criterion": "gini",
@@ -30,6 +34,12 @@ def model_card_data(artefact: TreeArtefact, *, source: str) -> dict[str, Any]:
     }
 
 
+def _when(at: float | None) -> str:
+    if at is None:
+        return "before packaging"
+    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
+
+
 def card_text(card: dict[str, Any]) -> str:
     """The card (``model_card_data``) as text for a terminal."""
     t = card["training"]
@@ -38,7 +48,7 @@ def card_text(card: dict[str, Any]) -> str:
     important = ", ".join(f"{name} {value:.2f}" for name, value in top if value >= 0.01)
     return "\n".join(
         [
-            f"model {card['version']} ({card['source']})",
+            f"model {card['version']} ({card['source']}), trained {_when(card['trained_at'])}",
             f"  tree: {card['leaves']} leaves, depth {card['depth']}, Gini impurity, "
             f"ccp_alpha {t['ccp_alpha']:.3g}",
             f"  pruning: {t['selection']}",
