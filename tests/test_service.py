@@ -252,3 +252,23 @@ def test_a_poll_round_keeps_every_port(triage: Triage) -> None:
     result = triage.poll_round()
     assert result.failed == {}
     assert result.stored == len(triage.network.ports())
+
+
+def test_history_read_back_from_the_store_diagnoses_like_the_polls_themselves(
+    triage: Triage, clock: DemoClock, model: Model
+) -> None:
+    from linktriage.demo_network import demo_polls
+    from linktriage.diagnosis import diagnose
+    from linktriage.simulate import DEFAULT_START
+
+    clock.now = DEFAULT_START - 300.0
+    triage.poll_round()
+    clock.now = DEFAULT_START
+    direct = diagnose(demo_polls(), model)
+    for spec in ("lark-east-idf2 port7", "lark-annex-sw1 port3", "lark-core1 up5"):
+        reply = triage.handle(spec)
+        assert isinstance(reply, DiagnosisReply)
+        device, port = spec.split()
+        row = direct.index_of(device, port)
+        assert row is not None
+        assert reply.record == direct.record(row)

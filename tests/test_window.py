@@ -209,3 +209,11 @@ def test_a_counter64_going_backwards_at_a_known_speed_is_a_reset_too() -> None:
     )
     assert w.status[0] == WindowStatus.NO_DATA
     assert w.resets[0] == 1
+
+
+def test_a_discontinuity_time_read_with_other_rounding_is_not_a_reset() -> None:
+    w = one(
+        line(counters={"ifHCInOctets": 0}, discontinuity_time="2026-01-01T00:00:00.297663Z"),
+        line(T5, counters={"ifHCInOctets": 9}, discontinuity_time="2026-01-01T00:00:00.3Z"),
+    )
+    assert w.status[0] == WindowStatus.OK and w.resets[0] == 0

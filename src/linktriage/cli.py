@@ -492,7 +492,50 @@ def demo(model_path: Path | None) -> None:
         click.echo(f"\n{'=' * 88}\n$ linktriage ask {planted.device} {planted.port}")
         click.echo(f"({planted.serves})\n")
         click.echo(explanation(batch.record(row)))
+    _demo_digest_and_label(loaded)
     click.echo(
         f"\n{'=' * 88}\nAsk about any other port: linktriage ask DEVICE PORT "
-        "(e.g. linktriage ask lark-core1 up3)."
+        "(e.g. linktriage ask lark-core1 up3), or talk to the bot: linktriage chat."
     )
+
+
+def _demo_digest_and_label(model: Any) -> None:
+    """The scheduled digest, and an engineer's reply in its thread stored as a label."""
+    import tempfile
+
+    from linktriage.chat.text import render
+    from linktriage.demo_network import DemoClock, DemoNetwork
+    from linktriage.service import Triage
+    from linktriage.settings import Settings
+    from linktriage.simulate import DEFAULT_START
+    from linktriage.store import Store
+
+    with tempfile.TemporaryDirectory() as folder:
+        clock = DemoClock(DEFAULT_START - 300.0)
+        store = Store(f"sqlite:///{folder}/demo.sqlite")
+        triage = Triage(
+            DemoNetwork(clock=clock), store, model, Settings(), clock=clock, sleep=clock.sleep
+        )
+        triage.poll_round()  # the poll job ran five minutes before the digest
+        clock.sleep(300.0)
+        digest = triage.digest(channel="demo")
+        triage.posted(digest, channel="demo", ts="digest-1")
+        click.echo(
+            f"\n{'=' * 88}\nThe digest, as posted to the team channel on weekday mornings:\n"
+        )
+        click.echo(render(digest))
+        first = digest.items[0].record
+        reply = f"1: swapped fibres at the patch panel, {first['port']} was one-way"
+        click.echo(f"\nAn engineer replies in the digest's thread:\n  > {reply}")
+        label = triage.label_reply(
+            reply, user="demo-engineer", channel="demo", thread_ts="digest-1", event_key="demo-1"
+        )
+        if label is not None:
+            click.echo(f"  {render(label)}")
+        (stored,) = store.labels()
+        click.echo(
+            f"Stored in SQLite: label {stored.id}, {stored.device} {stored.port} = "
+            f"{stored.verdict}, with the feature row the verdict was based on and model "
+            f"{stored.model_version}; `linktriage train --with-labels` learns from it."
+        )
+        store.close()

@@ -48,6 +48,9 @@ DEFAULT_MAX_WINDOW_S = 3600.0
 # Slack on the physical bound: clocks of poller and device disagree by a little.
 _BOUND_FACTOR = 1.05
 _BOUND_SLACK = 16.0
+# A discontinuity time read twice may differ in its last digits (TimeTicks are 1/100 s,
+# and pollers round differently); only a real move counts as a reset.
+_DISCONTINUITY_SLACK_S = 0.5
 
 
 class WindowStatus(IntEnum):
@@ -177,7 +180,7 @@ def _windows_of_sorted(
     reset = np.zeros(m, np.bool_)
     reset[1:] = (
         (implausible[1:] | backwards[1:]).any(axis=1)
-        | ((disc[1:] != disc[:-1]) & ~np.isnan(disc[1:]) & ~np.isnan(disc[:-1]))
+        | (np.abs(disc[1:] - disc[:-1]) > _DISCONTINUITY_SLACK_S)  # False where either is NaN
         | (lc[1:] < lc[:-1])
     )
     reset &= interval

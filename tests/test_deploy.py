@@ -1,0 +1,51 @@
+"""The deploy files stay true to the code: scopes, command, events, settings, unit."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from linktriage.chat.commands import COMMAND
+from linktriage.settings import load_settings
+
+DEPLOY = Path(__file__).resolve().parent.parent / "deploy"
+
+
+def test_the_manifest_declares_what_the_bot_uses() -> None:
+    manifest = json.loads((DEPLOY / "slack-app-manifest.json").read_text())
+    (command,) = manifest["features"]["slash_commands"]
+    assert command["command"] == COMMAND
+    scopes = set(manifest["oauth_config"]["scopes"]["bot"])
+    # slash command, posting, reading thread replies, checking user groups (Slack scopes)
+    assert scopes == {
+        "commands",
+        "chat:write",
+        "channels:history",
+        "groups:history",
+        "usergroups:read",
+    }
+    settings = manifest["settings"]
+    assert set(settings["event_subscriptions"]["bot_events"]) == {
+        "message.channels",
+        "message.groups",
+    }
+    assert settings["interactivity"]["is_enabled"] is True
+    assert settings["socket_mode_enabled"] is True
+    assert len(manifest["display_information"]["name"]) <= 35
+    assert 174 <= len(manifest["display_information"]["long_description"]) <= 4000
+
+
+def test_the_example_config_is_valid_settings() -> None:
+    settings = load_settings(DEPLOY / "config.example.toml")
+    assert settings.schedule.timezone == "Europe/Oslo"
+    assert settings.slack.channel == "C0123456789"
+
+
+def test_the_service_unit_runs_serve_with_tokens_from_a_file() -> None:
+    unit = (DEPLOY / "linktriage.service").read_text()
+    assert (
+        "ExecStart=/opt/linktriage/bin/linktriage serve --config /etc/linktriage/config.toml"
+        in unit
+    )
+    assert "EnvironmentFile=/etc/linktriage/env" in unit
+    assert "xoxb-" not in unit.split("[Unit]")[1]  # no token in the unit itself
