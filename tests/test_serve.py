@@ -127,3 +127,23 @@ def test_serve_without_tokens_refuses_to_start(tmp_path: Path) -> None:
     )
     assert done.returncode == 1
     assert "SLACK_BOT_TOKEN is not set" in done.stderr and "Traceback" not in done.stderr
+
+
+def test_serve_with_a_token_slack_refuses_says_so(tmp_path: Path, emulator: SlackEmulator) -> None:
+    emulator.failures["auth.test"] = "invalid_auth"
+    exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
+    assert exe is not None
+    env = {
+        **os.environ,
+        "LINKTRIAGE_HOME": str(tmp_path),
+        "SLACK_BOT_TOKEN": "xoxb-revoked",
+        "SLACK_SIGNING_SECRET": SECRET,
+        "LINKTRIAGE_SLACK_API_URL": emulator.api_url,
+    }
+    done = subprocess.run(
+        [exe, "serve", "--http", "--port", str(free_port()), "--no-jobs"],
+        env=env, capture_output=True, text=True, timeout=60,
+    )  # fmt: skip
+    assert done.returncode == 1
+    assert "Cannot start" in done.stderr and "invalid_auth" in done.stderr
+    assert "Traceback" not in done.stderr and "xoxb-revoked" not in done.stderr

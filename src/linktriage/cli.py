@@ -304,6 +304,8 @@ def serve(
     import logging
     import signal
 
+    from slack_bolt.error import BoltError
+
     from linktriage.chat.blocks import message_for
     from linktriage.chat.slack import (
         build_app,
@@ -332,7 +334,10 @@ def serve(
     triage = Triage.from_settings(
         settings, model=Model.load(model_path), members_of=group_members(client)
     )
-    app = build_app(triage, settings, client=client)
+    try:
+        app = build_app(triage, settings, client=client)
+    except BoltError as exc:  # e.g. Slack refused the token at its first check
+        raise LinktriageError(f"Cannot start: {exc}") from exc
     channel = settings.slack.channel
 
     def post_digest(reply: Any) -> None:

@@ -12,7 +12,7 @@ import contextlib
 import math
 import time
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -203,28 +203,13 @@ class Triage:
         before = {(i["device"], i["port"]) for i in previous.items} if previous else set()
         now = {(i.record["device"], i.record["port"]) for i in current.items}
         items = [
-            SuspectItem(
-                i.rank,
-                i.record,
-                i.diagnosis_id,
-                i.reason,
-                new=previous is not None and (i.record["device"], i.record["port"]) not in before,
+            replace(
+                i, new=previous is not None and (i.record["device"], i.record["port"]) not in before
             )
             for i in current.items
         ]
         digest_id = self.store.add_digest(
-            [
-                {
-                    "device": i.record["device"],
-                    "port": i.record["port"],
-                    "verdict": i.record["verdict"],
-                    "diagnosis_id": i.diagnosis_id,
-                }
-                for i in items
-            ],
-            at=current.at,
-            kind="digest",
-            channel=channel,
+            _listed(items), at=current.at, kind="digest", channel=channel
         )
         return SuspectsReply(
             title="Digest of suspect links",

@@ -311,10 +311,13 @@ class Store:
 
     def attach_message(self, diagnosis_id: int, channel: str, message_ts: str) -> None:
         """Remember which chat message carries a diagnosis, so its thread can label it."""
+        self._attach(diagnoses, diagnosis_id, channel, message_ts)
+
+    def _attach(self, table: sa.Table, row_id: int, channel: str, message_ts: str) -> None:
         with self._writing("remember the message") as conn:
             conn.execute(
-                diagnoses.update()
-                .where(diagnoses.c.id == diagnosis_id)
+                table.update()
+                .where(table.c.id == row_id)
                 .values(channel=channel, message_ts=message_ts)
             )
 
@@ -427,12 +430,8 @@ class Store:
             return _new_id(result)
 
     def attach_digest_message(self, digest_id: int, channel: str, message_ts: str) -> None:
-        with self._writing("remember the digest message") as conn:
-            conn.execute(
-                digests.update()
-                .where(digests.c.id == digest_id)
-                .values(channel=channel, message_ts=message_ts)
-            )
+        """Remember which chat message carries a list of suspects, for its thread."""
+        self._attach(digests, digest_id, channel, message_ts)
 
     def last_digest(self) -> Digest | None:
         """The newest scheduled digest."""
