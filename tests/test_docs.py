@@ -29,7 +29,8 @@ def test_every_command_and_its_options_are_in_the_readme(command: str) -> None:
     for param in cmd.params:
         for opt in getattr(param, "opts", []):
             if opt.startswith("--") and opt != "--help":
-                usage = re.search(rf"linktriage {command}[^\n]*", README)
+                # The command's usage: from its first mention to the end of that paragraph.
+                usage = re.search(rf"linktriage {command}.*?(\n\n|$)", README, re.DOTALL)
                 assert usage is not None and opt in usage.group(0), (command, opt)
 
 

@@ -365,6 +365,173 @@ def serve(
             scheduler.shutdown(wait=False)
 
 
+def _inventory_option(func: F) -> F:
+    return click.option(
+        "--inventory",
+        "inventory_path",
+        type=click.Path(dir_okay=False, path_type=Path),
+        default=None,
+        help="Inventory file (TOML). Default: [network] inventory of the settings, else the "
+        "built-in demo network read through the demo collector.",
+    )(func)
+
+
+def _load_inventory(inventory_path: Path | None, config_path: Path | None) -> Any:
+    from linktriage.demo_network import demo_inventory
+    from linktriage.inventory import load_inventory
+    from linktriage.settings import load_settings
+
+    if inventory_path is not None:
+        return load_inventory(inventory_path)
+    configured = load_settings(config_path).network.inventory
+    return load_inventory(configured) if configured is not None else demo_inventory()
+
+
+@main.group()
+def inventory() -> None:
+    """Check the inventory of devices."""
+
+
+@inventory.command("check")
+@click.option("--reach", is_flag=True, help="Also read every device once, with its timeout.")
+@_inventory_option
+@_config_option
+def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path | None) -> None:
+    """Validate the inventory: collectors, options, credential references; optionally
+    whether each device answers."""
+    import time
+
+    from linktriage.inventory import problems
+    from linktriage.polling import InventoryNetwork
+
+    found = _load_inventory(inventory_path, config_path)
+    bad = problems(found)
+    for device in found.devices:
+        where = device.address or "-"
+        ports = f"{len(device.ports)} ports listed" if device.ports is not None else "all ports"
+        state = bad.get(device.name, "ok")
+        click.echo(
+            f"{device.name} ({device.site}): {device.collector} at {where}, {ports}: {state}"
+        )
+    if reach and not bad:
+        network = InventoryNetwork(found)
+        try:
+            for device in found.devices:
+                start = time.monotonic()
+                gathered = network.poll_many({device.name: device.ports})
+                took = time.monotonic() - start
+                if device.name in gathered.failed:
+                    bad[device.name] = gathered.failed[device.name]
+                    click.echo(f"{device.name}: does not answer: {bad[device.name]}")
+                else:
+                    count = len(gathered.tables[device.name])
+                    click.echo(f"{device.name}: answers in {took:.2f} s with {count} ports")
+        finally:
+            network.close()
+    if bad:
+        click.echo(f"{len(bad)} of {len(found.devices)} devices cannot be read", err=True)
+        sys.exit(1)
+    click.echo(f"{len(found.devices)} devices ok")
+
+
+@main.command()
+@click.option("--device", required=True, help="A device of the inventory (a unique part will do).")
+@click.option("--ports", "port_names", multiple=True, help="Only these ports (repeat, or a,b,c).")
+@click.option(
+    "--out",
+    required=True,
+    type=click.Path(dir_okay=False, allow_dash=True, path_type=Path),
+    help="Snapshot file to write (JSON Lines); - for standard output.",
+)
+@click.option(
+    "--polls", type=click.IntRange(min=1), default=1, show_default=True, help="Polls to take."
+)
+@click.option(
+    "--every",
+    type=click.FloatRange(min=0.0),
+    default=30.0,
+    show_default=True,
+    help="Seconds between polls.",
+)
+@_inventory_option
+@_config_option
+def collect(
+    device: str,
+    port_names: tuple[str, ...],
+    out: Path,
+    polls: int,
+    every: float,
+    inventory_path: Path | None,
+    config_path: Path | None,
+) -> None:
+    """Read a device's counters and write them as snapshots: any collector is a recorder."""
+    import time
+
+    from linktriage.network import Network
+    from linktriage.polling import InventoryNetwork
+    from linktriage.snapshot import iter_snapshots, write_snapshots
+
+    found = _load_inventory(inventory_path, config_path)
+    name = Network._device_name(device, [d.name for d in found.devices])
+    ports = [p for chunk in port_names for p in chunk.split(",") if p] or None
+    network = InventoryNetwork(found)
+    written = 0
+    failures = 0
+    stream = sys.stdout if str(out) == "-" else open(out, "w", encoding="utf-8")  # noqa: SIM115
+    try:
+        for n in range(polls):
+            if n:
+                time.sleep(every)
+            gathered = network.poll_many({name: ports})
+            if name in gathered.failed:
+                failures += 1
+                click.echo(f"{name}: {gathered.failed[name]}", err=True)
+                continue
+            for (_, port), problem in gathered.problems.items():
+                click.echo(f"{name} {port}: {problem}", err=True)
+            written += write_snapshots(iter_snapshots(gathered.tables[name]), stream)
+    finally:
+        if stream is not sys.stdout:
+            stream.close()
+        network.close()
+    click.echo(f"wrote {written} snapshots of {name} in {polls - failures} polls", err=True)
+    if failures == polls:
+        sys.exit(1)
+
+
+@main.command()
+@click.option("--json", "as_json", is_flag=True, help="One JSON object per suspect per line.")
+@_inventory_option
+@_config_option
+@_model_option
+def sweep(
+    as_json: bool, inventory_path: Path | None, config_path: Path | None, model_path: Path | None
+) -> None:
+    """Diagnose every port of the inventory and list the suspect links, worst first."""
+    from linktriage.chat.text import suspects_text
+    from linktriage.diagnosis import Model
+    from linktriage.polling import InventoryNetwork
+    from linktriage.render.jsonl import dumps
+    from linktriage.service import Triage
+    from linktriage.settings import load_settings
+    from linktriage.store import Store
+
+    settings = load_settings(config_path)
+    network = InventoryNetwork(_load_inventory(inventory_path, config_path))
+    triage = Triage(network, Store(settings.store.resolved_url()), Model.load(model_path), settings)
+    try:
+        reply = triage.suspects(kind="sweep")
+    finally:
+        network.close()
+    if as_json:
+        for item in reply.items:
+            click.echo(dumps(item.record))
+    else:
+        click.echo(suspects_text(reply))
+    for device in reply.failed_devices:
+        click.echo(f"{device}: not read", err=True)
+
+
 @main.group()
 def config() -> None:
     """Check the settings."""

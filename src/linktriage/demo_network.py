@@ -18,6 +18,7 @@ import numpy as np
 import pandas as pd
 
 from linktriage.errors import PollError
+from linktriage.inventory import DeviceEntry, Inventory
 from linktriage.network import Network, PortRef
 from linktriage.polls import PollTable
 from linktriage.simulate import (
@@ -222,6 +223,9 @@ class DemoNetwork(Network):
         if refs is None:
             raise PollError(device, "not part of the demo network")
         names = [r.port for r in refs] if ports is None else list(ports)
+        unknown = [name for name in names if (device, name) not in self._rows]
+        if unknown:
+            raise PollError(device, f"has no port {unknown[0]!r}")
         rows = np.array([self._rows[(device, name)] for name in names], np.intp)
         return self.poll_rows(rows, self.clock())
 
@@ -278,3 +282,18 @@ def demo_polls(*, seed: int = DEFAULT_SEED, end_time: float = DEFAULT_START) -> 
     """Two polls, five minutes apart, of every port of the demo network."""
     network = DemoNetwork(seed=seed)
     return PollTable.concat([network.poll_all(end_time - 300.0), network.poll_all(end_time)])
+
+
+def demo_inventory() -> Inventory:
+    """The demo network as an inventory: each switch read by the ``demo`` collector."""
+    devices = []
+    for device, refs in DemoNetwork().devices().items():
+        devices.append(
+            DeviceEntry(
+                name=device,
+                site=refs[0].site,
+                collector="demo",
+                serves={r.port: r.serves for r in refs if r.serves},
+            )
+        )
+    return Inventory(devices=devices)

@@ -11,8 +11,18 @@ from abc import ABC, abstractmethod
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from linktriage.errors import AmbiguousNameError, UnknownPortError
+from linktriage.errors import AmbiguousNameError, PollError, UnknownPortError
 from linktriage.polls import PollTable
+
+
+@dataclass(frozen=True, slots=True)
+class Gathered:
+    """What polling several devices gave: a table per device that answered, the reason
+    for each device that did not, and ports whose answers were malformed."""
+
+    tables: dict[str, PollTable]
+    failed: dict[str, str]  # device -> why
+    problems: dict[tuple[str, str], str]  # (device, port) -> what was wrong
 
 
 @dataclass(frozen=True, slots=True)
@@ -41,6 +51,18 @@ class Network(ABC):
     def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
         """Read the counters of some ports (default: all) of one device now."""
 
+    def poll_many(self, wanted: dict[str, list[str] | None]) -> Gathered:
+        """Poll several devices (ports None: all of them); one that fails does not stop the
+        others. Implementations that can should read the devices at once."""
+        tables: dict[str, PollTable] = {}
+        failed: dict[str, str] = {}
+        for device, ports in wanted.items():
+            try:
+                tables[device] = self.poll(device, ports)
+            except PollError as exc:
+                failed[device] = exc.reason
+        return Gathered(tables, failed, {})
+
     def sites(self) -> list[str]:
         return sorted({p.site for p in self.ports()})
 
@@ -50,18 +72,27 @@ class Network(ABC):
             out.setdefault(ref.device, []).append(ref)
         return out
 
+    def device_names(self) -> list[str]:
+        """Every device's name; implementations answer without contacting any device."""
+        return list(self.devices())
+
+    def ports_of(self, device: str) -> list[PortRef]:
+        """The ports of one known device."""
+        return self.devices()[device]
+
     def find(self, device: str, port: str) -> PortRef:
         """The port a person named, refusing names the network does not have.
 
         A device may be named by any unique part of its name ("idf2" for
-        "lark-east-idf2"); a part that fits several devices is ambiguous.
+        "lark-east-idf2"); a part that fits several devices is ambiguous. The name is
+        settled before any device is contacted.
         """
-        devices = self.devices()
-        name = self._device_name(device, list(devices))
-        refs = {r.port.lower(): r for r in devices[name]}
+        name = self._device_name(device, self.device_names())
+        ports = self.ports_of(name)
+        refs = {r.port.lower(): r for r in ports}
         ref = refs.get(port.lower())
         if ref is None:
-            known = [r.port for r in devices[name]]
+            known = [r.port for r in ports]
             raise UnknownPortError(
                 f"{name} has no port named {port!r}.",
                 suggestions=difflib.get_close_matches(port, known, n=3, cutoff=0.5),

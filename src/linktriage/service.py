@@ -92,17 +92,27 @@ class Triage:
         """The service for the network the settings name, on their store.
 
         With ``simulated_time`` (the console on the demo network) waiting for a second
-        poll takes no time: the clock jumps as if the quick window had passed.
+        poll takes no time: the clock jumps as if the quick window had passed. Real
+        devices (an inventory) always run on real time.
         """
         from linktriage.demo_network import DemoClock, DemoNetwork
 
         clock: Callable[[], float] = time.time
         sleep: Callable[[float], None] = time.sleep
-        if simulated_time:
-            demo_clock = DemoClock(time.time())
-            clock, sleep = demo_clock, demo_clock.sleep
+        network: Network
+        if settings.network.source == "inventory":
+            from linktriage.inventory import load_inventory
+            from linktriage.polling import InventoryNetwork
+
+            assert settings.network.inventory is not None  # settings insist on it
+            network = InventoryNetwork(load_inventory(settings.network.inventory))
+        else:
+            if simulated_time:
+                demo_clock = DemoClock(time.time())
+                clock, sleep = demo_clock, demo_clock.sleep
+            network = DemoNetwork(clock=clock)
         return cls(
-            network=DemoNetwork(clock=clock),
+            network=network,
             store=Store(settings.store.resolved_url()),
             model=model or Model.load(),
             settings=settings,
@@ -242,14 +252,9 @@ class Triage:
 
     def poll_round(self) -> PollRound:
         """Poll every device once and keep the answers: the poll job."""
-        stored = 0
-        failed: dict[str, str] = {}
-        for device in self.network.devices():
-            try:
-                stored += self.store.add_polls(self.network.poll(device))
-            except PollError as exc:
-                failed[device] = exc.reason
-        return PollRound(stored, failed)
+        gathered = self.network.poll_many(dict.fromkeys(self.network.device_names()))
+        stored = sum(self.store.add_polls(table) for table in gathered.tables.values())
+        return PollRound(stored, gathered.failed)
 
     def _gather(self, refs: list[PortRef]) -> tuple[PollTable, dict[str, str]]:
         """Polls for these ports: stored recent ones plus one fresh poll each, or two
@@ -259,7 +264,7 @@ class Triage:
             wanted.setdefault(ref.device, []).append(ref.port)
         since = self.clock() - self.settings.chat.recent_poll_s
         tables: list[PollTable] = []
-        missing: dict[str, list[str]] = {}
+        missing: dict[str, list[str] | None] = {}
         for device, ports in wanted.items():
             stored = self.store.polls_since(since, device=device)
             stored = stored.take(np.flatnonzero(np.isin(stored.port, ports)))
@@ -268,24 +273,21 @@ class Triage:
             lacking = [p for p in ports if p not in have]
             if lacking:
                 missing[device] = lacking
-        failed = self._poll_into(tables, wanted)
-        if missing:
+        failed = self._poll_into(tables, dict(wanted))
+        retry = {d: ps for d, ps in missing.items() if d not in failed}
+        if retry:
             self.sleep(self.settings.chat.quick_window_s)
-            retry = {d: ps for d, ps in missing.items() if d not in failed}
             failed.update(self._poll_into(tables, retry))
         return PollTable.concat(tables), failed
 
-    def _poll_into(self, tables: list[PollTable], wanted: dict[str, list[str]]) -> dict[str, str]:
-        failed = {}
-        for device, ports in wanted.items():
-            try:
-                fresh = self.network.poll(device, ports)
-            except PollError as exc:
-                failed[device] = exc.reason
-                continue
+    def _poll_into(
+        self, tables: list[PollTable], wanted: dict[str, list[str] | None]
+    ) -> dict[str, str]:
+        gathered = self.network.poll_many(wanted)
+        for fresh in gathered.tables.values():
             self.store.add_polls(fresh)
             tables.append(fresh)
-        return failed
+        return dict(gathered.failed)
 
     def _keep(
         self,

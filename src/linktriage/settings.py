@@ -17,7 +17,15 @@ from pathlib import Path
 from typing import Any, Literal
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
-from pydantic import BaseModel, ConfigDict, Field, SecretStr, ValidationError, field_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    SecretStr,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 from pydantic_settings import (
     BaseSettings,
     PydanticBaseSettingsSource,
@@ -120,9 +128,16 @@ class LabelSettings(_Section):
 
 
 class NetworkSettings(_Section):
-    """Which network the bot watches."""
+    """Which network the bot watches: the built-in demo, or the devices of an inventory."""
 
-    source: Literal["demo"] = "demo"
+    source: Literal["demo", "inventory"] = "demo"
+    inventory: Path | None = Field(default=None, description="inventory TOML file")
+
+    @model_validator(mode="after")
+    def _inventory_named(self) -> NetworkSettings:
+        if self.source == "inventory" and self.inventory is None:
+            raise ValueError('source = "inventory" needs inventory = "/path/to/inventory.toml"')
+        return self
 
 
 class Settings(BaseSettings):

@@ -128,6 +128,12 @@ def read_snapshots(lines: Iterable[bytes | str]) -> ReadResult:
     return _drop_counter32_overflows(PollTable.concat(tables), problems)
 
 
+def polls_of(snapshots: list[Snapshot]) -> ReadResult:
+    """Snapshot models (from a collector) as a poll table; ``line`` numbers count from 1."""
+    table = _table_of(snapshots, np.arange(1, len(snapshots) + 1, dtype=np.int64))
+    return _drop_counter32_overflows(table, [])
+
+
 def _floats(values: list[float | None]) -> np.ndarray:
     return np.array([np.nan if v is None else v for v in values], np.float64)
 

@@ -1,0 +1,194 @@
+"""The collector interface: how linktriage reads one device, whatever it speaks.
+
+A collector is built from one inventory entry (its address and its options, credentials
+only by reference) and answers two questions, asynchronously: which ports the device
+has, and what their counters read now, as snapshots of the format. A counter the device
+does not report is left out of the snapshot, never given as 0.
+
+Errors a collector raises (all :class:`CollectorError`, a :class:`PollError` naming the
+device): :class:`DeviceTimeoutError` when it does not answer in time, :class:`DeviceRefusedError`
+when it refuses the credentials, :class:`BadAnswerError` when what it says cannot be read.
+A port whose answer is malformed is reported in :attr:`Reading.problems` while the
+device's other ports still answer.
+
+Collectors are found by name through the ``linktriage.collectors`` entry-point group, so
+a third party ships one as a package of its own; the built-in ones register the same way.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import os
+import random
+from abc import ABC, abstractmethod
+from collections.abc import Awaitable, Callable, Sequence
+from dataclasses import dataclass, field
+from importlib.metadata import entry_points
+from pathlib import Path
+from typing import Any, ClassVar, TypeVar
+
+from pydantic import BaseModel, ConfigDict, ValidationError, model_validator
+
+from linktriage.errors import InputError, PollError
+from linktriage.snapshot import Snapshot
+
+ENTRY_POINTS = "linktriage.collectors"
+T = TypeVar("T")
+
+
+class CollectorError(PollError):
+    """A device could not be read."""
+
+
+class DeviceTimeoutError(CollectorError):
+    """The device did not answer within the timeout, after every retry."""
+
+
+class DeviceRefusedError(CollectorError):
+    """The device refused the request (credentials, permissions)."""
+
+
+class BadAnswerError(CollectorError):
+    """The device answered with something that cannot be read."""
+
+
+class UnknownCollectorError(InputError, LookupError):
+    """No collector is registered under that name; the hint lists the ones that are."""
+
+
+class SecretRef(BaseModel):
+    """A credential given by reference: an environment variable or a file, never inline."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    env: str | None = None
+    file: Path | None = None
+
+    @model_validator(mode="before")
+    @classmethod
+    def _reference_only(cls, value: Any) -> Any:
+        if isinstance(value, str):
+            raise ValueError(
+                'credentials are given by reference only: { env = "NAME" } or '
+                '{ file = "/path" }, never inline'
+            )
+        return value
+
+    @model_validator(mode="after")
+    def _exactly_one(self) -> SecretRef:
+        if (self.env is None) == (self.file is None):
+            raise ValueError("give exactly one of env or file")
+        return self
+
+    def reveal(self) -> str:
+        """The secret's value, read at the moment it is needed."""
+        if self.env is not None:
+            value = os.environ.get(self.env)
+            if value is None:
+                raise InputError(f"The environment variable {self.env} is not set.")
+            return value
+        assert self.file is not None
+        try:
+            return self.file.read_text(encoding="utf-8").strip()
+        except OSError as exc:
+            raise InputError(f"Cannot read the secret file {self.file}: {exc.strerror}") from exc
+
+    def describe(self) -> str:
+        return f"${self.env}" if self.env is not None else str(self.file)
+
+
+class Options(BaseModel):
+    """A collector's options from the inventory; each collector declares its own."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+@dataclass(frozen=True, slots=True)
+class Target:
+    """One device as the inventory describes it, as a collector receives it."""
+
+    name: str
+    address: str | None
+    options: dict[str, Any] = field(default_factory=dict)
+    timeout_s: float = 2.0
+    retries: int = 2
+
+
+@dataclass(frozen=True, slots=True)
+class Reading:
+    """What one read of a device gave: its ports' snapshots and per-port problems."""
+
+    snapshots: list[Snapshot]
+    problems: dict[str, str] = field(default_factory=dict)  # port -> what was wrong
+
+
+class Collector(ABC):
+    """Reads one device. Subclasses set :attr:`options_model` to validate their options."""
+
+    options_model: ClassVar[type[Options]] = Options
+    needs_address: ClassVar[bool] = True
+
+    def __init__(self, target: Target) -> None:
+        if self.needs_address and not target.address:
+            raise InputError(f"{target.name}: this collector needs an address.")
+        self.target = target
+        try:
+            self.options = self.options_model.model_validate(target.options)
+        except ValidationError as exc:
+            details = "; ".join(
+                f"{'.'.join(str(p) for p in e['loc'])}: {e['msg']}" for e in exc.errors()
+            )
+            raise InputError(f"{target.name}: bad collector options: {details}") from exc
+
+    @abstractmethod
+    async def ports(self) -> list[str]:
+        """The device's port names (ifName, or what the protocol calls it)."""
+
+    @abstractmethod
+    async def read(self, ports: Sequence[str] | None = None) -> Reading:
+        """The counters of some ports (default: all) read now."""
+
+    async def close(self) -> None:  # noqa: B027 (optional: most collectors hold nothing)
+        """Release connections; called once the collector is no longer needed."""
+
+    def error(self, kind: type[CollectorError], message: str) -> CollectorError:
+        return kind(self.target.name, message)
+
+    async def retrying(self, attempt: Callable[[], Awaitable[T]], what: str) -> T:
+        """Run ``attempt`` with the device's timeout, retrying timeouts with backoff.
+
+        Waits 0.1 s, 0.2 s, 0.4 s ... (with jitter) between tries; refusals and bad
+        answers are not retried: asking again would not change them.
+        """
+        tries = self.target.retries + 1
+        for n in range(tries):
+            try:
+                return await asyncio.wait_for(attempt(), timeout=self.target.timeout_s)
+            except (TimeoutError, DeviceTimeoutError):
+                if n == tries - 1:
+                    raise self.error(
+                        DeviceTimeoutError,
+                        f"no answer to {what} within {self.target.timeout_s:g} s ({tries} tries)",
+                    ) from None
+                await asyncio.sleep(0.1 * 2**n * (1 + random.random() / 2))
+        raise AssertionError("unreachable")
+
+
+def collector_class(name: str) -> type[Collector]:
+    """The collector registered under ``name`` (entry-point group ``linktriage.collectors``)."""
+    found = {ep.name: ep for ep in entry_points(group=ENTRY_POINTS)}
+    if name not in found:
+        known = ", ".join(sorted(found)) or "none"
+        raise UnknownCollectorError(
+            f"No collector named {name!r}.", hint=f"Known collectors: {known}."
+        )
+    cls = found[name].load()
+    if not (isinstance(cls, type) and issubclass(cls, Collector)):
+        raise UnknownCollectorError(
+            f"The entry point {name!r} is not a linktriage collector ({cls!r})."
+        )
+    return cls
+
+
+def collector_names() -> list[str]:
+    return sorted(ep.name for ep in entry_points(group=ENTRY_POINTS))

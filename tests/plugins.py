@@ -1,0 +1,98 @@
+"""A third party's collectors, installed for tests as a package of their own would be.
+
+``install(tmp_path, monkeypatch)`` writes a ``dist-info`` folder declaring these classes in
+the ``linktriage.collectors`` entry-point group and puts it on ``sys.path``: exactly how
+``importlib.metadata`` finds a package installed with pip.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+import pytest
+
+from linktriage.collectors.base import Collector, DeviceRefusedError, Options, Reading
+from linktriage.snapshot import Snapshot
+
+ENTRY_POINTS = """[linktriage.collectors]
+hang = plugins:HangingCollector
+refuse = plugins:RefusingCollector
+garbage = plugins:GarbageCollector
+notone = plugins:NotACollector
+"""
+
+
+class SlowOptions(Options):
+    seconds: float = 3600.0
+
+
+class HangingCollector(Collector):
+    """A device that never answers."""
+
+    options_model = SlowOptions
+    needs_address = False
+    calls: int = 0
+
+    async def ports(self) -> list[str]:
+        await asyncio.sleep(3600)
+        return []
+
+    async def read(self, ports: Sequence[str] | None = None) -> Reading:
+        async def attempt() -> Reading:
+            type(self).calls += 1
+            await asyncio.sleep(self.options.seconds)  # type: ignore[attr-defined]
+            return Reading([])
+
+        return await self.retrying(attempt, "a read")
+
+
+class RefusingCollector(Collector):
+    """A device that refuses the credentials."""
+
+    needs_address = False
+
+    async def ports(self) -> list[str]:
+        raise self.error(DeviceRefusedError, "refused the credentials (401)")
+
+    async def read(self, ports: Sequence[str] | None = None) -> Reading:
+        raise self.error(DeviceRefusedError, "refused the credentials (401)")
+
+
+class GarbageCollector(Collector):
+    """A device whose second port answers with an impossible Counter32."""
+
+    needs_address = False
+
+    async def ports(self) -> list[str]:
+        return ["p1", "p2"]
+
+    async def read(self, ports: Sequence[str] | None = None) -> Reading:
+        def snap(port: str, value: int) -> Snapshot:
+            return Snapshot(
+                device=self.target.name,
+                port=port,
+                time="2026-03-02T08:00:00Z",  # type: ignore[arg-type]
+                oper_status="up",
+                counters={"ifInErrors": value},
+            )
+
+        return Reading([snap("p1", 5), snap("p2", 2**40)], {"p3": "missing ifName"})
+
+
+class NotACollector:
+    pass
+
+
+def install(folder: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Install this module as the third-party package ``linktriage-test-plugins``."""
+    info = folder / "linktriage_test_plugins-1.0.dist-info"
+    info.mkdir(parents=True)
+    (info / "METADATA").write_text(
+        "Metadata-Version: 2.1\nName: linktriage-test-plugins\nVersion: 1.0\n"
+    )
+    (info / "entry_points.txt").write_text(ENTRY_POINTS)
+    monkeypatch.syspath_prepend(str(folder))
+    monkeypatch.setitem(sys.modules, "plugins", sys.modules[__name__])
