@@ -35,6 +35,7 @@ unit: $(STAMP)
 bench: $(STAMP)
 	$(BIN)/python bench/diagnose_throughput.py
 	$(BIN)/python bench/model_quality.py
+	$(BIN)/python bench/sweep_restconf.py
 
 ## model: rebuild the packaged model from the simulated prior
 model: $(STAMP)

@@ -21,15 +21,7 @@ from linktriage.errors import PollError
 from linktriage.inventory import DeviceEntry, Inventory
 from linktriage.network import Network, PortRef
 from linktriage.polls import PollTable
-from linktriage.simulate import (
-    DEFAULT_START,
-    Expect,
-    G,
-    M,
-    PortConstants,
-    sample_parameters,
-    window_counts,
-)
+from linktriage.simulate import DEFAULT_START, G, LiveCounters, M, sample_parameters
 from linktriage.verdicts import Verdict
 
 ORGANISATION = "Larkmoor Civic Library"
@@ -200,20 +192,22 @@ class DemoNetwork(Network):
 
     def __init__(self, *, seed: int = DEFAULT_SEED, clock: Callable[[], float] = time.time) -> None:
         self.clock = clock
-        self.seed = seed
         self._ports = demo_ports()
         self._refs = [PortRef(p.site, p.device, p.port, p.serves) for p in self._ports]
         rng = np.random.default_rng(seed)
-        self.params = _parameters(self._ports, rng)
-        self.epoch = DEFAULT_START - _RUNNING_S
-        self.constants = PortConstants.draw(self.params, rng, np.full(len(self._ports), self.epoch))
-        reference = 1e6  # rates from a long window, so that rounding down costs nothing
-        counts = window_counts(self.params, Expect(), np.full(len(self._ports), reference))
-        self.rates = {key: value / reference for key, value in counts.items()}
-        self.flaps_per_s = (
-            self.params["link_changes"].to_numpy() / self.params["window_s"].to_numpy()
+        self.counters = LiveCounters(
+            _parameters(self._ports, rng),
+            rng,
+            device=[p.device for p in self._ports],
+            port=[p.port for p in self._ports],
+            epoch=DEFAULT_START - _RUNNING_S,
+            seed=seed,
         )
         self._rows = {(p.device, p.port): i for i, p in enumerate(self._ports)}
+
+    @property
+    def rates(self) -> dict[str, np.ndarray]:
+        return self.counters.rates
 
     def ports(self) -> list[PortRef]:
         return list(self._refs)
@@ -227,33 +221,11 @@ class DemoNetwork(Network):
         if unknown:
             raise PollError(device, f"has no port {unknown[0]!r}")
         rows = np.array([self._rows[(device, name)] for name in names], np.intp)
-        return self.poll_rows(rows, self.clock())
+        return self.counters.at(rows, self.clock())
 
     def poll_all(self, at: float) -> PollTable:
         """Every port of the network, read at ``at``."""
-        return self.poll_rows(np.arange(len(self._ports)), at)
-
-    def poll_rows(self, rows: np.ndarray, at: float) -> PollTable:
-        p = self.params.iloc[rows].reset_index(drop=True)
-        elapsed = at - self.epoch
-        cleared = p["cleared"].to_numpy(np.bool_)
-        steps = {k: np.where(cleared, 0.0, v[rows] * elapsed) for k, v in self.rates.items()}
-        constants = PortConstants(
-            starts={k: v[rows] for k, v in self.constants.starts.items()},
-            link_changes=self.constants.link_changes[rows],
-            discontinuity=np.where(cleared, at, self.constants.discontinuity[rows]),
-            reported=self.constants.reported[rows],
-        )
-        return constants.table(
-            p,
-            np.random.default_rng(self.seed),  # the same transceiver readings at every poll
-            steps,
-            device=[self._ports[i].device for i in rows],
-            port=[self._ports[i].port for i in rows],
-            time=np.full(len(rows), at),
-            down=p["down"].to_numpy(np.bool_),
-            link_changes=self.flaps_per_s[rows] * elapsed,
-        )
+        return self.counters.at(np.arange(len(self._ports)), at)
 
 
 def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame:

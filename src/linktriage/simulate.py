@@ -417,6 +417,67 @@ def _reported_columns(hc: np.ndarray, dot3: np.ndarray, rmon: np.ndarray) -> np.
     return present
 
 
+class LiveCounters:
+    """Ports whose counters grow with time at the mean rates of their parameters.
+
+    Reading them at any instant gives what a switch would answer then; two readings any
+    time apart make a window. Parameters may carry ``cleared`` (counters cleared at every
+    read) and ``down`` (the link is down).
+    """
+
+    def __init__(
+        self,
+        params: pd.DataFrame,
+        rng: Rng,
+        *,
+        device: Sequence[str],
+        port: Sequence[str],
+        epoch: float,
+        seed: int,
+    ) -> None:
+        self.params = params.reset_index(drop=True)
+        if "cleared" not in self.params:
+            self.params["cleared"] = False
+        n = len(self.params)
+        self.device = np.asarray(device, dtype=object)
+        self.port = np.asarray(port, dtype=object)
+        self.epoch = epoch
+        self.seed = seed
+        self.constants = PortConstants.draw(self.params, rng, np.full(n, epoch))
+        reference = 1e6  # rates from a long window, so that rounding down costs nothing
+        counts = window_counts(self.params, Expect(), np.full(n, reference))
+        self.rates = {key: value / reference for key, value in counts.items()}
+        self.flaps_per_s = (
+            self.params["link_changes"].to_numpy() / self.params["window_s"].to_numpy()
+        )
+
+    def __len__(self) -> int:
+        return len(self.params)
+
+    def at(self, rows: np.ndarray, when: float) -> PollTable:
+        """The counters of ``rows`` read at ``when``."""
+        p = self.params.iloc[rows].reset_index(drop=True)
+        elapsed = when - self.epoch
+        cleared = p["cleared"].to_numpy(np.bool_)
+        steps = {k: np.where(cleared, 0.0, v[rows] * elapsed) for k, v in self.rates.items()}
+        constants = PortConstants(
+            starts={k: v[rows] for k, v in self.constants.starts.items()},
+            link_changes=self.constants.link_changes[rows],
+            discontinuity=np.where(cleared, when, self.constants.discontinuity[rows]),
+            reported=self.constants.reported[rows],
+        )
+        return constants.table(
+            p,
+            np.random.default_rng(self.seed),  # the same transceiver readings at every read
+            steps,
+            device=self.device[rows],
+            port=self.port[rows],
+            time=np.full(len(rows), when),
+            down=p["down"].to_numpy(np.bool_),
+            link_changes=self.flaps_per_s[rows] * elapsed,
+        )
+
+
 class Draw:
     """Counts drawn at random around their means, for the training prior."""
 

@@ -199,6 +199,7 @@ def build_app(
 
 class _Handler(BaseHTTPRequestHandler):
     app: App
+    disable_nagle_algorithm = True  # headers and body leave together, no delayed-ACK stall
 
     def do_POST(self) -> None:
         if self.path.split("?", 1)[0] != EVENTS_PATH:

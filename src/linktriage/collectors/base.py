@@ -52,6 +52,10 @@ class BadAnswerError(CollectorError):
     """The device answered with something that cannot be read."""
 
 
+class TransientError(Exception):
+    """Raised inside an attempt for a failure worth retrying (an agent busy or failing)."""
+
+
 class UnknownCollectorError(InputError, LookupError):
     """No collector is registered under that name; the hint lists the ones that are."""
 
@@ -155,7 +159,8 @@ class Collector(ABC):
         return kind(self.target.name, message)
 
     async def retrying(self, attempt: Callable[[], Awaitable[T]], what: str) -> T:
-        """Run ``attempt`` with the device's timeout, retrying timeouts with backoff.
+        """Run ``attempt`` with the device's timeout, retrying timeouts and transient
+        failures (:class:`TransientError`) with backoff.
 
         Waits 0.1 s, 0.2 s, 0.4 s ... (with jitter) between tries; refusals and bad
         answers are not retried: asking again would not change them.
@@ -164,13 +169,16 @@ class Collector(ABC):
         for n in range(tries):
             try:
                 return await asyncio.wait_for(attempt(), timeout=self.target.timeout_s)
-            except (TimeoutError, DeviceTimeoutError):
-                if n == tries - 1:
-                    raise self.error(
-                        DeviceTimeoutError,
-                        f"no answer to {what} within {self.target.timeout_s:g} s ({tries} tries)",
-                    ) from None
-                await asyncio.sleep(0.1 * 2**n * (1 + random.random() / 2))
+            except (TimeoutError, DeviceTimeoutError, TransientError) as exc:
+                if n < tries - 1:
+                    await asyncio.sleep(0.1 * 2**n * (1 + random.random() / 2))
+                    continue
+                if isinstance(exc, TransientError):
+                    raise self.error(CollectorError, f"{exc} ({tries} tries)") from None
+                raise self.error(
+                    DeviceTimeoutError,
+                    f"no answer to {what} within {self.target.timeout_s:g} s ({tries} tries)",
+                ) from None
         raise AssertionError("unreachable")
 
 

@@ -1,0 +1,178 @@
+"""The RESTCONF collector against a real HTTP(S) server on loopback serving RFC 8343 JSON."""
+
+from __future__ import annotations
+
+import asyncio
+import ssl
+import subprocess
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+
+from linktriage.collectors.base import (
+    BadAnswerError,
+    CollectorError,
+    DeviceRefusedError,
+    DeviceTimeoutError,
+    Target,
+)
+from linktriage.collectors.restconf import RestconfCollector, interfaces_to_snapshots
+from linktriage.counters import COLUMN_INDEX
+from linktriage.inventory import DeviceEntry, Inventory, problems
+
+from agents.fleet import Fleet
+from agents.restconf import RestconfAgent
+
+
+@pytest.fixture(scope="module")
+def agent() -> Iterator[RestconfAgent]:
+    running = RestconfAgent(Fleet(devices=3, ports=8), slow_s=3.0).start()
+    yield running
+    running.stop()
+
+
+def collector(agent: RestconfAgent, device: str, **options: object) -> RestconfCollector:
+    settings = {"scheme": "http", "port": agent.port, "root": f"/{device}/restconf", **options}
+    return RestconfCollector(Target(device, "127.0.0.1", settings, timeout_s=1.0, retries=1))
+
+
+def read(c: RestconfCollector, ports: list[str] | None = None):  # type: ignore[no-untyped-def]
+    async def once():  # type: ignore[no-untyped-def]
+        try:
+            return await c.read(ports)
+        finally:
+            await c.close()
+
+    return asyncio.run(once())
+
+
+def test_a_read_gives_every_interface_with_its_counters(agent: RestconfAgent) -> None:
+    before = agent.fleet.read("sw0001")
+    reading = read(collector(agent, "sw0001"))
+    after = agent.fleet.read("sw0001")
+    assert [s.port for s in reading.snapshots] == agent.fleet.ports
+    assert reading.problems == {}
+    column = COLUMN_INDEX["ifHCInOctets"]
+    for i, snap in enumerate(reading.snapshots):
+        # The counters were read between the two direct reads of the same switch.
+        assert (
+            int(before.counters[i, column])
+            <= snap.counters["ifHCInOctets"]
+            <= int(after.counters[i, column])
+        )
+        assert snap.speed_bps == int(before.state["speed_bps"][i])
+        assert "dot3StatsFCSErrors" not in snap.counters  # ietf-interfaces has no FCS count
+    assert (
+        agent.requests[-1] == "/sw0001/restconf/data/ietf-interfaces:interfaces?content=nonconfig"
+    )
+
+
+def test_64_bit_counters_arrive_as_strings_and_keep_every_bit() -> None:
+    # RFC 7951 section 6.1: uint64 is a JSON string; uint32 a number. Member names may be
+    # namespace-qualified (section 4).
+    document = {
+        "ietf-interfaces:interfaces": {
+            "ietf-interfaces:interface": [
+                {
+                    "name": "eth1/1",
+                    "oper-status": "lower-layer-down",
+                    "speed": "10000000000",
+                    "statistics": {
+                        "discontinuity-time": "2026-03-01T06:00:00+01:00",
+                        "in-octets": "18446744073709551615",
+                        "in-errors": 4294967295,
+                    },
+                }
+            ]
+        }
+    }
+    from datetime import UTC, datetime
+
+    (snap,), problems_found = interfaces_to_snapshots(document, "sw", datetime.now(UTC))
+    assert problems_found == {}
+    assert snap.counters == {"ifHCInOctets": 2**64 - 1, "ifInErrors": 2**32 - 1}
+    assert snap.oper_status == "lowerLayerDown" and snap.speed_bps == 10**10
+    assert snap.discontinuity_time is not None and snap.discontinuity_time.hour == 6
+
+
+def test_credentials_come_by_reference_and_a_refusal_is_named(
+    agent: RestconfAgent, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    agent.behaviour["sw0002"] = "auth"
+    with pytest.raises(DeviceRefusedError, match="sw0002: refused the credentials \\(401\\)"):
+        read(collector(agent, "sw0002"))
+    monkeypatch.setenv("LARK_RESTCONF_PASSWORD", "s3cret")
+    reading = read(
+        collector(agent, "sw0002", username="netops", password={"env": "LARK_RESTCONF_PASSWORD"})
+    )
+    assert len(reading.snapshots) == 8
+    inline = DeviceEntry(
+        name="sw0002", site="s", collector="restconf", address="x", options={"password": "s3cret"}
+    )
+    inventory = Inventory(devices=[inline])
+    assert "by reference only" in problems(inventory)["sw0002"]
+
+
+def test_a_server_error_is_retried_then_named(agent: RestconfAgent) -> None:
+    agent.behaviour["sw0003"] = "error"
+    count = len(agent.requests)
+    with pytest.raises(CollectorError, match=r"answered 500 for .*\(2 tries\)"):
+        read(collector(agent, "sw0003"))
+    assert len(agent.requests) - count == 2
+
+
+def test_an_answer_slower_than_the_timeout_is_a_timeout(agent: RestconfAgent) -> None:
+    agent.behaviour["sw0003"] = "slow"
+    with pytest.raises(DeviceTimeoutError, match=r"no answer to GET .* within 1 s \(2 tries\)"):
+        read(collector(agent, "sw0003"))
+
+
+def test_garbage_is_a_bad_answer(agent: RestconfAgent) -> None:
+    agent.behaviour["sw0003"] = "garbage"
+    with pytest.raises(BadAnswerError, match="not JSON"):
+        read(collector(agent, "sw0003"))
+
+
+def test_a_malformed_counter_costs_only_its_port(agent: RestconfAgent) -> None:
+    agent.behaviour["sw0003"] = "bad-types"
+    reading = read(collector(agent, "sw0003"))
+    assert "port2" not in [s.port for s in reading.snapshots]
+    assert "'lots' is not a counter" in reading.problems["port2"]
+    assert len(reading.snapshots) == 7
+    agent.behaviour.pop("sw0003")
+
+
+def test_an_unknown_resource_is_a_bad_answer(agent: RestconfAgent) -> None:
+    with pytest.raises(BadAnswerError, match="answered 404"):
+        read(collector(agent, "sw9999"))
+
+
+@pytest.fixture(scope="module")
+def tls_agent(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[RestconfAgent, Path]]:
+    folder = tmp_path_factory.mktemp("tls")
+    cert, key = folder / "cert.pem", folder / "key.pem"
+    subprocess.run(
+        ["openssl", "req", "-x509", "-newkey", "rsa:2048", "-nodes", "-days", "1",
+         "-subj", "/CN=127.0.0.1", "-addext", "subjectAltName=IP:127.0.0.1",
+         "-keyout", str(key), "-out", str(cert)],
+        check=True, capture_output=True,
+    )  # fmt: skip
+    running = RestconfAgent(Fleet(devices=1, ports=2)).start()
+    assert running._server is not None
+    context = ssl.SSLContext(ssl.PROTOCOL_TLS_SERVER)
+    context.load_cert_chain(cert, key)
+    running._server.socket = context.wrap_socket(running._server.socket, server_side=True)
+    yield running, cert
+    running.stop()
+
+
+def test_tls_certificates_are_verified_unless_told_otherwise(
+    tls_agent: tuple[RestconfAgent, Path],
+) -> None:
+    agent, cert = tls_agent
+    https = {"scheme": "https"}
+    with pytest.raises(CollectorError, match=r"certificate verify failed"):
+        read(collector(agent, "sw0001", **https))
+    assert len(read(collector(agent, "sw0001", **https, ca_file=str(cert))).snapshots) == 2
+    assert len(read(collector(agent, "sw0001", **https, verify_tls=False)).snapshots) == 2
