@@ -1,0 +1,169 @@
+"""SNMP agents on loopback: net-snmp's snmpd (the machine's own interfaces) and snmpsim
+serving a recorded walk of a 48-port switch with EtherLike counters."""
+
+from __future__ import annotations
+
+import os
+import shutil
+import socket
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from linktriage.collectors.snmp import COUNTER_COLUMNS, DOT3_ENTRY, IF_ENTRY, IFX_ENTRY, SYS_UPTIME
+from linktriage.counters import COLUMN_INDEX
+
+from agents.fleet import Fleet
+
+COMMUNITY = "lark-test"
+V3_USER, V3_AUTH, V3_PRIV = "larkops", "authpass123", "privpass123"
+
+
+def require(binary: str) -> str:
+    """The path of a binary the test needs; CI installs it, so there it must be found."""
+    found = shutil.which(binary) or shutil.which(binary, path="/usr/sbin:/usr/bin")
+    if found is None:
+        if os.environ.get("LINKTRIAGE_REQUIRE_AGENTS"):
+            pytest.fail(f"{binary} is not installed (.ci/run installs it)")
+        pytest.skip(f"{binary} is not installed")
+    return found
+
+
+def free_udp_port() -> int:
+    with socket.socket(socket.AF_INET, socket.SOCK_DGRAM) as probe:
+        probe.bind(("127.0.0.1", 0))
+        return int(probe.getsockname()[1])
+
+
+def wait_for_agent(port: int, community: str, process: subprocess.Popen[bytes], log: Path) -> None:
+    snmpget = require("snmpget")
+    deadline = time.monotonic() + 30
+    while time.monotonic() < deadline:
+        if process.poll() is not None:
+            raise RuntimeError(f"the agent exited: {log.read_text(errors='replace')}")
+        done = subprocess.run(
+            [snmpget, "-v2c", "-c", community, "-On", "-t", "0.5", "-r", "0",
+             f"127.0.0.1:{port}", SYS_UPTIME],
+            capture_output=True, text=True, check=False,
+        )  # fmt: skip
+        if done.returncode == 0:
+            return
+        time.sleep(0.2)
+    raise RuntimeError("the SNMP agent did not answer within 30 s")
+
+
+def stop(process: subprocess.Popen[bytes]) -> None:
+    """Stop an agent politely, then firmly."""
+    process.terminate()
+    try:
+        process.wait(timeout=10)
+    except subprocess.TimeoutExpired:
+        process.kill()
+        process.wait()
+
+
+class Snmpd:
+    """net-snmp's snmpd in the foreground, our own config, v2c and a v3 user."""
+
+    def __init__(self, folder: Path) -> None:
+        binary = require("snmpd")
+        self.port = free_udp_port()
+        config = folder / "snmpd.conf"
+        config.write_text(
+            f"rocommunity {COMMUNITY} 127.0.0.1\n"
+            f'createUser {V3_USER} SHA "{V3_AUTH}" AES "{V3_PRIV}"\n'
+            f"rouser {V3_USER} priv\n"
+        )
+        (folder / "persist").mkdir(exist_ok=True)
+        env = {**os.environ, "SNMP_PERSISTENT_DIR": str(folder / "persist")}
+        # The agent logs to a file: a pipe nobody reads fills up and stops the agent.
+        self.log = folder / "snmpd.log"
+        with open(self.log, "wb") as log:
+            self.process = subprocess.Popen(
+                [binary, "-f", "-Lo", "-C", "-c", str(config), "-p", str(folder / "snmpd.pid"),
+                 "-m", "", f"udp:127.0.0.1:{self.port}"],
+                env=env, stdout=log, stderr=subprocess.STDOUT,
+            )  # fmt: skip
+        try:
+            wait_for_agent(self.port, COMMUNITY, self.process, self.log)
+        except RuntimeError:
+            self.stop()
+            raise
+
+    def walk(self, oid: str) -> dict[int, str]:
+        """snmpbulkwalk's answer for one column: ifIndex -> value as text."""
+        numbered = subprocess.run(
+            [require("snmpbulkwalk"), "-v2c", "-c", COMMUNITY, "-On", "-Oq", "-Oe",
+             f"127.0.0.1:{self.port}", oid],
+            capture_output=True, text=True, check=True,
+        ).stdout  # fmt: skip
+        rows = {}
+        for line in numbered.splitlines():
+            name, _, value = line.partition(" ")
+            rows[int(name.rsplit(".", 1)[1])] = value.strip().strip('"')
+        return rows
+
+    def stop(self) -> None:
+        stop(self.process)
+
+
+#: snmprec tags (snmpsim): 2 Integer, 4 OCTET STRING, 65 Counter32, 66 Gauge32,
+#: 67 TimeTicks, 70 Counter64.
+def recorded_walk(
+    fleet: Fleet, device: str, when: float, uptime_ticks: int = 8_640_000
+) -> list[str]:
+    """A 48-port switch's walk as snmprec lines, from the simulated fleet at ``when``."""
+    table = fleet.read(device, when)
+    lines = [f"{SYS_UPTIME}|67|{uptime_ticks}"]
+    for row in range(len(table)):
+        index = row + 1
+        name = str(table.port[row])
+        lines += [
+            f"{IF_ENTRY}.2.{index}|4|{name}",
+            f"{IF_ENTRY}.4.{index}|2|1500",
+            f"{IF_ENTRY}.5.{index}|66|{min(int(table.state['speed_bps'][row]), 4294967295)}",
+            f"{IF_ENTRY}.8.{index}|2|1",
+            f"{IFX_ENTRY}.1.{index}|4|{name}",
+            f"{IFX_ENTRY}.15.{index}|66|{int(table.state['speed_bps'][row]) // 1_000_000}",
+            f"{IFX_ENTRY}.19.{index}|67|0",
+            f"{DOT3_ENTRY}.19.{index}|2|3",
+        ]
+        for oid, counter in COUNTER_COLUMNS.items():
+            value = int(table.counters[row, COLUMN_INDEX[counter]])
+            wide = counter.startswith("ifHC")
+            tag = 70 if wide else 65
+            lines.append(f"{oid}.{index}|{tag}|{value if wide else value % 2**32}")
+    # snmprec files are sorted by OID, compared component by component.
+    return sorted(lines, key=lambda line: [int(p) for p in line.split("|")[0].split(".")])
+
+
+class Snmpsim:
+    """snmpsim serving one recorded switch under community ``community``."""
+
+    def __init__(self, folder: Path, lines: list[str], community: str = "lark48") -> None:
+        # snmpsim comes with the test extra, beside this interpreter.
+        responder = str(Path(sys.executable).parent / "snmpsim-command-responder")
+        data = folder / "data"
+        data.mkdir(exist_ok=True)
+        (data / f"{community}.snmprec").write_text("\n".join(lines) + "\n")
+        self.port = free_udp_port()
+        self.community = community
+        env = {**os.environ, "SNMPSIM_ALLOW_ROOT": "true"}
+        self.log = folder / "snmpsim.log"
+        with open(self.log, "wb") as log:
+            self.process = subprocess.Popen(
+                [responder, f"--data-dir={data}", f"--agent-udpv4-endpoint=127.0.0.1:{self.port}",
+                 f"--cache-dir={folder / 'cache'}"],
+                env=env, stdout=log, stderr=subprocess.STDOUT,
+            )  # fmt: skip
+        try:
+            wait_for_agent(self.port, community, self.process, self.log)
+        except RuntimeError:
+            self.stop()
+            raise
+
+    def stop(self) -> None:
+        stop(self.process)

@@ -1,0 +1,178 @@
+"""The SNMP collector against real agents on loopback: net-snmp's snmpd (v2c and v3) for
+the machine's own interfaces, and snmpsim serving a recorded 48-port switch."""
+
+from __future__ import annotations
+
+import asyncio
+import json
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from linktriage.cli import main
+from linktriage.collectors.base import CollectorError, DeviceTimeoutError, Target
+from linktriage.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector
+from linktriage.counters import COLUMN_INDEX
+from linktriage.verdicts import Verdict
+
+from agents.fleet import Fleet
+from agents.snmp import COMMUNITY, V3_AUTH, V3_PRIV, V3_USER, Snmpd, Snmpsim, recorded_walk
+
+
+@pytest.fixture(scope="module")
+def snmpd(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Snmpd]:
+    agent = Snmpd(tmp_path_factory.mktemp("snmpd"))
+    yield agent
+    agent.stop()
+
+
+@pytest.fixture
+def community(monkeypatch: pytest.MonkeyPatch) -> dict[str, object]:
+    monkeypatch.setenv("LARK_SNMP_COMMUNITY", COMMUNITY)
+    return {"community": {"env": "LARK_SNMP_COMMUNITY"}}
+
+
+def read(collector: SnmpCollector, ports: list[str] | None = None):  # type: ignore[no-untyped-def]
+    async def once():  # type: ignore[no-untyped-def]
+        try:
+            return await collector.read(ports)
+        finally:
+            await collector.close()
+
+    return asyncio.run(once())
+
+
+def collector(port: int, options: dict[str, object], **target: object) -> SnmpCollector:
+    settings = {"port": port, **options}
+    return SnmpCollector(Target("localhost-agent", "127.0.0.1", settings, **target))  # type: ignore[arg-type]
+
+
+def test_the_collector_reads_what_snmpbulkwalk_reads(
+    snmpd: Snmpd, community: dict[str, object]
+) -> None:
+    names = snmpd.walk(f"{IFX_ENTRY}.1")
+    before = snmpd.walk(f"{IFX_ENTRY}.6")  # ifHCInOctets
+    reading = read(collector(snmpd.port, community))
+    after = snmpd.walk(f"{IFX_ENTRY}.6")
+    assert sorted(s.port for s in reading.snapshots) == sorted(names.values())
+    mtu = snmpd.walk(f"{IF_ENTRY}.4")
+    status = snmpd.walk(f"{IF_ENTRY}.8")
+    speed = snmpd.walk(f"{IFX_ENTRY}.15")
+    by_name = {name: index for index, name in names.items()}
+    for snap in reading.snapshots:
+        index = by_name[snap.port]
+        assert snap.mtu == int(mtu[index])
+        assert snap.oper_status == {"1": "up", "2": "down"}.get(status[index], snap.oper_status)
+        if int(speed[index]):
+            assert snap.speed_bps == int(speed[index]) * 1_000_000
+        # Read between two walks of the same object: counters only grow.
+        assert int(before[index]) <= snap.counters["ifHCInOctets"] <= int(after[index])
+        assert "ifInErrors" in snap.counters
+
+
+def test_snmp_v3_with_authentication_and_privacy(
+    snmpd: Snmpd, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv("LARK_SNMP_AUTH", V3_AUTH)
+    monkeypatch.setenv("LARK_SNMP_PRIV", V3_PRIV)
+    v3 = {"version": "3", "user": V3_USER, "auth_protocol": "SHA", "priv_protocol": "AES",
+          "auth_key": {"env": "LARK_SNMP_AUTH"}, "priv_key": {"env": "LARK_SNMP_PRIV"}}  # fmt: skip
+    reading = read(collector(snmpd.port, v3))
+    assert "lo" in {s.port for s in reading.snapshots}
+    monkeypatch.setenv("LARK_SNMP_AUTH", "wrong-pass")
+    with pytest.raises(CollectorError):
+        read(collector(snmpd.port, v3, timeout_s=0.5, retries=0))
+
+
+def test_a_wrong_community_gets_no_answer_and_is_named(
+    snmpd: Snmpd, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv("LARK_SNMP_COMMUNITY", "guessed")
+    with pytest.raises(
+        DeviceTimeoutError, match=r"localhost-agent: no answer to SNMP within 0\.3 s"
+    ):
+        read(
+            collector(
+                snmpd.port, {"community": {"env": "LARK_SNMP_COMMUNITY"}}, timeout_s=0.3, retries=0
+            )
+        )
+
+
+RECORDED_AT = 1_772_438_400.0
+
+
+@pytest.fixture(scope="module")
+def fleet() -> Fleet:
+    return Fleet(devices=1, ports=48, seed=21)
+
+
+@pytest.fixture(scope="module")
+def switch48(tmp_path_factory: pytest.TempPathFactory, fleet: Fleet) -> Iterator[Snmpsim]:
+    agent = Snmpsim(tmp_path_factory.mktemp("snmpsim"), recorded_walk(fleet, "sw0001", RECORDED_AT))
+    yield agent
+    agent.stop()
+
+
+def test_a_recorded_48_port_switch_reads_back_exactly(
+    switch48: Snmpsim, fleet: Fleet, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv("LARK48_COMMUNITY", switch48.community)
+    reading = read(collector(switch48.port, {"community": {"env": "LARK48_COMMUNITY"}}))
+    assert reading.problems == {}
+    assert [s.port for s in reading.snapshots] == fleet.ports
+    recorded = fleet.read("sw0001", RECORDED_AT)  # the walk was recorded from this switch
+    for row, snap in enumerate(reading.snapshots):
+        for name in ("ifHCInOctets", "dot3StatsFCSErrors", "dot3StatsLateCollisions", "ifInErrors"):
+            expected = int(recorded.counters[row, COLUMN_INDEX[name]])
+            assert snap.counters[name] == (
+                expected if name.startswith("ifHC") else expected % 2**32
+            )
+        assert snap.duplex == "full" and snap.mtu == 1500
+
+
+def test_only_the_ports_asked_for(switch48: Snmpsim, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setenv("LARK48_COMMUNITY", switch48.community)
+    reading = read(
+        collector(switch48.port, {"community": {"env": "LARK48_COMMUNITY"}}), ["port3", "port40"]
+    )
+    assert [s.port for s in reading.snapshots] == ["port3", "port40"]
+
+
+def test_v2c_without_a_community_reference_is_refused_offline() -> None:
+    with pytest.raises(CollectorError, match="needs community"):
+        SnmpCollector(Target("x", "127.0.0.1", {}))
+
+
+def test_collect_records_the_local_agent_and_diagnose_reads_the_recording(
+    snmpd: Snmpd, community: dict[str, object], tmp_path: Path
+) -> None:
+    """The recorder path end to end: SNMP answers become snapshot lines the engine reads."""
+    inventory = tmp_path / "inventory.toml"
+    inventory.write_text(
+        "[[devices]]\n"
+        'name = "lark-lab-host"\nsite = "lab"\ncollector = "snmp"\naddress = "127.0.0.1"\n'
+        "[devices.options]\n"
+        f'port = {snmpd.port}\ncommunity = {{ env = "LARK_SNMP_COMMUNITY" }}\n'
+    )
+    out = tmp_path / "recorded.jsonl"
+    runner = CliRunner()
+    recorded = runner.invoke(
+        main,
+        ["collect", "--inventory", str(inventory), "--device", "lab-host",
+         "--polls", "2", "--every", "1", "--out", str(out)],
+    )  # fmt: skip
+    assert recorded.exit_code == 0, recorded.stderr
+    lines = out.read_text().splitlines()
+    ports = sorted(snmpd.walk(f"{IFX_ENTRY}.1").values())
+    assert len(lines) == 2 * len(ports)
+    assert f"wrote {len(lines)} snapshots of lark-lab-host in 2 polls" in recorded.stderr
+
+    diagnosed = runner.invoke(main, ["diagnose", "--snapshots", str(out), "--json"])
+    assert diagnosed.exit_code == 0, diagnosed.stderr
+    records = [json.loads(line) for line in diagnosed.stdout.splitlines()]
+    assert sorted(r["port"] for r in records) == ports
+    assert {r["device"] for r in records} == {"lark-lab-host"}
+    assert all(r["verdict"] in set(Verdict) for r in records)
+    assert "0 lines skipped" in diagnosed.stderr
