@@ -13,10 +13,10 @@ from __future__ import annotations
 import asyncio
 import threading
 import time
-from collections.abc import Callable, Coroutine, Sequence
+from collections.abc import Awaitable, Callable, Coroutine, Sequence
 from typing import Any, TypeVar
 
-from linktriage.collectors.base import Collector, CollectorError
+from linktriage.collectors.base import Collector, CollectorError, HistoryCollector, Reading
 from linktriage.errors import LinktriageError, PollError, UnknownPortError
 from linktriage.inventory import DeviceEntry, Inventory
 from linktriage.network import Gathered, Network, PortRef
@@ -150,6 +150,31 @@ class InventoryNetwork(Network):
         return gathered.tables[device]
 
     def poll_many(self, wanted: dict[str, list[str] | None]) -> Gathered:
+        def read(collector: Collector, ports: list[str] | None) -> Awaitable[Reading]:
+            return collector.read(ports)
+
+        return self._gather(wanted, read)
+
+    def history(self, wanted: dict[str, list[str]], since: float) -> Gathered:
+        keeping = {
+            name: ports
+            for name, ports in wanted.items()
+            if isinstance(self._collector(self._entry(name)), HistoryCollector)
+        }
+        now = self.clock()
+
+        def recall(collector: Collector, ports: list[str] | None) -> Awaitable[Reading]:
+            assert isinstance(collector, HistoryCollector)
+            return collector.history(ports, since, now)
+
+        return self._gather(dict(keeping), recall)
+
+    def _gather(
+        self,
+        wanted: dict[str, list[str] | None],
+        read: Callable[[Collector, list[str] | None], Awaitable[Reading]],
+    ) -> Gathered:
+        """Read several devices at once, each within its deadline, into poll tables."""
         entries = {name: self._entry(name) for name in wanted}
 
         gathered = Gathered({}, {}, {})
@@ -160,7 +185,7 @@ class InventoryNetwork(Network):
             ports = wanted[name] if wanted[name] is not None else entry.ports
             limit = deadline_s(collector.target.timeout_s, collector.target.retries)
             try:
-                reading = await asyncio.wait_for(collector.read(ports), limit)
+                reading = await asyncio.wait_for(read(collector, ports), limit)
             except TimeoutError:
                 gathered.failed[name] = f"no answer within {limit:.3g} s"
                 return

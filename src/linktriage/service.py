@@ -258,7 +258,9 @@ class Triage:
 
     def _gather(self, refs: list[PortRef]) -> tuple[PollTable, dict[str, str]]:
         """Polls for these ports: stored recent ones plus one fresh poll each, or two
-        fresh polls ``quick_window_s`` apart where nothing recent is stored."""
+        fresh polls ``quick_window_s`` apart where nothing recent is stored. A device
+        whose source keeps history (Prometheus) is asked for its recent window instead,
+        which answers at once."""
         wanted: dict[str, list[str]] = {}
         for ref in refs:
             wanted.setdefault(ref.device, []).append(ref.port)
@@ -273,8 +275,12 @@ class Triage:
             lacking = [p for p in ports if p not in have]
             if lacking:
                 missing[device] = lacking
-        failed = self._poll_into(tables, dict(wanted))
-        retry = {d: ps for d, ps in missing.items() if d not in failed}
+        recalled = self.network.history(wanted, since)
+        tables += recalled.tables.values()
+        failed = dict(recalled.failed)
+        fresh = {d: ps for d, ps in wanted.items() if d not in recalled.tables and d not in failed}
+        failed.update(self._poll_into(tables, dict(fresh)))
+        retry = {d: ps for d, ps in missing.items() if d in fresh and d not in failed}
         if retry:
             self.sleep(self.settings.chat.quick_window_s)
             failed.update(self._poll_into(tables, retry))

@@ -3,7 +3,8 @@
 A collector is built from one inventory entry (its address and its options, credentials
 only by reference) and answers two questions, asynchronously: which ports the device
 has, and what their counters read now, as snapshots of the format. A counter the device
-does not report is left out of the snapshot, never given as 0.
+does not report is left out of the snapshot, never given as 0. A :class:`HistoryCollector`
+also answers for a past window, from a source that keeps history.
 
 Errors a collector raises (all :class:`CollectorError`, a :class:`PollError` naming the
 device): :class:`DeviceTimeoutError` when it does not answer in time, :class:`DeviceRefusedError`
@@ -180,6 +181,15 @@ class Collector(ABC):
                     f"no answer to {what} within {self.target.timeout_s:g} s ({tries} tries)",
                 ) from None
         raise AssertionError("unreachable")
+
+
+class HistoryCollector(Collector):
+    """A collector whose source keeps history (a time-series database): asked about a
+    past window it answers at once, where other collectors must be polled twice."""
+
+    @abstractmethod
+    async def history(self, ports: Sequence[str] | None, start: float, end: float) -> Reading:
+        """Every snapshot the source holds from ``start`` to ``end`` (Unix seconds)."""
 
 
 def collector_class(name: str) -> type[Collector]:

@@ -15,26 +15,14 @@ unless the inventory says otherwise; credentials (basic or a bearer token) are r
 
 from __future__ import annotations
 
-import functools
-import json
-import ssl
 from collections.abc import Sequence
 from datetime import UTC, datetime
-from pathlib import Path
 from typing import Any, Literal
 
 from pydantic import ValidationError
 
-from linktriage.collectors.base import (
-    BadAnswerError,
-    Collector,
-    DeviceRefusedError,
-    Options,
-    Reading,
-    SecretRef,
-    Target,
-    TransientError,
-)
+from linktriage.collectors.base import BadAnswerError, Collector, Reading, Target
+from linktriage.collectors.http import HttpOptions, get_json, http_client
 from linktriage.snapshot import Snapshot
 
 #: RFC 8343 statistics leaves and the IF-MIB counters they are (RFC 8343 section 4).
@@ -65,16 +53,11 @@ OPER_STATUS = {
 MEDIA_TYPE = "application/yang-data+json"
 
 
-class RestconfOptions(Options):
+class RestconfOptions(HttpOptions):
     scheme: Literal["https", "http"] = "https"
     port: int | None = None
     root: str = "/restconf"
     datastore: Literal["data", "operational"] = "data"
-    username: str | None = None
-    password: SecretRef | None = None
-    token: SecretRef | None = None
-    verify_tls: bool = True
-    ca_file: Path | None = None
 
 
 def _local(name: str) -> str:
@@ -140,15 +123,6 @@ def interfaces_to_snapshots(
     return snapshots, problems
 
 
-@functools.cache
-def _tls(ca_file: str | None) -> ssl.SSLContext:
-    """A verifying TLS context, built once per CA bundle: loading one takes tens of
-    milliseconds, too long to repeat for each of hundreds of devices in a sweep."""
-    import certifi
-
-    return ssl.create_default_context(cafile=ca_file or certifi.where())
-
-
 class RestconfCollector(Collector):
     """Reads a device's interfaces over RESTCONF."""
 
@@ -169,57 +143,16 @@ class RestconfCollector(Collector):
         self.params = {"content": "nonconfig"} if o.datastore == "data" else {}
         self._client: Any = None
 
-    def _http(self) -> Any:
-        import httpx
-
-        if self._client is None:
-            o = self.options
-            assert isinstance(o, RestconfOptions)
-            headers = {"Accept": MEDIA_TYPE}
-            auth = None
-            if o.token is not None:
-                headers["Authorization"] = f"Bearer {o.token.reveal()}"
-            elif o.username is not None:
-                auth = httpx.BasicAuth(o.username, o.password.reveal() if o.password else "")
-            verify = _tls(str(o.ca_file) if o.ca_file else None) if o.verify_tls else False
-            self._client = httpx.AsyncClient(
-                headers=headers, auth=auth, verify=verify, timeout=self.target.timeout_s
-            )
-        return self._client
-
     async def close(self) -> None:
         if self._client is not None:
             await self._client.aclose()
             self._client = None
 
     async def _get(self) -> Any:
-        import httpx
-
-        client = self._http()
-
-        async def attempt() -> Any:
-            try:
-                response = await client.get(self.url, params=self.params)
-            except httpx.TimeoutException as exc:
-                raise TimeoutError from exc
-            except httpx.TransportError as exc:
-                raise TransientError(f"cannot connect to {self.url}: {exc}") from exc
-            if response.status_code in (401, 403):
-                raise self.error(
-                    DeviceRefusedError, f"refused the credentials ({response.status_code})"
-                )
-            if response.status_code >= 500:  # a busy or failing agent: worth another try
-                raise TransientError(f"answered {response.status_code} for {self.url}")
-            if response.status_code != 200:
-                raise self.error(BadAnswerError, f"answered {response.status_code} for {self.url}")
-            try:
-                return json.loads(response.content)
-            except ValueError as exc:
-                raise self.error(
-                    BadAnswerError, f"answered with something not JSON: {exc}"
-                ) from exc
-
-        return await self.retrying(attempt, f"GET {self.url}")
+        if self._client is None:
+            assert isinstance(self.options, RestconfOptions)
+            self._client = http_client(self.options, self.target.timeout_s, MEDIA_TYPE)
+        return await get_json(self, self._client, self.url, self.params)
 
     async def ports(self) -> list[str]:
         return [s.port for s in (await self.read()).snapshots]

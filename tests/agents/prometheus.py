@@ -1,0 +1,250 @@
+"""A Prometheus server on loopback scraping an exporter of the simulated fleet.
+
+The exporter answers ``/snmp?target=DEVICE`` the way an SNMP exporter with the IF-MIB and
+EtherLike-MIB modules does: one metric per MIB object, named as the object, with ifIndex,
+ifName and ifDescr labels, and sysUpTime. It keeps what it served, so a test can compare
+what the collector reads back through Prometheus with what was scraped. A device can be
+told to fail (its scrape answers 500, as the exporter does when the device is silent).
+
+:class:`Prometheus` runs Debian's ``prometheus`` binary with a configuration of our own:
+the exporter's targets relabelled into ``instance`` as SNMP exporter setups do.
+"""
+
+from __future__ import annotations
+
+import json
+import socket
+import subprocess
+import threading
+import time
+import urllib.parse
+import urllib.request
+from dataclasses import dataclass, field
+from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
+from pathlib import Path
+from typing import Any
+from urllib.parse import parse_qs, urlparse
+
+import numpy as np
+
+from linktriage.counters import COLUMNS
+from linktriage.polls import PollTable
+
+from agents.fleet import Fleet
+from agents.snmp import require, stop
+
+UPTIME_TICKS_AT_START = 8_640_000  # the agent has been up one day when the exporter starts
+
+
+@dataclass
+class Served:
+    """One scrape as the exporter answered it."""
+
+    at: float
+    table: PollTable
+    uptime_ticks: int
+
+
+def exposition(table: PollTable, uptime_ticks: int) -> str:
+    """Prometheus text exposition of one device, in the SNMP exporter's naming."""
+    lines = ["# TYPE sysUpTime gauge", f"sysUpTime {uptime_ticks}"]
+
+    def labels(row: int) -> str:
+        name = str(table.port[row])
+        return f'{{ifDescr="{name}",ifIndex="{row + 1}",ifName="{name}"}}'
+
+    for column_index, column in enumerate(COLUMNS):
+        rows = np.flatnonzero(table.present[:, column_index])
+        if not len(rows):
+            continue
+        lines.append(f"# TYPE {column.name} counter")
+        for row in rows:
+            value = int(table.counters[row, column_index])
+            if column.bits == 32:
+                value %= 2**32
+            lines.append(f"{column.name}{labels(row)} {value}")
+    gauges = {
+        "ifOperStatus": lambda r: 1 if table.oper_status[r] == "up" else 2,
+        "ifHighSpeed": lambda r: int(table.state["speed_bps"][r]) // 1_000_000,
+        "ifMtu": lambda r: 1500,
+        "dot3StatsDuplexStatus": lambda r: 2 if table.state["half_duplex"][r] == 1 else 3,
+        "ifCounterDiscontinuityTime": lambda r: 0,
+    }
+    for name, value_of in gauges.items():
+        lines.append(f"# TYPE {name} gauge")
+        lines += [f"{name}{labels(r)} {value_of(r)}" for r in range(len(table))]
+    return "\n".join(lines) + "\n"
+
+
+@dataclass
+class Exporter:
+    """The fleet published for scraping, with a record of every answer."""
+
+    fleet: Fleet
+    failing: set[str] = field(default_factory=set)
+    served: dict[str, list[Served]] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        self.started = time.time()
+        self._lock = threading.Lock()
+        exporter = self
+
+        class Handler(BaseHTTPRequestHandler):
+            def do_GET(self) -> None:
+                asked = urlparse(self.path)
+                device = parse_qs(asked.query).get("target", [""])[0]
+                if asked.path != "/snmp" or device not in exporter.fleet.names:
+                    self.send_error(404)
+                    return
+                if device in exporter.failing:
+                    self.send_error(500, "the device did not answer")
+                    return
+                now = time.time()
+                table = exporter.fleet.read(device, now)
+                ticks = UPTIME_TICKS_AT_START + int((now - exporter.started) * 100)
+                with exporter._lock:
+                    exporter.served.setdefault(device, []).append(Served(now, table, ticks))
+                body = exposition(table, ticks).encode()
+                self.send_response(200)
+                self.send_header("Content-Type", "text/plain; version=0.0.4")
+                self.send_header("Content-Length", str(len(body)))
+                self.end_headers()
+                self.wfile.write(body)
+
+            def log_message(self, *args: Any) -> None:
+                pass
+
+        self.server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
+        self.port = self.server.server_address[1]
+        threading.Thread(target=self.server.serve_forever, daemon=True).start()
+
+    def scrape_near(self, device: str, at: float) -> Served:
+        """The answer to the scrape Prometheus stamped ``at`` (it stamps the scrape's start)."""
+        with self._lock:
+            answers = list(self.served[device])
+        return min(answers, key=lambda s: abs(s.at - at))
+
+    def close(self) -> None:
+        self.server.shutdown()
+        self.server.server_close()
+
+
+def free_tcp_port() -> int:
+    with socket.socket() as probe:
+        probe.bind(("127.0.0.1", 0))
+        return int(probe.getsockname()[1])
+
+
+class Prometheus:
+    """Debian's Prometheus, scraping the exporter every second, on a loopback port."""
+
+    def __init__(self, folder: Path, exporter: Exporter, devices: list[str]) -> None:
+        binary = require("prometheus")
+        config = folder / "prometheus.yml"
+        config.write_text(
+            json.dumps(  # YAML is a superset of JSON
+                {
+                    "global": {"scrape_interval": "1s", "scrape_timeout": "900ms"},
+                    "scrape_configs": [
+                        {
+                            "job_name": "snmp",
+                            "metrics_path": "/snmp",
+                            "params": {"module": ["if_mib,etherlike"]},
+                            "static_configs": [{"targets": devices}],
+                            "relabel_configs": [
+                                {"source_labels": ["__address__"],
+                                 "target_label": "__param_target"},
+                                {"source_labels": ["__param_target"], "target_label": "instance"},
+                                {"target_label": "__address__",
+                                 "replacement": f"127.0.0.1:{exporter.port}"},
+                            ],
+                        }
+                    ],
+                }
+            )
+        )  # fmt: skip
+        self.port = free_tcp_port()
+        self.url = f"http://127.0.0.1:{self.port}"
+        self.log = folder / "prometheus.log"
+        with open(self.log, "wb") as log:
+            self.process = subprocess.Popen(
+                [binary, f"--config.file={config}", f"--storage.tsdb.path={folder / 'data'}",
+                 f"--web.listen-address=127.0.0.1:{self.port}"],
+                stdout=log, stderr=subprocess.STDOUT,
+            )  # fmt: skip
+        try:
+            self._wait_ready()
+        except RuntimeError:
+            self.stop()
+            raise
+
+    def _wait_ready(self) -> None:
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline:
+            if self.process.poll() is not None:
+                raise RuntimeError(f"prometheus exited: {self.log.read_text(errors='replace')}")
+            try:
+                with urllib.request.urlopen(f"{self.url}/-/ready", timeout=1) as answer:
+                    if answer.status == 200:
+                        return
+            except OSError:
+                pass
+            time.sleep(0.2)
+        raise RuntimeError("prometheus was not ready within 60 s")
+
+    def query(self, promql: str) -> list[dict[str, Any]]:
+        url = f"{self.url}/api/v1/query?" + urllib.parse.urlencode({"query": promql})
+        with urllib.request.urlopen(url, timeout=5) as answer:
+            return list(json.load(answer)["data"]["result"])
+
+    def wait_for_scrapes(self, device: str, count: int, *, up: int = 1) -> None:
+        """Until Prometheus holds ``count`` scrapes of ``device`` with ``up`` at that value."""
+        deadline = time.monotonic() + 60
+        promql = f'count_over_time(up{{instance="{device}"}}[10m])'
+        while time.monotonic() < deadline:
+            latest = self.query(f'up{{instance="{device}"}}')
+            held = self.query(promql)
+            if (
+                latest
+                and held
+                and int(float(latest[0]["value"][1])) == up
+                and int(float(held[0]["value"][1])) >= count
+            ):
+                return
+            time.sleep(0.25)
+        raise RuntimeError(f"prometheus did not scrape {device} {count} times within 60 s")
+
+    def stop(self) -> None:
+        stop(self.process)
+
+
+class CannedApi:
+    """An HTTP server answering ``/api/v1/query`` with a fixed status and body, keeping
+    every query it was sent: the malformed answers a real server would rarely give."""
+
+    def __init__(self) -> None:
+        self.status = 200
+        self.body: Any = {"status": "success", "data": {"resultType": "matrix", "result": []}}
+        self.queries: list[dict[str, list[str]]] = []
+        api = self
+
+        class Handler(BaseHTTPRequestHandler):
+            def do_GET(self) -> None:
+                api.queries.append(parse_qs(urlparse(self.path).query))
+                body = api.body if isinstance(api.body, bytes) else json.dumps(api.body).encode()
+                self.send_response(api.status)
+                self.send_header("Content-Type", "application/json")
+                self.send_header("Content-Length", str(len(body)))
+                self.end_headers()
+                self.wfile.write(body)
+
+            def log_message(self, *args: Any) -> None:
+                pass
+
+        self.server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
+        self.url = f"http://127.0.0.1:{self.server.server_address[1]}"
+        threading.Thread(target=self.server.serve_forever, daemon=True).start()
+
+    def close(self) -> None:
+        self.server.shutdown()
+        self.server.server_close()

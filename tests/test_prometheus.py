@@ -1,0 +1,315 @@
+"""The Prometheus collector against Debian's Prometheus on loopback, scraping an exporter of
+the simulated fleet in the SNMP exporter's naming: what the collector reads back is what
+was scraped, to the octet, at the time Prometheus stamped the scrape."""
+
+from __future__ import annotations
+
+import asyncio
+import itertools
+import time
+from collections.abc import Awaitable, Callable, Iterator
+from pathlib import Path
+from typing import Any, TypeVar
+
+import pytest
+
+from linktriage.chat.replies import DiagnosisReply
+from linktriage.collectors.base import BadAnswerError, CollectorError, Reading, Target
+from linktriage.collectors.prometheus import PrometheusCollector, promql_string
+from linktriage.counters import COLUMNS
+from linktriage.diagnosis import Model
+from linktriage.errors import InputError
+from linktriage.inventory import Defaults, DeviceEntry, Inventory
+from linktriage.polling import InventoryNetwork
+from linktriage.service import Triage
+from linktriage.settings import Settings
+from linktriage.snapshot import Snapshot
+from linktriage.store import Store
+
+from agents.fleet import Fleet
+from agents.prometheus import CannedApi, Exporter, Prometheus, Served
+
+DEVICES = ["sw0001", "sw0002", "sw0003"]
+T = TypeVar("T")
+
+
+@pytest.fixture(scope="module")
+def exporter() -> Iterator[Exporter]:
+    served = Exporter(Fleet(len(DEVICES), 8, seed=23))
+    yield served
+    served.close()
+
+
+@pytest.fixture(scope="module")
+def prometheus(
+    tmp_path_factory: pytest.TempPathFactory, exporter: Exporter
+) -> Iterator[Prometheus]:
+    server = Prometheus(tmp_path_factory.mktemp("prometheus"), exporter, DEVICES)
+    for device in DEVICES:
+        server.wait_for_scrapes(device, 4)
+    yield server
+    server.stop()
+
+
+@pytest.fixture
+def api() -> Iterator[CannedApi]:
+    canned = CannedApi()
+    yield canned
+    canned.close()
+
+
+def collector(server: str, device: str = "sw0001", **options: Any) -> PrometheusCollector:
+    """A collector of one device of the scrape job, as an inventory entry would build it."""
+    settings = {"server": server, "matchers": {"job": "snmp"}, **options}
+    return PrometheusCollector(Target(device, None, settings, timeout_s=2.0, retries=1))
+
+
+def ask(c: PrometheusCollector, question: Callable[[PrometheusCollector], Awaitable[T]]) -> T:
+    async def once() -> T:
+        try:
+            return await question(c)
+        finally:
+            await c.close()
+
+    return asyncio.run(once())
+
+
+def read(c: PrometheusCollector, ports: list[str] | None = None) -> Reading:
+    return ask(c, lambda c: c.read(ports))
+
+
+def history(c: PrometheusCollector, start: float, end: float) -> Reading:
+    return ask(c, lambda c: c.history(None, start, end))
+
+
+def assert_is_what_was_scraped(snap: Snapshot, scrape: Served, row: int) -> None:
+    table = scrape.table
+    expected = {
+        column.name: int(table.counters[row, i]) % 2**column.bits
+        for i, column in enumerate(COLUMNS)
+        if table.present[row, i]
+    }
+    assert snap.counters == expected
+    assert snap.speed_bps == int(table.state["speed_bps"][row]) // 1_000_000 * 1_000_000
+    assert snap.oper_status == ("up" if table.oper_status[row] == "up" else "down")
+    assert snap.mtu == 1500
+
+
+def test_a_read_gives_every_ports_newest_scrape_to_the_octet(
+    prometheus: Prometheus, exporter: Exporter
+) -> None:
+    reading = read(collector(prometheus.url))
+    assert reading.problems == {}
+    assert sorted(s.port for s in reading.snapshots) == sorted(exporter.fleet.ports)
+    stamped = {s.time for s in reading.snapshots}
+    assert len(stamped) == 1  # one scrape, one time for every port
+    at = stamped.pop().timestamp()
+    assert time.time() - at < 3  # scraped every second
+    scrape = exporter.scrape_near("sw0001", at)
+    assert abs(scrape.at - at) < 0.5  # Prometheus stamps the start of its scrape
+    for snap in reading.snapshots:
+        assert_is_what_was_scraped(snap, scrape, exporter.fleet.ports.index(snap.port))
+        # ifCounterDiscontinuityTime 0: since the agent started, sysUpTime ago (RFC 2863).
+        booted = scrape.at - scrape.uptime_ticks / 100
+        assert snap.discontinuity_time is not None
+        assert abs(snap.discontinuity_time.timestamp() - booted) < 0.5
+
+
+def test_history_gives_every_scrape_of_the_window_at_the_time_it_was_scraped(
+    prometheus: Prometheus, exporter: Exporter
+) -> None:
+    end = time.time()
+    reading = history(collector(prometheus.url, "sw0002"), end - 3.5, end)
+    times = sorted({s.time.timestamp() for s in reading.snapshots})
+    assert len(times) >= 3
+    gaps = [b - a for a, b in itertools.pairwise(times)]
+    assert all(0.5 < gap < 1.5 for gap in gaps)  # scrape_interval 1s
+    assert len(reading.snapshots) == len(times) * len(exporter.fleet.ports)
+    for snap in reading.snapshots:
+        scrape = exporter.scrape_near("sw0002", snap.time.timestamp())
+        assert abs(scrape.at - snap.time.timestamp()) < 0.5
+        assert_is_what_was_scraped(snap, scrape, exporter.fleet.ports.index(snap.port))
+
+
+def test_ports_are_the_ifname_labels_of_the_device(
+    prometheus: Prometheus, exporter: Exporter
+) -> None:
+    c = collector(prometheus.url)
+    assert ask(c, lambda c: c.ports()) == sorted(exporter.fleet.ports)
+    assert [s.port for s in read(collector(prometheus.url), ["port3"]).snapshots] == ["port3"]
+
+
+def test_a_device_prometheus_can_no_longer_scrape_is_named_not_read_stale(
+    prometheus: Prometheus, exporter: Exporter
+) -> None:
+    exporter.failing.add("sw0003")
+    try:
+        prometheus.wait_for_scrapes("sw0003", 1, up=0)
+        with pytest.raises(CollectorError, match="sw0003: Prometheus has failed to scrape it"):
+            read(collector(prometheus.url, "sw0003"))
+    finally:
+        exporter.failing.discard("sw0003")
+
+
+def test_label_values_are_escaped_so_prometheus_parses_any_name(prometheus: Prometheus) -> None:
+    # A value with a quote and a backslash parses (no 400): there are simply no such series.
+    odd = 'sw"0001\\'
+    with pytest.raises(BadAnswerError, match="holds no interface series with instance="):
+        read(collector(prometheus.url, instance=odd))
+    assert promql_string(odd) == '"sw\\"0001\\\\"'  # Go string escaping, as PromQL uses
+
+
+def test_asking_about_a_port_reads_its_window_from_prometheus_without_waiting(
+    prometheus: Prometheus, tmp_path: Path, model: Model
+) -> None:
+    entry = DeviceEntry(
+        name="sw0001",
+        site="east",
+        collector="prometheus",
+        options={"server": prometheus.url, "matchers": {"job": "snmp"}},
+    )
+    network = InventoryNetwork(Inventory(defaults=Defaults(), devices=[entry]))
+    slept: list[float] = []
+    triage = Triage(
+        network,
+        Store(f"sqlite:///{tmp_path / 's.sqlite'}"),
+        model,
+        Settings(),
+        sleep=slept.append,
+    )
+    try:
+        reply = triage.handle("sw0001 port2")
+    finally:
+        network.close()
+    assert isinstance(reply, DiagnosisReply)
+    assert slept == []  # the window came from Prometheus's own history
+    assert reply.record["port"] == "port2"
+    assert reply.record["window_s"] >= 3
+
+
+# --- answers a real server rarely gives, from a canned one
+
+
+def series(metric: str, port: str | None, *values: tuple[float, str]) -> dict[str, Any]:
+    labels = {"__name__": metric, "instance": "sw0001", "job": "snmp"}
+    if port is not None:
+        labels["ifName"] = port
+    return {"metric": labels, "values": [[t, v] for t, v in values]}
+
+
+def matrix(*result: dict[str, Any]) -> dict[str, Any]:
+    return {"status": "success", "data": {"resultType": "matrix", "result": list(result)}}
+
+
+def test_the_servers_own_error_message_is_passed_on(api: CannedApi) -> None:
+    api.status = 400
+    api.body = {"status": "error", "errorType": "bad_data", "error": "parse error at char 7"}
+    with pytest.raises(BadAnswerError, match=r"answered 400 .*: parse error at char 7"):
+        read(collector(api.url))
+
+
+def test_the_query_is_one_range_selector_of_the_device_at_the_time_asked(api: CannedApi) -> None:
+    api.body = matrix(series("ifHCInOctets", "port1", (100.0, "5")))
+    history(collector(api.url), 40.0, 100.0)
+    (sent,) = api.queries
+    assert sent["time"] == ["100.000"]
+    query = sent["query"][0]
+    assert query.endswith("}[60000ms]")
+    assert 'instance="sw0001"' in query and 'job="snmp"' in query
+    assert "ifHCInOctets|" in query and "dot3StatsFCSErrors" in query
+
+
+def test_two_series_for_one_port_make_that_port_a_problem_and_the_rest_read(
+    api: CannedApi,
+) -> None:
+    api.body = matrix(
+        series("ifHCInOctets", "port1", (100.0, "5")),
+        {**series("ifHCInOctets", "port1", (100.0, "9")), "metric": {
+            "__name__": "ifHCInOctets", "ifName": "port1", "ifIndex": "7"}},
+        series("ifHCInOctets", "port2", (100.0, "12")),
+    )  # fmt: skip
+    reading = read(collector(api.url))
+    assert [(s.port, s.counters) for s in reading.snapshots] == [("port2", {"ifHCInOctets": 12})]
+    assert "2 series of ifHCInOctets" in reading.problems["port1"]
+
+
+def test_a_value_that_is_not_a_counter_is_that_ports_problem(api: CannedApi) -> None:
+    api.body = matrix(
+        series("ifInErrors", "port1", (100.0, "NaN")),
+        series("ifInErrors", "port2", (100.0, "1.5")),
+        series("ifInErrors", "port3", (100.0, "3")),
+    )
+    reading = read(collector(api.url))
+    assert [s.port for s in reading.snapshots] == ["port3"]
+    assert "NaN is not a counter" in reading.problems["port1"]
+    assert "1.5 is not a counter" in reading.problems["port2"]
+
+
+def test_series_without_the_port_label_are_reported(api: CannedApi) -> None:
+    api.body = matrix(series("ifHCInOctets", None, (100.0, "5")))
+    reading = read(collector(api.url))
+    assert reading.snapshots == []
+    assert "carry no ifName label" in reading.problems["(no ifName)"]
+
+
+def test_a_counter_float64_rounds_up_to_2_to_the_64_reads_as_the_largest_counter64(
+    api: CannedApi,
+) -> None:
+    # Prometheus stores float64 (IEEE 754 binary64, a 53-bit significand): 2^64 - 1 is
+    # written "1.8446744073709552e+19", which is 2^64 (Python's float repr agrees).
+    assert float(2**64 - 1) == 2**64
+    api.body = matrix(
+        series("ifHCInOctets", "port1", (100.0, "1.8446744073709552e+19")),
+        series("ifHCOutOctets", "port1", (100.0, "9007199254740993")),  # 2^53 + 1
+    )
+    (snap,) = read(collector(api.url)).snapshots
+    assert snap.counters["ifHCInOctets"] == 2**64 - 1  # RFC 2578 7.1.10: Counter64 max
+    assert snap.counters["ifHCOutOctets"] == 2**53  # the nearest binary64 value
+
+
+def test_an_answer_that_is_not_a_matrix_is_a_bad_answer(api: CannedApi) -> None:
+    api.body = {"status": "success", "data": {"resultType": "vector", "result": []}}
+    with pytest.raises(BadAnswerError, match=r"sw0001: answered without samples: .*no matrix"):
+        read(collector(api.url))
+
+
+def test_metric_and_label_names_are_configurable_per_device(api: CannedApi) -> None:
+    api.body = {
+        "status": "success",
+        "data": {
+            "resultType": "matrix",
+            "result": [
+                {
+                    "metric": {"__name__": "if_hc_in_octets", "target": "10.20.0.1", "port": "a1"},
+                    "values": [[100.0, "77"]],
+                }
+            ],
+        },
+    }
+    c = collector(
+        api.url,
+        instance="10.20.0.1",
+        device_label="target",
+        port_label="port",
+        matchers={},
+        metrics={"ifHCInOctets": "if_hc_in_octets"},
+    )
+    (snap,) = read(c).snapshots
+    assert (snap.port, snap.counters) == ("a1", {"ifHCInOctets": 77})
+    assert 'target="10.20.0.1"' in api.queries[0]["query"][0]
+
+
+@pytest.mark.parametrize(
+    ("options", "complaint"),
+    [
+        ({"port_label": "if-name"}, "not a Prometheus label name"),
+        ({"metrics": {"ifInOctetz": "x"}}, "not a counter or state object"),
+        ({"metrics": {"ifInOctets": "in octets"}}, "not a Prometheus metric name"),
+        ({"server": "prom:9090"}, "server: String should match"),
+    ],
+)
+def test_bad_options_are_refused_before_anything_is_sent(
+    options: dict[str, Any], complaint: str
+) -> None:
+    with pytest.raises(InputError, match=complaint):
+        collector(**{"server": "http://127.0.0.1:9", **options})
