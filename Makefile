@@ -31,11 +31,12 @@ typecheck: $(STAMP)
 unit: $(STAMP)
 	$(BIN)/pytest
 
-## bench: throughput and model-quality benchmarks (prints their figures)
+## bench: throughput, model quality, sweep and SNMP walk benchmarks (prints their figures)
 bench: $(STAMP)
 	$(BIN)/python bench/diagnose_throughput.py
 	$(BIN)/python bench/model_quality.py
 	$(BIN)/python bench/sweep_restconf.py
+	$(BIN)/python bench/walk_snmp.py
 
 ## model: rebuild the packaged model from the simulated prior
 model: $(STAMP)

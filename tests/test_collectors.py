@@ -24,8 +24,10 @@ import plugins
 
 
 def test_the_built_in_collectors_register_like_any_other() -> None:
-    assert {"demo", "file"} <= set(collector_names())
+    built_in = {"demo", "file", "snmp", "restconf", "prometheus", "linux"}
+    assert built_in <= set(collector_names())
     assert collector_class("demo") is DemoCollector
+    assert all(issubclass(collector_class(name), Collector) for name in built_in)
 
 
 def test_a_third_party_package_adds_a_collector_by_entry_point(

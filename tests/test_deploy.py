@@ -1,11 +1,15 @@
-"""The deploy files stay true to the code: scopes, command, events, settings, unit."""
+"""The deploy files stay true to the code: scopes, command, events, settings, inventory,
+unit."""
 
 from __future__ import annotations
 
 import json
 from pathlib import Path
 
+import pytest
+
 from linktriage.chat.commands import COMMAND
+from linktriage.inventory import load_inventory, problems
 from linktriage.settings import load_settings
 
 DEPLOY = Path(__file__).resolve().parent.parent / "deploy"
@@ -49,3 +53,17 @@ def test_the_service_unit_runs_serve_with_tokens_from_a_file() -> None:
     )
     assert "EnvironmentFile=/etc/linktriage/env" in unit
     assert "xoxb-" not in unit.split("[Unit]")[1]  # no token in the unit itself
+
+
+def test_the_example_inventory_builds_every_collector_and_names_unset_credentials(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    inventory = load_inventory(DEPLOY / "inventory.example.toml")
+    assert {d.collector for d in inventory.devices} == {"snmp", "restconf", "prometheus", "linux"}
+    for name in ("LARK_SNMP_AUTH", "LARK_SNMP_PRIV", "LARK_RESTCONF_PASSWORD"):
+        monkeypatch.setenv(name, "from-the-environment")
+    # Every entry's options are valid; only the community file is absent on this machine.
+    assert list(problems(inventory)) == ["lark-annex-sw1"]
+    assert "/etc/linktriage/secrets/snmp-community" in problems(inventory)["lark-annex-sw1"]
+    monkeypatch.delenv("LARK_SNMP_PRIV")
+    assert "LARK_SNMP_PRIV" in problems(inventory)["lark-east-idf2"]
