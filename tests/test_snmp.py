@@ -140,6 +140,37 @@ def test_only_the_ports_asked_for(switch48: Snmpsim, monkeypatch: pytest.MonkeyP
     assert [s.port for s in reading.snapshots] == ["port3", "port40"]
 
 
+def test_an_older_switch_answers_with_counter32_and_a_bad_value_spoils_only_its_port(
+    tmp_path: Path, fleet: Fleet, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    hc_columns = tuple(f"{IFX_ENTRY}.{column}." for column in (*range(6, 14), 15))
+    walk = [
+        line
+        for line in recorded_walk(fleet, "sw0001", RECORDED_AT)
+        if not line.startswith(hc_columns)  # no ifHC* counters, no ifHighSpeed
+    ]
+    walk = [
+        f"{IF_ENTRY}.14.5|4|n/a" if line.startswith(f"{IF_ENTRY}.14.5|") else line for line in walk
+    ]  # ifInErrors of port5 as an OCTET STRING
+    agent = Snmpsim(tmp_path, walk, community="lark-old")
+    try:
+        monkeypatch.setenv("LARK_OLD_COMMUNITY", "lark-old")
+        reading = read(collector(agent.port, {"community": {"env": "LARK_OLD_COMMUNITY"}}))
+    finally:
+        agent.stop()
+    assert "malformed answer" in reading.problems["port5"]
+    assert len(reading.snapshots) == 47
+    recorded = fleet.read("sw0001", RECORDED_AT)
+    for snap in reading.snapshots:
+        row = fleet.ports.index(snap.port)
+        assert not any(name.startswith("ifHC") for name in snap.counters)
+        expected = int(recorded.counters[row, COLUMN_INDEX["ifInOctets"]]) % 2**32
+        assert snap.counters["ifInOctets"] == expected  # the Counter32 object, as recorded
+        speed = int(recorded.state["speed_bps"][row])
+        # ifSpeed stands in for the missing ifHighSpeed (RFC 2863).
+        assert snap.speed_bps == (speed if speed < 2**32 - 1 else None)
+
+
 def test_v2c_without_a_community_reference_is_refused_offline() -> None:
     with pytest.raises(CollectorError, match="needs community"):
         SnmpCollector(Target("x", "127.0.0.1", {}))
