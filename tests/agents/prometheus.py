@@ -19,6 +19,7 @@ import threading
 import time
 import urllib.parse
 import urllib.request
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from pathlib import Path
@@ -34,6 +35,27 @@ from agents.fleet import Fleet
 from agents.snmp import require, stop
 
 UPTIME_TICKS_AT_START = 8_640_000  # the agent has been up one day when the exporter starts
+
+
+def serve(answer: Callable[[str], tuple[int, str, bytes]]) -> ThreadingHTTPServer:
+    """An HTTP server on a free loopback port, in a thread, answering every GET with
+    ``answer(path)``: (status, content type, body)."""
+
+    class Handler(BaseHTTPRequestHandler):
+        def do_GET(self) -> None:
+            status, kind, body = answer(self.path)
+            self.send_response(status)
+            self.send_header("Content-Type", kind)
+            self.send_header("Content-Length", str(len(body)))
+            self.end_headers()
+            self.wfile.write(body)
+
+        def log_message(self, *args: Any) -> None:
+            pass
+
+    server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
+    threading.Thread(target=server.serve_forever, daemon=True).start()
+    return server
 
 
 @dataclass
@@ -87,36 +109,22 @@ class Exporter:
     def __post_init__(self) -> None:
         self.started = time.time()
         self._lock = threading.Lock()
-        exporter = self
-
-        class Handler(BaseHTTPRequestHandler):
-            def do_GET(self) -> None:
-                asked = urlparse(self.path)
-                device = parse_qs(asked.query).get("target", [""])[0]
-                if asked.path != "/snmp" or device not in exporter.fleet.names:
-                    self.send_error(404)
-                    return
-                if device in exporter.failing:
-                    self.send_error(500, "the device did not answer")
-                    return
-                now = time.time()
-                table = exporter.fleet.read(device, now)
-                ticks = UPTIME_TICKS_AT_START + int((now - exporter.started) * 100)
-                with exporter._lock:
-                    exporter.served.setdefault(device, []).append(Served(now, table, ticks))
-                body = exposition(table, ticks).encode()
-                self.send_response(200)
-                self.send_header("Content-Type", "text/plain; version=0.0.4")
-                self.send_header("Content-Length", str(len(body)))
-                self.end_headers()
-                self.wfile.write(body)
-
-            def log_message(self, *args: Any) -> None:
-                pass
-
-        self.server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
+        self.server = serve(self._answer)
         self.port = self.server.server_address[1]
-        threading.Thread(target=self.server.serve_forever, daemon=True).start()
+
+    def _answer(self, path: str) -> tuple[int, str, bytes]:
+        asked = urlparse(path)
+        device = parse_qs(asked.query).get("target", [""])[0]
+        if asked.path != "/snmp" or device not in self.fleet.names:
+            return 404, "text/plain", b"no such target"
+        if device in self.failing:
+            return 500, "text/plain", b"the device did not answer"
+        now = time.time()
+        table = self.fleet.read(device, now)
+        ticks = UPTIME_TICKS_AT_START + int((now - self.started) * 100)
+        with self._lock:
+            self.served.setdefault(device, []).append(Served(now, table, ticks))
+        return 200, "text/plain; version=0.0.4", exposition(table, ticks).encode()
 
     def scrape_near(self, device: str, at: float) -> Served:
         """The answer to the scrape Prometheus stamped ``at`` (it stamps the scrape's start)."""
@@ -226,24 +234,13 @@ class CannedApi:
         self.status = 200
         self.body: Any = {"status": "success", "data": {"resultType": "matrix", "result": []}}
         self.queries: list[dict[str, list[str]]] = []
-        api = self
-
-        class Handler(BaseHTTPRequestHandler):
-            def do_GET(self) -> None:
-                api.queries.append(parse_qs(urlparse(self.path).query))
-                body = api.body if isinstance(api.body, bytes) else json.dumps(api.body).encode()
-                self.send_response(api.status)
-                self.send_header("Content-Type", "application/json")
-                self.send_header("Content-Length", str(len(body)))
-                self.end_headers()
-                self.wfile.write(body)
-
-            def log_message(self, *args: Any) -> None:
-                pass
-
-        self.server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
+        self.server = serve(self._answer)
         self.url = f"http://127.0.0.1:{self.server.server_address[1]}"
-        threading.Thread(target=self.server.serve_forever, daemon=True).start()
+
+    def _answer(self, path: str) -> tuple[int, str, bytes]:
+        self.queries.append(parse_qs(urlparse(path).query))
+        body = self.body if isinstance(self.body, bytes) else json.dumps(self.body).encode()
+        return self.status, "application/json", body
 
     def close(self) -> None:
         self.server.shutdown()

@@ -65,6 +65,21 @@ def stop(process: subprocess.Popen[bytes]) -> None:
         process.wait()
 
 
+def start_agent(
+    command: list[str], env: dict[str, str], log: Path, port: int, community: str
+) -> subprocess.Popen[bytes]:
+    """Start an agent and wait until it answers; stop it again if it never does."""
+    # The agent logs to a file: a pipe nobody reads fills up and stops the agent.
+    with open(log, "wb") as out:
+        process = subprocess.Popen(command, env=env, stdout=out, stderr=subprocess.STDOUT)
+    try:
+        wait_for_agent(port, community, process, log)
+    except RuntimeError:
+        stop(process)
+        raise
+    return process
+
+
 class Snmpd:
     """net-snmp's snmpd in the foreground, our own config, v2c and a v3 user."""
 
@@ -79,19 +94,12 @@ class Snmpd:
         )
         (folder / "persist").mkdir(exist_ok=True)
         env = {**os.environ, "SNMP_PERSISTENT_DIR": str(folder / "persist")}
-        # The agent logs to a file: a pipe nobody reads fills up and stops the agent.
         self.log = folder / "snmpd.log"
-        with open(self.log, "wb") as log:
-            self.process = subprocess.Popen(
-                [binary, "-f", "-Lo", "-C", "-c", str(config), "-p", str(folder / "snmpd.pid"),
-                 "-m", "", f"udp:127.0.0.1:{self.port}"],
-                env=env, stdout=log, stderr=subprocess.STDOUT,
-            )  # fmt: skip
-        try:
-            wait_for_agent(self.port, COMMUNITY, self.process, self.log)
-        except RuntimeError:
-            self.stop()
-            raise
+        self.process = start_agent(
+            [binary, "-f", "-Lo", "-C", "-c", str(config), "-p", str(folder / "snmpd.pid"),
+             "-m", "", f"udp:127.0.0.1:{self.port}"],
+            env, self.log, self.port, COMMUNITY,
+        )  # fmt: skip
 
     def walk(self, oid: str) -> dict[int, str]:
         """snmpbulkwalk's answer for one column: ifIndex -> value as text."""
@@ -153,17 +161,11 @@ class Snmpsim:
         self.community = community
         env = {**os.environ, "SNMPSIM_ALLOW_ROOT": "true"}
         self.log = folder / "snmpsim.log"
-        with open(self.log, "wb") as log:
-            self.process = subprocess.Popen(
-                [responder, f"--data-dir={data}", f"--agent-udpv4-endpoint=127.0.0.1:{self.port}",
-                 f"--cache-dir={folder / 'cache'}"],
-                env=env, stdout=log, stderr=subprocess.STDOUT,
-            )  # fmt: skip
-        try:
-            wait_for_agent(self.port, community, self.process, self.log)
-        except RuntimeError:
-            self.stop()
-            raise
+        self.process = start_agent(
+            [responder, f"--data-dir={data}", f"--agent-udpv4-endpoint=127.0.0.1:{self.port}",
+             f"--cache-dir={folder / 'cache'}"],
+            env, self.log, self.port, community,
+        )  # fmt: skip
 
     def stop(self) -> None:
         stop(self.process)
