@@ -1,14 +1,20 @@
-"""Small builders for hand-written snapshot lines, so tests state only what matters."""
+"""Small builders for hand-written snapshot lines, so tests state only what matters, and
+one collector question asked the way the service asks it."""
 
 from __future__ import annotations
 
+import asyncio
 import json
-from typing import Any
+from collections.abc import Awaitable, Callable
+from typing import Any, TypeVar
 
+from linktriage.collectors.base import Collector, Reading
 from linktriage.polls import PollTable
 from linktriage.snapshot import read_snapshots
 
 T0 = "2026-03-02T08:00:00Z"
+C = TypeVar("C", bound=Collector)
+R = TypeVar("R")
 
 
 def line(
@@ -59,3 +65,20 @@ def artefact_of(clf: Any, features: list[str]) -> Any:
         tree=arrays,
         training=summary,
     )
+
+
+def ask_once(collector: C, question: Callable[[C], Awaitable[R]]) -> R:
+    """One question to a collector on a loop of its own, closing the collector after."""
+
+    async def once() -> R:
+        try:
+            return await question(collector)
+        finally:
+            await collector.close()
+
+    return asyncio.run(once())
+
+
+def read_once(collector: Collector, ports: list[str] | None = None) -> Reading:
+    """One read of a collector, as one poll of the service makes it."""
+    return ask_once(collector, lambda c: c.read(ports))

@@ -4,12 +4,11 @@ was scraped, to the octet, at the time Prometheus stamped the scrape."""
 
 from __future__ import annotations
 
-import asyncio
 import itertools
 import time
-from collections.abc import Awaitable, Callable, Iterator
+from collections.abc import Iterator
 from pathlib import Path
-from typing import Any, TypeVar
+from typing import Any
 
 import pytest
 
@@ -28,9 +27,9 @@ from linktriage.store import Store
 
 from agents.fleet import Fleet
 from agents.prometheus import CannedApi, Exporter, Prometheus, Served
+from helpers import ask_once, read_once
 
 DEVICES = ["sw0001", "sw0002", "sw0003"]
-T = TypeVar("T")
 
 
 @pytest.fixture(scope="module")
@@ -64,22 +63,8 @@ def collector(server: str, device: str = "sw0001", **options: Any) -> Prometheus
     return PrometheusCollector(Target(device, None, settings, timeout_s=2.0, retries=1))
 
 
-def ask(c: PrometheusCollector, question: Callable[[PrometheusCollector], Awaitable[T]]) -> T:
-    async def once() -> T:
-        try:
-            return await question(c)
-        finally:
-            await c.close()
-
-    return asyncio.run(once())
-
-
-def read(c: PrometheusCollector, ports: list[str] | None = None) -> Reading:
-    return ask(c, lambda c: c.read(ports))
-
-
 def history(c: PrometheusCollector, start: float, end: float) -> Reading:
-    return ask(c, lambda c: c.history(None, start, end))
+    return ask_once(c, lambda c: c.history(None, start, end))
 
 
 def assert_is_what_was_scraped(snap: Snapshot, scrape: Served, row: int) -> None:
@@ -98,7 +83,7 @@ def assert_is_what_was_scraped(snap: Snapshot, scrape: Served, row: int) -> None
 def test_a_read_gives_every_ports_newest_scrape_to_the_octet(
     prometheus: Prometheus, exporter: Exporter
 ) -> None:
-    reading = read(collector(prometheus.url))
+    reading = read_once(collector(prometheus.url))
     assert reading.problems == {}
     assert sorted(s.port for s in reading.snapshots) == sorted(exporter.fleet.ports)
     stamped = {s.time for s in reading.snapshots}
@@ -135,8 +120,8 @@ def test_ports_are_the_ifname_labels_of_the_device(
     prometheus: Prometheus, exporter: Exporter
 ) -> None:
     c = collector(prometheus.url)
-    assert ask(c, lambda c: c.ports()) == sorted(exporter.fleet.ports)
-    assert [s.port for s in read(collector(prometheus.url), ["port3"]).snapshots] == ["port3"]
+    assert ask_once(c, lambda c: c.ports()) == sorted(exporter.fleet.ports)
+    assert [s.port for s in read_once(collector(prometheus.url), ["port3"]).snapshots] == ["port3"]
 
 
 def test_a_device_prometheus_can_no_longer_scrape_is_named_not_read_stale(
@@ -146,7 +131,7 @@ def test_a_device_prometheus_can_no_longer_scrape_is_named_not_read_stale(
     try:
         prometheus.wait_for_scrapes("sw0003", 1, up=0)
         with pytest.raises(CollectorError, match="sw0003: Prometheus has failed to scrape it"):
-            read(collector(prometheus.url, "sw0003"))
+            read_once(collector(prometheus.url, "sw0003"))
     finally:
         exporter.failing.discard("sw0003")
 
@@ -155,7 +140,7 @@ def test_label_values_are_escaped_so_prometheus_parses_any_name(prometheus: Prom
     # A value with a quote and a backslash parses (no 400): there are simply no such series.
     odd = 'sw"0001\\'
     with pytest.raises(BadAnswerError, match="holds no interface series with instance="):
-        read(collector(prometheus.url, instance=odd))
+        read_once(collector(prometheus.url, instance=odd))
     assert promql_string(odd) == '"sw\\"0001\\\\"'  # Go string escaping, as PromQL uses
 
 
@@ -205,7 +190,7 @@ def test_the_servers_own_error_message_is_passed_on(api: CannedApi) -> None:
     api.status = 400
     api.body = {"status": "error", "errorType": "bad_data", "error": "parse error at char 7"}
     with pytest.raises(BadAnswerError, match=r"answered 400 .*: parse error at char 7"):
-        read(collector(api.url))
+        read_once(collector(api.url))
 
 
 def test_the_query_is_one_range_selector_of_the_device_at_the_time_asked(api: CannedApi) -> None:
@@ -228,7 +213,7 @@ def test_two_series_for_one_port_make_that_port_a_problem_and_the_rest_read(
             "__name__": "ifHCInOctets", "ifName": "port1", "ifIndex": "7"}},
         series("ifHCInOctets", "port2", (100.0, "12")),
     )  # fmt: skip
-    reading = read(collector(api.url))
+    reading = read_once(collector(api.url))
     assert [(s.port, s.counters) for s in reading.snapshots] == [("port2", {"ifHCInOctets": 12})]
     assert "2 series of ifHCInOctets" in reading.problems["port1"]
 
@@ -239,7 +224,7 @@ def test_a_value_that_is_not_a_counter_is_that_ports_problem(api: CannedApi) -> 
         series("ifInErrors", "port2", (100.0, "1.5")),
         series("ifInErrors", "port3", (100.0, "3")),
     )
-    reading = read(collector(api.url))
+    reading = read_once(collector(api.url))
     assert [s.port for s in reading.snapshots] == ["port3"]
     assert "NaN is not a counter" in reading.problems["port1"]
     assert "1.5 is not a counter" in reading.problems["port2"]
@@ -247,7 +232,7 @@ def test_a_value_that_is_not_a_counter_is_that_ports_problem(api: CannedApi) -> 
 
 def test_series_without_the_port_label_are_reported(api: CannedApi) -> None:
     api.body = matrix(series("ifHCInOctets", None, (100.0, "5")))
-    reading = read(collector(api.url))
+    reading = read_once(collector(api.url))
     assert reading.snapshots == []
     assert "carry no ifName label" in reading.problems["(no ifName)"]
 
@@ -262,7 +247,7 @@ def test_a_counter_float64_rounds_up_to_2_to_the_64_reads_as_the_largest_counter
         series("ifHCInOctets", "port1", (100.0, "1.8446744073709552e+19")),
         series("ifHCOutOctets", "port1", (100.0, "9007199254740993")),  # 2^53 + 1
     )
-    (snap,) = read(collector(api.url)).snapshots
+    (snap,) = read_once(collector(api.url)).snapshots
     assert snap.counters["ifHCInOctets"] == 2**64 - 1  # RFC 2578 7.1.10: Counter64 max
     assert snap.counters["ifHCOutOctets"] == 2**53  # the nearest binary64 value
 
@@ -270,7 +255,7 @@ def test_a_counter_float64_rounds_up_to_2_to_the_64_reads_as_the_largest_counter
 def test_an_answer_that_is_not_a_matrix_is_a_bad_answer(api: CannedApi) -> None:
     api.body = {"status": "success", "data": {"resultType": "vector", "result": []}}
     with pytest.raises(BadAnswerError, match=r"sw0001: answered without samples: .*no matrix"):
-        read(collector(api.url))
+        read_once(collector(api.url))
 
 
 def test_metric_and_label_names_are_configurable_per_device(api: CannedApi) -> None:
@@ -294,7 +279,7 @@ def test_metric_and_label_names_are_configurable_per_device(api: CannedApi) -> N
         matchers={},
         metrics={"ifHCInOctets": "if_hc_in_octets"},
     )
-    (snap,) = read(c).snapshots
+    (snap,) = read_once(c).snapshots
     assert (snap.port, snap.counters) == ("a1", {"ifHCInOctets": 77})
     assert 'target="10.20.0.1"' in api.queries[0]["query"][0]
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import asyncio
 import ssl
 import subprocess
 from collections.abc import Iterator
@@ -23,6 +22,7 @@ from linktriage.inventory import DeviceEntry, Inventory, problems
 
 from agents.fleet import Fleet
 from agents.restconf import RestconfAgent
+from helpers import read_once
 
 
 @pytest.fixture(scope="module")
@@ -37,19 +37,9 @@ def collector(agent: RestconfAgent, device: str, **options: object) -> RestconfC
     return RestconfCollector(Target(device, "127.0.0.1", settings, timeout_s=1.0, retries=1))
 
 
-def read(c: RestconfCollector, ports: list[str] | None = None):  # type: ignore[no-untyped-def]
-    async def once():  # type: ignore[no-untyped-def]
-        try:
-            return await c.read(ports)
-        finally:
-            await c.close()
-
-    return asyncio.run(once())
-
-
 def test_a_read_gives_every_interface_with_its_counters(agent: RestconfAgent) -> None:
     before = agent.fleet.read("sw0001")
-    reading = read(collector(agent, "sw0001"))
+    reading = read_once(collector(agent, "sw0001"))
     after = agent.fleet.read("sw0001")
     assert [s.port for s in reading.snapshots] == agent.fleet.ports
     assert reading.problems == {}
@@ -101,9 +91,9 @@ def test_credentials_come_by_reference_and_a_refusal_is_named(
 ) -> None:
     agent.behaviour["sw0002"] = "auth"
     with pytest.raises(DeviceRefusedError, match="sw0002: refused the credentials \\(401\\)"):
-        read(collector(agent, "sw0002"))
+        read_once(collector(agent, "sw0002"))
     monkeypatch.setenv("LARK_RESTCONF_PASSWORD", "s3cret")
-    reading = read(
+    reading = read_once(
         collector(agent, "sw0002", username="netops", password={"env": "LARK_RESTCONF_PASSWORD"})
     )
     assert len(reading.snapshots) == 8
@@ -118,25 +108,25 @@ def test_a_server_error_is_retried_then_named(agent: RestconfAgent) -> None:
     agent.behaviour["sw0003"] = "error"
     count = len(agent.requests)
     with pytest.raises(CollectorError, match=r"answered 500 for .*\(2 tries\)"):
-        read(collector(agent, "sw0003"))
+        read_once(collector(agent, "sw0003"))
     assert len(agent.requests) - count == 2
 
 
 def test_an_answer_slower_than_the_timeout_is_a_timeout(agent: RestconfAgent) -> None:
     agent.behaviour["sw0003"] = "slow"
     with pytest.raises(DeviceTimeoutError, match=r"no answer to GET .* within 1 s \(2 tries\)"):
-        read(collector(agent, "sw0003"))
+        read_once(collector(agent, "sw0003"))
 
 
 def test_garbage_is_a_bad_answer(agent: RestconfAgent) -> None:
     agent.behaviour["sw0003"] = "garbage"
     with pytest.raises(BadAnswerError, match="not JSON"):
-        read(collector(agent, "sw0003"))
+        read_once(collector(agent, "sw0003"))
 
 
 def test_a_malformed_counter_costs_only_its_port(agent: RestconfAgent) -> None:
     agent.behaviour["sw0003"] = "bad-types"
-    reading = read(collector(agent, "sw0003"))
+    reading = read_once(collector(agent, "sw0003"))
     assert "port2" not in [s.port for s in reading.snapshots]
     assert "'lots' is not a counter" in reading.problems["port2"]
     assert len(reading.snapshots) == 7
@@ -145,7 +135,7 @@ def test_a_malformed_counter_costs_only_its_port(agent: RestconfAgent) -> None:
 
 def test_an_unknown_resource_is_a_bad_answer(agent: RestconfAgent) -> None:
     with pytest.raises(BadAnswerError, match="answered 404"):
-        read(collector(agent, "sw9999"))
+        read_once(collector(agent, "sw9999"))
 
 
 @pytest.fixture(scope="module")
@@ -173,6 +163,6 @@ def test_tls_certificates_are_verified_unless_told_otherwise(
     agent, cert = tls_agent
     https = {"scheme": "https"}
     with pytest.raises(CollectorError, match=r"certificate verify failed"):
-        read(collector(agent, "sw0001", **https))
-    assert len(read(collector(agent, "sw0001", **https, ca_file=str(cert))).snapshots) == 2
-    assert len(read(collector(agent, "sw0001", **https, verify_tls=False)).snapshots) == 2
+        read_once(collector(agent, "sw0001", **https))
+    assert len(read_once(collector(agent, "sw0001", **https, ca_file=str(cert))).snapshots) == 2
+    assert len(read_once(collector(agent, "sw0001", **https, verify_tls=False)).snapshots) == 2

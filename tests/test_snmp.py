@@ -3,7 +3,6 @@ the machine's own interfaces, and snmpsim serving a recorded 48-port switch."""
 
 from __future__ import annotations
 
-import asyncio
 import json
 from collections.abc import Iterator
 from pathlib import Path
@@ -19,6 +18,7 @@ from linktriage.verdicts import Verdict
 
 from agents.fleet import Fleet
 from agents.snmp import COMMUNITY, V3_AUTH, V3_PRIV, V3_USER, Snmpd, Snmpsim, recorded_walk
+from helpers import read_once
 
 
 @pytest.fixture(scope="module")
@@ -34,16 +34,6 @@ def community(monkeypatch: pytest.MonkeyPatch) -> dict[str, object]:
     return {"community": {"env": "LARK_SNMP_COMMUNITY"}}
 
 
-def read(collector: SnmpCollector, ports: list[str] | None = None):  # type: ignore[no-untyped-def]
-    async def once():  # type: ignore[no-untyped-def]
-        try:
-            return await collector.read(ports)
-        finally:
-            await collector.close()
-
-    return asyncio.run(once())
-
-
 def collector(port: int, options: dict[str, object], **target: object) -> SnmpCollector:
     settings = {"port": port, **options}
     return SnmpCollector(Target("localhost-agent", "127.0.0.1", settings, **target))  # type: ignore[arg-type]
@@ -54,7 +44,7 @@ def test_the_collector_reads_what_snmpbulkwalk_reads(
 ) -> None:
     names = snmpd.walk(f"{IFX_ENTRY}.1")
     before = snmpd.walk(f"{IFX_ENTRY}.6")  # ifHCInOctets
-    reading = read(collector(snmpd.port, community))
+    reading = read_once(collector(snmpd.port, community))
     after = snmpd.walk(f"{IFX_ENTRY}.6")
     assert sorted(s.port for s in reading.snapshots) == sorted(names.values())
     mtu = snmpd.walk(f"{IF_ENTRY}.4")
@@ -79,11 +69,11 @@ def test_snmp_v3_with_authentication_and_privacy(
     monkeypatch.setenv("LARK_SNMP_PRIV", V3_PRIV)
     v3 = {"version": "3", "user": V3_USER, "auth_protocol": "SHA", "priv_protocol": "AES",
           "auth_key": {"env": "LARK_SNMP_AUTH"}, "priv_key": {"env": "LARK_SNMP_PRIV"}}  # fmt: skip
-    reading = read(collector(snmpd.port, v3))
+    reading = read_once(collector(snmpd.port, v3))
     assert "lo" in {s.port for s in reading.snapshots}
     monkeypatch.setenv("LARK_SNMP_AUTH", "wrong-pass")
     with pytest.raises(CollectorError):
-        read(collector(snmpd.port, v3, timeout_s=0.5, retries=0))
+        read_once(collector(snmpd.port, v3, timeout_s=0.5, retries=0))
 
 
 def test_a_wrong_community_gets_no_answer_and_is_named(
@@ -93,7 +83,7 @@ def test_a_wrong_community_gets_no_answer_and_is_named(
     with pytest.raises(
         DeviceTimeoutError, match=r"localhost-agent: no answer to SNMP within 0\.3 s"
     ):
-        read(
+        read_once(
             collector(
                 snmpd.port, {"community": {"env": "LARK_SNMP_COMMUNITY"}}, timeout_s=0.3, retries=0
             )
@@ -119,7 +109,7 @@ def test_a_recorded_48_port_switch_reads_back_exactly(
     switch48: Snmpsim, fleet: Fleet, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     monkeypatch.setenv("LARK48_COMMUNITY", switch48.community)
-    reading = read(collector(switch48.port, {"community": {"env": "LARK48_COMMUNITY"}}))
+    reading = read_once(collector(switch48.port, {"community": {"env": "LARK48_COMMUNITY"}}))
     assert reading.problems == {}
     assert [s.port for s in reading.snapshots] == fleet.ports
     recorded = fleet.read("sw0001", RECORDED_AT)  # the walk was recorded from this switch
@@ -134,7 +124,7 @@ def test_a_recorded_48_port_switch_reads_back_exactly(
 
 def test_only_the_ports_asked_for(switch48: Snmpsim, monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setenv("LARK48_COMMUNITY", switch48.community)
-    reading = read(
+    reading = read_once(
         collector(switch48.port, {"community": {"env": "LARK48_COMMUNITY"}}), ["port3", "port40"]
     )
     assert [s.port for s in reading.snapshots] == ["port3", "port40"]
@@ -155,7 +145,7 @@ def test_an_older_switch_answers_with_counter32_and_a_bad_value_spoils_only_its_
     agent = Snmpsim(tmp_path, walk, community="lark-old")
     try:
         monkeypatch.setenv("LARK_OLD_COMMUNITY", "lark-old")
-        reading = read(collector(agent.port, {"community": {"env": "LARK_OLD_COMMUNITY"}}))
+        reading = read_once(collector(agent.port, {"community": {"env": "LARK_OLD_COMMUNITY"}}))
     finally:
         agent.stop()
     assert "malformed answer" in reading.problems["port5"]
