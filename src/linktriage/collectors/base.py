@@ -126,6 +126,16 @@ class Reading:
     snapshots: list[Snapshot]
     problems: dict[str, str] = field(default_factory=dict)  # port -> what was wrong
 
+    def only(self, ports: Sequence[str] | None) -> Reading:
+        """The part of the reading about these ports (None: all of it)."""
+        if ports is None:
+            return self
+        wanted = set(ports)
+        return Reading(
+            [s for s in self.snapshots if s.port in wanted],
+            {port: why for port, why in self.problems.items() if port in wanted},
+        )
+
 
 class Collector(ABC):
     """Reads one device. Subclasses set :attr:`options_model` to validate their options."""

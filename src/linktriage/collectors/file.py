@@ -55,5 +55,4 @@ class FileCollector(Collector):
         instants = self._load()
         instant = instants[self._next % len(instants)]
         self._next += 1
-        wanted = None if ports is None else set(ports)
-        return Reading([s for s in instant if wanted is None or s.port in wanted])
+        return Reading(instant).only(ports)

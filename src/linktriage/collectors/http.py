@@ -41,7 +41,7 @@ def _tls(ca_file: str | None) -> ssl.SSLContext:
     return ssl.create_default_context(cafile=ca_file or certifi.where())
 
 
-def http_client(options: HttpOptions, timeout_s: float, accept: str) -> Any:
+def _client(options: HttpOptions, timeout_s: float, accept: str) -> Any:
     """An httpx client with the entry's credentials and TLS settings."""
     import httpx
 
@@ -76,10 +76,31 @@ def _server_message(body: bytes) -> str:
     return ""
 
 
-async def get_json(
-    collector: Collector, client: Any, url: str, params: dict[str, str] | None = None
+class HttpSession:
+    """One collector's HTTP connections, opened at the first request and kept until close."""
+
+    def __init__(self, collector: Collector, options: HttpOptions, accept: str) -> None:
+        self.collector = collector
+        self.options = options
+        self.accept = accept
+        self._client: Any = None
+
+    async def close(self) -> None:
+        if self._client is not None:
+            await self._client.aclose()
+            self._client = None
+
+    async def get_json(self, url: str, params: dict[str, str] | None = None) -> Any:
+        """GET ``url`` and parse its JSON, with the collector's timeout and retries."""
+        if self._client is None:
+            timeout_s = self.collector.target.timeout_s
+            self._client = _client(self.options, timeout_s, self.accept)
+        return await _get_json(self.collector, self._client, url, params)
+
+
+async def _get_json(
+    collector: Collector, client: Any, url: str, params: dict[str, str] | None
 ) -> Any:
-    """GET ``url`` and parse its JSON, with the collector's timeout and retries."""
     import httpx
 
     async def attempt() -> Any:

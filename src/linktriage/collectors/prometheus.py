@@ -39,7 +39,7 @@ from linktriage.collectors.base import (
     Reading,
     Target,
 )
-from linktriage.collectors.http import HttpOptions, get_json, http_client
+from linktriage.collectors.http import HttpOptions, HttpSession
 from linktriage.counters import COLUMN_INDEX, COUNTER64_MAX
 from linktriage.snapshot import Snapshot
 
@@ -240,21 +240,14 @@ class PrometheusCollector(HistoryCollector):
         instance = o.instance or target.address or target.name
         self.labels = {o.device_label: instance, **o.matchers}
         self.selector = selector(list(self.objects), self.labels)
-        self._client: Any = None
+        self.http = HttpSession(self, o, MEDIA_TYPE)
 
     async def close(self) -> None:
-        if self._client is not None:
-            await self._client.aclose()
-            self._client = None
+        await self.http.close()
 
     async def _samples(self, span_s: float, end: float) -> Samples:
-        if self._client is None:
-            assert isinstance(self.options, PrometheusOptions)
-            self._client = http_client(self.options, self.target.timeout_s, MEDIA_TYPE)
         query = f"{self.selector}[{max(1, math.ceil(span_s * 1000))}ms]"
-        document = await get_json(
-            self, self._client, self.url, {"query": query, "time": f"{end:.3f}"}
-        )
+        document = await self.http.get_json(self.url, {"query": query, "time": f"{end:.3f}"})
         if not isinstance(document, dict) or document.get("status") != "success":
             said = document.get("error") if isinstance(document, dict) else None
             raise self.error(BadAnswerError, f"the query failed: {said or document!r}"[:300])

@@ -22,7 +22,7 @@ from typing import Any, Literal
 from pydantic import ValidationError
 
 from linktriage.collectors.base import BadAnswerError, Collector, Reading, Target
-from linktriage.collectors.http import HttpOptions, get_json, http_client
+from linktriage.collectors.http import HttpOptions, HttpSession
 from linktriage.snapshot import Snapshot
 
 #: RFC 8343 statistics leaves and the IF-MIB counters they are (RFC 8343 section 4).
@@ -141,18 +141,13 @@ class RestconfCollector(Collector):
         )
         self.url = f"{o.scheme}://{host}{port}{o.root.rstrip('/')}{path}"
         self.params = {"content": "nonconfig"} if o.datastore == "data" else {}
-        self._client: Any = None
+        self.http = HttpSession(self, o, MEDIA_TYPE)
 
     async def close(self) -> None:
-        if self._client is not None:
-            await self._client.aclose()
-            self._client = None
+        await self.http.close()
 
     async def _get(self) -> Any:
-        if self._client is None:
-            assert isinstance(self.options, RestconfOptions)
-            self._client = http_client(self.options, self.target.timeout_s, MEDIA_TYPE)
-        return await get_json(self, self._client, self.url, self.params)
+        return await self.http.get_json(self.url, self.params)
 
     async def ports(self) -> list[str]:
         return [s.port for s in (await self.read()).snapshots]
@@ -165,8 +160,4 @@ class RestconfCollector(Collector):
             )
         except ValueError as exc:
             raise self.error(BadAnswerError, f"answered without interface data: {exc}") from exc
-        if ports is not None:
-            wanted = set(ports)
-            snapshots = [s for s in snapshots if s.port in wanted]
-            problems = {p: why for p, why in problems.items() if p in wanted}
-        return Reading(snapshots, problems)
+        return Reading(snapshots, problems).only(ports)

@@ -292,11 +292,7 @@ class SnmpCollector(Collector):
         walked = await asyncio.gather(*(gated(oid) for oid in all_columns))
         columns = dict(zip(all_columns.values(), walked, strict=True))
         snapshots, problems = snapshots_from_columns(self.target.name, columns, uptime_s, now)
-        if ports is not None:
-            wanted = set(ports)
-            snapshots = [s for s in snapshots if s.port in wanted]
-            problems = {p: why for p, why in problems.items() if p in wanted}
-        return Reading(snapshots, problems)
+        return Reading(snapshots, problems).only(ports)
 
     async def ports(self) -> list[str]:
         return [s.port for s in (await self.read()).snapshots]
