@@ -68,13 +68,17 @@ def stop(process: subprocess.Popen[bytes]) -> None:
 def start_agent(
     command: list[str], env: dict[str, str], log: Path, port: int, community: str
 ) -> subprocess.Popen[bytes]:
-    """Start an agent and wait until it answers; stop it again if it never does."""
+    """Start an agent and wait until it answers; stop it again if it never does.
+
+    The probe (snmpget) is looked up before the agent starts, and the agent is stopped
+    whatever ends the wait (a skip or a failure is an exception too), so nothing leaks."""
+    require("snmpget")
     # The agent logs to a file: a pipe nobody reads fills up and stops the agent.
     with open(log, "wb") as out:
         process = subprocess.Popen(command, env=env, stdout=out, stderr=subprocess.STDOUT)
     try:
         wait_for_agent(port, community, process, log)
-    except RuntimeError:
+    except BaseException:
         stop(process)
         raise
     return process
