@@ -8,8 +8,8 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.demo_network import DemoClock, DemoNetwork
-from linktriage.diagnosis import Model
+from linktriage.demo_network import DemoClock, DemoNetwork, demo_polls
+from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
 from linktriage.model.artefact import TreeArtefact
 from linktriage.service import Triage
 from linktriage.settings import Settings
@@ -34,6 +34,12 @@ def clean_environment(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
 def model() -> Model:
     """The model shipped in the package."""
     return Model(TreeArtefact.default())
+
+
+@pytest.fixture(scope="session")
+def demo_batch(model: Model) -> DiagnosisBatch:
+    """Every port of the demo network, diagnosed with the packaged model."""
+    return diagnose(demo_polls(), model)
 
 
 @pytest.fixture(scope="session")

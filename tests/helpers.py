@@ -6,6 +6,7 @@ from __future__ import annotations
 import asyncio
 import json
 from collections.abc import Awaitable, Callable
+from datetime import datetime, timedelta
 from typing import Any, TypeVar
 
 from linktriage.collectors.base import Collector, Reading
@@ -38,6 +39,32 @@ def line(
     return json.dumps(record)
 
 
+def grown(
+    grow: dict[str, int],
+    *,
+    window_s: float = 300.0,
+    last: dict[str, Any] | None = None,
+    port: str = "port1",
+    device: str = "lark-test-sw1",
+    **state: Any,
+) -> list[str]:
+    """Two polls of one port ``window_s`` apart, each counter grown by ``grow`` between
+    them from a start value of its own (Counter32 names wrap modulo 2^32), with ``state``
+    at both polls and ``last`` changing fields at the second."""
+    t1 = datetime.fromisoformat(T0.replace("Z", "+00:00")) + timedelta(seconds=window_s)
+    first = {name: 3_000_000_000 + 7 * k for k, name in enumerate(grow)}
+    second = {
+        name: (first[name] + value) % (2**64 if "HC" in name else 2**32)
+        for name, value in grow.items()
+    }
+    fields = {"device": device, "port": port, **state}
+    later = {**fields, **(last or {})}
+    return [
+        line(T0, first, **fields),
+        line(t1.isoformat().replace("+00:00", "Z"), second, **later),
+    ]
+
+
 def polls(*lines: str) -> PollTable:
     """Parse lines that must all be valid."""
     result = read_snapshots(lines)
@@ -55,7 +82,7 @@ def artefact_of(clf: Any, features: list[str]) -> Any:
     summary = TrainingSummary(
         seed=0, simulated_ports=0, rows=0, folds=5, ccp_alpha=0.0, selection="test",
         cv_macro_f1=0.0, cv_macro_f1_se=0.0, best_cv_macro_f1=0.0, best_ccp_alpha=0.0,
-        per_class_recall={}, healthy_false_alarm=0.0, guard_resolution=1e-5,
+        per_class_recall={}, healthy_false_alarm=0.0,
         sklearn_version="test",
     )  # fmt: skip
     return TreeArtefact(

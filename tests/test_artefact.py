@@ -61,12 +61,46 @@ def test_depth_and_leaves_are_scikit_learns(fitted) -> None:  # type: ignore[no-
     assert artefact.leaves == clf.get_n_leaves()
 
 
-def test_paths_reach_every_leaf_once(fitted) -> None:  # type: ignore[no-untyped-def]
+def test_paths_reach_every_node_once(fitted) -> None:  # type: ignore[no-untyped-def]
     clf, x, _ = fitted
     tree = CompiledTree(_artefact(clf, x.shape[1]))
-    assert sorted(tree.paths) == sorted(np.flatnonzero(clf.tree_.children_left == -1))
-    for leaf, path in tree.paths.items():
-        assert len(path) == int(clf.decision_path(x[clf.apply(x) == leaf][:1]).sum()) - 1
+    assert sorted(tree.paths) == list(range(clf.tree_.node_count))
+    # Reference: scikit-learn's decision_path, for the leaves rows land in.
+    for leaf in np.unique(clf.apply(x)):
+        row = x[clf.apply(x) == leaf][:1]
+        assert len(tree.paths[leaf]) == int(clf.decision_path(row).sum()) - 1
+        assert [s.node for s in tree.paths[leaf]] == list(clf.decision_path(row).indices[:-1])
+
+
+def test_choosing_among_allowed_classes_takes_the_best_allowed_one(fitted) -> None:  # type: ignore[no-untyped-def]
+    clf, x, _ = fitted
+    tree = CompiledTree(_artefact(clf, x.shape[1]))
+    leaf = tree.apply(x[:200])
+    everything = np.ones((200, len(tree.classes)), np.bool_)
+    free = tree.choose(leaf, everything)
+    np.testing.assert_array_equal(free.klass, np.argmax(tree.proba[leaf], axis=1))
+    np.testing.assert_array_equal(free.node, leaf)
+    # Forbid each row's first choice: the best of the rest wins, from the leaf or, where the
+    # leaf holds nothing else, from the nearest ancestor that does.
+    allowed = everything.copy()
+    allowed[np.arange(200), free.first] = False
+    forced = tree.choose(leaf, allowed)
+    assert np.all(forced.klass != free.first)
+    assert np.all(forced.klass >= 0)
+    for row in range(200):
+        node = forced.node[row]
+        masked = tree.proba[node] * allowed[row]
+        assert forced.klass[row] == np.argmax(masked)
+        assert forced.confidence[row] == pytest.approx(masked.max() / masked.sum())
+        if node != leaf[row]:  # backed off: every node below it held nothing allowed
+            assert (tree.proba[leaf[row]] * allowed[row]).sum() == 0
+
+
+def test_no_allowed_class_leaves_the_row_undecided(fitted) -> None:  # type: ignore[no-untyped-def]
+    clf, x, _ = fitted
+    tree = CompiledTree(_artefact(clf, x.shape[1]))
+    choice = tree.choose(tree.apply(x[:5]), np.zeros((5, len(tree.classes)), np.bool_))
+    assert np.all(choice.klass == -1)
 
 
 def test_the_version_names_the_content() -> None:

@@ -237,7 +237,7 @@ def test_labels_export_writes_training_rows(tmp_path: Path) -> None:
     code, _, err = run("labels", "export", str(target))
     assert code == 0 and "wrote 1 labelled rows" in err
     header, row = target.read_text().splitlines()
-    assert header.startswith("rx_crc_ratio,") and ",verdict," in header
+    assert header.startswith("ber_over_objective,") and ",verdict," in header
     assert ",cable_fault," in row
 
 

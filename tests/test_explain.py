@@ -1,4 +1,5 @@
-"""Explanations follow the tree's real path, with the measured values and thresholds."""
+"""Explanations follow the tree's real path, one question per feature, with the measured
+values and thresholds."""
 
 from __future__ import annotations
 
@@ -16,45 +17,67 @@ from linktriage.model.train import prior_rows
 from helpers import artefact_of
 
 
-def test_questions_retrace_the_decision_path_of_each_row(model: Model) -> None:
-    prior = prior_rows(2000, seed=9)
-    x = prior.x
+def test_questions_hold_for_the_values_of_each_row(model: Model) -> None:
+    x = prior_rows(2000, seed=9).x
     leaves = model.tree.apply(x)
-    for row, leaf in zip(x[:300], leaves[:300], strict=True):
-        questions = model.explainer.questions(int(leaf), row.astype(np.float64).tolist())
-        node = 0
+    for row, leaf in zip(x[:400], leaves[:400], strict=True):
+        values = row.astype(np.float64).tolist()
+        questions = model.explainer.questions(int(leaf), values)
+        asked = {model.tree.features[s.feature] for s in model.tree.paths[int(leaf)]}
+        assert [q["feature"] for q in questions] == list(dict.fromkeys(
+            model.tree.features[s.feature] for s in model.tree.paths[int(leaf)]
+        ))  # fmt: skip
+        assert {q["feature"] for q in questions} == asked
         for q in questions:
-            column = FEATURE_NAMES.index(q["feature"])
-            value = row[column]
-            threshold = model.tree.threshold[node]
-            assert model.tree.feature[node] == column
-            if math.isnan(value):
-                assert q["value"] is None
-                went_right = not model.tree.missing_left[node]
+            value = np.float32(values[FEATURE_NAMES.index(q["feature"])])
+            if "range" in q:
+                low, high = q["range"]
+                assert q["answer"] is True and low < value <= high
             else:
-                went_right = bool(value > threshold)
-            assert q["answer"] is went_right
-            node = int(model.tree.right[node] if went_right else model.tree.left[node])
-        assert node == leaf
+                assert q["answer"] is bool(value > q["threshold"])
 
 
 def test_answers_say_yes_or_no_with_the_value(model: Model) -> None:
-    prior = prior_rows(500, seed=10)
-    leaf = int(model.tree.apply(prior.x[:1])[0])
-    for q in model.explainer.questions(leaf, prior.x[0].astype(np.float64).tolist()):
+    x = prior_rows(500, seed=10).x
+    leaf = int(model.tree.apply(x[:1])[0])
+    for q in model.explainer.questions(leaf, x[0].astype(np.float64).tolist()):
         assert q["said"].startswith("yes: " if q["answer"] else "no: ")
         assert q["question"].endswith("?")
 
 
-def test_a_split_on_whether_a_value_is_reported_reads_as_such() -> None:
-    x = np.array([[0.1], [0.2], [np.nan], [np.nan], [0.3], [np.nan]], dtype=np.float32)
-    y = ["a", "a", "b", "b", "a", "b"]
-    clf = DecisionTreeClassifier(random_state=0).fit(x, y)
-    assert np.isinf(clf.tree_.threshold[0])  # scikit-learn's "missing or not" split
-    explainer = Explainer(CompiledTree(artefact_of(clf, ["rx_crc_ratio"])))
-    leaf = int(clf.apply(np.array([[np.nan]], dtype=np.float32))[0])
-    (q,) = explainer.questions(leaf, [math.nan])
-    assert q["question"] == "Device does not report FCS error counts?"
-    assert q["answer"] is True
-    assert q["said"] == "yes: not reported"
-    assert q["threshold"] is None
+def test_two_splits_on_one_feature_read_as_one_range() -> None:
+    # A tree that needs 0.5 < x <= 1.5 for class "b" asks x twice on that path.
+    x = np.array([[0.0], [0.2], [1.0], [1.2], [2.0], [2.5]], dtype=np.float32)
+    clf = DecisionTreeClassifier(random_state=0).fit(x, ["a", "a", "b", "b", "c", "c"])
+    explainer = Explainer(CompiledTree(artefact_of(clf, ["speed_ratio"])))
+    leaf = int(clf.apply(np.array([[1.1]], dtype=np.float32))[0])
+    (q,) = explainer.questions(leaf, [1.1])
+    assert q["question"] == "Running at between 60% and 160% of the port's top speed?"
+    # scikit-learn's thresholds: midway between neighbouring values, as float64.
+    assert q["range"] == [float(clf.tree_.threshold[0]), float(clf.tree_.threshold[2])]
+    assert q["said"] == "yes: 110%"
+
+
+def test_a_feature_the_device_did_not_report_says_so() -> None:
+    x = np.array([[-13.0], [-12.0], [-5.0], [-4.0]], dtype=np.float32)  # split at -8.5
+    clf = DecisionTreeClassifier(random_state=0).fit(x, ["a", "a", "b", "b"])
+    explainer = Explainer(CompiledTree(artefact_of(clf, ["giant_ratio"])))
+    leaf = int(clf.apply(np.array([[-13.0]], dtype=np.float32))[0])
+    (q,) = explainer.questions(leaf, [-13.0], [False])
+    assert q["said"] == "no: not reported, so no evidence of it"
+    assert q["value"] is None
+    (q,) = explainer.questions(leaf, [-13.0], [True])
+    assert q["said"] == "no: none"
+    assert not math.isnan(q["value"] or 0.0)
+
+
+def test_a_split_at_the_floor_of_a_count_asks_whether_it_was_counted() -> None:
+    x = np.array([[-13.0], [-13.0], [-10.0], [-9.5]], dtype=np.float32)
+    clf = DecisionTreeClassifier(random_state=0).fit(x, ["a", "a", "b", "b"])
+    explainer = Explainer(CompiledTree(artefact_of(clf, ["late_collision_ratio"])))
+    leaf = int(clf.apply(np.array([[-10.0]], dtype=np.float32))[0])
+    (q,) = explainer.questions(leaf, [-10.0])
+    assert q["question"] == (
+        "Late collisions (after the first 512 bit times) counted, three or more?"
+    )
+    assert q["said"] == "yes: 1 in 10,000,000,000"

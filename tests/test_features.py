@@ -1,93 +1,83 @@
-"""The feature table: ratios with RFC 3635 denominators; missing counters stay missing."""
+"""The tree's inputs: evidence in units that carry across vendors and speeds, never a
+missing value to route on, and nothing from a handful of events."""
 
 from __future__ import annotations
 
 import math
+from typing import Any
 
+import numpy as np
 import pytest
 
-from linktriage.features import FEATURE_NAMES, feature_matrix, feature_table
+from linktriage.features import FEATURE_BY_NAME, FEATURE_NAMES, feature_rows
+from linktriage.measures import measure
 from linktriage.window import compute_windows
 
-from helpers import line, polls
+from helpers import grown, polls
 
-T5 = "2026-03-02T08:05:00Z"
 GIG = {"speed_bps": 10**9, "max_speed_bps": 10**9, "duplex": "full", "media": "copper"}
+TRAFFIC = {"ifHCInOctets": 10**10, "ifHCInUcastPkts": 10**7, "ifHCOutUcastPkts": 10**7}
 
 
-def features(before: dict[str, int], after: dict[str, int], **fields: object) -> dict[str, float]:
-    state = {**GIG, **fields}
-    table = feature_table(
-        compute_windows(polls(line(counters=before, **state), line(T5, counters=after, **state)))
-    )
-    return table.iloc[0].to_dict()
+def features(grow: dict[str, int], **fields: Any) -> tuple[dict[str, float], dict[str, bool]]:
+    rows = feature_rows(measure(compute_windows(polls(*grown(grow, **{**GIG, **fields})))).table)
+    return rows.values.iloc[0].to_dict(), rows.reported.iloc[0].to_dict()
 
 
-ZERO = {
-    "ifHCInOctets": 0,
-    "ifHCOutOctets": 0,
-    "ifHCInUcastPkts": 0,
-    "ifHCOutUcastPkts": 0,
-    "ifInErrors": 0,
-    "ifInDiscards": 0,
-    "ifOutDiscards": 0,
-    "dot3StatsFCSErrors": 0,
-    "dot3StatsAlignmentErrors": 0,
-}
+def test_a_port_reporting_only_traffic_gives_the_values_of_nothing_counted() -> None:
+    values, reported = features(TRAFFIC)
+    for name in FEATURE_NAMES:
+        assert not math.isnan(values[name]), name
+    assert values["ber_over_objective"] == FEATURE_BY_NAME["ber_over_objective"].neutral
+    assert values["light_margin_db"] == FEATURE_BY_NAME["light_margin_db"].neutral
+    assert not reported["ber_over_objective"] and not reported["light_margin_db"]
+    assert reported["quiet_fps"]
 
 
-def test_received_frames_count_discards_and_errors_beside_packets() -> None:
-    # RFC 3635 section 3.2.5: ifInDiscards and errored frames are not in ifInUcastPkts.
-    after = {**ZERO, "ifHCInUcastPkts": 99_000, "ifInDiscards": 900, "ifInErrors": 100,
-             "dot3StatsFCSErrors": 100}  # fmt: skip
-    f = features(ZERO, after)
-    assert f["rx_frames"] == 100_000
-    assert f["rx_crc_ratio"] == pytest.approx(100 / 100_000)
-    assert f["in_discard_ratio"] == pytest.approx(900 / 100_000)
+def test_errors_are_held_against_the_phys_objective_by_their_lower_bound() -> None:
+    # 1,000 errored frames in 1e7 of 1,000 octets: BER about 1.25e-8, over 100 times the
+    # 1000BASE-T objective of 1e-10 (IEEE 802.3 clause 40.6.1.3.1).
+    values, _ = features({**TRAFFIC, "dot3StatsFCSErrors": 1000})
+    assert 10**2 < 10 ** values["ber_over_objective"] < 125
 
 
-def test_sent_frames_already_include_discards() -> None:
-    # RFC 3635 section 3.2.5: ifOutDiscards are counted by ifOutUcastPkts.
-    after = {**ZERO, "ifHCOutUcastPkts": 50_000, "ifOutDiscards": 500}
-    f = features(ZERO, after)
-    assert f["out_discard_ratio"] == pytest.approx(0.01)
+def test_a_handful_of_errors_is_no_evidence_however_quiet_the_port() -> None:
+    # Nine errors in 10,000 frames is a large ratio, but a re-seated cord does that.
+    values, reported = features(
+        {"ifHCInOctets": 10**7, "ifHCInUcastPkts": 10**4, "ifHCOutUcastPkts": 10**4,
+         "dot3StatsFCSErrors": 9}
+    )  # fmt: skip
+    assert values["ber_over_objective"] == FEATURE_BY_NAME["ber_over_objective"].low
+    assert reported["ber_over_objective"]
 
 
-def test_utilisation_is_octets_over_line_rate() -> None:
-    after = {**ZERO, "ifHCInOctets": 3_750_000_000, "ifHCOutOctets": 375_000_000}
-    f = features(ZERO, after)
-    assert f["rx_utilisation"] == pytest.approx(0.1)  # 3.75e9 * 8 / (1e9 * 300)
-    assert f["tx_utilisation"] == pytest.approx(0.01)
+def test_runts_are_a_share_of_the_receive_errors() -> None:
+    values, _ = features({**TRAFFIC, "dot3StatsFCSErrors": 300, "etherStatsFragments": 100})
+    assert values["runt_share"] == pytest.approx(0.25)
 
 
-def test_a_device_without_ethernet_counters_has_no_fcs_ratio_rather_than_zero() -> None:
-    plain = {k: v for k, v in ZERO.items() if not k.startswith("dot3")}
-    after = {**plain, "ifHCInUcastPkts": 1000, "ifInErrors": 5}
-    f = features(plain, after)
-    assert math.isnan(f["rx_crc_ratio"])
-    assert f["rx_error_ratio"] == pytest.approx(5 / 1005)
+def test_one_flap_in_five_minutes_is_one_flap_an_hour_not_twelve() -> None:
+    values, _ = features(TRAFFIC, link_changes=10, last={"link_changes": 12})
+    assert values["flaps_per_hour"] == 1.0
 
 
-def test_traffic_balance_compares_the_quieter_direction_with_the_busier() -> None:
-    after = {**ZERO, "ifHCInUcastPkts": 10, "ifHCOutUcastPkts": 100_000}
-    assert features(ZERO, after)["traffic_balance"] == pytest.approx(1e-4)
+def test_discards_are_read_with_the_load_of_their_own_direction() -> None:
+    values, _ = features(
+        {"ifHCInOctets": 10**9, "ifHCOutOctets": 3 * 10**10, "ifHCInUcastPkts": 10**6,
+         "ifHCOutUcastPkts": 2 * 10**7, "ifOutDiscards": 20_000, "ifInDiscards": 5}
+    )  # fmt: skip
+    assert values["discard_utilisation"] == pytest.approx(0.8)
+    assert 10 ** values["discard_ratio"] == pytest.approx(1e-3)
 
 
-def test_optical_margin_is_received_power_over_the_low_alarm() -> None:
-    optics = {"rx_power_dbm": -12.0, "rx_power_low_alarm_dbm": -14.4}
-    f = features(ZERO, ZERO, media="fiber", optics=optics)
-    assert f["rx_power_margin_db"] == pytest.approx(2.4)
-    assert math.isnan(features(ZERO, ZERO)["rx_power_margin_db"])  # copper: no optics
-
-
-def test_speed_ratio_and_duplex_come_from_the_latest_poll() -> None:
-    f = features(ZERO, ZERO, speed_bps=10**8, duplex="half")
-    assert f["speed_ratio"] == pytest.approx(0.1)
-    assert f["half_duplex"] == 1.0
+def test_the_quiet_direction_is_read_in_frames_per_second() -> None:
+    values, _ = features({"ifHCInUcastPkts": 0, "ifHCOutUcastPkts": 300_000, "ifInErrors": 0})
+    assert values["quiet_fps"] == FEATURE_BY_NAME["quiet_fps"].low
+    values, _ = features({"ifHCInUcastPkts": 3_000, "ifHCOutUcastPkts": 300_000})
+    assert 10 ** values["quiet_fps"] == pytest.approx(10.0)
 
 
 def test_the_matrix_is_float32_in_feature_order() -> None:
-    table = feature_table(compute_windows(polls(line(), line(T5))))
-    x = feature_matrix(table)
-    assert x.dtype.name == "float32"
-    assert x.shape == (1, len(FEATURE_NAMES))
+    rows = feature_rows(measure(compute_windows(polls(*grown(TRAFFIC, **GIG)))).table)
+    x = rows.matrix()
+    assert x.dtype == np.float32 and x.shape == (1, len(FEATURE_NAMES))

@@ -9,6 +9,7 @@ import pytest
 
 from linktriage.chat.replies import DiagnosisReply
 from linktriage.errors import InputError, ModelError
+from linktriage.features import FEATURE_NAMES
 from linktriage.model.artefact import TreeArtefact
 from linktriage.model.learning import Outcome, labelled_rows, learn, split
 from linktriage.model.registry import Entry, Registry
@@ -44,7 +45,7 @@ def test_too_few_labels_cannot_be_both_learnt_from_and_checked() -> None:
 def test_the_split_holds_out_a_share_and_is_the_same_every_time(triage: Triage) -> None:
     labels = label_ports(triage, {"lark-east-idf2 port14": "cable_fault"}, times=5)
     rows = labelled_rows(labels)
-    assert rows.x.shape == (5, 16) and rows.x.dtype.name == "float32"
+    assert rows.x.shape == (5, len(FEATURE_NAMES)) and rows.x.dtype.name == "float32"
     keep, held = split(rows, seed=1)
     assert (len(keep), len(held)) == (3, 2)
     again_keep, _ = split(rows, seed=1)

@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import math
+
 import pytest
 
-from linktriage.messages import format_ratio, format_threshold, format_value, ratio_scale, sig
+from linktriage.messages import format_ratio, format_threshold, ratio_scale, sig, value_reader
 
 
 @pytest.mark.parametrize(
@@ -18,17 +20,24 @@ def test_two_significant_figures_without_exponents(x: float, text: str) -> None:
 def test_a_ratio_reads_against_the_power_of_ten_of_its_threshold() -> None:
     assert ratio_scale(1e-5) == 100_000
     assert ratio_scale(3.2e-6) == 1_000_000
-    assert format_threshold("ratio", 1e-5) == "1 in 100,000"
-    assert format_value("ratio", 4.1e-5, 1e-5) == "4.1 in 100,000"
+    assert format_threshold("log_ratio", -5.0) == "1 in 100,000"
+    assert value_reader("log_ratio", -5.0)(math.log10(4.1e-5)) == "4.1 in 100,000"
 
 
 def test_large_ratios_read_as_percentages() -> None:
     assert format_ratio(0.02, 100_000) == "2% of frames"
 
 
+def test_nothing_counted_reads_as_none() -> None:
+    assert value_reader("log_ratio", -5.0)(-13.0) == "none"
+    assert value_reader("log_fps", -1.0)(-3.0) == "none"
+
+
 def test_other_kinds_read_in_their_units() -> None:
-    assert format_value("share", 0.85, 0.5) == "85%"
-    assert format_value("db", -1.23, 2.0) == "-1.2 dB"
-    assert format_value("flag", 1.0, 0.5) == "half duplex"
-    assert format_value("rate", 12.0, 3.0) == "12"
-    assert format_value("ratio", float("nan"), 1e-5) == "not reported"
+    assert value_reader("share", 0.5)(0.85) == "85%"
+    assert value_reader("db", 2.0)(-1.23) == "-1.2 dB"
+    assert value_reader("flag", 0.5)(1.0) == "half duplex"
+    assert value_reader("per_hour", 3.0)(12.0) == "12"
+    assert value_reader("times", 0.5)(math.log10(30.0)) == "30 times"
+    assert value_reader("log_fps", -1.0)(math.log10(0.05)) == "0.05 frames/s"
+    assert format_threshold("times", 0.0) == "1 times"

@@ -9,7 +9,7 @@ import linktriage
 PUBLIC = [
     "DiagnosisBatch", "DiagnosisRecord", "LineProblem", "LinktriageError", "Model",
     "PollTable", "Snapshot", "Verdict", "__version__", "compute_windows", "diagnose",
-    "feature_table", "read_snapshot_file", "read_snapshots",
+    "feature_rows", "measure", "read_snapshot_file", "read_snapshots",
 ]  # fmt: skip
 
 

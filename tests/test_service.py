@@ -38,7 +38,7 @@ def test_a_port_with_no_history_gets_two_polls_a_quick_window_apart(triage: Tria
     assert len(triage.store.polls_since(0.0, device="lark-east-idf2", port="port14")) == 2
     stored = triage.store.diagnosis(reply.diagnosis_id)
     assert stored is not None and stored.verdict == "cable_fault"
-    assert stored.features["rx_error_ratio"] is not None
+    assert stored.features["ber_over_objective"] is not None
 
 
 def test_recent_history_needs_one_fresh_poll_and_no_wait(triage: Triage, clock: DemoClock) -> None:

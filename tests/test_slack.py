@@ -112,8 +112,9 @@ def test_a_signed_slash_command_posts_the_verdict_to_the_channel(
     assert posted.params["channel"] == CHANNEL
     blocks = posted.params["blocks"]
     assert blocks[0]["text"]["text"] == "lark-east-idf2 port14: cable or connector fault"
-    questions = next(b for b in blocks if b["type"] == "section")["text"]["text"]
-    assert questions.startswith("*Questions asked*\n1. ")
+    sections = [b["text"]["text"] for b in blocks if b["type"] == "section"]
+    assert sections[0].startswith("*Evidence*\n\u2022 bit error ratio ")
+    assert any(text.startswith("*Questions asked*\n1. ") for text in sections)
     stored = triage.store.diagnosis_for_message(CHANNEL, "1772438401.000100")
     assert stored is not None and stored.verdict == "cable_fault"
 

@@ -22,7 +22,8 @@ _EXPORTS = {
     "Verdict": "linktriage.verdicts",
     "compute_windows": "linktriage.window",
     "diagnose": "linktriage.diagnosis",
-    "feature_table": "linktriage.features",
+    "feature_rows": "linktriage.features",
+    "measure": "linktriage.measures",
     "read_snapshot_file": "linktriage.snapshot",
     "read_snapshots": "linktriage.snapshot",
 }

@@ -200,7 +200,9 @@ def train(
         outcome = learn(labels, current.artefact, cfg)
         artefact, evaluation, promote = outcome.candidate, outcome.evaluation(), outcome.promoted
         click.echo(
-            f"learnt from {outcome.trained_on} labels; on {outcome.held_out} held out the "
+            f"learnt from {outcome.trained_on} labels"
+            + (f" ({outcome.older} older ones left out)" if outcome.older else "")
+            + f"; on {outcome.held_out} held out the "
             f"candidate scores {outcome.candidate_score:.2f}, the current model "
             f"{current.version} {outcome.current_score:.2f}: "
             + ("promoted" if promote else "kept, not promoted"),

@@ -240,7 +240,8 @@ def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame
     params["cleared"] = False
     # Office hours on gigabit desk outlets: every healthy port carries enough to be judged.
     background = [row for row, p in enumerate(ports) if p.planted is None]
-    for key, value in {**_COPPER_1G, "half_duplex": 0.0, "mtu": 1500.0}.items():
+    quiet_line = {"half_duplex": 0.0, "mtu": 1500.0, "rx_ber": 1e-13, "burst_errors": 0.0}
+    for key, value in {**_COPPER_1G, **quiet_line}.items():
         params.loc[background, key] = value
     params.loc[background, "rx_util"] = rng.uniform(0.02, 0.25, len(background))
     params.loc[background, "tx_util"] = rng.uniform(0.02, 0.25, len(background))

@@ -1,8 +1,10 @@
 """The diagnosis service: from a poll table to a verdict per port that an engineer can audit.
 
-polls -> windows -> features -> guards -> pruned tree -> records. The whole batch is
-computed column-wise; one record per port (plain dicts, the shape of ``diagnose --json``)
-is built only when asked for, with the per-leaf wording worked out once.
+polls -> windows -> measures -> features -> physics -> guards -> pruned tree -> records. The
+physics says which verdicts each port's readings allow (each rule with its reason); the
+tree ranks among those; where its first choice is ruled out the record says by which rule.
+The whole batch is computed column-wise; one record per port (plain dicts, the shape of
+``diagnose --json``) is built only when asked for, with the per-node wording worked out once.
 """
 
 from __future__ import annotations
@@ -17,31 +19,51 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
-from linktriage.features import FEATURE_NAMES, feature_matrix, feature_table
+from linktriage.errors import ModelError
+from linktriage.evidence import EvidenceRecord, evidence_for
+from linktriage.features import FEATURE_NAMES, FeatureRows, feature_rows
 from linktriage.guards import apply_guards
+from linktriage.measures import measure
 from linktriage.messages import (
     GUARD_POLLS,
     GUARD_TRAFFIC,
     GUARD_UP,
+    NO_FIT_NOTE,
     format_ratio,
     ratio_scale,
     traffic_said,
 )
 from linktriage.model.artefact import CompiledTree, TreeArtefact
 from linktriage.model.explain import Explainer, QuestionRecord, rounded
-from linktriage.phy import ber_objective, estimate_ber, phy_name
+from linktriage.phy import phy_name
+from linktriage.physics import Allowed, allowed
 from linktriage.polls import PollTable
-from linktriage.verdicts import GUIDES, Verdict, cautions, next_checks
+from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict, cautions, next_checks
 from linktriage.window import DEFAULT_MAX_WINDOW_S, WindowTable, compute_windows
 
 
 class BitErrorRecord(TypedDict):
-    """The bit error ratio implied by the FCS errors, against the PHY's IEEE 802.3 objective."""
+    """The bit error ratio implied by the receive errors, against the PHY's objective.
+
+    ``exceeds`` is true only when the ratio is significantly over the objective: its 95%
+    lower bound is above it, from enough errored frames to count.
+    """
 
     phy: str
     estimate: float
+    lower: float
+    upper: float
     objective: float
+    errors: float
     exceeds: bool
+
+
+class RuledOutRecord(TypedDict):
+    """The tree's first choice, when the physics ruled it out, and the rule that did."""
+
+    verdict: str
+    needs: str
+    source: str
 
 
 class DiagnosisRecord(TypedDict):
@@ -53,6 +75,8 @@ class DiagnosisRecord(TypedDict):
     title: str
     confidence: float
     questions: list[QuestionRecord]
+    evidence: list[EvidenceRecord]
+    ruled_out: RuledOutRecord | None
     next_checks: list[str]
     cautions: list[str]
     model_version: str
@@ -72,32 +96,45 @@ class Model:
         source: str = "the packaged default model",
         trained_at: float | None = None,
     ) -> None:
+        if tuple(artefact.features) != FEATURE_NAMES:
+            raise ModelError(
+                f"{source} was trained on other inputs than this release computes",
+                hint="Rebuild it with `linktriage train`.",
+            )
         self.artefact = artefact
         self.source = source  # where it was loaded from, for the model card
         self.trained_at = trained_at  # None for the packaged model
         self.tree = CompiledTree(artefact)
         self.explainer = Explainer(self.tree)
+        # Column j of the physics mask (TREE_VERDICTS order) for each class of the tree.
+        self.class_columns = np.array(
+            [TREE_VERDICTS.index(Verdict(c)) for c in artefact.classes], np.intp
+        )
 
     @property
     def version(self) -> str:
         return self.artefact.version
 
-    @property
-    def resolution(self) -> float:
-        return self.artefact.training.guard_resolution
-
     @classmethod
     def load(cls, path: str | Path | None = None) -> Model:
         """The model at ``path``; else the current one of the data directory's registry
-        (``linktriage train``, ``linktriage model --use``); else the packaged one."""
+        (``linktriage train``, ``linktriage model --use``); else the packaged one. A kept
+        model an earlier release built is passed over for the packaged one, and the card
+        says so."""
         from linktriage.model.registry import Registry
 
         if path is not None:
             return cls(TreeArtefact.load(path), source=str(path))
-        kept = Registry().current()
-        if kept is not None:
-            artefact, entry = kept
-            return cls(artefact, source="the current kept model", trained_at=entry.trained_at)
+        try:
+            kept = Registry().current()
+            if kept is not None:
+                artefact, entry = kept
+                return cls(artefact, source="the current kept model", trained_at=entry.trained_at)
+        except ModelError as exc:
+            return cls(
+                TreeArtefact.default(),
+                source=f"the packaged default model (the kept one is unusable: {exc.message})",
+            )
         return cls(TreeArtefact.default())
 
 
@@ -118,6 +155,19 @@ def _flags(values: npt.NDArray[np.float64]) -> list[bool | None]:
     return [None if v != v else bool(v) for v in values.tolist()]  # v != v: NaN
 
 
+class _Row:
+    """One port's measures, read by name (evidence wording reads a few of them)."""
+
+    __slots__ = ("columns", "i")
+
+    def __init__(self, columns: dict[str, list[float]], i: int) -> None:
+        self.columns = columns
+        self.i = i
+
+    def __getitem__(self, key: str) -> float:
+        return self.columns[key][self.i]
+
+
 @dataclass
 class DiagnosisBatch:
     """Every port's verdict, computed column-wise; records are built on demand.
@@ -127,22 +177,26 @@ class DiagnosisBatch:
 
     model: Model
     windows: WindowTable
-    table: pd.DataFrame
+    measures: pd.DataFrame
+    features: FeatureRows
+    allowed: Allowed
     device: list[str]
     port: list[str]
     verdict: list[Verdict]
     confidence: list[float]  # rounded to 4 places, as reported
-    leaf: list[int]  # -1 where a guard answered
-    values: list[list[float]]  # the feature columns, as measured (NaN: not reported)
+    node: list[int]  # the tree node whose classes decided; -1 where a guard answered
+    ruled_out: list[Verdict | None]  # the tree's first choice where the physics ruled it out
+    values: list[list[float]]  # the feature columns, as the tree compared them
+    reported: list[list[bool]]  # which features the device's counters gave
     fiber: list[bool | None]
     poe: list[bool | None]
     phy: list[str | None]
-    ber_estimate: list[float]
-    frames: list[float]  # frames seen in both directions over the window
-    errors: list[float]  # error events over the window
     window_s: list[float]
     polls: list[int]
     note: list[str | None]
+
+    def __post_init__(self) -> None:
+        self._columns: dict[str, list[float]] | None = None
 
     def __len__(self) -> int:
         return len(self.verdict)
@@ -162,13 +216,19 @@ class DiagnosisBatch:
         """What the checks and cautions of row ``i`` depend on: verdict, fiber, PoE."""
         return self.verdict[i], self.fiber[i], self.poe[i]
 
+    def row(self, i: int) -> _Row:
+        """The measures of the port in row ``i``."""
+        if self._columns is None:
+            self._columns = {c: self.measures[c].tolist() for c in self.measures.columns}
+        return _Row(self._columns, i)
+
     def record(self, i: int) -> DiagnosisRecord:
         """The full diagnosis of the port in row ``i``."""
         verdict = self.verdict[i]
         checks, warn = advice(*self.advice_key(i))
-        leaf = self.leaf[i]
-        if leaf >= 0:
-            questions = self.model.explainer.questions(leaf, self.values[i])
+        node = self.node[i]
+        if node >= 0:
+            questions = self.model.explainer.questions(node, self.values[i], self.reported[i])
         else:
             questions = self._guard_questions(i, verdict)
         return {
@@ -178,6 +238,8 @@ class DiagnosisBatch:
             "title": GUIDES[verdict].title,
             "confidence": self.confidence[i],
             "questions": questions,
+            "evidence": self.evidence(i),
+            "ruled_out": self.ruled_out_record(i),
             "next_checks": list(checks),
             "cautions": list(warn),
             "model_version": self.model.version,
@@ -187,20 +249,43 @@ class DiagnosisBatch:
             "note": self.note[i],
         }
 
+    def evidence(self, i: int) -> list[EvidenceRecord]:
+        """The readings the verdict of row ``i`` rests on."""
+        verdict = self.verdict[i]
+        if verdict is Verdict.LINK_DOWN:
+            said = f"the port is {self.windows.oper_status[i]} at the latest poll"
+            value = str(self.windows.oper_status[i])
+            return [_evidence("oper_status", value, "state", None, "RFC 2863 ifOperStatus", said)]
+        if verdict is Verdict.NO_DATA:
+            said = self.note[i] or "fewer than two usable polls"
+            return [_evidence("polls", float(self.polls[i]), "polls", 2.0, "common practice", said)]
+        return evidence_for(verdict, self.row(i), self.phy[i])
+
+    def ruled_out_record(self, i: int) -> RuledOutRecord | None:
+        first = self.ruled_out[i]
+        if first is None:
+            return None
+        rule = self.allowed.rule_against(i, first)
+        if rule is None:
+            return None
+        return {"verdict": first.value, "needs": rule.needs, "source": rule.source}
+
     def bit_errors(self, i: int) -> BitErrorRecord | None:
         """The BER estimate of row ``i`` where its verdict rests on bit errors."""
         phy = self.phy[i]
-        objective = ber_objective(phy)
-        estimate = self.ber_estimate[i]
-        if self.verdict[i] not in _BER_VERDICTS or phy is None or objective is None:
+        if self.verdict[i] not in _BER_VERDICTS or phy is None:
             return None
-        if estimate != estimate:  # NaN: no FCS or error counts to estimate from
+        r = self.row(i)
+        if r["fer"] != r["fer"]:  # NaN: no receive error counts to estimate from
             return None
         return {
             "phy": phy,
-            "estimate": float(f"{estimate:.3g}"),
-            "objective": objective,
-            "exceeds": estimate > objective,
+            "estimate": float(f"{r['ber']:.3g}"),
+            "lower": float(f"{r['ber_lo']:.3g}"),
+            "upper": float(f"{r['ber_hi']:.3g}"),
+            "objective": r["objective"],
+            "errors": r["rx_errors"],
+            "exceeds": bool(self.allowed.signs.errors[i]),
         }
 
     def _guard_questions(self, i: int, verdict: Verdict) -> list[QuestionRecord]:
@@ -210,12 +295,18 @@ class DiagnosisBatch:
         if verdict is Verdict.NO_DATA:
             said = f"no: {self.note[i]}"
             return [_q(GUARD_POLLS, False, "polls", float(self.polls[i]), 2.0, said)]
-        resolution = self.model.resolution
-        frames, errors = self.frames[i], self.errors[i]
-        needed = frames_needed(resolution)
+        r = self.row(i)
+        resolution, needed = r["resolution"], r["frames_needed"]
         text = GUARD_TRAFFIC.format(t=format_ratio(resolution, ratio_scale(resolution)))
-        said = traffic_said(frames, errors, self.window_s[i], needed)
-        return [_q(text, False, "frames", rounded(frames), needed, said)]
+        said = traffic_said(r["rx_frames"], r["rx_errors"], self.window_s[i], needed)
+        return [_q(text, False, "rx_frames", rounded(r["rx_frames"]), needed, said)]
+
+
+def headline(record: DiagnosisRecord) -> str:
+    """The one reading a verdict rests on most, for one-line summaries; else its note."""
+    if record["evidence"]:
+        return record["evidence"][0]["said"]
+    return record["note"] or ""
 
 
 def _q(
@@ -231,9 +322,17 @@ def _q(
     }
 
 
-def frames_needed(resolution: float) -> float:
-    """Frames a clean window needs before its 95% upper bound falls below ``resolution``."""
-    return float(np.ceil(np.log(0.05) / np.log1p(-resolution)))
+def _evidence(
+    feature: str, value: float | str, unit: str, reference: float | None, source: str, said: str
+) -> EvidenceRecord:
+    return {
+        "feature": feature,
+        "value": value,
+        "unit": unit,
+        "reference": reference,
+        "source": source,
+        "said": said,
+    }
 
 
 def _phy_names(speed: npt.NDArray[np.float64], fiber: npt.NDArray[np.float64]) -> list[str | None]:
@@ -244,46 +343,66 @@ def _phy_names(speed: npt.NDArray[np.float64], fiber: npt.NDArray[np.float64]) -
     return [names[c] for c in codes.ravel()]
 
 
+def _joined(*notes: str) -> str | None:
+    text = "; ".join(n for n in notes if n)
+    return text or None
+
+
 def diagnose(
     polls: PollTable, model: Model, *, max_window_s: float = DEFAULT_MAX_WINDOW_S
 ) -> DiagnosisBatch:
     """Diagnose every port in ``polls`` with ``model``."""
     windows = compute_windows(polls, max_window_s=max_window_s)
-    table = feature_table(windows)
-    guarded_verdict = apply_guards(windows, table, resolution=model.resolution)
-    x = feature_matrix(table)
-    leaf = model.tree.apply(x)
-    proba = model.tree.proba[leaf]
-    best = np.argmax(proba, axis=1)
-    confidence = proba[np.arange(len(best)), best]
-    guarded = np.array([v is not None for v in guarded_verdict], np.bool_)
-    verdict = [
-        Verdict(g if g is not None else t)
-        for g, t in zip(guarded_verdict, model.tree.classes[best], strict=True)
-    ]
-    confidence = np.where(guarded, 1.0, confidence).round(4)
-    leaf = np.where(guarded, -1, leaf)
+    measured = measure(windows)
+    m = measured.table
+    rows = feature_rows(m)
+    ok = allowed(m)
+    guarded = apply_guards(windows, ok)
 
-    phy = _phy_names(table["speed_bps"].to_numpy(), table["fiber"].to_numpy())
-    fer = table["rx_crc_ratio"].fillna(table["rx_error_ratio"]).to_numpy()
-    ber = estimate_ber(fer, table["rx_octets_per_frame"].to_numpy() * 8.0)
+    tree = model.tree
+    leaf = tree.apply(rows.matrix())
+    mask = ok.mask[:, model.class_columns]
+    choice = tree.choose(leaf, mask)
+    # Nothing allowed, yet frames enough to judge: no verdict fits every reading, and the
+    # tree's own answer stands, with a note saying so.
+    unfit = choice.klass < 0
+    klass = np.where(unfit, choice.first, choice.klass)
+    node = np.where(unfit, leaf, choice.node)
+    confidence = np.where(unfit, tree.proba[leaf, choice.first], choice.confidence)
+    first_ruled_out = ~mask[np.arange(len(leaf)), choice.first] & ~unfit
+
+    is_guarded = np.array([g is not None for g in guarded], np.bool_)
+    verdict = [
+        Verdict(g if g is not None else c)
+        for g, c in zip(guarded, tree.classes[klass], strict=True)
+    ]
+    first = tree.classes[choice.first]
+    ruled_out = [
+        Verdict(f) if r and not g else None
+        for f, r, g in zip(first, first_ruled_out, is_guarded, strict=True)
+    ]
+    notes = [
+        _joined(w, c, NO_FIT_NOTE if u and not g else "")
+        for w, c, u, g in zip(windows.note, measured.counter_faults, unfit, is_guarded, strict=True)
+    ]
     return DiagnosisBatch(
         model=model,
         windows=windows,
-        table=table,
+        measures=m,
+        features=rows,
+        allowed=ok,
         device=[str(d) for d in windows.device],
         port=[str(p) for p in windows.port],
         verdict=verdict,
-        confidence=confidence.tolist(),
-        leaf=leaf.tolist(),
-        values=table[list(FEATURE_NAMES)].to_numpy(np.float64).tolist(),
-        fiber=_flags(windows.state["fiber"]),
+        confidence=np.where(is_guarded, 1.0, confidence).round(4).tolist(),
+        node=np.where(is_guarded, -1, node).tolist(),
+        ruled_out=ruled_out,
+        values=rows.values.to_numpy(np.float64).tolist(),
+        reported=rows.reported.to_numpy().tolist(),
+        fiber=_flags(m["fiber"].to_numpy()),
         poe=_flags(windows.state["poe"]),
-        phy=phy,
-        ber_estimate=ber.tolist(),
-        frames=table["frames"].tolist(),
-        errors=table["error_events"].tolist(),
+        phy=_phy_names(m["speed_bps"].to_numpy(), m["fiber"].to_numpy()),
         window_s=windows.window_s.tolist(),
         polls=windows.polls_used.tolist(),
-        note=[str(n) or None for n in windows.note],
+        note=notes,
     )

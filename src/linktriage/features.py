@@ -1,12 +1,17 @@
-"""The feature table: one row per port of ratios that mean the same at 10 Mb/s and 100 Gb/s.
+"""The tree's inputs: one row per port of evidence that means the same on every vendor and speed.
 
-Raw counts grow with speed, load and window length; ratios do not, so one tree serves every
-port. Denominators follow RFC 3635 section 3.2.5: ``ifInDiscards`` and errored frames are
-not in ``ifIn*Pkts``, so frames seen on receive are packets + discards + errors, while
-``ifOutDiscards`` and ``ifOutErrors`` are already inside ``ifOut*Pkts``.
+Each feature is a physical quantity read off the measures (:mod:`linktriage.measures`): the
+bit error ratio against the PHY's own IEEE 802.3 objective, with its confidence bound
+rather than a point ratio; runts as a share of receive errors; late collisions and frames
+too long per frame; light against the module's own thresholds; and so on. Raw counts grow
+with speed, load and window; these do not, so one tree serves 10 Mb/s and 100 Gb/s ports.
 
-A counter the device does not report stays NaN through every ratio built on it; the tree
-routes NaN by what it learned (scikit-learn trees accept missing values, since 1.3).
+Evidence must be significant in counts: a ratio built on fewer events than
+:data:`linktriage.measures.MIN_EVENTS` (three late collisions) reads as nothing counted.
+A counter the device does not report gives no evidence, and the tree sees exactly that: the
+value of "nothing counted" (no errors, full duplex, light well in range), never a missing
+value it could route on. Which counters a vendor reports says nothing about a link's
+health, so the tree must not learn from it; the answer still says what was not reported.
 """
 
 from __future__ import annotations
@@ -14,120 +19,111 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 
+from linktriage.measures import MIN_EVENTS
+from linktriage.physics import MIN_LATE_COLLISIONS
 from linktriage.polls import FloatArray
-from linktriage.window import WindowTable
 
 
 @dataclass(frozen=True, slots=True)
 class Feature:
-    """A feature column: its name and how its values read (for questions and reports)."""
+    """A tree input: its name, how its values read, and its value when nothing was counted."""
 
     name: str
-    kind: str  # "ratio" (per frame), "share" (0..1), "rate" (per hour), "flag", "db"
+    kind: str  # "times" (log10 of a multiple), "log_ratio" (log10 per frame), "share",
+    #            "flag", "db", "per_hour", "log_fps"
+    neutral: float
+    low: float  # values are clipped to [low, high]
+    high: float
 
 
 FEATURES: tuple[Feature, ...] = (
-    Feature("rx_crc_ratio", "ratio"),
-    Feature("rx_symbol_ratio", "ratio"),
-    Feature("rx_error_ratio", "ratio"),
-    Feature("runt_ratio", "ratio"),
-    Feature("giant_ratio", "ratio"),
-    Feature("late_collision_ratio", "ratio"),
-    Feature("collision_ratio", "ratio"),
-    Feature("in_discard_ratio", "ratio"),
-    Feature("out_discard_ratio", "ratio"),
-    Feature("rx_utilisation", "share"),
-    Feature("tx_utilisation", "share"),
-    Feature("traffic_balance", "share"),
-    Feature("link_changes_per_hour", "rate"),
-    Feature("speed_ratio", "share"),
-    Feature("half_duplex", "flag"),
-    Feature("rx_power_margin_db", "db"),
+    Feature("ber_over_objective", "times", -4.0, -4.0, 8.0),
+    Feature("runt_share", "share", 0.0, 0.0, 1.0),
+    Feature("late_collision_ratio", "log_ratio", -13.0, -13.0, 0.0),
+    Feature("collision_ratio", "log_ratio", -13.0, -13.0, 0.0),
+    Feature("half_duplex", "flag", 0.0, 0.0, 1.0),
+    Feature("speed_ratio", "share", 1.0, 0.0, 1.0),
+    Feature("giant_ratio", "log_ratio", -13.0, -13.0, 0.0),
+    Feature("light_margin_db", "db", 20.0, -20.0, 20.0),
+    Feature("tx_margin_db", "db", 20.0, -20.0, 20.0),
+    Feature("flaps_per_hour", "per_hour", 0.0, 0.0, 1000.0),
+    Feature("quiet_fps", "log_fps", 9.0, -3.0, 9.0),
+    Feature("discard_ratio", "log_ratio", -13.0, -13.0, 0.0),
+    Feature("discard_utilisation", "share", 0.0, 0.0, 1.0),
 )
 FEATURE_NAMES: tuple[str, ...] = tuple(f.name for f in FEATURES)
 FEATURE_KIND: dict[str, str] = {f.name: f.kind for f in FEATURES}
-
-#: Columns kept beside the features for the guards and the bit-error estimate.
-AUX_NAMES: tuple[str, ...] = (
-    "rx_frames",
-    "tx_frames",
-    "frames",
-    "error_events",
-    "rx_octets_per_frame",
-    "speed_bps",
-    "fiber",
-    "poe",
-)
+FEATURE_BY_NAME: dict[str, Feature] = {f.name: f for f in FEATURES}
 
 
-def _nansum(*arrays: FloatArray) -> FloatArray:
-    """Sum treating NaN as absent; NaN only where every part is NaN."""
-    stack = np.stack(arrays)
-    return np.where(np.isnan(stack).all(axis=0), np.nan, np.nansum(stack, axis=0))
-
-
-def _zero(a: FloatArray) -> FloatArray:
-    return np.nan_to_num(a, nan=0.0)
-
-
-def _ratio(num: FloatArray, den: FloatArray) -> FloatArray:
-    """num / den, NaN where either is unknown or the denominator is zero."""
+def _log10(x: FloatArray) -> FloatArray:
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(den > 0, num / den, np.nan)
+        return np.log10(x)
 
 
-def feature_table(w: WindowTable) -> pd.DataFrame:
-    """Features (:data:`FEATURE_NAMES`) and helper columns (:data:`AUX_NAMES`) per port."""
-    d = w.deltas
-    rx_pkts = _nansum(d["in_ucast"], d["in_mcast"], d["in_bcast"])
-    tx_pkts = _nansum(d["out_ucast"], d["out_mcast"], d["out_bcast"])
-    crc = _nansum(d["fcs_errors"], d["alignment_errors"])
-    dot3_bad = _nansum(crc, d["frame_too_longs"], d["mac_receive_errors"])
-    # ifInErrors is the sum of the dot3 receive errors (RFC 3635 section 3.2.10).
-    rx_bad = np.where(np.isnan(d["in_errors"]), dot3_bad, d["in_errors"])
-    rx_seen = rx_pkts + _zero(rx_bad) + _zero(d["in_discards"])
-    tx_seen = tx_pkts
-    collisions = _nansum(
-        d["single_collisions"], d["multiple_collisions"], d["excessive_collisions"]
-    )
-    speed = w.state["speed_bps"]
-    line_octets = speed * w.window_s / 8.0
-    hours = w.window_s / 3600.0
-    flaps = np.where(np.isnan(w.link_changes), w.status_changes, w.link_changes)
-    busier = np.fmax(rx_seen, tx_seen)
-    quieter = np.fmin(rx_seen, tx_seen)
+@dataclass(frozen=True, slots=True)
+class FeatureRows:
+    """The tree's inputs per port, and which of them the device's counters actually gave."""
 
-    columns = {
-        "rx_crc_ratio": _ratio(crc, rx_seen),
-        "rx_symbol_ratio": _ratio(d["symbol_errors"], rx_seen),
-        "rx_error_ratio": _ratio(rx_bad, rx_seen),
-        "runt_ratio": _ratio(_nansum(d["undersize"], d["fragments"]), rx_seen),
-        "giant_ratio": _ratio(d["frame_too_longs"], rx_seen),
-        "late_collision_ratio": _ratio(d["late_collisions"], tx_seen),
-        "collision_ratio": _ratio(collisions, tx_seen),
-        "in_discard_ratio": _ratio(d["in_discards"], rx_seen),
-        "out_discard_ratio": _ratio(d["out_discards"], tx_seen),
-        "rx_utilisation": _ratio(d["in_octets"], line_octets),
-        "tx_utilisation": _ratio(d["out_octets"], line_octets),
-        "traffic_balance": _ratio(quieter, busier),
-        "link_changes_per_hour": _ratio(flaps, hours),
-        "speed_ratio": _ratio(speed, w.state["max_speed_bps"]),
-        "half_duplex": w.state["half_duplex"],
-        "rx_power_margin_db": w.optics["rx_power_dbm"] - w.optics["rx_power_low_alarm_dbm"],
-        "rx_frames": rx_seen,
-        "tx_frames": tx_seen,
-        "frames": _zero(rx_seen) + _zero(tx_seen),
-        "error_events": _zero(rx_bad) + _zero(d["late_collisions"]),
-        "rx_octets_per_frame": _ratio(d["in_octets"], rx_pkts),
-        "speed_bps": speed,
-        "fiber": w.state["fiber"],
-        "poe": w.state["poe"],
+    values: pd.DataFrame  # FEATURE_NAMES columns, float64, never NaN
+    reported: pd.DataFrame  # FEATURE_NAMES columns, bool
+
+    def matrix(self) -> npt.NDArray[np.float32]:
+        """The feature columns as the float32 matrix trees compare on (scikit-learn's dtype)."""
+        return np.ascontiguousarray(self.values.to_numpy(np.float32))
+
+
+def _counted(ratio: FloatArray, count: FloatArray, least: float) -> FloatArray:
+    """``ratio`` where ``count`` reaches ``least``; zero where fewer were counted (a stray
+    few are no evidence, however large their ratio); NaN where nothing was reported."""
+    return np.where(np.isnan(count), np.nan, np.where(count >= least, ratio, 0.0))
+
+
+def feature_rows(m: pd.DataFrame) -> FeatureRows:
+    """Every feature of :data:`FEATURES` from the measures of each port."""
+    errors = m["rx_errors"].to_numpy()
+    ber_lo = _counted(m["ber_lo"].to_numpy(), errors, MIN_EVENTS)
+    hours = m["window_s"].to_numpy() / 3600.0
+    quiet = np.fmin(m["rx_fps"].to_numpy(), m["tx_fps"].to_numpy())
+    runts = m["runts"].to_numpy()
+    raw = {
+        "ber_over_objective": _log10(ber_lo / m["objective"].to_numpy()),
+        "runt_share": _counted(m["runt_share"].to_numpy(), runts, MIN_EVENTS),
+        "late_collision_ratio": _log10(
+            _counted(
+                m["late_ratio"].to_numpy(), m["late_collisions"].to_numpy(), MIN_LATE_COLLISIONS
+            )
+        ),
+        "collision_ratio": _log10(
+            _counted(m["collision_ratio"].to_numpy(), m["collisions"].to_numpy(), MIN_EVENTS)
+        ),
+        "half_duplex": m["half_duplex"].to_numpy(),
+        "speed_ratio": m["speed_ratio"].to_numpy(),
+        "giant_ratio": _log10(
+            _counted(m["giant_ratio"].to_numpy(), m["giants"].to_numpy(), MIN_EVENTS)
+        ),
+        "light_margin_db": m["light_margin_db"].to_numpy(),
+        "tx_margin_db": m["tx_margin_db"].to_numpy(),
+        # Down/up cycles per hour, over an hour at least: one flap in a five-minute window
+        # is one flap, not twelve an hour.
+        "flaps_per_hour": m["link_changes"].to_numpy() / 2.0 / np.maximum(hours, 1.0),
+        "quiet_fps": _log10(quiet),
+        "discard_ratio": _log10(
+            _counted(m["discard_ratio"].to_numpy(), m["discards"].to_numpy(), MIN_EVENTS)
+        ),
+        "discard_utilisation": m["discard_util"].to_numpy(),
     }
-    return pd.DataFrame(columns, columns=[*FEATURE_NAMES, *AUX_NAMES])
-
-
-def feature_matrix(table: pd.DataFrame) -> np.ndarray:
-    """The feature columns as the float32 matrix trees compare on (scikit-learn's dtype)."""
-    return np.ascontiguousarray(table[list(FEATURE_NAMES)].to_numpy(np.float32))
+    values = {}
+    reported = {}
+    for f in FEATURES:
+        v = np.asarray(raw[f.name], np.float64)
+        known = ~np.isnan(v)
+        reported[f.name] = known
+        values[f.name] = np.clip(np.where(known, v, f.neutral), f.low, f.high)
+    return FeatureRows(
+        pd.DataFrame(values, columns=list(FEATURE_NAMES)),
+        pd.DataFrame(reported, columns=list(FEATURE_NAMES)),
+    )

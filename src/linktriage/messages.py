@@ -7,60 +7,91 @@ and cautions live beside the verdict ids in :mod:`linktriage.verdicts`.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
+from typing import Any
 
 from linktriage.counters import FRAME_OVERHEAD_OCTETS, MIN_FRAME_OCTETS, SLOT_TIME_BITS
 
-#: For each feature: the question asked when the tree splits on it (``{t}`` is the
-#: threshold as it reads), answered "yes" when the measured value is above the threshold,
-#: and the noun used when a split asks only whether the device reports it at all.
+#: For each feature: the question asked when the tree splits on it once (``{t}`` is the
+#: threshold as it reads), answered "yes" when the measured value is above the threshold;
+#: and the question when the path bounds it on both sides (``{lo}`` < value <= ``{hi}``).
 QUESTIONS: dict[str, tuple[str, str]] = {
-    "rx_crc_ratio": ("More than {t} received frames fail the FCS check?", "FCS error counts"),
-    "rx_symbol_ratio": ("Symbol errors on more than {t} received frames?", "symbol error counts"),
-    "rx_error_ratio": (
-        "More than {t} received frames counted as errors (ifInErrors)?",
-        "receive error counts",
+    "ber_over_objective": (
+        "Bit error ratio, at the low end of its 95% range, over {t} the PHY's objective?",
+        "Bit error ratio, at the low end of its 95% range, between {lo} and {hi} the PHY's "
+        "objective?",
     ),
-    "runt_ratio": (
-        f"More than {{t}} received frames are runts, shorter than {MIN_FRAME_OCTETS} octets?",
-        "runt counts (RMON)",
-    ),
-    "giant_ratio": (
-        "More than {t} received frames too long for this port "
-        f"(its MTU plus {FRAME_OVERHEAD_OCTETS} octets of header and FCS)?",
-        "frame-too-long counts",
+    "runt_share": (
+        f"Runts (frames under {MIN_FRAME_OCTETS} octets) more than {{t}} of the receive errors?",
+        f"Runts (frames under {MIN_FRAME_OCTETS} octets) between {{lo}} and {{hi}} of the "
+        "receive errors?",
     ),
     "late_collision_ratio": (
         f"Late collisions (after the first {SLOT_TIME_BITS} bit times) on more than {{t}} "
         "sent frames?",
-        "late collisions",
+        f"Late collisions (after the first {SLOT_TIME_BITS} bit times) on between {{lo}} and "
+        "{hi} sent frames?",
     ),
-    "collision_ratio": ("Collisions on more than {t} sent frames?", "collision counts"),
-    "in_discard_ratio": (
-        "More than {t} received frames discarded without an error?",
-        "inbound discard counts",
+    "collision_ratio": (
+        "Collisions on more than {t} sent frames?",
+        "Collisions on between {lo} and {hi} sent frames?",
     ),
-    "out_discard_ratio": ("More than {t} frames to send discarded?", "outbound discard counts"),
-    "rx_utilisation": ("Inbound load above {t} of line rate?", "inbound octet counts"),
-    "tx_utilisation": ("Outbound load above {t} of line rate?", "outbound octet counts"),
-    "traffic_balance": (
-        "Quieter direction carries more than {t} of the busier direction's frames?",
-        "frame counts in both directions",
+    "half_duplex": ("Running half duplex?", "Running half duplex?"),
+    "speed_ratio": (
+        "Running at more than {t} of the port's top speed?",
+        "Running at between {lo} and {hi} of the port's top speed?",
     ),
-    "link_changes_per_hour": (
-        "Link went down or up more than {t} times an hour?",
-        "link change counts",
+    "giant_ratio": (
+        "More than {t} received frames too long for this port "
+        f"(its MTU plus {FRAME_OVERHEAD_OCTETS} octets of header and FCS)?",
+        "Between {lo} and {hi} received frames too long for this port "
+        f"(its MTU plus {FRAME_OVERHEAD_OCTETS} octets of header and FCS)?",
     ),
-    "speed_ratio": ("Running at more than {t} of the port's top speed?", "speed or top speed"),
-    "half_duplex": ("Running half duplex?", "duplex state"),
-    "rx_power_margin_db": (
-        "Received light more than {t} above the module's low alarm?",
-        "transceiver readings",
+    "light_margin_db": (
+        "Received light more than {t} above its low threshold (the module's warning, else "
+        "its alarm, else the receiver's sensitivity)?",
+        "Received light between {lo} and {hi} above its low threshold (the module's warning, "
+        "else its alarm, else the receiver's sensitivity)?",
+    ),
+    "tx_margin_db": (
+        "Transmitted light more than {t} above the module's low alarm?",
+        "Transmitted light between {lo} and {hi} above the module's low alarm?",
+    ),
+    "flaps_per_hour": (
+        "Link went down and up more than {t} times an hour?",
+        "Link went down and up between {lo} and {hi} times an hour?",
+    ),
+    "quiet_fps": (
+        "Quieter direction carries more than {t}?",
+        "Quieter direction carries between {lo} and {hi}?",
+    ),
+    "discard_ratio": (
+        "More than {t} frames discarded, in the direction with the most discards?",
+        "Between {lo} and {hi} frames discarded, in the direction with the most discards?",
+    ),
+    "discard_utilisation": (
+        "The direction with the most discards running above {t} of line rate?",
+        "The direction with the most discards running between {lo} and {hi} of line rate?",
     ),
 }
-MISSING_QUESTION = "Device does not report {noun}?"
-NOT_REPORTED = "not reported"
-UNREPORTED_ANSWER = "not reported; the tree takes it as {answer}"
+#: A split this low on a per-frame ratio only asks whether the events were counted at all
+#: (a ratio under ten events reads as none): 1e-9 per frame is ten events among 10^10
+#: frames, more than most ports carry in a window.
+ANY_BELOW = -9.0
+#: The question such a split asks, per feature.
+ANY_QUESTIONS: dict[str, str] = {
+    "late_collision_ratio": (
+        f"Late collisions (after the first {SLOT_TIME_BITS} bit times) counted, three or more?"
+    ),
+    "collision_ratio": "Collisions counted, ten or more?",
+    "giant_ratio": (
+        "Received frames too long for this port (its MTU plus "
+        f"{FRAME_OVERHEAD_OCTETS} octets of header and FCS) counted, ten or more?"
+    ),
+    "discard_ratio": "Frames discarded, ten or more, in the direction with the most discards?",
+}
+NOT_REPORTED = "not reported, so no evidence of it"
+NONE_COUNTED = "none"
 
 
 def sig(x: float, digits: int = 2) -> str:
@@ -88,11 +119,25 @@ def format_ratio(value: float, scale: int) -> str:
     return f"{sig(per)} in {scale:,}"
 
 
-def value_reader(kind: str, threshold: float) -> Callable[[float], str]:
-    """How values read beside a question of this kind and threshold (NaN excluded)."""
-    if kind == "ratio":
-        scale = ratio_scale(threshold)
-        return lambda v: format_ratio(v, scale)
+def times(multiple: float) -> str:
+    """A multiple of a reference value: "3.2 times"."""
+    return f"{sig(multiple)} times"
+
+
+#: Feature values at or below these read as "nothing counted" (see linktriage.features).
+_FLOOR = {"times": -4.0, "log_ratio": -13.0, "log_fps": -3.0}
+
+
+def _reader(kind: str, threshold: float | None) -> Callable[[float], str]:
+    if kind == "log_ratio":
+        if threshold is None:  # each value on a scale of its own
+            return lambda v: format_ratio(10.0**v, ratio_scale(10.0**v))
+        scale = ratio_scale(10.0**threshold)
+        return lambda v: format_ratio(10.0**v, scale)
+    if kind == "times":
+        return lambda v: times(10.0**v)
+    if kind == "log_fps":
+        return lambda v: f"{sig(10.0**v)} frames/s"
     if kind == "share":
         return lambda v: f"{sig(v * 100)}%"
     if kind == "flag":
@@ -102,16 +147,23 @@ def value_reader(kind: str, threshold: float) -> Callable[[float], str]:
     return sig
 
 
-def format_value(kind: str, value: float, threshold: float) -> str:
-    """A measured value as it reads beside a question whose threshold is ``threshold``."""
-    if math.isnan(value):
-        return NOT_REPORTED
-    return value_reader(kind, threshold)(value)
+def value_reader(kind: str, threshold: float | None) -> Callable[[float], str]:
+    """How values read beside a question of this kind and threshold (NaN excluded); with
+    no threshold, per-frame ratios read on a scale of their own."""
+    read = _reader(kind, threshold)
+    floor = _FLOOR.get(kind)
+    if floor is None:
+        return read
+    return lambda v: NONE_COUNTED if v <= floor else read(v)
 
 
 def format_threshold(kind: str, threshold: float) -> str:
-    if kind == "ratio":
-        return format_ratio(threshold, ratio_scale(threshold))
+    if kind == "log_ratio":
+        return format_ratio(10.0**threshold, ratio_scale(10.0**threshold))
+    if kind == "times":
+        return times(10.0**threshold)
+    if kind == "log_fps":
+        return f"{sig(10.0**threshold)} frames/s"
     if kind == "share":
         return f"{sig(threshold * 100)}%"
     if kind == "db":
@@ -129,21 +181,42 @@ GUARD_POLLS = "Two or more usable polls in the window?"
 GUARD_TRAFFIC = "Enough traffic to tell an error ratio of {t} from zero?"
 
 
-def traffic_said(frames: float, errors: float, window_s: float, needed: float) -> str:
+def ruled_out_line(ruled_out: Mapping[str, Any]) -> str:
+    """Why the tree's first choice is not the answer (a ``ruled_out`` record)."""
     return (
-        f"no: {sig(frames, 3)} frames and {sig(errors, 3)} errors in {sig(window_s, 3)} s; "
-        f"a clean window needs about {sig(needed, 2)} frames"
+        f"The tree's first choice, {ruled_out['verdict']}, is ruled out: it needs "
+        f"{ruled_out['needs']} ({ruled_out['source']})."
     )
 
 
-def ber_line(phy: str, estimate: float, objective: float) -> str:
-    """How the bit error ratio compares with the PHY's objective."""
-    if estimate <= 0:
-        return f"No bit errors seen; the {phy} objective is {objective:.0e}."
-    verdict = "over" if estimate > objective else "within"
+NO_FIT_NOTE = "no verdict fits every reading; this is the tree's own answer"
+
+
+def traffic_said(frames: float, errors: float, window_s: float, needed: float) -> str:
+    errors_text = "no" if errors != errors else sig(errors, 3)  # NaN: not reported
     return (
-        f"Estimated bit error ratio {estimate:.1e}, {verdict} the {phy} objective "
-        f"of {objective:.0e}."
+        f"no: {sig(frames, 3)} frames received and {errors_text} errors in "
+        f"{sig(window_s, 3)} s; a clean window needs about {sig(needed, 2)} frames"
+    )
+
+
+def ber_line(ber: Mapping[str, Any]) -> str:
+    """How the bit error ratio (a ``bit_errors`` record) compares with the PHY's objective."""
+    phy, estimate, objective = ber["phy"], ber["estimate"], ber["objective"]
+    lower, upper, exceeds = ber["lower"], ber["upper"], ber["exceeds"]
+    if estimate <= 0:
+        return (
+            f"No errored frames: bit error ratio below {upper:.0e} (95%); the {phy} objective "
+            f"is {objective:.0e}."
+        )
+    if exceeds:
+        return (
+            f"Estimated bit error ratio {estimate:.1e} (95%: at least {lower:.1e}), over the "
+            f"{phy} objective of {objective:.0e}."
+        )
+    return (
+        f"Estimated bit error ratio {estimate:.1e} (95%: {lower:.0e} to {upper:.0e}), not "
+        f"significantly over the {phy} objective of {objective:.0e}."
     )
 
 

@@ -37,7 +37,7 @@ from linktriage.chat.replies import (
     SuspectItem,
     SuspectsReply,
 )
-from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, Model, diagnose
+from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, headline
 from linktriage.errors import LinktriageError, PollError
 from linktriage.features import FEATURE_NAMES
 from linktriage.messages import (
@@ -196,7 +196,7 @@ class Triage:
         for row in _ranked_faults(batch):
             diagnosis_id = self._keep(batch, row, origin=kind, channel=channel)
             record = batch.record(row)
-            items.append(SuspectItem(len(items) + 1, record, diagnosis_id, _reason(record)))
+            items.append(SuspectItem(len(items) + 1, record, diagnosis_id, headline(record)))
         where = "everywhere" if site is None else f"at {refs[0].site if refs else site}"
         return SuspectsReply(
             title=f"Suspect links {where}",
@@ -471,11 +471,3 @@ def _ranked_faults(batch: DiagnosisBatch) -> list[int]:
             batch.port[i],
         ),
     )
-
-
-def _reason(record: DiagnosisRecord) -> str:
-    """The question that settled the verdict, as it reads."""
-    if not record["questions"]:
-        return record["note"] or ""
-    last = record["questions"][-1]
-    return f"{last['question']} {last['said']}"

@@ -29,6 +29,7 @@ from linktriage.messages import (
     ber_line,
     help_lines,
     label_recorded,
+    ruled_out_line,
     sig,
 )
 from linktriage.render.card import card_text
@@ -107,6 +108,10 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
         _header(f"{r['device']} {r['port']}: {r['title']}"),
         _context(" \u00b7 ".join(facts)),
     ]
+    evidence = [f"\u2022 {escape(e['said'])}" for e in r["evidence"]]
+    blocks += _sections(evidence, title="Evidence")
+    if r["ruled_out"] is not None:
+        blocks.append(_context(escape(ruled_out_line(r["ruled_out"]))))
     questions = [
         f"{n}. {escape(q['question'])}  \u2192  *{escape(q['said'])}*"
         for n, q in enumerate(r["questions"], start=1)
@@ -114,7 +119,7 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
     blocks += _sections(questions, title="Questions asked")
     ber = r["bit_errors"]
     if ber is not None:
-        blocks.append(_context(escape(ber_line(ber["phy"], ber["estimate"], ber["objective"]))))
+        blocks.append(_context(escape(ber_line(ber))))
     if r["note"]:
         blocks.append(_context(escape(r["note"])))
     blocks.append({"type": "divider"})

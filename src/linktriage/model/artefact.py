@@ -65,7 +65,6 @@ class TrainingSummary(BaseModel):
     best_ccp_alpha: float
     per_class_recall: dict[str, float]
     healthy_false_alarm: float
-    guard_resolution: float
     sklearn_version: str
 
 
@@ -75,7 +74,8 @@ class TreeArtefact(BaseModel):
     model_config = ConfigDict(frozen=True)
 
     format: Literal["linktriage-tree"] = "linktriage-tree"
-    format_version: Literal[1] = 1
+    #: 2: evidence features (linktriage 0.2); a model of format 1 was trained on other inputs.
+    format_version: Literal[2] = 2
     version: str
     features: list[str]
     classes: list[str]
@@ -117,6 +117,12 @@ class TreeArtefact(BaseModel):
         try:
             return cls.model_validate_json(text)
         except ValidationError as exc:
+            if any(e["loc"] == ("format_version",) for e in exc.errors()):
+                raise ModelError(
+                    f"{origin} was built by an earlier release, on inputs this one no longer "
+                    "computes",
+                    hint="Rebuild it with `linktriage train`.",
+                ) from exc
             raise ModelError(
                 f"{origin} is not a linktriage model artefact "
                 f"({exc.error_count()} problems, first: {exc.errors()[0]['msg']})",
@@ -152,12 +158,22 @@ def content_version(features: list[str], classes: list[str], tree: TreeArrays) -
 
 @dataclass(frozen=True, slots=True)
 class Step:
-    """One question on the way to a leaf: the node, its feature, threshold, and the branch."""
+    """One question on the way to a node: the node asking, its feature, threshold, the branch."""
 
     node: int
     feature: int
     threshold: float
     went_right: bool  # True: the value was above the threshold (or NaN routed right)
+
+
+@dataclass(frozen=True, slots=True)
+class Choice:
+    """Per row: the node whose classes decided, the class chosen, and its share there."""
+
+    node: npt.NDArray[np.intp]
+    klass: npt.NDArray[np.intp]  # index into CompiledTree.classes; -1 where none was allowed
+    confidence: npt.NDArray[np.float64]
+    first: npt.NDArray[np.intp]  # the leaf's own first choice, allowed or not
 
 
 class CompiledTree:
@@ -180,7 +196,11 @@ class CompiledTree:
         self.proba = value / normalizer
         self.is_leaf = self.left == -1
         self.depth = artefact.depth
-        self.paths = self._leaf_paths()
+        self.parent = np.full(len(self.left), -1, np.intp)
+        inner = np.flatnonzero(~self.is_leaf)
+        self.parent[self.left[inner]] = inner
+        self.parent[self.right[inner]] = inner
+        self.paths = self._paths()
 
     def apply(self, x: npt.NDArray[np.float32]) -> npt.NDArray[np.intp]:
         """The leaf each row of ``x`` (float32, features in artefact order) lands in."""
@@ -207,14 +227,42 @@ class CompiledTree:
         labels: npt.NDArray[np.object_] = self.classes[np.argmax(self.predict_proba(x), axis=1)]
         return labels
 
-    def _leaf_paths(self) -> dict[int, tuple[Step, ...]]:
-        """For every leaf, the internal nodes from the root to it, in order."""
+    def choose(self, leaf: npt.NDArray[np.intp], allowed: npt.NDArray[np.bool_]) -> Choice:
+        """The most probable *allowed* class per row (``allowed``: rows x classes).
+
+        Where the leaf holds none of the allowed classes, the question is asked one node up,
+        and so on towards the root: the nearest node whose training rows include an allowed
+        class decides. A row with no allowed class at all gets ``klass`` -1.
+        """
+        node = leaf.copy()
+        masked = self.proba[node] * allowed
+        total = masked.sum(axis=1)
+        for _ in range(self.depth):
+            stuck = (total <= 0) & (self.parent[node] >= 0) & allowed.any(axis=1)
+            if not stuck.any():
+                break
+            node[stuck] = self.parent[node[stuck]]
+            masked[stuck] = self.proba[node[stuck]] * allowed[stuck]
+            total[stuck] = masked[stuck].sum(axis=1)
+        best = np.argmax(masked, axis=1)
+        chosen = total > 0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            confidence = np.where(chosen, masked[np.arange(len(best)), best] / total, 0.0)
+        return Choice(
+            node=node,
+            klass=np.where(chosen, best, -1),
+            confidence=confidence,
+            first=np.argmax(self.proba[leaf], axis=1),
+        )
+
+    def _paths(self) -> dict[int, tuple[Step, ...]]:
+        """For every node, the internal nodes from the root to it, in order."""
         paths: dict[int, tuple[Step, ...]] = {}
         stack: list[tuple[int, tuple[Step, ...]]] = [(0, ())]
         while stack:
             node, path = stack.pop()
+            paths[node] = path
             if self.is_leaf[node]:
-                paths[node] = path
                 continue
             f, thr = int(self.feature[node]), float(self.threshold[node])
             stack.append((int(self.left[node]), (*path, Step(node, f, thr, False))))

@@ -1,7 +1,9 @@
 """The path through the tree as yes/no questions, each with the measured value and threshold.
 
-A leaf's path is fixed, so the wording of its questions is worked out once per leaf; only
-the measured values differ from port to port.
+Questions on one feature merge into one: a path that asks "more than 2?" and later "more
+than 5?" of the same value asks once, and "more than 2?" then "more than 5? no" reads as
+one range question. A node's path is fixed, so its wording is worked out once per node;
+only the measured values differ from port to port.
 """
 
 from __future__ import annotations
@@ -9,19 +11,19 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from typing import TypedDict
+from typing import NotRequired, TypedDict
 
 from linktriage.features import FEATURE_KIND
 from linktriage.messages import (
-    MISSING_QUESTION,
+    ANY_BELOW,
+    ANY_QUESTIONS,
     NOT_REPORTED,
     QUESTIONS,
-    UNREPORTED_ANSWER,
     format_threshold,
     value_reader,
     yes_no,
 )
-from linktriage.model.artefact import CompiledTree
+from linktriage.model.artefact import CompiledTree, Step
 
 
 class QuestionRecord(TypedDict):
@@ -33,18 +35,20 @@ class QuestionRecord(TypedDict):
     value: float | None
     threshold: float | None
     said: str
+    range: NotRequired[list[float]]  # a merged question: the value lies in (low, high]
 
 
 @dataclass(frozen=True, slots=True)
-class PathStep:
-    """A question on the path to a leaf, with everything that does not depend on the port."""
+class PathQuestion:
+    """A question on the path to a node, with everything that does not depend on the port."""
 
     text: str
     feature: str
     column: int
-    threshold: float | None  # None: the split only asks whether the value is reported
+    threshold: float
     answer: bool
     reads: Callable[[float], str]  # a measured value as it reads beside this question
+    range: tuple[float, float] | None = None
 
 
 def rounded(value: float) -> float | None:
@@ -54,50 +58,72 @@ def rounded(value: float) -> float | None:
     return float(f"{value:.6g}")
 
 
+def merge(path: Sequence[Step], features: Sequence[str]) -> list[PathQuestion]:
+    """One question per feature on ``path``, in the order the features were first asked."""
+    order: list[int] = []
+    low: dict[int, float] = {}  # the value is above this
+    high: dict[int, float] = {}  # the value is at most this
+    for step in path:
+        if step.feature not in order:
+            order.append(step.feature)
+        if step.went_right:
+            low[step.feature] = max(low.get(step.feature, -math.inf), step.threshold)
+        else:
+            high[step.feature] = min(high.get(step.feature, math.inf), step.threshold)
+    out = []
+    for column in order:
+        feature = features[column]
+        kind = FEATURE_KIND[feature]
+        above, between = QUESTIONS[feature]
+        lo, hi = low.get(column), high.get(column)
+        if lo is not None and hi is not None:
+            text = between.format(lo=format_threshold(kind, lo), hi=format_threshold(kind, hi))
+            reads = value_reader(kind, lo)
+            out.append(PathQuestion(text, feature, column, lo, True, reads, (lo, hi)))
+        else:
+            t = lo if lo is not None else hi
+            assert t is not None
+            if kind == "log_ratio" and t < ANY_BELOW:
+                text, reads = ANY_QUESTIONS[feature], value_reader(kind, None)
+            else:
+                text, reads = above.format(t=format_threshold(kind, t)), value_reader(kind, t)
+            out.append(PathQuestion(text, feature, column, t, lo is not None, reads))
+    return out
+
+
 class Explainer:
-    """Turns a leaf and a port's feature row into the questions the tree asked."""
+    """Turns a node and a port's feature row into the questions the tree asked."""
 
     def __init__(self, tree: CompiledTree) -> None:
         self.tree = tree
-        self.steps: dict[int, tuple[PathStep, ...]] = {
-            leaf: tuple(self._step(s.feature, s.threshold, s.went_right) for s in path)
-            for leaf, path in tree.paths.items()
+        self.steps: dict[int, tuple[PathQuestion, ...]] = {
+            node: tuple(merge(path, tree.features)) for node, path in tree.paths.items()
         }
 
-    def _step(self, column: int, threshold: float, went_right: bool) -> PathStep:
-        feature = self.tree.features[column]
-        kind = FEATURE_KIND[feature]
-        template, noun = QUESTIONS[feature]
-        reads = value_reader(kind, threshold)
-        if math.isinf(threshold):
-            # scikit-learn's split "reported or not": every value goes left, NaN goes right.
-            text = MISSING_QUESTION.format(noun=noun)
-            return PathStep(text, feature, column, None, went_right, reads)
-        text = template.format(t=format_threshold(kind, threshold))
-        return PathStep(text, feature, column, threshold, went_right, reads)
-
     @staticmethod
-    def said(step: PathStep, value: float) -> str:
+    def said(question: PathQuestion, value: float, reported: bool = True) -> str:
         """The answer as it reads, with the measured value: "yes: 4.1 in 100,000"."""
-        if step.threshold is None:
-            return f"{yes_no(step.answer)}: {NOT_REPORTED if step.answer else 'reported'}"
-        if math.isnan(value):
-            return UNREPORTED_ANSWER.format(answer=yes_no(step.answer))
-        return f"{yes_no(step.answer)}: {step.reads(value)}"
+        if not reported:
+            return f"{yes_no(question.answer)}: {NOT_REPORTED}"
+        return f"{yes_no(question.answer)}: {question.reads(value)}"
 
-    def questions(self, leaf: int, row: Sequence[float]) -> list[QuestionRecord]:
-        """The questions on the way to ``leaf`` for the port whose features are ``row``."""
+    def questions(
+        self, node: int, row: Sequence[float], reported: Sequence[bool] | None = None
+    ) -> list[QuestionRecord]:
+        """The questions on the way to ``node`` for the port whose features are ``row``."""
         out: list[QuestionRecord] = []
-        for step in self.steps[leaf]:
-            value = float(row[step.column])
-            out.append(
-                {
-                    "question": step.text,
-                    "answer": step.answer,
-                    "feature": step.feature,
-                    "value": rounded(value),
-                    "threshold": step.threshold,
-                    "said": self.said(step, value),
-                }
-            )
+        for q in self.steps[node]:
+            value = float(row[q.column])
+            known = True if reported is None else bool(reported[q.column])
+            record: QuestionRecord = {
+                "question": q.text,
+                "answer": q.answer,
+                "feature": q.feature,
+                "value": rounded(value) if known else None,
+                "threshold": q.threshold,
+                "said": self.said(q, value, known),
+            }
+            if q.range is not None:
+                record["range"] = list(q.range)
+            out.append(record)
         return out

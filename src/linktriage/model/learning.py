@@ -27,6 +27,18 @@ from linktriage.store import Label
 HELD_OUT_SHARE = 0.3
 
 
+def usable(labels: Sequence[Label]) -> tuple[list[Label], int]:
+    """The labels whose stored feature row has every input of this release, and how many
+    were left out: a label recorded under an earlier release's inputs cannot be learnt from
+    (the diagnosis it labels is still in the store, to be asked about again)."""
+    kept = [
+        label
+        for label in labels
+        if all(label.features.get(name) is not None for name in FEATURE_NAMES)
+    ]
+    return kept, len(labels) - len(kept)
+
+
 def labelled_rows(labels: Sequence[Label]) -> LabelledRows:
     frame = label_frame(labels)
     return LabelledRows(
@@ -59,6 +71,7 @@ class Outcome:
     held_out: int
     candidate_score: float
     current_score: float
+    older: int = 0  # labels left out, recorded under an earlier release's inputs
 
     @property
     def promoted(self) -> bool:
@@ -76,10 +89,12 @@ class Outcome:
 
 def learn(labels: Sequence[Label], current: TreeArtefact, cfg: TrainingConfig) -> Outcome:
     """Train a candidate on the prior plus labels and judge it against ``current``."""
+    labels, older = usable(labels)
     if len(labels) < 2:
+        also = f" ({older} more were recorded under an earlier release's inputs)" if older else ""
         raise InputError(
-            f"{len(labels)} confirmed labels: at least 2 are needed, one to learn from and "
-            "one to check the result on.",
+            f"{len(labels)} usable confirmed labels{also}: at least 2 are needed, one to "
+            "learn from and one to check the result on.",
             hint="Label more answers in the channel (reply in their threads), then train again.",
         )
     train_rows, held = split(labelled_rows(labels), cfg.seed)
@@ -91,4 +106,5 @@ def learn(labels: Sequence[Label], current: TreeArtefact, cfg: TrainingConfig) -
         held_out=len(held),
         candidate_score=accuracy(candidate, held),
         current_score=accuracy(current, held),
+        older=older,
     )

@@ -22,11 +22,13 @@ from sklearn.metrics import f1_score, recall_score
 from sklearn.model_selection import StratifiedKFold
 from sklearn.tree import DecisionTreeClassifier
 
-from linktriage.features import FEATURE_NAMES, feature_matrix, feature_table
-from linktriage.guards import DEFAULT_RESOLUTION, apply_guards
+from linktriage.features import FEATURE_NAMES, feature_rows
+from linktriage.guards import apply_guards
+from linktriage.measures import measure
 from linktriage.model.artefact import TrainingSummary, TreeArrays, TreeArtefact, content_version
-from linktriage.simulate import simulate_prior
-from linktriage.verdicts import Verdict
+from linktriage.physics import allowed
+from linktriage.simulate import TRAINING, Ranges, simulate_prior
+from linktriage.verdicts import TREE_VERDICTS, Verdict
 from linktriage.window import compute_windows
 
 DEFAULT_SEED = 2026
@@ -42,29 +44,36 @@ class TrainingConfig:
     max_leaves: int = 40
     candidate_alphas: int = 24
     healthy_weight: float = 3.0
-    resolution: float = DEFAULT_RESOLUTION
     #: How much one confirmed label outweighs one simulated row.
     label_weight: float = 20.0
 
 
 @dataclass(frozen=True, slots=True)
 class PriorRows:
-    """Feature rows of simulated ports that pass the guards, with their true classes."""
+    """Feature rows of simulated ports the tree is asked about, with their true classes."""
 
     x: npt.NDArray[np.float32]
     y: npt.NDArray[np.object_]
     simulated_ports: int
 
 
-def prior_rows(n: int, seed: int, *, resolution: float = DEFAULT_RESOLUTION) -> PriorRows:
-    """Simulate ``n`` ports and keep the rows the tree would be asked about."""
+def prior_rows(n: int, seed: int, ranges: Ranges = TRAINING) -> PriorRows:
+    """Simulate ``n`` ports and keep the rows the tree would be asked about.
+
+    A row is kept when no guard answers it and the physics allows its true class: a port
+    whose readings could not show its fault (an unlucky draw at the detection limit)
+    teaches the tree nothing it could use.
+    """
     rng = np.random.default_rng(seed)
-    polls, labels = simulate_prior(n, rng)
+    polls, labels = simulate_prior(n, rng, ranges)
     windows = compute_windows(polls)
-    table = feature_table(windows)
-    guarded = apply_guards(windows, table, resolution=resolution)
-    keep = np.array([v is None for v in guarded])
-    return PriorRows(feature_matrix(table)[keep], labels[keep], n)
+    m = measure(windows).table
+    ok = allowed(m)
+    guarded = apply_guards(windows, ok)
+    columns = np.array([TREE_VERDICTS.index(Verdict(v)) for v in labels], np.intp)
+    possible = ok.mask[np.arange(len(labels)), columns]
+    keep = np.array([v is None for v in guarded]) & possible
+    return PriorRows(feature_rows(m).matrix()[keep], labels[keep], n)
 
 
 @dataclass(frozen=True, slots=True)
@@ -184,7 +193,7 @@ def train(cfg: TrainingConfig | None = None, labelled: LabelledRows | None = Non
     """Build the pruned tree from the simulated prior (and confirmed labels, weighted
     ``label_weight`` each) and describe how it was chosen."""
     cfg = cfg or TrainingConfig()
-    prior = prior_rows(cfg.simulated_ports, cfg.seed, resolution=cfg.resolution)
+    prior = prior_rows(cfg.simulated_ports, cfg.seed)
     x, y = prior.x, prior.y.astype(str)
     sample_weight = None
     if labelled is not None and len(labelled):
@@ -226,7 +235,6 @@ def train(cfg: TrainingConfig | None = None, labelled: LabelledRows | None = Non
         best_ccp_alpha=best.alpha,
         per_class_recall={c: float(r) for c, r in zip(classes, recall, strict=True)},
         healthy_false_alarm=false_alarm,
-        guard_resolution=cfg.resolution,
         sklearn_version=sklearn.__version__,
     )
     return TreeArtefact(

@@ -5,7 +5,8 @@ from __future__ import annotations
 from datetime import UTC, datetime
 from typing import Any
 
-from linktriage.messages import sig
+from linktriage.measures import RESOLUTION_CAP, RESOLUTION_TIMES_OBJECTIVE
+from linktriage.messages import format_ratio, ratio_scale, sig
 from linktriage.model.artefact import TreeArtefact
 from linktriage.model.impurity import feature_importances
 
@@ -60,8 +61,9 @@ def card_text(card: dict[str, Any]) -> str:
             f"  healthy ports called faulty: {sig(t['healthy_false_alarm'] * 100)}%",
             f"  recall per class: {recall}",
             f"  features that matter: {important}",
-            f"  guards: judged only with enough traffic to resolve an error ratio of "
-            f"{t['guard_resolution']:.0e}",
+            f"  guards: a clean port is judged once its frames bound the error ratio at "
+            f"{RESOLUTION_TIMES_OBJECTIVE:g} times the PHY's objective, or at "
+            f"{format_ratio(RESOLUTION_CAP, ratio_scale(RESOLUTION_CAP))} if that is less",
             f"  scikit-learn {t['sklearn_version']}",
         ]
     )

@@ -13,7 +13,7 @@ from json.encoder import encode_basestring
 from typing import IO
 
 from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, advice
-from linktriage.model.explain import PathStep, rounded
+from linktriage.model.explain import PathQuestion, rounded
 from linktriage.verdicts import GUIDES, Verdict
 
 # One encoder for every line: json.dumps builds a new one per call unless all its
@@ -33,25 +33,26 @@ class LineWriter:
 
     def __init__(self, batch: DiagnosisBatch) -> None:
         self.batch = batch
-        self._steps: dict[int, list[tuple[str, str, PathStep]]] = {}
+        self._steps: dict[int, list[tuple[str, str, str, PathQuestion]]] = {}
         self._advice: dict[tuple[Verdict, bool | None, bool | None], str] = {}
-        self._answers: dict[tuple[int, int, float], str] = {}
+        self._answers: dict[tuple[int, int, float, bool], str] = {}
         self._version = _json(batch.model.version)
         self._titles = {v: _string(g.title) for v, g in GUIDES.items()}
 
-    def _leaf_steps(self, leaf: int) -> list[tuple[str, str, PathStep]]:
-        """Per question: the JSON before the value, between value and answer, and the step."""
-        cached = self._steps.get(leaf)
+    def _node_steps(self, node: int) -> list[tuple[str, str, str, PathQuestion]]:
+        """Per question: the JSON before the value, between value and answer, after it."""
+        cached = self._steps.get(node)
         if cached is None:
             cached = []
-            for step in self.batch.model.explainer.steps[leaf]:
+            for q in self.batch.model.explainer.steps[node]:
                 head = (
-                    f'{{"question": {_json(step.text)}, "answer": {_json(step.answer)}, '
-                    f'"feature": {_json(step.feature)}, "value": '
+                    f'{{"question": {_json(q.text)}, "answer": {_json(q.answer)}, '
+                    f'"feature": {_json(q.feature)}, "value": '
                 )
-                middle = f', "threshold": {_json(step.threshold)}, "said": '
-                cached.append((head, middle, step))
-            self._steps[leaf] = cached
+                middle = f', "threshold": {_json(q.threshold)}, "said": '
+                tail = "}" if q.range is None else f', "range": {_json(list(q.range))}}}'
+                cached.append((head, middle, tail, q))
+            self._steps[node] = cached
         return cached
 
     def _advice_json(self, key: tuple[Verdict, bool | None, bool | None]) -> str:
@@ -64,47 +65,44 @@ class LineWriter:
         return cached
 
     def _question(
-        self, leaf: int, j: int, head: str, middle: str, step: PathStep, value: float
-    ) -> str:
-        """Question ``j`` of ``leaf`` answered with ``value``; many ports share values (0, 1)."""
-        key = (leaf, j, value)
+        self, node: int, j: int, parts: tuple[str, str, str, PathQuestion], value: float,
+        known: bool,
+    ) -> str:  # fmt: skip
+        """Question ``j`` of ``node`` answered with ``value``; many ports share values."""
+        key = (node, j, value, known)
         text = self._answers.get(key)
         if text is None:
-            shown = rounded(value)
-            said = self.batch.model.explainer.said(step, value)
-            text = f"{head}{'null' if shown is None else repr(shown)}{middle}{_string(said)}}}"
-            if value == value:  # NaN never equals itself, so it cannot be a key
-                self._answers[key] = text
+            head, middle, tail, q = parts
+            shown = rounded(value) if known else None
+            said = self.batch.model.explainer.said(q, value, known)
+            text = f"{head}{'null' if shown is None else repr(shown)}{middle}{_string(said)}{tail}"
+            self._answers[key] = text
         return text
 
     def line(self, i: int) -> str:
         b = self.batch
-        leaf = b.leaf[i]
-        if leaf < 0:  # guard verdicts are few: build them the plain way
+        node = b.node[i]
+        if node < 0:  # guard verdicts are few: build them the plain way
             return dumps(b.record(i))
-        row = b.values[i]
+        row, known = b.values[i], b.reported[i]
         questions = [
-            self._question(leaf, j, head, middle, step, row[step.column])
-            for j, (head, middle, step) in enumerate(self._leaf_steps(leaf))
+            self._question(node, j, parts, row[parts[3].column], known[parts[3].column])
+            for j, parts in enumerate(self._node_steps(node))
         ]
         key = b.advice_key(i)
         verdict = key[0]
         ber = b.bit_errors(i)
-        ber_json = "null"
-        if ber is not None:
-            exceeds = "true" if ber["exceeds"] else "false"
-            ber_json = (
-                f'{{"phy": {_string(ber["phy"])}, "estimate": {ber["estimate"]!r}, '
-                f'"objective": {ber["objective"]!r}, "exceeds": {exceeds}}}'
-            )
+        ruled_out = b.ruled_out_record(i)
         note = b.note[i]
         return (
             f'{{"device": {_string(b.device[i])}, "port": {_string(b.port[i])}, '
             f'"verdict": "{verdict.value}", "title": {self._titles[verdict]}, '
             f'"confidence": {b.confidence[i]!r}, '
-            f'"questions": [{", ".join(questions)}], {self._advice_json(key)}, '
+            f'"questions": [{", ".join(questions)}], "evidence": {_json(b.evidence(i))}, '
+            f'"ruled_out": {"null" if ruled_out is None else _json(ruled_out)}, '
+            f"{self._advice_json(key)}, "
             f'"model_version": {self._version}, "window_s": {b.window_s[i]!r}, '
-            f'"polls": {b.polls[i]}, "bit_errors": {ber_json}, '
+            f'"polls": {b.polls[i]}, "bit_errors": {"null" if ber is None else _json(ber)}, '
             f'"note": {"null" if note is None else _string(note)}}}'
         )
 

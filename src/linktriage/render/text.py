@@ -6,23 +6,15 @@ import textwrap
 from collections.abc import Sequence
 from typing import IO
 
-from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord
-from linktriage.messages import ber_line, sig
+from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, headline
+from linktriage.messages import ber_line, ruled_out_line, sig
 
 WIDTH = 88
-_HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "DECIDING ANSWER")
-
-
-def _deciding(record: DiagnosisRecord) -> str:
-    """The last question the tree asked, which is the one that settled the verdict."""
-    if not record["questions"]:
-        return record["note"] or ""
-    q = record["questions"][-1]
-    return f"{q['question']} {q['said']}"
+_HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "EVIDENCE")
 
 
 def table_rows(records: Sequence[DiagnosisRecord]) -> list[str]:
-    """Fixed-width rows: device, port, verdict, confidence, window, deciding answer."""
+    """Fixed-width rows: device, port, verdict, confidence, window, headline evidence."""
     cells = [
         (
             r["device"],
@@ -30,7 +22,7 @@ def table_rows(records: Sequence[DiagnosisRecord]) -> list[str]:
             r["verdict"],
             f"{r['confidence']:.2f}",
             f"{sig(r['window_s'], 3)} s",
-            _deciding(r),
+            headline(r),
         )
         for r in records
     ]
@@ -62,13 +54,19 @@ def explanation(record: DiagnosisRecord) -> str:
     ]
     if record["note"]:
         lines.append(f"note: {record['note']}")
+    if record["evidence"]:
+        lines += ["", "Evidence"]
+        for item in record["evidence"]:
+            lines += _wrapped(f"{item['said']} [{item['source']}]", "  * ", "    ")
+    if record["ruled_out"] is not None:
+        lines += ["", *_wrapped(ruled_out_line(record["ruled_out"]), "", "")]
     lines += ["", "Questions asked"]
     for n, q in enumerate(record["questions"], start=1):
         lines += _wrapped(q["question"], f"  {n}. ", "     ")
         lines += _wrapped(q["said"], "     -> ", "        ")
     ber = record["bit_errors"]
     if ber is not None:
-        lines += ["", *_wrapped(ber_line(ber["phy"], ber["estimate"], ber["objective"]), "", "")]
+        lines += ["", *_wrapped(ber_line(ber), "", "")]
     lines += ["", "Check next"]
     for check in record["next_checks"]:
         lines += _wrapped(check, "  - ", "    ")
