@@ -86,6 +86,6 @@ def test_frame_limits_and_slot_time() -> None:
 
 
 def test_the_questions_state_the_standard_limits() -> None:
-    assert "frames under 64 octets" in QUESTIONS["runt_share"][0]
+    assert "frames under 64 octets" in QUESTIONS["runts_vs_collisions"][0]
     assert "after the first 512 bit times" in QUESTIONS["late_collision_ratio"][0]
     assert "plus 18 octets" in QUESTIONS["giant_ratio"][0]

@@ -44,7 +44,10 @@ DEFINING: dict[str, list[set[str]]] = {
     "negotiation_degraded": [{"speed", "duplex"}],
     "mtu_mismatch": [{"frames_too_long"}],
     "optic_degraded": [{"rx_power", "tx_power", "temperature"}],
-    "unidirectional": [{"rx_frames_per_second", "tx_frames_per_second"}],
+    "unidirectional": [
+        {"rx_frames", "tx_frames"},
+        {"rx_frames_per_second", "tx_frames_per_second"},
+    ],
     "congestion": [
         {"outbound_discards", "inbound_discards"},
         {"outbound_utilisation", "inbound_utilisation"},
@@ -126,7 +129,9 @@ def test_the_demos_duplex_mismatch_rests_on_collision_evidence(
     assert record["verdict"] == "duplex_mismatch"
     assert record["evidence"][0]["feature"] in ("late_collisions", "runts")
     asked = {q["feature"] for q in record["questions"]}
-    assert asked & {"late_collision_ratio", "runt_share", "collision_ratio", "half_duplex"}
+    assert asked & {
+        "late_collision_ratio", "runts_vs_collisions", "collision_ratio", "half_duplex"
+    }  # fmt: skip
 
 
 def test_a_first_choice_the_physics_rules_out_is_named_with_the_rule(model: Model) -> None:

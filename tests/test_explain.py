@@ -77,7 +77,5 @@ def test_a_split_at_the_floor_of_a_count_asks_whether_it_was_counted() -> None:
     explainer = Explainer(CompiledTree(artefact_of(clf, ["late_collision_ratio"])))
     leaf = int(clf.apply(np.array([[-10.0]], dtype=np.float32))[0])
     (q,) = explainer.questions(leaf, [-10.0])
-    assert q["question"] == (
-        "Late collisions (after the first 512 bit times) counted, three or more?"
-    )
+    assert q["question"] == ("Late collisions (after the first 512 bit times) counted, 3 or more?")
     assert q["said"] == "yes: 1 in 10,000,000,000"

@@ -51,9 +51,11 @@ def test_a_handful_of_errors_is_no_evidence_however_quiet_the_port() -> None:
     assert reported["ber_over_objective"]
 
 
-def test_runts_are_a_share_of_the_receive_errors() -> None:
+def test_runts_are_read_against_the_share_collisions_leave() -> None:
+    # A collision cuts a frame at a random point; within the first 64 octets (the slot time,
+    # IEEE 802.3 clause 4.4.2) it leaves a runt: 64 / 1,000 of the frames it damages.
     values, _ = features({**TRAFFIC, "dot3StatsFCSErrors": 300, "etherStatsFragments": 100})
-    assert values["runt_share"] == pytest.approx(0.25)
+    assert values["runts_vs_collisions"] == pytest.approx(0.25 / (64 / 1000))
 
 
 def test_one_flap_in_five_minutes_is_one_flap_an_hour_not_twelve() -> None:

@@ -53,10 +53,12 @@ def test_the_split_holds_out_a_share_and_is_the_same_every_time(triage: Triage) 
 
 
 def test_a_site_that_corrects_the_model_gets_a_model_that_learnt_it(triage: Triage) -> None:
-    # At this invented site the printer port's errors are its own firmware, not the duplex.
-    labels = label_ports(triage, {"lark-east-idf2 port7": "healthy"}, times=6)
+    # At this invented site the link to the annex fills with the archive's backup, and the
+    # discards that come with it are accepted: the engineers call it healthy. (A label the
+    # physics rules out, healthy beside late collisions say, could never be answered.)
+    labels = label_ports(triage, {"lark-core1 up5": "healthy"}, times=6)
     outcome = learn(labels, TreeArtefact.default(), SMALL)
-    assert outcome.current_score == 0.0  # the packaged model says duplex_mismatch
+    assert outcome.current_score == 0.0  # the packaged model says congestion
     assert outcome.candidate_score == 1.0
     assert outcome.promoted
     assert outcome.candidate.training.labelled_rows == outcome.trained_on == 4

@@ -12,6 +12,7 @@ from scipy.stats import binomtest
 
 from linktriage.measures import (
     RESOLUTION_CAP,
+    WARN_ABOVE_FLOOR_DB,
     error_ratio_bounds,
     frames_needed,
     measure,
@@ -116,12 +117,12 @@ def test_late_collisions_at_ten_gigabit_are_a_counter_fault() -> None:
     assert "late collisions" in m["note"]
 
 
-def test_the_resolution_is_one_in_100000_where_the_objective_allows_it() -> None:
-    # 1000BASE-T: 10^4 x 1e-10 = 1e-6 BER, more than 1e-5 per frame at any frame size, so
-    # the cap holds: 299,572 frames, ln(0.05) / ln(1 - 1e-5) (the rule of three's 3/1e-5).
+def test_the_resolution_is_one_in_10000_where_the_objective_allows_it() -> None:
+    # 1000BASE-T: 10^4 x 1e-10 = 1e-6 BER, more than 1e-4 per frame at 1,000 octets, so the
+    # cap holds: 29,956 frames, ln(0.05) / ln(1 - 1e-4) (the rule of three's 3 / 1e-4).
     m = measures({"ifHCInOctets": 10**9, "ifHCInUcastPkts": 10**6, "dot3StatsFCSErrors": 0})
-    assert m["resolution"] == RESOLUTION_CAP
-    assert m["frames_needed"] == 299_572
+    assert m["resolution"] == RESOLUTION_CAP == 1e-4
+    assert m["frames_needed"] == 29_956
 
 
 def test_the_resolution_is_finer_for_small_frames_on_a_1e12_phy() -> None:
@@ -143,9 +144,11 @@ def test_light_is_held_against_the_warning_else_the_alarm_else_the_sensitivity()
     alarm = measures(counters, **gig_fiber, optics=alarm_only)
     bare = measures(counters, **gig_fiber, optics={"rx_power_dbm": -18.0})
     assert (warn["rx_reference_kind"], warn["light_margin_db"]) == (1.0, pytest.approx(1.0))
-    assert (alarm["rx_reference_kind"], alarm["light_margin_db"]) == (2.0, pytest.approx(3.0))
+    # Without a warning, light is held against the alarm plus a warning's usual spacing.
+    assert (alarm["rx_reference_kind"], alarm["floor_margin_db"]) == (2.0, pytest.approx(3.0))
+    assert alarm["light_margin_db"] == pytest.approx(3.0 - WARN_ABOVE_FLOOR_DB)
     # 1000BASE-LX receive sensitivity, -19 dBm (IEEE 802.3 clause 38, as reproduced).
-    assert (bare["rx_reference_kind"], bare["light_margin_db"]) == (3.0, pytest.approx(1.0))
+    assert (bare["rx_reference_kind"], bare["floor_margin_db"]) == (3.0, pytest.approx(1.0))
 
 
 def test_counters_a_device_does_not_report_stay_unknown() -> None:

@@ -250,8 +250,9 @@ def test_a_receive_only_silence_names_the_silent_direction_in_frames_per_second(
     record = one(model, {"ifHCInUcastPkts": 0, "ifHCOutUcastPkts": 600_000}, **GIG_COPPER)
     assert record["verdict"] == "unidirectional"
     head = record["evidence"][0]
-    assert head["feature"] == "rx_frames_per_second" and head["unit"] == "frames/s"
+    assert head["feature"] == "rx_frames" and head["unit"] == "frames"
     assert head["value"] == 0.0 and "receive direction silent" in head["said"]
+    assert record["evidence"][1]["feature"] == "tx_frames_per_second"
 
 
 def test_a_broadcast_storm_with_an_idle_return_is_not_a_one_way_link(model: Model) -> None:

@@ -64,10 +64,10 @@ def test_late_collisions_grow_with_the_load_at_the_half_duplex_end() -> None:
     params, table = _ports(Verdict.DUPLEX_MISMATCH, n=2000, dot3=True)
     d = compute_windows(table).deltas
     half = params["half_duplex"].to_numpy() == 1.0
-    load = params["rx_util"].to_numpy()[half]
-    late = (d["late_collisions"] / d["out_ucast"])[half]
-    busy = load > np.median(load)
-    assert np.median(late[busy]) > 5 * np.median(late[~busy])
+    load = np.log(params["rx_util"].to_numpy()[half])
+    late = np.log((d["late_collisions"] / d["out_ucast"])[half])
+    seen = np.isfinite(late)
+    assert np.corrcoef(load[seen], late[seen])[0, 1] > 0.3
 
 
 def test_counter32_devices_report_no_hc_counters() -> None:

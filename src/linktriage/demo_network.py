@@ -58,7 +58,14 @@ PLANTED: tuple[DemoPort, ...] = (
         "port14",
         "desk phone and PC, east wing reading room",
         Verdict.CABLE_FAULT,
-        {**_COPPER_1G, "poe": 1.0, "rx_util": 0.03, "rx_ber": 2e-8, "link_changes": 4.0},
+        {
+            **_COPPER_1G,
+            "poe": 1.0,
+            "rx_util": 0.1,
+            "rx_ber": 2e-8,
+            "link_changes": 8.0,
+            "runt_ratio": 1e-10,
+        },
     ),
     DemoPort(
         "central",

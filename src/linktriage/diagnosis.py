@@ -20,7 +20,7 @@ import numpy.typing as npt
 import pandas as pd
 
 from linktriage.errors import ModelError
-from linktriage.evidence import EvidenceRecord, evidence_for
+from linktriage.evidence import EvidenceRecord, evidence_of
 from linktriage.features import FEATURE_NAMES, FeatureRows, feature_rows
 from linktriage.guards import apply_guards
 from linktriage.measures import measure
@@ -138,6 +138,10 @@ class Model:
         return cls(TreeArtefact.default())
 
 
+#: Ports whose records are worded together: enough to share the work of a verdict's words,
+#: few enough to keep one chunk's records in memory.
+_CHUNK = 4096
+
 # Verdicts whose reading rests on bit errors, so the BER estimate belongs in the answer.
 # (A duplex mismatch damages frames by collision, not by bit errors on the wire.)
 _BER_VERDICTS = frozenset({Verdict.HEALTHY, Verdict.CABLE_FAULT, Verdict.OPTIC_DEGRADED})
@@ -153,19 +157,6 @@ def advice(
 
 def _flags(values: npt.NDArray[np.float64]) -> list[bool | None]:
     return [None if v != v else bool(v) for v in values.tolist()]  # v != v: NaN
-
-
-class _Row:
-    """One port's measures, read by name (evidence wording reads a few of them)."""
-
-    __slots__ = ("columns", "i")
-
-    def __init__(self, columns: dict[str, list[float]], i: int) -> None:
-        self.columns = columns
-        self.i = i
-
-    def __getitem__(self, key: str) -> float:
-        return self.columns[key][self.i]
 
 
 @dataclass
@@ -209,26 +200,50 @@ class DiagnosisBatch:
         return None
 
     def records(self) -> Iterator[DiagnosisRecord]:
-        for i in range(len(self)):
-            yield self.record(i)
+        for start in range(0, len(self), _CHUNK):
+            yield from self.records_many(list(range(start, min(start + _CHUNK, len(self)))))
 
     def advice_key(self, i: int) -> tuple[Verdict, bool | None, bool | None]:
         """What the checks and cautions of row ``i`` depend on: verdict, fiber, PoE."""
         return self.verdict[i], self.fiber[i], self.poe[i]
 
-    def row(self, i: int) -> _Row:
-        """The measures of the port in row ``i``."""
+    def column(self, name: str) -> list[float]:
+        """A :mod:`linktriage.measures` column as a list (records read it port by port)."""
         if self._columns is None:
-            self._columns = {c: self.measures[c].tolist() for c in self.measures.columns}
-        return _Row(self._columns, i)
+            self._columns = {}
+        values = self._columns.get(name)
+        if values is None:
+            values = self._columns[name] = self.measures[name].tolist()
+        return values
+
+    def measured(self, name: str, i: int) -> float:
+        """One measure of the port in row ``i``."""
+        return self.column(name)[i]
 
     def record(self, i: int) -> DiagnosisRecord:
         """The full diagnosis of the port in row ``i``."""
+        return self._record(i, self.evidence(i), None)
+
+    def records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
+        """The diagnoses of ``rows``, worded together: evidence a verdict at a time, and
+        questions answered alike shared between ports (records are for reading)."""
+        answered: dict[tuple[int, int, float, bool], QuestionRecord] = {}
+        evidence = self.evidence_many(rows)
+        return [self._record(i, e, answered) for i, e in zip(rows, evidence, strict=True)]
+
+    def _record(
+        self,
+        i: int,
+        evidence: list[EvidenceRecord],
+        answered: dict[tuple[int, int, float, bool], QuestionRecord] | None,
+    ) -> DiagnosisRecord:
         verdict = self.verdict[i]
         checks, warn = advice(*self.advice_key(i))
         node = self.node[i]
         if node >= 0:
-            questions = self.model.explainer.questions(node, self.values[i], self.reported[i])
+            questions = self.model.explainer.questions(
+                node, self.values[i], self.reported[i], answered
+            )
         else:
             questions = self._guard_questions(i, verdict)
         return {
@@ -238,7 +253,7 @@ class DiagnosisBatch:
             "title": GUIDES[verdict].title,
             "confidence": self.confidence[i],
             "questions": questions,
-            "evidence": self.evidence(i),
+            "evidence": evidence,
             "ruled_out": self.ruled_out_record(i),
             "next_checks": list(checks),
             "cautions": list(warn),
@@ -251,15 +266,24 @@ class DiagnosisBatch:
 
     def evidence(self, i: int) -> list[EvidenceRecord]:
         """The readings the verdict of row ``i`` rests on."""
-        verdict = self.verdict[i]
-        if verdict is Verdict.LINK_DOWN:
-            said = f"the port is {self.windows.oper_status[i]} at the latest poll"
-            value = str(self.windows.oper_status[i])
-            return [_evidence("oper_status", value, "state", None, "RFC 2863 ifOperStatus", said)]
-        if verdict is Verdict.NO_DATA:
-            said = self.note[i] or "fewer than two usable polls"
-            return [_evidence("polls", float(self.polls[i]), "polls", 2.0, "common practice", said)]
-        return evidence_for(verdict, self.row(i), self.phy[i])
+        return self.evidence_many([i])[0]
+
+    def evidence_many(self, rows: list[int]) -> list[list[EvidenceRecord]]:
+        """The readings each verdict of ``rows`` rests on, worded a verdict at a time."""
+        found = evidence_of(self.verdict, self.column, self.phy, rows)
+        for k, i in enumerate(rows):
+            verdict = self.verdict[i]
+            if verdict is Verdict.LINK_DOWN:
+                state = str(self.windows.oper_status[i])
+                said = f"the port is {state} at the latest poll"
+                found[k] = [
+                    _evidence("oper_status", state, "state", None, "RFC 2863 ifOperStatus", said)
+                ]
+            elif verdict is Verdict.NO_DATA:
+                said = self.note[i] or "fewer than two usable polls"
+                polls = float(self.polls[i])
+                found[k] = [_evidence("polls", polls, "polls", 2.0, "common practice", said)]
+        return found
 
     def ruled_out_record(self, i: int) -> RuledOutRecord | None:
         first = self.ruled_out[i]
@@ -275,16 +299,16 @@ class DiagnosisBatch:
         phy = self.phy[i]
         if self.verdict[i] not in _BER_VERDICTS or phy is None:
             return None
-        r = self.row(i)
-        if r["fer"] != r["fer"]:  # NaN: no receive error counts to estimate from
+        value = self.measured
+        if value("fer", i) != value("fer", i):  # NaN: no receive error counts to estimate from
             return None
         return {
             "phy": phy,
-            "estimate": float(f"{r['ber']:.3g}"),
-            "lower": float(f"{r['ber_lo']:.3g}"),
-            "upper": float(f"{r['ber_hi']:.3g}"),
-            "objective": r["objective"],
-            "errors": r["rx_errors"],
+            "estimate": float(f"{value('ber', i):.3g}"),
+            "lower": float(f"{value('ber_lo', i):.3g}"),
+            "upper": float(f"{value('ber_hi', i):.3g}"),
+            "objective": value("objective", i),
+            "errors": value("rx_errors", i),
             "exceeds": bool(self.allowed.signs.errors[i]),
         }
 
@@ -295,11 +319,15 @@ class DiagnosisBatch:
         if verdict is Verdict.NO_DATA:
             said = f"no: {self.note[i]}"
             return [_q(GUARD_POLLS, False, "polls", float(self.polls[i]), 2.0, said)]
-        r = self.row(i)
-        resolution, needed = r["resolution"], r["frames_needed"]
+        value = self.measured
+        resolution, needed, frames = (
+            value("resolution", i),
+            value("frames_needed", i),
+            value("rx_frames", i),
+        )
         text = GUARD_TRAFFIC.format(t=format_ratio(resolution, ratio_scale(resolution)))
-        said = traffic_said(r["rx_frames"], r["rx_errors"], self.window_s[i], needed)
-        return [_q(text, False, "rx_frames", rounded(r["rx_frames"]), needed, said)]
+        said = traffic_said(frames, value("rx_errors", i), self.window_s[i], needed)
+        return [_q(text, False, "rx_frames", rounded(frames), needed, said)]
 
 
 def headline(record: DiagnosisRecord) -> str:

@@ -22,8 +22,7 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
-from linktriage.measures import MIN_EVENTS
-from linktriage.physics import MIN_LATE_COLLISIONS
+from linktriage.measures import MIN_COLLISIONS, MIN_EVENTS
 from linktriage.polls import FloatArray
 
 
@@ -32,8 +31,8 @@ class Feature:
     """A tree input: its name, how its values read, and its value when nothing was counted."""
 
     name: str
-    kind: str  # "times" (log10 of a multiple), "log_ratio" (log10 per frame), "share",
-    #            "flag", "db", "per_hour", "log_fps"
+    kind: str  # "times" (log10 of a multiple), "multiple", "log_ratio" (log10 per frame),
+    #            "share", "flag", "db", "per_hour", "log_fps"
     neutral: float
     low: float  # values are clipped to [low, high]
     high: float
@@ -41,7 +40,7 @@ class Feature:
 
 FEATURES: tuple[Feature, ...] = (
     Feature("ber_over_objective", "times", -4.0, -4.0, 8.0),
-    Feature("runt_share", "share", 0.0, 0.0, 1.0),
+    Feature("runts_vs_collisions", "multiple", 0.0, 0.0, 20.0),
     Feature("late_collision_ratio", "log_ratio", -13.0, -13.0, 0.0),
     Feature("collision_ratio", "log_ratio", -13.0, -13.0, 0.0),
     Feature("half_duplex", "flag", 0.0, 0.0, 1.0),
@@ -91,16 +90,14 @@ def feature_rows(m: pd.DataFrame) -> FeatureRows:
     runts = m["runts"].to_numpy()
     raw = {
         "ber_over_objective": _log10(ber_lo / m["objective"].to_numpy()),
-        "runt_share": _counted(m["runt_share"].to_numpy(), runts, MIN_EVENTS),
+        "runts_vs_collisions": _counted(m["runts_vs_collisions"].to_numpy(), runts, MIN_EVENTS),
         "late_collision_ratio": _log10(
-            _counted(
-                m["late_ratio"].to_numpy(), m["late_collisions"].to_numpy(), MIN_LATE_COLLISIONS
-            )
+            _counted(m["late_ratio"].to_numpy(), m["late_collisions"].to_numpy(), MIN_COLLISIONS)
         ),
         "collision_ratio": _log10(
-            _counted(m["collision_ratio"].to_numpy(), m["collisions"].to_numpy(), MIN_EVENTS)
+            _counted(m["collision_ratio"].to_numpy(), m["collisions"].to_numpy(), MIN_COLLISIONS)
         ),
-        "half_duplex": m["half_duplex"].to_numpy(),
+        "half_duplex": m["half_duplex_seen"].to_numpy(),
         "speed_ratio": m["speed_ratio"].to_numpy(),
         "giant_ratio": _log10(
             _counted(m["giant_ratio"].to_numpy(), m["giants"].to_numpy(), MIN_EVENTS)

@@ -42,15 +42,25 @@ from linktriage.window import WindowTable
 #: One-sided confidence of every bound on a ratio.
 CONFIDENCE = 0.95
 #: Fewest events (errored frames, runts, frames too long, discards) that make evidence: a
-#: handful is a re-seated cord or one burst of noise, not grounds to send someone to a closet
-#: (common practice).
-MIN_EVENTS = 10
+#: handful is a re-seated cord or one burst of noise, not grounds to send someone to a closet;
+#: a fault shows dozens (common practice).
+MIN_EVENTS = 20
+#: Fewest collisions (late or not) that show a port runs half duplex: the collision counters
+#: do not increment in full duplex (RFC 3635), so a few are enough; three, so that one
+#: miscounted event does not decide.
+MIN_COLLISIONS = 3
 #: A clean port is judged once its frames bound the error ratio below the ratio at which
 #: the bit error ratio would be this many times the PHY's objective (a fault that loses one
 #: frame in a few hundred thousand or more)...
 RESOLUTION_TIMES_OBJECTIVE = 1e4
-#: ... or below this frame error ratio, whichever is smaller: one errored frame in 100,000.
-RESOLUTION_CAP = 1e-5
+#: ... or below this frame error ratio, whichever is smaller: one errored frame in 10,000,
+#: the loss at which TCP throughput visibly suffers (common practice).
+RESOLUTION_CAP = 1e-4
+
+#: A module's low warning sits a couple of dB above its low alarm (the common spacing of
+#: SFF-8472 thresholds, common practice); where a module gives no warning, or no thresholds
+#: at all, light is held against its alarm, or the PHY's receiver sensitivity, plus this.
+WARN_ABOVE_FLOOR_DB = 2.0
 
 #: Where a device's counter names come from, for the notes on counter faults.
 _NAME = {q.key: q.c32 or q.hc or q.key for q in QUANTITIES}
@@ -228,6 +238,7 @@ def measure(w: WindowTable) -> Measured:
     )
 
     runts = _nansum(d["undersize"], d["fragments"])
+    runt_share = _ratio(runts, runts + _zero(rx_errors))
     collisions = _nansum(
         d["single_collisions"], d["multiple_collisions"], d["excessive_collisions"]
     )
@@ -254,6 +265,8 @@ def measure(w: WindowTable) -> Measured:
     sensitivity = np.where(fiber == 1.0, _per_pair(speed, fiber, _sensitivity), np.nan)
     floor = np.where(np.isnan(alarm), sensitivity, alarm)  # the least light that still works
     reference = np.where(np.isnan(warn), floor, warn)
+    # Where a module gives no warning, one is taken WARN_ABOVE_FLOOR_DB above its floor.
+    warning = np.where(np.isnan(warn), floor + WARN_ABOVE_FLOOR_DB, warn)
     # 1: the module's low warning, 2: its low alarm, 3: the PHY's receiver sensitivity.
     reference_kind = np.where(
         ~np.isnan(warn),
@@ -269,6 +282,14 @@ def measure(w: WindowTable) -> Measured:
             "max_speed_bps": st["max_speed_bps"],
             "speed_ratio": _ratio(speed, st["max_speed_bps"]),
             "half_duplex": st["half_duplex"],
+            # Collisions happen only in half duplex: counted, they show it whatever the
+            # duplex state says (or where it says nothing).
+            "half_duplex_seen": np.where(
+                (_zero(collisions) >= MIN_COLLISIONS)
+                | (_zero(d["late_collisions"]) >= MIN_COLLISIONS),
+                1.0,
+                st["half_duplex"],
+            ),
             "fiber": fiber,
             "poe": st["poe"],
             "mtu": st["mtu"],
@@ -293,7 +314,10 @@ def measure(w: WindowTable) -> Measured:
             "resolution": resolution,
             "frames_needed": frames_needed(resolution),
             "runts": runts,
-            "runt_share": _ratio(runts, runts + _zero(rx_errors)),
+            "runt_share": runt_share,
+            # Collisions cut frames at a random point: about slot / frame of the frames they
+            # damage arrive shorter than the 64-octet slot, as runts. 1 is that share.
+            "runts_vs_collisions": runt_share * frame_octets / MIN_FRAME_OCTETS,
             "late_collisions": d["late_collisions"],
             "late_ratio": _ratio(d["late_collisions"], tx_frames),
             "collisions": collisions,
@@ -313,7 +337,7 @@ def measure(w: WindowTable) -> Measured:
             "rx_warn_dbm": warn,
             "rx_reference_dbm": reference,
             "rx_reference_kind": reference_kind,
-            "light_margin_db": rx_dbm - reference,
+            "light_margin_db": rx_dbm - warning,
             "floor_margin_db": rx_dbm - floor,
             "tx_dbm": optics["tx_power_dbm"],
             "tx_alarm_dbm": optics["tx_power_low_alarm_dbm"],

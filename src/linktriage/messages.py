@@ -11,6 +11,7 @@ from collections.abc import Callable, Mapping
 from typing import Any
 
 from linktriage.counters import FRAME_OVERHEAD_OCTETS, MIN_FRAME_OCTETS, SLOT_TIME_BITS
+from linktriage.measures import MIN_COLLISIONS, MIN_EVENTS
 
 #: For each feature: the question asked when the tree splits on it once (``{t}`` is the
 #: threshold as it reads), answered "yes" when the measured value is above the threshold;
@@ -21,10 +22,11 @@ QUESTIONS: dict[str, tuple[str, str]] = {
         "Bit error ratio, at the low end of its 95% range, between {lo} and {hi} the PHY's "
         "objective?",
     ),
-    "runt_share": (
-        f"Runts (frames under {MIN_FRAME_OCTETS} octets) more than {{t}} of the receive errors?",
-        f"Runts (frames under {MIN_FRAME_OCTETS} octets) between {{lo}} and {{hi}} of the "
-        "receive errors?",
+    "runts_vs_collisions": (
+        f"Runts (frames under {MIN_FRAME_OCTETS} octets) more than {{t}} the share of receive "
+        "errors that collisions leave as runts (the slot time over the frame length)?",
+        f"Runts (frames under {MIN_FRAME_OCTETS} octets) between {{lo}} and {{hi}} the share of "
+        "receive errors that collisions leave as runts (the slot time over the frame length)?",
     ),
     "late_collision_ratio": (
         f"Late collisions (after the first {SLOT_TIME_BITS} bit times) on more than {{t}} "
@@ -48,10 +50,10 @@ QUESTIONS: dict[str, tuple[str, str]] = {
         f"(its MTU plus {FRAME_OVERHEAD_OCTETS} octets of header and FCS)?",
     ),
     "light_margin_db": (
-        "Received light more than {t} above its low threshold (the module's warning, else "
-        "its alarm, else the receiver's sensitivity)?",
-        "Received light between {lo} and {hi} above its low threshold (the module's warning, "
-        "else its alarm, else the receiver's sensitivity)?",
+        "Received light more than {t} above the module's low warning (or, with no warning, "
+        "2 dB over its low alarm or the receiver's sensitivity)?",
+        "Received light between {lo} and {hi} above the module's low warning (or, with no "
+        "warning, 2 dB over its low alarm or the receiver's sensitivity)?",
     ),
     "tx_margin_db": (
         "Transmitted light more than {t} above the module's low alarm?",
@@ -75,20 +77,23 @@ QUESTIONS: dict[str, tuple[str, str]] = {
     ),
 }
 #: A split this low on a per-frame ratio only asks whether the events were counted at all
-#: (a ratio under ten events reads as none): 1e-9 per frame is ten events among 10^10
-#: frames, more than most ports carry in a window.
+#: (a ratio of fewer events than make evidence reads as none): 1e-9 per frame is ten events
+#: among 10^10 frames, more than most ports carry in a window.
 ANY_BELOW = -9.0
 #: The question such a split asks, per feature.
 ANY_QUESTIONS: dict[str, str] = {
     "late_collision_ratio": (
-        f"Late collisions (after the first {SLOT_TIME_BITS} bit times) counted, three or more?"
+        f"Late collisions (after the first {SLOT_TIME_BITS} bit times) counted, "
+        f"{MIN_COLLISIONS} or more?"
     ),
-    "collision_ratio": "Collisions counted, ten or more?",
+    "collision_ratio": f"Collisions counted, {MIN_COLLISIONS} or more?",
     "giant_ratio": (
         "Received frames too long for this port (its MTU plus "
-        f"{FRAME_OVERHEAD_OCTETS} octets of header and FCS) counted, ten or more?"
+        f"{FRAME_OVERHEAD_OCTETS} octets of header and FCS) counted, {MIN_EVENTS} or more?"
     ),
-    "discard_ratio": "Frames discarded, ten or more, in the direction with the most discards?",
+    "discard_ratio": (
+        f"Frames discarded, {MIN_EVENTS} or more, in the direction with the most discards?"
+    ),
 }
 NOT_REPORTED = "not reported, so no evidence of it"
 NONE_COUNTED = "none"
@@ -96,6 +101,11 @@ NONE_COUNTED = "none"
 
 def sig(x: float, digits: int = 2) -> str:
     """A number to ``digits`` significant figures, grouped, never in exponent notation."""
+    short = f"{x:.{digits}g}"  # correctly rounded; exponent notation only when large or tiny
+    if "e" not in short:
+        return short
+    if short[-3] == "+":  # large: group the rounded integer
+        return f"{float(short):,.0f}"
     if x == 0 or not math.isfinite(x):
         return "0" if x == 0 else str(x)
     decimals = digits - 1 - math.floor(math.log10(abs(x)))
@@ -136,6 +146,8 @@ def _reader(kind: str, threshold: float | None) -> Callable[[float], str]:
         return lambda v: format_ratio(10.0**v, scale)
     if kind == "times":
         return lambda v: times(10.0**v)
+    if kind == "multiple":
+        return times
     if kind == "log_fps":
         return lambda v: f"{sig(10.0**v)} frames/s"
     if kind == "share":
@@ -162,6 +174,8 @@ def format_threshold(kind: str, threshold: float) -> str:
         return format_ratio(10.0**threshold, ratio_scale(10.0**threshold))
     if kind == "times":
         return times(10.0**threshold)
+    if kind == "multiple":
+        return times(threshold)
     if kind == "log_fps":
         return f"{sig(10.0**threshold)} frames/s"
     if kind == "share":

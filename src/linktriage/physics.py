@@ -22,31 +22,28 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
-from linktriage.measures import MIN_EVENTS
+from linktriage.measures import MIN_COLLISIONS, MIN_EVENTS
 from linktriage.phy import half_duplex_exists
 from linktriage.verdicts import TREE_VERDICTS, Verdict
 
 BoolArray = npt.NDArray[np.bool_]
 
-#: Two down/up cycles in the window: one is a reboot or a re-patch, more is flapping
-#: (OpenConfig interface-transitions: one flap counts 2; "several an hour" is common practice).
-FLAPPING_CHANGES = 4
-#: A late collision is never normal (RFC 3635 dot3StatsLateCollisions; IEEE 802.3 clause
-#: 4.4.2 slotTime); three, so that one miscounted event does not make a verdict.
-MIN_LATE_COLLISIONS = 3
-#: A direction below this many frames per second is silent; the other must carry at least
-#: ALIVE_FPS for the link to be one-way rather than idle (common practice: a live switch
-#: link carries control frames every few seconds, e.g. IEEE 802.1D BPDUs every 2 s).
-SILENT_FPS = 0.1
-ALIVE_FPS = 1.0
-#: Discards are congestion only where their direction runs at half of line rate or more,
+#: Three down/up cycles in the window: one or two are a reboot or a re-patch, several is
+#: flapping (OpenConfig interface-transitions: one flap counts 2; common practice).
+FLAPPING_CHANGES = 6
+#: A direction that carried no more than SILENT_FRAMES frames in the window, or fewer than
+#: one in 1 / SILENT_FPS seconds, is silent: a broken strand or pair passes nothing, and any
+#: live neighbour sends keepalives far more often (IEEE 802.1D BPDUs every 2 s, IEEE
+#: 802.1AB LLDP every 30 s). The other direction must carry at least ALIVE_FPS for the
+#: link to be one-way rather than idle (common practice).
+SILENT_FRAMES = 2
+SILENT_FPS = 0.01
+ALIVE_FPS = 3.0
+#: Discards are congestion only where their direction runs at 60% of line rate or more,
 #: averaged over the window; below it they are filtering (ifInDiscards counts VLAN, STP and
 #: unknown-protocol drops, RFC 2863), policing, or a short burst the average hides, not a
 #: capacity problem (common practice: capacity is planned at 50-70% sustained load).
-CONGESTED_UTILISATION = 0.5
-#: Received light this close to the module's low warning (or alarm, or the PHY's
-#: sensitivity) is near it (common practice: a margin of a few dB is kept for ageing).
-NEAR_LIGHT_DB = 2.0
+CONGESTED_UTILISATION = 0.6
 #: Transmit power this close to the module's own low alarm is failing (common practice).
 NEAR_TX_DB = 1.0
 #: Upper case temperature of commercial-grade transceivers, 0 to 70 degrees C (common
@@ -72,7 +69,7 @@ class Signs:
     half_exists: BoolArray
     giants: BoolArray
     optics: BoolArray
-    light_low: BoolArray  # near or under the module's low warning / alarm / sensitivity
+    light_low: BoolArray  # under the module's low warning (a warning is "near the alarm")
     light_under_alarm: BoolArray
     tx_low: BoolArray
     hot: BoolArray
@@ -82,25 +79,27 @@ class Signs:
     @classmethod
     def read(cls, m: pd.DataFrame) -> Signs:
         rx_errors = m["rx_errors"].to_numpy()
-        quiet = np.fmin(m["rx_fps"].to_numpy(), m["tx_fps"].to_numpy())
+        quiet = np.fmin(m["rx_frames"].to_numpy(), m["tx_frames"].to_numpy())
         busy = np.fmax(m["rx_fps"].to_numpy(), m["tx_fps"].to_numpy())
         fps_known = ~np.isnan(m["rx_fps"].to_numpy()) & ~np.isnan(m["tx_fps"].to_numpy())
         return cls(
             enough_frames=(m["rx_frames"] >= m["frames_needed"]).to_numpy(),
             errors=(rx_errors >= MIN_EVENTS) & (m["ber_lo"] > m["objective"]).to_numpy(),
             flapping=_ge(m["link_changes"], FLAPPING_CHANGES),
-            late=_ge(m["late_collisions"], MIN_LATE_COLLISIONS),
+            late=_ge(m["late_collisions"], MIN_COLLISIONS),
             runts=_ge(m["runts"], MIN_EVENTS) & (rx_errors >= MIN_EVENTS),
-            half=(m["half_duplex"] == 1.0).to_numpy(),
+            half=(m["half_duplex_seen"] == 1.0).to_numpy(),
             slow=(m["speed_ratio"] < 1.0).to_numpy(),
             half_exists=half_duplex_exists(m["speed_bps"].to_numpy(), m["fiber"].to_numpy()) == 1.0,
             giants=_ge(m["giants"], MIN_EVENTS),
             optics=(m["has_optics"] == 1.0).to_numpy(),
-            light_low=(m["light_margin_db"] < NEAR_LIGHT_DB).to_numpy(),
+            light_low=(m["light_margin_db"] < 0.0).to_numpy(),
             light_under_alarm=(m["floor_margin_db"] < 0.0).to_numpy(),
             tx_low=(m["tx_margin_db"] < NEAR_TX_DB).to_numpy(),
             hot=(m["temperature_c"] > HOT_C).to_numpy(),
-            silent=fps_known & (quiet < SILENT_FPS) & (busy >= ALIVE_FPS),
+            silent=fps_known
+            & (quiet <= np.fmax(SILENT_FRAMES, SILENT_FPS * m["window_s"].to_numpy()))
+            & (busy >= ALIVE_FPS),
             congested=_ge(m["discards"], MIN_EVENTS)
             & (m["discard_util"] >= CONGESTED_UTILISATION).to_numpy(),
         )
@@ -179,7 +178,7 @@ RULES: tuple[Rule, ...] = (
     ),
     Rule(
         Verdict.NEGOTIATION_DEGRADED,
-        "a speed below the port's capability, or half duplex",
+        "a speed below the port's capability, or half duplex (reported, or shown by collisions)",
         "IEEE 802.3 clause 28 (autonegotiation)",
         lambda s: s.slow | s.half,
     ),
@@ -197,15 +196,15 @@ RULES: tuple[Rule, ...] = (
     ),
     Rule(
         Verdict.OPTIC_DEGRADED,
-        "received light near or under the module's low thresholds, low transmit power, "
-        "or a module running hot",
+        "received light under the module's low warning (near its alarm), low transmit "
+        "power, or a module running hot",
         "SFF-8472 alarm and warning thresholds",
         lambda s: s.light_low | s.tx_low | s.hot,
     ),
     Rule(
         Verdict.UNIDIRECTIONAL,
-        f"one direction silent (under {SILENT_FPS:g} frames/s) while the other carries "
-        f"{ALIVE_FPS:g} frame/s or more",
+        f"one direction silent ({SILENT_FRAMES} frames or fewer in the window, or under "
+        f"{SILENT_FPS:g} frames/s) while the other carries {ALIVE_FPS:g} frames/s or more",
         "common practice",
         lambda s: s.silent,
     ),

@@ -100,10 +100,10 @@ TRAINING = Ranges(
     missing=1.0,
     nuisance=1.0,
     fault_times_objective=(3.0, 1e7),
-    min_events=20.0,
+    min_events=30.0,
     light_alarm_dbm=(-20.0, -10.0),
-    optic_margin_db=(-8.0, 1.5),
-    congested_load=(0.5, 0.97),
+    optic_margin_db=(-8.0, -0.2),
+    congested_load=(0.6, 0.97),
     discard_ratio=(1e-11, 5e-2),
     giant_ratio=(1e-11, 0.3),
     duplex_strength=(1e-4, 0.6),
@@ -124,10 +124,10 @@ SHIFTED = replace(
     missing=2.0,
     nuisance=2.0,
     fault_times_objective=(2.0, 1e8),
-    min_events=18.0,
+    min_events=27.0,
     light_alarm_dbm=(-28.0, -6.0),
-    optic_margin_db=(-12.0, 1.8),
-    congested_load=(0.5, 0.995),
+    optic_margin_db=(-12.0, -0.05),
+    congested_load=(0.6, 0.995),
     discard_ratio=(1e-12, 0.2),
     giant_ratio=(1e-12, 0.6),
     duplex_strength=(1e-5, 0.9),
@@ -183,9 +183,9 @@ def _optics(
 ) -> None:
     """Transceiver readings for fiber ports with diagnostics (``dom``, by default most).
 
-    The received light is set ``rx_over_reference`` dB above the reference an engineer
-    would hold it against: the module's low warning, else its low alarm, else (a module
-    without thresholds) the PHY's receiver sensitivity.
+    The received light is set ``rx_over_reference`` dB above the warning an engineer would
+    hold it against: the module's low warning, else its low alarm or (a module without
+    thresholds) the PHY's receiver sensitivity, plus the usual 2 dB of a warning.
     """
     n = len(p)
     fiber = p["fiber"].to_numpy() == 1.0
@@ -196,7 +196,10 @@ def _optics(
     thresholds = dom & (~_chance(rng, 0.08 * r.missing, n) | np.isnan(sensitivity))
     alarm = rng.uniform(*r.light_alarm_dbm, n)
     warn_offset = np.where(_chance(rng, 0.15 * r.missing, n), np.nan, rng.uniform(1.0, 3.0, n))
-    reference = np.where(thresholds, alarm + np.nan_to_num(warn_offset, nan=0.0), sensitivity)
+    # Without a warning, an engineer holds the light against the alarm (or the PHY's
+    # sensitivity) plus the usual spacing of a warning above it.
+    floor = np.where(thresholds, alarm, sensitivity)
+    reference = np.where(thresholds & ~np.isnan(warn_offset), alarm + warn_offset, floor + 2.0)
     p["dom"] = dom
     p["thresholds"] = thresholds
     p["rx_alarm_dbm"] = np.where(dom, alarm, np.nan)
@@ -239,7 +242,7 @@ def _base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
     least = rng.uniform(0.2, 2.0, n)
     rx_util = np.maximum(rx_util, least * (rx_frame + WIRE_OVERHEAD_OCTETS) * 8 / speed)
     tx_util = np.maximum(tx_util, least * (tx_frame + WIRE_OVERHEAD_OCTETS) * 8 / speed)
-    filtering = ~busy & (rx_util < 0.45) & _chance(rng, 0.3 * r.nuisance, n)
+    filtering = ~busy & (rx_util < 0.55) & _chance(rng, 0.3 * r.nuisance, n)
     mtu = _choice(rng, ((1500, 80), (9000, 12), (9216, 8)), n)
     # Other receive errors in ifInErrors only beside an EtherLike table, which tells them
     # from FCS errors: without it no reading could.
@@ -300,17 +303,19 @@ def _base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
             # Outbound discards: policing or short bursts at low load; on a busy port a
             # stray few (more, on a busy port, is congestion).
             "out_discard_ratio": np.where(
-                _chance(rng, 0.2 * r.nuisance, n) & (tx_util < 0.45),
+                _chance(rng, 0.2 * r.nuisance, n) & (tx_util < 0.55),
                 _log_uniform(rng, 1e-9, 1e-3, n),
                 0.0,
             ),
             "stray_out_discards": np.where(
-                _chance(rng, 0.2 * r.nuisance, n) & (tx_util >= 0.45),
+                _chance(rng, 0.2 * r.nuisance, n) & (tx_util >= 0.55),
                 rng.uniform(0.0, 3.0, n),
                 0.0,
             ),
             # One flap: a reboot of the far end or a re-patch.
-            "link_changes": np.where(_chance(rng, 0.05 * r.nuisance, n), 2.0, 0.0),
+            "link_changes": np.where(
+                _chance(rng, 0.05 * r.nuisance, n), 2.0 * rng.integers(1, 3, n), 0.0
+            ),
             "reports_link_changes": ~_chance(rng, 0.3 * r.missing, n),
             "hc": ~legacy,
             "dot3": dot3,
@@ -318,7 +323,7 @@ def _base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
             "down": False,
         }
     )
-    _optics(p, rng, r, rng.uniform(2.5, 14.0, n))
+    _optics(p, rng, r, rng.uniform(1.5, 14.0, n))
     return p
 
 
@@ -360,9 +365,10 @@ def _cable_fault(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
     p["rx_util"] = np.maximum(p["rx_util"], _log_uniform(rng, 1e-3, 0.5, n))
     p["rx_ber"] = _fault_ber(p, rng, r)
     p["alignment_share"] = rng.uniform(0.0, 0.08, n)
-    p["runt_ratio"] = p["rx_ber"] * p["rx_frame_octets"] * 8 * rng.uniform(0.0, 0.08, n)
+    # Noise rarely shortens a frame: runts are at most a few in a thousand errors.
+    p["runt_ratio"] = p["rx_ber"] * p["rx_frame_octets"] * 8 * rng.uniform(0.0, 0.005, n)
     flapping = _chance(rng, 0.35, n)
-    p["link_changes"] = np.where(flapping, 2 * rng.integers(2, 15, n), 0).astype(float)
+    p["link_changes"] = np.where(flapping, 2 * rng.integers(3, 15, n), 0).astype(float)
     # A link that flaps with clean counters between flaps is a cable fault too.
     clean = flapping & _chance(rng, 0.25, n)
     objective = _objective(p["speed_bps"].to_numpy(), p["fiber"].to_numpy())
@@ -392,7 +398,12 @@ def _duplex_mismatch(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
     # the aborted frames arrive as runts (RMON fragments) beside the FCS errors.
     crc = _at_least(strength * p["tx_util"].to_numpy(), r.min_events, _frames(p, "rx"))
     p["extra_crc_ratio"] = np.where(half_end, 0.05 * crc, crc)
-    runts = _at_least(crc * rng.uniform(0.3, 3.0, n), r.min_events, _frames(p, "rx"))
+    # A collision cuts a frame at a random point: the cut lands within the 64-octet slot,
+    # leaving a runt, about slot / frame of the time (IEEE 802.3 clause 4.4.2 slotTime).
+    cut_early = np.clip(
+        64.0 / p["rx_frame_octets"].to_numpy() * rng.uniform(0.5, 2.0, n), 0.005, 0.9
+    )
+    runts = _at_least(crc * cut_early / (1.0 - cut_early), r.min_events, _frames(p, "rx"))
     p["runt_ratio"] = np.where(half_end, 0.0, runts)
     p["symbols_per_error"] = 0.0  # a clean signal: the damage is in the MAC, not the PHY
     p["rx_ber"] = _objective(p["speed_bps"].to_numpy(), p["fiber"].to_numpy()) * 1e-4
@@ -410,7 +421,8 @@ def _negotiation_degraded(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
     p.loc[optic, ["fiber", "poe"]] = [1.0, 0.0]
     _optics_for(p, optic, rng, r)
     p["half_duplex"] = half.astype(float)
-    p.loc[half, "duplex_reported"] = True
+    # Half duplex shows as reported, or as the collisions of the EtherLike table.
+    p.loc[half & ~p["duplex_reported"].to_numpy(), "dot3"] = True
     # Both ends half duplex: ordinary (early) collisions growing with load, no late ones.
     p["collision_ratio"] = np.where(half, _log_uniform(rng, 0.02, 0.3, n) * p["rx_util"], 0.0)
     # A state reading: it holds on idle ports too.
@@ -425,7 +437,7 @@ def _optics_for(p: pd.DataFrame, rows: np.ndarray, rng: Rng, r: Ranges) -> None:
     if k == 0:
         return
     part = p.loc[rows].copy()
-    _optics(part, rng, r, rng.uniform(2.5, 12.0, k))
+    _optics(part, rng, r, rng.uniform(1.5, 12.0, k))
     for key in ("dom", "thresholds", "rx_alarm_dbm", "warn_offset_db", "rx_margin_db",
                 "tx_power_dbm", "tx_alarm_dbm", "temperature_c", "bias_ma"):  # fmt: skip
         p.loc[rows, key] = part[key].to_numpy()
@@ -483,7 +495,9 @@ def _unidirectional(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
     # The live direction carries a few frames a second at least; the silent one nothing at
     # all, or a stray frame every minute or so.
     busy = _log_uniform(rng, 1e-3, 0.6, n)
-    quiet_fps = np.where(_chance(rng, 0.6, n), 0.0, rng.uniform(0.0, 0.05, n))
+    window = p["window_s"].to_numpy()
+    stray = np.maximum(rng.integers(1, 3, n), rng.uniform(0.0, 0.008, n) * window)
+    quiet_fps = np.where(_chance(rng, 0.6, n), 0.0, np.floor(stray) / window)
     for way, silent in (("rx", rx_quiet), ("tx", ~rx_quiet)):
         live = np.maximum(busy, 5.0 * wire[way] / speed)
         p[f"{way}_util"] = np.where(silent, quiet_fps * wire[way] / speed, live)
@@ -755,7 +769,7 @@ class LiveCounters:
     def at(self, rows: np.ndarray, when: float) -> PollTable:
         """The counters of ``rows`` read at ``when``."""
         p = self.params.iloc[rows].reset_index(drop=True)
-        elapsed = when - self.epoch
+        elapsed = max(when - self.epoch, 0.0)  # before the epoch, counters have not started
         cleared = p["cleared"].to_numpy(np.bool_)
         steps = {k: np.where(cleared, 0.0, v[rows] * elapsed) for k, v in self.rates.items()}
         constants = PortConstants(

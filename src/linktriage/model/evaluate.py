@@ -8,6 +8,7 @@ A simulated healthy port too quiet to judge is expected to come back
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
 
 import numpy as np
@@ -16,6 +17,7 @@ from sklearn.metrics import f1_score, recall_score
 
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
 from linktriage.simulate import Ranges, simulate_prior
+from linktriage.snapshot import read_snapshots
 from linktriage.verdicts import FAULTS, Verdict
 
 
@@ -57,6 +59,20 @@ def expected_verdicts(
     quiet = (expected == Verdict.HEALTHY.value) & ~batch.allowed.signs.enough_frames
     expected[quiet] = Verdict.INSUFFICIENT_TRAFFIC.value
     return expected
+
+
+def score_labelled(
+    model: Model, lines: Iterable[str | bytes], labels: Iterable[dict[str, str]]
+) -> Score:
+    """Diagnose snapshot ``lines`` and score them against ``labels`` (``device``, ``port``,
+    ``expect``): a hand-written or independently generated set."""
+    result = read_snapshots(lines)
+    if result.problems:
+        raise ValueError(f"a labelled set with unreadable lines: {result.problems[0]}")
+    batch = diagnose(result.polls, model)
+    expect = {(label["device"], label["port"]): label["expect"] for label in labels}
+    expected = np.array([expect[key] for key in zip(batch.device, batch.port, strict=True)])
+    return score(expected, np.array([v.value for v in batch.verdict]))
 
 
 def score_simulated(model: Model, ports: int, seed: int, ranges: Ranges) -> Score:

@@ -108,22 +108,34 @@ class Explainer:
         return f"{yes_no(question.answer)}: {question.reads(value)}"
 
     def questions(
-        self, node: int, row: Sequence[float], reported: Sequence[bool] | None = None
+        self,
+        node: int,
+        row: Sequence[float],
+        reported: Sequence[bool] | None = None,
+        answered: dict[tuple[int, int, float, bool], QuestionRecord] | None = None,
     ) -> list[QuestionRecord]:
-        """The questions on the way to ``node`` for the port whose features are ``row``."""
+        """The questions on the way to ``node`` for the port whose features are ``row``.
+
+        ``answered`` keeps questions already answered with the same value, to share between
+        the records of a batch (many ports read zero, or the value of nothing reported)."""
         out: list[QuestionRecord] = []
-        for q in self.steps[node]:
+        for j, q in enumerate(self.steps[node]):
             value = float(row[q.column])
             known = True if reported is None else bool(reported[q.column])
-            record: QuestionRecord = {
-                "question": q.text,
-                "answer": q.answer,
-                "feature": q.feature,
-                "value": rounded(value) if known else None,
-                "threshold": q.threshold,
-                "said": self.said(q, value, known),
-            }
-            if q.range is not None:
-                record["range"] = list(q.range)
+            key = (node, j, value, known)
+            record = None if answered is None else answered.get(key)
+            if record is None:
+                record = {
+                    "question": q.text,
+                    "answer": q.answer,
+                    "feature": q.feature,
+                    "value": rounded(value) if known else None,
+                    "threshold": q.threshold,
+                    "said": self.said(q, value, known),
+                }
+                if q.range is not None:
+                    record["range"] = list(q.range)
+                if answered is not None:
+                    answered[key] = record
             out.append(record)
         return out
