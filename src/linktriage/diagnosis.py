@@ -155,6 +155,18 @@ def advice(
     return tuple(next_checks(verdict, fiber=fiber)), tuple(cautions(verdict, poe=poe, fiber=fiber))
 
 
+@cache
+def advice_lists(
+    verdict: Verdict, fiber: bool | None, poe: bool | None
+) -> tuple[list[str], list[str]]:
+    """:func:`advice` as the lists a record holds, one pair shared by every record alike."""
+    checks, warn = advice(verdict, fiber, poe)
+    return list(checks), list(warn)
+
+
+_BER_COLUMNS = ("fer", "ber", "ber_lo", "ber_hi", "objective", "rx_errors")
+
+
 def _flags(values: npt.NDArray[np.float64]) -> list[bool | None]:
     return [None if v != v else bool(v) for v in values.tolist()]  # v != v: NaN
 
@@ -222,30 +234,37 @@ class DiagnosisBatch:
 
     def record(self, i: int) -> DiagnosisRecord:
         """The full diagnosis of the port in row ``i``."""
-        return self._record(i, self.evidence(i), None)
+        return self.records_many([i])[0]
 
     def records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
-        """The diagnoses of ``rows``, worded together: evidence a verdict at a time, and
-        questions answered alike shared between ports (records are for reading)."""
-        answered: dict[tuple[int, int, float, bool], QuestionRecord] = {}
+        """The diagnoses of ``rows``, worded together: evidence a verdict at a time,
+        questions a node at a time (records are for reading: ports that say the same share
+        the words)."""
         evidence = self.evidence_many(rows)
-        return [self._record(i, e, answered) for i, e in zip(rows, evidence, strict=True)]
+        asked = [i for i in rows if self.node[i] >= 0]
+        questions = dict(
+            zip(
+                asked,
+                self.model.explainer.questions_many(
+                    [self.node[i] for i in asked],
+                    [self.values[i] for i in asked],
+                    [self.reported[i] for i in asked],
+                ),
+                strict=True,
+            )
+        )
+        return [
+            self._record(
+                i, e, questions[i] if i in questions else self._guard_questions(i, self.verdict[i])
+            )
+            for i, e in zip(rows, evidence, strict=True)
+        ]
 
     def _record(
-        self,
-        i: int,
-        evidence: list[EvidenceRecord],
-        answered: dict[tuple[int, int, float, bool], QuestionRecord] | None,
+        self, i: int, evidence: list[EvidenceRecord], questions: list[QuestionRecord]
     ) -> DiagnosisRecord:
         verdict = self.verdict[i]
-        checks, warn = advice(*self.advice_key(i))
-        node = self.node[i]
-        if node >= 0:
-            questions = self.model.explainer.questions(
-                node, self.values[i], self.reported[i], answered
-            )
-        else:
-            questions = self._guard_questions(i, verdict)
+        checks, warn = advice_lists(*self.advice_key(i))
         return {
             "device": self.device[i],
             "port": self.port[i],
@@ -255,8 +274,8 @@ class DiagnosisBatch:
             "questions": questions,
             "evidence": evidence,
             "ruled_out": self.ruled_out_record(i),
-            "next_checks": list(checks),
-            "cautions": list(warn),
+            "next_checks": checks,
+            "cautions": warn,
             "model_version": self.model.version,
             "window_s": self.window_s[i],
             "polls": self.polls[i],
@@ -299,16 +318,16 @@ class DiagnosisBatch:
         phy = self.phy[i]
         if self.verdict[i] not in _BER_VERDICTS or phy is None:
             return None
-        value = self.measured
-        if value("fer", i) != value("fer", i):  # NaN: no receive error counts to estimate from
+        fer, ber, lower, upper, objective, errors = (self.column(name)[i] for name in _BER_COLUMNS)
+        if fer != fer:  # NaN: no receive error counts to estimate from
             return None
         return {
             "phy": phy,
-            "estimate": float(f"{value('ber', i):.3g}"),
-            "lower": float(f"{value('ber_lo', i):.3g}"),
-            "upper": float(f"{value('ber_hi', i):.3g}"),
-            "objective": value("objective", i),
-            "errors": value("rx_errors", i),
+            "estimate": float(f"{ber:.3g}"),
+            "lower": float(f"{lower:.3g}"),
+            "upper": float(f"{upper:.3g}"),
+            "objective": objective,
+            "errors": errors,
             "exceeds": bool(self.allowed.signs.errors[i]),
         }
 

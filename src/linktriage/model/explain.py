@@ -107,35 +107,56 @@ class Explainer:
             return f"{yes_no(question.answer)}: {NOT_REPORTED}"
         return f"{yes_no(question.answer)}: {question.reads(value)}"
 
-    def questions(
-        self,
-        node: int,
-        row: Sequence[float],
-        reported: Sequence[bool] | None = None,
-        answered: dict[tuple[int, int, float, bool], QuestionRecord] | None = None,
-    ) -> list[QuestionRecord]:
-        """The questions on the way to ``node`` for the port whose features are ``row``.
+    def _answered(self, q: PathQuestion, value: float, known: bool) -> QuestionRecord:
+        record: QuestionRecord = {
+            "question": q.text,
+            "answer": q.answer,
+            "feature": q.feature,
+            "value": rounded(value) if known else None,
+            "threshold": q.threshold,
+            "said": self.said(q, value, known),
+        }
+        if q.range is not None:
+            record["range"] = list(q.range)
+        return record
 
-        ``answered`` keeps questions already answered with the same value, to share between
-        the records of a batch (many ports read zero, or the value of nothing reported)."""
-        out: list[QuestionRecord] = []
-        for j, q in enumerate(self.steps[node]):
-            value = float(row[q.column])
-            known = True if reported is None else bool(reported[q.column])
-            key = (node, j, value, known)
-            record = None if answered is None else answered.get(key)
-            if record is None:
-                record = {
-                    "question": q.text,
-                    "answer": q.answer,
-                    "feature": q.feature,
-                    "value": rounded(value) if known else None,
-                    "threshold": q.threshold,
-                    "said": self.said(q, value, known),
-                }
-                if q.range is not None:
-                    record["range"] = list(q.range)
-                if answered is not None:
-                    answered[key] = record
-            out.append(record)
+    def questions(
+        self, node: int, row: Sequence[float], reported: Sequence[bool] | None = None
+    ) -> list[QuestionRecord]:
+        """The questions on the way to ``node`` for the port whose features are ``row``."""
+        return [
+            self._answered(
+                q, float(row[q.column]), True if reported is None else bool(reported[q.column])
+            )
+            for q in self.steps[node]
+        ]
+
+    def questions_many(
+        self,
+        nodes: Sequence[int],
+        rows: Sequence[Sequence[float]],
+        reported: Sequence[Sequence[bool]],
+    ) -> list[list[QuestionRecord]]:
+        """The questions of many ports (``nodes[k]``, ``rows[k]``), asked a node at a time:
+        ports that answer a question with the same value share its record (records are for
+        reading)."""
+        out: list[list[QuestionRecord]] = [[] for _ in nodes]
+        groups: dict[int, list[int]] = {}
+        for k, node in enumerate(nodes):
+            groups.setdefault(node, []).append(k)
+        for node, places in groups.items():
+            columns = []
+            for q in self.steps[node]:
+                column = q.column
+                made: dict[tuple[float, bool], QuestionRecord] = {}
+                answers = []
+                for k in places:
+                    key = (rows[k][column], reported[k][column])
+                    record = made.get(key)
+                    if record is None:
+                        record = made[key] = self._answered(q, *key)
+                    answers.append(record)
+                columns.append(answers)
+            for n, k in enumerate(places):
+                out[k] = [answers[n] for answers in columns]
         return out
