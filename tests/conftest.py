@@ -25,7 +25,11 @@ def clean_environment(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     """Every test gets its own empty data directory: no trained model from elsewhere."""
     monkeypatch.setenv("LINKTRIAGE_HOME", str(tmp_path / "home"))
     for name in list(os.environ):
-        if name.startswith(("LINKTRIAGE_", "SLACK_")) and name != "LINKTRIAGE_HOME":
+        if name.startswith(("LINKTRIAGE_", "SLACK_")) and name not in (
+            "LINKTRIAGE_HOME",
+            "LINKTRIAGE_REQUIRE_AGENTS",
+            "LINKTRIAGE_AGENT_PATH",
+        ):
             monkeypatch.delenv(name)
     monkeypatch.delenv("XDG_DATA_HOME", raising=False)
 

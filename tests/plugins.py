@@ -21,6 +21,7 @@ ENTRY_POINTS = """[linktriage.collectors]
 hang = plugins:HangingCollector
 refuse = plugins:RefusingCollector
 garbage = plugins:GarbageCollector
+broken = plugins:BrokenCollector
 notone = plugins:NotACollector
 """
 
@@ -80,6 +81,18 @@ class GarbageCollector(Collector):
             )
 
         return Reading([snap("p1", 5), snap("p2", 2**40)], {"p3": "missing ifName"})
+
+
+class BrokenCollector(Collector):
+    """A collector with a bug: it fails with an error of Python's, not of linktriage's."""
+
+    needs_address = False
+
+    async def ports(self) -> list[str]:
+        return ["p1"]
+
+    async def read(self, ports: Sequence[str] | None = None) -> Reading:
+        raise ValueError("invalid literal for int() with base 10: b''")
 
 
 class NotACollector:

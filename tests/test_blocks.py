@@ -76,8 +76,9 @@ def _suspects(cable: DiagnosisReply, count: int) -> SuspectsReply:
         for n in range(1, count + 1)
     ]
     return SuspectsReply(
-        "Digest of suspect links", items, 5000, ["lark-west-idf1"], 1.0, since=0.5, cleared=["a b"]
-    )
+        "Digest of suspect links", items, 5000, {"insufficient_traffic": 3},
+        {"lark-west-idf1": "no answer within 2 s"}, 1.0, since=0.5, cleared=["a b"],
+    )  # fmt: skip
 
 
 def test_a_digest_of_200_suspects_fits_one_message(cable: DiagnosisReply) -> None:

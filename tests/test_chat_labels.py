@@ -63,3 +63,35 @@ def test_a_digest_reply_names_its_link_by_number_or_name() -> None:
 
 def test_mentions_are_not_read_as_words() -> None:
     assert parse_label("<@U0CABLE> confirmed") == LabelIntent(None, "confirmed")
+
+
+@pytest.mark.parametrize(
+    ("text", "negated"),
+    [
+        ("not a cable fault, the far-end NIC was bad", [Verdict.CABLE_FAULT]),
+        ("wasn't duplex", [Verdict.DUPLEX_MISMATCH]),
+        ("cable fault? no.", [Verdict.CABLE_FAULT]),
+        ("no congestion here", [Verdict.CONGESTION]),
+        ("not congestion, the backup job is fine", [Verdict.CONGESTION]),
+    ],
+)
+def test_a_reply_that_negates_a_verdict_is_asked_back_never_stored_as_it(
+    text: str, negated: list[Verdict]
+) -> None:
+    intent = parse_label(text)
+    assert isinstance(intent, Unclear)
+    assert intent.negated == negated
+    assert not set(negated) & set(intent.candidates)
+
+
+def test_a_reply_that_negates_one_verdict_and_names_another_is_the_other() -> None:
+    # "backup job" alone would read as congestion; negated here, the reply says healthy.
+    assert parse_label("not congestion, the backup job is fine, false alarm") == LabelIntent(
+        Verdict.HEALTHY, "not congestion, the backup job is fine, false alarm"
+    )
+    assert parse_label("not duplex: a crushed patch cord") == LabelIntent(
+        Verdict.CABLE_FAULT, "not duplex: a crushed patch cord"
+    )
+    assert parse_label("it wasn't the cable_fault, optic_degraded") == LabelIntent(
+        Verdict.OPTIC_DEGRADED, "it wasn't the cable_fault"
+    )

@@ -12,7 +12,10 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from linktriage.cli import main
+from linktriage.cli import READ_NONE, READ_SOME, main
+
+import plugins
+from helpers import grown
 
 COMMANDS = ["diagnose", "ask", "train", "model", "demo", "chat", "config", "labels"]
 
@@ -264,3 +267,75 @@ def test_config_check_names_bad_settings(tmp_path: Path) -> None:
     config.write_text('[schedule]\ntimezone = "Mars/Base"\n')
     code, _, err = run("config", "check", "--config", str(config))
     assert code == 1 and "schedule.timezone" in err and "Traceback" not in err
+
+
+def _dead_inventory(tmp_path: Path, names: list[str], *, with_demo: bool) -> Path:
+    devices = "".join(
+        f'[[devices]]\nname = "{name}"\nsite = "annex"\ncollector = "hang"\n'
+        "timeout_s = 0.2\nretries = 0\n"
+        for name in names
+    )
+    if with_demo:
+        devices += '[[devices]]\nname = "lark-annex-sw1"\nsite = "annex"\ncollector = "demo"\n'
+    path = tmp_path / "inventory.toml"
+    path.write_text(devices)
+    return path
+
+
+def test_a_sweep_where_nothing_answers_names_every_device_and_clears_nothing(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    plugins.install(tmp_path / "site", monkeypatch)
+    inventory = _dead_inventory(tmp_path, ["lark-dead1", "lark-dead2"], with_demo=False)
+    code, out, _ = run("sweep", "--inventory", str(inventory))
+    assert code == READ_NONE == 4
+    assert "Nothing was read" in out
+    for name in ("lark-dead1", "lark-dead2"):
+        assert f"{name}: could not list its ports: no answer within" in out
+    assert "No suspects" not in out and "Nothing suspect" not in out
+
+
+def test_a_sweep_where_some_devices_answer_says_what_was_not_read(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    plugins.install(tmp_path / "site", monkeypatch)
+    inventory = _dead_inventory(tmp_path, ["lark-dead1"], with_demo=True)
+    settings = tmp_path / "config.toml"
+    settings.write_text("[chat]\nquick_window_s = 1\n")
+    code, out, err = run(
+        "sweep", "--json", "--inventory", str(inventory), "--config", str(settings)
+    )
+    assert code == READ_SOME == 3
+    assert "1 device not read (lark-dead1: could not list its ports: no answer" in err
+    assert any(json.loads(line)["device"] == "lark-annex-sw1" for line in out.splitlines())
+
+
+def test_collect_from_a_device_that_never_answers_says_so_and_exits_4(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    plugins.install(tmp_path / "site", monkeypatch)
+    inventory = _dead_inventory(tmp_path, ["lark-dead1"], with_demo=False)
+    out = tmp_path / "out.jsonl"
+    code, _, err = run(
+        "collect", "--inventory", str(inventory), "--device", "dead1", "--out", str(out)
+    )
+    assert code == READ_NONE
+    assert "lark-dead1: no answer to a read within 0.2 s" in err
+    assert "wrote 0 snapshots of lark-dead1 in 0 polls" in err
+
+
+def test_control_characters_in_names_are_shown_not_obeyed(tmp_path: Path) -> None:
+    # A device name that clears the screen, a port name that forges a table row.
+    lines = grown(
+        {"ifHCInUcastPkts": 10**6, "ifHCOutUcastPkts": 10**6},
+        device="sw\u001b[2J",
+        port="p1\nlark-core1  up1  healthy",
+    )
+    path = tmp_path / "hostile.jsonl"
+    path.write_text("\n".join(lines) + "\n")
+    code, out, _ = run("diagnose", "--snapshots", str(path))
+    assert code == 0
+    assert "\u001b" not in out and "sw\\x1b[2J" in out
+    assert len(out.splitlines()) == 2  # the header and one row, no forged one
+    code, out, _ = run("diagnose", "--snapshots", str(path), "--json")
+    assert json.loads(out)["port"] == "p1\nlark-core1  up1  healthy"  # JSON keeps it exact

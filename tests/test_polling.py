@@ -99,6 +99,21 @@ def test_refusals_and_malformed_ports_are_named(
     assert gathered.problems[("lark-odd1", "p3")] == "missing ifName"
 
 
+def test_a_collector_that_fails_with_a_bug_fails_its_device_only(
+    with_plugins: None, closing: list[InventoryNetwork]
+) -> None:
+    network = network_of(
+        DeviceEntry(name="lark-buggy1", site="annex", collector="broken", ports=["p1"])
+    )
+    closing.append(network)
+    gathered = network.poll_many(dict.fromkeys(network.device_names()))
+    assert gathered.failed == {
+        "lark-buggy1": "the broken collector failed: ValueError: invalid literal for int() "
+        "with base 10: b''"
+    }
+    assert len(gathered.tables) == len(network.device_names()) - 1
+
+
 def test_ports_are_listed_by_the_devices_that_are_not_told_them(
     with_plugins: None, closing: list[InventoryNetwork]
 ) -> None:

@@ -86,7 +86,8 @@ def test_suspects_are_ranked_worst_first(triage: Triage) -> None:
     assert verdicts[:3] == ["unidirectional", "optic_degraded", "cable_fault"]
     assert "healthy" not in verdicts and "link_down" not in verdicts
     assert [i.rank for i in reply.items] == list(range(1, len(reply.items) + 1))
-    assert reply.ports_checked == len(triage.network.ports())
+    assert reply.ports_judged + sum(reply.not_judged.values()) == len(triage.network.ports())
+    assert reply.not_judged["link_down"] == 1 and reply.failed == {}
 
 
 def test_suspects_of_one_site(triage: Triage) -> None:
@@ -110,7 +111,8 @@ def test_a_device_that_does_not_answer_is_named_and_the_rest_still_answer(
     triage = Triage(Flaky(clock=clock), store, model, Settings(), clock=clock, sleep=clock.sleep)
     reply = triage.handle("suspects")
     assert isinstance(reply, SuspectsReply)
-    assert reply.failed_devices == ["lark-west-idf1"]
+    assert reply.failed == {"lark-west-idf1": "no answer within 2 s"}
+    assert "1 device not read (lark-west-idf1: no answer within 2 s)" in reply.coverage
     assert any(i.record["verdict"] == "cable_fault" for i in reply.items)
     asked = triage.handle("lark-west-idf1 port1")
     assert isinstance(asked, ErrorReply)
@@ -155,6 +157,20 @@ def test_a_thread_reply_is_stored_once_then_acknowledged(triage: Triage) -> None
     assert retry is None
     (label,) = triage.store.labels()
     assert label.user_id == "U2" and label.note == "crushed patch cord behind the desk"
+
+
+@pytest.mark.parametrize(
+    "text",
+    ["not a cable fault, the far-end NIC was bad", "wasn't cable", "cable fault? no."],
+)
+def test_a_reply_that_negates_the_verdict_stores_nothing_and_asks_back(
+    triage: Triage, text: str
+) -> None:
+    _posted(triage, "lark-east-idf2 port14")
+    reply = triage.label_reply(text, user="U2", channel="C1", thread_ts="100.1", event_key=text)
+    assert isinstance(reply, LabelRefused)
+    assert reply.message.startswith("Not `cable_fault`, then: nothing was recorded.")
+    assert triage.store.labels() == []
 
 
 def test_talk_in_a_thread_and_other_threads_are_left_alone(triage: Triage) -> None:

@@ -139,3 +139,10 @@ def test_numbers_written_as_strings_still_read_through_the_model() -> None:
     text = line(counters={"ifHCInOctets": 5}).replace("5}", '"5"}')
     result = read_snapshots([text])
     assert result.problems == [] and len(result.polls) == 1
+
+
+def test_a_byte_order_mark_at_the_start_of_a_file_is_not_part_of_the_first_line() -> None:
+    first = line(counters={"ifHCInOctets": 5})
+    result = read_snapshots([b"\xef\xbb\xbf" + first.encode(), line(counters={"ifHCInOctets": 9})])
+    assert result.problems == [] and len(result.polls) == 2
+    assert read_snapshots(["\ufeff" + first]).problems == []

@@ -11,13 +11,22 @@ import pytest
 from click.testing import CliRunner
 
 from linktriage.cli import main
-from linktriage.collectors.base import CollectorError, DeviceTimeoutError, Target
+from linktriage.collectors.base import CollectorError, DeviceTimeoutError, Reading, Target
 from linktriage.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector
 from linktriage.counters import COLUMN_INDEX
 from linktriage.verdicts import Verdict
 
 from agents.fleet import Fleet
-from agents.snmp import COMMUNITY, V3_AUTH, V3_PRIV, V3_USER, Snmpd, Snmpsim, recorded_walk
+from agents.snmp import (
+    COMMUNITY,
+    SHIPPED,
+    V3_AUTH,
+    V3_PRIV,
+    V3_USER,
+    Snmpd,
+    Snmpsim,
+    recorded_walk,
+)
 from helpers import read_once
 
 
@@ -197,3 +206,97 @@ def test_collect_records_the_local_agent_and_diagnose_reads_the_recording(
     assert {r["device"] for r in records} == {"lark-lab-host"}
     assert all(r["verdict"] in set(Verdict) for r in records)
     assert "0 lines skipped" in diagnosed.stderr
+
+
+@pytest.fixture(scope="module")
+def shipped(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Snmpsim]:
+    """snmpsim serving recordings of real agents from its own package: a Linux host, a
+    Windows XP host, and an agent without sysUpTime."""
+    texts = {name: path.read_text() for name, path in SHIPPED.items()}
+    first = "linux-full-walk"
+    agent = Snmpsim(
+        tmp_path_factory.mktemp("shipped"),
+        texts[first].splitlines(),
+        community=first,
+        more={k: v for k, v in texts.items() if k != first},
+    )
+    yield agent
+    agent.stop()
+
+
+def _recorded(name: str, oid: str) -> str:
+    for line in SHIPPED[name].read_text().splitlines():
+        if line.startswith(oid + "|"):
+            return line.split("|", 2)[2]
+    raise KeyError(oid)
+
+
+def read_shipped(agent: Snmpsim, community: str, monkeypatch: pytest.MonkeyPatch) -> Reading:
+    monkeypatch.setenv("SHIPPED_COMMUNITY", community)
+    return read_once(collector(agent.port, {"community": {"env": "SHIPPED_COMMUNITY"}}))
+
+
+def test_a_recorded_linux_host_reads_as_recorded(
+    shipped: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    reading = read_shipped(shipped, "linux-full-walk", monkeypatch)
+    assert reading.problems == {}
+    ports = {s.port: s for s in reading.snapshots}
+    assert set(ports) == {"lo", "eth0"}  # ifName (RFC 2863 ifXTable), as recorded
+    expected = int(_recorded("linux-full-walk", f"{IF_ENTRY}.10.2"))  # ifInOctets of eth0
+    assert ports["eth0"].counters["ifInOctets"] == expected
+    assert ports["eth0"].discontinuity_time is not None  # placed by the recorded sysUpTime
+
+
+def test_a_recorded_windows_host_reads_with_clean_names(
+    shipped: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # This agent has no ifName and ends each ifDescr with a NUL byte, C style.
+    reading = read_shipped(shipped, "winxp-full-walk", monkeypatch)
+    names = [s.port for s in reading.snapshots]
+    assert "MS TCP Loopback interface" in names
+    assert all(name.isprintable() for name in names)
+
+
+def test_an_agent_without_sysuptime_still_reads(
+    shipped: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # noSuchObject for sysUpTime (RFC 3416 exception value): the counters still read, but no
+    # discontinuity time can be placed without the agent's clock.
+    reading = read_shipped(shipped, "multiplex-00000", monkeypatch)
+    assert [s.port for s in reading.snapshots] == ["lo0", "gif0", "stf0", "en0", "p2p0"]
+    assert all(s.discontinuity_time is None for s in reading.snapshots)
+
+
+def test_a_sweep_over_recorded_hosts_and_a_dead_device_names_the_dead_one(
+    shipped: Snmpsim, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    devices = ""
+    for name in SHIPPED:
+        env = name.upper().replace("-", "_")
+        monkeypatch.setenv(env, name)
+        devices += (
+            f'[[devices]]\nname = "lark-lab-{name}"\nsite = "lab"\ncollector = "snmp"\n'
+            f'address = "127.0.0.1"\n[devices.options]\nport = {shipped.port}\n'
+            f'community = {{ env = "{env}" }}\n'
+        )
+    monkeypatch.setenv("DEAD_COMMUNITY", "nobody-home")
+    devices += (
+        '[[devices]]\nname = "lark-lab-dead"\nsite = "lab"\ncollector = "snmp"\n'
+        f'address = "127.0.0.1"\ntimeout_s = 0.3\nretries = 0\n[devices.options]\n'
+        f'port = {shipped.port}\ncommunity = {{ env = "DEAD_COMMUNITY" }}\n'
+    )
+    inventory = tmp_path / "inventory.toml"
+    inventory.write_text(devices)
+    settings = tmp_path / "config.toml"
+    settings.write_text("[chat]\nquick_window_s = 2\n")  # the second poll need not wait long
+    runner = CliRunner()
+    swept = runner.invoke(main, ["sweep", "--inventory", str(inventory), "--config", str(settings)])
+    assert swept.exception is None or isinstance(swept.exception, SystemExit)
+    assert swept.exit_code == 3, swept.output  # some devices not read
+    assert "lark-lab-dead: no answer" in swept.stdout
+    assert "No suspects" not in swept.stdout or "not read" in swept.stdout
+    reached = runner.invoke(main, ["inventory", "check", "--reach", "--inventory", str(inventory)])
+    assert reached.exit_code == 3, reached.output
+    for name in SHIPPED:
+        assert f"lark-lab-{name}: answers" in reached.stdout

@@ -43,6 +43,19 @@ def _config_option(func: F) -> F:
     )(func)
 
 
+#: Exit codes of the commands that read devices (sweep, collect, inventory check --reach):
+#: every device read, some not read (the rest were), nothing read. 1 is an error of
+#: linktriage's own (a bad file or setting), 2 a wrong command line.
+READ_ALL, READ_SOME, READ_NONE = 0, 3, 4
+
+
+def _read_exit(unread: int, read: int) -> None:
+    """Exit with the code that says how much of what was asked for was read."""
+    if unread:
+        sys.exit(READ_SOME if read else READ_NONE)
+    sys.exit(READ_ALL)
+
+
 def _fail(exc: LinktriageError) -> None:
     click.echo(f"linktriage: {exc.render()}", err=True)
     sys.exit(1)
@@ -400,7 +413,11 @@ def inventory() -> None:
 @_config_option
 def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path | None) -> None:
     """Validate the inventory: collectors, options, credential references; optionally
-    whether each device answers."""
+    whether each device answers.
+
+    Exit 1 when the inventory is set up wrongly; with --reach, 3 when some devices do not
+    answer and 4 when none does.
+    """
     import time
 
     from linktriage.inventory import problems
@@ -415,25 +432,32 @@ def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path 
         click.echo(
             f"{device.name} ({device.site}): {device.collector} at {where}, {ports}: {state}"
         )
-    if reach and not bad:
-        network = InventoryNetwork(found)
-        try:
-            for device in found.devices:
-                start = time.monotonic()
-                gathered = network.poll_many({device.name: device.ports})
-                took = time.monotonic() - start
-                if device.name in gathered.failed:
-                    bad[device.name] = gathered.failed[device.name]
-                    click.echo(f"{device.name}: does not answer: {bad[device.name]}")
-                else:
-                    count = len(gathered.tables[device.name])
-                    click.echo(f"{device.name}: answers in {took:.2f} s with {count} ports")
-        finally:
-            network.close()
     if bad:
-        click.echo(f"{len(bad)} of {len(found.devices)} devices cannot be read", err=True)
+        click.echo(f"{len(bad)} of {len(found.devices)} devices are set up wrongly", err=True)
         sys.exit(1)
-    click.echo(f"{len(found.devices)} devices ok")
+    if not reach:
+        click.echo(f"{len(found.devices)} devices ok")
+        return
+    unread: dict[str, str] = {}
+    network = InventoryNetwork(found)
+    try:
+        for device in found.devices:
+            start = time.monotonic()
+            gathered = network.poll_many({device.name: device.ports})
+            took = time.monotonic() - start
+            if device.name in gathered.failed:
+                unread[device.name] = gathered.failed[device.name]
+                click.echo(f"{device.name}: does not answer: {unread[device.name]}")
+            else:
+                count = len(gathered.tables[device.name])
+                click.echo(f"{device.name}: answers in {took:.2f} s with {count} ports")
+    finally:
+        network.close()
+    if unread:
+        click.echo(f"{len(unread)} of {len(found.devices)} devices cannot be read", err=True)
+    else:
+        click.echo(f"{len(found.devices)} devices ok")
+    _read_exit(len(unread), len(found.devices) - len(unread))
 
 
 @main.command()
@@ -466,7 +490,10 @@ def collect(
     inventory_path: Path | None,
     config_path: Path | None,
 ) -> None:
-    """Read a device's counters and write them as snapshots: any collector is a recorder."""
+    """Read a device's counters and write them as snapshots: any collector is a recorder.
+
+    Exit 0 when every poll was read, 3 when some were not, 4 when none was.
+    """
     import time
 
     from linktriage.network import Network
@@ -497,8 +524,7 @@ def collect(
             stream.close()
         network.close()
     click.echo(f"wrote {written} snapshots of {name} in {polls - failures} polls", err=True)
-    if failures == polls:
-        sys.exit(1)
+    _read_exit(failures, polls - failures)
 
 
 @main.command()
@@ -509,7 +535,12 @@ def collect(
 def sweep(
     as_json: bool, inventory_path: Path | None, config_path: Path | None, model_path: Path | None
 ) -> None:
-    """Diagnose every port of the inventory and list the suspect links, worst first."""
+    """Diagnose every port of the inventory and list the suspect links, worst first.
+
+    Every device that could not be read is named, and every port that could not be judged
+    counted: no all-clear covers what was not read. Exit 0 when every device was read, 3
+    when some were not, 4 when none was.
+    """
     from linktriage.chat.text import suspects_text
     from linktriage.diagnosis import Model
     from linktriage.polling import InventoryNetwork
@@ -528,10 +559,11 @@ def sweep(
     if as_json:
         for item in reply.items:
             click.echo(dumps(item.record))
+        click.echo(reply.coverage, err=True)
     else:
         click.echo(suspects_text(reply))
-    for device in reply.failed_devices:
-        click.echo(f"{device}: not read", err=True)
+    read = reply.ports_judged + sum(reply.not_judged.values())
+    _read_exit(len(reply.failed), read)
 
 
 @main.group()

@@ -185,6 +185,15 @@ def format_threshold(kind: str, threshold: float) -> str:
     return sig(threshold)
 
 
+def printable(text: str) -> str:
+    """Text from a device or a file, safe to print on a terminal: control characters (an
+    escape sequence that clears the screen, a newline that forges a table row) are shown
+    escaped, as Python writes them, instead of acted on."""
+    if text.isprintable():
+        return text
+    return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode() for ch in text)
+
+
 def yes_no(answer: bool) -> str:
     return "yes" if answer else "no"
 
@@ -234,6 +243,52 @@ def ber_line(ber: Mapping[str, Any]) -> str:
     )
 
 
+# --- coverage: what a list of suspects rests on
+#: Why a port has no verdict on its health, as a list of suspects says it.
+NOT_JUDGED_WORDS = {
+    "insufficient_traffic": "too quiet to judge",
+    "no_data": "without two usable polls",
+    "link_down": "down",
+}
+
+
+def plural(n: int, one: str, many: str | None = None) -> str:
+    """ "1 port", "2 ports"."""
+    return f"{n:,} {one if n == 1 else (many or one + 's')}"
+
+
+def coverage_words(
+    suspects: int, judged: int, not_judged: Mapping[str, int], failed: Mapping[str, str]
+) -> str:
+    """What a list of suspects covers, in one paragraph. It is an all-clear only when every
+    device was read and every port judged; anything unread or unjudged is named."""
+    if judged == 0 and not any(not_judged.values()) and failed:
+        devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
+        return (
+            f"Nothing was read: {plural(len(failed), 'device')} could not be read ({devices}). "
+            "No port was judged."
+        )
+    if suspects:
+        head = f"{plural(suspects, 'suspect link')} among {plural(judged, 'port')} judged"
+    elif judged:
+        head = f"No suspects among the {plural(judged, 'port')} judged"
+    else:
+        head = "No port could be judged"
+    parts = [head]
+    unjudged = sum(not_judged.values())
+    if unjudged:
+        why = ", ".join(
+            f"{n:,} {NOT_JUDGED_WORDS.get(verdict, verdict)}"
+            for verdict, n in sorted(not_judged.items(), key=lambda kv: -kv[1])
+            if n
+        )
+        parts.append(f"{plural(unjudged, 'port')} not judged ({why})")
+    if failed:
+        devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
+        parts.append(f"{plural(len(failed), 'device')} not read ({devices})")
+    return "; ".join(parts) + "."
+
+
 # --- chat
 def help_lines(command: str) -> list[str]:
     """What the bot's help says, one line each."""
@@ -254,6 +309,9 @@ DIGEST_PROMPT = (
 )
 LABEL_NOT_ALLOWED = "Labels from this channel or person are not taken here."
 LABEL_WHICH = "Which was it: {options}? Reply with one of them."
+LABEL_NOT_WHICH = (
+    "Not {negated}, then: nothing was recorded. Which was it: {options}? Reply with one of them."
+)
 LABEL_WHICH_LINK = (
     "Say which link first: its number in the list (`3: cable_fault ...`) or its name "
     "(`DEVICE PORT cable_fault ...`)."

@@ -68,6 +68,16 @@ class Network(ABC):
         database); devices without one are absent from the answer. By default: none."""
         return Gathered({}, {}, {})
 
+    def unlisted(self) -> dict[str, str]:
+        """Devices whose ports could not be listed (so none of them is among ``ports``), and
+        why: a list of ports must never pass over them in silence. By default: none."""
+        return {}
+
+    def site_of(self, device: str) -> str | None:
+        """The site a device belongs to, listed or not."""
+        refs = self.devices().get(device)
+        return refs[0].site if refs else None
+
     def sites(self) -> list[str]:
         return sorted({p.site for p in self.ports()})
 

@@ -11,6 +11,7 @@ more than that, and is named in the answer while the others are read.
 from __future__ import annotations
 
 import asyncio
+import logging
 import threading
 import time
 from collections.abc import Awaitable, Callable, Coroutine, Sequence
@@ -22,6 +23,16 @@ from linktriage.inventory import DeviceEntry, Inventory
 from linktriage.network import Gathered, Network, PortRef
 from linktriage.polls import PollTable
 from linktriage.snapshot import polls_of
+
+_log = logging.getLogger(__name__)
+
+
+def _collector_failed(device: str, collector: str, exc: Exception) -> str:
+    """Name a collector's unexpected failure for the device's line, and log its traceback."""
+    _log.error("%s: the %s collector failed", device, collector, exc_info=exc)
+    first = str(exc).splitlines()[0] if str(exc) else ""
+    return f"the {collector} collector failed: {type(exc).__name__}: {first}".rstrip(": ")
+
 
 T = TypeVar("T")
 
@@ -67,7 +78,7 @@ class InventoryNetwork(Network):
         self._loop = LoopThread()
         self._collectors: dict[str, Collector] = {}
         self._ports: dict[str, list[str]] = {}
-        self.unlisted: dict[str, str] = {}  # device -> why its ports could not be listed
+        self._unlisted: dict[str, str] = {}  # device -> why its ports could not be listed
 
     def close(self) -> None:
         async def close_all() -> None:
@@ -82,6 +93,17 @@ class InventoryNetwork(Network):
         if collector is None:
             collector = self._collectors[device.name] = self.inventory.collector(device)
         return collector
+
+    def unlisted(self) -> dict[str, str]:
+        self.discover()
+        return dict(self._unlisted)
+
+    def site_of(self, device: str) -> str | None:
+        entry = self.inventory.entry(device)
+        return None if entry is None else entry.site
+
+    def sites(self) -> list[str]:
+        return sorted({d.site for d in self.inventory.devices})
 
     def _entry(self, device: str) -> DeviceEntry:
         entry = self.inventory.entry(device)
@@ -104,6 +126,8 @@ class InventoryNetwork(Network):
                 return device.name, f"no answer within {limit:.3g} s"
             except LinktriageError as exc:
                 return device.name, exc.message
+            except Exception as exc:  # a collector's bug fails its device only
+                return device.name, _collector_failed(device.name, device.collector, exc)
 
         async def list_all() -> list[tuple[str, list[str] | str]]:
             gate = asyncio.Semaphore(self.inventory.defaults.concurrency)
@@ -116,10 +140,10 @@ class InventoryNetwork(Network):
 
         for name, found in self._loop.run(list_all()):
             if isinstance(found, str):
-                self.unlisted[name] = found
+                self._unlisted[name] = found
             else:
                 self._ports[name] = found
-                self.unlisted.pop(name, None)
+                self._unlisted.pop(name, None)
 
     def ports(self) -> list[PortRef]:
         self.discover()
@@ -139,8 +163,8 @@ class InventoryNetwork(Network):
         entry = self._entry(device)
         if entry.ports is None and device not in self._ports:
             self.discover()
-            if device in self.unlisted:
-                raise PollError(device, f"could not list its ports: {self.unlisted[device]}")
+            if device in self._unlisted:
+                raise PollError(device, f"could not list its ports: {self._unlisted[device]}")
         return self._refs(entry)
 
     def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
@@ -191,6 +215,9 @@ class InventoryNetwork(Network):
                 return
             except CollectorError as exc:
                 gathered.failed[name] = exc.reason
+                return
+            except Exception as exc:  # a collector's bug fails its device only
+                gathered.failed[name] = _collector_failed(name, entry.collector, exc)
                 return
             result = polls_of(reading.snapshots)
             gathered.tables[name] = result.polls

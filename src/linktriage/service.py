@@ -11,6 +11,7 @@ from __future__ import annotations
 import contextlib
 import math
 import time
+from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
@@ -44,6 +45,7 @@ from linktriage.messages import (
     LABEL_GONE,
     LABEL_NOT_A_FAULT,
     LABEL_NOT_ALLOWED,
+    LABEL_NOT_WHICH,
     LABEL_STORE_FAILED,
     LABEL_WHICH,
     LABEL_WHICH_LINK,
@@ -53,7 +55,7 @@ from linktriage.polls import PollTable
 from linktriage.render.card import model_card_data
 from linktriage.settings import Settings
 from linktriage.store import Store, StoredDiagnosis, StoreError
-from linktriage.verdicts import FAULTS, SEVERITY, TREE_VERDICTS, Verdict
+from linktriage.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY, TREE_VERDICTS, Verdict
 
 #: Members of a chat user group, by group id (Slack: usergroups.users.list).
 GroupMembers = Callable[[str], set[str]]
@@ -184,25 +186,33 @@ class Triage:
     ) -> SuspectsReply:
         """The suspect links of a site (default: everywhere), ranked by severity."""
         refs = self.network.ports()
+        where: str | None = None
         if site is not None:
             sites = self.network.sites()
             chosen = [s for s in sites if s.lower() == site.lower()]
             if not chosen:
                 raise CommandError(f"No site named {site!r}.", hint=f"Sites: {', '.join(sites)}.")
-            refs = [r for r in refs if r.site == chosen[0]]
+            where = chosen[0]
+            refs = [r for r in refs if r.site == where]
         polls, failed = self._gather(refs)
+        # Devices whose ports could not even be listed are not read either.
+        for device, why in self.network.unlisted().items():
+            if where is None or self.network.site_of(device) == where:
+                failed.setdefault(device, f"could not list its ports: {why}")
         batch = diagnose(polls, self.model)
         items: list[SuspectItem] = []
         for row in _ranked_faults(batch):
             diagnosis_id = self._keep(batch, row, origin=kind, channel=channel)
             record = batch.record(row)
             items.append(SuspectItem(len(items) + 1, record, diagnosis_id, headline(record)))
-        where = "everywhere" if site is None else f"at {refs[0].site if refs else site}"
+        place = "everywhere" if where is None else f"at {where}"
+        not_judged = Counter(v.value for v in batch.verdict if v in GUARD_VERDICTS)
         return SuspectsReply(
-            title=f"Suspect links {where}",
+            title=f"Suspect links {place}",
             items=items,
-            ports_checked=len(batch),
-            failed_devices=sorted(failed),
+            ports_judged=len(batch) - sum(not_judged.values()),
+            not_judged=dict(not_judged),
+            failed=dict(failed),
             at=self.clock(),
         )
 
@@ -224,8 +234,9 @@ class Triage:
         return SuspectsReply(
             title="Digest of suspect links",
             items=items,
-            ports_checked=current.ports_checked,
-            failed_devices=current.failed_devices,
+            ports_judged=current.ports_judged,
+            not_judged=current.not_judged,
+            failed=current.failed,
             at=current.at,
             since=previous.at if previous else None,
             cleared=sorted(f"{d} {p}" for d, p in before - now),
@@ -362,6 +373,9 @@ class Triage:
             return LabelRefused(LABEL_NOT_ALLOWED)
         if isinstance(intent, Unclear):
             options = " or ".join(f"`{v.value}`" for v in intent.candidates)
+            if intent.negated:
+                said = ", ".join(f"`{v.value}`" for v in intent.negated)
+                return LabelRefused(LABEL_NOT_WHICH.format(negated=said, options=options))
             return LabelRefused(LABEL_WHICH.format(options=options))
         if digest is not None:
             diagnosis = self._digest_target(digest.items, intent)

@@ -154,6 +154,8 @@ def read_snapshots(lines: Iterable[bytes | str]) -> ReadResult:
     gc.disable()
     try:
         for number, raw in enumerate(lines, start=1):
+            if number == 1:
+                raw = _without_bom(raw)
             try:
                 snap = fast(raw)
                 if snap.counters and max(snap.counters.values()) > COUNTER64_MAX:
@@ -175,6 +177,13 @@ def read_snapshots(lines: Iterable[bytes | str]) -> ReadResult:
         if collecting:
             gc.enable()
     return _drop_counter32_overflows(PollTable.concat(tables), problems)
+
+
+def _without_bom(raw: bytes | str) -> bytes | str:
+    """A first line without the UTF-8 byte-order mark some editors put at a file's start."""
+    if isinstance(raw, bytes):
+        return raw.removeprefix(b"\xef\xbb\xbf")
+    return raw.removeprefix("\ufeff")
 
 
 def polls_of(snapshots: list[Snapshot]) -> ReadResult:

@@ -23,8 +23,16 @@ V3_USER, V3_AUTH, V3_PRIV = "larkops", "authpass123", "privpass123"
 
 
 def require(binary: str) -> str:
-    """The path of a binary the test needs; CI installs it, so there it must be found."""
-    found = shutil.which(binary) or shutil.which(binary, path="/usr/sbin:/usr/bin")
+    """The path of a binary the test needs; CI installs it, so there it must be found.
+
+    ``LINKTRIAGE_AGENT_PATH``, where set, is the only place searched: `.ci/run` sets it empty
+    to run the suite as a machine without the agents would.
+    """
+    only = os.environ.get("LINKTRIAGE_AGENT_PATH")
+    if only is not None:
+        found = shutil.which(binary, path=only) if only else None
+    else:
+        found = shutil.which(binary) or shutil.which(binary, path="/usr/sbin:/usr/bin")
     if found is None:
         if os.environ.get("LINKTRIAGE_REQUIRE_AGENTS"):
             pytest.fail(f"{binary} is not installed (.ci/run installs it)")
@@ -39,14 +47,15 @@ def free_udp_port() -> int:
 
 
 def wait_for_agent(port: int, community: str, process: subprocess.Popen[bytes], log: Path) -> None:
-    snmpget = require("snmpget")
+    # GETNEXT from the top of MIB-2: any agent answers it, one without sysUpTime too.
+    probe = require("snmpgetnext")
     deadline = time.monotonic() + 30
     while time.monotonic() < deadline:
         if process.poll() is not None:
             raise RuntimeError(f"the agent exited: {log.read_text(errors='replace')}")
         done = subprocess.run(
-            [snmpget, "-v2c", "-c", community, "-On", "-t", "0.5", "-r", "0",
-             f"127.0.0.1:{port}", SYS_UPTIME],
+            [probe, "-v2c", "-c", community, "-On", "-t", "0.5", "-r", "0",
+             f"127.0.0.1:{port}", "1.3.6.1.2.1"],
             capture_output=True, text=True, check=False,
         )  # fmt: skip
         if done.returncode == 0:
@@ -70,9 +79,9 @@ def start_agent(
 ) -> subprocess.Popen[bytes]:
     """Start an agent and wait until it answers; stop it again if it never does.
 
-    The probe (snmpget) is looked up before the agent starts, and the agent is stopped
+    The probe (snmpgetnext) is looked up before the agent starts, and the agent is stopped
     whatever ends the wait (a skip or a failure is an exception too), so nothing leaks."""
-    require("snmpget")
+    require("snmpgetnext")
     # The agent logs to a file: a pipe nobody reads fills up and stops the agent.
     with open(log, "wb") as out:
         process = subprocess.Popen(command, env=env, stdout=out, stderr=subprocess.STDOUT)
@@ -153,14 +162,19 @@ def recorded_walk(
 
 
 class Snmpsim:
-    """snmpsim serving one recorded switch under community ``community``."""
+    """snmpsim serving recordings, one community each (the community names the file)."""
 
-    def __init__(self, folder: Path, lines: list[str], community: str = "lark48") -> None:
+    def __init__(
+        self, folder: Path, lines: list[str], community: str = "lark48",
+        more: dict[str, str] | None = None,
+    ) -> None:  # fmt: skip
         # snmpsim comes with the test extra, beside this interpreter.
         responder = str(Path(sys.executable).parent / "snmpsim-command-responder")
         data = folder / "data"
         data.mkdir(exist_ok=True)
         (data / f"{community}.snmprec").write_text("\n".join(lines) + "\n")
+        for name, text in (more or {}).items():
+            (data / f"{name}.snmprec").write_text(text)
         self.port = free_udp_port()
         self.community = community
         env = {**os.environ, "SNMPSIM_ALLOW_ROOT": "true"}
@@ -173,3 +187,12 @@ class Snmpsim:
 
     def stop(self) -> None:
         stop(self.process)
+
+
+#: Recordings of real agents that ship with snmpsim, in its package's data folder.
+SNMPSIM_DATA = Path(__import__("snmpsim").__file__).parent / "data"
+SHIPPED = {
+    "linux-full-walk": SNMPSIM_DATA / "recorded" / "linux-full-walk.snmprec",
+    "winxp-full-walk": SNMPSIM_DATA / "recorded" / "winxp-full-walk.snmprec",
+    "multiplex-00000": SNMPSIM_DATA / "variation" / "multiplex" / "00000.snmprec",
+}

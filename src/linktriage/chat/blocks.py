@@ -170,7 +170,7 @@ def _when(at: float) -> str:
 
 
 def suspects_message(reply: SuspectsReply) -> dict[str, Any]:
-    counts = [f"*{len(reply.items)}* suspect links of {reply.ports_checked} ports"]
+    counts = [escape(reply.coverage)]
     if reply.since is not None:
         new = sum(1 for i in reply.items if i.new)
         counts.append(f"{new} new and {len(reply.cleared)} cleared since {_when(reply.since)}")
@@ -181,14 +181,8 @@ def suspects_message(reply: SuspectsReply) -> dict[str, Any]:
     tail: list[Block] = []
     if reply.cleared:
         tail.append(_context("Cleared: " + escape(", ".join(reply.cleared))))
-    if reply.failed_devices:
-        tail.append(
-            _context(":grey_question: Could not read: " + escape(", ".join(reply.failed_devices)))
-        )
     if reply.items:
         tail.append(_context(DIGEST_PROMPT))
-    else:
-        blocks.append(_section("Nothing suspect."))
     # Pack the numbered links into sections; when the blocks run out, say how many are left.
     room = MAX_BLOCKS - len(blocks) - len(tail) - 1  # one for "and N more"
     current, shown = "", 0

@@ -11,7 +11,7 @@ not a label; one whose phrases point two ways is asked to pick.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from linktriage.verdicts import TREE_VERDICTS, Verdict
 
@@ -50,6 +50,14 @@ PHRASES: dict[Verdict, tuple[tuple[str, int], ...]] = {
 }  # fmt: skip
 _CONFIRM = re.compile(r"\b(confirmed|confirm|correct|agreed|right call|spot on)\b|\+1")
 _NEGATION = re.compile(r"\b(not|no|wrong|isn't|wasn't|nope)\b")
+# A verdict is negated by a negation just before it ("not a cable fault", "wasn't duplex",
+# "no congestion") or an answer of no just after it ("cable fault? no.").
+_NEGATED_BEFORE = re.compile(
+    r"\b(not|no|never|nope|isn'?t|wasn'?t|aren'?t|weren'?t|ain'?t|hardly)"
+    r"(\s+(a|an|the|really|actually|just|it|it'?s|its|caused\s+by|from|due\s+to|about))*"
+    r"\s*[,:]?\s*$"
+)
+_NEGATED_AFTER = re.compile(r"^\s*[?!.,:\-]*\s*(no|nope|not\s+it|wrong)\b")
 _ITEM = re.compile(r"^\s*#?(\d{1,3})\s*[:.)\-]\s*")
 # A phrase counts where a word starts with it: "pair" is in "bad pair", not in "repaired".
 _PATTERNS = {
@@ -71,9 +79,11 @@ class LabelIntent:
 
 @dataclass(frozen=True, slots=True)
 class Unclear:
-    """A reply that reads as a label but points at more than one verdict."""
+    """A reply that reads as a label but points at more than one verdict, or only says what
+    it was not ("not a cable fault"): asked back, never stored as a verdict it negates."""
 
     candidates: list[Verdict]
+    negated: list[Verdict] = field(default_factory=list)
 
 
 def _explicit(text: str) -> list[tuple[Verdict, int, int]]:
@@ -86,12 +96,36 @@ def _explicit(text: str) -> list[tuple[Verdict, int, int]]:
     return found
 
 
+def _negated(text: str, start: int, end: int) -> bool:
+    """Whether the mention at ``text[start:end]`` is said not to be so."""
+    return bool(
+        _NEGATED_BEFORE.search(text[:start].lower()) or _NEGATED_AFTER.match(text[end:].lower())
+    )
+
+
+def _phrases(lowered: str) -> tuple[dict[Verdict, int], set[Verdict]]:
+    """Each verdict's weight from the phrases a reply uses, and the verdicts it negates."""
+    scores: dict[Verdict, int] = {}
+    negated: set[Verdict] = set()
+    for verdict, patterns in _PATTERNS.items():
+        for pattern, weight in patterns:
+            for match in pattern.finditer(lowered):
+                if _negated(lowered, match.start(), match.end()):
+                    negated.add(verdict)
+                else:
+                    scores[verdict] = scores.get(verdict, 0) + weight
+                break  # a phrase counts once
+    return scores, negated
+
+
 def parse_label(
     text: str, *, names: list[tuple[str, str]] | None = None
 ) -> LabelIntent | Unclear | None:
     """The label in a reply, an :class:`Unclear` one, or None for a reply that is not one.
 
     ``names`` lists the (device, port) pairs a reply may name first (a digest's links).
+    A verdict the reply negates ("not a cable fault", "cable fault? no") is never its
+    label: the reply's label is what it says instead, or it is asked back.
     """
     rest = re.sub(r"<[@#!][^>]*>", " ", text).strip()  # mentions are not part of it
     item = None
@@ -106,7 +140,8 @@ def parse_label(
             if match:
                 device, port, rest = d, p, rest[match.end() :]
                 break
-    explicit = _explicit(rest)
+    explicit = [(v, s, e) for v, s, e in _explicit(rest) if not _negated(rest, s, e)]
+    negated = {v for v, s, e in _explicit(rest) if _negated(rest, s, e)}
     if explicit:
         verdicts = {v for v, _, _ in explicit}
         if len(verdicts) > 1:
@@ -114,17 +149,21 @@ def parse_label(
         verdict, start, end = min(explicit, key=lambda e: e[1])
         return LabelIntent(verdict, _note(rest[:start] + " " + rest[end:]), item, device, port)
     lowered = rest.lower()
-    scores = {
-        v: sum(w for pattern, w in patterns if pattern.search(lowered))
-        for v, patterns in _PATTERNS.items()
-    }
-    ranked = sorted(scores.items(), key=lambda kv: -kv[1])
+    scores, negated_phrases = _phrases(lowered)
+    negated |= negated_phrases
+    for verdict in negated:
+        scores.pop(verdict, None)
+    ranked = sorted(scores.items(), key=lambda kv: -kv[1]) + [(Verdict.HEALTHY, 0)] * 2
     (first, best), (second, runner_up) = ranked[0], ranked[1]
     if best > 0:
         # Two readings about as strong ("cable or optic?"): ask rather than guess.
         if runner_up >= 2 and runner_up >= best - 1:
             return Unclear(sorted([first, second], key=list(Verdict).index))
         return LabelIntent(first, _note(rest), item, device, port)
+    if negated:
+        order = list(Verdict).index
+        others = [v for v in TREE_VERDICTS if v not in negated]
+        return Unclear(sorted(others, key=order), sorted(negated, key=order))
     if _CONFIRM.search(lowered) and not _NEGATION.search(lowered):
         return LabelIntent(None, _note(rest), item, device, port)
     return None

@@ -6,6 +6,7 @@ from dataclasses import dataclass, field
 from typing import Any, Literal
 
 from linktriage.diagnosis import DiagnosisRecord
+from linktriage.messages import coverage_words
 
 Visibility = Literal["channel", "ephemeral"]
 
@@ -34,17 +35,24 @@ class SuspectItem:
 
 @dataclass(frozen=True, slots=True)
 class SuspectsReply:
-    """Suspect links, ranked by severity; a digest also says what is new and what cleared."""
+    """Suspect links, ranked by severity, and what was not judged or not read; a digest also
+    says what is new and what cleared."""
 
     title: str
     items: list[SuspectItem]
-    ports_checked: int
-    failed_devices: list[str]
+    ports_judged: int  # ports with a verdict on their health: healthy or a fault
+    not_judged: dict[str, int]  # verdict id -> ports without one (too quiet, no data, down)
+    failed: dict[str, str]  # device -> why it could not be read
     at: float
     since: float | None = None  # the digest before this one, if any
     cleared: list[str] = field(default_factory=list)  # "device port" no longer suspect
     digest_id: int | None = None
     visibility: Visibility = "channel"
+
+    @property
+    def coverage(self) -> str:
+        """How much was read and judged, in words: never an all-clear for what was not."""
+        return coverage_words(len(self.items), self.ports_judged, self.not_judged, self.failed)
 
 
 @dataclass(frozen=True, slots=True)

@@ -13,7 +13,7 @@ from linktriage.chat.replies import (
     Reply,
     SuspectsReply,
 )
-from linktriage.messages import help_lines, label_recorded
+from linktriage.messages import help_lines, label_recorded, printable
 from linktriage.render.card import card_text
 from linktriage.render.text import explanation
 
@@ -23,10 +23,7 @@ def _when(at: float) -> str:
 
 
 def suspects_text(reply: SuspectsReply) -> str:
-    lines = [
-        f"{reply.title}, {_when(reply.at)}: {len(reply.items)} suspect links of "
-        f"{reply.ports_checked} ports checked"
-    ]
+    lines = [f"{reply.title}, {_when(reply.at)}", printable(reply.coverage)]
     if reply.since is not None:
         new = sum(1 for i in reply.items if i.new)
         lines.append(
@@ -36,16 +33,13 @@ def suspects_text(reply: SuspectsReply) -> str:
         r = item.record
         mark = "  new" if item.new else ""
         lines.append(
-            f"{item.rank:>3}. {r['device']} {r['port']}: {r['title']} ({r['verdict']}), "
+            f"{item.rank:>3}. {printable(r['device'])} {printable(r['port'])}: {r['title']} "
+            f"({r['verdict']}), "
             f"confidence {r['confidence']:.2f}{mark}"
         )
         lines.append(f"     {item.reason}")
     if reply.cleared:
-        lines.append(f"cleared: {', '.join(reply.cleared)}")
-    if reply.failed_devices:
-        lines.append(f"could not read: {', '.join(reply.failed_devices)}")
-    if not reply.items:
-        lines.append("Nothing suspect.")
+        lines.append(f"cleared: {printable(', '.join(reply.cleared))}")
     return "\n".join(lines)
 
 

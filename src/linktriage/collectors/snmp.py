@@ -237,13 +237,9 @@ class SnmpCollector(Collector):
                 break  # e.g. noSuchName from a device that lacks the table
             for oid, value in binds:
                 text = str(oid)
-                if not text.startswith(prefix) or value.__class__.__name__ in (
-                    "NoSuchObject",
-                    "NoSuchInstance",
-                    "EndOfMibView",
-                ):
-                    continue
-                rows[int(text[len(prefix) :].split(".")[0])] = _plain(value)
+                plain = _plain(value)
+                if text.startswith(prefix) and plain is not None:
+                    rows[int(text[len(prefix) :].split(".")[0])] = plain
         return rows
 
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
@@ -281,7 +277,10 @@ class SnmpCollector(Collector):
             )
         if status:
             raise self.error(BadAnswerError, f"refused sysUpTime: {status.prettyPrint()}")
-        uptime_s = int(binds[0][1]) / 100.0
+        # An agent without sysUpTime answers noSuchObject: the counters still read, but
+        # ifCounterDiscontinuityTime cannot be placed in time without it.
+        uptime = _plain(binds[0][1])
+        uptime_s = uptime / 100.0 if isinstance(uptime, int) else None
         all_columns = {**COUNTER_COLUMNS, **STATE_COLUMNS}
         gate = asyncio.Semaphore(o.parallel_walks)
 
@@ -306,9 +305,22 @@ class SnmpCollector(Collector):
             del loop._linktriage_snmp_engine  # type: ignore[attr-defined]
 
 
-def _plain(value: Any) -> Any:
-    """An SNMP value as a plain int or str."""
+#: SNMPv2 exception values (RFC 3416 section 3): the agent has no such object or instance,
+#: or the walk ran off the end of its MIB. They stand for "not reported", never for a value.
+_EXCEPTIONS = frozenset({"NoSuchObject", "NoSuchInstance", "EndOfMibView"})
+
+
+def _plain(value: Any) -> int | str | None:
+    """An SNMP value as a plain int or str; None for an exception value or one that is
+    neither (a device that answers an IpAddress where a counter belongs)."""
     name = value.__class__.__name__
+    if name in _EXCEPTIONS:
+        return None
     if name in ("OctetString", "DisplayString"):
-        return value.asOctets().decode("utf-8", errors="replace")
-    return int(value)
+        # Some agents end their DisplayStrings with a NUL, C style: it is not part of the name.
+        text: str = value.asOctets().decode("utf-8", errors="replace")
+        return text.rstrip("\x00")
+    try:
+        return int(value)
+    except (TypeError, ValueError):
+        return None

@@ -7,7 +7,7 @@ from collections.abc import Sequence
 from typing import IO
 
 from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, headline
-from linktriage.messages import ber_line, ruled_out_line, sig
+from linktriage.messages import ber_line, printable, ruled_out_line, sig
 
 WIDTH = 88
 _HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "EVIDENCE")
@@ -17,8 +17,8 @@ def table_rows(records: Sequence[DiagnosisRecord]) -> list[str]:
     """Fixed-width rows: device, port, verdict, confidence, window, headline evidence."""
     cells = [
         (
-            r["device"],
-            r["port"],
+            printable(r["device"]),
+            printable(r["port"]),
             r["verdict"],
             f"{r['confidence']:.2f}",
             f"{sig(r['window_s'], 3)} s",
@@ -47,13 +47,14 @@ def _wrapped(text: str, first: str, rest: str) -> list[str]:
 def explanation(record: DiagnosisRecord) -> str:
     """Everything about one port's diagnosis, for a person to read and act on."""
     lines = [
-        f"{record['device']} {record['port']}: {record['title']} ({record['verdict']}), "
+        f"{printable(record['device'])} {printable(record['port'])}: {record['title']} "
+        f"({record['verdict']}), "
         f"confidence {record['confidence']:.2f}",
         f"window {sig(record['window_s'], 3)} s over {record['polls']} polls, "
         f"model {record['model_version']}",
     ]
     if record["note"]:
-        lines.append(f"note: {record['note']}")
+        lines.append(f"note: {printable(record['note'])}")
     if record["evidence"]:
         lines += ["", "Evidence"]
         for item in record["evidence"]:
