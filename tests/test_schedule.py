@@ -2,8 +2,13 @@
 
 from __future__ import annotations
 
+import logging
+from collections.abc import Callable
 from datetime import datetime
 from zoneinfo import ZoneInfo
+
+import pytest
+from slack_sdk.errors import SlackApiError
 
 from linktriage.chat.replies import SuspectsReply
 from linktriage.demo_network import DemoClock
@@ -35,9 +40,19 @@ def test_a_digest_missed_while_down_is_known_from_the_last_one() -> None:
     assert not missed_digest(trigger, None, at(4, 9, 0), OSLO)  # never ran: wait for the time
 
 
+def channel_of(triage: Triage, posted: list[SuspectsReply]) -> Callable[[SuspectsReply], None]:
+    """A channel that takes every message, as the transport posts them."""
+
+    def post(reply: SuspectsReply) -> None:
+        posted.append(reply)
+        triage.posted(reply, channel="C0NETOPS", ts=f"{len(posted)}.0")
+
+    return post
+
+
 def test_being_down_two_days_gives_one_digest_not_two(triage: Triage, clock: DemoClock) -> None:
     posted: list[SuspectsReply] = []
-    jobs = Jobs(triage, posted.append, "C0NETOPS")
+    jobs = Jobs(triage, channel_of(triage, posted), "C0NETOPS")
     trigger = digest_trigger(SCHEDULE)
     clock.now = at(2, 7, 30)
     jobs.digest()
@@ -46,6 +61,50 @@ def test_being_down_two_days_gives_one_digest_not_two(triage: Triage, clock: Dem
     assert jobs.catch_up(trigger, OSLO) is None  # caught up: nothing more until Thursday
     assert len(posted) == 2
     assert posted[1].since == posted[0].at
+
+
+def test_a_digest_the_channel_refuses_is_tried_again_and_is_not_done_until_posted(
+    triage: Triage, clock: DemoClock, caplog: pytest.LogCaptureFixture
+) -> None:
+    refusals = ["not_in_channel", "not_in_channel"]
+    posted: list[SuspectsReply] = []
+    waits: list[float] = []
+
+    def refusing(reply: SuspectsReply) -> None:
+        if refusals:
+            raise SlackApiError("refused", {"ok": False, "error": refusals.pop()})
+        channel_of(triage, posted)(reply)
+
+    clock.now = at(2, 7, 30)
+    jobs = Jobs(triage, refusing, "C0NETOPS", sleep=waits.append, retries_s=(60.0, 300.0))
+    with caplog.at_level(logging.WARNING, logger="linktriage.schedule"):
+        jobs.digest()
+    assert waits == [60.0, 300.0] and len(posted) == 1
+    assert triage.store.last_digest() is not None
+    lines = [r.getMessage() for r in caplog.records]
+    assert lines[0] == (
+        "digest: could not post to C0NETOPS (not_in_channel), try 1 of 3; again in 60 s"
+    )
+
+
+def test_a_digest_never_posted_is_caught_up_at_the_next_start(
+    triage: Triage, clock: DemoClock
+) -> None:
+    clock.now = at(2, 7, 30)
+    posted: list[SuspectsReply] = []
+    monday = triage.digest(channel="C0NETOPS")
+    channel_of(triage, posted)(monday)  # Monday's, posted
+
+    def refusing(reply: SuspectsReply) -> None:
+        raise SlackApiError("refused", {"ok": False, "error": "channel_not_found"})
+
+    clock.now = at(3, 7, 30)
+    Jobs(triage, refusing, "C0NETOPS", sleep=lambda s: None).digest()  # Tuesday's, refused
+    last = triage.store.last_digest()
+    assert last is not None and last.at == monday.at  # Tuesday's is not done
+    clock.now = at(3, 9, 0)
+    jobs = Jobs(triage, channel_of(triage, posted), "C0NETOPS")
+    assert jobs.catch_up(digest_trigger(SCHEDULE), OSLO) is not None
 
 
 def test_the_poll_job_keeps_the_whole_network(triage: Triage) -> None:

@@ -123,6 +123,8 @@ def test_a_device_that_does_not_answer_is_named_and_the_rest_still_answer(
 def test_a_digest_says_what_is_new_and_what_cleared(triage: Triage, clock: DemoClock) -> None:
     first = triage.digest(channel="C1")
     assert first.since is None and not any(i.new for i in first.items)
+    assert triage.store.last_digest() is None  # kept only once posted
+    triage.posted(first, channel="C1", ts="1.0")
     network = triage.network
     assert isinstance(network, DemoNetwork)
     # The cable is replaced on port14, and a jumbo-frame host appears on port2.

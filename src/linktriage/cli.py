@@ -321,11 +321,11 @@ def serve(
 
     from slack_bolt.error import BoltError
 
-    from linktriage.chat.blocks import message_for
     from linktriage.chat.slack import (
         build_app,
         group_members,
         http_server,
+        post_reply,
         run_socket_mode,
         web_client,
     )
@@ -358,8 +358,7 @@ def serve(
     def post_digest(reply: Any) -> None:
         if channel is None:
             return
-        posted = client.chat_postMessage(channel=channel, **message_for(reply))
-        triage.posted(reply, channel=channel, ts=posted["ts"])
+        triage.posted(reply, channel=channel, ts=post_reply(client, channel, reply))
 
     scheduler = None
     if not no_jobs:

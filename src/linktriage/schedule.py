@@ -10,9 +10,11 @@ says whether a run fell due since.
 from __future__ import annotations
 
 import logging
+import time
 from collections.abc import Callable
 from dataclasses import dataclass
 from datetime import datetime, timedelta, tzinfo
+from typing import Any
 
 from apscheduler.schedulers.background import BackgroundScheduler
 from apscheduler.triggers.cron import CronTrigger
@@ -50,6 +52,12 @@ def missed_digest(trigger: CronTrigger, last_at: float | None, now: float, zone:
     return due is not None and due.timestamp() <= now
 
 
+#: Waits between tries of posting a digest: a refusal (not_in_channel) may be put right
+#: by a person within minutes; a digest not posted after the last is caught up at the next
+#: start, or superseded by the next digest.
+POST_RETRIES_S = (60.0, 300.0, 900.0)
+
+
 @dataclass
 class Jobs:
     """The jobs, over one service; ``post`` carries the digest to its channel."""
@@ -57,6 +65,8 @@ class Jobs:
     triage: Triage
     post: Post
     channel: str | None
+    sleep: Callable[[float], None] = time.sleep
+    retries_s: tuple[float, ...] = POST_RETRIES_S
 
     def poll(self) -> PollRound:
         result = self.triage.poll_round()
@@ -65,8 +75,25 @@ class Jobs:
         return result
 
     def digest(self) -> SuspectsReply:
+        """Compose the digest and post it, trying again after each wait of ``retries_s``.
+        The post marks it done (the transport calls Triage.posted): one that is never
+        posted is not done."""
         reply = self.triage.digest(channel=self.channel)
-        self.post(reply)
+        tries = len(self.retries_s) + 1
+        for attempt in range(1, tries + 1):
+            try:
+                self.post(reply)
+                return reply
+            except Exception as exc:  # a refusal, a network failure: said in one line
+                why = _why(exc)
+                if attempt == tries:
+                    log.error("digest: not posted to %s after %d tries: %s", self.channel,
+                              tries, why)  # fmt: skip
+                    return reply
+                wait = self.retries_s[attempt - 1]
+                log.warning("digest: could not post to %s (%s), try %d of %d; again in %g s",
+                            self.channel, why, attempt, tries, wait)  # fmt: skip
+                self.sleep(wait)
         return reply
 
     def catch_up(self, trigger: CronTrigger, zone: tzinfo) -> SuspectsReply | None:
@@ -76,6 +103,13 @@ class Jobs:
             log.info("digest: catching up once for the runs missed while down")
             return self.digest()
         return None
+
+
+def _why(exc: Exception) -> str:
+    """An exception in a few words: Slack's error code where it gave one."""
+    response: Any = getattr(exc, "response", None)
+    code = response.get("error") if hasattr(response, "get") else None
+    return str(code or f"{type(exc).__name__}: {exc}".splitlines()[0])
 
 
 def start_scheduler(

@@ -228,9 +228,8 @@ class Triage:
             )
             for i in current.items
         ]
-        digest_id = self.store.add_digest(
-            _listed(items), at=current.at, kind="digest", channel=channel
-        )
+        # Kept only once posted (see posted): a digest that never reached its channel is
+        # not done, and is caught up.
         return SuspectsReply(
             title="Digest of suspect links",
             items=items,
@@ -240,7 +239,7 @@ class Triage:
             at=current.at,
             since=previous.at if previous else None,
             cleared=sorted(f"{d} {p}" for d, p in before - now),
-            digest_id=digest_id,
+            kind="digest",
         )
 
     def posted(self, reply: Reply, *, channel: str, ts: str) -> bool:
@@ -251,14 +250,14 @@ class Triage:
         if isinstance(reply, DiagnosisReply):
             self.store.attach_message(reply.diagnosis_id, channel, ts)
             return True
-        if isinstance(reply, SuspectsReply) and reply.items:
+        if isinstance(reply, SuspectsReply) and (reply.items or reply.kind == "digest"):
             digest_id = reply.digest_id
             if digest_id is None:
                 digest_id = self.store.add_digest(
-                    _listed(reply.items), at=reply.at, kind="suspects", channel=channel
+                    _listed(reply.items), at=reply.at, kind=reply.kind, channel=channel
                 )
             self.store.attach_digest_message(digest_id, channel, ts)
-            return True
+            return bool(reply.items)
         return False
 
     def poll_round(self) -> PollRound:

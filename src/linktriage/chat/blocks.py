@@ -10,6 +10,7 @@ everything drawn as mrkdwn has ``&``, ``<`` and ``>`` escaped, so no reply can m
 
 from __future__ import annotations
 
+import json
 from datetime import UTC, datetime
 from typing import Any
 
@@ -21,6 +22,7 @@ from linktriage.chat.replies import (
     LabelReply,
     ModelReply,
     Reply,
+    SuspectItem,
     SuspectsReply,
 )
 from linktriage.messages import (
@@ -41,6 +43,9 @@ MAX_HEADER = 150
 MAX_CONTEXT_ELEMENTS = 10
 MAX_OPTION_TEXT = 75
 MAX_FALLBACK = 3000  # the notification text: short, it is what a phone's lock screen shows
+#: The characters of blocks one message may carry: Slack refuses about 13,000 and more
+#: (msg_blocks_too_long, slackapi/bolt-js#2509), whatever the per-block limits allow.
+MAX_MESSAGE_TEXT = 12_000
 
 CONFIRM_ACTION = "lt_confirm"
 CORRECT_ACTION = "lt_correct"
@@ -169,7 +174,42 @@ def _when(at: float) -> str:
     return datetime.fromtimestamp(at, UTC).strftime("%a %d %b %H:%M UTC")
 
 
-def suspects_message(reply: SuspectsReply) -> dict[str, Any]:
+def _entry(item: SuspectItem) -> str:
+    r = item.record
+    mark = "  :new:" if item.new else ""
+    return (
+        f"*{item.rank}.* `{escape(r['device'])} {escape(r['port'])}` {escape(r['title'])} "
+        f"({r['confidence']:.2f}){mark}\n      {escape(_clip(item.reason, 300))}"
+    )
+
+
+def _size(blocks: list[Block]) -> int:
+    """The characters of text a message carries in its blocks."""
+    return len(json.dumps(blocks, ensure_ascii=False))
+
+
+def _pack(items: list[SuspectItem], blocks_left: int, text_left: int) -> tuple[list[Block], int]:
+    """As many links as fit in ``blocks_left`` blocks and ``text_left`` characters, worst
+    first, packed into sections; returns the sections and how many links they hold."""
+    sections: list[Block] = []
+    current, shown = "", 0
+    for item in items:
+        entry = _entry(item)
+        if current and len(current) + 1 + len(entry) > MAX_SECTION:
+            sections.append(_section(current))
+            current = ""
+        used = sum(len(b["text"]["text"]) + 60 for b in sections) + len(current) + len(entry)
+        if used > text_left or (not current and len(sections) >= blocks_left):
+            break
+        current = f"{current}\n{entry}" if current else entry
+        shown += 1
+    if current:
+        sections.append(_section(current))
+    return sections, shown
+
+
+def _first_message(reply: SuspectsReply) -> tuple[list[Block], int]:
+    """The blocks of the list as posted, and how many of its links they hold."""
     counts = [escape(reply.coverage)]
     if reply.since is not None:
         new = sum(1 for i in reply.items if i.new)
@@ -180,37 +220,42 @@ def suspects_message(reply: SuspectsReply) -> dict[str, Any]:
     ]
     tail: list[Block] = []
     if reply.cleared:
-        tail.append(_context("Cleared: " + escape(", ".join(reply.cleared))))
+        tail.append(_context("Cleared: " + escape(_clip(", ".join(reply.cleared), 2000))))
     if reply.items:
         tail.append(_context(DIGEST_PROMPT))
-    # Pack the numbered links into sections; when the blocks run out, say how many are left.
     room = MAX_BLOCKS - len(blocks) - len(tail) - 1  # one for "and N more"
-    current, shown = "", 0
-    for item in reply.items:
-        r = item.record
-        mark = "  :new:" if item.new else ""
-        entry = (
-            f"*{item.rank}.* `{escape(r['device'])} {escape(r['port'])}` {escape(r['title'])} "
-            f"({r['confidence']:.2f}){mark}\n      {escape(_clip(item.reason, 300))}"
-        )
-        if current and len(current) + 1 + len(entry) > MAX_SECTION:
-            blocks.append(_section(current))
-            current = ""
-        if not current:
-            if room == 0:
-                break
-            room -= 1  # this section's block
-            current = entry
-        else:
-            current = f"{current}\n{entry}"
-        shown += 1
-    if current:
-        blocks.append(_section(current))
+    text_left = MAX_MESSAGE_TEXT - _size(blocks) - _size(tail) - 200
+    sections, shown = _pack(reply.items, room, text_left)
+    blocks += sections
     if shown < len(reply.items):
         left = len(reply.items) - shown
-        blocks.append(_context(f"\u2026 and {left} more: ask `/triage suspects`."))
-    blocks += tail
+        blocks.append(_context(f"\u2026 and {left} more in this message's thread."))
+    return blocks + tail, shown
+
+
+def suspects_message(reply: SuspectsReply) -> dict[str, Any]:
+    """The list as posted: the coverage, then the worst links that fit one message, and a
+    pointer to the rest, which :func:`suspects_thread` carries."""
+    blocks, _ = _first_message(reply)
     return _message(f"{reply.title}: {len(reply.items)} suspect links", blocks)
+
+
+def suspects_thread(reply: SuspectsReply) -> list[dict[str, Any]]:
+    """The links the first message had no room for, as replies in its thread."""
+    _, shown = _first_message(reply)
+    messages = []
+    rest = reply.items[shown:]
+    while rest:
+        head = _context(f"Suspect links from {rest[0].rank} on, continued")
+        sections, count = _pack(rest, MAX_BLOCKS - 1, MAX_MESSAGE_TEXT - _size([head]) - 200)
+        messages.append(_message(f"{reply.title}, continued", [head, *sections]))
+        rest = rest[max(count, 1) :]
+    return messages
+
+
+def thread_for(reply: Reply) -> list[dict[str, Any]]:
+    """Messages that follow a reply in its thread (the rest of a long list); most have none."""
+    return suspects_thread(reply) if isinstance(reply, SuspectsReply) else []
 
 
 def message_for(reply: Reply) -> dict[str, Any]:

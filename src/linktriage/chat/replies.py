@@ -48,6 +48,7 @@ class SuspectsReply:
     cleared: list[str] = field(default_factory=list)  # "device port" no longer suspect
     digest_id: int | None = None
     visibility: Visibility = "channel"
+    kind: str = "suspects"  # or "digest": the scheduled one, kept once it is posted
 
     @property
     def coverage(self) -> str:

@@ -26,8 +26,9 @@ from slack_sdk import WebClient
 from slack_sdk.errors import SlackApiError
 from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
 
-from linktriage.chat.blocks import CONFIRM_ACTION, CORRECT_ACTION, message_for
+from linktriage.chat.blocks import CONFIRM_ACTION, CORRECT_ACTION, message_for, thread_for
 from linktriage.chat.commands import COMMAND, DiagnosePort, ListSuspects, parse
+from linktriage.chat.replies import Reply
 from linktriage.errors import LinktriageError
 from linktriage.service import Triage
 from linktriage.settings import Settings
@@ -37,6 +38,16 @@ log = logging.getLogger("linktriage.slack")
 WORKING = "On it: polling now. The answer will be posted in this channel."
 EVENTS_PATH = "/slack/events"
 HEALTH_PATH = "/healthz"
+
+
+def post_reply(client: WebClient, channel: str, reply: Reply) -> str:
+    """Post a reply to a channel, and what follows it in its thread; returns its ``ts``.
+    Raises SlackApiError when Slack refuses the first message."""
+    posted = client.chat_postMessage(channel=channel, **message_for(reply))
+    ts = str(posted["ts"])
+    for follow in thread_for(reply):
+        client.chat_postMessage(channel=channel, thread_ts=ts, **follow)
+    return ts
 
 
 def web_client(settings: Settings) -> WebClient:
@@ -123,7 +134,7 @@ def build_app(
             respond(response_type="ephemeral", replace_original=False, **message)
             return
         try:
-            posted = client.chat_postMessage(channel=channel, **message)
+            ts = post_reply(client, channel, reply)
         except SlackApiError as exc:
             error = exc.response.get("error")
             log.warning("could not post to %s: %s", channel, error)
@@ -134,7 +145,7 @@ def build_app(
                 blocks=message["blocks"],
             )
             return
-        triage.posted(reply, channel=channel, ts=posted["ts"])
+        triage.posted(reply, channel=channel, ts=ts)
 
     app.command(COMMAND)(ack=ack_triage, lazy=[answer_triage])
 
