@@ -148,3 +148,25 @@ def test_serve_with_a_token_slack_refuses_says_so(tmp_path: Path, emulator: Slac
     assert done.returncode == 1
     assert "Cannot start" in done.stderr and "invalid_auth" in done.stderr
     assert "Traceback" not in done.stderr and "xoxb-revoked" not in done.stderr
+
+
+def test_serve_says_what_failed_when_slack_cannot_be_reached(tmp_path: Path) -> None:
+    exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
+    assert exe is not None
+    nobody = free_port()  # nothing listens there
+    env = {
+        **os.environ,
+        "LINKTRIAGE_HOME": str(tmp_path / "home"),
+        "SLACK_BOT_TOKEN": TOKEN,
+        "SLACK_SIGNING_SECRET": SECRET,
+        "LINKTRIAGE_SLACK_API_URL": f"http://127.0.0.1:{nobody}/api/",
+    }
+    done = subprocess.run(
+        [exe, "serve", "--http", "--port", str(free_port()), "--no-jobs"],
+        env=env, capture_output=True, text=True, timeout=60,
+    )  # fmt: skip
+    assert done.returncode == 1
+    assert f"Cannot start: Slack's Web API at http://127.0.0.1:{nobody}/api/ did not answer" in (
+        done.stderr
+    )
+    assert "Traceback" not in done.stderr + done.stdout

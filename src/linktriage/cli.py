@@ -320,6 +320,7 @@ def serve(
     import signal
 
     from slack_bolt.error import BoltError
+    from slack_sdk.errors import SlackClientError
 
     from linktriage.chat.slack import (
         build_app,
@@ -353,6 +354,12 @@ def serve(
         app = build_app(triage, settings, client=client)
     except BoltError as exc:  # e.g. Slack refused the token at its first check
         raise LinktriageError(f"Cannot start: {exc}") from exc
+    except (OSError, SlackClientError) as exc:  # URLError is an OSError: no answer at all
+        reason = getattr(exc, "reason", None) or exc
+        raise LinktriageError(
+            f"Cannot start: Slack's Web API at {settings.slack_api_url} did not answer ({reason}).",
+            hint="Check the network and proxy settings, or LINKTRIAGE_SLACK_API_URL.",
+        ) from exc
     channel = settings.slack.channel
 
     def post_digest(reply: Any) -> None:
@@ -573,28 +580,45 @@ def config() -> None:
 @config.command("check")
 @_config_option
 def config_check(config_path: Path | None) -> None:
-    """Validate the settings and show what they amount to (secrets masked)."""
+    """Validate the settings and show what they amount to (secrets masked), creating
+    nothing. Each problem is its own line; what only the Slack bot needs is a warning.
+    Exit 1 when something is wrong, else 0 (a command-line-only setup needs no Slack)."""
     from linktriage.settings import config_path as find_config
     from linktriage.settings import load_settings
-    from linktriage.store import Store
+    from linktriage.store import StoreError, inspect_store, masked_url
 
     settings = load_settings(config_path)
     source = find_config(config_path)
     click.echo(f"settings from {source or 'built-in defaults'} and the environment")
     for section in ("slack", "store", "chat", "schedule", "labels", "network"):
         values = getattr(settings, section).model_dump()
-        click.echo(f"[{section}] " + ", ".join(f"{k}={v!r}" for k, v in values.items()))
-    problems = _slack_problems(settings)
+        shown = {k: masked_url(v) if isinstance(v, str) and "://" in v else v
+                 for k, v in values.items()}  # fmt: skip
+        click.echo(f"[{section}] " + ", ".join(f"{k}={v!r}" for k, v in shown.items()))
     for name in ("slack_bot_token", "slack_app_token", "slack_signing_secret"):
         present = getattr(settings, name) is not None
         click.echo(f"{name.upper()}: {'set' if present else 'not set'}")
-    click.echo(f"Slack Web API: {settings.slack_api_url}")
-    store = Store(settings.store.resolved_url())
-    click.echo(f"store: {store.describe()}, schema version {store.schema_version()}")
-    store.close()
+    click.echo(f"Slack Web API: {masked_url(settings.slack_api_url)}")
+    problems: list[str] = []
+    try:
+        click.echo(f"store: {inspect_store(settings.store.resolved_url())}")
+    except StoreError as exc:
+        problems.append(exc.render().replace("\n", " "))
+    inventory = settings.network.inventory
+    if settings.network.source == "inventory" and inventory is not None:
+        if not inventory.is_file():
+            problems.append(f"the inventory file {inventory} does not exist")
+        else:
+            try:
+                found = _load_inventory(inventory, config_path)
+                click.echo(f"inventory: {inventory}, {len(found.devices)} devices")
+            except LinktriageError as exc:
+                problems.append(exc.render().replace("\n", " "))
+    for warning in _slack_problems(settings):
+        click.echo(f"warning: {warning} (only `serve` needs it)", err=True)
+    for problem in problems:
+        click.echo(f"problem: {problem}", err=True)
     if problems:
-        for problem in problems:
-            click.echo(f"problem: {problem}", err=True)
         sys.exit(1)
     click.echo("settings are usable")
 

@@ -13,6 +13,7 @@ unique constraint: the same event delivered twice is stored once.
 from __future__ import annotations
 
 import json
+import re
 import time
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
@@ -190,26 +191,82 @@ def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
     cursor.close()
 
 
+#: The extra that installs each database's driver (pyproject.toml).
+_DRIVER_EXTRAS = {"postgresql": "postgresql"}
+
+
+def masked_url(url: str) -> str:
+    """A URL fit to print: any password replaced, even in a URL SQLAlchemy cannot parse."""
+    try:
+        return sa.make_url(url).render_as_string(hide_password=True)
+    except sa.exc.ArgumentError:
+        return re.sub(r"(://[^:/@\s]*:)[^@/\s]*@", r"\1***@", url)
+
+
+def _engine(url: str) -> Engine:
+    """An engine for ``url``; a URL that does not parse, or whose driver is missing, is a
+    StoreError that says what to do."""
+    try:
+        return sa.create_engine(url)
+    except sa.exc.ArgumentError as exc:
+        raise StoreError(
+            f"The store URL {masked_url(url)!r} is not a database URL ({exc}).",
+            hint='Write it as SQLAlchemy does, e.g. "postgresql://user@host/linktriage", or '
+            "leave [store] url out for the SQLite file in the data directory.",
+        ) from exc
+    except ImportError as exc:
+        backend = url.split(":", 1)[0].split("+", 1)[0]
+        extra = _DRIVER_EXTRAS.get(backend)
+        hint = (
+            f"Install it with: pip install 'linktriage[{extra}]'"
+            if extra
+            else "Install the database driver SQLAlchemy names for this URL."
+        )
+        raise StoreError(
+            f"The store at {masked_url(url)} needs a database driver that is not installed "
+            f"({exc}).",
+            hint=hint,
+        ) from exc
+
+
+def inspect_store(url: str) -> str:
+    """What the store at ``url`` is, read without creating or changing anything: its masked
+    URL and schema version, or that it is not created yet. Raises StoreError."""
+    engine = _engine(url)
+    try:
+        if engine.dialect.name == "sqlite":
+            database = sa.make_url(url).database
+            if database and database != ":memory:" and not Path(database).exists():
+                return f"{masked_url(url)}, not created yet (it is created on first use)"
+        with engine.connect() as conn:
+            if not sa.inspect(conn).has_table(schema_version.name):
+                return f"{masked_url(url)}, empty (its tables are created on first use)"
+            version = conn.execute(sa.select(sa.func.max(schema_version.c.version))).scalar()
+        return f"{masked_url(url)}, schema version {int(version or 0)}"
+    except sa.exc.SQLAlchemyError as exc:
+        first = str(exc).splitlines()[0]
+        raise StoreError(f"Cannot reach the store at {masked_url(url)}: {first}") from exc
+    finally:
+        engine.dispose()
+
+
 class Store:
     """The store behind one SQLAlchemy URL, migrated to the current schema on opening."""
 
     def __init__(self, url: str) -> None:
         self.url = url
+        self.engine: Engine = _engine(url)
         try:
-            self.engine: Engine = sa.create_engine(url)
             if self.engine.dialect.name == "sqlite":
                 sa.event.listen(self.engine, "connect", _sqlite_pragmas)
                 self._make_parent_dir(url)
             self.migrate()
         except sa.exc.SQLAlchemyError as exc:
-            raise StoreError(f"Cannot open the store at {self._safe_url()}: {exc}") from exc
-
-    def _safe_url(self) -> str:
-        return sa.make_url(self.url).render_as_string(hide_password=True)
+            raise StoreError(f"Cannot open the store at {masked_url(url)}: {exc}") from exc
 
     def describe(self) -> str:
         """The store's URL with any password hidden, fit to print."""
-        return self._safe_url()
+        return masked_url(self.url)
 
     @staticmethod
     def _make_parent_dir(url: str) -> None:
