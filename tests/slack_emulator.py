@@ -92,6 +92,10 @@ class SlackEmulator:
             self._ts += 1
             ts = f"{1772438400 + self._ts}.000100"
             return {"ok": True, "channel": params.get("channel"), "ts": ts, "message": params}
+        if method == "chat.update":
+            return {"ok": True, "channel": params.get("channel"), "ts": params.get("ts")}
+        if method == "chat.postEphemeral":
+            return {"ok": True, "message_ts": f"{1772438400 + self._ts}.000200"}
         if method == "usergroups.users.list":
             return {"ok": True, "users": self.usergroups.get(str(params.get("usergroup")), [])}
         return {"ok": False, "error": "unknown_method"}

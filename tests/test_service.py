@@ -51,6 +51,21 @@ def test_recent_history_needs_one_fresh_poll_and_no_wait(triage: Triage, clock: 
     assert reply.record["window_s"] == 300.0
 
 
+def test_a_stored_poll_seconds_old_is_not_a_window(triage: Triage, clock: DemoClock) -> None:
+    # Issue 8.6: right after start the poll job has stored one round 2 s ago; answering on a
+    # 2 s window would call a busy port "insufficient traffic". Wait out the quick window.
+    waited: list[float] = []
+    sleep = triage.sleep
+    triage.sleep = lambda s: (waited.append(s), sleep(s))[1]  # type: ignore[func-returns-value]
+    triage.poll_round()
+    clock.sleep(2.0)
+    reply = triage.handle("lark-east-idf2 port14")
+    assert isinstance(reply, DiagnosisReply)
+    assert waited == [28.0]
+    assert reply.record["window_s"] == 30.0
+    assert reply.record["verdict"] == "cable_fault"
+
+
 @pytest.mark.parametrize(
     ("text", "said"),
     [

@@ -18,8 +18,9 @@ import pytest
 from pydantic import SecretStr
 from slack_sdk.signature import SignatureVerifier
 
-from linktriage.chat.blocks import CONFIRM_ACTION, CORRECT_ACTION
+from linktriage.chat.blocks import CONFIRM_ACTION, CORRECT_ACTION, RECHECK_ACTION
 from linktriage.chat.slack import build_app, http_server
+from linktriage.demo_network import DemoClock
 from linktriage.service import Triage
 from linktriage.settings import Settings
 
@@ -258,6 +259,31 @@ def test_the_buttons_confirm_or_correct_the_verdict(
         c for c in emulator.called("chat.postMessage") if c.params.get("thread_ts") == ts
     ]
     assert len(thread_posts) == 2
+
+
+def test_a_quiet_port_is_checked_again_by_a_button_not_a_window_to_choose(
+    bot: str, emulator: SlackEmulator, triage: Triage, clock: DemoClock
+) -> None:
+    # Issue 8.6: "ask over a longer window" is nothing a Slack user can do; the answer
+    # carries a button that diagnoses the port again, its window grown by the polls since.
+    slash(bot, emulator, "lark-west-idf1 port22")
+    (answer,) = emulator.wait_for("chat.postMessage")
+    assert answer.params["blocks"][0]["text"]["text"].endswith("not enough traffic to judge")
+    actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
+    again = next(e for e in actions["elements"] if e["action_id"] == RECHECK_ACTION)
+    ts = "1772438401.000100"
+    clock.sleep(600.0)  # ten minutes on, the button is pressed
+    press = {"type": "button", "action_id": RECHECK_ACTION, "block_id": actions["block_id"],
+             "value": again["value"], "action_ts": "1772438600.1"}  # fmt: skip
+    body = action_body(press, ts)
+    status, _ = post(bot, body, signed(body), FORM)
+    assert status == 200
+    second = emulator.wait_for("chat.postMessage", 2)[1]
+    assert second.params["thread_ts"] == ts
+    assert second.params["blocks"][0]["text"]["text"].startswith("lark-west-idf1 port22: ")
+    first, again_stored = (triage.store.diagnosis(i) for i in (1, 2))
+    assert first is not None and again_stored is not None
+    assert (first.record["window_s"], again_stored.record["window_s"]) == (30.0, 630.0)
 
 
 def test_only_members_of_the_configured_group_may_label(

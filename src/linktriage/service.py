@@ -180,6 +180,22 @@ class Triage:
         diagnosis_id = self._keep(batch, row, origin=origin, user=user, channel=channel)
         return DiagnosisReply(batch.record(row), diagnosis_id, ref.site, ref.serves)
 
+    def recheck(
+        self, diagnosis_id: int, *, user: str | None = None, channel: str | None = None
+    ) -> Reply:
+        """The same port diagnosed again now (the answer's "Check again" button): its window
+        has grown by every poll since, which is what a quiet port needs."""
+        stored = self.store.diagnosis(diagnosis_id)
+        if stored is None:
+            return ErrorReply("That answer is no longer in the store.", "Ask with /triage again.")
+        reply: Reply
+        try:
+            reply = self.diagnose_port(stored.device, stored.port, user=user, channel=channel)
+        except LinktriageError as exc:
+            reply = ErrorReply(exc.message, exc.hint)
+        self._audit(f"check again {stored.device} {stored.port}", reply, user=user, channel=channel)
+        return reply
+
     # --- many ports
     def suspects(
         self, site: str | None = None, *, channel: str | None = None, kind: str = "suspects"
@@ -267,33 +283,49 @@ class Triage:
         return PollRound(stored, gathered.failed)
 
     def _gather(self, refs: list[PortRef]) -> tuple[PollTable, dict[str, str]]:
-        """Polls for these ports: stored recent ones plus one fresh poll each, or two
-        fresh polls ``quick_window_s`` apart where nothing recent is stored. A device
-        whose source keeps history (Prometheus) is asked for its recent window instead,
-        which answers at once."""
+        """Polls for these ports, never spanning less than ``quick_window_s``: stored recent
+        ones plus one fresh poll each, or, where the stored history is younger than that
+        (right after start) or absent, a second fresh poll once the first reaches back
+        ``quick_window_s``. A device whose source keeps history (Prometheus) is asked for
+        its recent window instead, and asked again after the wait when that is too short."""
         wanted: dict[str, list[str]] = {}
         for ref in refs:
             wanted.setdefault(ref.device, []).append(ref.port)
-        since = self.clock() - self.settings.chat.recent_poll_s
+        now = self.clock()
+        quick = self.settings.chat.quick_window_s
+        since = now - self.settings.chat.recent_poll_s
         tables: list[PollTable] = []
-        missing: dict[str, list[str] | None] = {}
-        for device, ports in wanted.items():
-            stored = self.store.polls_since(since, device=device)
-            stored = stored.take(np.flatnonzero(np.isin(stored.port, ports)))
-            tables.append(stored)
-            have = set(stored.port.tolist())
-            lacking = [p for p in ports if p not in have]
-            if lacking:
-                missing[device] = lacking
+        young: dict[str, list[str]] = {}  # ports whose history is shorter than quick
+        wait = 0.0
         recalled = self.network.history(wanted, since)
-        tables += recalled.tables.values()
         failed = dict(recalled.failed)
+        for device, table in recalled.tables.items():
+            short = _short_of(table, wanted[device], now, quick, absent=False)
+            if short:
+                wait = max(wait, max(short.values()))
+                young[device] = list(short)
+            else:
+                tables.append(table)
         fresh = {d: ps for d, ps in wanted.items() if d not in recalled.tables and d not in failed}
+        for device in fresh:
+            stored = self.store.polls_since(since, device=device)
+            stored = stored.take(np.flatnonzero(np.isin(stored.port, wanted[device])))
+            tables.append(stored)
+            short = _short_of(stored, wanted[device], now, quick, absent=True)
+            if short:
+                wait = max(wait, max(short.values()))
+                young[device] = list(short)
         failed.update(self._poll_into(tables, dict(fresh)))
-        retry = {d: ps for d, ps in missing.items() if d in fresh and d not in failed}
-        if retry:
-            self.sleep(self.settings.chat.quick_window_s)
-            failed.update(self._poll_into(tables, retry))
+        young = {d: ps for d, ps in young.items() if d not in failed}
+        if young:
+            self.sleep(wait)
+            again = self.network.history(
+                {d: ps for d, ps in young.items() if d in recalled.tables}, since
+            )
+            tables += again.tables.values()
+            failed.update(again.failed)
+            retry = {d: ps for d, ps in young.items() if d not in recalled.tables}
+            failed.update(self._poll_into(tables, dict(retry)))
         return PollTable.concat(tables), failed
 
     def _poll_into(
@@ -484,3 +516,22 @@ def _ranked_faults(batch: DiagnosisBatch) -> list[int]:
             batch.port[i],
         ),
     )
+
+
+def _short_of(
+    table: PollTable, ports: list[str], now: float, quick: float, *, absent: bool
+) -> dict[str, float]:
+    """Ports whose history in ``table`` reaches back less than ``quick`` seconds from
+    ``now``, with how long to wait until it does; ports with none count only if
+    ``absent`` (a source that keeps history and has none for a port will not after a
+    wait either)."""
+    oldest: dict[str, float] = {}
+    for port, at in zip(table.port.tolist(), table.time.tolist(), strict=True):
+        oldest[port] = min(at, oldest.get(port, at))
+    short: dict[str, float] = {}
+    for port in ports:
+        if port in oldest and now - oldest[port] < quick:
+            short[port] = quick - (now - oldest[port])
+        elif port not in oldest and absent:
+            short[port] = quick
+    return short

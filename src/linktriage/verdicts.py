@@ -206,7 +206,7 @@ GUIDES: dict[Verdict, Guide] = {
         "not enough traffic to judge",
         "Too few frames in the window to tell a healthy error rate from a faulty one.",
         (
-            "Ask again over a longer window or at a busier time.",
+            "Check again in a few minutes (each poll lengthens the window) or at a busier time.",
             "Or run a throughput test between two hosts across this link, then ask again.",
         ),
     ),

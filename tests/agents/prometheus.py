@@ -148,6 +148,7 @@ class Prometheus:
 
     def __init__(self, folder: Path, exporter: Exporter, devices: list[str]) -> None:
         binary = require("prometheus")
+        self.started = time.time()  # no scrape is older than this
         config = folder / "prometheus.yml"
         config.write_text(
             json.dumps(  # YAML is a superset of JSON

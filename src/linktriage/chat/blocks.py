@@ -49,6 +49,7 @@ MAX_MESSAGE_TEXT = 12_000
 
 CONFIRM_ACTION = "lt_confirm"
 CORRECT_ACTION = "lt_correct"
+RECHECK_ACTION = "lt_recheck"
 
 Block = dict[str, Any]
 
@@ -139,7 +140,8 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
 
 
 def _label_actions(reply: DiagnosisReply) -> Block:
-    """A button to confirm the verdict, and a menu to say what it really was."""
+    """A button to confirm the verdict, a menu to say what it really was, and one to
+    diagnose the port again."""
     diagnosis = str(reply.diagnosis_id)
     title = GUIDES[Verdict(reply.record["verdict"])].title
     options = [
@@ -165,6 +167,15 @@ def _label_actions(reply: DiagnosisReply) -> Block:
             "action_id": CORRECT_ACTION,
             "placeholder": {"type": "plain_text", "text": "It was really\u2026"},
             "options": options,
+        }
+    )
+    # A person in chat cannot choose a window: this asks again once more polls are in.
+    elements.append(
+        {
+            "type": "button",
+            "action_id": RECHECK_ACTION,
+            "text": {"type": "plain_text", "text": "Check again"},
+            "value": diagnosis,
         }
     )
     return {"type": "actions", "block_id": f"labels-{diagnosis}", "elements": elements}

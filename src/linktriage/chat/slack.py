@@ -26,7 +26,13 @@ from slack_sdk import WebClient
 from slack_sdk.errors import SlackApiError
 from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
 
-from linktriage.chat.blocks import CONFIRM_ACTION, CORRECT_ACTION, message_for, thread_for
+from linktriage.chat.blocks import (
+    CONFIRM_ACTION,
+    CORRECT_ACTION,
+    RECHECK_ACTION,
+    message_for,
+    thread_for,
+)
 from linktriage.chat.commands import COMMAND, DiagnosePort, ListSuspects, parse
 from linktriage.chat.replies import Reply
 from linktriage.errors import LinktriageError
@@ -194,6 +200,27 @@ def build_app(
 
     app.action(CONFIRM_ACTION)(on_label_action)
     app.action(CORRECT_ACTION)(on_label_action)
+
+    def ack_recheck(ack: Ack) -> None:
+        ack()
+
+    def answer_recheck(body: dict[str, Any], action: dict[str, Any], client: WebClient) -> None:
+        """The port diagnosed again; the new answer goes in the first one's thread."""
+        user = body["user"]["id"]
+        channel = body.get("channel", {}).get("id")
+        thread = body.get("container", {}).get("message_ts") or body.get("message", {}).get("ts")
+        raw_id = str(action.get("value", ""))
+        if not raw_id.isdigit() or not channel:
+            log.warning("ignored a check-again action with value %r", raw_id)
+            return
+        reply = triage.recheck(int(raw_id), user=user, channel=channel)
+        if reply.visibility != "channel":
+            client.chat_postEphemeral(channel=channel, user=user, **message_for(reply))
+            return
+        posted = client.chat_postMessage(channel=channel, thread_ts=thread, **message_for(reply))
+        triage.posted(reply, channel=channel, ts=str(posted["ts"]))
+
+    app.action(RECHECK_ACTION)(ack=ack_recheck, lazy=[answer_recheck])
 
     @app.error
     def on_error(error: Exception, body: dict[str, Any], context: BoltContext) -> None:
