@@ -244,6 +244,22 @@ def test_labels_export_writes_training_rows(tmp_path: Path) -> None:
     assert ",cable_fault," in row
 
 
+def test_labels_mark_a_replaced_label_and_export_only_what_counts(tmp_path: Path) -> None:
+    text = "lark-east-idf2 port14\nreply confirmed\nreply duplex_mismatch, forced on the printer\n"
+    CliRunner().invoke(main, ["chat"], input=text)
+    code, out, _ = run("labels")
+    assert code == 0
+    assert out.splitlines()[0] == (
+        "2 labels: 1 count, 1 replaced by their author's later one, 0 on 0 disputed answers"
+    )
+    assert "cable_fault = by console via console [replaced]" in out
+    assert "[counts]: forced on the printer" in out
+    target = tmp_path / "labels.csv"
+    run("labels", "export", str(target))
+    _, row = target.read_text().splitlines()
+    assert ",duplex_mismatch," in row
+
+
 def test_config_check_without_slack_is_usable_and_warns_what_serve_would_lack(
     tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:

@@ -64,6 +64,29 @@ def test_a_site_that_corrects_the_model_gets_a_model_that_learnt_it(triage: Tria
     assert outcome.candidate.training.labelled_rows == outcome.trained_on == 4
 
 
+def test_answers_whose_labels_disagree_teach_nothing_until_they_agree(triage: Triage) -> None:
+    # Issue 8.8: a disputed answer is held out of training; a person's changed label counts
+    # once, as its latest.
+    labels = label_ports(triage, {"lark-core1 up5": "healthy"}, times=6)
+    first, second = labels[0], labels[1]
+    for n, earlier in enumerate((first, second)):
+        diagnosis = triage.store.diagnosis(earlier.diagnosis_id)
+        assert diagnosis is not None
+        triage.store.add_label(
+            diagnosis, "congestion", note="", user_id="U9", channel="C1", source="button",
+            event_key=f"other:{n}", at=100.0 + n,
+        )  # fmt: skip
+    diagnosis = triage.store.diagnosis(labels[2].diagnosis_id)
+    assert diagnosis is not None
+    triage.store.add_label(
+        diagnosis, "healthy", note="said again", user_id="U1", channel="C1", source="thread",
+        event_key="again", at=200.0,
+    )  # fmt: skip
+    outcome = learn(triage.store.labels(), TreeArtefact.default(), SMALL)
+    assert outcome.disputed == 2
+    assert outcome.trained_on + outcome.held_out == 4  # 6 answers, 2 disputed, 1 label each
+
+
 def test_a_candidate_that_does_worse_is_not_promoted() -> None:
     outcome = Outcome(TreeArtefact.default(), "abc", 4, 2, candidate_score=0.5, current_score=1.0)
     assert not outcome.promoted

@@ -169,11 +169,57 @@ def test_a_thread_reply_is_stored_once_then_acknowledged(triage: Triage) -> None
     text = "cable_fault, crushed patch cord behind the desk"
     first = triage.label_reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="Ev1")
     assert first == LabelReply("U2", "lark-east-idf2", "port14", "cable_fault", "cable_fault",
-                               "crushed patch cord behind the desk")  # fmt: skip
+                               "crushed patch cord behind the desk", diagnosis_id=1)  # fmt: skip
     retry = triage.label_reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="Ev1")
     assert retry is None
     (label,) = triage.store.labels()
     assert label.user_id == "U2" and label.note == "crushed patch cord behind the desk"
+
+
+def test_confirming_twice_stores_one_label_and_tells_only_its_author(triage: Triage) -> None:
+    # Issue 8.8: a second press of Confirm stored a second label, weighted 20 times again.
+    reply = _posted(triage, "lark-east-idf2 port14")
+    first = triage.label_button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a1")
+    again = triage.label_button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a2")
+    assert isinstance(first, LabelReply)
+    assert isinstance(again, LabelRefused) and again.visibility == "ephemeral"
+    assert "already said cable_fault" in again.message
+    assert len(triage.store.labels()) == 1
+
+
+def test_a_person_who_changes_their_mind_replaces_their_label(triage: Triage) -> None:
+    reply = _posted(triage, "lark-east-idf2 port14")
+    said = []
+    for n, verdict in enumerate(["cable_fault", "duplex_mismatch", "healthy"]):
+        label = triage.label_button(
+            reply.diagnosis_id, verdict, user="U2", channel="C1", event_key=f"k{n}"
+        )
+        assert isinstance(label, LabelReply)
+        said.append((label.replaced, label.disputed_with))
+    assert said == [(None, ()), ("cable_fault", ()), ("duplex_mismatch", ())]
+    assert len(triage.store.labels()) == 3  # all kept for the audit
+    answer, channel, ts = triage.labelled_answer(reply.diagnosis_id) or pytest.fail("no answer")
+    assert (channel, ts) == ("C1", "100.1")
+    assert answer.labels == (("U2", "healthy"),)  # one counts: the latest
+
+
+def test_two_people_who_disagree_are_told_and_the_answer_is_marked(triage: Triage) -> None:
+    reply = _posted(triage, "lark-east-idf2 port14")
+    triage.label_button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a")
+    other = triage.label_button(
+        reply.diagnosis_id, "duplex_mismatch", user="U3", channel="C1", event_key="b"
+    )
+    assert isinstance(other, LabelReply) and other.disputed_with == ("cable_fault",)
+    answer, _, _ = triage.labelled_answer(reply.diagnosis_id) or pytest.fail("no answer")
+    assert answer.disputed
+    assert answer.labels == (("U2", "cable_fault"), ("U3", "duplex_mismatch"))
+
+
+def test_an_answer_keeps_its_site_and_what_the_port_serves(triage: Triage) -> None:
+    reply = _posted(triage, "lark-east-idf2 port14")
+    answer, _, _ = triage.labelled_answer(reply.diagnosis_id) or pytest.fail("no answer")
+    assert (answer.site, answer.serves) == (reply.site, reply.serves)
+    assert answer.record == reply.record
 
 
 @pytest.mark.parametrize(

@@ -212,7 +212,8 @@ def test_a_label_that_cannot_be_stored_is_not_acknowledged_as_recorded(
         conn.exec_driver_sql("DROP TABLE labels")
     body = event_body("cable_fault", "1772438401.000100", event_id="Ev0LABEL2")
     post(bot, body, signed(body), "application/json")
-    reply = emulator.wait_for("chat.postMessage", 2)[1]
+    (reply,) = emulator.wait_for("chat.postEphemeral")  # told to its author alone
+    assert reply.params["user"] == "U0ENGINEER"
     assert "Could not record that label" in reply.params["text"]
     assert "Recorded" not in reply.params["text"]
 
@@ -259,6 +260,35 @@ def test_the_buttons_confirm_or_correct_the_verdict(
         c for c in emulator.called("chat.postMessage") if c.params.get("thread_ts") == ts
     ]
     assert len(thread_posts) == 2
+    said = thread_posts[1].params["blocks"][0]["text"]["text"]
+    assert "instead of their earlier duplex_mismatch" in said
+    # The answer is redrawn after each label: who said what, and the buttons to match.
+    first, latest = emulator.wait_for("chat.update", 2)
+    assert (latest.params["channel"], latest.params["ts"]) == (CHANNEL, ts)
+    lines = [e["text"] for b in latest.params["blocks"] if b["type"] == "context"
+             for e in b["elements"]]  # fmt: skip
+    assert "Labelled: <@U0ENGINEER> found negotiation degraded" in lines
+    confirmed = [e["text"]["text"] for b in first.params["blocks"] if b["type"] == "actions"
+                 for e in b["elements"] if e["action_id"] == CONFIRM_ACTION]  # fmt: skip
+    assert confirmed == ["Confirm too (1 so far)"]
+
+
+def test_pressing_confirm_twice_records_one_label(
+    bot: str, emulator: SlackEmulator, triage: Triage
+) -> None:
+    slash(bot, emulator, "lark-east-idf2 port14")
+    (answer,) = emulator.wait_for("chat.postMessage")
+    actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
+    confirm = next(e for e in actions["elements"] if e["action_id"] == CONFIRM_ACTION)
+    for n in range(2):
+        press = {"type": "button", "action_id": CONFIRM_ACTION, "block_id": actions["block_id"],
+                 "value": confirm["value"], "action_ts": f"1772438600.{n}"}  # fmt: skip
+        body = action_body(press, "1772438401.000100")
+        post(bot, body, signed(body), FORM)
+    assert len(triage.store.labels()) == 1
+    (again,) = emulator.wait_for("chat.postEphemeral")
+    assert "already said cable_fault" in again.params["text"]
+    assert len(emulator.called("chat.update")) == 1
 
 
 def test_a_quiet_port_is_checked_again_by_a_button_not_a_window_to_choose(
@@ -306,6 +336,9 @@ def test_only_members_of_the_configured_group_may_label(
     post(bot, member, signed(member), "application/json")
     assert [label.user_id for label in triage.store.labels()] == ["U0ENGINEER"]
     assert emulator.called("usergroups.users.list")[0].params["usergroup"] == "S0NETENG"
+    # Issue 8.8: the refusal goes to the outsider alone, not into the channel's thread.
+    (refusal,) = emulator.called("chat.postEphemeral")
+    assert refusal.params["user"] == "U0VISITOR" and "not taken here" in refusal.params["text"]
 
 
 def test_a_channel_the_bot_is_not_in_gets_the_answer_privately(

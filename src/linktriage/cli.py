@@ -215,6 +215,11 @@ def train(
         click.echo(
             f"learnt from {outcome.trained_on} labels"
             + (f" ({outcome.older} older ones left out)" if outcome.older else "")
+            + (
+                f" ({outcome.disputed} answers held out: their labels disagree)"
+                if outcome.disputed
+                else ""
+            )
             + f"; on {outcome.held_out} held out the "
             f"candidate scores {outcome.candidate_score:.2f}, the current model "
             f"{current.version} {outcome.current_score:.2f}: "
@@ -642,26 +647,40 @@ def _slack_problems(settings: Any) -> list[str]:
 @_config_option
 @click.pass_context
 def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
-    """List the labels engineers gave (what they found on a port)."""
+    """List the labels engineers gave (what they found on a port), each marked as
+    counting, replaced by its author's later one, or disputed (held out of training)."""
     if ctx.invoked_subcommand is not None:
         return
     from dataclasses import asdict
 
+    from linktriage.labelled import settle
     from linktriage.settings import load_settings
     from linktriage.store import Store
 
     store = Store(load_settings(config_path).store.resolved_url())
     found = store.labels()
+    settled = settle(found)
+    replaced = {label.id for label in settled.replaced}
+    disputed = {label.id for group in settled.disputed.values() for label in group}
+
+    def standing(label_id: int) -> str:
+        if label_id in replaced:
+            return "replaced"
+        return "disputed" if label_id in disputed else "counts"
+
     if as_json:
         for label in found:
-            click.echo(json.dumps(asdict(label)))
+            click.echo(json.dumps({**asdict(label), "standing": standing(label.id)}))
         return
-    click.echo(f"{len(found)} labels")
+    click.echo(
+        f"{len(found)} labels: {len(settled.kept)} count, {len(replaced)} replaced by their "
+        f"author's later one, {len(disputed)} on {len(settled.disputed)} disputed answers"
+    )
     for label in found:
         agreed = "=" if label.verdict == label.model_verdict else f"(model: {label.model_verdict})"
         click.echo(
             f"{label.id:>4} {label.device} {label.port}: {label.verdict} {agreed} "
-            f"by {label.user_id} via {label.source}: {label.note}"
+            f"by {label.user_id} via {label.source} [{standing(label.id)}]: {label.note}"
         )
 
 
@@ -669,13 +688,14 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
 @click.argument("out", type=click.Path(dir_okay=False, allow_dash=True, path_type=Path))
 @_config_option
 def labels_export(out: Path, config_path: Path | None) -> None:
-    """Write the labels as training rows (CSV: the features, then the label)."""
-    from linktriage.labelled import label_frame
+    """Write the labels that count as training rows (CSV: the features, then the label);
+    replaced and disputed ones are left out."""
+    from linktriage.labelled import label_frame, settle
     from linktriage.settings import load_settings
     from linktriage.store import Store
 
     store = Store(load_settings(config_path).store.resolved_url())
-    frame = label_frame(store.labels())
+    frame = label_frame(settle(store.labels()).kept)
     if str(out) == "-":
         frame.to_csv(sys.stdout, index=False)
     else:

@@ -1,8 +1,14 @@
-"""Labels as training rows: the feature row a verdict was based on, and what was found."""
+"""Labels as training rows: the feature row a verdict was based on, and what was found.
+
+Which labels count: one per person per answer, the latest (a person who changes their
+mind replaces their label; the earlier one stays in the store for the audit), and none of
+an answer whose people disagree, until they agree: a disputed answer teaches nothing.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -34,3 +40,38 @@ def label_frame(labels: Sequence[Label]) -> pd.DataFrame:
         row.update({key: getattr(label, key) for key in META})
         rows.append(row)
     return pd.DataFrame(rows, columns=[*FEATURE_NAMES, *META])
+
+
+@dataclass(frozen=True, slots=True)
+class Settled:
+    """The labels that count, and what was set aside."""
+
+    kept: list[Label]  # one per person per answer, of answers whose labels agree
+    replaced: list[Label]  # earlier labels their person changed
+    disputed: dict[int, list[Label]]  # answer (diagnosis id) -> its disagreeing labels
+
+
+def current(labels: Sequence[Label]) -> tuple[list[Label], list[Label]]:
+    """Each person's latest label on each answer, oldest first, and the ones they replaced."""
+    latest: dict[tuple[int, str], Label] = {}
+    for label in sorted(labels, key=lambda lb: lb.id):
+        latest[(label.diagnosis_id, label.user_id)] = label
+    kept = {label.id for label in latest.values()}
+    ordered = sorted(labels, key=lambda lb: lb.id)
+    return [lb for lb in ordered if lb.id in kept], [lb for lb in ordered if lb.id not in kept]
+
+
+def settle(labels: Sequence[Label]) -> Settled:
+    """The labels that train the model (see the module's docstring)."""
+    latest, replaced = current(labels)
+    verdicts: dict[int, set[str]] = {}
+    for label in latest:
+        verdicts.setdefault(label.diagnosis_id, set()).add(label.verdict)
+    disputed: dict[int, list[Label]] = {}
+    kept: list[Label] = []
+    for label in latest:
+        if len(verdicts[label.diagnosis_id]) > 1:
+            disputed.setdefault(label.diagnosis_id, []).append(label)
+        else:
+            kept.append(label)
+    return Settled(kept, replaced, disputed)

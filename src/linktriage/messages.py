@@ -322,13 +322,29 @@ LABEL_NOT_A_FAULT = (
 )
 LABEL_STORE_FAILED = "Could not record that label ({reason}). Please try again."
 LABEL_GONE = "That answer is no longer in the store."
+LABEL_ALREADY = "You already said {verdict} on this answer; it is recorded once."
 
 
-def label_recorded(who: str, verdict: str, model_verdict: str, where: str, note: str) -> str:
-    """The thread's acknowledgement of a stored label (``who`` as the transport names people)."""
+def label_recorded(
+    who: str,
+    verdict: str,
+    model_verdict: str,
+    where: str,
+    note: str,
+    *,
+    replaced: str | None = None,
+    disputed_with: tuple[str, ...] = (),
+) -> str:
+    """The thread's acknowledgement of a stored label (``who`` as the transport names people):
+    what it replaced, and whether others' labels on the answer disagree."""
     agreed = "confirms" if verdict == model_verdict else f"corrects {model_verdict} to"
     note_text = f": {note}" if note else ""
-    return (
-        f"Recorded: {who} {agreed} {verdict} on {where}{note_text}. "
-        "The next training run learns from it."
-    )
+    instead = f" (instead of their earlier {replaced})" if replaced else ""
+    if disputed_with:
+        learning = (
+            f"Others said {', '.join(disputed_with)}: this answer is left out of training "
+            "until the labels agree."
+        )
+    else:
+        learning = "The next training run learns from it."
+    return f"Recorded: {who} {agreed} {verdict} on {where}{note_text}{instead}. {learning}"

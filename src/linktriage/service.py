@@ -14,6 +14,7 @@ import time
 from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
+from typing import cast
 
 import numpy as np
 
@@ -38,10 +39,12 @@ from linktriage.chat.replies import (
     SuspectItem,
     SuspectsReply,
 )
-from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, headline
+from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, Model, diagnose, headline
 from linktriage.errors import LinktriageError, PollError
 from linktriage.features import FEATURE_NAMES
+from linktriage.labelled import current
 from linktriage.messages import (
+    LABEL_ALREADY,
     LABEL_GONE,
     LABEL_NOT_A_FAULT,
     LABEL_NOT_ALLOWED,
@@ -177,7 +180,7 @@ class Triage:
         row = batch.index_of(ref.device, ref.port)
         if row is None:
             raise PollError(ref.device, f"answered without port {ref.port}")
-        diagnosis_id = self._keep(batch, row, origin=origin, user=user, channel=channel)
+        diagnosis_id = self._keep(batch, row, ref, origin=origin, user=user, channel=channel)
         return DiagnosisReply(batch.record(row), diagnosis_id, ref.site, ref.serves)
 
     def recheck(
@@ -216,9 +219,11 @@ class Triage:
             if where is None or self.network.site_of(device) == where:
                 failed.setdefault(device, f"could not list its ports: {why}")
         batch = diagnose(polls, self.model)
+        by_name = {(r.device, r.port): r for r in refs}
         items: list[SuspectItem] = []
         for row in _ranked_faults(batch):
-            diagnosis_id = self._keep(batch, row, origin=kind, channel=channel)
+            ref = by_name.get((batch.device[row], batch.port[row]))
+            diagnosis_id = self._keep(batch, row, ref, origin=kind, channel=channel)
             record = batch.record(row)
             items.append(SuspectItem(len(items) + 1, record, diagnosis_id, headline(record)))
         place = "everywhere" if where is None else f"at {where}"
@@ -341,6 +346,7 @@ class Triage:
         self,
         batch: DiagnosisBatch,
         row: int,
+        ref: PortRef | None,
         *,
         origin: str,
         user: str | None = None,
@@ -357,6 +363,8 @@ class Triage:
             origin=origin,
             asked_by=user,
             channel=channel,
+            site=ref.site if ref else "",
+            serves=ref.serves if ref else "",
         )
 
     # --- labels
@@ -468,11 +476,19 @@ class Triage:
         source: str,
         event_key: str,
     ) -> LabelReply | LabelRefused | None:
-        """Store a label, then say so; a retry of a stored one says nothing."""
+        """Store a label, then say so. One label per person per answer counts: a new one
+        replaces theirs (the earlier stays for the audit), the same one again is not
+        stored twice, and a retry of a stored event says nothing."""
         found = verdict if verdict is not None else Verdict(diagnosis.verdict)
         if found not in TREE_VERDICTS:
             return LabelRefused(LABEL_NOT_A_FAULT.format(verdict=found.value))
         try:
+            if self.store.has_event(event_key):
+                return None
+            before, _ = current(self.store.labels(diagnosis.id))
+            mine = next((lb for lb in before if lb.user_id == user), None)
+            if mine is not None and mine.verdict == found.value and not note:
+                return LabelRefused(LABEL_ALREADY.format(verdict=found.value))
             stored = self.store.add_label(
                 diagnosis,
                 found.value,
@@ -487,9 +503,34 @@ class Triage:
             return LabelRefused(LABEL_STORE_FAILED.format(reason=exc.message))
         if not stored:
             return None
+        others = sorted({lb.verdict for lb in before if lb.user_id != user} - {found.value})
         return LabelReply(
-            user, diagnosis.device, diagnosis.port, found.value, diagnosis.verdict, note
+            user,
+            diagnosis.device,
+            diagnosis.port,
+            found.value,
+            diagnosis.verdict,
+            note,
+            diagnosis_id=diagnosis.id,
+            replaced=mine.verdict if mine is not None and mine.verdict != found.value else None,
+            disputed_with=tuple(others),
         )
+
+    def labelled_answer(self, diagnosis_id: int) -> tuple[DiagnosisReply, str, str] | None:
+        """An answer as it now stands, with each person's latest label, and the channel
+        and message that carry it: to redraw it after a label. None if never posted."""
+        stored = self.store.diagnosis(diagnosis_id)
+        if stored is None or stored.channel is None or stored.message_ts is None:
+            return None
+        latest, _ = current(self.store.labels(diagnosis_id))
+        reply = DiagnosisReply(
+            cast(DiagnosisRecord, stored.record),  # stored as answered
+            stored.id,
+            stored.site,
+            stored.serves,
+            labels=tuple((lb.user_id, lb.verdict) for lb in latest),
+        )
+        return reply, stored.channel, stored.message_ts
 
 
 def _listed(items: list[SuspectItem]) -> list[dict[str, object]]:

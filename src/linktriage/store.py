@@ -69,6 +69,8 @@ diagnoses = sa.Table(
     sa.Column("asked_by", sa.Text),
     sa.Column("channel", sa.Text),
     sa.Column("message_ts", sa.Text),
+    sa.Column("site", sa.Text),  # from version 2: to redraw the answer as it was
+    sa.Column("serves", sa.Text),
     sa.Index("diagnoses_by_message", "channel", "message_ts"),
 )
 labels = sa.Table(
@@ -123,9 +125,18 @@ def _initial_schema(conn: Connection) -> None:
     metadata.create_all(conn, tables=[polls, diagnoses, labels, digests, audit])
 
 
+def _answer_context(conn: Connection) -> None:
+    # Version 1 tables are created from today's metadata, so a new store has the columns.
+    have = {column["name"] for column in sa.inspect(conn).get_columns("diagnoses")}
+    for name in ("site", "serves"):
+        if name not in have:
+            conn.exec_driver_sql(f"ALTER TABLE diagnoses ADD COLUMN {name} TEXT")
+
+
 #: Every schema change, in order. A new change is a new entry; old entries never change.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "polls, diagnoses, labels, digests, audit", _initial_schema),
+    Migration(2, "diagnoses keep their site and what the port serves", _answer_context),
 )
 
 
@@ -143,6 +154,8 @@ class StoredDiagnosis:
     record: dict[str, Any]
     channel: str | None
     message_ts: str | None
+    site: str = ""
+    serves: str = ""
 
 
 @dataclass(frozen=True, slots=True)
@@ -346,8 +359,10 @@ class Store:
         origin: str,
         asked_by: str | None = None,
         channel: str | None = None,
+        site: str = "",
+        serves: str = "",
     ) -> int:
-        """Keep what was answered; returns its id."""
+        """Keep what was answered, and enough to draw it again; returns its id."""
         with self._writing("keep the diagnosis") as conn:
             result = conn.execute(
                 diagnoses.insert().values(
@@ -362,6 +377,8 @@ class Store:
                     origin=origin,
                     asked_by=asked_by,
                     channel=channel,
+                    site=site,
+                    serves=serves,
                 )
             )
             return _new_id(result)
@@ -402,6 +419,8 @@ class Store:
             record=json.loads(row.record),
             channel=row.channel,
             message_ts=row.message_ts,
+            site=row.site or "",
+            serves=row.serves or "",
         )
 
     # --- labels
@@ -438,22 +457,27 @@ class Store:
                     )
                 )
         except StoreError as exc:
-            if isinstance(exc.__cause__, sa.exc.IntegrityError) and self._has_event(event_key):
+            if isinstance(exc.__cause__, sa.exc.IntegrityError) and self.has_event(event_key):
                 return False
             raise
         return True
 
-    def _has_event(self, event_key: str) -> bool:
-        with self.engine.connect() as conn:
+    def has_event(self, event_key: str) -> bool:
+        """Whether a label from this event is stored (a retried delivery is not new)."""
+        with self._reading("read the labels") as conn:
             found = conn.execute(
                 sa.select(labels.c.id).where(labels.c.event_key == event_key)
             ).first()
         return found is not None
 
-    def labels(self) -> list[Label]:
-        """Every label, oldest first."""
-        with self.engine.connect() as conn:
-            rows = conn.execute(sa.select(labels).order_by(labels.c.id)).all()
+    def labels(self, diagnosis_id: int | None = None) -> list[Label]:
+        """Every label (or those of one answer), oldest first: changed ones included, for
+        the audit; :func:`linktriage.labelled.settle` says which ones count."""
+        query = sa.select(labels).order_by(labels.c.id)
+        if diagnosis_id is not None:
+            query = query.where(labels.c.diagnosis_id == diagnosis_id)
+        with self._reading("read the labels") as conn:
+            rows = conn.execute(query).all()
         return [
             Label(
                 id=r.id,
@@ -524,6 +548,15 @@ class Store:
             return [dict(r._mapping) for r in conn.execute(sa.select(audit).order_by(audit.c.id))]
 
     # --- writing
+    @contextmanager
+    def _reading(self, what: str) -> Iterator[Connection]:
+        """A read whose database errors become :class:`StoreError`."""
+        try:
+            with self.engine.connect() as conn:
+                yield conn
+        except sa.exc.SQLAlchemyError as exc:
+            raise StoreError(f"Could not {what}: {exc.__class__.__name__}: {exc}") from exc
+
     @contextmanager
     def _writing(self, what: str) -> Iterator[Connection]:
         """A write transaction whose database errors become :class:`StoreError`."""

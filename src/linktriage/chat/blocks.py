@@ -11,6 +11,7 @@ everything drawn as mrkdwn has ``&``, ``<`` and ``>`` escaped, so no reply can m
 from __future__ import annotations
 
 import json
+import re
 from datetime import UTC, datetime
 from typing import Any
 
@@ -57,6 +58,11 @@ Block = dict[str, Any]
 def escape(text: str) -> str:
     """Text safe inside mrkdwn: Slack's three control characters as entities."""
     return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+
+
+def _person(user: str) -> str:
+    """A person as Slack shows them: a mention for a Slack user id, else the name escaped."""
+    return f"<@{user}>" if re.fullmatch(r"[UW][A-Z0-9]{2,}", user) else escape(user)
 
 
 def _clip(text: str, limit: int) -> str:
@@ -134,9 +140,25 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
         cautions = [f":warning: {escape(c)}" for c in r["cautions"]]
         blocks += _sections(cautions, title="Safety")
     blocks.append(_label_actions(reply))
+    if reply.labels:
+        blocks.append(_context(_labels_line(reply)))
     blocks.append(_context(LABEL_PROMPT))
     fallback = f"{r['device']} {r['port']}: {r['title']} ({r['verdict']}, {r['confidence']:.2f})"
     return _message(fallback, blocks)
+
+
+def _labels_line(reply: DiagnosisReply) -> str:
+    """Who said what on this answer (each person's latest), and whether it teaches."""
+    model = reply.record["verdict"]
+    said = [
+        f"{_person(user)} {'confirmed' if verdict == model else 'found'} "
+        f"{escape(GUIDES[Verdict(verdict)].title)}"
+        for user, verdict in reply.labels
+    ]
+    line = "Labelled: " + "; ".join(said)
+    if reply.disputed:
+        line += ". The labels disagree: left out of training until they agree."
+    return line
 
 
 def _label_actions(reply: DiagnosisReply) -> Block:
@@ -152,12 +174,14 @@ def _label_actions(reply: DiagnosisReply) -> Block:
         for v in TREE_VERDICTS
     ]
     elements: list[Block] = []
+    confirmed = sum(1 for _, verdict in reply.labels if verdict == reply.record["verdict"])
+    confirm = f"Confirm too ({confirmed} so far)" if confirmed else f"Confirm: {title}"
     if reply.record["verdict"] in {v.value for v in TREE_VERDICTS}:
         elements.append(
             {
                 "type": "button",
                 "action_id": CONFIRM_ACTION,
-                "text": {"type": "plain_text", "text": _clip(f"Confirm: {title}", MAX_OPTION_TEXT)},
+                "text": {"type": "plain_text", "text": _clip(confirm, MAX_OPTION_TEXT)},
                 "value": diagnosis,
             }
         )
@@ -289,7 +313,13 @@ def message_for(reply: Reply) -> dict[str, Any]:
     if isinstance(reply, LabelReply):
         where = f"`{escape(reply.device)} {escape(reply.port)}`"
         said = label_recorded(
-            f"<@{escape(reply.user)}>", reply.verdict, reply.model_verdict, where, ""
+            _person(reply.user),
+            reply.verdict,
+            reply.model_verdict,
+            where,
+            "",
+            replaced=reply.replaced,
+            disputed_with=reply.disputed_with,
         )
         blocks = [_section(":white_check_mark: " + said)]
         if reply.note:

@@ -20,6 +20,12 @@ class DiagnosisReply:
     site: str
     serves: str
     visibility: Visibility = "channel"
+    labels: tuple[tuple[str, str], ...] = ()  # (person, verdict): each one's latest label
+
+    @property
+    def disputed(self) -> bool:
+        """Whether the people who labelled this answer disagree (so it teaches nothing)."""
+        return len({verdict for _, verdict in self.labels}) > 1
 
 
 @dataclass(frozen=True, slots=True)
@@ -92,14 +98,17 @@ class LabelReply:
     model_verdict: str
     note: str
     visibility: Visibility = "channel"
+    diagnosis_id: int = 0
+    replaced: str | None = None  # this person's earlier verdict on the answer, if any
+    disputed_with: tuple[str, ...] = ()  # others' differing verdicts on the answer
 
 
 @dataclass(frozen=True, slots=True)
 class LabelRefused:
-    """A reply read as a label that was not stored, and why (said in the thread)."""
+    """A reply read as a label that was not stored, and why: told to its author only."""
 
     message: str
-    visibility: Visibility = "channel"
+    visibility: Visibility = "ephemeral"
 
 
 Reply = (

@@ -34,7 +34,7 @@ from linktriage.chat.blocks import (
     thread_for,
 )
 from linktriage.chat.commands import COMMAND, DiagnosePort, ListSuspects, parse
-from linktriage.chat.replies import Reply
+from linktriage.chat.replies import LabelReply, Reply
 from linktriage.errors import LinktriageError
 from linktriage.service import Triage
 from linktriage.settings import Settings
@@ -155,6 +155,34 @@ def build_app(
 
     app.command(COMMAND)(ack=ack_triage, lazy=[answer_triage])
 
+    def answer_label(
+        reply: Reply | None, client: WebClient, *, channel: str, thread: str | None, user: str
+    ) -> None:
+        """A stored label is said in the thread and redrawn on its answer; a refusal is
+        told to its author alone."""
+        if reply is None:
+            return
+        message = message_for(reply)
+        if reply.visibility != "channel":
+            client.chat_postEphemeral(channel=channel, user=user, thread_ts=thread, **message)
+            return
+        client.chat_postMessage(channel=channel, thread_ts=thread, **message)
+        if isinstance(reply, LabelReply):
+            redraw(reply.diagnosis_id, client)
+
+    def redraw(diagnosis_id: int, client: WebClient) -> None:
+        """The answer updated in place: who labelled it, and buttons to match."""
+        found = triage.labelled_answer(diagnosis_id)
+        if found is None:
+            return  # a label from a digest's thread: its answer was never posted alone
+        answer, channel, ts = found
+        try:
+            client.chat_update(channel=channel, ts=ts, **message_for(answer))
+        except SlackApiError as exc:
+            log.warning(
+                "could not update answer %s in %s: %s", ts, channel, exc.response.get("error")
+            )
+
     @app.event("message")
     def on_message(event: dict[str, Any], body: dict[str, Any], client: WebClient) -> None:
         thread = event.get("thread_ts")
@@ -170,10 +198,7 @@ def build_app(
             thread_ts=thread,
             event_key=event_id,
         )
-        if reply is not None:
-            client.chat_postMessage(
-                channel=event["channel"], thread_ts=thread, **message_for(reply)
-            )
+        answer_label(reply, client, channel=event["channel"], thread=thread, user=event["user"])
 
     def on_label_action(
         ack: Ack, body: dict[str, Any], action: dict[str, Any], client: WebClient
@@ -195,8 +220,8 @@ def build_app(
             return
         key = f"action:{thread}:{user}:{action.get('action_ts')}"
         reply = triage.label_button(int(raw_id), verdict, user=user, channel=channel, event_key=key)
-        if reply is not None and channel:
-            client.chat_postMessage(channel=channel, thread_ts=thread, **message_for(reply))
+        if channel:
+            answer_label(reply, client, channel=channel, thread=thread, user=user)
 
     app.action(CONFIRM_ACTION)(on_label_action)
     app.action(CORRECT_ACTION)(on_label_action)

@@ -58,5 +58,13 @@ def render(reply: Reply) -> str:
         return reply.message if reply.hint is None else f"{reply.message}\n{reply.hint}"
     if isinstance(reply, LabelReply):
         where = f"{reply.device} {reply.port}"
-        return label_recorded(reply.user, reply.verdict, reply.model_verdict, where, reply.note)
+        return label_recorded(
+            reply.user,
+            reply.verdict,
+            reply.model_verdict,
+            where,
+            reply.note,
+            replaced=reply.replaced,
+            disputed_with=reply.disputed_with,
+        )
     return reply.message

@@ -1,9 +1,10 @@
 """The learning loop: the prior plus what engineers confirmed, promoted only if no worse.
 
-Confirmed labels are split, deterministically for the seed, into rows to train on and
-rows held out (a share of them, at least one). The candidate is trained on the simulated
-prior plus the training labels, each label weighted above a simulated row; then the
-candidate and the current model are both scored on the held-out labels, and the
+The labels that count (:func:`linktriage.labelled.settle`: each person's latest on each
+answer, none of a disputed answer) are split, deterministically for the seed, into rows
+to train on and rows held out (a share of them, at least one). The candidate is trained
+on the simulated prior plus the training labels, each label weighted above a simulated
+row; then the candidate and the current model are both scored on the held-out labels, and the
 candidate is promoted only if it does at least as well. The current model may have
 learnt from some of the held-out labels in an earlier round, which favours it: the rule
 errs towards keeping what already works.
@@ -19,7 +20,7 @@ import numpy as np
 
 from linktriage.errors import InputError
 from linktriage.features import FEATURE_NAMES
-from linktriage.labelled import label_frame
+from linktriage.labelled import label_frame, settle
 from linktriage.model.artefact import CompiledTree, TreeArtefact
 from linktriage.model.train import LabelledRows, TrainingConfig, train
 from linktriage.store import Label
@@ -72,6 +73,7 @@ class Outcome:
     candidate_score: float
     current_score: float
     older: int = 0  # labels left out, recorded under an earlier release's inputs
+    disputed: int = 0  # answers left out because the people who labelled them disagree
 
     @property
     def promoted(self) -> bool:
@@ -89,7 +91,8 @@ class Outcome:
 
 def learn(labels: Sequence[Label], current: TreeArtefact, cfg: TrainingConfig) -> Outcome:
     """Train a candidate on the prior plus labels and judge it against ``current``."""
-    labels, older = usable(labels)
+    settled = settle(labels)
+    labels, older = usable(settled.kept)
     if len(labels) < 2:
         also = f" ({older} more were recorded under an earlier release's inputs)" if older else ""
         raise InputError(
@@ -107,4 +110,5 @@ def learn(labels: Sequence[Label], current: TreeArtefact, cfg: TrainingConfig) -
         candidate_score=accuracy(candidate, held),
         current_score=accuracy(current, held),
         older=older,
+        disputed=len(settled.disputed),
     )
