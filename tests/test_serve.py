@@ -75,6 +75,7 @@ def served(emulator: SlackEmulator, tmp_path: Path) -> Iterator[tuple[str, dict[
     log, _ = process.communicate(timeout=10)
     assert process.returncode == 0, log
     assert TOKEN not in log and SECRET not in log  # tokens never reach the log
+    assert "/hooks/respond" not in log  # nor a request's response_url (issue 8.10)
 
 
 def test_serve_answers_a_signed_triage_refuses_a_bad_one_and_labels_once(
@@ -170,3 +171,26 @@ def test_serve_says_what_failed_when_slack_cannot_be_reached(tmp_path: Path) -> 
         done.stderr
     )
     assert "Traceback" not in done.stderr + done.stdout
+
+
+def test_serve_says_so_when_its_port_is_taken(tmp_path: Path, emulator: SlackEmulator) -> None:
+    exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
+    assert exe is not None
+    env = {
+        **os.environ,
+        "LINKTRIAGE_HOME": str(tmp_path),
+        "SLACK_BOT_TOKEN": TOKEN,
+        "SLACK_SIGNING_SECRET": SECRET,
+        "LINKTRIAGE_SLACK_API_URL": emulator.api_url,
+    }
+    with socket.socket() as taken:
+        taken.bind(("127.0.0.1", 0))
+        taken.listen()
+        port = taken.getsockname()[1]
+        done = subprocess.run(
+            [exe, "serve", "--http", "--port", str(port), "--host", "127.0.0.1", "--no-jobs"],
+            env=env, capture_output=True, text=True, timeout=60,
+        )  # fmt: skip
+    assert done.returncode == 1
+    assert f"Cannot listen on 127.0.0.1 port {port}: Address already in use" in done.stderr
+    assert "Traceback" not in done.stderr

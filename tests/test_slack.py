@@ -19,7 +19,8 @@ from pydantic import SecretStr
 from slack_sdk.signature import SignatureVerifier
 
 from linktriage.chat.blocks import CONFIRM_ACTION, CORRECT_ACTION, RECHECK_ACTION
-from linktriage.chat.slack import build_app, http_server
+from linktriage.chat.slack import build_app
+from linktriage.chat.slack_http import http_server
 from linktriage.demo_network import DemoClock
 from linktriage.service import Triage
 from linktriage.settings import Settings
@@ -59,7 +60,7 @@ def bot(triage: Triage, emulator: SlackEmulator) -> Iterator[str]:
         slack_api_url_override=emulator.api_url,
     )
     app = build_app(triage, triage.settings, listener_executor=Inline())
-    server = http_server(app, 0, host="127.0.0.1")
+    server = http_server(app, secret=SECRET, port=0)
     threading.Thread(target=server.serve_forever, daemon=True).start()
     yield f"http://127.0.0.1:{server.server_address[1]}/slack/events"
     server.shutdown()

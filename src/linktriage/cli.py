@@ -306,12 +306,19 @@ def chat(config_path: Path | None, model_path: Path | None) -> None:
 @main.command()
 @click.option("--http", "http_mode", is_flag=True, help="Serve HTTP (default: [slack] mode).")
 @click.option("--port", type=click.IntRange(1, 65535), default=None, help="HTTP port.")
+@click.option(
+    "--host",
+    default=None,
+    help="Address to listen on in HTTP mode (default: [slack] http_host, loopback). "
+    "Put a TLS-terminating proxy in front; 0.0.0.0 listens on every interface.",
+)
 @click.option("--no-jobs", is_flag=True, help="Answer only: no poll job, no digest job.")
 @_config_option
 @_model_option
 def serve(
     http_mode: bool,
     port: int | None,
+    host: str | None,
     no_jobs: bool,
     config_path: Path | None,
     model_path: Path | None,
@@ -330,11 +337,11 @@ def serve(
     from linktriage.chat.slack import (
         build_app,
         group_members,
-        http_server,
         post_reply,
         run_socket_mode,
         web_client,
     )
+    from linktriage.chat.slack_http import http_server
     from linktriage.diagnosis import Model
     from linktriage.schedule import Jobs, start_scheduler
     from linktriage.service import Triage
@@ -378,9 +385,25 @@ def serve(
     signal.signal(signal.SIGTERM, lambda *_: sys.exit(0))  # systemd stops it: shut down cleanly
     try:
         if settings.slack.mode == "http":
-            server = http_server(app, port or settings.slack.http_port)
+            secret = settings.slack_signing_secret
+            if secret is None:  # said above among the problems; checked again where it counts
+                raise LinktriageError("Cannot start: SLACK_SIGNING_SECRET is not set.")
+            try:
+                server = http_server(
+                    app,
+                    secret=secret.get_secret_value(),
+                    port=port or settings.slack.http_port,
+                    host=host or settings.slack.http_host,
+                )
+            except OSError as exc:
+                raise LinktriageError(
+                    f"Cannot listen on {host or settings.slack.http_host} port "
+                    f"{port or settings.slack.http_port}: {exc.strerror or exc}"
+                ) from exc
+            bound_host, bound_port = server.server_address[:2]
             click.echo(
-                f"linktriage: listening on port {server.server_address[1]}, /slack/events", err=True
+                f"linktriage: listening on {bound_host!s} port {bound_port}, /slack/events",
+                err=True,
             )
             server.serve_forever()
         else:

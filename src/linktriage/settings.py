@@ -55,6 +55,9 @@ class SlackSettings(_Section):
     mode: Literal["socket", "http"] = "socket"
     channel: str | None = Field(default=None, description="channel ID digests are posted to")
     http_port: int = Field(default=3000, ge=1, le=65535)
+    http_host: str = Field(
+        default="127.0.0.1", description="address HTTP mode listens on; a TLS proxy goes in front"
+    )
     api_url: str = DEFAULT_SLACK_API
 
 

@@ -6,9 +6,8 @@ itself, privately; a port or a list of suspects gets a short "looking" note, the
 work runs after the acknowledgement and the answer is posted to the channel, where its
 thread collects what engineers found. Thread replies and the label buttons become labels.
 
-Two ways in: Socket Mode (no public URL; the default) and HTTP mode, a small threaded
-server whose only route, ``/slack/events``, hands each request to bolt, which checks the
-signature and its age before anything else runs.
+Two ways in: Socket Mode (no public URL; the default) and HTTP mode, whose listener
+(:mod:`linktriage.chat.slack_http`) checks each request before it hands it to bolt.
 """
 
 from __future__ import annotations
@@ -16,12 +15,9 @@ from __future__ import annotations
 import logging
 import uuid
 from collections import OrderedDict
-from collections.abc import Sequence
-from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from typing import Any
 
 from slack_bolt import Ack, App, BoltContext, Respond
-from slack_bolt.request import BoltRequest
 from slack_sdk import WebClient
 from slack_sdk.errors import SlackApiError
 from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
@@ -42,8 +38,6 @@ from linktriage.verdicts import TREE_VERDICTS
 
 log = logging.getLogger("linktriage.slack")
 WORKING = "On it: polling now. The answer will be posted in this channel."
-EVENTS_PATH = "/slack/events"
-HEALTH_PATH = "/healthz"
 
 
 def post_reply(client: WebClient, channel: str, reply: Reply) -> str:
@@ -258,51 +252,6 @@ def build_app(
         )
 
     return app
-
-
-class _Handler(BaseHTTPRequestHandler):
-    app: App
-    disable_nagle_algorithm = True  # headers and body leave together, no delayed-ACK stall
-
-    def do_POST(self) -> None:
-        if self.path.split("?", 1)[0] != EVENTS_PATH:
-            self._send(404, b"not found")
-            return
-        length = int(self.headers.get("Content-Length") or 0)
-        body = self.rfile.read(length).decode("utf-8", errors="replace")
-        query = self.path.split("?", 1)[1] if "?" in self.path else None
-        headers: dict[str, str | Sequence[str]] = {k.lower(): v for k, v in self.headers.items()}
-        response = self.app.dispatch(BoltRequest(body=body, query=query, headers=headers))
-        payload = response.body.encode("utf-8")
-        self.send_response(response.status)
-        for name, values in response.headers.items():
-            for value in values:
-                self.send_header(name, value)
-        self.send_header("Content-Length", str(len(payload)))
-        self.end_headers()
-        self.wfile.write(payload)
-
-    def do_GET(self) -> None:
-        if self.path == HEALTH_PATH:
-            self._send(200, b"ok")
-        else:
-            self._send(404, b"not found")
-
-    def _send(self, status: int, payload: bytes) -> None:
-        self.send_response(status)
-        self.send_header("Content-Type", "text/plain; charset=utf-8")
-        self.send_header("Content-Length", str(len(payload)))
-        self.end_headers()
-        self.wfile.write(payload)
-
-    def log_message(self, format: str, *args: Any) -> None:
-        log.debug("http %s", format % args)
-
-
-def http_server(app: App, port: int, host: str = "0.0.0.0") -> ThreadingHTTPServer:
-    """A threaded HTTP server for ``/slack/events`` (and ``/healthz``); not yet serving."""
-    handler = type("Handler", (_Handler,), {"app": app})
-    return ThreadingHTTPServer((host, port), handler)
 
 
 def run_socket_mode(app: App, settings: Settings) -> None:
