@@ -16,6 +16,8 @@ from linktriage.settings import Settings
 from linktriage.simulate import DEFAULT_START
 from linktriage.store import Store
 
+from slack_emulator import SlackEmulator
+
 ROOT = Path(__file__).resolve().parent.parent
 SNAPSHOTS = ROOT / "fixtures" / "snapshots"
 
@@ -50,6 +52,14 @@ def demo_batch(model: Model) -> DiagnosisBatch:
 def snapshots() -> Path:
     """The folder of recorded snapshot files."""
     return SNAPSHOTS
+
+
+@pytest.fixture
+def emulator() -> Iterator[SlackEmulator]:
+    """A local Slack Web API that records every call (test_slack adds a user group)."""
+    running = SlackEmulator().start()
+    yield running
+    running.stop()
 
 
 @pytest.fixture

@@ -31,13 +31,6 @@ def free_port() -> int:
 
 
 @pytest.fixture
-def emulator() -> Iterator[SlackEmulator]:
-    running = SlackEmulator().start()
-    yield running
-    running.stop()
-
-
-@pytest.fixture
 def served(emulator: SlackEmulator, tmp_path: Path) -> Iterator[tuple[str, dict[str, str]]]:
     exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
     assert exe is not None

@@ -32,13 +32,6 @@ RESPONSE_URL = "https://hooks.slack.invalid/commands/T0LARK/1234/secret-hook-tok
 
 
 @pytest.fixture
-def emulator() -> Iterator[SlackEmulator]:
-    running = SlackEmulator().start()
-    yield running
-    running.stop()
-
-
-@pytest.fixture
 def ran() -> list[str]:
     """The texts of the slash commands bolt's listener ran."""
     return []

@@ -16,7 +16,7 @@ import json
 import re
 import time
 from collections.abc import Callable, Iterator, Sequence
-from contextlib import contextmanager
+from contextlib import AbstractContextManager, contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -547,21 +547,21 @@ class Store:
         with self.engine.connect() as conn:
             return [dict(r._mapping) for r in conn.execute(sa.select(audit).order_by(audit.c.id))]
 
-    # --- writing
-    @contextmanager
-    def _reading(self, what: str) -> Iterator[Connection]:
+    # --- database errors as StoreError
+    def _reading(self, what: str) -> AbstractContextManager[Connection]:
         """A read whose database errors become :class:`StoreError`."""
-        try:
-            with self.engine.connect() as conn:
-                yield conn
-        except sa.exc.SQLAlchemyError as exc:
-            raise StoreError(f"Could not {what}: {exc.__class__.__name__}: {exc}") from exc
+        return self._guarded(what, self.engine.connect)
+
+    def _writing(self, what: str) -> AbstractContextManager[Connection]:
+        """A write transaction whose database errors become :class:`StoreError`."""
+        return self._guarded(what, self.engine.begin)
 
     @contextmanager
-    def _writing(self, what: str) -> Iterator[Connection]:
-        """A write transaction whose database errors become :class:`StoreError`."""
+    def _guarded(
+        self, what: str, opening: Callable[[], AbstractContextManager[Connection]]
+    ) -> Iterator[Connection]:
         try:
-            with self.engine.begin() as conn:
+            with opening() as conn:
                 yield conn
         except sa.exc.SQLAlchemyError as exc:
             raise StoreError(f"Could not {what}: {exc.__class__.__name__}: {exc}") from exc
