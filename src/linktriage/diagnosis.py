@@ -20,7 +20,7 @@ import numpy.typing as npt
 import pandas as pd
 
 from linktriage.errors import ModelError
-from linktriage.evidence import EvidenceRecord, evidence_of
+from linktriage.evidence import EvidenceRecord, evidence_of, item
 from linktriage.features import FEATURE_NAMES, FeatureRows, feature_rows
 from linktriage.guards import apply_guards
 from linktriage.measures import measure
@@ -296,12 +296,12 @@ class DiagnosisBatch:
                 state = str(self.windows.oper_status[i])
                 said = f"the port is {state} at the latest poll"
                 found[k] = [
-                    _evidence("oper_status", state, "state", None, "RFC 2863 ifOperStatus", said)
+                    item("oper_status", state, "state", None, "RFC 2863 ifOperStatus", said)
                 ]
             elif verdict is Verdict.NO_DATA:
                 said = self.note[i] or "fewer than two usable polls"
                 polls = float(self.polls[i])
-                found[k] = [_evidence("polls", polls, "polls", 2.0, "common practice", said)]
+                found[k] = [item("polls", polls, "polls", 2.0, "common practice", said)]
         return found
 
     def ruled_out_record(self, i: int) -> RuledOutRecord | None:
@@ -365,19 +365,6 @@ def _q(
         "feature": feature,
         "value": value,
         "threshold": threshold,
-        "said": said,
-    }
-
-
-def _evidence(
-    feature: str, value: float | str, unit: str, reference: float | None, source: str, said: str
-) -> EvidenceRecord:
-    return {
-        "feature": feature,
-        "value": value,
-        "unit": unit,
-        "reference": reference,
-        "source": source,
         "said": said,
     }
 

@@ -36,10 +36,11 @@ class EvidenceRecord(TypedDict):
     said: str
 
 
-def _item(
+def item(
     feature: str, value: float | str | None, unit: str, reference: float | None, source: str,
     said: str,
 ) -> EvidenceRecord:  # fmt: skip
+    """One piece of evidence: what was measured, against which reference, from which source."""
     return {
         "feature": feature,
         "value": value,
@@ -128,27 +129,27 @@ def bit_errors(c: Columns) -> Items:
         source = f"IEEE 802.3 {name} bit-error-ratio objective"
         if errors != errors:  # NaN: not reported
             said = "receive errors not reported: the bit error ratio cannot be judged"
-            out.append(_item("bit_error_ratio", None, "BER", objective, source, said))
+            out.append(item("bit_error_ratio", None, "BER", objective, source, said))
         elif errors == 0:
             said = (
                 f"no errored frames in {frames:,.0f} received: bit error ratio below "
                 f"{hi:.0e} (95%); the {name} objective is {objective:.0e}"
             )
-            out.append(_item("bit_error_ratio", 0.0, "BER", objective, source, said))
+            out.append(item("bit_error_ratio", 0.0, "BER", objective, source, said))
         elif lo > objective:
             said = (
                 f"bit error ratio {ber:.1e}, at least {lo:.1e} (95%), from {errors:,.0f} "
                 f"errored frames in {frames:,.0f} received: {times(lo / objective)} the "
                 f"{name} objective of {objective:.0e}"
             )
-            out.append(_item("bit_error_ratio", _six(ber), "BER", objective, source, said))
+            out.append(item("bit_error_ratio", _six(ber), "BER", objective, source, said))
         else:
             said = (
                 f"bit error ratio {ber:.1e} from {errors:,.0f} errored frames in "
                 f"{frames:,.0f} received; not significantly over the {name} objective of "
                 f"{objective:.0e}"
             )
-            out.append(_item("bit_error_ratio", _six(ber), "BER", objective, source, said))
+            out.append(item("bit_error_ratio", _six(ber), "BER", objective, source, said))
     return out
 
 
@@ -160,7 +161,7 @@ def _errored_frames(c: Columns) -> MaybeItems:
             continue
         what = "received frames failed the FCS check" if where == 1.0 else "receive errors counted"
         said = f"{errors:,.0f} {what} ({_ratio_words(fer)})"
-        out.append(_item("rx_errored_frames", errors, "frames", None, _ERROR_SOURCE[where], said))
+        out.append(item("rx_errored_frames", errors, "frames", None, _ERROR_SOURCE[where], said))
     return out
 
 
@@ -168,7 +169,7 @@ def _symbols(c: Columns) -> MaybeItems:
     # A zero is weak evidence: many devices never count symbol errors, so only a count shows.
     source = "RFC 3635 dot3StatsSymbolErrors"
     return [
-        _item("symbol_errors", n, "events", None, source,
+        item("symbol_errors", n, "events", None, source,
               f"{n:,.0f} symbol errors: the PHY saw invalid code groups")
         if n == n and n > 0 else None
         for n in c["symbol_errors"]
@@ -185,14 +186,14 @@ def _flaps(c: Columns) -> MaybeItems:
             " (flapping)" if changes >= FLAPPING_CHANGES else ""
         )
         reference = float(FLAPPING_CHANGES)
-        out.append(_item("link_changes", changes, "changes", reference, "common practice", said))
+        out.append(item("link_changes", changes, "changes", reference, "common practice", said))
     return out
 
 
 def _speed(c: Columns) -> MaybeItems:
     source = "IEEE 802.3 clause 28 (autonegotiation)"
     return [
-        _item("speed", speed, "b/s", top, source,
+        item("speed", speed, "b/s", top, source,
               f"{speed_words(speed)} on a {speed_words(top)} port")
         if speed < top else None  # False where either is NaN
         for speed, top in zip(c["speed_bps"], c["max_speed_bps"], strict=True)
@@ -205,13 +206,13 @@ def _duplex(c: Columns) -> Items:
     for reported, seen in zip(c["half_duplex"], c["half_duplex_seen"], strict=True):
         if seen == 1.0 and reported != 1.0:
             said = "half duplex: collisions are counted, which full duplex never does"
-            out.append(_item("duplex", "half", "state", None, f"{source}; RFC 3635", said))
+            out.append(item("duplex", "half", "state", None, f"{source}; RFC 3635", said))
         elif seen == 1.0:
-            out.append(_item("duplex", "half", "state", None, source, "half duplex"))
+            out.append(item("duplex", "half", "state", None, source, "half duplex"))
         elif reported != reported:
-            out.append(_item("duplex", None, "state", None, source, "duplex not reported"))
+            out.append(item("duplex", None, "state", None, source, "duplex not reported"))
         else:
-            out.append(_item("duplex", "full", "state", None, source, "full duplex"))
+            out.append(item("duplex", "full", "state", None, source, "full duplex"))
     return out
 
 
@@ -223,7 +224,7 @@ def _medium(c: Columns) -> Items:
         where = speed_words(speed) if speed == speed else "speed not reported"
         said = f"{where}, {medium}: half duplex exists here"
         shown = speed if speed == speed else None
-        out.append(_item("half_duplex_exists", shown, "b/s", 1e9, source, said))
+        out.append(item("half_duplex_exists", shown, "b/s", 1e9, source, said))
     return out
 
 
@@ -236,12 +237,12 @@ def _counted(
     extras = extra or [""] * len(c)
     for value, share, more in zip(c[column], c[ratio], extras, strict=True):
         if value != value:
-            out.append(_item(feature, None, "frames", None, source, f"{noun}: not reported"))
+            out.append(item(feature, None, "frames", None, source, f"{noun}: not reported"))
         elif value == 0:
-            out.append(_item(feature, 0.0, "frames", None, source, f"no {noun}"))
+            out.append(item(feature, 0.0, "frames", None, source, f"no {noun}"))
         else:
             said = f"{value:,.0f} {noun} ({_ratio_words(share)} {per}){more}"
-            out.append(_item(feature, value, "frames", None, source, said))
+            out.append(item(feature, value, "frames", None, source, said))
     return out
 
 
@@ -265,12 +266,12 @@ def _runts(c: Columns) -> Items:
     out: Items = []
     for runts, share in zip(c["runts"], c["runt_share"], strict=True):
         if runts != runts:
-            out.append(_item("runts", None, "frames", None, source, "runts: not reported"))
+            out.append(item("runts", None, "frames", None, source, "runts: not reported"))
         elif runts == 0:
-            out.append(_item("runts", 0.0, "frames", None, source, "no runts"))
+            out.append(item("runts", 0.0, "frames", None, source, "no runts"))
         else:
             said = f"{runts:,.0f} runts, {sig(share * 100)}% of the receive errors"
-            out.append(_item("runts", runts, "frames", None, source, said))
+            out.append(item("runts", runts, "frames", None, source, said))
     return out
 
 
@@ -296,7 +297,7 @@ def _rx_light(c: Columns) -> MaybeItems:
             continue
         if reference != reference:
             said = f"receiving {rx:.1f} dBm; the module reports no thresholds"
-            out.append(_item("rx_power", rx, "dBm", None, "SFF-8472 digital diagnostics", said))
+            out.append(item("rx_power", rx, "dBm", None, "SFF-8472 digital diagnostics", said))
             continue
         against = _REFERENCE.get(kind, f"the receiver's sensitivity ({phy or 'this PHY'})")
         margin = rx - reference
@@ -305,7 +306,7 @@ def _rx_light(c: Columns) -> MaybeItems:
         where = f"{abs(margin):.1f} dB {side} {against} ({reference:.1f} dBm)"
         said = f"receiving {rx:.1f} dBm, {where}{also}"
         source = "SFF-8472 thresholds" if kind in _REFERENCE else "IEEE 802.3 receiver sensitivity"
-        out.append(_item("rx_power", rx, "dBm", reference, source, said))
+        out.append(item("rx_power", rx, "dBm", reference, source, said))
     return out
 
 
@@ -315,14 +316,14 @@ def _tx_light(c: Columns) -> MaybeItems:
         if tx != tx:
             out.append(None)
         elif alarm != alarm:
-            out.append(_item("tx_power", tx, "dBm", None, "SFF-8472", f"transmitting {tx:.1f} dBm"))
+            out.append(item("tx_power", tx, "dBm", None, "SFF-8472", f"transmitting {tx:.1f} dBm"))
         else:
             margin = tx - alarm
             said = (
                 f"transmitting {tx:.1f} dBm, {abs(margin):.1f} dB "
                 f"{'above' if margin >= 0 else 'under'} the module's low alarm ({alarm:.1f} dBm)"
             )
-            out.append(_item("tx_power", tx, "dBm", alarm, "SFF-8472 thresholds", said))
+            out.append(item("tx_power", tx, "dBm", alarm, "SFF-8472 thresholds", said))
     return out
 
 
@@ -335,14 +336,14 @@ def _temperature(c: Columns) -> MaybeItems:
         said = f"module at {t:.0f} \u00b0C" + (
             f", over the {HOT_C:.0f} \u00b0C of commercial-grade modules" if t > HOT_C else ""
         )
-        out.append(_item("temperature", t, "\u00b0C", HOT_C, "common practice", said))
+        out.append(item("temperature", t, "\u00b0C", HOT_C, "common practice", said))
     return out
 
 
 def _bias(c: Columns) -> MaybeItems:
     source = "SFF-8472 digital diagnostics"
     return [
-        _item("bias", b, "mA", None, source, f"laser bias {b:.1f} mA") if b == b else None
+        item("bias", b, "mA", None, source, f"laser bias {b:.1f} mA") if b == b else None
         for b in c["bias_ma"]
     ]
 
@@ -368,8 +369,8 @@ def _fps(c: Columns) -> list[Items]:
             )
             alive = "the receive direction is alive"
         out.append([
-            _item(feature, quiet, "frames", float(SILENT_FRAMES), source, said),
-            _item(busy_feature, _six(busy_fps), "frames/s", ALIVE_FPS, source, alive),
+            item(feature, quiet, "frames", float(SILENT_FRAMES), source, said),
+            item(busy_feature, _six(busy_fps), "frames/s", ALIVE_FPS, source, alive),
         ])  # fmt: skip
     return out
 
@@ -385,8 +386,8 @@ def _discards(c: Columns) -> list[Items]:
         said = f"{way}: {discarded:,.0f} frames discarded ({_ratio_words(ratio)})"
         load = f"{way} load {sig(util * 100)}% of line rate"
         out.append([
-            _item(f"{way}_discards", discarded, "frames", None, f"RFC 2863 {counter}", said),
-            _item(f"{way}_utilisation", _six(util), "share", CONGESTED_UTILISATION,
+            item(f"{way}_discards", discarded, "frames", None, f"RFC 2863 {counter}", said),
+            item(f"{way}_utilisation", _six(util), "share", CONGESTED_UTILISATION,
                   "common practice", load),
         ])  # fmt: skip
     return out
@@ -402,7 +403,7 @@ def _traffic(c: Columns) -> Items:
             f"{frames:,.0f} frames received in {_window_words(window)}; a clean window needs "
             f"about {sig(needed)} to bound the error ratio at {_ratio_words(resolution)}"
         )
-        out.append(_item("rx_frames", frames, "frames", needed, source, said))
+        out.append(item("rx_frames", frames, "frames", needed, source, said))
     return out
 
 
