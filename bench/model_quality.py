@@ -35,8 +35,8 @@ from sklearn.metrics import f1_score
 from sklearn.tree import DecisionTreeClassifier
 
 from linktriage.diagnosis import Model
-from linktriage.model.evaluate import Score, score_labelled, score_simulated
 from linktriage.model.train import TrainingConfig, class_weights, prior_rows
+from linktriage.scoring import Score, score_labelled, score_simulated
 from linktriage.simulate import SHIFTED, TRAINING
 from linktriage.verdicts import Verdict
 

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
-from linktriage.model.evaluate import score, score_labelled
+from linktriage.scoring import score, score_labelled
 from linktriage.snapshot import read_snapshot_file
 from linktriage.verdicts import Verdict
 
