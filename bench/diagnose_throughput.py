@@ -65,7 +65,7 @@ def pipeline(path: Path, model: Model) -> tuple[float, float, float, int]:
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--ports", type=int, default=50_000)
-    parser.add_argument("--rounds", type=int, default=5)
+    parser.add_argument("--rounds", type=int, default=9)
     args = parser.parse_args()
     model = Model.load()
     with tempfile.TemporaryDirectory() as tmp:

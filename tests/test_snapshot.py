@@ -146,3 +146,16 @@ def test_a_byte_order_mark_at_the_start_of_a_file_is_not_part_of_the_first_line(
     result = read_snapshots([b"\xef\xbb\xbf" + first.encode(), line(counters={"ifHCInOctets": 9})])
     assert result.problems == [] and len(result.polls) == 2
     assert read_snapshots(["\ufeff" + first]).problems == []
+
+
+def test_line_numbers_hold_across_blocks_read_whole_and_line_by_line() -> None:
+    # Blocks that decode whole and blocks with a bad or blank line (read line by line)
+    # give the same numbering: a problem names its own line, each row keeps its line.
+    lines = [line(port=f"port{n}", counters={"ifHCInOctets": n}) for n in range(1, 9001)]
+    lines[9] = ""  # blank: skipped without a word
+    lines[4099] = '{"device": "lark-test-sw1"}'  # line 4100, in the second block
+    result = read_snapshots([text.encode() for text in lines])
+    assert [p.line for p in result.problems] == [4100]
+    assert len(result.polls) == 9000 - 2
+    octets = result.polls.counters[:, COLUMN_INDEX["ifHCInOctets"]]
+    assert (octets == result.polls.line).all()  # each row is the line it came from

@@ -19,11 +19,12 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from linktriage.bulk import collector_paused
 from linktriage.errors import ModelError
 from linktriage.evidence import EvidenceRecord, evidence_of, item
 from linktriage.features import FEATURE_NAMES, FeatureRows, feature_rows
 from linktriage.guards import apply_guards
-from linktriage.measures import measure
+from linktriage.measures import measure, speed_media_pairs
 from linktriage.messages import (
     GUARD_POLLS,
     GUARD_TRAFFIC,
@@ -164,7 +165,7 @@ def advice_lists(
     return list(checks), list(warn)
 
 
-_BER_COLUMNS = ("fer", "ber", "ber_lo", "ber_hi", "objective", "rx_errors")
+_BER_COLUMNS = ("ber", "ber_lo", "ber_hi", "objective", "rx_errors")
 
 
 def _flags(values: npt.NDArray[np.float64]) -> list[bool | None]:
@@ -189,8 +190,8 @@ class DiagnosisBatch:
     confidence: list[float]  # rounded to 4 places, as reported
     node: list[int]  # the tree node whose classes decided; -1 where a guard answered
     ruled_out: list[Verdict | None]  # the tree's first choice where the physics ruled it out
-    values: list[list[float]]  # the feature columns, as the tree compared them
-    reported: list[list[bool]]  # which features the device's counters gave
+    values: npt.NDArray[np.float64]  # the feature columns, as the tree compared them
+    reported: npt.NDArray[np.bool_]  # which features the device's counters gave
     fiber: list[bool | None]
     poe: list[bool | None]
     phy: list[str | None]
@@ -240,6 +241,10 @@ class DiagnosisBatch:
         """The diagnoses of ``rows``, worded together: evidence a verdict at a time,
         questions a node at a time (records are for reading: ports that say the same share
         the words)."""
+        with collector_paused():  # many small acyclic dicts (see linktriage.bulk)
+            return self._records_many(rows)
+
+    def _records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
         evidence = self.evidence_many(rows)
         asked = [i for i in rows if self.node[i] >= 0]
         questions = dict(
@@ -247,8 +252,8 @@ class DiagnosisBatch:
                 asked,
                 self.model.explainer.questions_many(
                     [self.node[i] for i in asked],
-                    [self.values[i] for i in asked],
-                    [self.reported[i] for i in asked],
+                    self.values[asked],
+                    self.reported[asked],
                 ),
                 strict=True,
             )
@@ -318,9 +323,10 @@ class DiagnosisBatch:
         phy = self.phy[i]
         if self.verdict[i] not in _BER_VERDICTS or phy is None:
             return None
-        fer, ber, lower, upper, objective, errors = (self.column(name)[i] for name in _BER_COLUMNS)
+        fer = self.column("fer")[i]
         if fer != fer:  # NaN: no receive error counts to estimate from
             return None
+        ber, lower, upper, objective, errors = (self.column(n)[i] for n in _BER_COLUMNS)
         return {
             "phy": phy,
             "estimate": float(f"{ber:.3g}"),
@@ -371,21 +377,30 @@ def _q(
 
 def _phy_names(speed: npt.NDArray[np.float64], fiber: npt.NDArray[np.float64]) -> list[str | None]:
     """PHY family per port, worked out once per distinct (speed, medium)."""
-    keys = np.stack([np.nan_to_num(speed, nan=-1.0), np.nan_to_num(fiber, nan=-1.0)], axis=1)
-    uniques, codes = np.unique(keys, axis=0, return_inverse=True)
-    names = [phy_name(s, None if f < 0 else bool(f)) for s, f in uniques]
-    return [names[c] for c in codes.ravel()]
+    pairs, codes = speed_media_pairs(speed, fiber)
+    names = [phy_name(s, f) for s, f in pairs]
+    return [names[c] for c in codes.tolist()]
 
 
-def _joined(*notes: str) -> str | None:
-    text = "; ".join(n for n in notes if n)
-    return text or None
+_VERDICTS = {v.value: v for v in Verdict}  # a dict lookup, cheaper than Verdict(value)
+
+
+def _joined(window: str, faults: str, fit: str) -> str | None:
+    """A port's notes as one; most ports have none, and pay no join."""
+    if not (window or faults or fit):
+        return None
+    return "; ".join(n for n in (window, faults, fit) if n)
 
 
 def diagnose(
     polls: PollTable, model: Model, *, max_window_s: float = DEFAULT_MAX_WINDOW_S
 ) -> DiagnosisBatch:
     """Diagnose every port in ``polls`` with ``model``."""
+    with collector_paused():  # per-port lists of small acyclic objects (see linktriage.bulk)
+        return _diagnose(polls, model, max_window_s)
+
+
+def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisBatch:
     windows = compute_windows(polls, max_window_s=max_window_s)
     measured = measure(windows)
     m = measured.table
@@ -407,17 +422,25 @@ def diagnose(
 
     is_guarded = np.array([g is not None for g in guarded], np.bool_)
     verdict = [
-        Verdict(g if g is not None else c)
-        for g, c in zip(guarded, tree.classes[klass], strict=True)
+        _VERDICTS[g if g is not None else c]
+        for g, c in zip(guarded, tree.classes[klass].tolist(), strict=True)
     ]
     first = tree.classes[choice.first]
     ruled_out = [
-        Verdict(f) if r and not g else None
-        for f, r, g in zip(first, first_ruled_out, is_guarded, strict=True)
+        _VERDICTS[f] if r and not g else None
+        for f, r, g in zip(
+            first.tolist(), first_ruled_out.tolist(), is_guarded.tolist(), strict=True
+        )
     ]
     notes = [
         _joined(w, c, NO_FIT_NOTE if u and not g else "")
-        for w, c, u, g in zip(windows.note, measured.counter_faults, unfit, is_guarded, strict=True)
+        for w, c, u, g in zip(
+            windows.note.tolist(),
+            measured.counter_faults,
+            unfit.tolist(),
+            is_guarded.tolist(),
+            strict=True,
+        )
     ]
     return DiagnosisBatch(
         model=model,
@@ -431,8 +454,8 @@ def diagnose(
         confidence=np.where(is_guarded, 1.0, confidence).round(4).tolist(),
         node=np.where(is_guarded, -1, node).tolist(),
         ruled_out=ruled_out,
-        values=rows.values.to_numpy(np.float64).tolist(),
-        reported=rows.reported.to_numpy().tolist(),
+        values=rows.values.to_numpy(np.float64),
+        reported=rows.reported.to_numpy(np.bool_),
         fiber=_flags(m["fiber"].to_numpy()),
         poe=_flags(windows.state["poe"]),
         phy=_phy_names(m["speed_bps"].to_numpy(), m["fiber"].to_numpy()),

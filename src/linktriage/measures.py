@@ -25,6 +25,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 from scipy.special import betaincinv
 
@@ -111,10 +112,15 @@ def error_ratio_bounds(
     n = np.asarray(frames, np.float64)
     valid = n > 0
     k = np.clip(np.nan_to_num(k), 0.0, np.where(valid, n, 0.0))
-    a_up, b_up = k + 1.0, np.where(n - k > 0, n - k, 1.0)
-    upper = np.where(valid & (k < n), betaincinv(a_up, b_up, confidence), 1.0)
-    a_lo, b_lo = np.where(k > 0, k, 1.0), np.where(valid, n - k + 1.0, 1.0)
-    lower = np.where(valid & (k > 0), betaincinv(a_lo, b_lo, 1.0 - confidence), 0.0)
+    lower = np.zeros(k.shape)
+    upper = np.ones(k.shape)
+    clean = valid & (k == 0)  # most ports: the closed form, no inverse beta to solve
+    with np.errstate(divide="ignore"):
+        upper[clean] = -np.expm1(np.log1p(-confidence) / n[clean])
+    some = valid & (k > 0)
+    below = some & (k < n)
+    upper[below] = betaincinv(k[below] + 1.0, n[below] - k[below], confidence)
+    lower[some] = betaincinv(k[some], n[some] - k[some] + 1.0, 1.0 - confidence)
     return lower, upper
 
 
@@ -143,12 +149,25 @@ def _ratio(num: FloatArray, den: FloatArray) -> FloatArray:
         return np.where(den > 0, num / den, np.nan)
 
 
+def speed_media_pairs(
+    speed: FloatArray, fiber: FloatArray
+) -> tuple[list[tuple[float, bool | None]], npt.NDArray[np.intp]]:
+    """The distinct (speed, fiber) pairs of the ports (fiber None where not reported), and
+    each port's pair: work that depends only on them is done once per pair, not per port."""
+    medium = np.nan_to_num(fiber, nan=-1.0) + 1.0  # 0 unknown, 1 copper, 2 fiber
+    keys = np.nan_to_num(speed, nan=-1.0) * 4.0 + medium  # exact: speeds are whole b/s
+    codes, uniques = pd.factorize(keys)
+    pairs = [
+        (float(k // 4.0), None if k % 4.0 == 0 else bool(k % 4.0 == 2)) for k in uniques.tolist()
+    ]
+    return pairs, codes
+
+
 def _per_pair(speed: FloatArray, fiber: FloatArray, f: object) -> FloatArray:
     """``f(speed, fiber)`` per port, worked out once per distinct (speed, medium)."""
-    keys = np.stack([np.nan_to_num(speed, nan=-1.0), np.nan_to_num(fiber, nan=-1.0)], axis=1)
-    uniques, codes = np.unique(keys, axis=0, return_inverse=True)
-    values = np.array([f(s, None if m < 0 else bool(m)) for s, m in uniques], np.float64)  # type: ignore[operator]
-    out: FloatArray = values[codes.ravel()] if len(values) else np.zeros(0)
+    pairs, codes = speed_media_pairs(speed, fiber)
+    values = np.array([f(s, m) for s, m in pairs], np.float64)  # type: ignore[operator]
+    out: FloatArray = values[codes] if len(values) else np.zeros(0)
     return out
 
 

@@ -354,7 +354,7 @@ class Triage:
     ) -> int:
         features = {
             name: (None if math.isnan(v) else v)
-            for name, v in zip(FEATURE_NAMES, batch.values[row], strict=True)
+            for name, v in zip(FEATURE_NAMES, batch.values[row].tolist(), strict=True)
         }
         return self.store.add_diagnosis(
             dict(batch.record(row)),

@@ -7,7 +7,6 @@ stops the rest of the file. Lines may come in any order: the window groups and s
 
 from __future__ import annotations
 
-import gc
 from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from datetime import UTC, datetime
@@ -18,6 +17,7 @@ import msgspec
 import numpy as np
 from pydantic import AwareDatetime, BaseModel, ConfigDict, Field, ValidationError
 
+from linktriage.bulk import collector_paused
 from linktriage.counters import COLUMN_INDEX, COLUMNS, COUNTER32_MAX, COUNTER64_MAX
 from linktriage.errors import SnapshotFileError
 from linktriage.polls import OPTICS_FIELDS, PollTable
@@ -148,11 +148,8 @@ def read_snapshots(lines: Iterable[bytes | str]) -> ReadResult:
     validate = Snapshot.model_validate_json
     fast = _fast_decode
     # Lines are validated and turned into columns a chunk at a time, so few snapshot objects
-    # are alive at once; they hold no reference cycles, so the cyclic collector is paused
-    # rather than left to rescan them again and again.
-    collecting = gc.isenabled()
-    gc.disable()
-    try:
+    # are alive at once; they hold no reference cycles (see linktriage.bulk).
+    with collector_paused():
         for number, raw in enumerate(lines, start=1):
             if number == 1:
                 raw = _without_bom(raw)
@@ -173,9 +170,6 @@ def read_snapshots(lines: Iterable[bytes | str]) -> ReadResult:
                 tables.append(_table_of(snaps, np.asarray(numbers, np.int64)))
                 snaps, numbers = [], []
         tables.append(_table_of(snaps, np.asarray(numbers, np.int64)))
-    finally:
-        if collecting:
-            gc.enable()
     return _drop_counter32_overflows(PollTable.concat(tables), problems)
 
 

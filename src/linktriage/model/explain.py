@@ -13,6 +13,9 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import NotRequired, TypedDict
 
+import numpy as np
+import numpy.typing as npt
+
 from linktriage.features import FEATURE_KIND
 from linktriage.messages import (
     ANY_BELOW,
@@ -134,24 +137,26 @@ class Explainer:
     def questions_many(
         self,
         nodes: Sequence[int],
-        rows: Sequence[Sequence[float]],
-        reported: Sequence[Sequence[bool]],
+        rows: npt.NDArray[np.float64],
+        reported: npt.NDArray[np.bool_],
     ) -> list[list[QuestionRecord]]:
-        """The questions of many ports (``nodes[k]``, ``rows[k]``), asked a node at a time:
-        ports that answer a question with the same value share its record (records are for
-        reading)."""
+        """The questions of many ports (``nodes[k]``, row ``k`` of ``rows`` and
+        ``reported``), asked a node at a time: only the columns a node asks about are read,
+        and ports that answer a question with the same value share its record (records are
+        for reading)."""
         out: list[list[QuestionRecord]] = [[] for _ in nodes]
         groups: dict[int, list[int]] = {}
         for k, node in enumerate(nodes):
             groups.setdefault(node, []).append(k)
         for node, places in groups.items():
+            at = np.asarray(places, np.intp)
             columns = []
             for q in self.steps[node]:
-                column = q.column
                 made: dict[tuple[float, bool], QuestionRecord] = {}
                 answers = []
-                for k in places:
-                    key = (rows[k][column], reported[k][column])
+                values = rows[at, q.column].tolist()
+                known = reported[at, q.column].tolist()
+                for key in zip(values, known, strict=True):
                     record = made.get(key)
                     if record is None:
                         record = made[key] = self._answered(q, *key)

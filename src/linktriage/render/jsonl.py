@@ -11,9 +11,11 @@ from typing import IO
 
 import msgspec
 
+from linktriage.bulk import collector_paused
 from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord
 
-_encode = msgspec.json.Encoder().encode
+_encoder = msgspec.json.Encoder()
+_encode = _encoder.encode
 # Ports encoded together: the records of one chunk are alive at once.
 _CHUNK = 4096
 
@@ -26,8 +28,15 @@ def dumps(record: DiagnosisRecord) -> str:
 def write_lines(batch: DiagnosisBatch, rows: Sequence[int], out: IO[str]) -> None:
     """Write the records of ``rows``, one JSON object per line."""
     ordered = list(rows)
-    write = out.write
-    for start in range(0, len(ordered), _CHUNK):
-        records = batch.records_many(ordered[start : start + _CHUNK])
-        write("\n".join([_encode(r).decode() for r in records]))
-        write("\n")
+    raw = getattr(out, "buffer", None)  # a text stream over bytes: write the UTF-8 as is
+    if raw is not None:
+        out.flush()
+    with collector_paused():  # the records are acyclic (see linktriage.bulk)
+        for start in range(0, len(ordered), _CHUNK):
+            lines = _encoder.encode_lines(batch.records_many(ordered[start : start + _CHUNK]))
+            if raw is not None:
+                raw.write(lines)
+            else:
+                out.write(lines.decode())
+    if raw is not None:
+        raw.flush()
