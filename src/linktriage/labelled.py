@@ -53,11 +53,9 @@ class Settled:
 
 def current(labels: Sequence[Label]) -> tuple[list[Label], list[Label]]:
     """Each person's latest label on each answer, oldest first, and the ones they replaced."""
-    latest: dict[tuple[int, str], Label] = {}
-    for label in sorted(labels, key=lambda lb: lb.id):
-        latest[(label.diagnosis_id, label.user_id)] = label
-    kept = {label.id for label in latest.values()}
     ordered = sorted(labels, key=lambda lb: lb.id)
+    latest = {(lb.diagnosis_id, lb.user_id): lb.id for lb in ordered}  # the last one wins
+    kept = set(latest.values())
     return [lb for lb in ordered if lb.id in kept], [lb for lb in ordered if lb.id not in kept]
 
 

@@ -300,30 +300,23 @@ class Triage:
         quick = self.settings.chat.quick_window_s
         since = now - self.settings.chat.recent_poll_s
         tables: list[PollTable] = []
-        young: dict[str, list[str]] = {}  # ports whose history is shorter than quick
-        wait = 0.0
+        short: dict[str, dict[str, float]] = {}  # device -> port -> seconds still to wait
         recalled = self.network.history(wanted, since)
         failed = dict(recalled.failed)
         for device, table in recalled.tables.items():
-            short = _short_of(table, wanted[device], now, quick, absent=False)
-            if short:
-                wait = max(wait, max(short.values()))
-                young[device] = list(short)
-            else:
+            short[device] = _short_of(table, wanted[device], now, quick, absent=False)
+            if not short[device]:
                 tables.append(table)
         fresh = {d: ps for d, ps in wanted.items() if d not in recalled.tables and d not in failed}
         for device in fresh:
             stored = self.store.polls_since(since, device=device)
             stored = stored.take(np.flatnonzero(np.isin(stored.port, wanted[device])))
             tables.append(stored)
-            short = _short_of(stored, wanted[device], now, quick, absent=True)
-            if short:
-                wait = max(wait, max(short.values()))
-                young[device] = list(short)
+            short[device] = _short_of(stored, wanted[device], now, quick, absent=True)
         failed.update(self._poll_into(tables, dict(fresh)))
-        young = {d: ps for d, ps in young.items() if d not in failed}
+        young = {d: list(waits) for d, waits in short.items() if waits and d not in failed}
         if young:
-            self.sleep(wait)
+            self.sleep(max(max(short[d].values()) for d in young))
             again = self.network.history(
                 {d: ps for d, ps in young.items() if d in recalled.tables}, since
             )

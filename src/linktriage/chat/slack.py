@@ -149,6 +149,17 @@ def build_app(
 
     app.command(COMMAND)(ack=ack_triage, lazy=[answer_triage])
 
+    def deliver(
+        reply: Reply, client: WebClient, *, channel: str, thread: str | None, user: str
+    ) -> str | None:
+        """A channel reply posted (in ``thread`` when given), returning its ``ts``; any
+        other told to ``user`` alone."""
+        message = message_for(reply)
+        if reply.visibility != "channel":
+            client.chat_postEphemeral(channel=channel, user=user, thread_ts=thread, **message)
+            return None
+        return str(client.chat_postMessage(channel=channel, thread_ts=thread, **message)["ts"])
+
     def answer_label(
         reply: Reply | None, client: WebClient, *, channel: str, thread: str | None, user: str
     ) -> None:
@@ -156,11 +167,7 @@ def build_app(
         told to its author alone."""
         if reply is None:
             return
-        message = message_for(reply)
-        if reply.visibility != "channel":
-            client.chat_postEphemeral(channel=channel, user=user, thread_ts=thread, **message)
-            return
-        client.chat_postMessage(channel=channel, thread_ts=thread, **message)
+        deliver(reply, client, channel=channel, thread=thread, user=user)
         if isinstance(reply, LabelReply):
             redraw(reply.diagnosis_id, client)
 
@@ -233,11 +240,9 @@ def build_app(
             log.warning("ignored a check-again action with value %r", raw_id)
             return
         reply = triage.recheck(int(raw_id), user=user, channel=channel)
-        if reply.visibility != "channel":
-            client.chat_postEphemeral(channel=channel, user=user, **message_for(reply))
-            return
-        posted = client.chat_postMessage(channel=channel, thread_ts=thread, **message_for(reply))
-        triage.posted(reply, channel=channel, ts=str(posted["ts"]))
+        ts = deliver(reply, client, channel=channel, thread=thread, user=user)
+        if ts is not None:
+            triage.posted(reply, channel=channel, ts=ts)
 
     app.action(RECHECK_ACTION)(ack=ack_recheck, lazy=[answer_recheck])
 
