@@ -30,9 +30,9 @@ import httpx
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 
-from linktriage.collectors.restconf import interfaces_to_snapshots
-from linktriage.inventory import Defaults, DeviceEntry, Inventory
-from linktriage.polling import InventoryNetwork, deadline_s
+from linktriage.network.collectors.restconf import interfaces_to_snapshots
+from linktriage.network.inventory import Defaults, DeviceEntry, Inventory
+from linktriage.network.polling import InventoryNetwork, deadline_s
 
 from agents.restconf import serve_in_process
 

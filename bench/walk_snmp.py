@@ -31,8 +31,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 
-from linktriage.collectors.base import Target
-from linktriage.collectors.snmp import (
+from linktriage.network.collectors.base import Target
+from linktriage.network.collectors.snmp import (
     COUNTER_COLUMNS,
     DOT3_ENTRY,
     IF_ENTRY,

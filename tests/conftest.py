@@ -8,10 +8,10 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.demo_network import DemoClock, DemoNetwork, demo_polls
+from linktriage.bot.triage import Triage
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
 from linktriage.model.artefact import TreeArtefact
-from linktriage.service import Triage
+from linktriage.network.demo import DemoClock, DemoNetwork, demo_polls
 from linktriage.settings import Settings
 from linktriage.simulate import DEFAULT_START
 from linktriage.store import Store

@@ -9,7 +9,7 @@ from collections.abc import Awaitable, Callable
 from datetime import datetime, timedelta
 from typing import Any, TypeVar
 
-from linktriage.collectors.base import Collector, Reading
+from linktriage.network.collectors.base import Collector, Reading
 from linktriage.polls import PollTable
 from linktriage.snapshot import read_snapshots
 

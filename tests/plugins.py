@@ -14,7 +14,7 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.collectors.base import Collector, DeviceRefusedError, Options, Reading
+from linktriage.network.collectors.base import Collector, DeviceRefusedError, Options, Reading
 from linktriage.snapshot import Snapshot
 
 ENTRY_POINTS = """[linktriage.collectors]

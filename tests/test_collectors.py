@@ -7,7 +7,8 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.collectors.base import (
+from linktriage.errors import InputError
+from linktriage.network.collectors.base import (
     Collector,
     DeviceTimeoutError,
     SecretRef,
@@ -16,9 +17,8 @@ from linktriage.collectors.base import (
     collector_class,
     collector_names,
 )
-from linktriage.collectors.demo import DemoCollector
-from linktriage.collectors.file import FileCollector
-from linktriage.errors import InputError
+from linktriage.network.collectors.demo import DemoCollector
+from linktriage.network.collectors.file import FileCollector
 
 import plugins
 

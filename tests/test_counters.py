@@ -14,7 +14,7 @@ from linktriage.counters import (
     Unit,
     max_rate_per_second,
 )
-from linktriage.messages import QUESTIONS
+from linktriage.wording import QUESTIONS
 
 
 def test_hc_names_are_counter64_and_the_rest_counter32() -> None:

@@ -8,8 +8,8 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.chat.commands import COMMAND
-from linktriage.inventory import load_inventory, problems
+from linktriage.bot.commands import COMMAND
+from linktriage.network.inventory import load_inventory, problems
 from linktriage.settings import load_settings
 
 DEPLOY = Path(__file__).resolve().parent.parent / "deploy"

@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 from sklearn.tree import DecisionTreeClassifier
 
-from linktriage.demo_network import PLANTED
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
 from linktriage.features import FEATURE_NAMES
+from linktriage.network.demo import PLANTED
 from linktriage.render.jsonl import dumps, write_lines
 from linktriage.simulate import simulate_prior
 from linktriage.snapshot import read_snapshot_file

@@ -24,9 +24,9 @@ def loaded_after(statement: str) -> set[str]:
         "import linktriage.snapshot",
         "from linktriage.diagnosis import Model, diagnose; Model.load()",
         "import linktriage.cli",
-        "import linktriage.service",
-        "import linktriage.chat.console",
-        "import linktriage.chat.blocks",
+        "import linktriage.bot.triage",
+        "import linktriage.transports.console",
+        "import linktriage.render.blocks",
     ],
 )
 def test_the_core_loads_no_heavy_library(statement: str) -> None:

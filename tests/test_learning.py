@@ -7,14 +7,14 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from linktriage.chat.replies import DiagnosisReply
+from linktriage.bot.triage import Triage
 from linktriage.errors import InputError, ModelError
 from linktriage.features import FEATURE_NAMES
 from linktriage.model.artefact import TreeArtefact
 from linktriage.model.learning import Outcome, labelled_rows, learn, split
 from linktriage.model.registry import Entry, Registry
 from linktriage.model.train import TrainingConfig
-from linktriage.service import Triage
+from linktriage.render.replies import DiagnosisReply
 from linktriage.store import Label
 
 SMALL = TrainingConfig(simulated_ports=3000, candidate_alphas=6, seed=4)

@@ -13,9 +13,9 @@ from typing import Any
 
 import pytest
 
-from linktriage.collectors.base import Reading, Target
-from linktriage.collectors.linux import LinuxCollector, parse_ethtool_stats
 from linktriage.errors import InputError
+from linktriage.network.collectors.base import Reading, Target
+from linktriage.network.collectors.linux import LinuxCollector, parse_ethtool_stats
 from linktriage.snapshot import Snapshot
 
 SIOCGIFMTU = 0x8921  # linux/sockios.h

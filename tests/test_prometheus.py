@@ -12,15 +12,15 @@ from typing import Any
 
 import pytest
 
-from linktriage.chat.replies import DiagnosisReply
-from linktriage.collectors.base import BadAnswerError, CollectorError, Reading, Target
-from linktriage.collectors.prometheus import PrometheusCollector, promql_string
+from linktriage.bot.triage import Triage
 from linktriage.counters import COLUMNS
 from linktriage.diagnosis import Model
 from linktriage.errors import InputError
-from linktriage.inventory import Defaults, DeviceEntry, Inventory
-from linktriage.polling import InventoryNetwork
-from linktriage.service import Triage
+from linktriage.network.collectors.base import BadAnswerError, CollectorError, Reading, Target
+from linktriage.network.collectors.prometheus import PrometheusCollector, promql_string
+from linktriage.network.inventory import Defaults, DeviceEntry, Inventory
+from linktriage.network.polling import InventoryNetwork
+from linktriage.render.replies import DiagnosisReply
 from linktriage.settings import ChatSettings, Settings
 from linktriage.snapshot import Snapshot
 from linktriage.store import Store

@@ -9,16 +9,16 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.collectors.base import (
+from linktriage.counters import COLUMN_INDEX
+from linktriage.network.collectors.base import (
     BadAnswerError,
     CollectorError,
     DeviceRefusedError,
     DeviceTimeoutError,
     Target,
 )
-from linktriage.collectors.restconf import RestconfCollector, interfaces_to_snapshots
-from linktriage.counters import COLUMN_INDEX
-from linktriage.inventory import DeviceEntry, Inventory, problems
+from linktriage.network.collectors.restconf import RestconfCollector, interfaces_to_snapshots
+from linktriage.network.inventory import DeviceEntry, Inventory, problems
 
 from agents.fleet import Fleet
 from agents.restconf import RestconfAgent

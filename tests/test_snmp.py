@@ -11,9 +11,9 @@ import pytest
 from click.testing import CliRunner
 
 from linktriage.cli import main
-from linktriage.collectors.base import CollectorError, DeviceTimeoutError, Reading, Target
-from linktriage.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector
 from linktriage.counters import COLUMN_INDEX
+from linktriage.network.collectors.base import CollectorError, DeviceTimeoutError, Reading, Target
+from linktriage.network.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector
 from linktriage.verdicts import Verdict
 
 from agents.fleet import Fleet

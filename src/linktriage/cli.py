@@ -136,8 +136,8 @@ def diagnose(
 @_model_option
 def ask(device: str, port: str, as_json: bool, model_path: Path | None) -> None:
     """Diagnose one port of the demo network, with the full explanation."""
-    from linktriage.demo_network import DemoNetwork, demo_polls
     from linktriage.diagnosis import Model, diagnose
+    from linktriage.network.demo import DemoNetwork, demo_polls
     from linktriage.render.jsonl import dumps
     from linktriage.render.text import explanation
 
@@ -282,10 +282,10 @@ def model(as_json: bool, use_version: str | None, model_path: Path | None) -> No
 @_model_option
 def chat(config_path: Path | None, model_path: Path | None) -> None:
     """Talk to the bot at a local prompt: the same commands as in the team channel."""
-    from linktriage.chat.console import PROMPT, Console
+    from linktriage.bot.triage import Triage
     from linktriage.diagnosis import Model
-    from linktriage.service import Triage
     from linktriage.settings import LabelSettings, load_settings
+    from linktriage.transports.console import PROMPT, Console
 
     # The console is one local, trusted person: channel and group rules are for Slack.
     settings = load_settings(config_path).model_copy(update={"labels": LabelSettings()})
@@ -334,18 +334,18 @@ def serve(
     from slack_bolt.error import BoltError
     from slack_sdk.errors import SlackClientError
 
-    from linktriage.chat.slack import (
+    from linktriage.bot.jobs import Jobs, start_scheduler
+    from linktriage.bot.triage import Triage
+    from linktriage.diagnosis import Model
+    from linktriage.settings import load_settings
+    from linktriage.transports.slack import (
         build_app,
         group_members,
         post_reply,
         run_socket_mode,
         web_client,
     )
-    from linktriage.chat.slack_http import http_server
-    from linktriage.diagnosis import Model
-    from linktriage.schedule import Jobs, start_scheduler
-    from linktriage.service import Triage
-    from linktriage.settings import load_settings
+    from linktriage.transports.slack_http import http_server
 
     logging.basicConfig(
         level=logging.INFO, format="%(asctime)s %(levelname)s %(name)s: %(message)s"
@@ -426,8 +426,8 @@ def _inventory_option(func: F) -> F:
 
 
 def _load_inventory(inventory_path: Path | None, config_path: Path | None) -> Any:
-    from linktriage.demo_network import demo_inventory
-    from linktriage.inventory import load_inventory
+    from linktriage.network.demo import demo_inventory
+    from linktriage.network.inventory import load_inventory
     from linktriage.settings import load_settings
 
     if inventory_path is not None:
@@ -454,8 +454,8 @@ def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path 
     """
     import time
 
-    from linktriage.inventory import problems
-    from linktriage.polling import InventoryNetwork
+    from linktriage.network.inventory import problems
+    from linktriage.network.polling import InventoryNetwork
 
     found = _load_inventory(inventory_path, config_path)
     bad = problems(found)
@@ -530,8 +530,8 @@ def collect(
     """
     import time
 
-    from linktriage.network import Network
-    from linktriage.polling import InventoryNetwork
+    from linktriage.network.interface import Network
+    from linktriage.network.polling import InventoryNetwork
     from linktriage.snapshot import iter_snapshots, write_snapshots
 
     found = _load_inventory(inventory_path, config_path)
@@ -575,11 +575,11 @@ def sweep(
     counted: no all-clear covers what was not read. Exit 0 when every device was read, 3
     when some were not, 4 when none was.
     """
-    from linktriage.chat.text import suspects_text
+    from linktriage.bot.triage import Triage
     from linktriage.diagnosis import Model
-    from linktriage.polling import InventoryNetwork
+    from linktriage.network.polling import InventoryNetwork
     from linktriage.render.jsonl import dumps
-    from linktriage.service import Triage
+    from linktriage.render.text import suspects_text
     from linktriage.settings import load_settings
     from linktriage.store import Store
 
@@ -676,7 +676,7 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
         return
     from dataclasses import asdict
 
-    from linktriage.labelled import settle
+    from linktriage.model.labels import settle
     from linktriage.settings import load_settings
     from linktriage.store import Store
 
@@ -713,7 +713,7 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
 def labels_export(out: Path, config_path: Path | None) -> None:
     """Write the labels that count as training rows (CSV: the features, then the label);
     replaced and disputed ones are left out."""
-    from linktriage.labelled import label_frame, settle
+    from linktriage.model.labels import label_frame, settle
     from linktriage.settings import load_settings
     from linktriage.store import Store
 
@@ -739,8 +739,8 @@ _DEMO_STORIES = {
 @_model_option
 def demo(model_path: Path | None) -> None:
     """Show the whole job on the built-in demo network, offline."""
-    from linktriage.demo_network import ORGANISATION, PLANTED, demo_polls, demo_ports
     from linktriage.diagnosis import Model, diagnose
+    from linktriage.network.demo import ORGANISATION, PLANTED, demo_polls, demo_ports
     from linktriage.render.text import explanation, table_rows
 
     loaded = Model.load(model_path)
@@ -775,9 +775,9 @@ def _demo_digest_and_label(model: Any) -> None:
     """The scheduled digest, and an engineer's reply in its thread stored as a label."""
     import tempfile
 
-    from linktriage.chat.text import render
-    from linktriage.demo_network import DemoClock, DemoNetwork
-    from linktriage.service import Triage
+    from linktriage.bot.triage import Triage
+    from linktriage.network.demo import DemoClock, DemoNetwork
+    from linktriage.render.text import render
     from linktriage.settings import Settings
     from linktriage.simulate import DEFAULT_START
     from linktriage.store import Store

@@ -25,7 +25,14 @@ from linktriage.evidence import EvidenceRecord, evidence_of, item
 from linktriage.features import FEATURE_NAMES, FeatureRows, feature_rows
 from linktriage.guards import apply_guards
 from linktriage.measures import measure, speed_media_pairs
-from linktriage.messages import (
+from linktriage.model.artefact import CompiledTree, TreeArtefact
+from linktriage.model.explain import Explainer, QuestionRecord, rounded
+from linktriage.phy import phy_name
+from linktriage.physics import Allowed, allowed
+from linktriage.polls import PollTable
+from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict, cautions, next_checks
+from linktriage.window import DEFAULT_MAX_WINDOW_S, WindowTable, compute_windows
+from linktriage.wording import (
     GUARD_POLLS,
     GUARD_TRAFFIC,
     GUARD_UP,
@@ -34,13 +41,6 @@ from linktriage.messages import (
     ratio_scale,
     traffic_said,
 )
-from linktriage.model.artefact import CompiledTree, TreeArtefact
-from linktriage.model.explain import Explainer, QuestionRecord, rounded
-from linktriage.phy import phy_name
-from linktriage.physics import Allowed, allowed
-from linktriage.polls import PollTable
-from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict, cautions, next_checks
-from linktriage.window import DEFAULT_MAX_WINDOW_S, WindowTable, compute_windows
 
 
 class BitErrorRecord(TypedDict):

@@ -14,7 +14,6 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import TypedDict
 
-from linktriage.messages import format_ratio, ratio_scale, sig, times
 from linktriage.physics import (
     ALIVE_FPS,
     CONGESTED_UTILISATION,
@@ -23,6 +22,7 @@ from linktriage.physics import (
     SILENT_FRAMES,
 )
 from linktriage.verdicts import Verdict
+from linktriage.wording import format_ratio, ratio_scale, sig, times
 
 
 class EvidenceRecord(TypedDict):

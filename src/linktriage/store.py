@@ -25,6 +25,7 @@ import sqlalchemy as sa
 from sqlalchemy.engine import Connection, Engine
 
 from linktriage.errors import LinktriageError
+from linktriage.model.labels import Label
 from linktriage.polls import PollTable
 from linktriage.snapshot import iter_snapshots, read_snapshots
 
@@ -35,14 +36,14 @@ class StoreError(LinktriageError):
 
 metadata = sa.MetaData()
 
-schema_version = sa.Table(
+schema_version_table = sa.Table(
     "schema_version",
     metadata,
     sa.Column("version", sa.Integer, primary_key=True),
     sa.Column("description", sa.Text, nullable=False),
     sa.Column("applied_at", sa.Float, nullable=False),
 )
-polls = sa.Table(
+polls_table = sa.Table(
     "polls",
     metadata,
     sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
@@ -53,7 +54,7 @@ polls = sa.Table(
     sa.Index("polls_by_port", "device", "port", "time"),
     sa.Index("polls_by_time", "time"),
 )
-diagnoses = sa.Table(
+diagnoses_table = sa.Table(
     "diagnoses",
     metadata,
     sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
@@ -73,7 +74,7 @@ diagnoses = sa.Table(
     sa.Column("serves", sa.Text),
     sa.Index("diagnoses_by_message", "channel", "message_ts"),
 )
-labels = sa.Table(
+labels_table = sa.Table(
     "labels",
     metadata,
     sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
@@ -91,7 +92,7 @@ labels = sa.Table(
     sa.Column("source", sa.Text, nullable=False),  # thread, button, console
     sa.Column("event_key", sa.Text, nullable=False, unique=True),
 )
-digests = sa.Table(
+digests_table = sa.Table(
     "digests",
     metadata,
     sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
@@ -102,7 +103,7 @@ digests = sa.Table(
     sa.Column("items", sa.Text, nullable=False),  # JSON: [{device, port, verdict, diagnosis_id}]
     sa.Index("digests_by_message", "channel", "message_ts"),
 )
-audit = sa.Table(
+audit_table = sa.Table(
     "audit",
     metadata,
     sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
@@ -122,7 +123,9 @@ class Migration:
 
 
 def _initial_schema(conn: Connection) -> None:
-    metadata.create_all(conn, tables=[polls, diagnoses, labels, digests, audit])
+    metadata.create_all(
+        conn, tables=[polls_table, diagnoses_table, labels_table, digests_table, audit_table]
+    )
 
 
 def _answer_context(conn: Connection) -> None:
@@ -156,25 +159,6 @@ class StoredDiagnosis:
     message_ts: str | None
     site: str = ""
     serves: str = ""
-
-
-@dataclass(frozen=True, slots=True)
-class Label:
-    """What an engineer found on a port, tied to the diagnosis it answers."""
-
-    id: int
-    at: float
-    diagnosis_id: int
-    device: str
-    port: str
-    verdict: str
-    model_verdict: str
-    model_version: str
-    features: dict[str, float | None]
-    note: str
-    user_id: str
-    channel: str | None
-    source: str
 
 
 @dataclass(frozen=True, slots=True)
@@ -252,9 +236,9 @@ def inspect_store(url: str) -> str:
             if database and database != ":memory:" and not Path(database).exists():
                 return f"{masked_url(url)}, not created yet (it is created on first use)"
         with engine.connect() as conn:
-            if not sa.inspect(conn).has_table(schema_version.name):
+            if not sa.inspect(conn).has_table(schema_version_table.name):
                 return f"{masked_url(url)}, empty (its tables are created on first use)"
-            version = conn.execute(sa.select(sa.func.max(schema_version.c.version))).scalar()
+            version = conn.execute(sa.select(sa.func.max(schema_version_table.c.version))).scalar()
         return f"{masked_url(url)}, schema version {int(version or 0)}"
     except sa.exc.SQLAlchemyError as exc:
         first = str(exc).splitlines()[0]
@@ -290,7 +274,7 @@ class Store:
     def migrate(self) -> int:
         """Apply every migration not yet applied; returns the schema version."""
         with self.engine.begin() as conn:
-            schema_version.create(conn, checkfirst=True)
+            schema_version_table.create(conn, checkfirst=True)
         done = self.schema_version()
         for migration in MIGRATIONS:
             if migration.version <= done:
@@ -298,7 +282,7 @@ class Store:
             with self.engine.begin() as conn:  # the change and its record, or neither
                 migration.apply(conn)
                 conn.execute(
-                    schema_version.insert().values(
+                    schema_version_table.insert().values(
                         version=migration.version,
                         description=migration.description,
                         applied_at=time.time(),
@@ -308,7 +292,7 @@ class Store:
 
     def schema_version(self) -> int:
         with self.engine.connect() as conn:
-            value = conn.execute(sa.select(sa.func.max(schema_version.c.version))).scalar()
+            value = conn.execute(sa.select(sa.func.max(schema_version_table.c.version))).scalar()
         return int(value or 0)
 
     def close(self) -> None:
@@ -328,18 +312,22 @@ class Store:
         ]
         if rows:
             with self._writing("keep polls") as conn:
-                conn.execute(polls.insert(), rows)
+                conn.execute(polls_table.insert(), rows)
         return len(rows)
 
     def polls_since(
         self, since: float, *, device: str | None = None, port: str | None = None
     ) -> PollTable:
         """Stored polls at or after ``since``, for one port, one device or all."""
-        query = sa.select(polls.c.line).where(polls.c.time >= since).order_by(polls.c.id)
+        query = (
+            sa.select(polls_table.c.line)
+            .where(polls_table.c.time >= since)
+            .order_by(polls_table.c.id)
+        )
         if device is not None:
-            query = query.where(polls.c.device == device)
+            query = query.where(polls_table.c.device == device)
         if port is not None:
-            query = query.where(polls.c.port == port)
+            query = query.where(polls_table.c.port == port)
         with self.engine.connect() as conn:
             lines = [row.line for row in conn.execute(query)]
         return read_snapshots(lines).polls
@@ -347,7 +335,9 @@ class Store:
     def prune_polls(self, before: float) -> int:
         """Forget polls older than ``before``; returns how many."""
         with self._writing("prune polls") as conn:
-            return int(conn.execute(polls.delete().where(polls.c.time < before)).rowcount)
+            return int(
+                conn.execute(polls_table.delete().where(polls_table.c.time < before)).rowcount
+            )
 
     # --- diagnoses
     def add_diagnosis(
@@ -365,7 +355,7 @@ class Store:
         """Keep what was answered, and enough to draw it again; returns its id."""
         with self._writing("keep the diagnosis") as conn:
             result = conn.execute(
-                diagnoses.insert().values(
+                diagnoses_table.insert().values(
                     at=at,
                     device=record["device"],
                     port=record["port"],
@@ -385,7 +375,7 @@ class Store:
 
     def attach_message(self, diagnosis_id: int, channel: str, message_ts: str) -> None:
         """Remember which chat message carries a diagnosis, so its thread can label it."""
-        self._attach(diagnoses, diagnosis_id, channel, message_ts)
+        self._attach(diagnoses_table, diagnosis_id, channel, message_ts)
 
     def _attach(self, table: sa.Table, row_id: int, channel: str, message_ts: str) -> None:
         with self._writing("remember the message") as conn:
@@ -396,16 +386,16 @@ class Store:
             )
 
     def diagnosis(self, diagnosis_id: int) -> StoredDiagnosis | None:
-        return self._one_diagnosis(diagnoses.c.id == diagnosis_id)
+        return self._one_diagnosis(diagnoses_table.c.id == diagnosis_id)
 
     def diagnosis_for_message(self, channel: str, message_ts: str) -> StoredDiagnosis | None:
         return self._one_diagnosis(
-            (diagnoses.c.channel == channel) & (diagnoses.c.message_ts == message_ts)
+            (diagnoses_table.c.channel == channel) & (diagnoses_table.c.message_ts == message_ts)
         )
 
     def _one_diagnosis(self, where: sa.ColumnElement[bool]) -> StoredDiagnosis | None:
         with self.engine.connect() as conn:
-            row = conn.execute(sa.select(diagnoses).where(where).limit(1)).first()
+            row = conn.execute(sa.select(diagnoses_table).where(where).limit(1)).first()
         if row is None:
             return None
         return StoredDiagnosis(
@@ -440,7 +430,7 @@ class Store:
         try:
             with self._writing("keep the label") as conn:
                 conn.execute(
-                    labels.insert().values(
+                    labels_table.insert().values(
                         at=at,
                         diagnosis_id=diagnosis.id,
                         device=diagnosis.device,
@@ -466,16 +456,16 @@ class Store:
         """Whether a label from this event is stored (a retried delivery is not new)."""
         with self._reading("read the labels") as conn:
             found = conn.execute(
-                sa.select(labels.c.id).where(labels.c.event_key == event_key)
+                sa.select(labels_table.c.id).where(labels_table.c.event_key == event_key)
             ).first()
         return found is not None
 
     def labels(self, diagnosis_id: int | None = None) -> list[Label]:
         """Every label (or those of one answer), oldest first: changed ones included, for
-        the audit; :func:`linktriage.labelled.settle` says which ones count."""
-        query = sa.select(labels).order_by(labels.c.id)
+        the audit; :func:`linktriage.model.labels.settle` says which ones count."""
+        query = sa.select(labels_table).order_by(labels_table.c.id)
         if diagnosis_id is not None:
-            query = query.where(labels.c.diagnosis_id == diagnosis_id)
+            query = query.where(labels_table.c.diagnosis_id == diagnosis_id)
         with self._reading("read the labels") as conn:
             rows = conn.execute(query).all()
         return [
@@ -504,7 +494,7 @@ class Store:
         """Keep a posted list of suspects (``kind``: digest or suspects); returns its id."""
         with self._writing("keep the digest") as conn:
             result = conn.execute(
-                digests.insert().values(
+                digests_table.insert().values(
                     at=at, kind=kind, channel=channel, items=json.dumps(list(items))
                 )
             )
@@ -512,20 +502,22 @@ class Store:
 
     def attach_digest_message(self, digest_id: int, channel: str, message_ts: str) -> None:
         """Remember which chat message carries a list of suspects, for its thread."""
-        self._attach(digests, digest_id, channel, message_ts)
+        self._attach(digests_table, digest_id, channel, message_ts)
 
     def last_digest(self) -> Digest | None:
         """The newest scheduled digest."""
-        return self._one_digest(digests.c.kind == "digest")
+        return self._one_digest(digests_table.c.kind == "digest")
 
     def digest_for_message(self, channel: str, message_ts: str) -> Digest | None:
         return self._one_digest(
-            (digests.c.channel == channel) & (digests.c.message_ts == message_ts)
+            (digests_table.c.channel == channel) & (digests_table.c.message_ts == message_ts)
         )
 
     def _one_digest(self, where: sa.ColumnElement[bool]) -> Digest | None:
         with self.engine.connect() as conn:
-            query = sa.select(digests).where(where).order_by(digests.c.id.desc()).limit(1)
+            query = (
+                sa.select(digests_table).where(where).order_by(digests_table.c.id.desc()).limit(1)
+            )
             row = conn.execute(query).first()
         if row is None:
             return None
@@ -538,14 +530,17 @@ class Store:
         """Note a command and how it ended."""
         with self._writing("note the command") as conn:
             conn.execute(
-                audit.insert().values(
+                audit_table.insert().values(
                     at=at, user_id=user_id, channel=channel, command=command, outcome=outcome
                 )
             )
 
     def audit_log(self) -> list[dict[str, Any]]:
         with self.engine.connect() as conn:
-            return [dict(r._mapping) for r in conn.execute(sa.select(audit).order_by(audit.c.id))]
+            return [
+                dict(r._mapping)
+                for r in conn.execute(sa.select(audit_table).order_by(audit_table.c.id))
+            ]
 
     # --- database errors as StoreError
     def _reading(self, what: str) -> AbstractContextManager[Connection]:

@@ -13,8 +13,14 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.collectors.snmp import COUNTER_COLUMNS, DOT3_ENTRY, IF_ENTRY, IFX_ENTRY, SYS_UPTIME
 from linktriage.counters import COLUMN_INDEX
+from linktriage.network.collectors.snmp import (
+    COUNTER_COLUMNS,
+    DOT3_ENTRY,
+    IF_ENTRY,
+    IFX_ENTRY,
+    SYS_UPTIME,
+)
 
 from agents.fleet import Fleet
 

@@ -17,7 +17,8 @@ import numpy as np
 import numpy.typing as npt
 
 from linktriage.features import FEATURE_KIND
-from linktriage.messages import (
+from linktriage.model.artefact import CompiledTree, Step
+from linktriage.wording import (
     ANY_BELOW,
     ANY_QUESTIONS,
     NOT_REPORTED,
@@ -26,7 +27,6 @@ from linktriage.messages import (
     value_reader,
     yes_no,
 )
-from linktriage.model.artefact import CompiledTree, Step
 
 
 class QuestionRecord(TypedDict):

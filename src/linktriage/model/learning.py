@@ -1,6 +1,6 @@
 """The learning loop: the prior plus what engineers confirmed, promoted only if no worse.
 
-The labels that count (:func:`linktriage.labelled.settle`: each person's latest on each
+The labels that count (:func:`linktriage.model.labels.settle`: each person's latest on each
 answer, none of a disputed answer) are split, deterministically for the seed, into rows
 to train on and rows held out (a share of them, at least one). The candidate is trained
 on the simulated prior plus the training labels, each label weighted above a simulated
@@ -20,10 +20,9 @@ import numpy as np
 
 from linktriage.errors import InputError
 from linktriage.features import FEATURE_NAMES
-from linktriage.labelled import label_frame, settle
 from linktriage.model.artefact import CompiledTree, TreeArtefact
+from linktriage.model.labels import Label, label_frame, settle
 from linktriage.model.train import LabelledRows, TrainingConfig, train
-from linktriage.store import Label
 
 HELD_OUT_SHARE = 0.3
 

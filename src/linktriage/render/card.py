@@ -6,9 +6,9 @@ from datetime import UTC, datetime
 from typing import Any
 
 from linktriage.measures import RESOLUTION_CAP, RESOLUTION_TIMES_OBJECTIVE
-from linktriage.messages import format_ratio, ratio_scale, sig
 from linktriage.model.artefact import TreeArtefact
 from linktriage.model.impurity import feature_importances
+from linktriage.wording import format_ratio, ratio_scale, sig
 
 
 def importances(artefact: TreeArtefact) -> dict[str, float]:

@@ -1,0 +1,304 @@
+"""The ``prometheus`` collector: a device's counters as a Prometheus server already holds them.
+
+Where a Prometheus (or a store that speaks its HTTP API) scrapes the network through an
+SNMP exporter, linktriage asks it instead of polling the devices itself: one request per
+device, answered from the server's own storage, so a sweep of a very large network costs
+the devices nothing. The server also keeps history, so a window is read at once rather
+than waited for (:class:`~linktriage.network.collectors.base.HistoryCollector`).
+
+One request per read, an instant query of a range selector over the device's series::
+
+    GET {server}/api/v1/query?query={__name__=~"ifHCInOctets|...",instance="10.20.0.1"}[300s]
+
+A range selector returns the raw samples with the times they were scraped; an instant
+vector would carry the evaluation time instead, which is off by up to a scrape interval
+and would bend every rate. Samples of one scrape share one time, so they become one
+snapshot per port. Metric names default to the IF-MIB and EtherLike-MIB object names the
+SNMP exporter publishes (ifHCInOctets, dot3StatsFCSErrors, ...), ports are told apart by
+the ``ifName`` label; both are configurable per device, as is the label that names it.
+
+Prometheus stores samples as float64: counters are exact up to 2^53 (9 PB of octets),
+beyond that they keep 53 significant bits, which leaves rates over any window intact.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections import defaultdict
+from collections.abc import Sequence
+from datetime import UTC, datetime
+from typing import Annotated, Any
+
+from pydantic import Field, ValidationError, field_validator
+
+from linktriage.counters import COLUMN_INDEX, COUNTER64_MAX
+from linktriage.network.collectors.base import (
+    BadAnswerError,
+    CollectorError,
+    HistoryCollector,
+    Reading,
+    Target,
+)
+from linktriage.network.collectors.http import HttpOptions, HttpSession
+from linktriage.snapshot import Snapshot
+
+#: Port state the collector reads, by the IF-MIB / EtherLike-MIB object (RFC 2863, RFC 3635)
+#: whose value the metric carries.
+STATE_OBJECTS = (
+    "ifOperStatus",
+    "ifHighSpeed",
+    "ifSpeed",
+    "ifMtu",
+    "dot3StatsDuplexStatus",
+    "ifCounterDiscontinuityTime",
+)
+#: Series of the device rather than a port: its agent's sysUpTime (RFC 3418), to place
+#: ifCounterDiscontinuityTime in time, and ``up``, Prometheus's own record of whether the
+#: last scrape worked (0: what it holds is stale).
+DEVICE_OBJECTS = ("sysUpTime", "up")
+OPER_STATUS = {1: "up", 2: "down", 3: "testing", 4: "unknown", 5: "dormant", 6: "notPresent",
+               7: "lowerLayerDown"}  # fmt: skip
+DUPLEX = {1: "unknown", 2: "half", 3: "full"}
+IFSPEED_MAX = 4_294_967_295
+_METRIC_NAME = re.compile(r"^[a-zA-Z_:][a-zA-Z0-9_:]*$")  # the Prometheus data model
+_LABEL_NAME = re.compile(r"^[a-zA-Z_][a-zA-Z0-9_]*$")
+MEDIA_TYPE = "application/json"
+
+
+class PrometheusOptions(HttpOptions):
+    #: The server's base URL, path prefix included (``http://prom.example:9090``).
+    server: Annotated[str, Field(pattern=r"^https?://[^\s/]+(/\S*)?$")]
+    #: The device's value of ``device_label``; default: its address, else its name.
+    instance: str | None = None
+    device_label: str = "instance"
+    port_label: str = "ifName"
+    #: More label matchers that select the device's series, e.g. ``{ job = "snmp" }``.
+    matchers: dict[str, str] = Field(default_factory=dict)
+    #: Metric names where they differ from the object names (object -> metric).
+    metrics: dict[str, str] = Field(default_factory=dict)
+    #: How far back a read looks for the newest scrape: longer than the scrape interval.
+    lookback_s: Annotated[float, Field(gt=0, le=86_400)] = 300.0
+
+    @field_validator("device_label", "port_label")
+    @classmethod
+    def _label(cls, name: str) -> str:
+        if not _LABEL_NAME.match(name) or name.startswith("__"):
+            raise ValueError(f"{name!r} is not a Prometheus label name")
+        return name
+
+    @field_validator("matchers")
+    @classmethod
+    def _labels(cls, matchers: dict[str, str]) -> dict[str, str]:
+        for name in matchers:
+            cls._label(name)
+        return matchers
+
+    @field_validator("metrics")
+    @classmethod
+    def _metric_names(cls, metrics: dict[str, str]) -> dict[str, str]:
+        known = {*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS}
+        for obj, metric in metrics.items():
+            if obj not in known:
+                raise ValueError(f"{obj!r} is not a counter or state object linktriage reads")
+            if not _METRIC_NAME.match(metric):
+                raise ValueError(f"{metric!r} is not a Prometheus metric name")
+        return metrics
+
+
+def promql_string(value: str) -> str:
+    """A PromQL double-quoted string literal (Go escaping rules)."""
+    escaped = value.replace("\\", "\\\\").replace('"', '\\"').replace("\n", "\\n")
+    return f'"{escaped}"'
+
+
+def selector(metric_names: Sequence[str], labels: dict[str, str]) -> str:
+    """A series selector for these metrics and these label values."""
+    names = "|".join(sorted(set(metric_names)))
+    parts = [f"__name__=~{promql_string(names)}"]
+    parts += [f"{name}={promql_string(value)}" for name, value in labels.items()]
+    return "{" + ",".join(parts) + "}"
+
+
+def _integer(text: Any) -> int:
+    """A sample value (a JSON string such as ``"1234"`` or ``"1.5e+15"``) as an integer."""
+    value = float(text)
+    if not math.isfinite(value) or value < 0 or value != math.floor(value):
+        raise ValueError(f"{text} is not a counter or status value")
+    return int(value)
+
+
+class Samples:
+    """A matrix answer sorted out: per port, per scrape time, object -> value."""
+
+    def __init__(self, document: Any, objects: dict[str, str], port_label: str) -> None:
+        data = document.get("data") if isinstance(document, dict) else None
+        if not isinstance(data, dict) or data.get("resultType") != "matrix":
+            raise ValueError("the answer holds no matrix of samples")
+        result = data.get("result")
+        if not isinstance(result, list):
+            raise ValueError("the answer's result is not a list")
+        self.ports: dict[str, dict[float, dict[str, Any]]] = defaultdict(dict)
+        self.device: dict[str, list[tuple[float, Any]]] = {o: [] for o in DEVICE_OBJECTS}
+        self.problems: dict[str, str] = {}
+        unlabelled = 0
+        seen: dict[tuple[str, str], int] = defaultdict(int)
+        for series in result:
+            labels = series.get("metric", {}) if isinstance(series, dict) else {}
+            obj = objects.get(labels.get("__name__", ""))
+            values = series.get("values") if isinstance(series, dict) else None
+            if obj is None or not isinstance(values, list):
+                continue
+            if obj in self.device:
+                self.device[obj] += [(float(t), v) for t, v in values]
+                continue
+            port = labels.get(port_label)
+            if not port:
+                unlabelled += 1
+                continue
+            seen[(port, obj)] += 1
+            times = self.ports[port]
+            for t, v in values:
+                times.setdefault(float(t), {})[obj] = v
+        for (port, obj), count in seen.items():
+            if count > 1:  # two series for one port and metric: which one is the port?
+                self.problems[port] = (
+                    f"{count} series of {obj} carry {port_label}={port!r}; add matchers "
+                    "that select one"
+                )
+                self.ports.pop(port, None)
+        if unlabelled:
+            self.problems[f"(no {port_label})"] = (
+                f"{unlabelled} series carry no {port_label} label; is port_label right?"
+            )
+        for samples in self.device.values():
+            samples.sort()
+
+    def booted(self, at: float) -> float | None:
+        """When the device's agent started, from the sysUpTime sample nearest ``at``."""
+        uptime = self.device["sysUpTime"]
+        if not uptime:
+            return None
+        t, ticks = min(uptime, key=lambda sample: abs(sample[0] - at))
+        return t - _integer(ticks) / 100.0
+
+    def failed_since(self) -> float | None:
+        """When the scrapes that still fail began, if the newest one failed (``up`` 0)."""
+        up = self.device["up"]
+        if not up or float(up[-1][1]) != 0.0:
+            return None
+        first = len(up) - 1
+        while first > 0 and float(up[first - 1][1]) == 0.0:
+            first -= 1
+        return up[first][0]
+
+
+def _snapshot(
+    device: str, port: str, at: float, values: dict[str, Any], booted: float | None
+) -> Snapshot:
+    # float64 rounds the top 1,024 Counter64 values up to 2^64: read them as the largest.
+    counters = {
+        name: min(_integer(values[name]), COUNTER64_MAX) for name in COLUMN_INDEX if name in values
+    }
+    state = {name: _integer(values[name]) for name in STATE_OBJECTS if name in values}
+    speed = None
+    if state.get("ifHighSpeed"):
+        speed = state["ifHighSpeed"] * 1_000_000
+    elif "ifSpeed" in state and state["ifSpeed"] < IFSPEED_MAX:
+        speed = state["ifSpeed"]
+    discontinuity = None
+    if booted is not None and "ifCounterDiscontinuityTime" in state:
+        moment = booted + state["ifCounterDiscontinuityTime"] / 100.0
+        discontinuity = datetime.fromtimestamp(moment, UTC)
+    duplex = state.get("dot3StatsDuplexStatus")
+    return Snapshot(
+        device=device,
+        port=port,
+        time=datetime.fromtimestamp(at, UTC),
+        oper_status=OPER_STATUS.get(state.get("ifOperStatus", 4), "unknown"),
+        counters=counters,
+        speed_bps=speed,
+        duplex=None if duplex is None else DUPLEX.get(duplex),
+        mtu=state.get("ifMtu"),
+        discontinuity_time=discontinuity,
+    )
+
+
+class PrometheusCollector(HistoryCollector):
+    """Reads one device's series from a Prometheus server."""
+
+    options_model = PrometheusOptions
+    needs_address = False
+
+    def __init__(self, target: Target) -> None:
+        super().__init__(target)
+        o = self.options
+        assert isinstance(o, PrometheusOptions)
+        self.url = o.server.rstrip("/") + "/api/v1/query"
+        names = [*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS]
+        self.objects = {o.metrics.get(name, name): name for name in names}  # metric -> object
+        instance = o.instance or target.address or target.name
+        self.labels = {o.device_label: instance, **o.matchers}
+        self.selector = selector(list(self.objects), self.labels)
+        self.http = HttpSession(self, o, MEDIA_TYPE)
+
+    async def close(self) -> None:
+        await self.http.close()
+
+    async def _samples(self, span_s: float, end: float) -> Samples:
+        query = f"{self.selector}[{max(1, math.ceil(span_s * 1000))}ms]"
+        document = await self.http.get_json(self.url, {"query": query, "time": f"{end:.3f}"})
+        if not isinstance(document, dict) or document.get("status") != "success":
+            said = document.get("error") if isinstance(document, dict) else None
+            raise self.error(BadAnswerError, f"the query failed: {said or document!r}"[:300])
+        assert isinstance(self.options, PrometheusOptions)
+        try:
+            return Samples(document, self.objects, self.options.port_label)
+        except (ValueError, TypeError, AttributeError) as exc:
+            raise self.error(BadAnswerError, f"answered without samples: {exc}") from exc
+
+    def _reading(
+        self, samples: Samples, ports: Sequence[str] | None, *, newest_only: bool
+    ) -> Reading:
+        since = samples.failed_since()
+        if since is not None:
+            when = datetime.fromtimestamp(since, UTC).strftime("%Y-%m-%d %H:%M:%S UTC")
+            raise self.error(
+                CollectorError, f"Prometheus has failed to scrape it since {when} (up is 0)"
+            )
+        if not samples.ports and not samples.problems:
+            labels = ", ".join(f"{k}={promql_string(v)}" for k, v in self.labels.items())
+            raise self.error(
+                BadAnswerError,
+                f"Prometheus holds no interface series with {labels} in that window; "
+                "is it scraped, and are the labels right?",
+            )
+        wanted = None if ports is None else set(ports)
+        snapshots: list[Snapshot] = []
+        problems = {p: why for p, why in samples.problems.items() if wanted is None or p in wanted}
+        for port, times in samples.ports.items():
+            if wanted is not None and port not in wanted:
+                continue
+            moments = sorted(times)[-1:] if newest_only else sorted(times)
+            try:
+                snapshots += [
+                    _snapshot(self.target.name, port, at, times[at], samples.booted(at))
+                    for at in moments
+                ]
+            except (ValueError, TypeError, ValidationError) as exc:
+                problems[port] = f"malformed samples: {exc}".splitlines()[0]
+        snapshots.sort(key=lambda s: (s.time, s.port))
+        return Reading(snapshots, problems)
+
+    async def read(self, ports: Sequence[str] | None = None) -> Reading:
+        assert isinstance(self.options, PrometheusOptions)
+        samples = await self._samples(self.options.lookback_s, datetime.now(UTC).timestamp())
+        return self._reading(samples, ports, newest_only=True)
+
+    async def history(self, ports: Sequence[str] | None, start: float, end: float) -> Reading:
+        if end <= start:
+            return Reading([])
+        return self._reading(await self._samples(end - start, end), ports, newest_only=False)
+
+    async def ports(self) -> list[str]:
+        return sorted({s.port for s in (await self.read()).snapshots})

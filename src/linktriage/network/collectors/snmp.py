@@ -1,0 +1,326 @@
+"""The ``snmp`` collector: IF-MIB and EtherLike-MIB counters over SNMP v2c or v3 (pysnmp).
+
+Each poll walks the columns it needs with GETBULK, all at once, by numeric OID (no MIB is
+compiled at run time): ifTable and ifXTable of IF-MIB (RFC 2863), dot3StatsTable of
+EtherLike-MIB (RFC 3635, indexed by ifIndex), and sysUpTime to turn
+ifCounterDiscontinuityTime into a moment. Ports are named by ifName (ifDescr where a device
+has no ifName). A device without the 64-bit objects still answers with its Counter32 ones;
+objects a device lacks are left out of the snapshot. SNMPv1 is not offered: Counter64
+cannot travel over it (RFC 3584 section 4.2.2.1).
+"""
+
+from __future__ import annotations
+
+import asyncio
+import time
+from collections.abc import Sequence
+from datetime import UTC, datetime
+from typing import Annotated, Any, Literal
+
+from pydantic import Field
+
+from linktriage.network.collectors.base import (
+    BadAnswerError,
+    Collector,
+    CollectorError,
+    DeviceTimeoutError,
+    Options,
+    Reading,
+    SecretRef,
+    Target,
+)
+from linktriage.snapshot import Snapshot
+
+IF_ENTRY = "1.3.6.1.2.1.2.2.1"
+IFX_ENTRY = "1.3.6.1.2.1.31.1.1.1"
+DOT3_ENTRY = "1.3.6.1.2.1.10.7.2.1"
+SYS_UPTIME = "1.3.6.1.2.1.1.3.0"
+
+#: Columns walked, by numeric OID, and the snapshot name each becomes.
+COUNTER_COLUMNS: dict[str, str] = {
+    f"{IF_ENTRY}.10": "ifInOctets",
+    f"{IF_ENTRY}.11": "ifInUcastPkts",
+    f"{IF_ENTRY}.13": "ifInDiscards",
+    f"{IF_ENTRY}.14": "ifInErrors",
+    f"{IF_ENTRY}.16": "ifOutOctets",
+    f"{IF_ENTRY}.17": "ifOutUcastPkts",
+    f"{IF_ENTRY}.19": "ifOutDiscards",
+    f"{IF_ENTRY}.20": "ifOutErrors",
+    f"{IFX_ENTRY}.6": "ifHCInOctets",
+    f"{IFX_ENTRY}.7": "ifHCInUcastPkts",
+    f"{IFX_ENTRY}.8": "ifHCInMulticastPkts",
+    f"{IFX_ENTRY}.9": "ifHCInBroadcastPkts",
+    f"{IFX_ENTRY}.10": "ifHCOutOctets",
+    f"{IFX_ENTRY}.11": "ifHCOutUcastPkts",
+    f"{IFX_ENTRY}.12": "ifHCOutMulticastPkts",
+    f"{IFX_ENTRY}.13": "ifHCOutBroadcastPkts",
+    f"{DOT3_ENTRY}.2": "dot3StatsAlignmentErrors",
+    f"{DOT3_ENTRY}.3": "dot3StatsFCSErrors",
+    f"{DOT3_ENTRY}.4": "dot3StatsSingleCollisionFrames",
+    f"{DOT3_ENTRY}.5": "dot3StatsMultipleCollisionFrames",
+    f"{DOT3_ENTRY}.8": "dot3StatsLateCollisions",
+    f"{DOT3_ENTRY}.9": "dot3StatsExcessiveCollisions",
+    f"{DOT3_ENTRY}.13": "dot3StatsFrameTooLongs",
+    f"{DOT3_ENTRY}.16": "dot3StatsInternalMacReceiveErrors",
+    f"{DOT3_ENTRY}.18": "dot3StatsSymbolErrors",
+}
+STATE_COLUMNS: dict[str, str] = {
+    f"{IF_ENTRY}.2": "ifDescr",
+    f"{IF_ENTRY}.4": "ifMtu",
+    f"{IF_ENTRY}.5": "ifSpeed",
+    f"{IF_ENTRY}.8": "ifOperStatus",
+    f"{IFX_ENTRY}.1": "ifName",
+    f"{IFX_ENTRY}.15": "ifHighSpeed",
+    f"{IFX_ENTRY}.19": "ifCounterDiscontinuityTime",
+    f"{DOT3_ENTRY}.19": "dot3StatsDuplexStatus",
+}
+#: ifOperStatus values (RFC 2863) and dot3StatsDuplexStatus values (RFC 3635).
+OPER_STATUS = {1: "up", 2: "down", 3: "testing", 4: "unknown", 5: "dormant", 6: "notPresent",
+               7: "lowerLayerDown"}  # fmt: skip
+DUPLEX = {1: "unknown", 2: "half", 3: "full"}
+IFSPEED_MAX = 4_294_967_295  # ifSpeed saturates here; ifHighSpeed must be read (RFC 2863)
+
+
+class SnmpOptions(Options):
+    version: Literal["2c", "3"] = "2c"
+    port: int = 161
+    community: SecretRef | None = None
+    user: str | None = None
+    auth_protocol: Literal["SHA", "SHA256", "SHA512", "MD5"] = "SHA"
+    auth_key: SecretRef | None = None
+    priv_protocol: Literal["AES", "AES256", "DES", "none"] = "AES"
+    priv_key: SecretRef | None = None
+    max_repetitions: int = 25
+    #: Walks in flight at once to one device: a switch's agent is a small, busy process.
+    parallel_walks: Annotated[int, Field(ge=1, le=32)] = 4
+
+
+def _engine() -> Any:
+    """One SNMP engine per event loop: engines are costly and bound to their loop."""
+    from pysnmp.hlapi.v3arch.asyncio import SnmpEngine
+
+    loop = asyncio.get_running_loop()
+    engine = getattr(loop, "_linktriage_snmp_engine", None)
+    if engine is None:
+        engine = SnmpEngine()
+        loop._linktriage_snmp_engine = engine  # type: ignore[attr-defined]
+    return engine
+
+
+def snapshots_from_columns(
+    device: str, columns: dict[str, dict[int, Any]], uptime_s: float | None, now: float
+) -> tuple[list[Snapshot], dict[str, str]]:
+    """Snapshots from walked columns (column name -> ifIndex -> value)."""
+    names = columns.get("ifName", {})
+    descriptions = columns.get("ifDescr", {})
+    at = datetime.fromtimestamp(now, UTC)
+    booted = None if uptime_s is None else now - uptime_s
+    snapshots: list[Snapshot] = []
+    problems: dict[str, str] = {}
+    indices = sorted(set(names) | set(descriptions) | set(columns.get("ifOperStatus", {})))
+    for index in indices:
+        name = str(names.get(index) or descriptions.get(index) or "")
+        if not name:
+            problems[f"ifIndex {index}"] = "has neither ifName nor ifDescr"
+            continue
+        try:
+            counters = {
+                snapshot_name: int(columns[snapshot_name][index])
+                for snapshot_name in COUNTER_COLUMNS.values()
+                if index in columns.get(snapshot_name, {})
+            }
+            state = {k: columns.get(k, {}).get(index) for k in STATE_COLUMNS.values()}
+            snapshots.append(
+                Snapshot(
+                    device=device,
+                    port=name,
+                    time=at,
+                    oper_status=OPER_STATUS.get(int(state["ifOperStatus"] or 4), "unknown"),
+                    counters=counters,
+                    speed_bps=_speed(state["ifHighSpeed"], state["ifSpeed"]),
+                    duplex=_lookup(DUPLEX, state["dot3StatsDuplexStatus"]),
+                    mtu=None if state["ifMtu"] is None else int(state["ifMtu"]),
+                    discontinuity_time=_moment(booted, state["ifCounterDiscontinuityTime"]),
+                )
+            )
+        except (TypeError, ValueError) as exc:
+            problems[name] = f"malformed answer: {exc}".splitlines()[0]
+    return snapshots, problems
+
+
+def _speed(high: Any, low: Any) -> int | None:
+    """ifHighSpeed (Mb/s) where set, else ifSpeed unless it is saturated (RFC 2863)."""
+    if high:
+        return int(high) * 1_000_000
+    if low is not None and int(low) < IFSPEED_MAX:
+        return int(low)
+    return None
+
+
+def _lookup(table: dict[int, Any], value: Any) -> Any:
+    return None if value is None else table.get(int(value))
+
+
+def _moment(booted: float | None, ticks: Any) -> datetime | None:
+    """A TimeStamp (sysUpTime ticks, 1/100 s) as a moment; 0 means since the agent started."""
+    if booted is None or ticks is None:
+        return None
+    return datetime.fromtimestamp(booted + int(ticks) / 100.0, UTC)
+
+
+class SnmpCollector(Collector):
+    """Reads a device over SNMP."""
+
+    options_model = SnmpOptions
+
+    def __init__(self, target: Target) -> None:
+        super().__init__(target)
+        o = self.options
+        assert isinstance(o, SnmpOptions)
+        if o.version == "2c" and o.community is None:
+            raise self.error(CollectorError, 'SNMP v2c needs community = { env = "..." }')
+        if o.version == "3" and o.user is None:
+            raise self.error(CollectorError, "SNMP v3 needs a user")
+
+    def _auth(self) -> Any:
+        from pysnmp.hlapi.v3arch import asyncio as hlapi
+
+        o = self.options
+        assert isinstance(o, SnmpOptions)
+        if o.version == "2c":
+            assert o.community is not None
+            return hlapi.CommunityData(o.community.reveal(), mpModel=1)
+        auth = {
+            "SHA": hlapi.USM_AUTH_HMAC96_SHA,
+            "SHA256": hlapi.USM_AUTH_HMAC192_SHA256,
+            "SHA512": hlapi.USM_AUTH_HMAC384_SHA512,
+            "MD5": hlapi.USM_AUTH_HMAC96_MD5,
+        }[o.auth_protocol]
+        priv = {
+            "AES": hlapi.USM_PRIV_CFB128_AES,
+            "AES256": hlapi.USM_PRIV_CFB256_AES,
+            "DES": hlapi.USM_PRIV_CBC56_DES,
+            "none": hlapi.USM_PRIV_NONE,
+        }[o.priv_protocol]
+        return hlapi.UsmUserData(
+            o.user,
+            authKey=o.auth_key.reveal() if o.auth_key else None,
+            privKey=o.priv_key.reveal() if o.priv_key and o.priv_protocol != "none" else None,
+            authProtocol=auth if o.auth_key else hlapi.USM_AUTH_NONE,
+            privProtocol=priv if o.priv_key else hlapi.USM_PRIV_NONE,
+        )
+
+    async def _walk(self, engine: Any, auth: Any, transport: Any, column: str) -> dict[int, Any]:
+        """Every row of one column, by ifIndex (GETBULK, stopping at the column's end)."""
+        from pysnmp.hlapi.v3arch.asyncio import (
+            ContextData,
+            ObjectIdentity,
+            ObjectType,
+            bulk_walk_cmd,
+        )
+
+        o = self.options
+        assert isinstance(o, SnmpOptions)
+        rows: dict[int, Any] = {}
+        prefix = column + "."
+        async for error, status, _index, binds in bulk_walk_cmd(
+            engine, auth, transport, ContextData(), 0, o.max_repetitions,
+            ObjectType(ObjectIdentity(column)), lexicographicMode=False, lookupMib=False,
+        ):  # fmt: skip
+            if error is not None:  # a walk goes on after a timeout unless told to stop
+                if "timeout" in str(error).lower() or "No SNMP response" in str(error):
+                    raise self.error(
+                        DeviceTimeoutError, f"no answer to SNMP within {self.target.timeout_s:g} s"
+                    )
+                raise self.error(CollectorError, f"SNMP error: {error}")
+            if status:
+                break  # e.g. noSuchName from a device that lacks the table
+            for oid, value in binds:
+                text = str(oid)
+                plain = _plain(value)
+                if text.startswith(prefix) and plain is not None:
+                    rows[int(text[len(prefix) :].split(".")[0])] = plain
+        return rows
+
+    async def read(self, ports: Sequence[str] | None = None) -> Reading:
+        from pysnmp.hlapi.v3arch.asyncio import (
+            ContextData,
+            ObjectIdentity,
+            ObjectType,
+            UdpTransportTarget,
+            get_cmd,
+        )
+
+        engine = _engine()
+        auth = self._auth()
+        o = self.options
+        assert isinstance(o, SnmpOptions)
+        assert self.target.address is not None
+        transport = await UdpTransportTarget.create(
+            (self.target.address, o.port),
+            timeout=self.target.timeout_s,
+            retries=self.target.retries,
+        )
+        error, status, _i, binds = await get_cmd(
+            engine,
+            auth,
+            transport,
+            ContextData(),
+            ObjectType(ObjectIdentity(SYS_UPTIME)),
+            lookupMib=False,
+        )
+        now = time.time()
+        if error is not None:
+            raise self.error(
+                DeviceTimeoutError,
+                f"no answer to SNMP within {self.target.timeout_s:g} s ({error})",
+            )
+        if status:
+            raise self.error(BadAnswerError, f"refused sysUpTime: {status.prettyPrint()}")
+        # An agent without sysUpTime answers noSuchObject: the counters still read, but
+        # ifCounterDiscontinuityTime cannot be placed in time without it.
+        uptime = _plain(binds[0][1])
+        uptime_s = uptime / 100.0 if isinstance(uptime, int) else None
+        all_columns = {**COUNTER_COLUMNS, **STATE_COLUMNS}
+        gate = asyncio.Semaphore(o.parallel_walks)
+
+        async def gated(oid: str) -> dict[int, Any]:
+            async with gate:
+                return await self._walk(engine, auth, transport, oid)
+
+        walked = await asyncio.gather(*(gated(oid) for oid in all_columns))
+        columns = dict(zip(all_columns.values(), walked, strict=True))
+        snapshots, problems = snapshots_from_columns(self.target.name, columns, uptime_s, now)
+        return Reading(snapshots, problems).only(ports)
+
+    async def ports(self) -> list[str]:
+        return [s.port for s in (await self.read()).snapshots]
+
+    async def close(self) -> None:
+        """Close the loop's SNMP engine (shared by the SNMP collectors of this loop)."""
+        loop = asyncio.get_running_loop()
+        engine = getattr(loop, "_linktriage_snmp_engine", None)
+        if engine is not None:
+            engine.close_dispatcher()
+            del loop._linktriage_snmp_engine  # type: ignore[attr-defined]
+
+
+#: SNMPv2 exception values (RFC 3416 section 3): the agent has no such object or instance,
+#: or the walk ran off the end of its MIB. They stand for "not reported", never for a value.
+_EXCEPTIONS = frozenset({"NoSuchObject", "NoSuchInstance", "EndOfMibView"})
+
+
+def _plain(value: Any) -> int | str | None:
+    """An SNMP value as a plain int or str; None for an exception value or one that is
+    neither (a device that answers an IpAddress where a counter belongs)."""
+    name = value.__class__.__name__
+    if name in _EXCEPTIONS:
+        return None
+    if name in ("OctetString", "DisplayString"):
+        # Some agents end their DisplayStrings with a NUL, C style: it is not part of the name.
+        text: str = value.asOctets().decode("utf-8", errors="replace")
+        return text.rstrip("\x00")
+    try:
+        return int(value)
+    except (TypeError, ValueError):
+        return None

@@ -1,0 +1,279 @@
+"""The demo network: Larkmoor Civic Library, an invented organisation with a few faults planted.
+
+Two sites: the central library (a core switch and wiring closets in the east and west
+wings) and a branch annex. Most ports are healthy; a handful carry one planted fault each,
+so the demo and the documentation can show every verdict on ports with a story behind
+them. Counters come from :mod:`linktriage.simulate`, deterministically for a given seed,
+and grow with time: the network can be polled at any moment, like real switches.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from linktriage.errors import PollError
+from linktriage.network.interface import Network, PortRef
+from linktriage.network.inventory import DeviceEntry, Inventory
+from linktriage.polls import PollTable
+from linktriage.simulate import DEFAULT_START, G, LiveCounters, M, sample_parameters
+from linktriage.verdicts import Verdict
+
+ORGANISATION = "Larkmoor Civic Library"
+DEFAULT_SEED = 7
+
+
+@dataclass(frozen=True, slots=True)
+class DemoPort:
+    """One port of the demo network, and what is planted on it (None: nothing, healthy)."""
+
+    site: str
+    device: str
+    port: str
+    serves: str
+    planted: Verdict | None = None
+    overrides: dict[str, Any] = field(default_factory=dict)
+
+
+_COPPER_1G = {"fiber": 0.0, "speed_bps": G, "max_speed_bps": G, "hc": True, "dot3": True}
+_FIBER_10G = {
+    "fiber": 1.0,
+    "speed_bps": 10 * G,
+    "max_speed_bps": 10 * G,
+    "poe": 0.0,
+    "hc": True,
+    "dot3": True,
+    "rx_alarm_dbm": -14.4,
+}
+
+PLANTED: tuple[DemoPort, ...] = (
+    DemoPort(
+        "central",
+        "lark-east-idf2",
+        "port14",
+        "desk phone and PC, east wing reading room",
+        Verdict.CABLE_FAULT,
+        {
+            **_COPPER_1G,
+            "poe": 1.0,
+            "rx_util": 0.1,
+            "rx_ber": 2e-8,
+            "link_changes": 8.0,
+            "runt_ratio": 1e-10,
+        },
+    ),
+    DemoPort(
+        "central",
+        "lark-east-idf2",
+        "port7",
+        "label printer, circulation desk",
+        Verdict.DUPLEX_MISMATCH,
+        {"speed_bps": 100 * M, "max_speed_bps": G, "rx_util": 0.08, "tx_util": 0.05},
+    ),
+    DemoPort(
+        "central",
+        "lark-east-idf1",
+        "port19",
+        "catalogue kiosk, east wing lobby",
+        Verdict.NEGOTIATION_DEGRADED,
+        {"speed_bps": 100 * M, "max_speed_bps": G, "half_duplex": 0.0, "rx_util": 0.15},
+    ),
+    DemoPort(
+        "central",
+        "lark-east-idf1",
+        "up1",
+        "uplink to lark-core1",
+        Verdict.OPTIC_DEGRADED,
+        {**_FIBER_10G, "rx_margin_db": -1.2, "rx_ber": 3e-9, "rx_util": 0.12},
+    ),
+    DemoPort(
+        "central",
+        "lark-core1",
+        "up3",
+        "downlink to lark-west-idf1",
+        Verdict.UNIDIRECTIONAL,
+        {**_FIBER_10G, "rx_margin_db": 6.0, "rx_util": 0.0, "tx_util": 0.09},
+    ),
+    DemoPort(
+        "central",
+        "lark-core1",
+        "up5",
+        "link to the annex",
+        Verdict.CONGESTION,
+        {**_FIBER_10G, "rx_margin_db": 7.5, "tx_util": 0.94, "out_discard_ratio": 4e-3},
+    ),
+    DemoPort(
+        "annex",
+        "lark-annex-sw1",
+        "port3",
+        "archive storage server",
+        Verdict.MTU_MISMATCH,
+        {**_COPPER_1G, "poe": 0.0, "mtu": 1500.0, "giant_ratio": 0.02, "rx_util": 0.2},
+    ),
+    DemoPort(
+        "central",
+        "lark-west-idf1",
+        "port22",
+        "study room wall outlet, usually empty",
+        Verdict.INSUFFICIENT_TRAFFIC,
+        {**_COPPER_1G, "rx_util": 2e-7, "tx_util": 4e-7},
+    ),
+    DemoPort(
+        "central",
+        "lark-west-idf1",
+        "port9",
+        "meeting room display",
+        Verdict.LINK_DOWN,
+        {**_COPPER_1G, "down": True},
+    ),
+    DemoPort(
+        "annex",
+        "lark-annex-sw1",
+        "port11",
+        "self-service terminal; a script clears its counters at every poll",
+        Verdict.NO_DATA,
+        {**_COPPER_1G, "cleared": True},
+    ),
+)
+
+_ACCESS = {
+    "lark-east-idf1": ("central", 24),
+    "lark-east-idf2": ("central", 24),
+    "lark-west-idf1": ("central", 24),
+    "lark-annex-sw1": ("annex", 12),
+}
+
+
+def demo_ports() -> list[DemoPort]:
+    """Every port of the demo network: the planted ones and healthy ones around them."""
+    planted = {(p.device, p.port): p for p in PLANTED}
+    ports: list[DemoPort] = []
+    for device, (site, count) in _ACCESS.items():
+        names = [f"port{i}" for i in range(1, count + 1)] + ["up1"]
+        for name in names:
+            uplink = name.startswith("up")
+            serves = "uplink to lark-core1" if uplink else "desk outlet"
+            default = DemoPort(site, device, name, serves, None, _FIBER_10G if uplink else {})
+            ports.append(planted.get((device, name), default))
+    for n in range(1, 7):
+        name = f"up{n}"
+        default = DemoPort("central", "lark-core1", name, "fiber link", None, _FIBER_10G)
+        ports.append(planted.get(("lark-core1", name), default))
+    return ports
+
+
+# The guard verdicts are planted on healthy-looking ports; the tree's classes are sampled.
+_SAMPLED_AS = {
+    Verdict.INSUFFICIENT_TRAFFIC: Verdict.HEALTHY,
+    Verdict.LINK_DOWN: Verdict.HEALTHY,
+    Verdict.NO_DATA: Verdict.HEALTHY,
+}
+# Counters start this long before the fixed demo time, so every poll finds them running.
+_RUNNING_S = 86_400.0
+
+
+class DemoClock:
+    """Simulated time for the simulated network: waiting for a second poll takes no time."""
+
+    def __init__(self, start: float) -> None:
+        self.now = start
+
+    def __call__(self) -> float:
+        return self.now
+
+    def sleep(self, seconds: float) -> None:
+        self.now += seconds
+
+
+class DemoNetwork(Network):
+    """Larkmoor's ports with counters that grow smoothly with time: poll it at any moment.
+
+    Each port's counters rise at the mean rates of its simulated parameters, so two polls
+    any time apart give the window a real switch would; ``clock`` says what time it is.
+    """
+
+    def __init__(self, *, seed: int = DEFAULT_SEED, clock: Callable[[], float] = time.time) -> None:
+        self.clock = clock
+        self._ports = demo_ports()
+        self._refs = [PortRef(p.site, p.device, p.port, p.serves) for p in self._ports]
+        rng = np.random.default_rng(seed)
+        self.counters = LiveCounters(
+            _parameters(self._ports, rng),
+            rng,
+            device=[p.device for p in self._ports],
+            port=[p.port for p in self._ports],
+            epoch=DEFAULT_START - _RUNNING_S,
+            seed=seed,
+        )
+        self._rows = {(p.device, p.port): i for i, p in enumerate(self._ports)}
+
+    @property
+    def rates(self) -> dict[str, np.ndarray]:
+        return self.counters.rates
+
+    def ports(self) -> list[PortRef]:
+        return list(self._refs)
+
+    def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
+        refs = self.devices().get(device)
+        if refs is None:
+            raise PollError(device, "not part of the demo network")
+        names = [r.port for r in refs] if ports is None else list(ports)
+        unknown = [name for name in names if (device, name) not in self._rows]
+        if unknown:
+            raise PollError(device, f"has no port {unknown[0]!r}")
+        rows = np.array([self._rows[(device, name)] for name in names], np.intp)
+        return self.counters.at(rows, self.clock())
+
+    def poll_all(self, at: float) -> PollTable:
+        """Every port of the network, read at ``at``."""
+        return self.counters.at(np.arange(len(self._ports)), at)
+
+
+def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame:
+    """Simulation parameters of every demo port, with the planted overrides applied."""
+    labels = [
+        Verdict.HEALTHY if p.planted is None else _SAMPLED_AS.get(p.planted, p.planted)
+        for p in ports
+    ]
+    params = sample_parameters(labels, rng)
+    params["window_s"] = 300.0
+    params["stray_errors"] = 0.0
+    params["cleared"] = False
+    # Office hours on gigabit desk outlets: every healthy port carries enough to be judged.
+    background = [row for row, p in enumerate(ports) if p.planted is None]
+    quiet_line = {"half_duplex": 0.0, "mtu": 1500.0, "rx_ber": 1e-13, "burst_errors": 0.0}
+    for key, value in {**_COPPER_1G, **quiet_line}.items():
+        params.loc[background, key] = value
+    params.loc[background, "rx_util"] = rng.uniform(0.02, 0.25, len(background))
+    params.loc[background, "tx_util"] = rng.uniform(0.02, 0.25, len(background))
+    for row, port in enumerate(ports):
+        for key, value in port.overrides.items():
+            params.loc[row, key] = value
+    return params
+
+
+def demo_polls(*, seed: int = DEFAULT_SEED, end_time: float = DEFAULT_START) -> PollTable:
+    """Two polls, five minutes apart, of every port of the demo network."""
+    network = DemoNetwork(seed=seed)
+    return PollTable.concat([network.poll_all(end_time - 300.0), network.poll_all(end_time)])
+
+
+def demo_inventory() -> Inventory:
+    """The demo network as an inventory: each switch read by the ``demo`` collector."""
+    devices = []
+    for device, refs in DemoNetwork().devices().items():
+        devices.append(
+            DeviceEntry(
+                name=device,
+                site=refs[0].site,
+                collector="demo",
+                serves={r.port: r.serves for r in refs if r.serves},
+            )
+        )
+    return Inventory(devices=devices)

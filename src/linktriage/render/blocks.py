@@ -1,0 +1,329 @@
+"""Replies drawn as Slack Block Kit, to read well on a phone and stay within Slack's limits.
+
+Limits kept (Block Kit reference, as encoded in slack_sdk's block models): at most 50
+blocks per message, 3000 characters per section text, 150 per header, 10 elements per
+context block, 75 per button or option text, 2000 per button value, 150 per option value,
+255 per action id. Text from people (notes in labels) goes out as ``plain_text``, and
+everything drawn as mrkdwn has ``&``, ``<`` and ``>`` escaped, so no reply can mention
+``@channel``, a user group, or carry a link it was not meant to.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from datetime import UTC, datetime
+from typing import Any
+
+from linktriage.render.card import card_text
+from linktriage.render.replies import (
+    DiagnosisReply,
+    ErrorReply,
+    HelpReply,
+    LabelRefused,
+    LabelReply,
+    ModelReply,
+    Reply,
+    SuspectItem,
+    SuspectsReply,
+)
+from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict
+from linktriage.wording import (
+    DIGEST_PROMPT,
+    LABEL_PROMPT,
+    ber_line,
+    help_lines,
+    label_recorded,
+    ruled_out_line,
+    sig,
+)
+
+MAX_BLOCKS = 50
+MAX_SECTION = 3000
+MAX_HEADER = 150
+MAX_CONTEXT_ELEMENTS = 10
+MAX_OPTION_TEXT = 75
+MAX_FALLBACK = 3000  # the notification text: short, it is what a phone's lock screen shows
+#: The characters of blocks one message may carry: Slack refuses about 13,000 and more
+#: (msg_blocks_too_long, slackapi/bolt-js#2509), whatever the per-block limits allow.
+MAX_MESSAGE_TEXT = 12_000
+
+CONFIRM_ACTION = "lt_confirm"
+CORRECT_ACTION = "lt_correct"
+RECHECK_ACTION = "lt_recheck"
+
+Block = dict[str, Any]
+
+
+def escape(text: str) -> str:
+    """Text safe inside mrkdwn: Slack's three control characters as entities."""
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+
+
+def _person(user: str) -> str:
+    """A person as Slack shows them: a mention for a Slack user id, else the name escaped."""
+    return f"<@{user}>" if re.fullmatch(r"[UW][A-Z0-9]{2,}", user) else escape(user)
+
+
+def _clip(text: str, limit: int) -> str:
+    return text if len(text) <= limit else text[: limit - 1] + "\u2026"
+
+
+def _header(text: str) -> Block:
+    return {"type": "header", "text": {"type": "plain_text", "text": _clip(text, MAX_HEADER)}}
+
+
+def _context(*texts: str, plain: bool = False) -> Block:
+    kind = "plain_text" if plain else "mrkdwn"
+    elements = [{"type": kind, "text": _clip(t, MAX_SECTION)} for t in texts if t]
+    return {"type": "context", "elements": elements[:MAX_CONTEXT_ELEMENTS]}
+
+
+def _sections(lines: list[str], *, title: str | None = None) -> list[Block]:
+    """Lines of mrkdwn packed into as few sections as the per-section limit allows."""
+    blocks: list[Block] = []
+    current = f"*{title}*" if title else ""
+    for line in lines:
+        line = _clip(line, MAX_SECTION - 10)
+        joined = f"{current}\n{line}" if current else line
+        if len(joined) > MAX_SECTION:
+            blocks.append(_section(current))
+            current = line
+        else:
+            current = joined
+    if current:
+        blocks.append(_section(current))
+    return blocks
+
+
+def _section(text: str) -> Block:
+    return {"type": "section", "text": {"type": "mrkdwn", "text": text}}
+
+
+def _message(fallback: str, blocks: list[Block]) -> dict[str, Any]:
+    """A message: ``fallback`` (plain words, escaped here) is what notifications show."""
+    if len(blocks) > MAX_BLOCKS:
+        raise ValueError(f"{len(blocks)} blocks: Slack takes at most {MAX_BLOCKS}")
+    return {"text": escape(_clip(fallback, MAX_FALLBACK)), "blocks": blocks}
+
+
+def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
+    r = reply.record
+    facts = [
+        f"confidence *{r['confidence']:.2f}*",
+        f"window {sig(r['window_s'], 3)} s over {r['polls']} polls",
+        f"model `{escape(r['model_version'])}`",
+    ]
+    if reply.serves:
+        facts.append(escape(reply.serves))
+    blocks: list[Block] = [
+        _header(f"{r['device']} {r['port']}: {r['title']}"),
+        _context(" \u00b7 ".join(facts)),
+    ]
+    evidence = [f"\u2022 {escape(e['said'])}" for e in r["evidence"]]
+    blocks += _sections(evidence, title="Evidence")
+    if r["ruled_out"] is not None:
+        blocks.append(_context(escape(ruled_out_line(r["ruled_out"]))))
+    questions = [
+        f"{n}. {escape(q['question'])}  \u2192  *{escape(q['said'])}*"
+        for n, q in enumerate(r["questions"], start=1)
+    ]
+    blocks += _sections(questions, title="Questions asked")
+    ber = r["bit_errors"]
+    if ber is not None:
+        blocks.append(_context(escape(ber_line(ber))))
+    if r["note"]:
+        blocks.append(_context(escape(r["note"])))
+    blocks.append({"type": "divider"})
+    blocks += _sections([f"\u2022 {escape(c)}" for c in r["next_checks"]], title="Check next")
+    if r["cautions"]:
+        cautions = [f":warning: {escape(c)}" for c in r["cautions"]]
+        blocks += _sections(cautions, title="Safety")
+    blocks.append(_label_actions(reply))
+    if reply.labels:
+        blocks.append(_context(_labels_line(reply)))
+    blocks.append(_context(LABEL_PROMPT))
+    fallback = f"{r['device']} {r['port']}: {r['title']} ({r['verdict']}, {r['confidence']:.2f})"
+    return _message(fallback, blocks)
+
+
+def _labels_line(reply: DiagnosisReply) -> str:
+    """Who said what on this answer (each person's latest), and whether it teaches."""
+    model = reply.record["verdict"]
+    said = [
+        f"{_person(user)} {'confirmed' if verdict == model else 'found'} "
+        f"{escape(GUIDES[Verdict(verdict)].title)}"
+        for user, verdict in reply.labels
+    ]
+    line = "Labelled: " + "; ".join(said)
+    if reply.disputed:
+        line += ". The labels disagree: left out of training until they agree."
+    return line
+
+
+def _label_actions(reply: DiagnosisReply) -> Block:
+    """A button to confirm the verdict, a menu to say what it really was, and one to
+    diagnose the port again."""
+    diagnosis = str(reply.diagnosis_id)
+    title = GUIDES[Verdict(reply.record["verdict"])].title
+    options = [
+        {
+            "text": {"type": "plain_text", "text": _clip(GUIDES[v].title, MAX_OPTION_TEXT)},
+            "value": f"{diagnosis}:{v.value}",
+        }
+        for v in TREE_VERDICTS
+    ]
+    elements: list[Block] = []
+    confirmed = sum(1 for _, verdict in reply.labels if verdict == reply.record["verdict"])
+    confirm = f"Confirm too ({confirmed} so far)" if confirmed else f"Confirm: {title}"
+    if reply.record["verdict"] in {v.value for v in TREE_VERDICTS}:
+        elements.append(
+            {
+                "type": "button",
+                "action_id": CONFIRM_ACTION,
+                "text": {"type": "plain_text", "text": _clip(confirm, MAX_OPTION_TEXT)},
+                "value": diagnosis,
+            }
+        )
+    elements.append(
+        {
+            "type": "static_select",
+            "action_id": CORRECT_ACTION,
+            "placeholder": {"type": "plain_text", "text": "It was really\u2026"},
+            "options": options,
+        }
+    )
+    # A person in chat cannot choose a window: this asks again once more polls are in.
+    elements.append(
+        {
+            "type": "button",
+            "action_id": RECHECK_ACTION,
+            "text": {"type": "plain_text", "text": "Check again"},
+            "value": diagnosis,
+        }
+    )
+    return {"type": "actions", "block_id": f"labels-{diagnosis}", "elements": elements}
+
+
+def _when(at: float) -> str:
+    return datetime.fromtimestamp(at, UTC).strftime("%a %d %b %H:%M UTC")
+
+
+def _entry(item: SuspectItem) -> str:
+    r = item.record
+    mark = "  :new:" if item.new else ""
+    return (
+        f"*{item.rank}.* `{escape(r['device'])} {escape(r['port'])}` {escape(r['title'])} "
+        f"({r['confidence']:.2f}){mark}\n      {escape(_clip(item.reason, 300))}"
+    )
+
+
+def _size(blocks: list[Block]) -> int:
+    """The characters of text a message carries in its blocks."""
+    return len(json.dumps(blocks, ensure_ascii=False))
+
+
+def _pack(items: list[SuspectItem], blocks_left: int, text_left: int) -> tuple[list[Block], int]:
+    """As many links as fit in ``blocks_left`` blocks and ``text_left`` characters, worst
+    first, packed into sections; returns the sections and how many links they hold."""
+    sections: list[Block] = []
+    current, shown = "", 0
+    for item in items:
+        entry = _entry(item)
+        if current and len(current) + 1 + len(entry) > MAX_SECTION:
+            sections.append(_section(current))
+            current = ""
+        used = sum(len(b["text"]["text"]) + 60 for b in sections) + len(current) + len(entry)
+        if used > text_left or (not current and len(sections) >= blocks_left):
+            break
+        current = f"{current}\n{entry}" if current else entry
+        shown += 1
+    if current:
+        sections.append(_section(current))
+    return sections, shown
+
+
+def _first_message(reply: SuspectsReply) -> tuple[list[Block], int]:
+    """The blocks of the list as posted, and how many of its links they hold."""
+    counts = [escape(reply.coverage)]
+    if reply.since is not None:
+        new = sum(1 for i in reply.items if i.new)
+        counts.append(f"{new} new and {len(reply.cleared)} cleared since {_when(reply.since)}")
+    blocks: list[Block] = [
+        _header(f"{reply.title}, {_when(reply.at)}"),
+        _context(" \u00b7 ".join(counts)),
+    ]
+    tail: list[Block] = []
+    if reply.cleared:
+        tail.append(_context("Cleared: " + escape(_clip(", ".join(reply.cleared), 2000))))
+    if reply.items:
+        tail.append(_context(DIGEST_PROMPT))
+    room = MAX_BLOCKS - len(blocks) - len(tail) - 1  # one for "and N more"
+    text_left = MAX_MESSAGE_TEXT - _size(blocks) - _size(tail) - 200
+    sections, shown = _pack(reply.items, room, text_left)
+    blocks += sections
+    if shown < len(reply.items):
+        left = len(reply.items) - shown
+        blocks.append(_context(f"\u2026 and {left} more in this message's thread."))
+    return blocks + tail, shown
+
+
+def suspects_message(reply: SuspectsReply) -> dict[str, Any]:
+    """The list as posted: the coverage, then the worst links that fit one message, and a
+    pointer to the rest, which :func:`suspects_thread` carries."""
+    blocks, _ = _first_message(reply)
+    return _message(f"{reply.title}: {len(reply.items)} suspect links", blocks)
+
+
+def suspects_thread(reply: SuspectsReply) -> list[dict[str, Any]]:
+    """The links the first message had no room for, as replies in its thread."""
+    _, shown = _first_message(reply)
+    messages = []
+    rest = reply.items[shown:]
+    while rest:
+        head = _context(f"Suspect links from {rest[0].rank} on, continued")
+        sections, count = _pack(rest, MAX_BLOCKS - 1, MAX_MESSAGE_TEXT - _size([head]) - 200)
+        messages.append(_message(f"{reply.title}, continued", [head, *sections]))
+        rest = rest[max(count, 1) :]
+    return messages
+
+
+def thread_for(reply: Reply) -> list[dict[str, Any]]:
+    """Messages that follow a reply in its thread (the rest of a long list); most have none."""
+    return suspects_thread(reply) if isinstance(reply, SuspectsReply) else []
+
+
+def message_for(reply: Reply) -> dict[str, Any]:
+    """Any reply as a Slack message: ``text`` (the notification) and ``blocks``."""
+    if isinstance(reply, DiagnosisReply):
+        return diagnosis_message(reply)
+    if isinstance(reply, SuspectsReply):
+        return suspects_message(reply)
+    if isinstance(reply, HelpReply):
+        lines = [f"\u2022 {line}" for line in help_lines(reply.command)]
+        return _message("How to use linktriage", _sections(lines, title="linktriage"))
+    if isinstance(reply, ModelReply):
+        text = card_text(reply.card)
+        return _message(
+            text.splitlines()[0], [_section(f"```{escape(_clip(text, MAX_SECTION - 6))}```")]
+        )
+    if isinstance(reply, ErrorReply):
+        lines = [f":x: {escape(reply.message)}"] + ([escape(reply.hint)] if reply.hint else [])
+        return _message(reply.message, _sections(lines))
+    if isinstance(reply, LabelReply):
+        where = f"`{escape(reply.device)} {escape(reply.port)}`"
+        said = label_recorded(
+            _person(reply.user),
+            reply.verdict,
+            reply.model_verdict,
+            where,
+            "",
+            replaced=reply.replaced,
+            disputed_with=reply.disputed_with,
+        )
+        blocks = [_section(":white_check_mark: " + said)]
+        if reply.note:
+            blocks.append(_context(f"found: {reply.note}", plain=True))
+        return _message(f"Recorded {reply.verdict} on {reply.device} {reply.port}", blocks)
+    assert isinstance(reply, LabelRefused)
+    return _message(reply.message, [_section(escape(reply.message))])

@@ -1,0 +1,81 @@
+"""The console transport: the bot's commands at a local prompt, replies drawn as text.
+
+Threads are emulated: every answer posted "to the channel" gets a message id, and
+``reply TEXT`` answers in the thread of the latest one, exactly as a Slack thread reply
+would, so labels go through the same path.
+"""
+
+from __future__ import annotations
+
+import uuid
+from collections.abc import Callable, Iterable
+
+from linktriage.bot.triage import Triage
+from linktriage.render.replies import Reply
+from linktriage.render.text import render
+from linktriage.wording import LABEL_PROMPT
+
+CHANNEL = "console"
+PROMPT = "triage> "
+GREETING = (
+    "linktriage console: type a command (`help` lists them), `reply TEXT` to answer in "
+    "the thread of the last answer, `quit` to leave."
+)
+
+
+class Console:
+    """One local conversation with the bot."""
+
+    def __init__(self, triage: Triage, *, user: str = "console") -> None:
+        self.triage = triage
+        self.user = user
+        self.thread: str | None = None  # message id of the latest answer
+        self._posted = 0
+
+    def say(self, line: str) -> str | None:
+        """The bot's answer to one line typed at the prompt (None: nothing to say)."""
+        text = line.strip()
+        if not text:
+            return None
+        if text.lower().startswith("reply "):
+            return self._reply(text[len("reply ") :])
+        reply = self.triage.handle(text, user=self.user, channel=CHANNEL)
+        shown = render(reply)
+        posted = self._post(reply)
+        if posted:
+            shown += f"\n({LABEL_PROMPT.replace('use the buttons', 'type reply TEXT')})"
+        return shown
+
+    def _post(self, reply: Reply) -> bool:
+        """Give a channel answer its message id, as Slack would; True if it has a thread."""
+        self._posted += 1
+        ts = f"console-{self._posted}"
+        if not self.triage.posted(reply, channel=CHANNEL, ts=ts):
+            return False
+        self.thread = ts
+        return True
+
+    def _reply(self, text: str) -> str:
+        if self.thread is None:
+            return "Nothing to reply to yet: ask about a port first."
+        label = self.triage.label_reply(
+            text,
+            user=self.user,
+            channel=CHANNEL,
+            thread_ts=self.thread,
+            event_key=f"console:{uuid.uuid4()}",
+            source="console",
+        )
+        if label is None:
+            return "(not read as a label: name what you found, e.g. `cable_fault, crushed cord`)"
+        return render(label)
+
+    def run(self, lines: Iterable[str], write: Callable[[str], None]) -> None:
+        """Answer lines until they run out or one says quit."""
+        write(GREETING)
+        for line in lines:
+            if line.strip().lower() in ("quit", "exit"):
+                break
+            answer = self.say(line)
+            if answer is not None:
+                write(answer)

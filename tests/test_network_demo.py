@@ -1,0 +1,66 @@
+"""The demo network: an invented organisation, every verdict planted once, deterministic."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from linktriage.counters import COLUMN_INDEX
+from linktriage.diagnosis import Model, diagnose
+from linktriage.errors import PollError
+from linktriage.network.demo import ORGANISATION, PLANTED, DemoNetwork, demo_polls, demo_ports
+from linktriage.polls import PollTable
+from linktriage.simulate import DEFAULT_START
+from linktriage.verdicts import Verdict
+
+
+def test_every_verdict_but_healthy_is_planted_exactly_once() -> None:
+    planted = [p.planted for p in PLANTED]
+    assert sorted(planted) == sorted(set(Verdict) - {Verdict.HEALTHY})
+
+
+def test_every_planted_port_is_part_of_the_network() -> None:
+    ports = {(p.device, p.port) for p in demo_ports()}
+    assert {(p.device, p.port) for p in PLANTED} <= ports
+    assert len(ports) == len(demo_ports())  # no port twice
+
+
+def test_the_demo_is_the_same_on_every_run() -> None:
+    a, b = demo_polls(), demo_polls()
+    np.testing.assert_array_equal(a.counters, b.counters)
+    np.testing.assert_array_equal(a.time, b.time)
+
+
+def test_names_belong_to_the_invented_organisation() -> None:
+    assert ORGANISATION == "Larkmoor Civic Library"
+    assert all(p.device.startswith("lark-") for p in demo_ports())
+
+
+def test_the_live_network_grows_its_counters_with_time() -> None:
+    clock = [DEFAULT_START]
+    network = DemoNetwork(clock=lambda: clock[0])
+    first = network.poll("lark-east-idf2", ["port1", "port14"])
+    clock[0] += 300.0
+    second = network.poll("lark-east-idf2", ["port1", "port14"])
+    assert (second.time - first.time == 300.0).all()
+    column = COLUMN_INDEX["ifHCInOctets"]
+    assert (second.counters[:, column] > first.counters[:, column]).all()
+
+
+def test_polls_five_minutes_apart_are_the_recorded_demo(model: Model) -> None:
+    clock = [DEFAULT_START - 300.0]
+    network = DemoNetwork(clock=lambda: clock[0])
+    before = network.poll("lark-east-idf2")
+    clock[0] = DEFAULT_START
+    after = network.poll("lark-east-idf2")
+    live = diagnose(PollTable.concat([before, after]), model)
+    recorded = diagnose(demo_polls(), model)
+    for i, port in enumerate(live.port):
+        row = recorded.index_of("lark-east-idf2", port)
+        assert row is not None
+        assert live.record(i) == recorded.record(row)
+
+
+def test_polling_a_device_outside_the_network_names_it() -> None:
+    with pytest.raises(PollError, match="lark-nowhere"):
+        DemoNetwork().poll("lark-nowhere")

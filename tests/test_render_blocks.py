@@ -1,0 +1,132 @@
+"""Block Kit replies stay within Slack's limits and cannot be made to mention anyone.
+
+Limits are checked by slack_sdk's own block models (``Block.parse(...).validate_json()``),
+the reference for Block Kit's per-element limits, plus the 50-blocks-per-message rule.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+from typing import Any
+
+import pytest
+from slack_sdk.models.blocks import Block
+
+from linktriage.bot.triage import Triage
+from linktriage.diagnosis import DiagnosisRecord, Model
+from linktriage.render.blocks import MAX_BLOCKS, escape, message_for, thread_for
+from linktriage.render.card import model_card_data
+from linktriage.render.replies import (
+    DiagnosisReply,
+    ErrorReply,
+    HelpReply,
+    LabelReply,
+    ModelReply,
+    SuspectItem,
+    SuspectsReply,
+)
+
+
+def within_limits(message: dict[str, Any]) -> None:
+    assert len(message["blocks"]) <= MAX_BLOCKS
+    assert message["text"] and len(message["text"]) <= 3000
+    for raw in message["blocks"]:
+        Block.parse(copy.deepcopy(raw)).validate_json()  # type: ignore[union-attr]
+
+
+@pytest.fixture
+def cable(triage: Triage) -> DiagnosisReply:
+    reply = triage.handle("lark-east-idf2 port14")
+    assert isinstance(reply, DiagnosisReply)
+    return reply
+
+
+def test_a_diagnosis_reads_header_path_checks_cautions_buttons(cable: DiagnosisReply) -> None:
+    message = message_for(cable)
+    within_limits(message)
+    kinds = [b["type"] for b in message["blocks"]]
+    assert kinds[:2] == ["header", "context"]
+    text = json.dumps(message["blocks"])
+    assert "*Questions asked*" in text and "*Check next*" in text and "*Safety*" in text
+    assert ":warning:" in text  # cautions look different from checks
+    assert "actions" in kinds
+
+
+def test_a_long_path_is_split_and_still_within_limits(cable: DiagnosisReply) -> None:
+    record: DiagnosisRecord = copy.deepcopy(cable.record)
+    question = record["questions"][0]
+    record["questions"] = [dict(question, said="yes: " + "9" * 400) for _ in range(40)]  # type: ignore[misc]
+    record["device"] = "d" * 200
+    message = message_for(DiagnosisReply(record, 1, "central", "x" * 500))
+    within_limits(message)
+    sections = [b for b in message["blocks"] if b["type"] == "section"]
+    assert len(sections) > 4  # the path spilled over several sections
+
+
+def _suspects(cable: DiagnosisReply, count: int) -> SuspectsReply:
+    items = [
+        SuspectItem(
+            n,
+            cable.record,
+            n,
+            "More than 2.9 in 100,000 received frames fail? yes: " + "7" * 80,
+            new=n % 2 == 0,
+        )
+        for n in range(1, count + 1)
+    ]
+    return SuspectsReply(
+        "Digest of suspect links", items, 5000, {"insufficient_traffic": 3},
+        {"lark-west-idf1": "no answer within 2 s"}, 1.0, since=0.5, cleared=["a b"],
+    )  # fmt: skip
+
+
+def _ranks(message: dict[str, Any]) -> list[int]:
+    return [
+        int(line.split(".*")[0].lstrip("*"))
+        for b in message["blocks"] if b["type"] == "section"
+        for line in b["text"]["text"].splitlines() if line.startswith("*")
+    ]  # fmt: skip
+
+
+@pytest.mark.parametrize("count", [3, 200, 2000])
+def test_a_long_digest_lists_the_worst_first_and_the_rest_in_its_thread(
+    cable: DiagnosisReply, count: int
+) -> None:
+    reply = _suspects(cable, count)
+    first, rest = message_for(reply), thread_for(reply)
+    for message in (first, *rest):
+        within_limits(message)
+        # Slack refuses blocks of about 13,000 characters (slackapi/bolt-js#2509).
+        assert len(json.dumps(message["blocks"], ensure_ascii=False)) <= 13_000
+    ranks = [rank for message in (first, *rest) for rank in _ranks(message)]
+    assert ranks == list(range(1, count + 1))  # every link once, worst first
+    shown = _ranks(first)
+    if count > len(shown):
+        assert f"\u2026 and {count - len(shown)} more in this message's thread." in json.dumps(
+            first["blocks"], ensure_ascii=False
+        )
+    else:
+        assert rest == []
+
+
+def test_text_from_people_cannot_mention_or_link() -> None:
+    assert escape("<!channel> & <https://x|y>") == "&lt;!channel&gt; &amp; &lt;https://x|y&gt;"
+    reply = LabelReply("U1", "sw<!here>", "p1", "cable_fault", "cable_fault", "<!channel> *loud*")
+    message = message_for(reply)
+    within_limits(message)
+    note = next(b for b in message["blocks"] if b["type"] == "context")["elements"][0]
+    assert note == {"type": "plain_text", "text": "found: <!channel> *loud*"}  # read as text
+    mrkdwn = json.dumps([message["text"], message["blocks"][0]])
+    assert "<!here>" not in mrkdwn and "<!channel>" not in mrkdwn
+
+
+def test_the_other_replies_fit_too(model: Model) -> None:
+    for reply in (
+        HelpReply("/triage"),
+        ModelReply(model_card_data(model.artefact, source="x")),
+        ErrorReply("No device named 'x<!channel>'.", "Did you mean: y?"),
+    ):
+        message = message_for(reply)
+        within_limits(message)
+        assert "<!channel>" not in json.dumps(message)

@@ -1,0 +1,53 @@
+"""The console transport: the bot's commands at a prompt, threads emulated."""
+
+from __future__ import annotations
+
+from linktriage.bot.triage import Triage
+from linktriage.transports.console import Console
+
+
+def test_a_conversation_asks_labels_and_lists(triage: Triage) -> None:
+    console = Console(triage)
+    out: list[str] = []
+    console.run(
+        iter(
+            [
+                "help",
+                "lark-east-idf2 port14",
+                "reply cable_fault, crushed patch cord behind the desk",
+                "reply on my way",
+                "suspects annex",
+                "reply 1: mtu was 9000 on the archive server",
+                "",
+                "quit",
+                "model",
+            ]
+        ),
+        out.append,
+    )
+    text = "\n".join(out)
+    assert "`/triage suspects [SITE]`" in text
+    assert "lark-east-idf2 port14: cable or connector fault (cable_fault)" in text
+    assert (
+        "Recorded: console confirms cable_fault on lark-east-idf2 port14: crushed patch cord"
+        in text
+    )
+    assert "not read as a label" in text
+    assert "lark-annex-sw1 port3: MTU mismatch" in text
+    assert "Recorded: console confirms mtu_mismatch on lark-annex-sw1 port3" in text
+    assert "pruning:" not in text  # `model` came after quit: no card
+    assert [label.verdict for label in triage.store.labels()] == ["cable_fault", "mtu_mismatch"]
+
+
+def test_a_reply_before_any_answer_says_so(triage: Triage) -> None:
+    assert (
+        Console(triage).say("reply cable_fault")
+        == "Nothing to reply to yet: ask about a port first."
+    )
+
+
+def test_errors_have_no_thread(triage: Triage) -> None:
+    console = Console(triage)
+    answer = console.say("lark-east-idf9 port1")
+    assert answer is not None and "No device named" in answer
+    assert console.thread is None
