@@ -92,7 +92,7 @@ def test_a_digest_never_posted_is_caught_up_at_the_next_start(
 ) -> None:
     clock.now = at(2, 7, 30)
     posted: list[SuspectsReply] = []
-    monday = triage.digest(channel="C0NETOPS")
+    monday = triage.digests.digest(channel="C0NETOPS")
     channel_of(triage, posted)(monday)  # Monday's, posted
 
     def refusing(reply: SuspectsReply) -> None:

@@ -29,7 +29,7 @@ from linktriage.store import Store
 def test_a_port_with_no_history_gets_two_polls_a_quick_window_apart(triage: Triage) -> None:
     waited: list[float] = []
     sleep = triage.sleep
-    triage.sleep = lambda s: (waited.append(s), sleep(s))[1]  # type: ignore[func-returns-value]
+    triage.gathering.sleep = lambda s: (waited.append(s), sleep(s))[1]  # type: ignore[func-returns-value]
     reply = triage.handle("lark-east-idf2 port14", user="U1", channel="C1")
     assert isinstance(reply, DiagnosisReply)
     assert reply.record["verdict"] == "cable_fault"
@@ -42,9 +42,9 @@ def test_a_port_with_no_history_gets_two_polls_a_quick_window_apart(triage: Tria
 
 
 def test_recent_history_needs_one_fresh_poll_and_no_wait(triage: Triage, clock: DemoClock) -> None:
-    triage.poll_round()
+    triage.gathering.poll_round()
     clock.sleep(300.0)
-    triage.sleep = lambda s: pytest.fail("should not wait")
+    triage.gathering.sleep = lambda s: pytest.fail("should not wait")
     reply = triage.handle("lark-core1 up3")
     assert isinstance(reply, DiagnosisReply)
     assert reply.record["verdict"] == "unidirectional"
@@ -56,8 +56,8 @@ def test_a_stored_poll_seconds_old_is_not_a_window(triage: Triage, clock: DemoCl
     # 2 s window would call a busy port "insufficient traffic". Wait out the quick window.
     waited: list[float] = []
     sleep = triage.sleep
-    triage.sleep = lambda s: (waited.append(s), sleep(s))[1]  # type: ignore[func-returns-value]
-    triage.poll_round()
+    triage.gathering.sleep = lambda s: (waited.append(s), sleep(s))[1]  # type: ignore[func-returns-value]
+    triage.gathering.poll_round()
     clock.sleep(2.0)
     reply = triage.handle("lark-east-idf2 port14")
     assert isinstance(reply, DiagnosisReply)
@@ -132,11 +132,11 @@ def test_a_device_that_does_not_answer_is_named_and_the_rest_still_answer(
     asked = triage.handle("lark-west-idf1 port1")
     assert isinstance(asked, ErrorReply)
     assert asked.message == "lark-west-idf1: no answer within 2 s"
-    assert triage.poll_round().failed == {"lark-west-idf1": "no answer within 2 s"}
+    assert triage.gathering.poll_round().failed == {"lark-west-idf1": "no answer within 2 s"}
 
 
 def test_a_digest_says_what_is_new_and_what_cleared(triage: Triage, clock: DemoClock) -> None:
-    first = triage.digest(channel="C1")
+    first = triage.digests.digest(channel="C1")
     assert first.since is None and not any(i.new for i in first.items)
     assert triage.store.last_digest() is None  # kept only once posted
     triage.posted(first, channel="C1", ts="1.0")
@@ -150,7 +150,7 @@ def test_a_digest_says_what_is_new_and_what_cleared(triage: Triage, clock: DemoC
     network.rates["frame_too_longs"][broken] = network.rates["in_ucast"][broken] * 0.01
     network.rates["in_errors"][broken] = network.rates["frame_too_longs"][broken]
     clock.sleep(3600.0)
-    second = triage.digest(channel="C1")
+    second = triage.digests.digest(channel="C1")
     assert second.since == first.at
     assert second.cleared == ["lark-east-idf2 port14"]
     new = [f"{i.record['device']} {i.record['port']}" for i in second.items if i.new]
@@ -167,10 +167,10 @@ def _posted(triage: Triage, text: str) -> DiagnosisReply:
 def test_a_thread_reply_is_stored_once_then_acknowledged(triage: Triage) -> None:
     _posted(triage, "lark-east-idf2 port14")
     text = "cable_fault, crushed patch cord behind the desk"
-    first = triage.label_reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="Ev1")
+    first = triage.labels.reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="Ev1")
     assert first == LabelReply("U2", "lark-east-idf2", "port14", "cable_fault", "cable_fault",
                                "crushed patch cord behind the desk", diagnosis_id=1)  # fmt: skip
-    retry = triage.label_reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="Ev1")
+    retry = triage.labels.reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="Ev1")
     assert retry is None
     (label,) = triage.store.labels()
     assert label.user_id == "U2" and label.note == "crushed patch cord behind the desk"
@@ -179,8 +179,8 @@ def test_a_thread_reply_is_stored_once_then_acknowledged(triage: Triage) -> None
 def test_confirming_twice_stores_one_label_and_tells_only_its_author(triage: Triage) -> None:
     # Issue 8.8: a second press of Confirm stored a second label, weighted 20 times again.
     reply = _posted(triage, "lark-east-idf2 port14")
-    first = triage.label_button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a1")
-    again = triage.label_button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a2")
+    first = triage.labels.button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a1")
+    again = triage.labels.button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a2")
     assert isinstance(first, LabelReply)
     assert isinstance(again, LabelRefused) and again.visibility == "ephemeral"
     assert "already said cable_fault" in again.message
@@ -191,33 +191,33 @@ def test_a_person_who_changes_their_mind_replaces_their_label(triage: Triage) ->
     reply = _posted(triage, "lark-east-idf2 port14")
     said = []
     for n, verdict in enumerate(["cable_fault", "duplex_mismatch", "healthy"]):
-        label = triage.label_button(
+        label = triage.labels.button(
             reply.diagnosis_id, verdict, user="U2", channel="C1", event_key=f"k{n}"
         )
         assert isinstance(label, LabelReply)
         said.append((label.replaced, label.disputed_with))
     assert said == [(None, ()), ("cable_fault", ()), ("duplex_mismatch", ())]
     assert len(triage.store.labels()) == 3  # all kept for the audit
-    answer, channel, ts = triage.labelled_answer(reply.diagnosis_id) or pytest.fail("no answer")
+    answer, channel, ts = triage.labels.answer(reply.diagnosis_id) or pytest.fail("no answer")
     assert (channel, ts) == ("C1", "100.1")
     assert answer.labels == (("U2", "healthy"),)  # one counts: the latest
 
 
 def test_two_people_who_disagree_are_told_and_the_answer_is_marked(triage: Triage) -> None:
     reply = _posted(triage, "lark-east-idf2 port14")
-    triage.label_button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a")
-    other = triage.label_button(
+    triage.labels.button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a")
+    other = triage.labels.button(
         reply.diagnosis_id, "duplex_mismatch", user="U3", channel="C1", event_key="b"
     )
     assert isinstance(other, LabelReply) and other.disputed_with == ("cable_fault",)
-    answer, _, _ = triage.labelled_answer(reply.diagnosis_id) or pytest.fail("no answer")
+    answer, _, _ = triage.labels.answer(reply.diagnosis_id) or pytest.fail("no answer")
     assert answer.disputed
     assert answer.labels == (("U2", "cable_fault"), ("U3", "duplex_mismatch"))
 
 
 def test_an_answer_keeps_its_site_and_what_the_port_serves(triage: Triage) -> None:
     reply = _posted(triage, "lark-east-idf2 port14")
-    answer, _, _ = triage.labelled_answer(reply.diagnosis_id) or pytest.fail("no answer")
+    answer, _, _ = triage.labels.answer(reply.diagnosis_id) or pytest.fail("no answer")
     assert (answer.site, answer.serves) == (reply.site, reply.serves)
     assert answer.record == reply.record
 
@@ -230,7 +230,7 @@ def test_a_reply_that_negates_the_verdict_stores_nothing_and_asks_back(
     triage: Triage, text: str
 ) -> None:
     _posted(triage, "lark-east-idf2 port14")
-    reply = triage.label_reply(text, user="U2", channel="C1", thread_ts="100.1", event_key=text)
+    reply = triage.labels.reply(text, user="U2", channel="C1", thread_ts="100.1", event_key=text)
     assert isinstance(reply, LabelRefused)
     assert reply.message.startswith("Not `cable_fault`, then: nothing was recorded.")
     assert triage.store.labels() == []
@@ -239,11 +239,13 @@ def test_a_reply_that_negates_the_verdict_stores_nothing_and_asks_back(
 def test_talk_in_a_thread_and_other_threads_are_left_alone(triage: Triage) -> None:
     _posted(triage, "lark-east-idf2 port14")
     assert (
-        triage.label_reply("on my way", user="U2", channel="C1", thread_ts="100.1", event_key="a")
+        triage.labels.reply("on my way", user="U2", channel="C1", thread_ts="100.1", event_key="a")
         is None
     )
     assert (
-        triage.label_reply("cable_fault", user="U2", channel="C1", thread_ts="999.9", event_key="b")
+        triage.labels.reply(
+            "cable_fault", user="U2", channel="C1", thread_ts="999.9", event_key="b"
+        )
         is None
     )
     assert triage.store.labels() == []
@@ -251,7 +253,7 @@ def test_talk_in_a_thread_and_other_threads_are_left_alone(triage: Triage) -> No
 
 def test_an_unclear_reply_is_asked_about_not_stored(triage: Triage) -> None:
     _posted(triage, "lark-east-idf2 port14")
-    reply = triage.label_reply(
+    reply = triage.labels.reply(
         "cable or optic?", user="U2", channel="C1", thread_ts="100.1", event_key="c"
     )
     assert isinstance(reply, LabelRefused) and "`cable_fault` or `optic_degraded`" in reply.message
@@ -259,37 +261,37 @@ def test_an_unclear_reply_is_asked_about_not_stored(triage: Triage) -> None:
 
 
 def test_a_digest_thread_labels_the_link_named_by_number(triage: Triage) -> None:
-    digest = triage.digest(channel="C1")
+    digest = triage.digests.digest(channel="C1")
     assert triage.posted(digest, channel="C1", ts="200.2")
     third = digest.items[2].record
-    reply = triage.label_reply("3: cable_fault, crushed cord", user="U2", channel="C1",
+    reply = triage.labels.reply("3: cable_fault, crushed cord", user="U2", channel="C1",
                                thread_ts="200.2", event_key="d")  # fmt: skip
     assert isinstance(reply, LabelReply)
     assert (reply.device, reply.port) == (third["device"], third["port"])
-    vague = triage.label_reply(
+    vague = triage.labels.reply(
         "cable_fault", user="U2", channel="C1", thread_ts="200.2", event_key="e"
     )
     assert isinstance(vague, LabelRefused) and "Say which link" in vague.message
 
 
 def test_only_configured_channels_and_groups_may_label(triage: Triage) -> None:
-    triage.settings = Settings(labels=LabelSettings(channels=["C1"], user_groups=["S1"]))
-    triage.members_of = lambda group: {"U2"} if group == "S1" else set()
+    triage.labels.settings = Settings(labels=LabelSettings(channels=["C1"], user_groups=["S1"]))
+    triage.labels.members_of = lambda group: {"U2"} if group == "S1" else set()
     _posted(triage, "lark-east-idf2 port14")
-    outsider = triage.label_reply(
+    outsider = triage.labels.reply(
         "cable_fault", user="U9", channel="C1", thread_ts="100.1", event_key="f"
     )
     assert isinstance(outsider, LabelRefused)
-    member = triage.label_reply(
+    member = triage.labels.reply(
         "cable_fault", user="U2", channel="C1", thread_ts="100.1", event_key="g"
     )
     assert isinstance(member, LabelReply)
-    assert not triage.may_label("U2", "C7")
+    assert not triage.labels.may_label("U2", "C7")
 
 
 def test_confirming_a_guard_verdict_is_not_a_label(triage: Triage) -> None:
     _posted(triage, "lark-west-idf1 port9")  # link_down
-    reply = triage.label_reply(
+    reply = triage.labels.reply(
         "confirmed", user="U2", channel="C1", thread_ts="100.1", event_key="h"
     )
     assert isinstance(reply, LabelRefused) and "`link_down`" in reply.message
@@ -305,7 +307,7 @@ def test_a_label_that_cannot_be_written_is_not_acknowledged(tmp_path: Path, mode
     _posted(triage, "lark-east-idf2 port14")
     with sqlite3.connect(path) as conn:
         conn.execute("DROP TABLE labels")
-    reply = triage.label_reply(
+    reply = triage.labels.reply(
         "cable_fault", user="U2", channel="C1", thread_ts="100.1", event_key="i"
     )
     assert isinstance(reply, LabelRefused)
@@ -314,11 +316,11 @@ def test_a_label_that_cannot_be_written_is_not_acknowledged(tmp_path: Path, mode
 
 def test_a_button_confirms_or_corrects(triage: Triage) -> None:
     posted = _posted(triage, "lark-east-idf2 port7")
-    confirm = triage.label_button(
+    confirm = triage.labels.button(
         posted.diagnosis_id, None, user="U3", channel="C1", event_key="btn1"
     )
     assert isinstance(confirm, LabelReply) and confirm.verdict == "duplex_mismatch"
-    correct = triage.label_button(posted.diagnosis_id, "negotiation_degraded", user="U3",
+    correct = triage.labels.button(posted.diagnosis_id, "negotiation_degraded", user="U3",
                                   channel="C1", event_key="btn2")  # fmt: skip
     assert isinstance(correct, LabelReply) and correct.model_verdict == "duplex_mismatch"
     assert [label.verdict for label in triage.store.labels()] == [
@@ -328,7 +330,7 @@ def test_a_button_confirms_or_corrects(triage: Triage) -> None:
 
 
 def test_a_poll_round_keeps_every_port(triage: Triage) -> None:
-    result = triage.poll_round()
+    result = triage.gathering.poll_round()
     assert result.failed == {}
     assert result.stored == len(triage.network.ports())
 
@@ -341,7 +343,7 @@ def test_history_read_back_from_the_store_diagnoses_like_the_polls_themselves(
     from linktriage.simulate import DEFAULT_START
 
     clock.now = DEFAULT_START - 300.0
-    triage.poll_round()
+    triage.gathering.poll_round()
     clock.now = DEFAULT_START
     direct = diagnose(demo_polls(), model)
     for spec in ("lark-east-idf2 port7", "lark-annex-sw1 port3", "lark-core1 up5"):

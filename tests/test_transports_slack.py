@@ -54,12 +54,12 @@ def emulator() -> Iterator[SlackEmulator]:
 @pytest.fixture
 def bot(triage: Triage, emulator: SlackEmulator) -> Iterator[str]:
     """The bot's HTTP endpoint on loopback; yields its URL."""
-    triage.settings = Settings(
+    settings = Settings(
         slack_bot_token=SecretStr(TOKEN),
         slack_signing_secret=SecretStr(SECRET),
         slack_api_url_override=emulator.api_url,
     )
-    app = build_app(triage, triage.settings, listener_executor=Inline())
+    app = build_app(triage, settings, listener_executor=Inline())
     server = http_server(app, secret=SECRET, port=0)
     threading.Thread(target=server.serve_forever, daemon=True).start()
     yield f"http://127.0.0.1:{server.server_address[1]}/slack/events"
@@ -325,10 +325,10 @@ def test_only_members_of_the_configured_group_may_label(
     from linktriage.settings import LabelSettings
     from linktriage.transports.slack import group_members
 
-    triage.settings = triage.settings.model_copy(
+    triage.labels.settings = triage.settings.model_copy(
         update={"labels": LabelSettings(user_groups=["S0NETENG"])}
     )
-    triage.members_of = group_members(WebClient(token=TOKEN, base_url=emulator.api_url))
+    triage.labels.members_of = group_members(WebClient(token=TOKEN, base_url=emulator.api_url))
     slash(bot, emulator, "lark-east-idf2 port14")
     emulator.wait_for("chat.postMessage")
     outsider = event_body("cable_fault", "1772438401.000100", event_id="Ev0OUT", user="U0VISITOR")

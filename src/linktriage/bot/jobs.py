@@ -20,7 +20,8 @@ from apscheduler.schedulers.background import BackgroundScheduler
 from apscheduler.triggers.cron import CronTrigger
 from apscheduler.triggers.interval import IntervalTrigger
 
-from linktriage.bot.triage import PollRound, Triage
+from linktriage.bot.gathering import PollRound
+from linktriage.bot.triage import Triage
 from linktriage.render.replies import SuspectsReply
 from linktriage.settings import ScheduleSettings
 
@@ -69,7 +70,7 @@ class Jobs:
     retries_s: tuple[float, ...] = POST_RETRIES_S
 
     def poll(self) -> PollRound:
-        result = self.triage.poll_round()
+        result = self.triage.gathering.poll_round()
         if result.failed:
             log.warning("poll: no answer from %s", ", ".join(sorted(result.failed)))
         return result
@@ -78,7 +79,7 @@ class Jobs:
         """Compose the digest and post it, trying again after each wait of ``retries_s``.
         The post marks it done (the transport calls Triage.posted): one that is never
         posted is not done."""
-        reply = self.triage.digest(channel=self.channel)
+        reply = self.triage.digests.digest(channel=self.channel)
         tries = len(self.retries_s) + 1
         for attempt in range(1, tries + 1):
             try:

@@ -73,6 +73,9 @@ class Network(ABC):
         why: a list of ports must never pass over them in silence. By default: none."""
         return {}
 
+    def close(self) -> None:  # noqa: B027 (optional: most networks hold nothing)
+        """Release what reading the network holds (connections, the poll loop)."""
+
     def site_of(self, device: str) -> str | None:
         """The site a device belongs to, listed or not."""
         refs = self.devices().get(device)
@@ -102,7 +105,7 @@ class Network(ABC):
         "lark-east-idf2"); a part that fits several devices is ambiguous. The name is
         settled before any device is contacted.
         """
-        name = self._device_name(device, self.device_names())
+        name = device_named(device, self.device_names())
         ports = self.ports_of(name)
         refs = {r.port.lower(): r for r in ports}
         ref = refs.get(port.lower())
@@ -114,19 +117,21 @@ class Network(ABC):
             )
         return ref
 
-    @staticmethod
-    def _device_name(text: str, names: list[str]) -> str:
-        lowered = {n.lower(): n for n in names}
-        if text.lower() in lowered:
-            return lowered[text.lower()]
-        partial = [n for n in names if text.lower() in n.lower()]
-        if len(partial) == 1:
-            return partial[0]
-        if partial:
-            raise AmbiguousNameError(
-                f"{text!r} fits {len(partial)} devices.", candidates=sorted(partial)
-            )
-        raise UnknownPortError(
-            f"No device named {text!r}.",
-            suggestions=difflib.get_close_matches(text, names, n=3, cutoff=0.5),
+
+def device_named(text: str, names: list[str]) -> str:
+    """The device a person named: its full name in any case, or any part of it that fits
+    one device only; refuses a part that fits several, or none."""
+    lowered = {n.lower(): n for n in names}
+    if text.lower() in lowered:
+        return lowered[text.lower()]
+    partial = [n for n in names if text.lower() in n.lower()]
+    if len(partial) == 1:
+        return partial[0]
+    if partial:
+        raise AmbiguousNameError(
+            f"{text!r} fits {len(partial)} devices.", candidates=sorted(partial)
         )
+    raise UnknownPortError(
+        f"No device named {text!r}.",
+        suggestions=difflib.get_close_matches(text, names, n=3, cutoff=0.5),
+    )

@@ -58,7 +58,7 @@ class Console:
     def _reply(self, text: str) -> str:
         if self.thread is None:
             return "Nothing to reply to yet: ask about a port first."
-        label = self.triage.label_reply(
+        label = self.triage.labels.reply(
             text,
             user=self.user,
             channel=CHANNEL,

@@ -173,7 +173,7 @@ def build_app(
 
     def redraw(diagnosis_id: int, client: WebClient) -> None:
         """The answer updated in place: who labelled it, and buttons to match."""
-        found = triage.labelled_answer(diagnosis_id)
+        found = triage.labels.answer(diagnosis_id)
         if found is None:
             return  # a label from a digest's thread: its answer was never posted alone
         answer, channel, ts = found
@@ -192,7 +192,7 @@ def build_app(
         event_id = str(body.get("event_id") or f"{event.get('channel')}:{event.get('ts')}")
         if not seen.first_time(event_id):
             return
-        reply = triage.label_reply(
+        reply = triage.labels.reply(
             event.get("text", ""),
             user=event["user"],
             channel=event["channel"],
@@ -220,7 +220,9 @@ def build_app(
             log.warning("ignored a label action with value %r", action.get("value"))
             return
         key = f"action:{thread}:{user}:{action.get('action_ts')}"
-        reply = triage.label_button(int(raw_id), verdict, user=user, channel=channel, event_key=key)
+        reply = triage.labels.button(
+            int(raw_id), verdict, user=user, channel=channel, event_key=key
+        )
         if channel:
             answer_label(reply, client, channel=channel, thread=thread, user=user)
 

@@ -1,0 +1,191 @@
+"""The composition root: the one place that builds settings, store, network and model and
+hands them to the bot, the transports and the command line.
+
+Everything else receives its parts; nothing below this module opens a store or chooses a
+network. A :class:`Parts` is opened once per command or process and closed with it, so a
+store's connections and a network's poll loop never outlive the work they were opened for.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable, Iterator
+from contextlib import ExitStack, contextmanager
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from linktriage.bot.labelling import GroupMembers
+from linktriage.bot.triage import Triage
+from linktriage.diagnosis import Model
+from linktriage.network.demo import DemoClock, DemoNetwork, demo_inventory
+from linktriage.network.interface import Network
+from linktriage.network.inventory import Inventory, load_inventory
+from linktriage.network.polling import InventoryNetwork
+from linktriage.settings import Settings, load_settings
+from linktriage.store import Store
+
+
+@dataclass
+class Parts:
+    """What the bot works with, opened from one set of settings."""
+
+    settings: Settings
+    store: Store
+    network: Network
+    model: Model
+    clock: Callable[[], float] = time.time
+    sleep: Callable[[float], None] = time.sleep
+    _triage: Triage | None = field(default=None, init=False)
+
+    def triage(self, members_of: GroupMembers | None = None) -> Triage:
+        """The bot's service over these parts (built once)."""
+        if self._triage is None:
+            self._triage = Triage(
+                self.network,
+                self.store,
+                self.model,
+                self.settings,
+                clock=self.clock,
+                sleep=self.sleep,
+                members_of=members_of,
+            )
+        return self._triage
+
+
+def inventory_for(path: Path | None, config_path: Path | None) -> Inventory:
+    """The inventory a command reads: the file given, else the [network] inventory of the
+    settings (read only then), else the demo network as an inventory of demo collectors."""
+    if path is not None:
+        return load_inventory(path)
+    configured = load_settings(config_path).network.inventory
+    return load_inventory(configured) if configured is not None else demo_inventory()
+
+
+def network_for(
+    settings: Settings, *, simulated_time: bool = False
+) -> tuple[Network, Callable[[], float], Callable[[float], None]]:
+    """The network the settings name, with the clock and sleep to run it on.
+
+    With ``simulated_time`` (the console on the demo network) waiting for a second poll
+    takes no time: the clock jumps as if the quick window had passed. Real devices (an
+    inventory) always run on real time.
+    """
+    if settings.network.source == "inventory":
+        assert settings.network.inventory is not None  # settings insist on it
+        return InventoryNetwork(load_inventory(settings.network.inventory)), time.time, time.sleep
+    if simulated_time:
+        clock = DemoClock(time.time())
+        return DemoNetwork(clock=clock), clock, clock.sleep
+    return DemoNetwork(), time.time, time.sleep
+
+
+@contextmanager
+def opened(
+    settings: Settings,
+    *,
+    model_path: Path | None = None,
+    network: Network | None = None,
+    simulated_time: bool = False,
+) -> Iterator[Parts]:
+    """Parts for these settings (a network given replaces the settings' own), all closed on
+    leaving, and whatever was opened closed if a later part fails to open."""
+    with ExitStack() as opened_parts:
+        if network is not None:
+            opened_parts.callback(network.close)
+        model = Model.load(model_path)
+        clock: Callable[[], float] = time.time
+        sleep: Callable[[float], None] = time.sleep
+        if network is None:
+            network, clock, sleep = network_for(settings, simulated_time=simulated_time)
+            opened_parts.callback(network.close)
+        store = opened_parts.enter_context(opened_store(settings))
+        yield Parts(settings, store, network, model, clock=clock, sleep=sleep)
+
+
+@contextmanager
+def opened_store(settings: Settings) -> Iterator[Store]:
+    """The settings' store alone (labels, exports), closed on leaving."""
+    store = Store(settings.store.resolved_url())
+    try:
+        yield store
+    finally:
+        store.close()
+
+
+def serve_slack(
+    parts: Parts,
+    *,
+    host: str | None = None,
+    port: int | None = None,
+    jobs: bool = True,
+    say: Callable[[str], None],
+) -> None:
+    """The bot in Slack over these parts, with the poll and digest jobs, until stopped.
+
+    ``say`` tells the operator where it listens (the command line: on standard error)."""
+    import signal
+    import sys
+
+    from slack_bolt.error import BoltError
+    from slack_sdk.errors import SlackClientError
+
+    from linktriage.bot.jobs import Jobs, start_scheduler
+    from linktriage.errors import LinktriageError
+    from linktriage.render.replies import SuspectsReply
+    from linktriage.transports.slack import (
+        build_app,
+        group_members,
+        post_reply,
+        run_socket_mode,
+        web_client,
+    )
+    from linktriage.transports.slack_http import http_server
+
+    settings = parts.settings
+    client = web_client(settings)
+    triage = parts.triage(members_of=group_members(client))
+    try:
+        app = build_app(triage, settings, client=client)
+    except BoltError as exc:  # e.g. Slack refused the token at its first check
+        raise LinktriageError(f"Cannot start: {exc}") from exc
+    except (OSError, SlackClientError) as exc:  # URLError is an OSError: no answer at all
+        reason = getattr(exc, "reason", None) or exc
+        raise LinktriageError(
+            f"Cannot start: Slack's Web API at {settings.slack_api_url} did not answer ({reason}).",
+            hint="Check the network and proxy settings, or LINKTRIAGE_SLACK_API_URL.",
+        ) from exc
+    channel = settings.slack.channel
+
+    def post_digest(reply: SuspectsReply) -> None:
+        if channel is None:
+            return
+        triage.posted(reply, channel=channel, ts=post_reply(client, channel, reply))
+
+    scheduler = (
+        start_scheduler(Jobs(triage, post_digest, channel), settings.schedule) if jobs else None
+    )
+    signal.signal(signal.SIGTERM, lambda *_: sys.exit(0))  # systemd stops it: shut down cleanly
+    try:
+        if settings.slack.mode == "http":
+            secret = settings.slack_signing_secret
+            if secret is None:  # said among the problems; checked again where it counts
+                raise LinktriageError("Cannot start: SLACK_SIGNING_SECRET is not set.")
+            listen_host = host or settings.slack.http_host
+            listen_port = port or settings.slack.http_port
+            try:
+                server = http_server(
+                    app, secret=secret.get_secret_value(), port=listen_port, host=listen_host
+                )
+            except OSError as exc:
+                raise LinktriageError(
+                    f"Cannot listen on {listen_host} port {listen_port}: {exc.strerror or exc}"
+                ) from exc
+            bound_host, bound_port = server.server_address[:2]
+            say(f"linktriage: listening on {bound_host!s} port {bound_port}, /slack/events")
+            server.serve_forever()
+        else:
+            say("linktriage: connecting to Slack in Socket Mode")
+            run_socket_mode(app, settings)
+    finally:
+        if scheduler is not None:
+            scheduler.shutdown(wait=False)

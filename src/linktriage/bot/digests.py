@@ -1,0 +1,120 @@
+"""Lists of suspect links: asked for (``suspects``), swept, or the scheduled digest, which
+also says what is new and what cleared since the one before."""
+
+from __future__ import annotations
+
+import time
+from collections import Counter
+from collections.abc import Callable
+from dataclasses import dataclass, replace
+
+from linktriage.bot.answers import keep_answer
+from linktriage.bot.commands import CommandError
+from linktriage.bot.gathering import Gathering
+from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, headline
+from linktriage.network.interface import Network
+from linktriage.render.replies import SuspectItem, SuspectsReply
+from linktriage.store import Store
+from linktriage.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY
+
+
+@dataclass
+class Digests:
+    """Suspects of one network, judged by one model, kept in one store."""
+
+    network: Network
+    store: Store
+    model: Model
+    gathering: Gathering
+    clock: Callable[[], float] = time.time
+
+    def suspects(
+        self, site: str | None = None, *, channel: str | None = None, kind: str = "suspects"
+    ) -> SuspectsReply:
+        """The suspect links of a site (default: everywhere), ranked by severity."""
+        refs = self.network.ports()
+        where: str | None = None
+        if site is not None:
+            sites = self.network.sites()
+            chosen = [s for s in sites if s.lower() == site.lower()]
+            if not chosen:
+                raise CommandError(f"No site named {site!r}.", hint=f"Sites: {', '.join(sites)}.")
+            where = chosen[0]
+            refs = [r for r in refs if r.site == where]
+        polls, failed = self.gathering.gather(refs)
+        # Devices whose ports could not even be listed are not read either.
+        for device, why in self.network.unlisted().items():
+            if where is None or self.network.site_of(device) == where:
+                failed.setdefault(device, f"could not list its ports: {why}")
+        batch = diagnose(polls, self.model)
+        by_name = {(r.device, r.port): r for r in refs}
+        items: list[SuspectItem] = []
+        for row in _ranked_faults(batch):
+            ref = by_name.get((batch.device[row], batch.port[row]))
+            diagnosis_id = keep_answer(
+                self.store, batch, row, ref, at=self.clock(), origin=kind, channel=channel
+            )
+            record = batch.record(row)
+            items.append(SuspectItem(len(items) + 1, record, diagnosis_id, headline(record)))
+        place = "everywhere" if where is None else f"at {where}"
+        not_judged = Counter(v.value for v in batch.verdict if v in GUARD_VERDICTS)
+        return SuspectsReply(
+            title=f"Suspect links {place}",
+            items=items,
+            ports_judged=len(batch) - sum(not_judged.values()),
+            not_judged=dict(not_judged),
+            failed=dict(failed),
+            at=self.clock(),
+        )
+
+    def digest(self, *, channel: str | None = None) -> SuspectsReply:
+        """The scheduled digest: suspects, what is new since the last one, what cleared."""
+        previous = self.store.last_digest()
+        current = self.suspects(channel=channel, kind="digest")
+        before = {(i["device"], i["port"]) for i in previous.items} if previous else set()
+        now = {(i.record["device"], i.record["port"]) for i in current.items}
+        items = [
+            replace(
+                i, new=previous is not None and (i.record["device"], i.record["port"]) not in before
+            )
+            for i in current.items
+        ]
+        # Kept only once posted (see posted): a digest that never reached its channel is
+        # not done, and is caught up.
+        return SuspectsReply(
+            title="Digest of suspect links",
+            items=items,
+            ports_judged=current.ports_judged,
+            not_judged=current.not_judged,
+            failed=current.failed,
+            at=current.at,
+            since=previous.at if previous else None,
+            cleared=sorted(f"{d} {p}" for d, p in before - now),
+            kind="digest",
+        )
+
+
+def listed(items: list[SuspectItem]) -> list[dict[str, object]]:
+    """A list of suspects as the store keeps it: which link, what verdict, which answer."""
+    return [
+        {
+            "device": i.record["device"],
+            "port": i.record["port"],
+            "verdict": i.record["verdict"],
+            "diagnosis_id": i.diagnosis_id,
+        }
+        for i in items
+    ]
+
+
+def _ranked_faults(batch: DiagnosisBatch) -> list[int]:
+    rows = [i for i, v in enumerate(batch.verdict) if v in FAULTS]
+    return sorted(
+        rows,
+        key=lambda i: (
+            -SEVERITY[batch.verdict[i]],
+            -batch.confidence[i],
+            batch.device[i],
+            batch.port[i],
+        ),
+    )

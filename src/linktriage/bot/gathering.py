@@ -1,0 +1,108 @@
+"""Polls for a question: stored history where it is recent enough, fresh polls where it is
+not, a wait where the window is still too short; and the poll job's round over everything."""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from linktriage.network.interface import Network, PortRef
+from linktriage.polls import PollTable
+from linktriage.settings import Settings
+from linktriage.store import Store
+
+
+@dataclass(frozen=True, slots=True)
+class PollRound:
+    """What one poll of the whole network stored, and which devices did not answer."""
+
+    stored: int
+    failed: dict[str, str]  # device -> why
+
+
+@dataclass
+class Gathering:
+    """Reads one network into one store, on a clock and a sleep given from outside (tests
+    and the demo run it on a simulated clock)."""
+
+    network: Network
+    store: Store
+    settings: Settings
+    clock: Callable[[], float] = time.time
+    sleep: Callable[[float], None] = time.sleep
+
+    def poll_round(self) -> PollRound:
+        """Poll every device once and keep the answers: the poll job."""
+        gathered = self.network.poll_many(dict.fromkeys(self.network.device_names()))
+        stored = sum(self.store.add_polls(table) for table in gathered.tables.values())
+        return PollRound(stored, gathered.failed)
+
+    def gather(self, refs: list[PortRef]) -> tuple[PollTable, dict[str, str]]:
+        """Polls for these ports, never spanning less than ``quick_window_s``: stored recent
+        ones plus one fresh poll each, or, where the stored history is younger than that
+        (right after start) or absent, a second fresh poll once the first reaches back
+        ``quick_window_s``. A device whose source keeps history (Prometheus) is asked for
+        its recent window instead, and asked again after the wait when that is too short."""
+        wanted: dict[str, list[str]] = {}
+        for ref in refs:
+            wanted.setdefault(ref.device, []).append(ref.port)
+        now = self.clock()
+        quick = self.settings.chat.quick_window_s
+        since = now - self.settings.chat.recent_poll_s
+        tables: list[PollTable] = []
+        short: dict[str, dict[str, float]] = {}  # device -> port -> seconds still to wait
+        recalled = self.network.history(wanted, since)
+        failed = dict(recalled.failed)
+        for device, table in recalled.tables.items():
+            short[device] = _short_of(table, wanted[device], now, quick, absent=False)
+            if not short[device]:
+                tables.append(table)
+        fresh = {d: ps for d, ps in wanted.items() if d not in recalled.tables and d not in failed}
+        for device in fresh:
+            stored = self.store.polls_since(since, device=device)
+            stored = stored.take(np.flatnonzero(np.isin(stored.port, wanted[device])))
+            tables.append(stored)
+            short[device] = _short_of(stored, wanted[device], now, quick, absent=True)
+        failed.update(self._poll_into(tables, dict(fresh)))
+        young = {d: list(waits) for d, waits in short.items() if waits and d not in failed}
+        if young:
+            self.sleep(max(max(short[d].values()) for d in young))
+            again = self.network.history(
+                {d: ps for d, ps in young.items() if d in recalled.tables}, since
+            )
+            tables += again.tables.values()
+            failed.update(again.failed)
+            retry = {d: ps for d, ps in young.items() if d not in recalled.tables}
+            failed.update(self._poll_into(tables, dict(retry)))
+        return PollTable.concat(tables), failed
+
+    def _poll_into(
+        self, tables: list[PollTable], wanted: dict[str, list[str] | None]
+    ) -> dict[str, str]:
+        gathered = self.network.poll_many(wanted)
+        for fresh in gathered.tables.values():
+            self.store.add_polls(fresh)
+            tables.append(fresh)
+        return dict(gathered.failed)
+
+
+def _short_of(
+    table: PollTable, ports: list[str], now: float, quick: float, *, absent: bool
+) -> dict[str, float]:
+    """Ports whose history in ``table`` reaches back less than ``quick`` seconds from
+    ``now``, with how long to wait until it does; ports with none count only if
+    ``absent`` (a source that keeps history and has none for a port will not after a
+    wait either)."""
+    oldest: dict[str, float] = {}
+    for port, at in zip(table.port.tolist(), table.time.tolist(), strict=True):
+        oldest[port] = min(at, oldest.get(port, at))
+    short: dict[str, float] = {}
+    for port in ports:
+        if port in oldest and now - oldest[port] < quick:
+            short[port] = quick - (now - oldest[port])
+        elif port not in oldest and absent:
+            short[port] = quick
+    return short

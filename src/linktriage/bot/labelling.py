@@ -1,0 +1,206 @@
+"""Labels from chat: a reply in an answer's or a digest's thread, or a button, read as what
+an engineer found, checked against who may label, stored once per person, and
+acknowledged; the answer redrawn with its labels."""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import cast
+
+from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
+from linktriage.diagnosis import DiagnosisRecord
+from linktriage.model.labels import current
+from linktriage.render.replies import DiagnosisReply, LabelRefused, LabelReply
+from linktriage.settings import Settings
+from linktriage.store import Store, StoredDiagnosis, StoreError
+from linktriage.verdicts import TREE_VERDICTS, Verdict
+from linktriage.wording import (
+    LABEL_ALREADY,
+    LABEL_GONE,
+    LABEL_NOT_A_FAULT,
+    LABEL_NOT_ALLOWED,
+    LABEL_NOT_WHICH,
+    LABEL_STORE_FAILED,
+    LABEL_WHICH,
+    LABEL_WHICH_LINK,
+)
+
+#: Members of a chat user group, by group id (Slack: usergroups.users.list).
+GroupMembers = Callable[[str], set[str]]
+
+
+@dataclass
+class Labelling:
+    """Labels for the answers kept in one store, under the settings' [labels] rules."""
+
+    store: Store
+    settings: Settings
+    clock: Callable[[], float] = time.time
+    members_of: GroupMembers | None = None
+    _groups_cache: dict[str, tuple[float, set[str]]] = field(default_factory=dict)
+
+    def may_label(self, user: str, channel: str | None) -> bool:
+        """Whether this person, in this channel, may label (settings: [labels])."""
+        rules = self.settings.labels
+        if rules.channels and channel not in rules.channels:
+            return False
+        if not rules.user_groups:
+            return True
+        return any(user in self._members(group) for group in rules.user_groups)
+
+    def _members(self, group: str) -> set[str]:
+        cached = self._groups_cache.get(group)
+        if cached is not None and self.clock() - cached[0] < 300:
+            return cached[1]
+        members = self.members_of(group) if self.members_of is not None else set()
+        self._groups_cache[group] = (self.clock(), members)
+        return members
+
+    def reply(
+        self,
+        text: str,
+        *,
+        user: str,
+        channel: str,
+        thread_ts: str,
+        event_key: str,
+        source: str = "thread",
+    ) -> LabelReply | LabelRefused | None:
+        """A reply in a thread of ours, read as a label; None when there is nothing to say
+        (not our thread, not a label, or a retry of one already recorded)."""
+        diagnosis = self.store.diagnosis_for_message(channel, thread_ts)
+        names = None
+        digest = None
+        if diagnosis is None:
+            digest = self.store.digest_for_message(channel, thread_ts)
+            if digest is None:
+                return None
+            names = [(i["device"], i["port"]) for i in digest.items]
+        intent = parse_label(text, names=names)
+        if intent is None:
+            return None
+        if not self.may_label(user, channel):
+            return LabelRefused(LABEL_NOT_ALLOWED)
+        if isinstance(intent, Unclear):
+            options = " or ".join(f"`{v.value}`" for v in intent.candidates)
+            if intent.negated:
+                said = ", ".join(f"`{v.value}`" for v in intent.negated)
+                return LabelRefused(LABEL_NOT_WHICH.format(negated=said, options=options))
+            return LabelRefused(LABEL_WHICH.format(options=options))
+        if digest is not None:
+            diagnosis = self._digest_target(digest.items, intent)
+            if diagnosis is None:
+                return LabelRefused(LABEL_WHICH_LINK)
+        assert diagnosis is not None
+        return self.record(
+            diagnosis,
+            intent.verdict,
+            intent.note,
+            user=user,
+            channel=channel,
+            source=source,
+            event_key=event_key,
+        )
+
+    def _digest_target(
+        self, items: list[dict[str, object]], intent: LabelIntent
+    ) -> StoredDiagnosis | None:
+        chosen = None
+        if intent.item is not None and 1 <= intent.item <= len(items):
+            chosen = items[intent.item - 1]
+        elif intent.device is not None:
+            chosen = next(
+                (i for i in items if (i["device"], i["port"]) == (intent.device, intent.port)), None
+            )
+        if chosen is None:
+            return None
+        return self.store.diagnosis(int(str(chosen["diagnosis_id"])))
+
+    def button(
+        self,
+        diagnosis_id: int,
+        verdict: str | None,
+        *,
+        user: str,
+        channel: str | None,
+        event_key: str,
+    ) -> LabelReply | LabelRefused | None:
+        """A press of "confirm" (verdict None) or a pick of what it really was."""
+        diagnosis = self.store.diagnosis(diagnosis_id)
+        if diagnosis is None:
+            return LabelRefused(LABEL_GONE)
+        if not self.may_label(user, channel):
+            return LabelRefused(LABEL_NOT_ALLOWED)
+        chosen = None if verdict is None else Verdict(verdict)
+        return self.record(
+            diagnosis, chosen, "", user=user, channel=channel, source="button", event_key=event_key
+        )
+
+    def record(
+        self,
+        diagnosis: StoredDiagnosis,
+        verdict: Verdict | None,
+        note: str,
+        *,
+        user: str,
+        channel: str | None,
+        source: str,
+        event_key: str,
+    ) -> LabelReply | LabelRefused | None:
+        """Store a label, then say so. One label per person per answer counts: a new one
+        replaces theirs (the earlier stays for the audit), the same one again is not
+        stored twice, and a retry of a stored event says nothing."""
+        found = verdict if verdict is not None else Verdict(diagnosis.verdict)
+        if found not in TREE_VERDICTS:
+            return LabelRefused(LABEL_NOT_A_FAULT.format(verdict=found.value))
+        try:
+            if self.store.has_event(event_key):
+                return None
+            before, _ = current(self.store.labels(diagnosis.id))
+            mine = next((lb for lb in before if lb.user_id == user), None)
+            if mine is not None and mine.verdict == found.value and not note:
+                return LabelRefused(LABEL_ALREADY.format(verdict=found.value))
+            stored = self.store.add_label(
+                diagnosis,
+                found.value,
+                note=note,
+                user_id=user,
+                channel=channel,
+                source=source,
+                event_key=event_key,
+                at=self.clock(),
+            )
+        except StoreError as exc:
+            return LabelRefused(LABEL_STORE_FAILED.format(reason=exc.message))
+        if not stored:
+            return None
+        others = sorted({lb.verdict for lb in before if lb.user_id != user} - {found.value})
+        return LabelReply(
+            user,
+            diagnosis.device,
+            diagnosis.port,
+            found.value,
+            diagnosis.verdict,
+            note,
+            diagnosis_id=diagnosis.id,
+            replaced=mine.verdict if mine is not None and mine.verdict != found.value else None,
+            disputed_with=tuple(others),
+        )
+
+    def answer(self, diagnosis_id: int) -> tuple[DiagnosisReply, str, str] | None:
+        """An answer as it now stands, with each person's latest label, and the channel
+        and message that carry it: to redraw it after a label. None if never posted."""
+        stored = self.store.diagnosis(diagnosis_id)
+        if stored is None or stored.channel is None or stored.message_ts is None:
+            return None
+        latest, _ = current(self.store.labels(diagnosis_id))
+        reply = DiagnosisReply(
+            cast(DiagnosisRecord, stored.record),  # stored as answered
+            stored.id,
+            stored.site,
+            stored.serves,
+            labels=tuple((lb.user_id, lb.verdict) for lb in latest),
+        )
+        return reply, stored.channel, stored.message_ts

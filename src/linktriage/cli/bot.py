@@ -1,0 +1,98 @@
+"""``chat`` and ``serve``: the bot at a local prompt, and in Slack with its jobs."""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any
+
+import click
+
+from linktriage.cli.options import config_option, model_option
+from linktriage.errors import LinktriageError
+
+
+@click.command()
+@config_option
+@model_option
+def chat(config_path: Path | None, model_path: Path | None) -> None:
+    """Talk to the bot at a local prompt: the same commands as in the team channel."""
+    from linktriage.assembly import opened
+    from linktriage.settings import LabelSettings, load_settings
+    from linktriage.transports.console import PROMPT, Console
+
+    # The console is one local, trusted person: channel and group rules are for Slack.
+    settings = load_settings(config_path).model_copy(update={"labels": LabelSettings()})
+    interactive = sys.stdin.isatty()
+
+    def lines() -> Iterator[str]:
+        while True:
+            try:
+                yield input(PROMPT) if interactive else next(sys.stdin)
+            except (EOFError, StopIteration):
+                return
+
+    with opened(settings, model_path=model_path, simulated_time=True) as parts:
+        Console(parts.triage()).run(lines(), click.echo)
+
+
+@click.command()
+@click.option("--http", "http_mode", is_flag=True, help="Serve HTTP (default: [slack] mode).")
+@click.option("--port", type=click.IntRange(1, 65535), default=None, help="HTTP port.")
+@click.option(
+    "--host",
+    default=None,
+    help="Address to listen on in HTTP mode (default: [slack] http_host, loopback). "
+    "Put a TLS-terminating proxy in front; 0.0.0.0 listens on every interface.",
+)
+@click.option("--no-jobs", is_flag=True, help="Answer only: no poll job, no digest job.")
+@config_option
+@model_option
+def serve(
+    http_mode: bool,
+    port: int | None,
+    host: str | None,
+    no_jobs: bool,
+    config_path: Path | None,
+    model_path: Path | None,
+) -> None:
+    """Run the chat bot in Slack, with the poll and digest jobs.
+
+    Tokens come from the environment: SLACK_BOT_TOKEN always, SLACK_APP_TOKEN for Socket
+    Mode (the default), SLACK_SIGNING_SECRET for HTTP mode (endpoint /slack/events).
+    """
+    import logging
+
+    from linktriage.assembly import opened, serve_slack
+    from linktriage.settings import load_settings
+
+    logging.basicConfig(
+        level=logging.INFO, format="%(asctime)s %(levelname)s %(name)s: %(message)s"
+    )
+    settings = load_settings(config_path)
+    if http_mode:
+        settings = settings.model_copy(
+            update={"slack": settings.slack.model_copy(update={"mode": "http"})}
+        )
+    missing = [p for p in slack_problems(settings) if "channel" not in p]
+    if missing:
+        raise LinktriageError("Cannot start: " + "; ".join(missing) + ".")
+    with opened(settings, model_path=model_path) as parts:
+        serve_slack(
+            parts, host=host, port=port, jobs=not no_jobs, say=lambda s: click.echo(s, err=True)
+        )
+
+
+def slack_problems(settings: Any) -> list[str]:
+    """What `serve` would lack with these settings."""
+    problems = []
+    if settings.slack_bot_token is None:
+        problems.append("SLACK_BOT_TOKEN is not set: the bot cannot post")
+    if settings.slack.mode == "socket" and settings.slack_app_token is None:
+        problems.append("SLACK_APP_TOKEN is not set: Socket Mode needs an app-level token")
+    if settings.slack.mode == "http" and settings.slack_signing_secret is None:
+        problems.append("SLACK_SIGNING_SECRET is not set: HTTP mode cannot verify requests")
+    if settings.slack.channel is None:
+        problems.append("[slack] channel is not set: digests have nowhere to go")
+    return problems

@@ -1,0 +1,64 @@
+"""``config check``: what the settings amount to, and what is wrong with them."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import click
+
+from linktriage.cli.bot import slack_problems
+from linktriage.cli.options import config_option
+from linktriage.errors import LinktriageError
+
+
+@click.group()
+def config() -> None:
+    """Check the settings."""
+
+
+@config.command("check")
+@config_option
+def config_check(config_path: Path | None) -> None:
+    """Validate the settings and show what they amount to (secrets masked), creating
+    nothing. Each problem is its own line; what only the Slack bot needs is a warning.
+    Exit 1 when something is wrong, else 0 (a command-line-only setup needs no Slack)."""
+    from linktriage.assembly import inventory_for
+    from linktriage.settings import config_path as find_config
+    from linktriage.settings import load_settings
+    from linktriage.store import StoreError, inspect_store, masked_url
+
+    settings = load_settings(config_path)
+    source = find_config(config_path)
+    click.echo(f"settings from {source or 'built-in defaults'} and the environment")
+    for section in ("slack", "store", "chat", "schedule", "labels", "network"):
+        values = getattr(settings, section).model_dump()
+        shown = {k: masked_url(v) if isinstance(v, str) and "://" in v else v
+                 for k, v in values.items()}  # fmt: skip
+        click.echo(f"[{section}] " + ", ".join(f"{k}={v!r}" for k, v in shown.items()))
+    for name in ("slack_bot_token", "slack_app_token", "slack_signing_secret"):
+        present = getattr(settings, name) is not None
+        click.echo(f"{name.upper()}: {'set' if present else 'not set'}")
+    click.echo(f"Slack Web API: {masked_url(settings.slack_api_url)}")
+    problems: list[str] = []
+    try:
+        click.echo(f"store: {inspect_store(settings.store.resolved_url())}")
+    except StoreError as exc:
+        problems.append(exc.render().replace("\n", " "))
+    inventory = settings.network.inventory
+    if settings.network.source == "inventory" and inventory is not None:
+        if not inventory.is_file():
+            problems.append(f"the inventory file {inventory} does not exist")
+        else:
+            try:
+                found = inventory_for(inventory, config_path)
+                click.echo(f"inventory: {inventory}, {len(found.devices)} devices")
+            except LinktriageError as exc:
+                problems.append(exc.render().replace("\n", " "))
+    for warning in slack_problems(settings):
+        click.echo(f"warning: {warning} (only `serve` needs it)", err=True)
+    for problem in problems:
+        click.echo(f"problem: {problem}", err=True)
+    if problems:
+        sys.exit(1)
+    click.echo("settings are usable")

@@ -1,0 +1,171 @@
+"""``inventory check``, ``collect`` and ``sweep``: reading the devices of an inventory."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import click
+
+from linktriage.cli.options import config_option, inventory_option, model_option, read_exit
+
+
+@click.group()
+def inventory() -> None:
+    """Check the inventory of devices."""
+
+
+@inventory.command("check")
+@click.option("--reach", is_flag=True, help="Also read every device once, with its timeout.")
+@inventory_option
+@config_option
+def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path | None) -> None:
+    """Validate the inventory: collectors, options, credential references; optionally
+    whether each device answers.
+
+    Exit 1 when the inventory is set up wrongly; with --reach, 3 when some devices do not
+    answer and 4 when none does.
+    """
+    import time
+
+    from linktriage.assembly import inventory_for
+    from linktriage.network.inventory import problems
+    from linktriage.network.polling import InventoryNetwork
+
+    found = inventory_for(inventory_path, config_path)
+    bad = problems(found)
+    for device in found.devices:
+        where = device.address or "-"
+        ports = f"{len(device.ports)} ports listed" if device.ports is not None else "all ports"
+        state = bad.get(device.name, "ok")
+        click.echo(
+            f"{device.name} ({device.site}): {device.collector} at {where}, {ports}: {state}"
+        )
+    if bad:
+        click.echo(f"{len(bad)} of {len(found.devices)} devices are set up wrongly", err=True)
+        sys.exit(1)
+    if not reach:
+        click.echo(f"{len(found.devices)} devices ok")
+        return
+    unread: dict[str, str] = {}
+    network = InventoryNetwork(found)
+    try:
+        for device in found.devices:
+            start = time.monotonic()
+            gathered = network.poll_many({device.name: device.ports})
+            took = time.monotonic() - start
+            if device.name in gathered.failed:
+                unread[device.name] = gathered.failed[device.name]
+                click.echo(f"{device.name}: does not answer: {unread[device.name]}")
+            else:
+                count = len(gathered.tables[device.name])
+                click.echo(f"{device.name}: answers in {took:.2f} s with {count} ports")
+    finally:
+        network.close()
+    if unread:
+        click.echo(f"{len(unread)} of {len(found.devices)} devices cannot be read", err=True)
+    else:
+        click.echo(f"{len(found.devices)} devices ok")
+    read_exit(len(unread), len(found.devices) - len(unread))
+
+
+@click.command()
+@click.option("--device", required=True, help="A device of the inventory (a unique part will do).")
+@click.option("--ports", "port_names", multiple=True, help="Only these ports (repeat, or a,b,c).")
+@click.option(
+    "--out",
+    required=True,
+    type=click.Path(dir_okay=False, allow_dash=True, path_type=Path),
+    help="Snapshot file to write (JSON Lines); - for standard output.",
+)
+@click.option(
+    "--polls", type=click.IntRange(min=1), default=1, show_default=True, help="Polls to take."
+)
+@click.option(
+    "--every",
+    type=click.FloatRange(min=0.0),
+    default=30.0,
+    show_default=True,
+    help="Seconds between polls.",
+)
+@inventory_option
+@config_option
+def collect(
+    device: str,
+    port_names: tuple[str, ...],
+    out: Path,
+    polls: int,
+    every: float,
+    inventory_path: Path | None,
+    config_path: Path | None,
+) -> None:
+    """Read a device's counters and write them as snapshots: any collector is a recorder.
+
+    Exit 0 when every poll was read, 3 when some were not, 4 when none was.
+    """
+    import time
+
+    from linktriage.assembly import inventory_for
+    from linktriage.network.interface import device_named
+    from linktriage.network.polling import InventoryNetwork
+    from linktriage.snapshot import iter_snapshots, write_snapshots
+
+    found = inventory_for(inventory_path, config_path)
+    name = device_named(device, [d.name for d in found.devices])
+    ports = [p for chunk in port_names for p in chunk.split(",") if p] or None
+    network = InventoryNetwork(found)
+    written = 0
+    failures = 0
+    stream = sys.stdout if str(out) == "-" else open(out, "w", encoding="utf-8")  # noqa: SIM115
+    try:
+        for n in range(polls):
+            if n:
+                time.sleep(every)
+            gathered = network.poll_many({name: ports})
+            if name in gathered.failed:
+                failures += 1
+                click.echo(f"{name}: {gathered.failed[name]}", err=True)
+                continue
+            for (_, port), problem in gathered.problems.items():
+                click.echo(f"{name} {port}: {problem}", err=True)
+            written += write_snapshots(iter_snapshots(gathered.tables[name]), stream)
+    finally:
+        if stream is not sys.stdout:
+            stream.close()
+        network.close()
+    click.echo(f"wrote {written} snapshots of {name} in {polls - failures} polls", err=True)
+    read_exit(failures, polls - failures)
+
+
+@click.command()
+@click.option("--json", "as_json", is_flag=True, help="One JSON object per suspect per line.")
+@inventory_option
+@config_option
+@model_option
+def sweep(
+    as_json: bool, inventory_path: Path | None, config_path: Path | None, model_path: Path | None
+) -> None:
+    """Diagnose every port of the inventory and list the suspect links, worst first.
+
+    Every device that could not be read is named, and every port that could not be judged
+    counted: no all-clear covers what was not read. Exit 0 when every device was read, 3
+    when some were not, 4 when none was.
+    """
+    from linktriage.assembly import inventory_for, opened
+    from linktriage.network.polling import InventoryNetwork
+    from linktriage.render.jsonl import dumps
+    from linktriage.render.text import suspects_text
+    from linktriage.settings import load_settings
+
+    settings = load_settings(config_path)
+    network = InventoryNetwork(inventory_for(inventory_path, config_path))
+    with opened(settings, model_path=model_path, network=network) as parts:
+        reply = parts.triage().digests.suspects(kind="sweep")
+    if as_json:
+        for item in reply.items:
+            click.echo(dumps(item.record))
+        click.echo(reply.coverage, err=True)
+    else:
+        click.echo(suspects_text(reply))
+    read = reply.ports_judged + sum(reply.not_judged.values())
+    read_exit(len(reply.failed), read)

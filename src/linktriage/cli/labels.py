@@ -1,0 +1,72 @@
+"""``labels`` and ``labels export``: what engineers found, and which labels count."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import click
+
+from linktriage.cli.options import config_option
+
+
+@click.group(invoke_without_command=True)
+@click.option("--json", "as_json", is_flag=True, help="One JSON object per label per line.")
+@config_option
+@click.pass_context
+def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
+    """List the labels engineers gave (what they found on a port), each marked as
+    counting, replaced by its author's later one, or disputed (held out of training)."""
+    if ctx.invoked_subcommand is not None:
+        return
+    from dataclasses import asdict
+
+    from linktriage.assembly import opened_store
+    from linktriage.model.labels import settle
+    from linktriage.settings import load_settings
+
+    with opened_store(load_settings(config_path)) as store:
+        found = store.labels()
+    settled = settle(found)
+    replaced = {label.id for label in settled.replaced}
+    disputed = {label.id for group in settled.disputed.values() for label in group}
+
+    def standing(label_id: int) -> str:
+        if label_id in replaced:
+            return "replaced"
+        return "disputed" if label_id in disputed else "counts"
+
+    if as_json:
+        for label in found:
+            click.echo(json.dumps({**asdict(label), "standing": standing(label.id)}))
+        return
+    click.echo(
+        f"{len(found)} labels: {len(settled.kept)} count, {len(replaced)} replaced by their "
+        f"author's later one, {len(disputed)} on {len(settled.disputed)} disputed answers"
+    )
+    for label in found:
+        agreed = "=" if label.verdict == label.model_verdict else f"(model: {label.model_verdict})"
+        click.echo(
+            f"{label.id:>4} {label.device} {label.port}: {label.verdict} {agreed} "
+            f"by {label.user_id} via {label.source} [{standing(label.id)}]: {label.note}"
+        )
+
+
+@labels.command("export")
+@click.argument("out", type=click.Path(dir_okay=False, allow_dash=True, path_type=Path))
+@config_option
+def labels_export(out: Path, config_path: Path | None) -> None:
+    """Write the labels that count as training rows (CSV: the features, then the label);
+    replaced and disputed ones are left out."""
+    from linktriage.assembly import opened_store
+    from linktriage.model.labels import label_frame, settle
+    from linktriage.settings import load_settings
+
+    with opened_store(load_settings(config_path)) as store:
+        frame = label_frame(settle(store.labels()).kept)
+    if str(out) == "-":
+        frame.to_csv(sys.stdout, index=False)
+    else:
+        frame.to_csv(out, index=False)
+        click.echo(f"wrote {len(frame)} labelled rows to {out}", err=True)

@@ -1,0 +1,75 @@
+"""What the commands share: the common options, exit codes, and errors shown as words."""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any, TypeVar
+
+import click
+
+from linktriage.errors import LinktriageError
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+_MODEL_HELP = (
+    "Model artefact to use. Default: the one `linktriage train` wrote to the data "
+    "directory, else the packaged model."
+)
+
+
+def model_option(func: F) -> F:
+    return click.option(
+        "--model",
+        "model_path",
+        type=click.Path(dir_okay=False, path_type=Path),
+        default=None,
+        help=_MODEL_HELP,
+    )(func)
+
+
+def config_option(func: F) -> F:
+    return click.option(
+        "--config",
+        "config_path",
+        type=click.Path(dir_okay=False, path_type=Path),
+        default=None,
+        help="Settings file (TOML). Default: $LINKTRIAGE_CONFIG, else config.toml in the "
+        "data directory if present, else built-in defaults.",
+    )(func)
+
+
+def inventory_option(func: F) -> F:
+    return click.option(
+        "--inventory",
+        "inventory_path",
+        type=click.Path(dir_okay=False, path_type=Path),
+        default=None,
+        help="Inventory file (TOML). Default: [network] inventory of the settings, else the "
+        "built-in demo network read through the demo collector.",
+    )(func)
+
+
+#: Exit codes of the commands that read devices (sweep, collect, inventory check --reach):
+#: every device read, some not read (the rest were), nothing read. 1 is an error of
+#: linktriage's own (a bad file or setting), 2 a wrong command line.
+READ_ALL, READ_SOME, READ_NONE = 0, 3, 4
+
+
+def read_exit(unread: int, read: int) -> None:
+    """Exit with the code that says how much of what was asked for was read."""
+    if unread:
+        sys.exit(READ_SOME if read else READ_NONE)
+    sys.exit(READ_ALL)
+
+
+class Group(click.Group):
+    """Shows linktriage's own errors as a message and a hint, never a traceback."""
+
+    def invoke(self, ctx: click.Context) -> Any:
+        try:
+            return super().invoke(ctx)
+        except LinktriageError as exc:
+            click.echo(f"linktriage: {exc.render()}", err=True)
+            sys.exit(1)

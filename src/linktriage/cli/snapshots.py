@@ -1,0 +1,79 @@
+"""``diagnose`` and ``ask``: snapshot files and demo ports, answered in full."""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+import click
+
+from linktriage.cli.options import model_option
+from linktriage.verdicts import FAULTS
+
+
+@click.command()
+@click.option(
+    "--snapshots",
+    "path",
+    required=True,
+    type=click.Path(dir_okay=False, allow_dash=True, path_type=Path),
+    help="JSON Lines file in the snapshot format; - reads standard input.",
+)
+@click.option("--json", "as_json", is_flag=True, help="One JSON object per port per line.")
+@click.option("--suspects", is_flag=True, help="Only ports whose verdict is a fault.")
+@click.option(
+    "--window",
+    "window_s",
+    type=click.FloatRange(min=1.0),
+    default=3600.0,
+    show_default=True,
+    help="Reach back at most this many seconds from each port's latest poll.",
+)
+@model_option
+def diagnose(
+    path: Path, as_json: bool, suspects: bool, window_s: float, model_path: Path | None
+) -> None:
+    """Diagnose every port in a snapshot file.
+
+    Lines that do not parse or fail validation are reported on standard error with their
+    line numbers and skipped; the rest of the file is still diagnosed.
+    """
+    from linktriage.diagnosis import Model, diagnose
+    from linktriage.render import RENDERERS
+    from linktriage.snapshot import read_snapshot_file
+
+    model = Model.load(model_path)
+    result = read_snapshot_file(path)
+    for problem in result.problems:
+        click.echo(f"{path}:{problem.line}: skipped: {problem.message}", err=True)
+    batch = diagnose(result.polls, model, max_window_s=window_s)
+    rows: Sequence[int] = range(len(batch))
+    if suspects:
+        rows = [i for i in rows if batch.verdict[i] in FAULTS]
+    RENDERERS["json" if as_json else "text"](batch, rows, sys.stdout)
+    click.echo(
+        f"{len(result.polls)} snapshots of {len(batch)} ports diagnosed; "
+        f"{len(result.problems)} lines skipped",
+        err=True,
+    )
+
+
+@click.command()
+@click.argument("device")
+@click.argument("port")
+@click.option("--json", "as_json", is_flag=True, help="The diagnosis as one JSON object.")
+@model_option
+def ask(device: str, port: str, as_json: bool, model_path: Path | None) -> None:
+    """Diagnose one port of the demo network, with the full explanation."""
+    from linktriage.diagnosis import Model, diagnose
+    from linktriage.network.demo import DemoNetwork, demo_polls
+    from linktriage.render.jsonl import dumps
+    from linktriage.render.text import explanation
+
+    ref = DemoNetwork().find(device, port)
+    batch = diagnose(demo_polls(), Model.load(model_path))
+    row = batch.index_of(ref.device, ref.port)
+    assert row is not None  # every demo port is polled
+    record = batch.record(row)
+    click.echo(dumps(record) if as_json else explanation(record))
