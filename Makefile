@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test check lint typecheck unit bench model clean
+.PHONY: demo test check lint typecheck unit golden bench model clean
 
 $(STAMP): pyproject.toml constraints.txt
 	$(PYTHON) -m venv $(VENV)
@@ -30,6 +30,10 @@ typecheck: $(STAMP)
 
 unit: $(STAMP)
 	$(BIN)/pytest
+
+## golden: rewrite the golden Block Kit messages in fixtures/golden/ (review their diff after)
+golden: $(STAMP)
+	LINKTRIAGE_UPDATE_GOLDEN=1 $(BIN)/pytest tests/test_golden_blocks.py
 
 ## bench: throughput, model quality, sweep and SNMP walk benchmarks (prints their figures)
 bench: $(STAMP)
