@@ -30,8 +30,8 @@ from typing import Any
 import pytest
 from slack_sdk.models.blocks import Block
 
-from linktriage.chat.blocks import message_for
-from linktriage.chat.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
+from linktriage.render.blocks import message_for
+from linktriage.render.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
 from linktriage.diagnosis import DiagnosisRecord, Model, diagnose, headline
 from linktriage.render.card import model_card_data
 from linktriage.snapshot import read_snapshot_file
