@@ -30,10 +30,10 @@ from typing import Any
 import pytest
 from slack_sdk.models.blocks import Block
 
-from linktriage.render.blocks import message_for
-from linktriage.render.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
 from linktriage.diagnosis import DiagnosisRecord, Model, diagnose, headline
+from linktriage.render.blocks import message_for
 from linktriage.render.card import model_card_data
+from linktriage.render.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
 from linktriage.snapshot import read_snapshot_file
 from linktriage.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY, Verdict
 

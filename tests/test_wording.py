@@ -6,14 +6,7 @@ import math
 
 import pytest
 
-from linktriage.wording import (
-    coverage_words,
-    format_ratio,
-    format_threshold,
-    ratio_scale,
-    sig,
-    value_reader,
-)
+from linktriage.wording import format_ratio, format_threshold, ratio_scale, sig, value_reader
 
 
 @pytest.mark.parametrize(
@@ -48,18 +41,3 @@ def test_other_kinds_read_in_their_units() -> None:
     assert value_reader("times", 0.5)(math.log10(30.0)) == "30 times"
     assert value_reader("log_fps", -1.0)(math.log10(0.05)) == "0.05 frames/s"
     assert format_threshold("times", 0.0) == "1 times"
-
-
-def test_a_list_of_suspects_is_an_all_clear_only_when_everything_was_read_and_judged() -> None:
-    assert coverage_words(0, 90, {}, {}) == "No suspects among the 90 ports judged."
-    partial = coverage_words(2, 80, {"insufficient_traffic": 7, "link_down": 1}, {})
-    assert partial == (
-        "2 suspect links among 80 ports judged; 8 ports not judged (7 too quiet to judge, 1 down)."
-    )
-    unread = coverage_words(0, 40, {}, {"lark-west-idf1": "no answer within 2 s"})
-    assert unread == (
-        "No suspects among the 40 ports judged; 1 device not read (lark-west-idf1: no answer "
-        "within 2 s)."
-    )
-    nothing = coverage_words(0, 0, {}, {"a": "refused", "b": "no answer"})
-    assert nothing.startswith("Nothing was read: 2 devices could not be read (a: refused; b:")

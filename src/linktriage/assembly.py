@@ -131,6 +131,7 @@ def serve_slack(
 
     from linktriage.bot.jobs import Jobs, start_scheduler
     from linktriage.errors import LinktriageError
+    from linktriage.render import words
     from linktriage.render.replies import SuspectsReply
     from linktriage.transports.slack import (
         build_app,
@@ -147,12 +148,12 @@ def serve_slack(
     try:
         app = build_app(triage, settings, client=client)
     except BoltError as exc:  # e.g. Slack refused the token at its first check
-        raise LinktriageError(f"Cannot start: {exc}") from exc
+        raise LinktriageError(words.cannot_start(str(exc))) from exc
     except (OSError, SlackClientError) as exc:  # URLError is an OSError: no answer at all
         reason = getattr(exc, "reason", None) or exc
         raise LinktriageError(
-            f"Cannot start: Slack's Web API at {settings.slack_api_url} did not answer ({reason}).",
-            hint="Check the network and proxy settings, or LINKTRIAGE_SLACK_API_URL.",
+            words.slack_unreachable(settings.slack_api_url, reason),
+            hint=words.SLACK_UNREACHABLE_HINT,
         ) from exc
     channel = settings.slack.channel
 
@@ -169,7 +170,7 @@ def serve_slack(
         if settings.slack.mode == "http":
             secret = settings.slack_signing_secret
             if secret is None:  # said among the problems; checked again where it counts
-                raise LinktriageError("Cannot start: SLACK_SIGNING_SECRET is not set.")
+                raise LinktriageError(words.SIGNING_SECRET_UNSET)
             listen_host = host or settings.slack.http_host
             listen_port = port or settings.slack.http_port
             try:
@@ -177,14 +178,13 @@ def serve_slack(
                     app, secret=secret.get_secret_value(), port=listen_port, host=listen_host
                 )
             except OSError as exc:
-                raise LinktriageError(
-                    f"Cannot listen on {listen_host} port {listen_port}: {exc.strerror or exc}"
-                ) from exc
+                why = exc.strerror or exc
+                raise LinktriageError(words.cannot_listen(listen_host, listen_port, why)) from exc
             bound_host, bound_port = server.server_address[:2]
-            say(f"linktriage: listening on {bound_host!s} port {bound_port}, /slack/events")
+            say(words.listening(str(bound_host), bound_port))
             server.serve_forever()
         else:
-            say("linktriage: connecting to Slack in Socket Mode")
+            say(words.CONNECTING_SOCKET_MODE)
             run_socket_mode(app, settings)
     finally:
         if scheduler is not None:

@@ -1,14 +1,16 @@
-"""Words shown to people: the tree's questions, how measured values read, and report text.
+"""The engine's words, written into every diagnosis record: the tree's questions, the
+guards' questions, and how measured values read.
 
 Kept in one module so the wording can be read and reviewed as text. Verdict titles, checks
-and cautions live beside the verdict ids in :mod:`linktriage.verdicts`.
+and cautions live beside the verdict ids in :mod:`linktriage.verdicts`, each verdict's
+evidence in :mod:`linktriage.evidence`; what the bot and the command line say around a
+diagnosis is in :mod:`linktriage.render.words`.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
-from typing import Any
+from collections.abc import Callable
 
 from linktriage.counters import FRAME_OVERHEAD_OCTETS, MIN_FRAME_OCTETS, SLOT_TIME_BITS
 from linktriage.measures import MIN_COLLISIONS, MIN_EVENTS
@@ -204,14 +206,6 @@ GUARD_POLLS = "Two or more usable polls in the window?"
 GUARD_TRAFFIC = "Enough traffic to tell an error ratio of {t} from zero?"
 
 
-def ruled_out_line(ruled_out: Mapping[str, Any]) -> str:
-    """Why the tree's first choice is not the answer (a ``ruled_out`` record)."""
-    return (
-        f"The tree's first choice, {ruled_out['verdict']}, is ruled out: it needs "
-        f"{ruled_out['needs']} ({ruled_out['source']})."
-    )
-
-
 NO_FIT_NOTE = "no verdict fits every reading; this is the tree's own answer"
 
 
@@ -221,130 +215,3 @@ def traffic_said(frames: float, errors: float, window_s: float, needed: float) -
         f"no: {sig(frames, 3)} frames received and {errors_text} errors in "
         f"{sig(window_s, 3)} s; a clean window needs about {sig(needed, 2)} frames"
     )
-
-
-def ber_line(ber: Mapping[str, Any]) -> str:
-    """How the bit error ratio (a ``bit_errors`` record) compares with the PHY's objective."""
-    phy, estimate, objective = ber["phy"], ber["estimate"], ber["objective"]
-    lower, upper, exceeds = ber["lower"], ber["upper"], ber["exceeds"]
-    if estimate <= 0:
-        return (
-            f"No errored frames: bit error ratio below {upper:.0e} (95%); the {phy} objective "
-            f"is {objective:.0e}."
-        )
-    if exceeds:
-        return (
-            f"Estimated bit error ratio {estimate:.1e} (95%: at least {lower:.1e}), over the "
-            f"{phy} objective of {objective:.0e}."
-        )
-    return (
-        f"Estimated bit error ratio {estimate:.1e} (95%: {lower:.0e} to {upper:.0e}), not "
-        f"significantly over the {phy} objective of {objective:.0e}."
-    )
-
-
-# --- coverage: what a list of suspects rests on
-#: Why a port has no verdict on its health, as a list of suspects says it.
-NOT_JUDGED_WORDS = {
-    "insufficient_traffic": "too quiet to judge",
-    "no_data": "without two usable polls",
-    "link_down": "down",
-}
-
-
-def plural(n: int, one: str, many: str | None = None) -> str:
-    """ "1 port", "2 ports"."""
-    return f"{n:,} {one if n == 1 else (many or one + 's')}"
-
-
-def coverage_words(
-    suspects: int, judged: int, not_judged: Mapping[str, int], failed: Mapping[str, str]
-) -> str:
-    """What a list of suspects covers, in one paragraph. It is an all-clear only when every
-    device was read and every port judged; anything unread or unjudged is named."""
-    if judged == 0 and not any(not_judged.values()) and failed:
-        devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
-        return (
-            f"Nothing was read: {plural(len(failed), 'device')} could not be read ({devices}). "
-            "No port was judged."
-        )
-    if suspects:
-        head = f"{plural(suspects, 'suspect link')} among {plural(judged, 'port')} judged"
-    elif judged:
-        head = f"No suspects among the {plural(judged, 'port')} judged"
-    else:
-        head = "No port could be judged"
-    parts = [head]
-    unjudged = sum(not_judged.values())
-    if unjudged:
-        why = ", ".join(
-            f"{n:,} {NOT_JUDGED_WORDS.get(verdict, verdict)}"
-            for verdict, n in sorted(not_judged.items(), key=lambda kv: -kv[1])
-            if n
-        )
-        parts.append(f"{plural(unjudged, 'port')} not judged ({why})")
-    if failed:
-        devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
-        parts.append(f"{plural(len(failed), 'device')} not read ({devices})")
-    return "; ".join(parts) + "."
-
-
-# --- chat
-def help_lines(command: str) -> list[str]:
-    """What the bot's help says, one line each."""
-    return [
-        f"`{command} DEVICE PORT`: diagnose one port now (a unique part of the device name "
-        "will do).",
-        f"`{command} suspects [SITE]`: the suspect links, worst first.",
-        f"`{command} model`: the model's card.",
-        "Reply in the thread of an answer with what you found, e.g. "
-        "`cable_fault, crushed patch cord behind the desk`, or `confirmed`; in a digest's "
-        "thread start with the link's number: `3: duplex forced on the printer`.",
-    ]
-
-
-LABEL_PROMPT = "Found it? Reply in this thread with what it was, or use the buttons."
-DIGEST_PROMPT = (
-    "Reply in this thread with a link's number and what you found: `3: cable_fault, crushed cord`."
-)
-LABEL_NOT_ALLOWED = "Labels from this channel or person are not taken here."
-LABEL_WHICH = "Which was it: {options}? Reply with one of them."
-LABEL_NOT_WHICH = (
-    "Not {negated}, then: nothing was recorded. Which was it: {options}? Reply with one of them."
-)
-LABEL_WHICH_LINK = (
-    "Say which link first: its number in the list (`3: cable_fault ...`) or its name "
-    "(`DEVICE PORT cable_fault ...`)."
-)
-LABEL_NOT_A_FAULT = (
-    "The answer was `{verdict}`, which is not a fault or `healthy`; say what you found, "
-    "e.g. `cable_fault, crushed patch cord`."
-)
-LABEL_STORE_FAILED = "Could not record that label ({reason}). Please try again."
-LABEL_GONE = "That answer is no longer in the store."
-LABEL_ALREADY = "You already said {verdict} on this answer; it is recorded once."
-
-
-def label_recorded(
-    who: str,
-    verdict: str,
-    model_verdict: str,
-    where: str,
-    note: str,
-    *,
-    replaced: str | None = None,
-    disputed_with: tuple[str, ...] = (),
-) -> str:
-    """The thread's acknowledgement of a stored label (``who`` as the transport names people):
-    what it replaced, and whether others' labels on the answer disagree."""
-    agreed = "confirms" if verdict == model_verdict else f"corrects {model_verdict} to"
-    note_text = f": {note}" if note else ""
-    instead = f" (instead of their earlier {replaced})" if replaced else ""
-    if disputed_with:
-        learning = (
-            f"Others said {', '.join(disputed_with)}: this answer is left out of training "
-            "until the labels agree."
-        )
-    else:
-        learning = "The next training run learns from it."
-    return f"Recorded: {who} {agreed} {verdict} on {where}{note_text}{instead}. {learning}"

@@ -12,6 +12,7 @@ import re
 from dataclasses import dataclass
 
 from linktriage.errors import InputError
+from linktriage.render import words
 
 COMMAND = "/triage"
 # What switches call themselves and their ports; a device name cannot hold a URL's ":" or
@@ -48,30 +49,28 @@ class CommandError(InputError):
     """The text is not a command the bot knows; the hint shows how to ask."""
 
 
-USAGE = f"Try `{COMMAND} DEVICE PORT`, `{COMMAND} suspects [SITE]`, or `{COMMAND} help`."
+USAGE = words.usage(COMMAND)
 
 
 def parse(text: str) -> Command:
     """What a person asked for; malformed text raises :class:`CommandError`."""
-    words = text.strip().split()
-    if words and words[0].lower() in (COMMAND, COMMAND.lstrip("/")):
-        words = words[1:]  # the console accepts the command name typed out
-    if not words or words[0].lower() in ("help", "?", "-h", "--help"):
+    tokens = text.strip().split()
+    if tokens and tokens[0].lower() in (COMMAND, COMMAND.lstrip("/")):
+        tokens = tokens[1:]  # the console accepts the command name typed out
+    if not tokens or tokens[0].lower() in ("help", "?", "-h", "--help"):
         return ShowHelp()
-    head = words[0].lower()
+    head = tokens[0].lower()
     if head == "suspects":
-        if len(words) > 2:
-            raise CommandError("`suspects` takes at most one site.", hint=USAGE)
-        return ListSuspects(words[1] if len(words) == 2 else None)
+        if len(tokens) > 2:
+            raise CommandError(words.SUSPECTS_TAKES_ONE_SITE, hint=USAGE)
+        return ListSuspects(tokens[1] if len(tokens) == 2 else None)
     if head == "model":
-        if len(words) > 1:
-            raise CommandError("`model` takes nothing after it.", hint=USAGE)
+        if len(tokens) > 1:
+            raise CommandError(words.MODEL_TAKES_NOTHING, hint=USAGE)
         return ShowModel()
-    if len(words) != 2:
-        raise CommandError(
-            "Name one device and one port, e.g. `lark-east-idf2 port14`.", hint=USAGE
-        )
-    for word, pattern in zip(words, (_DEVICE, _PORT), strict=True):
+    if len(tokens) != 2:
+        raise CommandError(words.NAME_DEVICE_AND_PORT, hint=USAGE)
+    for word, pattern in zip(tokens, (_DEVICE, _PORT), strict=True):
         if not pattern.fullmatch(word):
-            raise CommandError(f"{word[:40]!r} is not a device or port name.", hint=USAGE)
-    return DiagnosePort(words[0], words[1])
+            raise CommandError(words.not_a_name(word), hint=USAGE)
+    return DiagnosePort(tokens[0], tokens[1])

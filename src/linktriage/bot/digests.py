@@ -13,6 +13,7 @@ from linktriage.bot.commands import CommandError
 from linktriage.bot.gathering import Gathering
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, headline
 from linktriage.network.interface import Network
+from linktriage.render import words
 from linktriage.render.replies import SuspectItem, SuspectsReply
 from linktriage.store import Store
 from linktriage.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY
@@ -38,14 +39,14 @@ class Digests:
             sites = self.network.sites()
             chosen = [s for s in sites if s.lower() == site.lower()]
             if not chosen:
-                raise CommandError(f"No site named {site!r}.", hint=f"Sites: {', '.join(sites)}.")
+                raise CommandError(words.no_such_site(site), hint=words.known_sites(sites))
             where = chosen[0]
             refs = [r for r in refs if r.site == where]
         polls, failed = self.gathering.gather(refs)
         # Devices whose ports could not even be listed are not read either.
         for device, why in self.network.unlisted().items():
             if where is None or self.network.site_of(device) == where:
-                failed.setdefault(device, f"could not list its ports: {why}")
+                failed.setdefault(device, words.ports_not_listed(why))
         batch = diagnose(polls, self.model)
         by_name = {(r.device, r.port): r for r in refs}
         items: list[SuspectItem] = []
@@ -56,10 +57,9 @@ class Digests:
             )
             record = batch.record(row)
             items.append(SuspectItem(len(items) + 1, record, diagnosis_id, headline(record)))
-        place = "everywhere" if where is None else f"at {where}"
         not_judged = Counter(v.value for v in batch.verdict if v in GUARD_VERDICTS)
         return SuspectsReply(
-            title=f"Suspect links {place}",
+            title=words.suspects_title(where),
             items=items,
             ports_judged=len(batch) - sum(not_judged.values()),
             not_judged=dict(not_judged),
@@ -82,7 +82,7 @@ class Digests:
         # Kept only once posted (see posted): a digest that never reached its channel is
         # not done, and is caught up.
         return SuspectsReply(
-            title="Digest of suspect links",
+            title=words.DIGEST_TITLE,
             items=items,
             ports_judged=current.ports_judged,
             not_judged=current.not_judged,

@@ -13,10 +13,7 @@ from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
 from linktriage.diagnosis import DiagnosisRecord
 from linktriage.model.labels import current
 from linktriage.render.replies import DiagnosisReply, LabelRefused, LabelReply
-from linktriage.settings import Settings
-from linktriage.store import Store, StoredDiagnosis, StoreError
-from linktriage.verdicts import TREE_VERDICTS, Verdict
-from linktriage.wording import (
+from linktriage.render.words import (
     LABEL_ALREADY,
     LABEL_GONE,
     LABEL_NOT_A_FAULT,
@@ -25,7 +22,12 @@ from linktriage.wording import (
     LABEL_STORE_FAILED,
     LABEL_WHICH,
     LABEL_WHICH_LINK,
+    label_options,
+    negated_verdicts,
 )
+from linktriage.settings import Settings
+from linktriage.store import Store, StoredDiagnosis, StoreError
+from linktriage.verdicts import TREE_VERDICTS, Verdict
 
 #: Members of a chat user group, by group id (Slack: usergroups.users.list).
 GroupMembers = Callable[[str], set[str]]
@@ -84,9 +86,9 @@ class Labelling:
         if not self.may_label(user, channel):
             return LabelRefused(LABEL_NOT_ALLOWED)
         if isinstance(intent, Unclear):
-            options = " or ".join(f"`{v.value}`" for v in intent.candidates)
+            options = label_options([v.value for v in intent.candidates])
             if intent.negated:
-                said = ", ".join(f"`{v.value}`" for v in intent.negated)
+                said = negated_verdicts([v.value for v in intent.negated])
                 return LabelRefused(LABEL_NOT_WHICH.format(negated=said, options=options))
             return LabelRefused(LABEL_WHICH.format(options=options))
         if digest is not None:

@@ -31,6 +31,7 @@ from linktriage.bot.labelling import GroupMembers, Labelling
 from linktriage.diagnosis import Model, diagnose
 from linktriage.errors import LinktriageError, PollError
 from linktriage.network.interface import Network
+from linktriage.render import words
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import (
     DiagnosisReply,
@@ -123,7 +124,7 @@ class Triage:
         batch = diagnose(polls, self.model)
         row = batch.index_of(ref.device, ref.port)
         if row is None:
-            raise PollError(ref.device, f"answered without port {ref.port}")
+            raise PollError(ref.device, words.answered_without(ref.port))
         diagnosis_id = keep_answer(
             self.store,
             batch,
@@ -143,7 +144,7 @@ class Triage:
         has grown by every poll since, which is what a quiet port needs."""
         stored = self.store.diagnosis(diagnosis_id)
         if stored is None:
-            return ErrorReply("That answer is no longer in the store.", "Ask with /triage again.")
+            return ErrorReply(words.LABEL_GONE, words.ANSWER_GONE_HINT)
         reply: Reply
         try:
             reply = self.diagnose_port(stored.device, stored.port, user=user, channel=channel)

@@ -5,12 +5,16 @@ from __future__ import annotations
 import sys
 from collections.abc import Iterator
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING
 
 import click
 
 from linktriage.cli.options import config_option, model_option
 from linktriage.errors import LinktriageError
+from linktriage.render import words
+
+if TYPE_CHECKING:
+    from linktriage.settings import Settings
 
 
 @click.command()
@@ -75,24 +79,25 @@ def serve(
         settings = settings.model_copy(
             update={"slack": settings.slack.model_copy(update={"mode": "http"})}
         )
-    missing = [p for p in slack_problems(settings) if "channel" not in p]
+    missing = slack_problems(settings, channel=False)
     if missing:
-        raise LinktriageError("Cannot start: " + "; ".join(missing) + ".")
+        raise LinktriageError(words.cannot_start_missing(missing))
     with opened(settings, model_path=model_path) as parts:
         serve_slack(
             parts, host=host, port=port, jobs=not no_jobs, say=lambda s: click.echo(s, err=True)
         )
 
 
-def slack_problems(settings: Any) -> list[str]:
-    """What `serve` would lack with these settings."""
+def slack_problems(settings: Settings, *, channel: bool = True) -> list[str]:
+    """What `serve` would lack with these settings: tokens it cannot start without, and
+    (with ``channel``) a channel for the digests, which it can."""
     problems = []
     if settings.slack_bot_token is None:
-        problems.append("SLACK_BOT_TOKEN is not set: the bot cannot post")
+        problems.append(words.BOT_TOKEN_UNSET)
     if settings.slack.mode == "socket" and settings.slack_app_token is None:
-        problems.append("SLACK_APP_TOKEN is not set: Socket Mode needs an app-level token")
+        problems.append(words.APP_TOKEN_UNSET)
     if settings.slack.mode == "http" and settings.slack_signing_secret is None:
-        problems.append("SLACK_SIGNING_SECRET is not set: HTTP mode cannot verify requests")
-    if settings.slack.channel is None:
-        problems.append("[slack] channel is not set: digests have nowhere to go")
+        problems.append(words.SIGNING_SECRET_MISSING)
+    if channel and settings.slack.channel is None:
+        problems.append(words.CHANNEL_UNSET)
     return problems

@@ -10,6 +10,7 @@ import click
 from linktriage.cli.bot import slack_problems
 from linktriage.cli.options import config_option
 from linktriage.errors import LinktriageError
+from linktriage.render import words
 
 
 @click.group()
@@ -30,35 +31,34 @@ def config_check(config_path: Path | None) -> None:
 
     settings = load_settings(config_path)
     source = find_config(config_path)
-    click.echo(f"settings from {source or 'built-in defaults'} and the environment")
+    click.echo(words.settings_from(source))
     for section in ("slack", "store", "chat", "schedule", "labels", "network"):
         values = getattr(settings, section).model_dump()
         shown = {k: masked_url(v) if isinstance(v, str) and "://" in v else v
                  for k, v in values.items()}  # fmt: skip
-        click.echo(f"[{section}] " + ", ".join(f"{k}={v!r}" for k, v in shown.items()))
+        click.echo(words.settings_section(section, shown))
     for name in ("slack_bot_token", "slack_app_token", "slack_signing_secret"):
-        present = getattr(settings, name) is not None
-        click.echo(f"{name.upper()}: {'set' if present else 'not set'}")
-    click.echo(f"Slack Web API: {masked_url(settings.slack_api_url)}")
+        click.echo(words.secret_presence(name, getattr(settings, name) is not None))
+    click.echo(words.slack_api(masked_url(settings.slack_api_url)))
     problems: list[str] = []
     try:
-        click.echo(f"store: {inspect_store(settings.store.resolved_url())}")
+        click.echo(words.store_state(inspect_store(settings.store.resolved_url())))
     except StoreError as exc:
         problems.append(exc.render().replace("\n", " "))
     inventory = settings.network.inventory
     if settings.network.source == "inventory" and inventory is not None:
         if not inventory.is_file():
-            problems.append(f"the inventory file {inventory} does not exist")
+            problems.append(words.inventory_missing(inventory))
         else:
             try:
                 found = inventory_for(inventory, config_path)
-                click.echo(f"inventory: {inventory}, {len(found.devices)} devices")
+                click.echo(words.inventory_state(inventory, len(found.devices)))
             except LinktriageError as exc:
                 problems.append(exc.render().replace("\n", " "))
     for warning in slack_problems(settings):
-        click.echo(f"warning: {warning} (only `serve` needs it)", err=True)
+        click.echo(words.settings_warning(warning), err=True)
     for problem in problems:
-        click.echo(f"problem: {problem}", err=True)
+        click.echo(words.settings_problem(problem), err=True)
     if problems:
         sys.exit(1)
-    click.echo("settings are usable")
+    click.echo(words.SETTINGS_USABLE)

@@ -8,6 +8,7 @@ from typing import Any
 import click
 
 from linktriage.cli.options import model_option
+from linktriage.render import words
 from linktriage.verdicts import Verdict
 
 _DEMO_STORIES = {
@@ -32,26 +33,17 @@ def demo(model_path: Path | None) -> None:
     records = list(batch.records())
     suspects = [r for r in records if Verdict(r["verdict"]) is not Verdict.HEALTHY]
     devices = {p.device for p in ports}
-    click.echo(
-        f"{ORGANISATION} (an invented organisation; simulated counters)\n"
-        f"{len(ports)} ports on {len(devices)} switches, two polls five minutes apart, "
-        f"model {loaded.version}\n"
-    )
-    click.echo(
-        f"{len(records) - len(suspects)} ports healthy; the other {len(suspects)} need a look:"
-    )
+    click.echo(words.demo_intro(ORGANISATION, len(ports), len(devices), loaded.version))
+    click.echo(words.demo_needs_a_look(len(records) - len(suspects), len(suspects)))
     click.echo("\n".join(table_rows(suspects)))
     for planted in (p for p in PLANTED if p.planted in _DEMO_STORIES):
         row = batch.index_of(planted.device, planted.port)
         assert row is not None
-        click.echo(f"\n{'=' * 88}\n$ linktriage ask {planted.device} {planted.port}")
-        click.echo(f"({planted.serves})\n")
+        click.echo(words.demo_asks(planted.device, planted.port))
+        click.echo(words.demo_serves(planted.serves))
         click.echo(explanation(batch.record(row)))
     _demo_digest_and_label(loaded)
-    click.echo(
-        f"\n{'=' * 88}\nAsk about any other port: linktriage ask DEVICE PORT "
-        "(e.g. linktriage ask lark-core1 up3), or talk to the bot: linktriage chat."
-    )
+    click.echo(words.DEMO_NEXT)
 
 
 def _demo_digest_and_label(model: Any) -> None:
@@ -75,22 +67,16 @@ def _demo_digest_and_label(model: Any) -> None:
         clock.sleep(300.0)
         digest = triage.digests.digest(channel="demo")
         triage.posted(digest, channel="demo", ts="digest-1")
-        click.echo(
-            f"\n{'=' * 88}\nThe digest, as posted to the team channel on weekday mornings:\n"
-        )
+        click.echo(words.DEMO_DIGEST)
         click.echo(render(digest))
         first = digest.items[0].record
-        reply = f"1: swapped fibres at the patch panel, {first['port']} was one-way"
-        click.echo(f"\nAn engineer replies in the digest's thread:\n  > {reply}")
+        reply = words.demo_reply(first["port"])
+        click.echo(words.demo_engineer_replies(reply))
         label = triage.labels.reply(
             reply, user="demo-engineer", channel="demo", thread_ts="digest-1", event_key="demo-1"
         )
         if label is not None:
             click.echo(f"  {render(label)}")
         (stored,) = store.labels()
-        click.echo(
-            f"Stored in SQLite: label {stored.id}, {stored.device} {stored.port} = "
-            f"{stored.verdict}, with the feature row the verdict was based on and model "
-            f"{stored.model_version}; `linktriage train --with-labels` learns from it."
-        )
+        click.echo(words.demo_stored(stored))
         store.close()

@@ -8,6 +8,7 @@ from pathlib import Path
 import click
 
 from linktriage.cli.options import config_option, inventory_option, model_option, read_exit
+from linktriage.render import words
 
 
 @click.group()
@@ -35,17 +36,18 @@ def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path 
     found = inventory_for(inventory_path, config_path)
     bad = problems(found)
     for device in found.devices:
-        where = device.address or "-"
-        ports = f"{len(device.ports)} ports listed" if device.ports is not None else "all ports"
+        ports = len(device.ports) if device.ports is not None else None
         state = bad.get(device.name, "ok")
         click.echo(
-            f"{device.name} ({device.site}): {device.collector} at {where}, {ports}: {state}"
+            words.device_setup(
+                device.name, device.site, device.collector, device.address, ports, state
+            )
         )
     if bad:
-        click.echo(f"{len(bad)} of {len(found.devices)} devices are set up wrongly", err=True)
+        click.echo(words.set_up_wrongly(len(bad), len(found.devices)), err=True)
         sys.exit(1)
     if not reach:
-        click.echo(f"{len(found.devices)} devices ok")
+        click.echo(words.devices_ok(len(found.devices)))
         return
     unread: dict[str, str] = {}
     network = InventoryNetwork(found)
@@ -56,16 +58,16 @@ def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path 
             took = time.monotonic() - start
             if device.name in gathered.failed:
                 unread[device.name] = gathered.failed[device.name]
-                click.echo(f"{device.name}: does not answer: {unread[device.name]}")
+                click.echo(words.does_not_answer(device.name, unread[device.name]))
             else:
                 count = len(gathered.tables[device.name])
-                click.echo(f"{device.name}: answers in {took:.2f} s with {count} ports")
+                click.echo(words.answers_in(device.name, took, count))
     finally:
         network.close()
     if unread:
-        click.echo(f"{len(unread)} of {len(found.devices)} devices cannot be read", err=True)
+        click.echo(words.cannot_be_read(len(unread), len(found.devices)), err=True)
     else:
-        click.echo(f"{len(found.devices)} devices ok")
+        click.echo(words.devices_ok(len(found.devices)))
     read_exit(len(unread), len(found.devices) - len(unread))
 
 
@@ -124,16 +126,16 @@ def collect(
             gathered = network.poll_many({name: ports})
             if name in gathered.failed:
                 failures += 1
-                click.echo(f"{name}: {gathered.failed[name]}", err=True)
+                click.echo(words.device_said(name, gathered.failed[name]), err=True)
                 continue
             for (_, port), problem in gathered.problems.items():
-                click.echo(f"{name} {port}: {problem}", err=True)
+                click.echo(words.port_said(name, port, problem), err=True)
             written += write_snapshots(iter_snapshots(gathered.tables[name]), stream)
     finally:
         if stream is not sys.stdout:
             stream.close()
         network.close()
-    click.echo(f"wrote {written} snapshots of {name} in {polls - failures} polls", err=True)
+    click.echo(words.wrote_snapshots(written, name, polls - failures), err=True)
     read_exit(failures, polls - failures)
 
 

@@ -9,6 +9,7 @@ from pathlib import Path
 import click
 
 from linktriage.cli.options import config_option
+from linktriage.render import words
 
 
 @click.group(invoke_without_command=True)
@@ -41,16 +42,12 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
         for label in found:
             click.echo(json.dumps({**asdict(label), "standing": standing(label.id)}))
         return
-    click.echo(
-        f"{len(found)} labels: {len(settled.kept)} count, {len(replaced)} replaced by their "
-        f"author's later one, {len(disputed)} on {len(settled.disputed)} disputed answers"
+    summary = words.labels_summary(
+        len(found), len(settled.kept), len(replaced), len(disputed), len(settled.disputed)
     )
+    click.echo(summary)
     for label in found:
-        agreed = "=" if label.verdict == label.model_verdict else f"(model: {label.model_verdict})"
-        click.echo(
-            f"{label.id:>4} {label.device} {label.port}: {label.verdict} {agreed} "
-            f"by {label.user_id} via {label.source} [{standing(label.id)}]: {label.note}"
-        )
+        click.echo(words.label_line(label, standing(label.id)))
 
 
 @labels.command("export")
@@ -69,4 +66,4 @@ def labels_export(out: Path, config_path: Path | None) -> None:
         frame.to_csv(sys.stdout, index=False)
     else:
         frame.to_csv(out, index=False)
-        click.echo(f"wrote {len(frame)} labelled rows to {out}", err=True)
+        click.echo(words.wrote_rows(len(frame), out), err=True)

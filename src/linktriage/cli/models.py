@@ -8,6 +8,7 @@ from pathlib import Path
 import click
 
 from linktriage.cli.options import config_option, model_option
+from linktriage.render import words
 
 
 @click.command()
@@ -57,11 +58,7 @@ def train(
         cfg = replace(cfg, seed=seed)
     if ports is not None:
         cfg = replace(cfg, simulated_ports=ports)
-    click.echo(
-        f"simulating {cfg.simulated_ports:,} ports (seed {cfg.seed}) and choosing the pruning "
-        f"level by {cfg.folds}-fold cross-validation...",
-        err=True,
-    )
+    click.echo(words.training_starts(cfg.simulated_ports, cfg.seed, cfg.folds), err=True)
     evaluation = None
     promote = True
     if with_labels:
@@ -74,20 +71,17 @@ def train(
         current = Model.load()
         outcome = learn(labels, current.artefact, cfg)
         artefact, evaluation, promote = outcome.candidate, outcome.evaluation(), outcome.promoted
-        click.echo(
-            f"learnt from {outcome.trained_on} labels"
-            + (f" ({outcome.older} older ones left out)" if outcome.older else "")
-            + (
-                f" ({outcome.disputed} answers held out: their labels disagree)"
-                if outcome.disputed
-                else ""
-            )
-            + f"; on {outcome.held_out} held out the "
-            f"candidate scores {outcome.candidate_score:.2f}, the current model "
-            f"{current.version} {outcome.current_score:.2f}: "
-            + ("promoted" if promote else "kept, not promoted"),
-            err=True,
+        said = words.learnt(
+            outcome.trained_on,
+            outcome.older,
+            outcome.disputed,
+            outcome.held_out,
+            outcome.candidate_score,
+            current.version,
+            outcome.current_score,
+            promote,
         )
+        click.echo(said, err=True)
     else:
         artefact = run_training(cfg)
     trained_at = time.time()
@@ -104,7 +98,7 @@ def train(
             evaluation=evaluation,
         )
         registry.keep(artefact, entry, promote=promote)
-        source = "the current kept model" if promote else "kept, not current"
+        source = words.kept_model_source(promote)
     click.echo(card_text(model_card_data(artefact, source=source, trained_at=trained_at)))
 
 
@@ -135,5 +129,5 @@ def model(as_json: bool, use_version: str | None, model_path: Path | None) -> No
         return
     click.echo(card_text(card))
     for entry in card["kept_versions"]:
-        mark = "*" if entry["version"] == loaded.version else " "
-        click.echo(f"  {mark} kept {entry['version']}: {entry['labelled_rows']} labels")
+        current = entry["version"] == loaded.version
+        click.echo(words.kept_version(entry["version"], entry["labelled_rows"], current=current))

@@ -10,6 +10,7 @@ from typing import Any, TypeVar
 import click
 
 from linktriage.errors import LinktriageError
+from linktriage.render import words
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -71,5 +72,5 @@ class Group(click.Group):
         try:
             return super().invoke(ctx)
         except LinktriageError as exc:
-            click.echo(f"linktriage: {exc.render()}", err=True)
+            click.echo(words.cli_error(exc.render()), err=True)
             sys.exit(1)

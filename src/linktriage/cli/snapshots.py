@@ -9,6 +9,7 @@ from pathlib import Path
 import click
 
 from linktriage.cli.options import model_option
+from linktriage.render import words
 from linktriage.verdicts import FAULTS
 
 
@@ -40,23 +41,19 @@ def diagnose(
     line numbers and skipped; the rest of the file is still diagnosed.
     """
     from linktriage.diagnosis import Model, diagnose
-    from linktriage.render import RENDERERS
+    from linktriage.render.formats import RENDERERS
     from linktriage.snapshot import read_snapshot_file
 
     model = Model.load(model_path)
     result = read_snapshot_file(path)
     for problem in result.problems:
-        click.echo(f"{path}:{problem.line}: skipped: {problem.message}", err=True)
+        click.echo(words.line_skipped(path, problem.line, problem.message), err=True)
     batch = diagnose(result.polls, model, max_window_s=window_s)
     rows: Sequence[int] = range(len(batch))
     if suspects:
         rows = [i for i in rows if batch.verdict[i] in FAULTS]
     RENDERERS["json" if as_json else "text"](batch, rows, sys.stdout)
-    click.echo(
-        f"{len(result.polls)} snapshots of {len(batch)} ports diagnosed; "
-        f"{len(result.problems)} lines skipped",
-        err=True,
-    )
+    click.echo(words.diagnosed(len(result.polls), len(batch), len(result.problems)), err=True)
 
 
 @click.command()

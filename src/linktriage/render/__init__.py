@@ -1,17 +1,1 @@
-"""Renderers: a diagnosis batch as terminal text or JSON Lines; one module per format."""
-
-from __future__ import annotations
-
-from collections.abc import Callable, Sequence
-from typing import IO
-
-from linktriage.diagnosis import DiagnosisBatch
-from linktriage.render import jsonl, text
-
-Renderer = Callable[[DiagnosisBatch, Sequence[int], IO[str]], None]
-
-#: Output formats of ``linktriage diagnose``, by name.
-RENDERERS: dict[str, Renderer] = {
-    "text": text.write_table,
-    "json": jsonl.write_lines,
-}
+"""Drawers: everything the bot and the command line show, and the words they say."""

@@ -27,16 +27,16 @@ from linktriage.render.replies import (
     SuspectItem,
     SuspectsReply,
 )
-from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict
-from linktriage.wording import (
+from linktriage.render.words import (
     DIGEST_PROMPT,
     LABEL_PROMPT,
     ber_line,
     help_lines,
     label_recorded,
     ruled_out_line,
-    sig,
 )
+from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict
+from linktriage.wording import sig
 
 MAX_BLOCKS = 50
 MAX_SECTION = 3000

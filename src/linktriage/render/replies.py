@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 from typing import Any, Literal
 
 from linktriage.diagnosis import DiagnosisRecord
-from linktriage.wording import coverage_words
+from linktriage.render.words import coverage_words
 
 Visibility = Literal["channel", "ephemeral"]
 

@@ -19,7 +19,8 @@ from linktriage.render.replies import (
     Reply,
     SuspectsReply,
 )
-from linktriage.wording import ber_line, help_lines, label_recorded, printable, ruled_out_line, sig
+from linktriage.render.words import ber_line, help_lines, label_recorded, ruled_out_line
+from linktriage.wording import printable, sig
 
 WIDTH = 88
 _HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "EVIDENCE")

@@ -11,16 +11,13 @@ import uuid
 from collections.abc import Callable, Iterable
 
 from linktriage.bot.triage import Triage
+from linktriage.render import words
 from linktriage.render.replies import Reply
 from linktriage.render.text import render
-from linktriage.wording import LABEL_PROMPT
 
 CHANNEL = "console"
 PROMPT = "triage> "
-GREETING = (
-    "linktriage console: type a command (`help` lists them), `reply TEXT` to answer in "
-    "the thread of the last answer, `quit` to leave."
-)
+GREETING = words.CONSOLE_GREETING
 
 
 class Console:
@@ -43,7 +40,7 @@ class Console:
         shown = render(reply)
         posted = self._post(reply)
         if posted:
-            shown += f"\n({LABEL_PROMPT.replace('use the buttons', 'type reply TEXT')})"
+            shown += "\n" + words.CONSOLE_LABEL_PROMPT
         return shown
 
     def _post(self, reply: Reply) -> bool:
@@ -57,7 +54,7 @@ class Console:
 
     def _reply(self, text: str) -> str:
         if self.thread is None:
-            return "Nothing to reply to yet: ask about a port first."
+            return words.CONSOLE_NOTHING_TO_REPLY
         label = self.triage.labels.reply(
             text,
             user=self.user,
@@ -67,7 +64,7 @@ class Console:
             source="console",
         )
         if label is None:
-            return "(not read as a label: name what you found, e.g. `cable_fault, crushed cord`)"
+            return words.CONSOLE_NOT_A_LABEL
         return render(label)
 
     def run(self, lines: Iterable[str], write: Callable[[str], None]) -> None:

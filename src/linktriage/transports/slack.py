@@ -25,6 +25,7 @@ from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
 from linktriage.bot.commands import COMMAND, DiagnosePort, ListSuspects, parse
 from linktriage.bot.triage import Triage
 from linktriage.errors import LinktriageError
+from linktriage.render import words
 from linktriage.render.blocks import (
     CONFIRM_ACTION,
     CORRECT_ACTION,
@@ -37,7 +38,7 @@ from linktriage.settings import Settings
 from linktriage.verdicts import TREE_VERDICTS
 
 log = logging.getLogger("linktriage.slack")
-WORKING = "On it: polling now. The answer will be posted in this channel."
+WORKING = words.WORKING
 
 
 def post_reply(client: WebClient, channel: str, reply: Reply) -> str:
@@ -140,8 +141,7 @@ def build_app(
             log.warning("could not post to %s: %s", channel, error)
             respond(
                 response_type="ephemeral",
-                text=f"I could not post to this channel ({error}); invite me with "
-                "`/invite @linktriage`. Here is the answer meanwhile.",
+                text=words.cannot_post(str(error)),
                 blocks=message["blocks"],
             )
             return
@@ -266,8 +266,6 @@ def run_socket_mode(app: App, settings: Settings) -> None:
     from slack_bolt.adapter.socket_mode import SocketModeHandler
 
     if settings.slack_app_token is None:
-        raise LinktriageError(
-            "Socket Mode needs SLACK_APP_TOKEN (an app-level token, scope connections:write)."
-        )
+        raise LinktriageError(words.SOCKET_MODE_NEEDS_TOKEN)
     handler = SocketModeHandler(app, settings.slack_app_token.get_secret_value())
     handler.start()  # type: ignore[no-untyped-call]  # bolt leaves it unannotated

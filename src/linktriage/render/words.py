@@ -1,0 +1,450 @@
+"""Every word the bot and the command line say around a diagnosis, one function or
+constant per idea, so the wording can be read and reviewed as text.
+
+The words inside a diagnosis record (questions, evidence, checks) are the engine's, in
+:mod:`linktriage.wording`, :mod:`linktriage.evidence` and :mod:`linktriage.verdicts`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from linktriage.model.labels import Label
+
+
+# --- a diagnosis, as drawn
+def ruled_out_line(ruled_out: Mapping[str, Any]) -> str:
+    """Why the tree's first choice is not the answer (a ``ruled_out`` record)."""
+    return (
+        f"The tree's first choice, {ruled_out['verdict']}, is ruled out: it needs "
+        f"{ruled_out['needs']} ({ruled_out['source']})."
+    )
+
+
+def ber_line(ber: Mapping[str, Any]) -> str:
+    """How the bit error ratio (a ``bit_errors`` record) compares with the PHY's objective."""
+    phy, estimate, objective = ber["phy"], ber["estimate"], ber["objective"]
+    lower, upper, exceeds = ber["lower"], ber["upper"], ber["exceeds"]
+    if estimate <= 0:
+        return (
+            f"No errored frames: bit error ratio below {upper:.0e} (95%); the {phy} objective "
+            f"is {objective:.0e}."
+        )
+    if exceeds:
+        return (
+            f"Estimated bit error ratio {estimate:.1e} (95%: at least {lower:.1e}), over the "
+            f"{phy} objective of {objective:.0e}."
+        )
+    return (
+        f"Estimated bit error ratio {estimate:.1e} (95%: {lower:.0e} to {upper:.0e}), not "
+        f"significantly over the {phy} objective of {objective:.0e}."
+    )
+
+
+# --- coverage: what a list of suspects rests on
+#: Why a port has no verdict on its health, as a list of suspects says it.
+NOT_JUDGED_WORDS = {
+    "insufficient_traffic": "too quiet to judge",
+    "no_data": "without two usable polls",
+    "link_down": "down",
+}
+
+
+def plural(n: int, one: str, many: str | None = None) -> str:
+    """ "1 port", "2 ports"."""
+    return f"{n:,} {one if n == 1 else (many or one + 's')}"
+
+
+def coverage_words(
+    suspects: int, judged: int, not_judged: Mapping[str, int], failed: Mapping[str, str]
+) -> str:
+    """What a list of suspects covers, in one paragraph. It is an all-clear only when every
+    device was read and every port judged; anything unread or unjudged is named."""
+    if judged == 0 and not any(not_judged.values()) and failed:
+        devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
+        return (
+            f"Nothing was read: {plural(len(failed), 'device')} could not be read ({devices}). "
+            "No port was judged."
+        )
+    if suspects:
+        head = f"{plural(suspects, 'suspect link')} among {plural(judged, 'port')} judged"
+    elif judged:
+        head = f"No suspects among the {plural(judged, 'port')} judged"
+    else:
+        head = "No port could be judged"
+    parts = [head]
+    unjudged = sum(not_judged.values())
+    if unjudged:
+        why = ", ".join(
+            f"{n:,} {NOT_JUDGED_WORDS.get(verdict, verdict)}"
+            for verdict, n in sorted(not_judged.items(), key=lambda kv: -kv[1])
+            if n
+        )
+        parts.append(f"{plural(unjudged, 'port')} not judged ({why})")
+    if failed:
+        devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
+        parts.append(f"{plural(len(failed), 'device')} not read ({devices})")
+    return "; ".join(parts) + "."
+
+
+# --- chat
+def help_lines(command: str) -> list[str]:
+    """What the bot's help says, one line each."""
+    return [
+        f"`{command} DEVICE PORT`: diagnose one port now (a unique part of the device name "
+        "will do).",
+        f"`{command} suspects [SITE]`: the suspect links, worst first.",
+        f"`{command} model`: the model's card.",
+        "Reply in the thread of an answer with what you found, e.g. "
+        "`cable_fault, crushed patch cord behind the desk`, or `confirmed`; in a digest's "
+        "thread start with the link's number: `3: duplex forced on the printer`.",
+    ]
+
+
+LABEL_PROMPT = "Found it? Reply in this thread with what it was, or use the buttons."
+DIGEST_PROMPT = (
+    "Reply in this thread with a link's number and what you found: `3: cable_fault, crushed cord`."
+)
+LABEL_NOT_ALLOWED = "Labels from this channel or person are not taken here."
+LABEL_WHICH = "Which was it: {options}? Reply with one of them."
+LABEL_NOT_WHICH = (
+    "Not {negated}, then: nothing was recorded. Which was it: {options}? Reply with one of them."
+)
+LABEL_WHICH_LINK = (
+    "Say which link first: its number in the list (`3: cable_fault ...`) or its name "
+    "(`DEVICE PORT cable_fault ...`)."
+)
+LABEL_NOT_A_FAULT = (
+    "The answer was `{verdict}`, which is not a fault or `healthy`; say what you found, "
+    "e.g. `cable_fault, crushed patch cord`."
+)
+LABEL_STORE_FAILED = "Could not record that label ({reason}). Please try again."
+LABEL_GONE = "That answer is no longer in the store."
+LABEL_ALREADY = "You already said {verdict} on this answer; it is recorded once."
+
+
+def label_recorded(
+    who: str,
+    verdict: str,
+    model_verdict: str,
+    where: str,
+    note: str,
+    *,
+    replaced: str | None = None,
+    disputed_with: tuple[str, ...] = (),
+) -> str:
+    """The thread's acknowledgement of a stored label (``who`` as the transport names people):
+    what it replaced, and whether others' labels on the answer disagree."""
+    agreed = "confirms" if verdict == model_verdict else f"corrects {model_verdict} to"
+    note_text = f": {note}" if note else ""
+    instead = f" (instead of their earlier {replaced})" if replaced else ""
+    if disputed_with:
+        learning = (
+            f"Others said {', '.join(disputed_with)}: this answer is left out of training "
+            "until the labels agree."
+        )
+    else:
+        learning = "The next training run learns from it."
+    return f"Recorded: {who} {agreed} {verdict} on {where}{note_text}{instead}. {learning}"
+
+
+# --- the bot
+def usage(command: str) -> str:
+    return f"Try `{command} DEVICE PORT`, `{command} suspects [SITE]`, or `{command} help`."
+
+
+SUSPECTS_TAKES_ONE_SITE = "`suspects` takes at most one site."
+MODEL_TAKES_NOTHING = "`model` takes nothing after it."
+NAME_DEVICE_AND_PORT = "Name one device and one port, e.g. `lark-east-idf2 port14`."
+
+
+def not_a_name(word: str) -> str:
+    return f"{word[:40]!r} is not a device or port name."
+
+
+def no_such_site(site: str) -> str:
+    return f"No site named {site!r}."
+
+
+def known_sites(sites: list[str]) -> str:
+    return f"Sites: {', '.join(sites)}."
+
+
+def ports_not_listed(why: str) -> str:
+    """Why a device whose ports could not even be listed was not read."""
+    return f"could not list its ports: {why}"
+
+
+def answered_without(port: str) -> str:
+    return f"answered without port {port}"
+
+
+def suspects_title(site: str | None) -> str:
+    return f"Suspect links {'everywhere' if site is None else f'at {site}'}"
+
+
+DIGEST_TITLE = "Digest of suspect links"
+ANSWER_GONE_HINT = "Ask with /triage again."
+
+
+def label_options(verdicts: list[str]) -> str:
+    """Verdict ids offered to choose from: "`a` or `b`"."""
+    return " or ".join(f"`{v}`" for v in verdicts)
+
+
+def negated_verdicts(verdicts: list[str]) -> str:
+    return ", ".join(f"`{v}`" for v in verdicts)
+
+
+WORKING = "On it: polling now. The answer will be posted in this channel."
+
+
+def cannot_post(error: str) -> str:
+    """Told privately to a person whose channel the bot may not post in."""
+    return (
+        f"I could not post to this channel ({error}); invite me with "
+        "`/invite @linktriage`. Here is the answer meanwhile."
+    )
+
+
+SOCKET_MODE_NEEDS_TOKEN = (
+    "Socket Mode needs SLACK_APP_TOKEN (an app-level token, scope connections:write)."
+)
+CONSOLE_GREETING = (
+    "linktriage console: type a command (`help` lists them), `reply TEXT` to answer in "
+    "the thread of the last answer, `quit` to leave."
+)
+CONSOLE_LABEL_PROMPT = f"({LABEL_PROMPT.replace('use the buttons', 'type reply TEXT')})"
+CONSOLE_NOTHING_TO_REPLY = "Nothing to reply to yet: ask about a port first."
+CONSOLE_NOT_A_LABEL = "(not read as a label: name what you found, e.g. `cable_fault, crushed cord`)"
+
+
+def cannot_start(why: str) -> str:
+    return f"Cannot start: {why}"
+
+
+def cannot_start_missing(missing: list[str]) -> str:
+    return cannot_start("; ".join(missing) + ".")
+
+
+def slack_unreachable(url: str, reason: object) -> str:
+    return cannot_start(f"Slack's Web API at {url} did not answer ({reason}).")
+
+
+SLACK_UNREACHABLE_HINT = "Check the network and proxy settings, or LINKTRIAGE_SLACK_API_URL."
+SIGNING_SECRET_UNSET = cannot_start("SLACK_SIGNING_SECRET is not set.")
+
+
+def cannot_listen(host: str, port: int, why: object) -> str:
+    return f"Cannot listen on {host} port {port}: {why}"
+
+
+def listening(host: str, port: int) -> str:
+    return f"linktriage: listening on {host} port {port}, /slack/events"
+
+
+CONNECTING_SOCKET_MODE = "linktriage: connecting to Slack in Socket Mode"
+BOT_TOKEN_UNSET = "SLACK_BOT_TOKEN is not set: the bot cannot post"
+APP_TOKEN_UNSET = "SLACK_APP_TOKEN is not set: Socket Mode needs an app-level token"
+SIGNING_SECRET_MISSING = "SLACK_SIGNING_SECRET is not set: HTTP mode cannot verify requests"
+CHANNEL_UNSET = "[slack] channel is not set: digests have nowhere to go"
+
+
+# --- the command line
+def cli_error(rendered: str) -> str:
+    return f"linktriage: {rendered}"
+
+
+def line_skipped(path: object, line: int, why: str) -> str:
+    return f"{path}:{line}: skipped: {why}"
+
+
+def diagnosed(snapshots: int, ports: int, skipped: int) -> str:
+    return f"{snapshots} snapshots of {ports} ports diagnosed; {skipped} lines skipped"
+
+
+def training_starts(ports: int, seed: int, folds: int) -> str:
+    return (
+        f"simulating {ports:,} ports (seed {seed}) and choosing the pruning "
+        f"level by {folds}-fold cross-validation..."
+    )
+
+
+def learnt(
+    trained_on: int,
+    older: int,
+    disputed: int,
+    held_out: int,
+    candidate_score: float,
+    current_version: str,
+    current_score: float,
+    promoted: bool,
+) -> str:
+    """What training with labels learnt, and whether the candidate replaced the model."""
+    return (
+        f"learnt from {trained_on} labels"
+        + (f" ({older} older ones left out)" if older else "")
+        + (f" ({disputed} answers held out: their labels disagree)" if disputed else "")
+        + f"; on {held_out} held out the candidate scores {candidate_score:.2f}, the current "
+        f"model {current_version} {current_score:.2f}: "
+        + ("promoted" if promoted else "kept, not promoted")
+    )
+
+
+def kept_model_source(promoted: bool) -> str:
+    return "the current kept model" if promoted else "kept, not current"
+
+
+def kept_version(version: str, labelled_rows: int, *, current: bool) -> str:
+    return f"  {'*' if current else ' '} kept {version}: {labelled_rows} labels"
+
+
+def device_setup(
+    name: str, site: str, collector: str, address: str | None, ports: int | None, state: str
+) -> str:
+    listed = f"{ports} ports listed" if ports is not None else "all ports"
+    return f"{name} ({site}): {collector} at {address or '-'}, {listed}: {state}"
+
+
+def set_up_wrongly(bad: int, total: int) -> str:
+    return f"{bad} of {total} devices are set up wrongly"
+
+
+def devices_ok(total: int) -> str:
+    return f"{total} devices ok"
+
+
+def does_not_answer(device: str, why: str) -> str:
+    return f"{device}: does not answer: {why}"
+
+
+def answers_in(device: str, seconds: float, ports: int) -> str:
+    return f"{device}: answers in {seconds:.2f} s with {ports} ports"
+
+
+def cannot_be_read(unread: int, total: int) -> str:
+    return f"{unread} of {total} devices cannot be read"
+
+
+def device_said(device: str, why: str) -> str:
+    return f"{device}: {why}"
+
+
+def port_said(device: str, port: str, why: str) -> str:
+    return f"{device} {port}: {why}"
+
+
+def wrote_snapshots(written: int, device: str, polls: int) -> str:
+    return f"wrote {written} snapshots of {device} in {polls} polls"
+
+
+def settings_from(source: object) -> str:
+    return f"settings from {source or 'built-in defaults'} and the environment"
+
+
+def settings_section(section: str, values: Mapping[str, object]) -> str:
+    return f"[{section}] " + ", ".join(f"{k}={v!r}" for k, v in values.items())
+
+
+def secret_presence(name: str, present: bool) -> str:
+    return f"{name.upper()}: {'set' if present else 'not set'}"
+
+
+def slack_api(url: str) -> str:
+    return f"Slack Web API: {url}"
+
+
+def store_state(state: str) -> str:
+    return f"store: {state}"
+
+
+def inventory_missing(path: object) -> str:
+    return f"the inventory file {path} does not exist"
+
+
+def inventory_state(path: object, devices: int) -> str:
+    return f"inventory: {path}, {devices} devices"
+
+
+def settings_warning(warning: str) -> str:
+    return f"warning: {warning} (only `serve` needs it)"
+
+
+def settings_problem(problem: str) -> str:
+    return f"problem: {problem}"
+
+
+SETTINGS_USABLE = "settings are usable"
+
+
+def labels_summary(total: int, kept: int, replaced: int, disputed: int, answers: int) -> str:
+    return (
+        f"{total} labels: {kept} count, {replaced} replaced by their author's later one, "
+        f"{disputed} on {answers} disputed answers"
+    )
+
+
+def label_line(label: Label, standing: str) -> str:
+    """One label in the list: who found what, against what the model said, and whether
+    it counts."""
+    agreed = "=" if label.verdict == label.model_verdict else f"(model: {label.model_verdict})"
+    return (
+        f"{label.id:>4} {label.device} {label.port}: {label.verdict} {agreed} "
+        f"by {label.user_id} via {label.source} [{standing}]: {label.note}"
+    )
+
+
+def wrote_rows(rows: int, path: object) -> str:
+    return f"wrote {rows} labelled rows to {path}"
+
+
+# --- the demo
+RULE = "=" * 88
+
+
+def demo_intro(organisation: str, ports: int, switches: int, model_version: str) -> str:
+    return (
+        f"{organisation} (an invented organisation; simulated counters)\n"
+        f"{ports} ports on {switches} switches, two polls five minutes apart, "
+        f"model {model_version}\n"
+    )
+
+
+def demo_needs_a_look(healthy: int, suspects: int) -> str:
+    return f"{healthy} ports healthy; the other {suspects} need a look:"
+
+
+def demo_asks(device: str, port: str) -> str:
+    return f"\n{RULE}\n$ linktriage ask {device} {port}"
+
+
+def demo_serves(serves: str) -> str:
+    return f"({serves})\n"
+
+
+DEMO_DIGEST = f"\n{RULE}\nThe digest, as posted to the team channel on weekday mornings:\n"
+
+
+def demo_reply(port: str) -> str:
+    """What the demo's engineer found on the digest's first link."""
+    return f"1: swapped fibres at the patch panel, {port} was one-way"
+
+
+def demo_engineer_replies(reply: str) -> str:
+    return f"\nAn engineer replies in the digest's thread:\n  > {reply}"
+
+
+def demo_stored(label: Label) -> str:
+    return (
+        f"Stored in SQLite: label {label.id}, {label.device} {label.port} = "
+        f"{label.verdict}, with the feature row the verdict was based on and model "
+        f"{label.model_version}; `linktriage train --with-labels` learns from it."
+    )
+
+
+DEMO_NEXT = (
+    f"\n{RULE}\nAsk about any other port: linktriage ask DEVICE PORT "
+    "(e.g. linktriage ask lark-core1 up3), or talk to the bot: linktriage chat."
+)
