@@ -6,8 +6,7 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.network.demo import demo_inventory
-from linktriage.network.inventory import InventoryError, load_inventory, problems
+from linktriage.network.inventory import InventoryError, demo_inventory, load_inventory, problems
 
 
 def write(tmp_path: Path, text: str) -> Path:

@@ -13,8 +13,7 @@ import pytest
 from linktriage.bot.triage import Triage
 from linktriage.diagnosis import Model
 from linktriage.errors import UnknownPortError
-from linktriage.network.demo import demo_inventory
-from linktriage.network.inventory import DeviceEntry, Inventory
+from linktriage.network.inventory import DeviceEntry, Inventory, demo_inventory
 from linktriage.network.polling import InventoryNetwork, deadline_s
 from linktriage.render.replies import DiagnosisReply, ErrorReply
 from linktriage.settings import ChatSettings, Settings

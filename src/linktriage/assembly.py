@@ -17,9 +17,9 @@ from pathlib import Path
 from linktriage.bot.labelling import GroupMembers
 from linktriage.bot.triage import Triage
 from linktriage.diagnosis import Model
-from linktriage.network.demo import DemoClock, DemoNetwork, demo_inventory
+from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.network.interface import Network
-from linktriage.network.inventory import Inventory, load_inventory
+from linktriage.network.inventory import Inventory, demo_inventory, load_inventory
 from linktriage.network.polling import InventoryNetwork
 from linktriage.settings import Settings, load_settings
 from linktriage.store import Store

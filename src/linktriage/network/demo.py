@@ -19,7 +19,6 @@ import pandas as pd
 
 from linktriage.errors import PollError
 from linktriage.network.interface import Network, PortRef
-from linktriage.network.inventory import DeviceEntry, Inventory
 from linktriage.polls import PollTable
 from linktriage.simulate import DEFAULT_START, G, LiveCounters, M, sample_parameters
 from linktriage.verdicts import Verdict
@@ -262,18 +261,3 @@ def demo_polls(*, seed: int = DEFAULT_SEED, end_time: float = DEFAULT_START) -> 
     """Two polls, five minutes apart, of every port of the demo network."""
     network = DemoNetwork(seed=seed)
     return PollTable.concat([network.poll_all(end_time - 300.0), network.poll_all(end_time)])
-
-
-def demo_inventory() -> Inventory:
-    """The demo network as an inventory: each switch read by the ``demo`` collector."""
-    devices = []
-    for device, refs in DemoNetwork().devices().items():
-        devices.append(
-            DeviceEntry(
-                name=device,
-                site=refs[0].site,
-                collector="demo",
-                serves={r.port: r.serves for r in refs if r.serves},
-            )
-        )
-    return Inventory(devices=devices)

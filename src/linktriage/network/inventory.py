@@ -133,3 +133,20 @@ def _secrets(options: BaseModel) -> list[Any]:
     from linktriage.network.collectors.base import SecretRef
 
     return [v for v in vars(options).values() if isinstance(v, SecretRef)]
+
+
+def demo_inventory() -> Inventory:
+    """The demo network as an inventory: each switch read by the ``demo`` collector."""
+    from linktriage.network.demo import DemoNetwork  # the simulator, only when asked for
+
+    devices = []
+    for device, refs in DemoNetwork().devices().items():
+        devices.append(
+            DeviceEntry(
+                name=device,
+                site=refs[0].site,
+                collector="demo",
+                serves={r.port: r.serves for r in refs if r.serves},
+            )
+        )
+    return Inventory(devices=devices)

@@ -1,0 +1,1 @@
+"""Where people talk to the bot: a local console, and Slack (Socket Mode or HTTP)."""
