@@ -14,7 +14,8 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.network.collectors.base import Collector, DeviceRefusedError, Options, Reading
+from linktriage.errors import DeviceRefusedError
+from linktriage.network.collectors.base import Collector, Options, Reading
 from linktriage.snapshot import Snapshot
 
 ENTRY_POINTS = """[linktriage.collectors]
@@ -30,10 +31,9 @@ class SlowOptions(Options):
     seconds: float = 3600.0
 
 
-class HangingCollector(Collector):
+class HangingCollector(Collector[SlowOptions]):
     """A device that never answers."""
 
-    options_model = SlowOptions
     needs_address = False
     calls: int = 0
 
@@ -44,7 +44,7 @@ class HangingCollector(Collector):
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
         async def attempt() -> Reading:
             type(self).calls += 1
-            await asyncio.sleep(self.options.seconds)  # type: ignore[attr-defined]
+            await asyncio.sleep(self.options.seconds)
             return Reading([])
 
         return await self.retrying(attempt, "a read")

@@ -4,14 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from linktriage.bot.commands import (
-    CommandError,
-    DiagnosePort,
-    ListSuspects,
-    ShowHelp,
-    ShowModel,
-    parse,
-)
+from linktriage.bot.commands import DiagnosePort, ListSuspects, ShowHelp, ShowModel, parse
+from linktriage.errors import CommandError
 
 
 @pytest.mark.parametrize(

@@ -7,18 +7,17 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.errors import InputError
+from linktriage.errors import DeviceTimeoutError, InputError, UnknownCollectorError
 from linktriage.network.collectors.base import (
     Collector,
-    DeviceTimeoutError,
+    Options,
     SecretRef,
     Target,
-    UnknownCollectorError,
     collector_class,
     collector_names,
 )
 from linktriage.network.collectors.demo import DemoCollector
-from linktriage.network.collectors.file import FileCollector
+from linktriage.network.collectors.file import FileCollector, FileOptions
 
 import plugins
 
@@ -67,6 +66,17 @@ def test_options_are_checked_when_the_collector_is_built() -> None:
         FileCollector(Target("x", None, {"path": "/tmp/x", "colour": "red"}))
     with pytest.raises(InputError, match="needs an address"):
         type("Needy", (plugins.RefusingCollector,), {"needs_address": True})(Target("x", None))
+
+
+def test_a_collector_names_its_options_model_as_its_type_parameter() -> None:
+    assert FileCollector.options_model is FileOptions
+    assert plugins.HangingCollector.options_model is plugins.SlowOptions
+    hanging = plugins.HangingCollector(Target("x", None, {"seconds": 2}))
+    assert isinstance(hanging.options, plugins.SlowOptions) and hanging.options.seconds == 2.0
+    with pytest.raises(InputError, match="seconds"):
+        plugins.HangingCollector(Target("x", None, {"seconds": "soon"}))
+    # a collector without a parameter takes the base options: nothing beyond them
+    assert plugins.RefusingCollector.options_model is Options
 
 
 def test_timeouts_are_retried_with_backoff_then_named(monkeypatch: pytest.MonkeyPatch) -> None:

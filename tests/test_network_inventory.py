@@ -6,7 +6,8 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.network.inventory import InventoryError, demo_inventory, load_inventory, problems
+from linktriage.errors import InventoryError
+from linktriage.network.inventory import demo_inventory, load_inventory, problems
 
 
 def write(tmp_path: Path, text: str) -> Path:

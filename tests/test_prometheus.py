@@ -15,8 +15,8 @@ import pytest
 from linktriage.bot.triage import Triage
 from linktriage.counters import COLUMNS
 from linktriage.diagnosis import Model
-from linktriage.errors import InputError
-from linktriage.network.collectors.base import BadAnswerError, CollectorError, Reading, Target
+from linktriage.errors import BadAnswerError, CollectorError, InputError
+from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.prometheus import PrometheusCollector, promql_string
 from linktriage.network.inventory import Defaults, DeviceEntry, Inventory
 from linktriage.network.polling import InventoryNetwork

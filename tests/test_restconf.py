@@ -10,13 +10,8 @@ from pathlib import Path
 import pytest
 
 from linktriage.counters import COLUMN_INDEX
-from linktriage.network.collectors.base import (
-    BadAnswerError,
-    CollectorError,
-    DeviceRefusedError,
-    DeviceTimeoutError,
-    Target,
-)
+from linktriage.errors import BadAnswerError, CollectorError, DeviceRefusedError, DeviceTimeoutError
+from linktriage.network.collectors.base import Target
 from linktriage.network.collectors.restconf import RestconfCollector, interfaces_to_snapshots
 from linktriage.network.inventory import DeviceEntry, Inventory, problems
 

@@ -6,7 +6,8 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.settings import ConfigError, load_settings
+from linktriage.errors import ConfigError
+from linktriage.settings import load_settings
 
 
 def write(tmp_path: Path, text: str) -> Path:

@@ -12,7 +12,8 @@ from click.testing import CliRunner
 
 from linktriage.cli import main
 from linktriage.counters import COLUMN_INDEX
-from linktriage.network.collectors.base import CollectorError, DeviceTimeoutError, Reading, Target
+from linktriage.errors import CollectorError, DeviceTimeoutError
+from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector
 from linktriage.verdicts import Verdict
 

@@ -8,7 +8,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from linktriage.store import MIGRATIONS, Store, StoreError, inspect_store, masked_url
+from linktriage.errors import StoreError
+from linktriage.store import MIGRATIONS, Store, inspect_store, masked_url
 
 from helpers import line, polls
 

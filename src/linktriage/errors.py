@@ -1,14 +1,24 @@
-"""Errors linktriage raises, one root and a subtree per layer.
+"""Every error linktriage raises on purpose, in one tree (tests/test_errors.py holds the
+drawing to the classes).
 
 ::
 
-    LinktriageError          anything linktriage raises on purpose
-    ├── InputError           something a person supplied is wrong; safe to show as it is
-    │   ├── SnapshotFileError    a snapshot file cannot be opened or decoded at all
-    │   ├── UnknownPortError     a device or port name that is not known (with close matches)
-    │   └── AmbiguousNameError   a short name that fits several devices (with the candidates)
-    ├── PollError            a device could not be read; names the device
-    └── ModelError           a model artefact is missing, malformed or of another format
+    LinktriageError              anything linktriage raises on purpose
+    ├── InputError               something a person supplied is wrong; safe to show as it is
+    │   ├── SnapshotFileError        a snapshot file cannot be opened or decoded at all
+    │   ├── UnknownPortError         a device or port name that is not known (close matches)
+    │   ├── AmbiguousNameError       a short name that fits several devices (the candidates)
+    │   ├── CommandError             chat text that is not a command (the hint: how to ask)
+    │   ├── ConfigError              settings that cannot be used (every problem listed)
+    │   ├── InventoryError           an inventory that cannot be used (what is wrong)
+    │   └── UnknownCollectorError    no collector registered under that name (the ones that are)
+    ├── PollError                a device could not be read; names the device
+    │   └── CollectorError           ... as its collector found
+    │       ├── DeviceTimeoutError       no answer within the timeout, after every retry
+    │       ├── DeviceRefusedError       the request refused (credentials, permissions)
+    │       └── BadAnswerError           an answer that cannot be read
+    ├── ModelError               a model artefact is missing, malformed or of another format
+    └── StoreError               the store cannot be opened or written (which operation)
 
 A malformed *line* of a snapshot file is not an exception: it is reported as a
 :class:`linktriage.snapshot.LineProblem` and skipped, so one bad line never stops a file.
@@ -67,3 +77,39 @@ class PollError(LinktriageError):
 
 class ModelError(LinktriageError):
     """A model artefact is missing, malformed, or written in a format this version cannot read."""
+
+
+class CommandError(InputError):
+    """The text is not a command the bot knows; the hint shows how to ask."""
+
+
+class ConfigError(InputError):
+    """The settings cannot be used; the message lists every problem found."""
+
+
+class InventoryError(InputError):
+    """The inventory cannot be used; the message lists what is wrong."""
+
+
+class UnknownCollectorError(InputError, LookupError):
+    """No collector is registered under that name; the hint lists the ones that are."""
+
+
+class CollectorError(PollError):
+    """A device could not be read, as its collector found."""
+
+
+class DeviceTimeoutError(CollectorError):
+    """The device did not answer within the timeout, after every retry."""
+
+
+class DeviceRefusedError(CollectorError):
+    """The device refused the request (credentials, permissions)."""
+
+
+class BadAnswerError(CollectorError):
+    """The device answered with something that cannot be read."""
+
+
+class StoreError(LinktriageError):
+    """The store cannot be opened or written; the message says which operation failed."""

@@ -33,16 +33,12 @@ from pydantic_settings import (
     TomlConfigSettingsSource,
 )
 
-from linktriage.errors import InputError
+from linktriage.errors import ConfigError
 from linktriage.paths import data_dir
 
 CONFIG_ENV = "LINKTRIAGE_CONFIG"
 DEFAULT_SLACK_API = "https://slack.com/api/"
 _DAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
-
-
-class ConfigError(InputError):
-    """The settings cannot be used; the message lists every problem found."""
 
 
 class _Section(BaseModel):

@@ -24,15 +24,10 @@ from typing import Any
 import sqlalchemy as sa
 from sqlalchemy.engine import Connection, Engine
 
-from linktriage.errors import LinktriageError
+from linktriage.errors import StoreError
 from linktriage.model.labels import Label
 from linktriage.polls import PollTable
 from linktriage.snapshot import iter_snapshots, read_snapshots
-
-
-class StoreError(LinktriageError):
-    """The store cannot be opened or written; the message says which operation failed."""
-
 
 metadata = sa.MetaData()
 

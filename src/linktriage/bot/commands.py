@@ -11,7 +11,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-from linktriage.errors import InputError
+from linktriage.errors import CommandError
 from linktriage.render import words
 
 COMMAND = "/triage"
@@ -43,10 +43,6 @@ class ShowHelp:
 
 
 Command = DiagnosePort | ListSuspects | ShowModel | ShowHelp
-
-
-class CommandError(InputError):
-    """The text is not a command the bot knows; the hint shows how to ask."""
 
 
 USAGE = words.usage(COMMAND)

@@ -9,9 +9,9 @@ from collections.abc import Callable
 from dataclasses import dataclass, replace
 
 from linktriage.bot.answers import keep_answer
-from linktriage.bot.commands import CommandError
 from linktriage.bot.gathering import Gathering
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, headline
+from linktriage.errors import CommandError
 from linktriage.network.interface import Network
 from linktriage.render import words
 from linktriage.render.replies import SuspectItem, SuspectsReply

@@ -11,6 +11,7 @@ from typing import cast
 
 from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
 from linktriage.diagnosis import DiagnosisRecord
+from linktriage.errors import StoreError
 from linktriage.model.labels import current
 from linktriage.render.replies import DiagnosisReply, LabelRefused, LabelReply
 from linktriage.render.words import (
@@ -26,7 +27,7 @@ from linktriage.render.words import (
     negated_verdicts,
 )
 from linktriage.settings import Settings
-from linktriage.store import Store, StoredDiagnosis, StoreError
+from linktriage.store import Store, StoredDiagnosis
 from linktriage.verdicts import TREE_VERDICTS, Verdict
 
 #: Members of a chat user group, by group id (Slack: usergroups.users.list).

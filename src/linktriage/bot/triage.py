@@ -29,7 +29,7 @@ from linktriage.bot.digests import Digests, listed
 from linktriage.bot.gathering import Gathering
 from linktriage.bot.labelling import GroupMembers, Labelling
 from linktriage.diagnosis import Model, diagnose
-from linktriage.errors import LinktriageError, PollError
+from linktriage.errors import LinktriageError, PollError, StoreError
 from linktriage.network.interface import Network
 from linktriage.render import words
 from linktriage.render.card import model_card_data
@@ -42,7 +42,7 @@ from linktriage.render.replies import (
     SuspectsReply,
 )
 from linktriage.settings import Settings
-from linktriage.store import Store, StoreError
+from linktriage.store import Store
 
 
 @dataclass

@@ -25,9 +25,10 @@ def config_check(config_path: Path | None) -> None:
     nothing. Each problem is its own line; what only the Slack bot needs is a warning.
     Exit 1 when something is wrong, else 0 (a command-line-only setup needs no Slack)."""
     from linktriage.assembly import inventory_for
+    from linktriage.errors import StoreError
     from linktriage.settings import config_path as find_config
     from linktriage.settings import load_settings
-    from linktriage.store import StoreError, inspect_store, masked_url
+    from linktriage.store import inspect_store, masked_url
 
     settings = load_settings(config_path)
     source = find_config(config_path)

@@ -31,12 +31,8 @@ from typing import Any
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-from linktriage.errors import InputError, LinktriageError
+from linktriage.errors import InventoryError, LinktriageError
 from linktriage.network.collectors.base import Collector, Target, collector_class
-
-
-class InventoryError(InputError):
-    """The inventory cannot be used; the message lists what is wrong."""
 
 
 class Defaults(BaseModel):
@@ -92,7 +88,7 @@ class Inventory(BaseModel):
             retries=self.defaults.retries if device.retries is None else device.retries,
         )
 
-    def collector(self, device: DeviceEntry) -> Collector:
+    def collector(self, device: DeviceEntry) -> Collector[Any]:
         """The collector for a device, options validated (nothing is sent yet)."""
         return collector_class(device.collector)(self.target(device))
 

@@ -17,8 +17,8 @@ import time
 from collections.abc import Awaitable, Callable, Coroutine, Sequence
 from typing import Any, TypeVar
 
-from linktriage.errors import LinktriageError, PollError, UnknownPortError
-from linktriage.network.collectors.base import Collector, CollectorError, HistoryCollector, Reading
+from linktriage.errors import CollectorError, LinktriageError, PollError, UnknownPortError
+from linktriage.network.collectors.base import Collector, HistoryCollector, Reading
 from linktriage.network.interface import Gathered, Network, PortRef
 from linktriage.network.inventory import DeviceEntry, Inventory
 from linktriage.polls import PollTable
@@ -76,7 +76,7 @@ class InventoryNetwork(Network):
         self.inventory = inventory
         self.clock = clock
         self._loop = LoopThread()
-        self._collectors: dict[str, Collector] = {}
+        self._collectors: dict[str, Collector[Any]] = {}
         self._ports: dict[str, list[str]] = {}
         self._unlisted: dict[str, str] = {}  # device -> why its ports could not be listed
 
@@ -88,7 +88,7 @@ class InventoryNetwork(Network):
         self._loop.run(close_all())
         self._loop.close()
 
-    def _collector(self, device: DeviceEntry) -> Collector:
+    def _collector(self, device: DeviceEntry) -> Collector[Any]:
         collector = self._collectors.get(device.name)
         if collector is None:
             collector = self._collectors[device.name] = self.inventory.collector(device)
@@ -174,7 +174,7 @@ class InventoryNetwork(Network):
         return gathered.tables[device]
 
     def poll_many(self, wanted: dict[str, list[str] | None]) -> Gathered:
-        def read(collector: Collector, ports: list[str] | None) -> Awaitable[Reading]:
+        def read(collector: Collector[Any], ports: list[str] | None) -> Awaitable[Reading]:
             return collector.read(ports)
 
         return self._gather(wanted, read)
@@ -187,7 +187,7 @@ class InventoryNetwork(Network):
         }
         now = self.clock()
 
-        def recall(collector: Collector, ports: list[str] | None) -> Awaitable[Reading]:
+        def recall(collector: Collector[Any], ports: list[str] | None) -> Awaitable[Reading]:
             assert isinstance(collector, HistoryCollector)
             return collector.history(ports, since, now)
 
@@ -196,7 +196,7 @@ class InventoryNetwork(Network):
     def _gather(
         self,
         wanted: dict[str, list[str] | None],
-        read: Callable[[Collector, list[str] | None], Awaitable[Reading]],
+        read: Callable[[Collector[Any], list[str] | None], Awaitable[Reading]],
     ) -> Gathered:
         """Read several devices at once, each within its deadline, into poll tables."""
         entries = {name: self._entry(name) for name in wanted}

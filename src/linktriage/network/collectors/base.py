@@ -26,39 +26,24 @@ from collections.abc import Awaitable, Callable, Sequence
 from dataclasses import dataclass, field
 from importlib.metadata import entry_points
 from pathlib import Path
-from typing import Any, ClassVar, TypeVar
+from typing import Any, ClassVar, Generic, TypeVar, cast, get_args, get_origin
 
 from pydantic import BaseModel, ConfigDict, ValidationError, model_validator
 
-from linktriage.errors import InputError, PollError
+from linktriage.errors import (
+    CollectorError,
+    DeviceTimeoutError,
+    InputError,
+    UnknownCollectorError,
+)
 from linktriage.snapshot import Snapshot
 
 ENTRY_POINTS = "linktriage.collectors"
 T = TypeVar("T")
 
 
-class CollectorError(PollError):
-    """A device could not be read."""
-
-
-class DeviceTimeoutError(CollectorError):
-    """The device did not answer within the timeout, after every retry."""
-
-
-class DeviceRefusedError(CollectorError):
-    """The device refused the request (credentials, permissions)."""
-
-
-class BadAnswerError(CollectorError):
-    """The device answered with something that cannot be read."""
-
-
 class TransientError(Exception):
     """Raised inside an attempt for a failure worth retrying (an agent busy or failing)."""
-
-
-class UnknownCollectorError(InputError, LookupError):
-    """No collector is registered under that name; the hint lists the ones that are."""
 
 
 class SecretRef(BaseModel):
@@ -137,18 +122,33 @@ class Reading:
         )
 
 
-class Collector(ABC):
-    """Reads one device. Subclasses set :attr:`options_model` to validate their options."""
+OptionsT = TypeVar("OptionsT", bound=Options)
+
+
+class Collector(ABC, Generic[OptionsT]):
+    """Reads one device. A collector names its options model as its type parameter,
+    ``class SnmpCollector(Collector[SnmpOptions])``: the target's options are validated
+    with it, and ``self.options`` is typed by it."""
 
     options_model: ClassVar[type[Options]] = Options
     needs_address: ClassVar[bool] = True
+
+    def __init_subclass__(cls, **kwargs: Any) -> None:
+        super().__init_subclass__(**kwargs)
+        for base in getattr(cls, "__orig_bases__", ()):
+            origin = get_origin(base)
+            if isinstance(origin, type) and issubclass(origin, Collector):
+                (model,) = get_args(base)
+                if isinstance(model, type) and issubclass(model, Options):
+                    cls.options_model = model
 
     def __init__(self, target: Target) -> None:
         if self.needs_address and not target.address:
             raise InputError(f"{target.name}: this collector needs an address.")
         self.target = target
         try:
-            self.options = self.options_model.model_validate(target.options)
+            # options_model is the type parameter, set by __init_subclass__
+            self.options = cast(OptionsT, self.options_model.model_validate(target.options))
         except ValidationError as exc:
             details = "; ".join(
                 f"{'.'.join(str(p) for p in e['loc'])}: {e['msg']}" for e in exc.errors()
@@ -163,7 +163,7 @@ class Collector(ABC):
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
         """The counters of some ports (default: all) read now."""
 
-    async def close(self) -> None:  # noqa: B027 (optional: most collectors hold nothing)
+    async def close(self) -> None:
         """Release connections; called once the collector is no longer needed."""
 
     def error(self, kind: type[CollectorError], message: str) -> CollectorError:
@@ -193,7 +193,7 @@ class Collector(ABC):
         raise AssertionError("unreachable")
 
 
-class HistoryCollector(Collector):
+class HistoryCollector(Collector[OptionsT]):
     """A collector whose source keeps history (a time-series database): asked about a
     past window it answers at once, where other collectors must be polled twice."""
 
@@ -202,7 +202,7 @@ class HistoryCollector(Collector):
         """Every snapshot the source holds from ``start`` to ``end`` (Unix seconds)."""
 
 
-def collector_class(name: str) -> type[Collector]:
+def collector_class(name: str) -> type[Collector[Any]]:
     """The collector registered under ``name`` (entry-point group ``linktriage.collectors``)."""
     found = {ep.name: ep for ep in entry_points(group=ENTRY_POINTS)}
     if name not in found:

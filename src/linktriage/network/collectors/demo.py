@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from linktriage.errors import PollError
-from linktriage.network.collectors.base import Collector, CollectorError, Options, Reading, Target
+from linktriage.errors import CollectorError, PollError
+from linktriage.network.collectors.base import Collector, Options, Reading, Target
 from linktriage.network.demo import DEFAULT_SEED, DemoNetwork
 from linktriage.snapshot import iter_snapshots
 
@@ -14,15 +14,13 @@ class DemoOptions(Options):
     seed: int = DEFAULT_SEED
 
 
-class DemoCollector(Collector):
+class DemoCollector(Collector[DemoOptions]):
     """Reads a demo switch (its name in the inventory is the demo device's name)."""
 
-    options_model = DemoOptions
     needs_address = False
 
     def __init__(self, target: Target) -> None:
         super().__init__(target)
-        assert isinstance(self.options, DemoOptions)
         self.network = DemoNetwork(seed=self.options.seed)
 
     async def ports(self) -> list[str]:

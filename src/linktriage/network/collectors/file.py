@@ -11,8 +11,8 @@ from pathlib import Path
 
 import numpy as np
 
-from linktriage.errors import SnapshotFileError
-from linktriage.network.collectors.base import BadAnswerError, Collector, Options, Reading, Target
+from linktriage.errors import BadAnswerError, SnapshotFileError
+from linktriage.network.collectors.base import Collector, Options, Reading, Target
 from linktriage.snapshot import Snapshot, iter_snapshots, read_snapshot_file
 
 
@@ -20,15 +20,13 @@ class FileOptions(Options):
     path: Path
 
 
-class FileCollector(Collector):
+class FileCollector(Collector[FileOptions]):
     """A recorded device: the lines of ``path`` whose ``device`` is this one's name."""
 
-    options_model = FileOptions
     needs_address = False
 
     def __init__(self, target: Target) -> None:
         super().__init__(target)
-        assert isinstance(self.options, FileOptions)
         self.path = self.options.path
         self._instants: list[list[Snapshot]] | None = None
         self._next = 0

@@ -14,14 +14,8 @@ import ssl
 from pathlib import Path
 from typing import Any
 
-from linktriage.network.collectors.base import (
-    BadAnswerError,
-    Collector,
-    DeviceRefusedError,
-    Options,
-    SecretRef,
-    TransientError,
-)
+from linktriage.errors import BadAnswerError, DeviceRefusedError
+from linktriage.network.collectors.base import Collector, Options, SecretRef, TransientError
 
 
 class HttpOptions(Options):
@@ -79,7 +73,7 @@ def _server_message(body: bytes) -> str:
 class HttpSession:
     """One collector's HTTP connections, opened at the first request and kept until close."""
 
-    def __init__(self, collector: Collector, options: HttpOptions, accept: str) -> None:
+    def __init__(self, collector: Collector[Any], options: HttpOptions, accept: str) -> None:
         self.collector = collector
         self.options = options
         self.accept = accept
@@ -99,7 +93,7 @@ class HttpSession:
 
 
 async def _get_json(
-    collector: Collector, client: Any, url: str, params: dict[str, str] | None
+    collector: Collector[Any], client: Any, url: str, params: dict[str, str] | None
 ) -> Any:
     import httpx
 

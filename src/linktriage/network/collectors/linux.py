@@ -31,8 +31,8 @@ from pathlib import Path
 from pydantic import Field, ValidationError, field_validator
 
 from linktriage.counters import COLUMN_INDEX
-from linktriage.errors import InputError
-from linktriage.network.collectors.base import BadAnswerError, Collector, Options, Reading, Target
+from linktriage.errors import BadAnswerError, InputError
+from linktriage.network.collectors.base import Collector, Options, Reading, Target
 from linktriage.snapshot import Snapshot
 
 #: sysfs statistics of every interface -> the snapshot counter (RFC 2863 IF-MIB names).
@@ -176,10 +176,9 @@ def interface_snapshot(
     )
 
 
-class LinuxCollector(Collector):
+class LinuxCollector(Collector[LinuxOptions]):
     """Reads this host's interfaces."""
 
-    options_model = LinuxOptions
     needs_address = False
 
     def __init__(self, target: Target) -> None:
@@ -190,7 +189,6 @@ class LinuxCollector(Collector):
                 f"not {target.address}.",
                 hint="Run linktriage there, or read that host through its SNMP agent.",
             )
-        assert isinstance(self.options, LinuxOptions)
         self.root = self.options.sysfs
 
     async def ports(self) -> list[str]:
@@ -202,7 +200,6 @@ class LinuxCollector(Collector):
     async def _ethtool(self, interface: str) -> dict[str, int]:
         """The driver's statistics, or nothing where ethtool or the driver has none."""
         o = self.options
-        assert isinstance(o, LinuxOptions)
         binary = shutil.which(o.ethtool_path) if o.ethtool else None
         if binary is None:
             return {}
@@ -225,7 +222,6 @@ class LinuxCollector(Collector):
         found = await asyncio.gather(*(self._ethtool(name) for name in hardware))
         by_name = dict(zip(hardware, found, strict=True))
         o = self.options
-        assert isinstance(o, LinuxOptions)
 
         def read_all() -> Reading:
             at = time.time()

@@ -33,13 +33,8 @@ from typing import Annotated, Any
 from pydantic import Field, ValidationError, field_validator
 
 from linktriage.counters import COLUMN_INDEX, COUNTER64_MAX
-from linktriage.network.collectors.base import (
-    BadAnswerError,
-    CollectorError,
-    HistoryCollector,
-    Reading,
-    Target,
-)
+from linktriage.errors import BadAnswerError, CollectorError
+from linktriage.network.collectors.base import HistoryCollector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
 from linktriage.snapshot import Snapshot
 
@@ -224,16 +219,14 @@ def _snapshot(
     )
 
 
-class PrometheusCollector(HistoryCollector):
+class PrometheusCollector(HistoryCollector[PrometheusOptions]):
     """Reads one device's series from a Prometheus server."""
 
-    options_model = PrometheusOptions
     needs_address = False
 
     def __init__(self, target: Target) -> None:
         super().__init__(target)
         o = self.options
-        assert isinstance(o, PrometheusOptions)
         self.url = o.server.rstrip("/") + "/api/v1/query"
         names = [*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS]
         self.objects = {o.metrics.get(name, name): name for name in names}  # metric -> object
@@ -251,7 +244,6 @@ class PrometheusCollector(HistoryCollector):
         if not isinstance(document, dict) or document.get("status") != "success":
             said = document.get("error") if isinstance(document, dict) else None
             raise self.error(BadAnswerError, f"the query failed: {said or document!r}"[:300])
-        assert isinstance(self.options, PrometheusOptions)
         try:
             return Samples(document, self.objects, self.options.port_label)
         except (ValueError, TypeError, AttributeError) as exc:
@@ -291,7 +283,6 @@ class PrometheusCollector(HistoryCollector):
         return Reading(snapshots, problems)
 
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
-        assert isinstance(self.options, PrometheusOptions)
         samples = await self._samples(self.options.lookback_s, datetime.now(UTC).timestamp())
         return self._reading(samples, ports, newest_only=True)
 

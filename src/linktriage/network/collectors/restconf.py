@@ -21,7 +21,8 @@ from typing import Any, Literal
 
 from pydantic import ValidationError
 
-from linktriage.network.collectors.base import BadAnswerError, Collector, Reading, Target
+from linktriage.errors import BadAnswerError
+from linktriage.network.collectors.base import Collector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
 from linktriage.snapshot import Snapshot
 
@@ -123,14 +124,11 @@ def interfaces_to_snapshots(
     return snapshots, problems
 
 
-class RestconfCollector(Collector):
+class RestconfCollector(Collector[RestconfOptions]):
     """Reads a device's interfaces over RESTCONF."""
-
-    options_model = RestconfOptions
 
     def __init__(self, target: Target) -> None:
         super().__init__(target)
-        assert isinstance(self.options, RestconfOptions)
         o = self.options
         port = f":{o.port}" if o.port else ""
         host = f"[{target.address}]" if target.address and ":" in target.address else target.address

@@ -19,16 +19,8 @@ from typing import Annotated, Any, Literal
 
 from pydantic import Field
 
-from linktriage.network.collectors.base import (
-    BadAnswerError,
-    Collector,
-    CollectorError,
-    DeviceTimeoutError,
-    Options,
-    Reading,
-    SecretRef,
-    Target,
-)
+from linktriage.errors import BadAnswerError, CollectorError, DeviceTimeoutError
+from linktriage.network.collectors.base import Collector, Options, Reading, SecretRef, Target
 from linktriage.snapshot import Snapshot
 
 IF_ENTRY = "1.3.6.1.2.1.2.2.1"
@@ -168,15 +160,12 @@ def _moment(booted: float | None, ticks: Any) -> datetime | None:
     return datetime.fromtimestamp(booted + int(ticks) / 100.0, UTC)
 
 
-class SnmpCollector(Collector):
+class SnmpCollector(Collector[SnmpOptions]):
     """Reads a device over SNMP."""
-
-    options_model = SnmpOptions
 
     def __init__(self, target: Target) -> None:
         super().__init__(target)
         o = self.options
-        assert isinstance(o, SnmpOptions)
         if o.version == "2c" and o.community is None:
             raise self.error(CollectorError, 'SNMP v2c needs community = { env = "..." }')
         if o.version == "3" and o.user is None:
@@ -186,7 +175,6 @@ class SnmpCollector(Collector):
         from pysnmp.hlapi.v3arch import asyncio as hlapi
 
         o = self.options
-        assert isinstance(o, SnmpOptions)
         if o.version == "2c":
             assert o.community is not None
             return hlapi.CommunityData(o.community.reveal(), mpModel=1)
@@ -220,7 +208,6 @@ class SnmpCollector(Collector):
         )
 
         o = self.options
-        assert isinstance(o, SnmpOptions)
         rows: dict[int, Any] = {}
         prefix = column + "."
         async for error, status, _index, binds in bulk_walk_cmd(
@@ -254,7 +241,6 @@ class SnmpCollector(Collector):
         engine = _engine()
         auth = self._auth()
         o = self.options
-        assert isinstance(o, SnmpOptions)
         assert self.target.address is not None
         transport = await UdpTransportTarget.create(
             (self.target.address, o.port),
