@@ -85,16 +85,20 @@ def opened(
     *,
     model_path: Path | None = None,
     network: Network | None = None,
+    demo_clock: DemoClock | None = None,
     simulated_time: bool = False,
 ) -> Iterator[Parts]:
-    """Parts for these settings (a network given replaces the settings' own), all closed on
-    leaving, and whatever was opened closed if a later part fails to open."""
+    """Parts for these settings (a network given replaces the settings' own, on
+    ``demo_clock`` if it runs on one), all closed on leaving, and whatever was opened closed
+    if a later part fails to open."""
     with ExitStack() as opened_parts:
         if network is not None:
             opened_parts.callback(network.close)
         model = Model.load(model_path)
         clock: Callable[[], float] = time.time
         sleep: Callable[[float], None] = time.sleep
+        if demo_clock is not None:
+            clock, sleep = demo_clock, demo_clock.sleep
         if network is None:
             network, clock, sleep = network_for(settings, simulated_time=simulated_time)
             opened_parts.callback(network.close)

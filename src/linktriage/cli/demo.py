@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
 
 import click
 
@@ -42,41 +41,42 @@ def demo(model_path: Path | None) -> None:
         click.echo(words.demo_asks(planted.device, planted.port))
         click.echo(words.demo_serves(planted.serves))
         click.echo(explanation(batch.record(row)))
-    _demo_digest_and_label(loaded)
+    _demo_digest_and_label(model_path)
     click.echo(words.DEMO_NEXT)
 
 
-def _demo_digest_and_label(model: Any) -> None:
+def _demo_digest_and_label(model_path: Path | None) -> None:
     """The scheduled digest, and an engineer's reply in its thread stored as a label."""
     import tempfile
 
-    from linktriage.bot.triage import Triage
+    from linktriage.assembly import opened
     from linktriage.network.demo import DemoClock, DemoNetwork
     from linktriage.render.text import render
-    from linktriage.settings import Settings
+    from linktriage.settings import Settings, StoreSettings
     from linktriage.simulate import DEFAULT_START
-    from linktriage.store import Store
 
+    clock = DemoClock(DEFAULT_START - 300.0)
     with tempfile.TemporaryDirectory() as folder:
-        clock = DemoClock(DEFAULT_START - 300.0)
-        store = Store(f"sqlite:///{folder}/demo.sqlite")
-        triage = Triage(
-            DemoNetwork(clock=clock), store, model, Settings(), clock=clock, sleep=clock.sleep
-        )
-        triage.gathering.poll_round()  # the poll job ran five minutes before the digest
-        clock.sleep(300.0)
-        digest = triage.digests.digest(channel="demo")
-        triage.posted(digest, channel="demo", ts="digest-1")
-        click.echo(words.DEMO_DIGEST)
-        click.echo(render(digest))
-        first = digest.items[0].record
-        reply = words.demo_reply(first["port"])
-        click.echo(words.demo_engineer_replies(reply))
-        label = triage.labels.reply(
-            reply, user="demo-engineer", channel="demo", thread_ts="digest-1", event_key="demo-1"
-        )
-        if label is not None:
-            click.echo(f"  {render(label)}")
-        (stored,) = store.labels()
-        click.echo(words.demo_stored(stored))
-        store.close()
+        settings = Settings(store=StoreSettings(url=f"sqlite:///{folder}/demo.sqlite"))
+        network = DemoNetwork(clock=clock)
+        with opened(settings, model_path=model_path, network=network, demo_clock=clock) as parts:
+            triage = parts.triage()
+            triage.gathering.poll_round()  # the poll job ran five minutes before the digest
+            clock.sleep(300.0)
+            digest = triage.digests.digest(channel="demo")
+            triage.posted(digest, channel="demo", ts="digest-1")
+            click.echo(words.DEMO_DIGEST)
+            click.echo(render(digest))
+            reply = words.demo_reply(digest.items[0].record["port"])
+            click.echo(words.demo_engineer_replies(reply))
+            label = triage.labels.reply(
+                reply,
+                user="demo-engineer",
+                channel="demo",
+                thread_ts="digest-1",
+                event_key="demo-1",
+            )
+            if label is not None:
+                click.echo(f"  {render(label)}")
+            (stored,) = parts.store.labels()
+            click.echo(words.demo_stored(stored))

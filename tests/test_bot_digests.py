@@ -1,0 +1,81 @@
+"""Lists of suspects and the digest: ranked worst first, per site, unread devices named,
+what is new and what cleared."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from linktriage.bot.triage import Triage
+from linktriage.diagnosis import Model
+from linktriage.errors import PollError
+from linktriage.network.demo import DemoClock, DemoNetwork
+from linktriage.polls import PollTable
+from linktriage.render.replies import (
+    ErrorReply,
+    SuspectsReply,
+)
+from linktriage.settings import Settings
+from linktriage.store import Store
+
+
+def test_suspects_are_ranked_worst_first(triage: Triage) -> None:
+    reply = triage.handle("suspects")
+    assert isinstance(reply, SuspectsReply)
+    verdicts = [i.record["verdict"] for i in reply.items]
+    assert verdicts[:3] == ["unidirectional", "optic_degraded", "cable_fault"]
+    assert "healthy" not in verdicts and "link_down" not in verdicts
+    assert [i.rank for i in reply.items] == list(range(1, len(reply.items) + 1))
+    assert reply.ports_judged + sum(reply.not_judged.values()) == len(triage.network.ports())
+    assert reply.not_judged["link_down"] == 1 and reply.failed == {}
+
+
+def test_suspects_of_one_site(triage: Triage) -> None:
+    reply = triage.handle("suspects annex")
+    assert isinstance(reply, SuspectsReply)
+    assert {i.record["device"] for i in reply.items} == {"lark-annex-sw1"}
+
+
+class Flaky(DemoNetwork):
+    """The demo network with one switch that never answers."""
+
+    def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
+        if device == "lark-west-idf1":
+            raise PollError(device, "no answer within 2 s")
+        return super().poll(device, ports)
+
+
+def test_a_device_that_does_not_answer_is_named_and_the_rest_still_answer(
+    store: Store, model: Model, clock: DemoClock
+) -> None:
+    triage = Triage(Flaky(clock=clock), store, model, Settings(), clock=clock, sleep=clock.sleep)
+    reply = triage.handle("suspects")
+    assert isinstance(reply, SuspectsReply)
+    assert reply.failed == {"lark-west-idf1": "no answer within 2 s"}
+    assert "1 device not read (lark-west-idf1: no answer within 2 s)" in reply.coverage
+    assert any(i.record["verdict"] == "cable_fault" for i in reply.items)
+    asked = triage.handle("lark-west-idf1 port1")
+    assert isinstance(asked, ErrorReply)
+    assert asked.message == "lark-west-idf1: no answer within 2 s"
+    assert triage.gathering.poll_round().failed == {"lark-west-idf1": "no answer within 2 s"}
+
+
+def test_a_digest_says_what_is_new_and_what_cleared(triage: Triage, clock: DemoClock) -> None:
+    first = triage.digests.digest(channel="C1")
+    assert first.since is None and not any(i.new for i in first.items)
+    assert triage.store.last_digest() is None  # kept only once posted
+    triage.posted(first, channel="C1", ts="1.0")
+    network = triage.network
+    assert isinstance(network, DemoNetwork)
+    # The cable is replaced on port14, and a jumbo-frame host appears on port2.
+    fixed = network._rows[("lark-east-idf2", "port14")]
+    broken = network._rows[("lark-east-idf2", "port2")]
+    for key in ("fcs_errors", "alignment_errors", "symbol_errors", "in_errors", "fragments"):
+        network.rates[key][fixed] = 0.0
+    network.rates["frame_too_longs"][broken] = network.rates["in_ucast"][broken] * 0.01
+    network.rates["in_errors"][broken] = network.rates["frame_too_longs"][broken]
+    clock.sleep(3600.0)
+    second = triage.digests.digest(channel="C1")
+    assert second.since == first.at
+    assert second.cleared == ["lark-east-idf2 port14"]
+    new = [f"{i.record['device']} {i.record['port']}" for i in second.items if i.new]
+    assert new == ["lark-east-idf2 port2"]
