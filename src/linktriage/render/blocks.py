@@ -15,6 +15,7 @@ import re
 from datetime import UTC, datetime
 from typing import Any
 
+from linktriage.render import words
 from linktriage.render.card import card_text
 from linktriage.render.replies import (
     DiagnosisReply,
@@ -110,40 +111,43 @@ def _message(fallback: str, blocks: list[Block]) -> dict[str, Any]:
 def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
     r = reply.record
     facts = [
-        f"confidence *{r['confidence']:.2f}*",
-        f"window {sig(r['window_s'], 3)} s over {r['polls']} polls",
-        f"model `{escape(r['model_version'])}`",
+        words.confidence_fact(f"*{r['confidence']:.2f}*"),
+        words.window_fact(sig(r["window_s"], 3), r["polls"]),
+        words.model_fact(f"`{escape(r['model_version'])}`"),
     ]
     if reply.serves:
         facts.append(escape(reply.serves))
     blocks: list[Block] = [
-        _header(f"{r['device']} {r['port']}: {r['title']}"),
+        _header(words.port_title(r["device"], r["port"], r["title"])),
         _context(" \u00b7 ".join(facts)),
     ]
     evidence = [f"\u2022 {escape(e['said'])}" for e in r["evidence"]]
-    blocks += _sections(evidence, title="Evidence")
+    blocks += _sections(evidence, title=words.EVIDENCE)
     if r["ruled_out"] is not None:
         blocks.append(_context(escape(ruled_out_line(r["ruled_out"]))))
     questions = [
         f"{n}. {escape(q['question'])}  \u2192  *{escape(q['said'])}*"
         for n, q in enumerate(r["questions"], start=1)
     ]
-    blocks += _sections(questions, title="Questions asked")
+    blocks += _sections(questions, title=words.QUESTIONS_ASKED)
     ber = r["bit_errors"]
     if ber is not None:
         blocks.append(_context(escape(ber_line(ber))))
     if r["note"]:
         blocks.append(_context(escape(r["note"])))
     blocks.append({"type": "divider"})
-    blocks += _sections([f"\u2022 {escape(c)}" for c in r["next_checks"]], title="Check next")
+    checks = [f"\u2022 {escape(c)}" for c in r["next_checks"]]
+    blocks += _sections(checks, title=words.CHECK_NEXT)
     if r["cautions"]:
         cautions = [f":warning: {escape(c)}" for c in r["cautions"]]
-        blocks += _sections(cautions, title="Safety")
+        blocks += _sections(cautions, title=words.SAFETY)
     blocks.append(_label_actions(reply))
     if reply.labels:
         blocks.append(_context(_labels_line(reply)))
     blocks.append(_context(LABEL_PROMPT))
-    fallback = f"{r['device']} {r['port']}: {r['title']} ({r['verdict']}, {r['confidence']:.2f})"
+    fallback = words.verdict_fallback(
+        r["device"], r["port"], r["title"], r["verdict"], r["confidence"]
+    )
     return _message(fallback, blocks)
 
 
@@ -151,14 +155,12 @@ def _labels_line(reply: DiagnosisReply) -> str:
     """Who said what on this answer (each person's latest), and whether it teaches."""
     model = reply.record["verdict"]
     said = [
-        f"{_person(user)} {'confirmed' if verdict == model else 'found'} "
-        f"{escape(GUIDES[Verdict(verdict)].title)}"
+        words.person_labelled(
+            _person(user), verdict == model, escape(GUIDES[Verdict(verdict)].title)
+        )
         for user, verdict in reply.labels
     ]
-    line = "Labelled: " + "; ".join(said)
-    if reply.disputed:
-        line += ". The labels disagree: left out of training until they agree."
-    return line
+    return words.labelled(said, reply.disputed)
 
 
 def _label_actions(reply: DiagnosisReply) -> Block:
@@ -175,7 +177,7 @@ def _label_actions(reply: DiagnosisReply) -> Block:
     ]
     elements: list[Block] = []
     confirmed = sum(1 for _, verdict in reply.labels if verdict == reply.record["verdict"])
-    confirm = f"Confirm too ({confirmed} so far)" if confirmed else f"Confirm: {title}"
+    confirm = words.confirm_button(title, confirmed)
     if reply.record["verdict"] in {v.value for v in TREE_VERDICTS}:
         elements.append(
             {
@@ -189,7 +191,7 @@ def _label_actions(reply: DiagnosisReply) -> Block:
         {
             "type": "static_select",
             "action_id": CORRECT_ACTION,
-            "placeholder": {"type": "plain_text", "text": "It was really\u2026"},
+            "placeholder": {"type": "plain_text", "text": words.IT_WAS_REALLY},
             "options": options,
         }
     )
@@ -198,7 +200,7 @@ def _label_actions(reply: DiagnosisReply) -> Block:
         {
             "type": "button",
             "action_id": RECHECK_ACTION,
-            "text": {"type": "plain_text", "text": "Check again"},
+            "text": {"type": "plain_text", "text": words.CHECK_AGAIN},
             "value": diagnosis,
         }
     )
@@ -248,14 +250,15 @@ def _first_message(reply: SuspectsReply) -> tuple[list[Block], int]:
     counts = [escape(reply.coverage)]
     if reply.since is not None:
         new = sum(1 for i in reply.items if i.new)
-        counts.append(f"{new} new and {len(reply.cleared)} cleared since {_when(reply.since)}")
+        counts.append(words.new_and_cleared_since(new, len(reply.cleared), _when(reply.since)))
     blocks: list[Block] = [
-        _header(f"{reply.title}, {_when(reply.at)}"),
+        _header(words.list_heading(reply.title, _when(reply.at))),
         _context(" \u00b7 ".join(counts)),
     ]
     tail: list[Block] = []
     if reply.cleared:
-        tail.append(_context("Cleared: " + escape(_clip(", ".join(reply.cleared), 2000))))
+        links = escape(_clip(", ".join(reply.cleared), 2000))
+        tail.append(_context(words.cleared_links(links, capital=True)))
     if reply.items:
         tail.append(_context(DIGEST_PROMPT))
     room = MAX_BLOCKS - len(blocks) - len(tail) - 1  # one for "and N more"
@@ -264,7 +267,7 @@ def _first_message(reply: SuspectsReply) -> tuple[list[Block], int]:
     blocks += sections
     if shown < len(reply.items):
         left = len(reply.items) - shown
-        blocks.append(_context(f"\u2026 and {left} more in this message's thread."))
+        blocks.append(_context(words.more_in_thread(left)))
     return blocks + tail, shown
 
 
@@ -272,7 +275,7 @@ def suspects_message(reply: SuspectsReply) -> dict[str, Any]:
     """The list as posted: the coverage, then the worst links that fit one message, and a
     pointer to the rest, which :func:`suspects_thread` carries."""
     blocks, _ = _first_message(reply)
-    return _message(f"{reply.title}: {len(reply.items)} suspect links", blocks)
+    return _message(words.suspects_fallback(reply.title, len(reply.items)), blocks)
 
 
 def suspects_thread(reply: SuspectsReply) -> list[dict[str, Any]]:
@@ -281,9 +284,9 @@ def suspects_thread(reply: SuspectsReply) -> list[dict[str, Any]]:
     messages = []
     rest = reply.items[shown:]
     while rest:
-        head = _context(f"Suspect links from {rest[0].rank} on, continued")
+        head = _context(words.continued_from(rest[0].rank))
         sections, count = _pack(rest, MAX_BLOCKS - 1, MAX_MESSAGE_TEXT - _size([head]) - 200)
-        messages.append(_message(f"{reply.title}, continued", [head, *sections]))
+        messages.append(_message(words.continued(reply.title), [head, *sections]))
         rest = rest[max(count, 1) :]
     return messages
 
@@ -301,7 +304,7 @@ def message_for(reply: Reply) -> dict[str, Any]:
         return suspects_message(reply)
     if isinstance(reply, HelpReply):
         lines = [f"\u2022 {line}" for line in help_lines(reply.command)]
-        return _message("How to use linktriage", _sections(lines, title="linktriage"))
+        return _message(words.HOW_TO_USE, _sections(lines, title=words.HELP_TITLE))
     if isinstance(reply, ModelReply):
         text = card_text(reply.card)
         return _message(
@@ -323,7 +326,7 @@ def message_for(reply: Reply) -> dict[str, Any]:
         )
         blocks = [_section(":white_check_mark: " + said)]
         if reply.note:
-            blocks.append(_context(f"found: {reply.note}", plain=True))
-        return _message(f"Recorded {reply.verdict} on {reply.device} {reply.port}", blocks)
+            blocks.append(_context(words.found_note(reply.note), plain=True))
+        return _message(words.recorded_fallback(reply.verdict, reply.device, reply.port), blocks)
     assert isinstance(reply, LabelRefused)
     return _message(reply.message, [_section(escape(reply.message))])

@@ -9,6 +9,7 @@ from datetime import UTC, datetime
 from typing import IO
 
 from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, headline
+from linktriage.render import words
 from linktriage.render.card import card_text
 from linktriage.render.replies import (
     DiagnosisReply,
@@ -23,7 +24,7 @@ from linktriage.render.words import ber_line, help_lines, label_recorded, ruled_
 from linktriage.wording import printable, sig
 
 WIDTH = 88
-_HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "EVIDENCE")
+_HEADER = words.TABLE_HEADER
 
 
 def table_rows(records: Sequence[DiagnosisRecord]) -> list[str]:
@@ -60,32 +61,37 @@ def _wrapped(text: str, first: str, rest: str) -> list[str]:
 def explanation(record: DiagnosisRecord) -> str:
     """Everything about one port's diagnosis, for a person to read and act on."""
     lines = [
-        f"{printable(record['device'])} {printable(record['port'])}: {record['title']} "
-        f"({record['verdict']}), "
-        f"confidence {record['confidence']:.2f}",
-        f"window {sig(record['window_s'], 3)} s over {record['polls']} polls, "
-        f"model {record['model_version']}",
+        words.verdict_line(
+            printable(record["device"]),
+            printable(record["port"]),
+            record["title"],
+            record["verdict"],
+            record["confidence"],
+        ),
+        words.window_fact(sig(record["window_s"], 3), record["polls"])
+        + ", "
+        + words.model_fact(record["model_version"]),
     ]
     if record["note"]:
-        lines.append(f"note: {printable(record['note'])}")
+        lines.append(words.note_line(printable(record["note"])))
     if record["evidence"]:
-        lines += ["", "Evidence"]
+        lines += ["", words.EVIDENCE]
         for item in record["evidence"]:
             lines += _wrapped(f"{item['said']} [{item['source']}]", "  * ", "    ")
     if record["ruled_out"] is not None:
         lines += ["", *_wrapped(ruled_out_line(record["ruled_out"]), "", "")]
-    lines += ["", "Questions asked"]
+    lines += ["", words.QUESTIONS_ASKED]
     for n, q in enumerate(record["questions"], start=1):
         lines += _wrapped(q["question"], f"  {n}. ", "     ")
         lines += _wrapped(q["said"], "     -> ", "        ")
     ber = record["bit_errors"]
     if ber is not None:
         lines += ["", *_wrapped(ber_line(ber), "", "")]
-    lines += ["", "Check next"]
+    lines += ["", words.CHECK_NEXT]
     for check in record["next_checks"]:
         lines += _wrapped(check, "  - ", "    ")
     if record["cautions"]:
-        lines += ["", "Safety"]
+        lines += ["", words.SAFETY]
         for caution in record["cautions"]:
             lines += _wrapped(caution, "  ! ", "    ")
     return "\n".join(lines)
@@ -96,30 +102,27 @@ def _when(at: float) -> str:
 
 
 def suspects_text(reply: SuspectsReply) -> str:
-    lines = [f"{reply.title}, {_when(reply.at)}", printable(reply.coverage)]
+    lines = [words.list_heading(reply.title, _when(reply.at)), printable(reply.coverage)]
     if reply.since is not None:
         new = sum(1 for i in reply.items if i.new)
-        lines.append(
-            f"since the last digest ({_when(reply.since)}): {new} new, {len(reply.cleared)} cleared"
-        )
+        lines.append(words.since_the_last_digest(_when(reply.since), new, len(reply.cleared)))
     for item in reply.items:
         r = item.record
         mark = "  new" if item.new else ""
-        lines.append(
-            f"{item.rank:>3}. {printable(r['device'])} {printable(r['port'])}: {r['title']} "
-            f"({r['verdict']}), "
-            f"confidence {r['confidence']:.2f}{mark}"
+        said = words.verdict_line(
+            printable(r["device"]), printable(r["port"]), r["title"], r["verdict"], r["confidence"]
         )
+        lines.append(f"{item.rank:>3}. {said}{mark}")
         lines.append(f"     {item.reason}")
     if reply.cleared:
-        lines.append(f"cleared: {printable(', '.join(reply.cleared))}")
+        lines.append(words.cleared_links(printable(", ".join(reply.cleared)), capital=False))
     return "\n".join(lines)
 
 
 def render(reply: Reply) -> str:
     """Any reply as text."""
     if isinstance(reply, DiagnosisReply):
-        where = f"({reply.serves}, {reply.site})\n" if reply.serves else ""
+        where = words.serves_at(reply.serves, reply.site) + "\n" if reply.serves else ""
         return where + explanation(reply.record)
     if isinstance(reply, SuspectsReply):
         return suspects_text(reply)

@@ -448,3 +448,109 @@ DEMO_NEXT = (
     f"\n{RULE}\nAsk about any other port: linktriage ask DEVICE PORT "
     "(e.g. linktriage ask lark-core1 up3), or talk to the bot: linktriage chat."
 )
+
+
+# --- the drawers' headings and phrases (render/text.py and render/blocks.py)
+EVIDENCE = "Evidence"
+QUESTIONS_ASKED = "Questions asked"
+CHECK_NEXT = "Check next"
+SAFETY = "Safety"
+TABLE_HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "EVIDENCE")
+
+
+def port_title(device: str, port: str, title: str) -> str:
+    """An answer's heading: which port, and the verdict in words."""
+    return f"{device} {port}: {title}"
+
+
+def verdict_line(device: str, port: str, title: str, verdict: str, confidence: float) -> str:
+    return f"{port_title(device, port, title)} ({verdict}), confidence {confidence:.2f}"
+
+
+def verdict_fallback(device: str, port: str, title: str, verdict: str, confidence: float) -> str:
+    """An answer as a notification shows it."""
+    return f"{port_title(device, port, title)} ({verdict}, {confidence:.2f})"
+
+
+def confidence_fact(value: str) -> str:
+    return f"confidence {value}"
+
+
+def window_fact(seconds: str, polls: int) -> str:
+    return f"window {seconds} s over {polls} polls"
+
+
+def model_fact(version: str) -> str:
+    return f"model {version}"
+
+
+def note_line(note: str) -> str:
+    return f"note: {note}"
+
+
+def serves_at(serves: str, site: str) -> str:
+    return f"({serves}, {site})"
+
+
+def person_labelled(person: str, confirmed: bool, title: str) -> str:
+    return f"{person} {'confirmed' if confirmed else 'found'} {title}"
+
+
+def labelled(said: list[str], disputed: bool) -> str:
+    """Who said what on an answer, and whether it teaches."""
+    line = "Labelled: " + "; ".join(said)
+    if disputed:
+        line += ". The labels disagree: left out of training until they agree."
+    return line
+
+
+def confirm_button(title: str, confirmed: int) -> str:
+    return f"Confirm too ({confirmed} so far)" if confirmed else f"Confirm: {title}"
+
+
+IT_WAS_REALLY = "It was really\u2026"
+CHECK_AGAIN = "Check again"
+HOW_TO_USE = "How to use linktriage"
+HELP_TITLE = "linktriage"
+
+
+def list_heading(title: str, at: str) -> str:
+    return f"{title}, {at}"
+
+
+def new_and_cleared_since(new: int, cleared: int, since: str) -> str:
+    """What changed since the digest before (Block Kit)."""
+    return f"{new} new and {cleared} cleared since {since}"
+
+
+def since_the_last_digest(since: str, new: int, cleared: int) -> str:
+    """What changed since the digest before (terminal)."""
+    return f"since the last digest ({since}): {new} new, {cleared} cleared"
+
+
+def cleared_links(links: str, *, capital: bool) -> str:
+    return f"{'Cleared' if capital else 'cleared'}: {links}"
+
+
+def more_in_thread(left: int) -> str:
+    return f"\u2026 and {left} more in this message's thread."
+
+
+def continued_from(rank: int) -> str:
+    return f"Suspect links from {rank} on, continued"
+
+
+def continued(title: str) -> str:
+    return f"{title}, continued"
+
+
+def suspects_fallback(title: str, links: int) -> str:
+    return f"{title}: {links} suspect links"
+
+
+def found_note(note: str) -> str:
+    return f"found: {note}"
+
+
+def recorded_fallback(verdict: str, device: str, port: str) -> str:
+    return f"Recorded {verdict} on {device} {port}"
