@@ -78,3 +78,19 @@ def test_history_read_back_from_the_store_diagnoses_like_the_polls_themselves(
         row = direct.index_of(device, port)
         assert row is not None
         assert reply.record == direct.record(row)
+
+
+def test_the_poll_job_forgets_polls_older_than_the_settings_keep(
+    triage: Triage, clock: DemoClock
+) -> None:
+    kept_h = triage.settings.store.keep_polls_h
+    first = triage.gathering.poll_round()
+    assert first.forgotten == 0
+    clock.sleep(kept_h * 3600.0 / 2)
+    triage.gathering.poll_round()
+    clock.sleep(kept_h * 3600.0 / 2 + 60.0)
+    last = triage.gathering.poll_round()
+    assert last.forgotten == first.stored  # the first round's polls, no more
+    history = triage.store.poll_history()
+    assert history.ports == 2 * first.stored
+    assert history.oldest is not None and history.oldest >= clock() - kept_h * 3600.0

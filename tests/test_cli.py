@@ -13,6 +13,9 @@ import pytest
 from click.testing import CliRunner
 
 from linktriage.cli import READ_NONE, READ_SOME, main
+from linktriage.network.demo import DemoClock, DemoNetwork
+from linktriage.simulate import DEFAULT_START
+from linktriage.store import Store
 
 import plugins
 from helpers import grown
@@ -313,6 +316,20 @@ def test_config_check_creates_nothing(tmp_path: Path) -> None:
     code, out, _ = run("config", "check", "--config", str(config))
     assert code == 0 and "not created yet" in out
     assert not (tmp_path / "data").exists()
+
+
+def test_config_check_says_how_much_poll_history_the_store_holds(tmp_path: Path) -> None:
+    store_path = tmp_path / "s.sqlite"
+    config = tmp_path / "c.toml"
+    config.write_text(f'[store]\nurl = "sqlite:///{store_path}"\nkeep_polls_h = 48\n')
+    store = Store(f"sqlite:///{store_path}")
+    store.add_polls(DemoNetwork(clock=DemoClock(DEFAULT_START)).poll("lark-core1"))
+    store.close()
+    code, out, _ = run("config", "check", "--config", str(config))
+    assert code == 0
+    (said,) = [line for line in out.splitlines() if line.startswith("store: ")]
+    assert "port polls from 2026-03-02 08:00 UTC to 2026-03-02 08:00 UTC" in said
+    assert " MB" in said and "polls kept 48 h" in said
 
 
 def _dead_inventory(tmp_path: Path, names: list[str], *, with_demo: bool) -> Path:

@@ -7,9 +7,17 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import sqlalchemy as sa
 
 from linktriage.errors import StoreError
-from linktriage.store import MIGRATIONS, Store, inspect_store, masked_url
+from linktriage.store import (
+    MIGRATIONS,
+    PollHistory,
+    Store,
+    inspect_store,
+    masked_url,
+    schema_version_table,
+)
 
 from helpers import line, polls
 
@@ -24,7 +32,8 @@ def test_a_new_store_is_migrated_to_the_latest_schema_in_wal_mode(tmp_path: Path
     with sqlite3.connect(path) as conn:
         assert conn.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
         tables = {r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='table'")}
-    assert {"schema_version", "polls", "diagnoses", "labels", "digests", "audit"} <= tables
+    assert {"schema_version", "poll_packs", "diagnoses", "labels", "digests", "audit"} <= tables
+    assert "polls" not in tables  # version 1's JSON lines, packed by version 3
 
 
 def test_opening_again_applies_nothing_twice(tmp_path: Path) -> None:
@@ -37,16 +46,15 @@ def test_opening_again_applies_nothing_twice(tmp_path: Path) -> None:
 
 
 def test_polls_come_back_as_they_went_in(store: Store) -> None:
-    table = polls(
-        line(counters={"ifHCInOctets": 2**64 - 1}, speed_bps=10**9),
-        line(T5, counters={"ifHCInOctets": 5}, port="port2"),
-    )
-    assert store.add_polls(table) == 2
+    first = polls(line(counters={"ifHCInOctets": 2**64 - 1}, speed_bps=10**9))
+    second = polls(line(T5, counters={"ifHCInOctets": 5}, port="port2"))
+    assert store.add_polls(first) == 1 and store.add_polls(second) == 1
     back = store.polls_since(0.0)
-    np.testing.assert_array_equal(back.counters, table.counters)
+    np.testing.assert_array_equal(back.counters, np.concatenate([first.counters, second.counters]))
     assert list(store.polls_since(0.0, device="lark-test-sw1", port="port2").port) == ["port2"]
-    assert len(store.polls_since(table.time.max() + 1)) == 0
-    assert store.prune_polls(table.time.max()) == 1
+    assert len(store.polls_since(second.time.max() + 1)) == 0
+    assert store.prune_polls(second.time.max()) == 1  # the first poll, not the second
+    assert list(store.polls_since(0.0).port) == ["port2"]
 
 
 def _diagnosis(store: Store) -> int:
@@ -146,7 +154,68 @@ def test_a_missing_database_driver_names_the_extra_to_install() -> None:
 
 def test_inspecting_a_store_creates_nothing(tmp_path: Path) -> None:
     path = tmp_path / "data" / "s.sqlite"
-    assert "not created yet" in inspect_store(f"sqlite:///{path}")
+    assert not inspect_store(f"sqlite:///{path}").created
     assert not (tmp_path / "data").exists()
-    Store(f"sqlite:///{path}").close()
-    assert inspect_store(f"sqlite:///{path}").endswith(f"schema version {MIGRATIONS[-1].version}")
+    store = Store(f"sqlite:///{path}")
+    store.add_polls(polls(line(), line(T5, port="port2")))
+    store.close()
+    state = inspect_store(f"sqlite:///{path}")
+    assert state.version == MIGRATIONS[-1].version
+    assert state.history == PollHistory(1, 2, polls(line()).time[0], polls(line(T5)).time[0])
+    assert state.size_bytes is not None and state.size_bytes >= path.stat().st_size
+
+
+def test_a_store_of_json_lines_is_packed_by_its_migration(tmp_path: Path) -> None:
+    # A store as version 2 left it: polls as lines of the snapshot format.
+    url = f"sqlite:///{tmp_path / 'old.sqlite'}"
+    engine = sa.create_engine(url)
+    with engine.begin() as conn:
+        schema_version_table.create(conn)
+        for migration in MIGRATIONS[:2]:
+            migration.apply(conn)
+            conn.execute(
+                schema_version_table.insert().values(
+                    version=migration.version, description=migration.description, applied_at=0.0
+                )
+            )
+        lines = [line(counters={"ifHCInOctets": 10 + n}, port=f"port{n}") for n in range(5)]
+        lines += [line(T5, counters={"ifHCInOctets": 99}, device="lark-test-sw2")]
+        for n, text in enumerate(lines, start=1):
+            conn.execute(
+                sa.text(
+                    "INSERT INTO polls (id, device, port, time, line) VALUES (:i, '', '', 0, :l)"
+                ),
+                {"i": n, "l": text},
+            )
+    engine.dispose()
+    store = Store(url)
+    assert store.schema_version() == MIGRATIONS[-1].version
+    back = store.polls_since(0.0)
+    expected = polls(*lines)
+    assert sorted(zip(back.device, back.port, strict=True)) == sorted(
+        zip(expected.device, expected.port, strict=True)
+    )
+    assert sorted(back.counters[:, 0].tolist()) == sorted(expected.counters[:, 0].tolist())
+    assert store.poll_history().packs == 2  # one per device
+    store.close()
+    with sqlite3.connect(tmp_path / "old.sqlite") as conn:
+        tables = {r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+    assert "polls" not in tables
+
+
+def test_old_polls_are_forgotten_in_small_batches(store: Store) -> None:
+    for minute in range(10):
+        table = polls(line(counters={"ifHCInOctets": minute}))
+        table.time[:] += 60.0 * minute
+        store.add_polls(table)
+    start = float(polls(line()).time[0])
+    assert store.prune_polls(start + 60 * 6, batch=2, batches=1) == 2  # one small batch
+    assert store.poll_history().packs == 8
+    assert store.prune_polls(start + 60 * 6, batch=2) == 4  # the rest, batch by batch
+    history = store.poll_history()
+    assert (history.packs, history.ports) == (4, 4)
+    assert history.oldest == start + 60 * 6 and history.newest == start + 60 * 9
+
+
+def test_an_empty_store_has_no_poll_history(store: Store) -> None:
+    assert store.poll_history() == PollHistory(0, 0, None, None)

@@ -61,6 +61,12 @@ class StoreSettings(_Section):
     """Where polls, diagnoses, labels and the audit log are kept."""
 
     url: str | None = Field(default=None, description="SQLAlchemy URL; default: SQLite file")
+    keep_polls_h: float = Field(
+        default=72.0,
+        ge=2.0,
+        description="polls older than this are forgotten by the poll job (hours); answers, "
+        "labels and digests are kept",
+    )
 
     def resolved_url(self) -> str:
         return self.url or f"sqlite:///{data_dir() / 'linktriage.sqlite'}"

@@ -3,8 +3,9 @@
 SQLite by default (one file under the data directory, in WAL mode so the bot's threads
 read while one writes); any SQLAlchemy URL, e.g. PostgreSQL, otherwise. The schema grows
 by numbered migrations, each applied in the same transaction that records it, so a store
-is never left half-migrated. Polls are kept as lines of the snapshot format: the history
-of a port reads back through the same parser as any snapshot file.
+is never left half-migrated. Polls are kept packed (:mod:`linktriage.packed`): one row per
+device per poll, a little over 100 bytes per port, found by device and time or by time
+alone without a sort, and forgotten after ``[store] keep_polls_h`` in small batches.
 
 Labels carry an *event key* (a Slack event id, or a button press's own id) under a
 unique constraint: the same event delivered twice is stored once.
@@ -21,13 +22,15 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import sqlalchemy as sa
 from sqlalchemy.engine import Connection, Engine
 
 from linktriage.errors import StoreError
 from linktriage.model.labels import Label
+from linktriage.packed import pack, unpack
 from linktriage.polls import PollTable
-from linktriage.snapshot import iter_snapshots, read_snapshots
+from linktriage.snapshot import read_snapshots
 
 metadata = sa.MetaData()
 
@@ -38,21 +41,25 @@ schema_version_table = sa.Table(
     sa.Column("description", sa.Text, nullable=False),
     sa.Column("applied_at", sa.Float, nullable=False),
 )
+#: 64-bit row ids: a poll every 5 minutes from 100,000 ports overflows 32 bits in weeks.
+#: (SQLite's INTEGER PRIMARY KEY is 64-bit already, and only it is the rowid.)
+BigId = sa.BigInteger().with_variant(sa.Integer(), "sqlite")
 polls_table = sa.Table(
-    "polls",
+    "poll_packs",
     metadata,
-    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("id", BigId, primary_key=True, autoincrement=True),
     sa.Column("device", sa.Text, nullable=False),
-    sa.Column("port", sa.Text, nullable=False),
-    sa.Column("time", sa.Float, nullable=False),
-    sa.Column("line", sa.Text, nullable=False),  # one line of the snapshot format
-    sa.Index("polls_by_port", "device", "port", "time"),
-    sa.Index("polls_by_time", "time"),
+    sa.Column("time", sa.Float, nullable=False),  # the newest poll in the pack
+    sa.Column("first", sa.Float, nullable=False),  # the oldest poll in the pack
+    sa.Column("ports", sa.Integer, nullable=False),  # rows in the pack
+    sa.Column("body", sa.LargeBinary, nullable=False),  # linktriage.packed
+    sa.Index("poll_packs_by_device", "device", "time"),  # this device (its ports) since T
+    sa.Index("poll_packs_by_time", "time"),  # every port since T; what to forget
 )
 diagnoses_table = sa.Table(
     "diagnoses",
     metadata,
-    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("id", BigId, primary_key=True, autoincrement=True),
     sa.Column("at", sa.Float, nullable=False),
     sa.Column("device", sa.Text, nullable=False),
     sa.Column("port", sa.Text, nullable=False),
@@ -72,9 +79,9 @@ diagnoses_table = sa.Table(
 labels_table = sa.Table(
     "labels",
     metadata,
-    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("id", BigId, primary_key=True, autoincrement=True),
     sa.Column("at", sa.Float, nullable=False),
-    sa.Column("diagnosis_id", sa.Integer, sa.ForeignKey("diagnoses.id"), nullable=False),
+    sa.Column("diagnosis_id", sa.BigInteger, sa.ForeignKey("diagnoses.id"), nullable=False),
     sa.Column("device", sa.Text, nullable=False),
     sa.Column("port", sa.Text, nullable=False),
     sa.Column("verdict", sa.Text, nullable=False),  # what the engineer found
@@ -90,7 +97,7 @@ labels_table = sa.Table(
 digests_table = sa.Table(
     "digests",
     metadata,
-    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("id", BigId, primary_key=True, autoincrement=True),
     sa.Column("at", sa.Float, nullable=False),
     sa.Column("kind", sa.Text, nullable=False),  # digest (scheduled) or suspects (asked for)
     sa.Column("channel", sa.Text),
@@ -101,7 +108,7 @@ digests_table = sa.Table(
 audit_table = sa.Table(
     "audit",
     metadata,
-    sa.Column("id", sa.Integer, primary_key=True, autoincrement=True),
+    sa.Column("id", BigId, primary_key=True, autoincrement=True),
     sa.Column("at", sa.Float, nullable=False),
     sa.Column("user_id", sa.Text),
     sa.Column("channel", sa.Text),
@@ -118,8 +125,11 @@ class Migration:
 
 
 def _initial_schema(conn: Connection) -> None:
-    metadata.create_all(
-        conn, tables=[polls_table, diagnoses_table, labels_table, digests_table, audit_table]
+    metadata.create_all(conn, tables=[diagnoses_table, labels_table, digests_table, audit_table])
+    # Version 1 kept polls as JSON lines; version 3 packs them (and converts these).
+    conn.exec_driver_sql(
+        "CREATE TABLE polls (id INTEGER PRIMARY KEY, device TEXT NOT NULL, "
+        "port TEXT NOT NULL, time FLOAT NOT NULL, line TEXT NOT NULL)"
     )
 
 
@@ -131,11 +141,65 @@ def _answer_context(conn: Connection) -> None:
             conn.exec_driver_sql(f"ALTER TABLE diagnoses ADD COLUMN {name} TEXT")
 
 
+#: Old poll lines converted per batch: bounded memory whatever the store's size.
+_CONVERT_BATCH = 20_000
+
+
+def _packed_polls(conn: Connection) -> None:
+    """Polls packed, one row per device per batch of old lines; 64-bit ids everywhere."""
+    polls_table.create(conn)
+    last = 0
+    while True:
+        rows = conn.execute(
+            sa.text("SELECT id, line FROM polls WHERE id > :last ORDER BY id LIMIT :n"),
+            {"last": last, "n": _CONVERT_BATCH},
+        ).all()
+        if not rows:
+            break
+        last = rows[-1][0]
+        packs = _packs(read_snapshots(row[1] for row in rows).polls)
+        if packs:
+            conn.execute(polls_table.insert(), packs)
+    conn.exec_driver_sql("DROP TABLE polls")
+    if conn.dialect.name == "postgresql":
+        for table in ("diagnoses", "labels", "digests", "audit"):
+            conn.exec_driver_sql(f"ALTER TABLE {table} ALTER COLUMN id TYPE BIGINT")
+        conn.exec_driver_sql("ALTER TABLE labels ALTER COLUMN diagnosis_id TYPE BIGINT")
+
+
+def _packs(table: PollTable) -> list[dict[str, Any]]:
+    """Rows of the packed polls table for a poll table: one per device."""
+    packs = []
+    for device in np.unique(table.device).tolist():
+        rows = table.take(np.flatnonzero(table.device == device))
+        packs.append(
+            {
+                "device": device,
+                "time": float(rows.time.max()),
+                "first": float(rows.time.min()),
+                "ports": len(rows),
+                "body": pack(rows),
+            }
+        )
+    return packs
+
+
 #: Every schema change, in order. A new change is a new entry; old entries never change.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "polls, diagnoses, labels, digests, audit", _initial_schema),
     Migration(2, "diagnoses keep their site and what the port serves", _answer_context),
+    Migration(3, "polls packed, one row per device per poll; 64-bit ids", _packed_polls),
 )
+
+
+@dataclass(frozen=True, slots=True)
+class PollHistory:
+    """How much poll history the store holds."""
+
+    packs: int
+    ports: int  # rows: one port's answer to one poll
+    oldest: float | None
+    newest: float | None
 
 
 @dataclass(frozen=True, slots=True)
@@ -221,25 +285,56 @@ def _engine(url: str) -> Engine:
         ) from exc
 
 
-def inspect_store(url: str) -> str:
-    """What the store at ``url`` is, read without creating or changing anything: its masked
-    URL and schema version, or that it is not created yet. Raises StoreError."""
+@dataclass(frozen=True, slots=True)
+class StoreState:
+    """What a store is, read without creating or changing anything."""
+
+    url: str  # with any password hidden
+    created: bool
+    version: int | None  # None: no tables yet (created on first use)
+    history: PollHistory | None
+    size_bytes: int | None  # the database on disk, where it can tell
+
+
+def inspect_store(url: str) -> StoreState:
+    """The store at ``url`` as it stands, creating nothing. Raises StoreError."""
     engine = _engine(url)
+    shown = masked_url(url)
     try:
-        if engine.dialect.name == "sqlite":
-            database = sa.make_url(url).database
-            if database and database != ":memory:" and not Path(database).exists():
-                return f"{masked_url(url)}, not created yet (it is created on first use)"
+        database = sa.make_url(url).database if engine.dialect.name == "sqlite" else None
+        on_disk = database is not None and database not in ("", ":memory:")
+        if on_disk and not Path(str(database)).exists():
+            return StoreState(shown, False, None, None, None)
         with engine.connect() as conn:
-            if not sa.inspect(conn).has_table(schema_version_table.name):
-                return f"{masked_url(url)}, empty (its tables are created on first use)"
+            tables = sa.inspect(conn)
+            if not tables.has_table(schema_version_table.name):
+                return StoreState(shown, True, None, None, None)
             version = conn.execute(sa.select(sa.func.max(schema_version_table.c.version))).scalar()
-        return f"{masked_url(url)}, schema version {int(version or 0)}"
+            history = _history(conn) if tables.has_table(polls_table.name) else None
+            size = None
+            if engine.dialect.name == "postgresql":
+                size = conn.exec_driver_sql("SELECT pg_database_size(current_database())").scalar()
+        if on_disk:
+            files = [Path(f"{database}{suffix}") for suffix in ("", "-wal")]
+            size = sum(f.stat().st_size for f in files if f.exists())
+        return StoreState(shown, True, int(version or 0), history, size)
     except sa.exc.SQLAlchemyError as exc:
         first = str(exc).splitlines()[0]
-        raise StoreError(f"Cannot reach the store at {masked_url(url)}: {first}") from exc
+        raise StoreError(f"Cannot reach the store at {shown}: {first}") from exc
     finally:
         engine.dispose()
+
+
+def _history(conn: Connection) -> PollHistory:
+    row = conn.execute(
+        sa.select(
+            sa.func.count(),
+            sa.func.coalesce(sa.func.sum(polls_table.c.ports), 0),
+            sa.func.min(polls_table.c.first),
+            sa.func.max(polls_table.c.time),
+        )
+    ).one()
+    return PollHistory(int(row[0]), int(row[1]), row[2], row[3])
 
 
 class Store:
@@ -295,44 +390,57 @@ class Store:
 
     # --- polls
     def add_polls(self, table: PollTable) -> int:
-        """Keep every row of a poll table; returns how many."""
-        rows = [
-            {
-                "device": snap.device,
-                "port": snap.port,
-                "time": snap.time.timestamp(),
-                "line": snap.model_dump_json(exclude_none=True),
-            }
-            for snap in iter_snapshots(table)
-        ]
-        if rows:
+        """Keep every row of a poll table, one pack per device, in one transaction;
+        returns how many rows."""
+        packs = _packs(table)
+        if packs:
             with self._writing("keep polls") as conn:
-                conn.execute(polls_table.insert(), rows)
-        return len(rows)
+                conn.execute(polls_table.insert(), packs)
+        return len(table)
 
     def polls_since(
         self, since: float, *, device: str | None = None, port: str | None = None
     ) -> PollTable:
         """Stored polls at or after ``since``, for one port, one device or all."""
-        query = (
-            sa.select(polls_table.c.line)
-            .where(polls_table.c.time >= since)
-            .order_by(polls_table.c.id)
+        query = sa.select(polls_table.c.device, polls_table.c.body).where(
+            polls_table.c.time >= since
         )
         if device is not None:
             query = query.where(polls_table.c.device == device)
-        if port is not None:
-            query = query.where(polls_table.c.port == port)
-        with self.engine.connect() as conn:
-            lines = [row.line for row in conn.execute(query)]
-        return read_snapshots(lines).polls
+        with self._reading("read polls") as conn:
+            rows = conn.execute(query.order_by(polls_table.c.time)).all()
+        tables = []
+        for row in rows:
+            table = unpack(row.body, row.device)
+            keep = table.time >= since
+            if port is not None:
+                keep &= table.port == port
+            tables.append(table.take(np.flatnonzero(keep)))
+        return PollTable.concat(tables)
 
-    def prune_polls(self, before: float) -> int:
-        """Forget polls older than ``before``; returns how many."""
-        with self._writing("prune polls") as conn:
-            return int(
-                conn.execute(polls_table.delete().where(polls_table.c.time < before)).rowcount
-            )
+    def prune_polls(self, before: float, *, batch: int = 1000, batches: int | None = None) -> int:
+        """Forget polls older than ``before``, ``batch`` packs per transaction so that
+        readers and the bot's writes are never held up for long, at most ``batches``
+        transactions (None: until none is left); returns how many rows were forgotten."""
+        forgotten, done = 0, 0
+        while batches is None or done < batches:
+            with self._writing("forget old polls") as conn:
+                old = conn.execute(
+                    sa.select(polls_table.c.id, polls_table.c.ports)
+                    .where(polls_table.c.time < before)
+                    .order_by(polls_table.c.time)
+                    .limit(batch)
+                ).all()
+                if not old:
+                    break
+                conn.execute(polls_table.delete().where(polls_table.c.id.in_([r.id for r in old])))
+            forgotten += sum(r.ports for r in old)
+            done += 1
+        return forgotten
+
+    def poll_history(self) -> PollHistory:
+        with self._reading("read the poll history") as conn:
+            return _history(conn)
 
     # --- diagnoses
     def add_diagnosis(

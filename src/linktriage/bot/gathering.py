@@ -21,6 +21,14 @@ class PollRound:
 
     stored: int
     failed: dict[str, str]  # device -> why
+    forgotten: int = 0  # polls older than [store] keep_polls_h, forgotten after this round
+
+
+#: Polls are forgotten a thousand packs per transaction, at most twenty per round: a store
+#: with a long backlog (a first run after a long stop) is worked down over a few rounds
+#: instead of holding the database for minutes.
+PRUNE_BATCH = 1000
+PRUNE_BATCHES = 20
 
 
 @dataclass
@@ -37,8 +45,10 @@ class Gathering:
     def poll_round(self) -> PollRound:
         """Poll every device once and keep the answers: the poll job."""
         gathered = self.network.poll_many(dict.fromkeys(self.network.device_names()))
-        stored = sum(self.store.add_polls(table) for table in gathered.tables.values())
-        return PollRound(stored, gathered.failed)
+        stored = self.store.add_polls(PollTable.concat(list(gathered.tables.values())))
+        cutoff = self.clock() - self.settings.store.keep_polls_h * 3600.0
+        forgotten = self.store.prune_polls(cutoff, batch=PRUNE_BATCH, batches=PRUNE_BATCHES)
+        return PollRound(stored, gathered.failed, forgotten)
 
     def gather(self, refs: list[PortRef]) -> tuple[PollTable, dict[str, str]]:
         """Polls for these ports, never spanning less than ``quick_window_s``: stored recent

@@ -43,7 +43,8 @@ def config_check(config_path: Path | None) -> None:
     click.echo(words.slack_api(masked_url(settings.slack_api_url)))
     problems: list[str] = []
     try:
-        click.echo(words.store_state(inspect_store(settings.store.resolved_url())))
+        state = inspect_store(settings.store.resolved_url())
+        click.echo(words.store_state(state, settings.store.keep_polls_h))
     except StoreError as exc:
         problems.append(exc.render().replace("\n", " "))
     inventory = settings.network.inventory

@@ -8,10 +8,12 @@ The words inside a diagnosis record (questions, evidence, checks) are the engine
 from __future__ import annotations
 
 from collections.abc import Mapping
+from datetime import UTC, datetime
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
     from linktriage.model.labels import Label
+    from linktriage.store import StoreState
 
 
 # --- a diagnosis, as drawn
@@ -356,8 +358,29 @@ def slack_api(url: str) -> str:
     return f"Slack Web API: {url}"
 
 
-def store_state(state: str) -> str:
-    return f"store: {state}"
+def store_state(state: StoreState, keep_h: float) -> str:
+    """What the store is and holds, for `config check`."""
+    if not state.created:
+        return f"store: {state.url}, not created yet (it is created on first use)"
+    if state.version is None:
+        return f"store: {state.url}, empty (its tables are created on first use)"
+    parts = [f"store: {state.url}, schema version {state.version}"]
+    if state.size_bytes is not None:
+        parts.append(f"{state.size_bytes / 1e6:,.1f} MB")
+    history = state.history
+    if history is not None and history.oldest is not None and history.newest is not None:
+        parts.append(
+            f"{plural(history.ports, 'port poll')} from {_utc(history.oldest)} to "
+            f"{_utc(history.newest)}"
+        )
+    elif history is not None:
+        parts.append("no polls yet")
+    parts.append(f"polls kept {keep_h:g} h")
+    return "; ".join(parts)
+
+
+def _utc(at: float) -> str:
+    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
 
 
 def inventory_missing(path: object) -> str:
