@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import hashlib
 import os
 from collections.abc import Iterator
 from pathlib import Path
@@ -16,6 +17,7 @@ from linktriage.settings import Settings
 from linktriage.simulate import DEFAULT_START
 from linktriage.store import Store
 
+from agents.postgres import fresh_database, postgres_server
 from slack_emulator import SlackEmulator
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -60,6 +62,20 @@ def emulator() -> Iterator[SlackEmulator]:
     running = SlackEmulator().start()
     yield running
     running.stop()
+
+
+@pytest.fixture(scope="session")
+def postgres_server_url() -> Iterator[str]:
+    """A PostgreSQL server on loopback for the whole session (skipped where not installed)."""
+    with postgres_server() as url:
+        yield url
+
+
+@pytest.fixture
+def postgres_url(postgres_server_url: str, request: pytest.FixtureRequest) -> str:
+    """A fresh database of its own on the session's PostgreSQL server."""
+    name = "lt_" + hashlib.sha1(request.node.nodeid.encode()).hexdigest()[:16]
+    return fresh_database(postgres_server_url, name)
 
 
 @pytest.fixture
