@@ -79,3 +79,48 @@ def test_a_digest_says_what_is_new_and_what_cleared(triage: Triage, clock: DemoC
     assert second.cleared == ["lark-east-idf2 port14"]
     new = [f"{i.record['device']} {i.record['port']}" for i in second.items if i.new]
     assert new == ["lark-east-idf2 port2"]
+
+
+class Counted(DemoNetwork):
+    """The demo network, counting the devices it is asked to poll."""
+
+    def __init__(self, clock: DemoClock) -> None:
+        super().__init__(clock=clock)
+        self.polled: list[str] = []
+
+    def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
+        self.polled.append(device)
+        return super().poll(device, ports)
+
+
+def test_the_digest_reads_the_poll_jobs_history_without_polling_again(
+    store: Store, model: Model
+) -> None:
+    clock = DemoClock(1_772_438_400.0)
+    network = Counted(clock)
+    triage = Triage(network, store, model, Settings(), clock=clock, sleep=clock.sleep)
+    for _ in range(3):  # the poll job, every five minutes
+        triage.gathering.poll_round()
+        clock.sleep(300.0)
+    network.polled.clear()
+    digest = triage.digests.digest(channel="C1")
+    assert network.polled == []  # the stored window was enough
+    assert digest.failed == {} and digest.ports_judged > 0
+    asked = triage.handle("suspects")  # asked for now: read now
+    assert isinstance(asked, SuspectsReply)
+    assert sorted(set(network.polled)) == sorted(network.device_names())
+    assert asked.ports_judged == digest.ports_judged
+
+
+def test_a_digest_polls_the_devices_the_poll_job_missed(store: Store, model: Model) -> None:
+    clock = DemoClock(1_772_438_400.0)
+    network = Counted(clock)
+    triage = Triage(network, store, model, Settings(), clock=clock, sleep=clock.sleep)
+    triage.gathering.poll_round()
+    clock.sleep(300.0)
+    triage.gathering.poll_round()
+    clock.sleep(1200.0)  # the poll job stopped twenty minutes ago: nothing recent
+    network.polled.clear()
+    digest = triage.digests.digest(channel="C1")
+    assert sorted(set(network.polled)) == sorted(network.device_names())
+    assert digest.ports_judged > 0

@@ -19,6 +19,7 @@ from linktriage.settings import Settings
 from linktriage.simulate import DEFAULT_START
 from linktriage.store import (
     MIGRATIONS,
+    NewAnswer,
     PollHistory,
     Store,
     inspect_store,
@@ -258,3 +259,27 @@ def test_the_bot_answers_digests_and_labels_on_this_store(store: Store, model: M
     )
     assert label is not None and store.labels()[0].verdict == "cable_fault"
     assert store.last_digest() is not None
+
+
+def test_many_answers_are_kept_in_one_go_in_their_order(store: Store) -> None:
+    answers = [
+        NewAnswer(
+            {
+                "device": "sw",
+                "port": f"p{n}",
+                "verdict": "cable_fault",
+                "confidence": 0.9,
+                "model_version": "m1",
+            },
+            {"ber_over_objective": float(n)},
+            at=1.0,
+            origin="digest",
+        )
+        for n in range(50)
+    ]
+    ids = store.add_diagnoses(answers)
+    assert len(set(ids)) == 50
+    for n, diagnosis_id in enumerate(ids):
+        stored = store.diagnosis(diagnosis_id)
+        assert stored is not None and stored.port == f"p{n}"
+    assert store.add_diagnoses([]) == []

@@ -109,6 +109,18 @@ class PollTable:
             line=self.line[rows],
         )
 
+    def by_device(self) -> list[tuple[str, PollTable]]:
+        """The rows of each device, in name order (grouped once, by sorting)."""
+        if not len(self):
+            return []
+        order = np.argsort(self.device, kind="stable")
+        names, starts = np.unique(self.device[order], return_index=True)
+        ends = [*starts[1:].tolist(), len(order)]
+        return [
+            (str(name), self.take(order[start:end]))
+            for name, start, end in zip(names.tolist(), starts.tolist(), ends, strict=True)
+        ]
+
     @classmethod
     def concat(cls, tables: Sequence[PollTable]) -> PollTable:
         """All rows of several tables, in order."""

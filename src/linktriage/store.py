@@ -168,10 +168,10 @@ def _packed_polls(conn: Connection) -> None:
 
 
 def _packs(table: PollTable) -> list[dict[str, Any]]:
-    """Rows of the packed polls table for a poll table: one per device."""
+    """Rows of the packed polls table for a poll table: one per device (grouped once, by
+    sorting, whatever the number of devices)."""
     packs = []
-    for device in np.unique(table.device).tolist():
-        rows = table.take(np.flatnonzero(table.device == device))
+    for device, rows in table.by_device():
         packs.append(
             {
                 "device": device,
@@ -200,6 +200,20 @@ class PollHistory:
     ports: int  # rows: one port's answer to one poll
     oldest: float | None
     newest: float | None
+
+
+@dataclass(frozen=True, slots=True)
+class NewAnswer:
+    """An answer to keep: the record as answered and the feature row it rests on."""
+
+    record: dict[str, Any]
+    features: dict[str, float | None]
+    at: float
+    origin: str  # chat, console, digest, suspects, sweep
+    asked_by: str | None = None
+    channel: str | None = None
+    site: str = ""
+    serves: str = ""
 
 
 @dataclass(frozen=True, slots=True)
@@ -456,25 +470,36 @@ class Store:
         serves: str = "",
     ) -> int:
         """Keep what was answered, and enough to draw it again; returns its id."""
-        with self._writing("keep the diagnosis") as conn:
-            result = conn.execute(
-                diagnoses_table.insert().values(
-                    at=at,
-                    device=record["device"],
-                    port=record["port"],
-                    verdict=record["verdict"],
-                    confidence=record["confidence"],
-                    model_version=record["model_version"],
-                    features=json.dumps(features),
-                    record=json.dumps(record),
-                    origin=origin,
-                    asked_by=asked_by,
-                    channel=channel,
-                    site=site,
-                    serves=serves,
-                )
-            )
-            return _new_id(result)
+        answer = NewAnswer(record, features, at, origin, asked_by, channel, site, serves)
+        return self.add_diagnoses([answer])[0]
+
+    def add_diagnoses(self, answers: Sequence[NewAnswer]) -> list[int]:
+        """Keep many answers in one transaction (a digest's); returns their ids, in order."""
+        if not answers:
+            return []
+        rows = [
+            {
+                "at": a.at,
+                "device": a.record["device"],
+                "port": a.record["port"],
+                "verdict": a.record["verdict"],
+                "confidence": a.record["confidence"],
+                "model_version": a.record["model_version"],
+                "features": json.dumps(a.features),
+                "record": json.dumps(a.record),
+                "origin": a.origin,
+                "asked_by": a.asked_by,
+                "channel": a.channel,
+                "site": a.site,
+                "serves": a.serves,
+            }
+            for a in answers
+        ]
+        insert = diagnoses_table.insert().returning(
+            diagnoses_table.c.id, sort_by_parameter_order=True
+        )
+        with self._writing("keep the diagnoses") as conn:
+            return [int(row.id) for row in conn.execute(insert, rows)]
 
     def attach_message(self, diagnosis_id: int, channel: str, message_ts: str) -> None:
         """Remember which chat message carries a diagnosis, so its thread can label it."""

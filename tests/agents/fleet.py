@@ -3,20 +3,26 @@
 from __future__ import annotations
 
 import time
+from collections.abc import Callable, Sequence
 
 import numpy as np
 
+from linktriage.network.interface import Gathered, Network, PortRef
 from linktriage.polls import PollTable
 from linktriage.simulate import LiveCounters, sample_mix, sample_parameters
+from linktriage.verdicts import Verdict
 
 
 class Fleet:
-    """``devices`` switches of ``ports`` ports each, named sw0001.. and port1.."""
+    """``devices`` switches of ``ports`` ports each, named sw0001.. and port1..; the ports'
+    verdicts drawn in the proportions of ``mix`` (default: the training prior's)."""
 
-    def __init__(self, devices: int, ports: int, *, seed: int = 11) -> None:
+    def __init__(
+        self, devices: int, ports: int, *, seed: int = 11, mix: dict[Verdict, float] | None = None
+    ) -> None:
         rng = np.random.default_rng(seed)
         n = devices * ports
-        params = sample_parameters(sample_mix(n, rng), rng)
+        params = sample_parameters(sample_mix(n, rng, mix), rng)
         params["hc"] = True
         self.names = [f"sw{d + 1:04d}" for d in range(devices)]
         self.ports = [f"port{p + 1}" for p in range(ports)]
@@ -38,3 +44,33 @@ class Fleet:
         d = self.names.index(device)
         rows = np.arange(d * self.per_device, (d + 1) * self.per_device)
         return self.live.at(rows, time.time() if when is None else when)
+
+
+class FleetNetwork(Network):
+    """The fleet as the bot's network, read at once and on a clock given from outside
+    (benches run it on simulated time)."""
+
+    def __init__(self, fleet: Fleet, clock: Callable[[], float] = time.time) -> None:
+        self.fleet = fleet
+        self.clock = clock
+        self._refs = [
+            PortRef("fleet", device, port) for device in fleet.names for port in fleet.ports
+        ]
+
+    def ports(self) -> list[PortRef]:
+        return self._refs
+
+    def device_names(self) -> list[str]:
+        return list(self.fleet.names)
+
+    def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
+        table = self.fleet.read(device, self.clock())
+        if ports is None:
+            return table
+        return table.take(np.flatnonzero(np.isin(table.port, list(ports))))
+
+    def poll_many(self, wanted: dict[str, list[str] | None]) -> Gathered:
+        """Every wanted device in one read of the fleet."""
+        whole = self.fleet.read_all(self.clock())
+        tables = {name: rows for name, rows in whole.by_device() if name in wanted}
+        return Gathered(tables, {}, {})

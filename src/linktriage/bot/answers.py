@@ -3,37 +3,44 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
-from linktriage.diagnosis import DiagnosisBatch
+from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord
 from linktriage.features import FEATURE_NAMES
 from linktriage.network.interface import PortRef
-from linktriage.store import Store
+from linktriage.store import NewAnswer, Store
 
 
-def keep_answer(
+def keep_answers(
     store: Store,
     batch: DiagnosisBatch,
-    row: int,
-    ref: PortRef | None,
+    rows: Sequence[int],
+    records: Sequence[DiagnosisRecord],
+    refs: Sequence[PortRef | None],
     *,
     at: float,
     origin: str,
     user: str | None = None,
     channel: str | None = None,
-) -> int:
-    """Store one answer with the feature row it rests on (NaN: not reported, kept as
-    null), so that a label can refer to it and a later training run learn from it."""
-    features = {
-        name: (None if math.isnan(v) else v)
-        for name, v in zip(FEATURE_NAMES, batch.values[row].tolist(), strict=True)
-    }
-    return store.add_diagnosis(
-        dict(batch.record(row)),
-        features,
-        at=at,
-        origin=origin,
-        asked_by=user,
-        channel=channel,
-        site=ref.site if ref else "",
-        serves=ref.serves if ref else "",
-    )
+) -> list[int]:
+    """Store answers (``records`` of ``rows``) with the feature rows they rest on (NaN:
+    not reported, kept as null), in one transaction, so that a label can refer to each
+    and a later training run learn from it; returns their ids."""
+    values = batch.values[list(rows)].tolist()
+    answers = [
+        NewAnswer(
+            dict(record),
+            {
+                name: (None if math.isnan(v) else v)
+                for name, v in zip(FEATURE_NAMES, row_values, strict=True)
+            },
+            at,
+            origin,
+            user,
+            channel,
+            ref.site if ref else "",
+            ref.serves if ref else "",
+        )
+        for record, row_values, ref in zip(records, values, refs, strict=True)
+    ]
+    return store.add_diagnoses(answers)

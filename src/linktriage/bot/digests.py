@@ -8,7 +8,7 @@ from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, replace
 
-from linktriage.bot.answers import keep_answer
+from linktriage.bot.answers import keep_answers
 from linktriage.bot.gathering import Gathering
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, headline
 from linktriage.errors import CommandError
@@ -30,9 +30,15 @@ class Digests:
     clock: Callable[[], float] = time.time
 
     def suspects(
-        self, site: str | None = None, *, channel: str | None = None, kind: str = "suspects"
+        self,
+        site: str | None = None,
+        *,
+        channel: str | None = None,
+        kind: str = "suspects",
+        fresh: bool = True,
     ) -> SuspectsReply:
-        """The suspect links of a site (default: everywhere), ranked by severity."""
+        """The suspect links of a site (default: everywhere), ranked by severity; without
+        ``fresh``, from the stored polls where they already make a window."""
         refs = self.network.ports()
         where: str | None = None
         if site is not None:
@@ -42,21 +48,23 @@ class Digests:
                 raise CommandError(words.no_such_site(site), hint=words.known_sites(sites))
             where = chosen[0]
             refs = [r for r in refs if r.site == where]
-        polls, failed = self.gathering.gather(refs)
+        polls, failed = self.gathering.gather(refs, fresh=fresh)
         # Devices whose ports could not even be listed are not read either.
         for device, why in self.network.unlisted().items():
             if where is None or self.network.site_of(device) == where:
                 failed.setdefault(device, words.ports_not_listed(why))
         batch = diagnose(polls, self.model)
         by_name = {(r.device, r.port): r for r in refs}
-        items: list[SuspectItem] = []
-        for row in _ranked_faults(batch):
-            ref = by_name.get((batch.device[row], batch.port[row]))
-            diagnosis_id = keep_answer(
-                self.store, batch, row, ref, at=self.clock(), origin=kind, channel=channel
-            )
-            record = batch.record(row)
-            items.append(SuspectItem(len(items) + 1, record, diagnosis_id, headline(record)))
+        ranked = _ranked_faults(batch)
+        records = batch.records_many(ranked)
+        found = [by_name.get((batch.device[row], batch.port[row])) for row in ranked]
+        ids = keep_answers(
+            self.store, batch, ranked, records, found, at=self.clock(), origin=kind, channel=channel
+        )
+        items = [
+            SuspectItem(rank, record, diagnosis_id, headline(record))
+            for rank, (record, diagnosis_id) in enumerate(zip(records, ids, strict=True), start=1)
+        ]
         not_judged = Counter(v.value for v in batch.verdict if v in GUARD_VERDICTS)
         return SuspectsReply(
             title=words.suspects_title(where),
@@ -70,7 +78,7 @@ class Digests:
     def digest(self, *, channel: str | None = None) -> SuspectsReply:
         """The scheduled digest: suspects, what is new since the last one, what cleared."""
         previous = self.store.last_digest()
-        current = self.suspects(channel=channel, kind="digest")
+        current = self.suspects(channel=channel, kind="digest", fresh=False)
         before = {(i["device"], i["port"]) for i in previous.items} if previous else set()
         now = {(i.record["device"], i.record["port"]) for i in current.items}
         items = [

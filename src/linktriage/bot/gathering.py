@@ -50,12 +50,16 @@ class Gathering:
         forgotten = self.store.prune_polls(cutoff, batch=PRUNE_BATCH, batches=PRUNE_BATCHES)
         return PollRound(stored, gathered.failed, forgotten)
 
-    def gather(self, refs: list[PortRef]) -> tuple[PollTable, dict[str, str]]:
+    def gather(
+        self, refs: list[PortRef], *, fresh: bool = True
+    ) -> tuple[PollTable, dict[str, str]]:
         """Polls for these ports, never spanning less than ``quick_window_s``: stored recent
         ones plus one fresh poll each, or, where the stored history is younger than that
         (right after start) or absent, a second fresh poll once the first reaches back
         ``quick_window_s``. A device whose source keeps history (Prometheus) is asked for
-        its recent window instead, and asked again after the wait when that is too short."""
+        its recent window instead, and asked again after the wait when that is too short.
+        Without ``fresh`` (the digest) a device whose stored polls already span the quick
+        window for every port asked about is not polled again: the poll job's are enough."""
         wanted: dict[str, list[str]] = {}
         for ref in refs:
             wanted.setdefault(ref.device, []).append(ref.port)
@@ -70,13 +74,18 @@ class Gathering:
             short[device] = _short_of(table, wanted[device], now, quick, absent=False)
             if not short[device]:
                 tables.append(table)
-        fresh = {d: ps for d, ps in wanted.items() if d not in recalled.tables and d not in failed}
-        for device in fresh:
-            stored = self.store.polls_since(since, device=device)
-            stored = stored.take(np.flatnonzero(np.isin(stored.port, wanted[device])))
-            tables.append(stored)
-            short[device] = _short_of(stored, wanted[device], now, quick, absent=True)
-        failed.update(self._poll_into(tables, dict(fresh)))
+        others = [d for d in wanted if d not in recalled.tables and d not in failed]
+        stored = self._stored(others, since)
+        to_poll: dict[str, list[str] | None] = {}
+        for device in others:
+            kept = stored.get(device, PollTable.empty())
+            kept = kept.take(np.flatnonzero(np.isin(kept.port, wanted[device])))
+            tables.append(kept)
+            if not fresh and _spans(kept, wanted[device], quick):
+                continue
+            short[device] = _short_of(kept, wanted[device], now, quick, absent=True)
+            to_poll[device] = wanted[device]
+        failed.update(self._poll_into(tables, to_poll))
         young = {d: list(waits) for d, waits in short.items() if waits and d not in failed}
         if young:
             self.sleep(max(max(short[d].values()) for d in young))
@@ -89,14 +98,44 @@ class Gathering:
             failed.update(self._poll_into(tables, dict(retry)))
         return PollTable.concat(tables), failed
 
+    def _stored(self, devices: list[str], since: float) -> dict[str, PollTable]:
+        """The stored polls of these devices since ``since``, by device: one device's by
+        its own index, many devices' in one read of every poll since then."""
+        if not devices:
+            return {}
+        if len(devices) == 1:
+            return {devices[0]: self.store.polls_since(since, device=devices[0])}
+        wanted = set(devices)
+        every = self.store.polls_since(since)
+        return {name: rows for name, rows in every.by_device() if name in wanted}
+
     def _poll_into(
         self, tables: list[PollTable], wanted: dict[str, list[str] | None]
     ) -> dict[str, str]:
+        """Poll these devices now, keeping their answers (one transaction) and adding them
+        to ``tables``; returns the devices that did not answer, with why."""
+        if not wanted:
+            return {}
         gathered = self.network.poll_many(wanted)
-        for fresh in gathered.tables.values():
-            self.store.add_polls(fresh)
-            tables.append(fresh)
+        answered = list(gathered.tables.values())
+        if answered:
+            self.store.add_polls(PollTable.concat(answered))
+            tables += answered
         return dict(gathered.failed)
+
+
+def _spans(table: PollTable, ports: list[str], quick: float) -> bool:
+    """Whether every port has two polls or more in ``table``, spanning ``quick`` seconds."""
+    if not len(table):
+        return False
+    names, which = np.unique(table.port.astype(str), return_inverse=True)
+    oldest = np.full(len(names), np.inf)
+    newest = np.full(len(names), -np.inf)
+    np.minimum.at(oldest, which, table.time)
+    np.maximum.at(newest, which, table.time)
+    counts = np.bincount(which, minlength=len(names))
+    covered = set(names[(counts >= 2) & (newest - oldest >= quick)].tolist())
+    return all(port in covered for port in ports)
 
 
 def _short_of(

@@ -16,7 +16,7 @@ import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
-from linktriage.bot.answers import keep_answer
+from linktriage.bot.answers import keep_answers
 from linktriage.bot.commands import (
     COMMAND,
     DiagnosePort,
@@ -125,17 +125,19 @@ class Triage:
         row = batch.index_of(ref.device, ref.port)
         if row is None:
             raise PollError(ref.device, words.answered_without(ref.port))
-        diagnosis_id = keep_answer(
+        record = batch.record(row)
+        (diagnosis_id,) = keep_answers(
             self.store,
             batch,
-            row,
-            ref,
+            [row],
+            [record],
+            [ref],
             at=self.clock(),
             origin=origin,
             user=user,
             channel=channel,
         )
-        return DiagnosisReply(batch.record(row), diagnosis_id, ref.site, ref.serves)
+        return DiagnosisReply(record, diagnosis_id, ref.site, ref.serves)
 
     def recheck(
         self, diagnosis_id: int, *, user: str | None = None, channel: str | None = None
