@@ -22,7 +22,7 @@ from linktriage.network.inventory import Defaults, DeviceEntry, Inventory
 from linktriage.network.polling import InventoryNetwork
 from linktriage.render.replies import DiagnosisReply
 from linktriage.settings import ChatSettings, Settings
-from linktriage.snapshot import Snapshot
+from linktriage.snapshot import Snapshot, iter_snapshots
 from linktriage.store import Store
 
 from agents.fleet import Fleet
@@ -98,6 +98,72 @@ def test_a_read_gives_every_ports_newest_scrape_to_the_octet(
         booted = scrape.at - scrape.uptime_ticks / 100
         assert snap.discontinuity_time is not None
         assert abs(snap.discontinuity_time.timestamp() - booted) < 0.5
+
+
+def inventory_of(server: str, devices: list[str], **options: Any) -> InventoryNetwork:
+    entries = [
+        DeviceEntry(
+            name=device,
+            site="east",
+            collector="prometheus",
+            options={"server": server, "matchers": {"job": "snmp"}, **options},
+        )
+        for device in devices
+    ]
+    return InventoryNetwork(Inventory(defaults=Defaults(timeout_s=2.0), devices=entries))
+
+
+def test_devices_read_together_each_get_their_own_scrape_to_the_octet(
+    prometheus: Prometheus, exporter: Exporter
+) -> None:
+    network = inventory_of(prometheus.url, DEVICES)
+    try:
+        gathered = network.poll_many(dict.fromkeys(DEVICES))
+    finally:
+        network.close()
+    assert gathered.failed == {} and sorted(gathered.tables) == DEVICES
+    for device, table in gathered.tables.items():
+        assert set(table.device.tolist()) == {device}
+        assert sorted(table.port.tolist()) == sorted(exporter.fleet.ports)
+        at = float(table.time[0])
+        scrape = exporter.scrape_near(device, at)
+        assert abs(scrape.at - at) < 0.5
+        for snap in iter_snapshots(table):
+            assert_is_what_was_scraped(snap, scrape, exporter.fleet.ports.index(snap.port))
+
+
+def test_devices_read_together_share_one_query_of_two_scrape_intervals(api: CannedApi) -> None:
+    api.body = matrix(
+        *(
+            {**series("ifHCInOctets", "port1", (100.0, str(n))), "metric": {
+                "__name__": "ifHCInOctets", "instance": device, "ifName": "port1"}}
+            for n, device in enumerate(DEVICES)
+        )
+    )  # fmt: skip
+    network = inventory_of(api.url, DEVICES, scrape_interval_s=30)
+    try:
+        gathered = network.poll_many(dict.fromkeys(DEVICES))
+    finally:
+        network.close()
+    (sent,) = api.queries  # one query for the three
+    query = sent["query"][0]
+    assert query.endswith("}[60000ms]")  # two scrape intervals back, no more
+    assert 'instance=~"sw0001|sw0002|sw0003"' in query
+    assert {d: int(t.counters[0, 0]) for d, t in gathered.tables.items()} == {
+        device: n for n, device in enumerate(DEVICES)
+    }
+
+
+def test_a_failed_shared_query_fails_each_device_by_its_own_name(api: CannedApi) -> None:
+    api.status = 401
+    network = inventory_of(api.url, DEVICES)
+    try:
+        gathered = network.poll_many(dict.fromkeys(DEVICES))
+    finally:
+        network.close()
+    assert sorted(gathered.failed) == DEVICES
+    assert all("refused the credentials" in why for why in gathered.failed.values())
+    assert len(api.queries) == 1
 
 
 def test_history_gives_every_scrape_of_the_window_at_the_time_it_was_scraped(

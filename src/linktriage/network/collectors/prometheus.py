@@ -1,14 +1,19 @@
 """The ``prometheus`` collector: a device's counters as a Prometheus server already holds them.
 
 Where a Prometheus (or a store that speaks its HTTP API) scrapes the network through an
-SNMP exporter, linktriage asks it instead of polling the devices itself: one request per
-device, answered from the server's own storage, so a sweep of a very large network costs
-the devices nothing. The server also keeps history, so a window is read at once rather
-than waited for (:class:`~linktriage.network.collectors.base.HistoryCollector`).
+SNMP exporter, linktriage asks it instead of polling the devices itself, answered from the
+server's own storage, so a sweep of a very large network costs the devices nothing. The
+server also keeps history, so a window is read at once rather than waited for
+(:class:`~linktriage.network.collectors.base.HistoryCollector`).
 
-One request per read, an instant query of a range selector over the device's series::
+A read is an instant query of a range selector over the device's series, reaching back
+two scrape intervals (one scrape is always inside, little more is fetched than kept)::
 
-    GET {server}/api/v1/query?query={__name__=~"ifHCInOctets|...",instance="10.20.0.1"}[300s]
+    GET {server}/api/v1/query?query={__name__=~"ifHCInOctets|...",instance="10.20.0.1"}[120000ms]
+
+Devices of one server asked for the same window within BATCH_WINDOW_S of each other (a
+sweep, a poll round) share one such query, ``instance=~"a|b|..."``, of up to BATCH_DEVICES
+devices; each device is handed the series carrying its own label value.
 
 A range selector returns the raw samples with the times they were scraped; an instant
 vector would carry the evaluation time instead, which is off by up to a scrape interval
@@ -23,10 +28,12 @@ beyond that they keep 53 significant bits, which leaves rates over any window in
 
 from __future__ import annotations
 
+import asyncio
 import math
 import re
 from collections import defaultdict
 from collections.abc import Sequence
+from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from typing import Annotated, Any
 
@@ -72,8 +79,11 @@ class PrometheusOptions(HttpOptions):
     matchers: dict[str, str] = Field(default_factory=dict)
     #: Metric names where they differ from the object names (object -> metric).
     metrics: dict[str, str] = Field(default_factory=dict)
-    #: How far back a read looks for the newest scrape: longer than the scrape interval.
-    lookback_s: Annotated[float, Field(gt=0, le=86_400)] = 300.0
+    #: How often Prometheus scrapes the device (its scrape_interval).
+    scrape_interval_s: Annotated[float, Field(gt=0, le=3600)] = 60.0
+    #: How far back a read looks for the newest scrape; default two scrape intervals, so
+    #: one scrape is always inside and little more is fetched than is kept.
+    lookback_s: Annotated[float | None, Field(gt=0, le=86_400)] = None
 
     @field_validator("device_label", "port_label")
     @classmethod
@@ -107,11 +117,19 @@ def promql_string(value: str) -> str:
     return f'"{escaped}"'
 
 
-def selector(metric_names: Sequence[str], labels: dict[str, str]) -> str:
-    """A series selector for these metrics and these label values."""
+def selector(
+    metric_names: Sequence[str], labels: dict[str, str], any_of: tuple[str, list[str]] | None = None
+) -> str:
+    """A series selector for these metrics and these label values; ``any_of`` (a label and
+    its values) matches any of several values, as one query for several devices does."""
     names = "|".join(sorted(set(metric_names)))
     parts = [f"__name__=~{promql_string(names)}"]
     parts += [f"{name}={promql_string(value)}" for name, value in labels.items()]
+    if any_of is not None:
+        label, values = any_of
+        # PromQL regexes are RE2, anchored at both ends; every value is matched literally.
+        pattern = "|".join(re.escape(value) for value in sorted(set(values)))
+        parts.append(f"{label}=~{promql_string(pattern)}")
     return "{" + ",".join(parts) + "}"
 
 
@@ -219,6 +237,69 @@ def _snapshot(
     )
 
 
+#: Reads of devices on one server asked for within this long are made one query...
+BATCH_WINDOW_S = 0.01
+#: ... of at most this many devices.
+BATCH_DEVICES = 200
+
+
+@dataclass
+class _Batch:
+    """Devices asking one server for the same window at the same moment."""
+
+    end: float | None  # None: now, when the query is sent
+    asks: list[tuple[PrometheusCollector, asyncio.Future[Any]]] = field(default_factory=list)
+
+
+_pending: dict[tuple[Any, ...], _Batch] = {}
+
+
+async def _ask_together(key: tuple[Any, ...], span_s: float) -> None:
+    """Send the batch under ``key`` as one query per BATCH_DEVICES devices, and hand each
+    device the series of its own, or the error, as its own."""
+    batch = _pending.pop(key)
+    for start in range(0, len(batch.asks), BATCH_DEVICES):
+        asks = batch.asks[start : start + BATCH_DEVICES]
+        first = asks[0][0]
+        end = datetime.now(UTC).timestamp() if batch.end is None else batch.end
+        if len(asks) == 1:
+            chosen = first.selector
+        else:
+            label = first.options.device_label
+            instances = [c.labels[label] for c, _ in asks]
+            rest = {k: v for k, v in first.labels.items() if k != label}
+            chosen = selector(list(first.objects), rest, any_of=(label, instances))
+        query = f"{chosen}[{max(1, math.ceil(span_s * 1000))}ms]"
+        try:
+            document = await first.http.get_json(first.url, {"query": query, "time": f"{end:.3f}"})
+        except CollectorError as exc:
+            for collector, answer in asks:
+                answer.set_exception(collector.error(type(exc), exc.reason))
+            continue
+        except Exception as exc:  # a timeout: every device of the query missed it
+            for _, answer in asks:
+                answer.set_exception(exc)
+            continue
+        for collector, answer in asks:  # one device's query selected its series already
+            answer.set_result(document if len(asks) == 1 else _own_series(document, collector))
+
+
+def _own_series(document: Any, collector: PrometheusCollector) -> Any:
+    """The part of a query's answer that is about one device (its label value)."""
+    data = document.get("data") if isinstance(document, dict) else None
+    if not isinstance(data, dict) or not isinstance(data.get("result"), list):
+        return document  # left for the device's own reading to refuse
+    result = data["result"]
+    label = collector.options.device_label
+    mine = collector.labels[label]
+    own = [
+        series
+        for series in result
+        if isinstance(series, dict) and series.get("metric", {}).get(label) == mine
+    ]
+    return {**document, "data": {**data, "result": own}}
+
+
 class PrometheusCollector(HistoryCollector[PrometheusOptions]):
     """Reads one device's series from a Prometheus server."""
 
@@ -238,9 +319,28 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
     async def close(self) -> None:
         await self.http.close()
 
-    async def _samples(self, span_s: float, end: float) -> Samples:
-        query = f"{self.selector}[{max(1, math.ceil(span_s * 1000))}ms]"
-        document = await self.http.get_json(self.url, {"query": query, "time": f"{end:.3f}"})
+    async def _samples(self, span_s: float, end: float | None) -> Samples:
+        """The device's samples over ``span_s`` before ``end`` (None: now). Devices of one
+        server asking together (a sweep, a poll round) share one query."""
+        loop = asyncio.get_running_loop()
+        o = self.options
+        key = (
+            loop,
+            self.url,
+            o.device_label,
+            o.port_label,
+            tuple(sorted(o.matchers.items())),
+            tuple(sorted(self.objects)),
+            round(span_s, 3),
+            end,
+        )
+        batch = _pending.get(key)
+        if batch is None:
+            batch = _pending[key] = _Batch(end)
+            loop.call_later(BATCH_WINDOW_S, lambda: loop.create_task(_ask_together(key, span_s)))
+        answer: asyncio.Future[Any] = loop.create_future()
+        batch.asks.append((self, answer))
+        document = await answer
         if not isinstance(document, dict) or document.get("status") != "success":
             said = document.get("error") if isinstance(document, dict) else None
             raise self.error(BadAnswerError, f"the query failed: {said or document!r}"[:300])
@@ -283,8 +383,9 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
         return Reading(snapshots, problems)
 
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
-        samples = await self._samples(self.options.lookback_s, datetime.now(UTC).timestamp())
-        return self._reading(samples, ports, newest_only=True)
+        o = self.options
+        lookback = o.lookback_s if o.lookback_s is not None else 2 * o.scrape_interval_s
+        return self._reading(await self._samples(lookback, None), ports, newest_only=True)
 
     async def history(self, ports: Sequence[str] | None, start: float, end: float) -> Reading:
         if end <= start:
