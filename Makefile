@@ -35,14 +35,15 @@ unit: $(STAMP)
 golden: $(STAMP)
 	LINKTRIAGE_UPDATE_GOLDEN=1 $(BIN)/pytest tests/test_golden_blocks.py
 
-## bench: throughput, model quality, sweep, SNMP walk and store growth benchmarks (prints
-## their figures with their targets)
+## bench: throughput, model quality, sweep, SNMP walk, store growth and Prometheus round
+## benchmarks (prints their figures with their targets)
 bench: $(STAMP)
 	$(BIN)/python bench/diagnose_throughput.py
 	$(BIN)/python bench/model_quality.py
 	$(BIN)/python bench/sweep_restconf.py
 	$(BIN)/python bench/walk_snmp.py
 	$(BIN)/python bench/store_growth.py
+	$(BIN)/python bench/prometheus_round.py
 
 ## model: rebuild the packaged model from the simulated prior, on numpy's AVX2 paths so that
 ## every x86-64 machine rebuilds it bit for bit (AVX-512 rounds exp and log differently)

@@ -13,6 +13,8 @@ the exporter's targets relabelled into ``instance`` as SNMP exporter setups do.
 from __future__ import annotations
 
 import json
+import math
+import re
 import socket
 import subprocess
 import threading
@@ -246,3 +248,104 @@ class CannedApi:
     def close(self) -> None:
         self.server.shutdown()
         self.server.server_close()
+
+
+class FleetApi:
+    """A Prometheus HTTP API of its own for a large fleet: ``/api/v1/query`` answers a range
+    selector of one device (``instance="..."``) or several (``instance=~"a|b"``) with the
+    SNMP exporter's series of those devices (counters, ifOperStatus, ifHighSpeed, ifMtu), a
+    sample every ``scrape_s`` over the range asked, stamped at fixed times. Each device's
+    answer is rendered once per range, so answering costs the server little and a bench
+    times the client. Every query is counted, with the devices and samples it carried."""
+
+    def __init__(self, fleet: Fleet, scrape_s: float = 60.0) -> None:
+        self.fleet = fleet
+        self.scrape_s = scrape_s
+        self.at = fleet.live.epoch + 86_400.0
+        self.queries: list[tuple[int, int]] = []  # (devices, samples) per query
+        self._rendered: dict[tuple[str, int], tuple[bytes, int]] = {}
+        self._lock = threading.Lock()
+        self.server = serve(self._answer)
+        self.url = f"http://127.0.0.1:{self.server.server_address[1]}"
+
+    def _render(self, device: str, scrapes: int) -> tuple[bytes, int]:
+        """The device's series over ``scrapes`` scrapes as JSON, and how many samples."""
+        table = self.fleet.read(device, self.at)
+        times = [self.at - k * self.scrape_s for k in range(scrapes - 1, -1, -1)]
+        parts, samples = [], 0
+
+        def one(name: str, port: str, values: list[int]) -> None:
+            nonlocal samples
+            labels = json.dumps({"__name__": name, "instance": device, "ifName": port})
+            pairs = ",".join(f'[{t:.3f},"{v}"]' for t, v in zip(times, values, strict=True))
+            parts.append(f'{{"metric":{labels},"values":[{pairs}]}}')
+            samples += len(values)
+
+        for row in range(len(table)):
+            port = str(table.port[row])
+            for i, column in enumerate(COLUMNS):
+                if table.present[row, i]:
+                    end = int(table.counters[row, i])
+                    one(
+                        column.name,
+                        port,
+                        [(end - 1000 * k) % 2**column.bits for k in range(scrapes - 1, -1, -1)],
+                    )
+            one("ifOperStatus", port, [1] * scrapes)
+            one("ifHighSpeed", port, [1000] * scrapes)
+            one("ifMtu", port, [1500] * scrapes)
+        return ",".join(parts).encode(), samples
+
+    def scrapes_in(self, span_s: float) -> int:
+        """Scrapes in a range selector of ``span_s`` (left-open, as Prometheus 3 has it)."""
+        return max(1, math.ceil(span_s / self.scrape_s - 1e-9))
+
+    def rendered(self, device: str, scrapes: int) -> tuple[bytes, int]:
+        key = (device, scrapes)
+        with self._lock:
+            if key not in self._rendered and device in self.fleet.names:
+                self._rendered[key] = self._render(device, scrapes)
+            return self._rendered.get(key, (b"", 0))
+
+    def _answer(self, path: str) -> tuple[int, str, bytes]:
+        asked = parse_qs(urlparse(path).query)
+        query = asked["query"][0]
+        one = re.search(r'instance="([^"]+)"', query)
+        many = re.search(r'instance=~"([^"]+)"', query)
+        names = [one.group(1)] if one else (many.group(1).split("|") if many else [])
+        found = re.search(r"\[(\d+)ms\]$", query)
+        span_s = int(found.group(1)) / 1000 if found else 0.0
+        scrapes = self.scrapes_in(span_s)
+        bodies, samples = [], 0
+        for name in names:
+            body, count = self.rendered(name, scrapes)
+            if body:
+                bodies.append(body)
+                samples += count
+        with self._lock:
+            self.queries.append((len(names), samples))
+        head = b'{"status":"success","data":{"resultType":"matrix","result":['
+        return 200, "application/json", head + b",".join(bodies) + b"]}}"
+
+    def close(self) -> None:
+        self.server.shutdown()
+        self.server.server_close()
+
+
+def serve_fleet_api(devices: int, ports: int, scrape_s: float, ready: Any, asked: Any) -> None:
+    """Run a FleetApi in this (child) process until killed; its URL goes to ``ready``, and
+    each query's (devices, samples) to ``asked``, so the bench's client has the machine's
+    other core to itself."""
+    api = FleetApi(Fleet(devices, ports, seed=5), scrape_s)
+    for name in api.fleet.names:  # rendered before the clock starts: both lookbacks
+        for span_s in (2 * scrape_s, 300.0):
+            api.rendered(name, api.scrapes_in(span_s))
+    ready.put(api.url)
+    reported = 0
+    while True:
+        time.sleep(0.2)
+        with api._lock:
+            fresh = api.queries[reported:]
+        for query in fresh:
+            asked.put(query)
+        reported += len(fresh)

@@ -280,24 +280,34 @@ async def _ask_together(key: tuple[Any, ...], span_s: float) -> None:
             for _, answer in asks:
                 answer.set_exception(exc)
             continue
-        for collector, answer in asks:  # one device's query selected its series already
-            answer.set_result(document if len(asks) == 1 else _own_series(document, collector))
+        if len(asks) == 1:  # one device's query selected its series already
+            asks[0][1].set_result(document)
+            continue
+        label = first.options.device_label
+        own = _by_device(document, label)
+        for collector, answer in asks:
+            answer.set_result(own.get(collector.labels[label], _empty(document)))
 
 
-def _own_series(document: Any, collector: PrometheusCollector) -> Any:
-    """The part of a query's answer that is about one device (its label value)."""
+def _by_device(document: Any, label: str) -> dict[str, Any]:
+    """A query's answer split into one answer per value of the device label, in one pass."""
     data = document.get("data") if isinstance(document, dict) else None
     if not isinstance(data, dict) or not isinstance(data.get("result"), list):
-        return document  # left for the device's own reading to refuse
-    result = data["result"]
-    label = collector.options.device_label
-    mine = collector.labels[label]
-    own = [
-        series
-        for series in result
-        if isinstance(series, dict) and series.get("metric", {}).get(label) == mine
-    ]
-    return {**document, "data": {**data, "result": own}}
+        return {}  # each device's own reading refuses the answer
+    split: dict[str, list[Any]] = defaultdict(list)
+    for series in data["result"]:
+        if isinstance(series, dict) and isinstance(series.get("metric"), dict):
+            split[series["metric"].get(label, "")].append(series)
+    return {value: {**document, "data": {**data, "result": own}} for value, own in split.items()}
+
+
+def _empty(document: Any) -> Any:
+    """The answer for a device the query found nothing of (or the answer as it came, when
+    it is not one a device could read)."""
+    data = document.get("data") if isinstance(document, dict) else None
+    if not isinstance(data, dict) or not isinstance(data.get("result"), list):
+        return document
+    return {**document, "data": {**data, "result": []}}
 
 
 class PrometheusCollector(HistoryCollector[PrometheusOptions]):
