@@ -4,8 +4,10 @@ simulated time."""
 
 from __future__ import annotations
 
+import numpy as np
 import pytest
 
+from linktriage.bot import gathering
 from linktriage.bot.triage import Triage
 from linktriage.diagnosis import Model
 from linktriage.network.demo import DemoClock
@@ -94,3 +96,22 @@ def test_the_poll_job_forgets_polls_older_than_the_settings_keep(
     history = triage.store.poll_history()
     assert history.ports == 2 * first.stored
     assert history.oldest is not None and history.oldest >= clock() - kept_h * 3600.0
+
+
+def test_stored_polls_read_by_device_or_by_window_are_the_same(
+    triage: Triage, clock: DemoClock, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    for _ in range(3):
+        triage.gathering.poll_round()
+        clock.sleep(300.0)
+    devices = triage.network.device_names()[:3]
+    since = clock() - 900.0
+    by_index = triage.gathering._stored(devices, since)
+    monkeypatch.setattr(gathering, "FEW_DEVICES", 0)  # as for a network of many devices
+    by_window = triage.gathering._stored(devices, since)
+    assert sorted(by_index) == sorted(by_window) == sorted(devices)
+    for device in devices:
+        a, b = by_index[device], by_window[device]
+        assert len(a) == 3 * len(triage.network.ports_of(device))
+        order_a, order_b = np.lexsort((a.time, a.port)), np.lexsort((b.time, b.port))
+        np.testing.assert_array_equal(a.counters[order_a], b.counters[order_b])

@@ -84,7 +84,10 @@ def test_polls_come_back_as_they_went_in(store: Store) -> None:
 def _diagnosis(store: Store) -> int:
     record = {"device": "sw", "port": "p1", "verdict": "cable_fault", "confidence": 0.9,
               "model_version": "m1"}  # fmt: skip
-    return store.add_diagnosis(record, {"rx_crc_ratio": 1e-4}, at=1.0, origin="chat")
+    (diagnosis_id,) = store.add_diagnoses(
+        [NewAnswer(record, {"rx_crc_ratio": 1e-4}, at=1.0, origin="chat")]
+    )
+    return diagnosis_id
 
 
 def test_the_same_event_stores_one_label(store: Store) -> None:

@@ -413,14 +413,22 @@ class Store:
         return len(table)
 
     def polls_since(
-        self, since: float, *, device: str | None = None, port: str | None = None
+        self,
+        since: float,
+        *,
+        device: str | None = None,
+        devices: Sequence[str] | None = None,
+        port: str | None = None,
     ) -> PollTable:
-        """Stored polls at or after ``since``, for one port, one device or all."""
+        """Stored polls at or after ``since``: of one port, of one device or several (each
+        found by its index), or of every device."""
         query = sa.select(polls_table.c.device, polls_table.c.body).where(
             polls_table.c.time >= since
         )
         if device is not None:
             query = query.where(polls_table.c.device == device)
+        if devices is not None:
+            query = query.where(polls_table.c.device.in_(list(devices)))
         with self._reading("read polls") as conn:
             rows = conn.execute(query.order_by(polls_table.c.time)).all()
         tables = []
@@ -457,22 +465,6 @@ class Store:
             return _history(conn)
 
     # --- diagnoses
-    def add_diagnosis(
-        self,
-        record: dict[str, Any],
-        features: dict[str, float | None],
-        *,
-        at: float,
-        origin: str,
-        asked_by: str | None = None,
-        channel: str | None = None,
-        site: str = "",
-        serves: str = "",
-    ) -> int:
-        """Keep what was answered, and enough to draw it again; returns its id."""
-        answer = NewAnswer(record, features, at, origin, asked_by, channel, site, serves)
-        return self.add_diagnoses([answer])[0]
-
     def add_diagnoses(self, answers: Sequence[NewAnswer]) -> list[int]:
         """Keep many answers in one transaction (a digest's); returns their ids, in order."""
         if not answers:

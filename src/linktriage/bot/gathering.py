@@ -29,6 +29,9 @@ class PollRound:
 #: instead of holding the database for minutes.
 PRUNE_BATCH = 1000
 PRUNE_BATCHES = 20
+#: Up to this many devices, their stored polls are read by the device index; beyond, one
+#: read of every poll of the window costs less than as many lookups.
+FEW_DEVICES = 200
 
 
 @dataclass
@@ -99,15 +102,16 @@ class Gathering:
         return PollTable.concat(tables), failed
 
     def _stored(self, devices: list[str], since: float) -> dict[str, PollTable]:
-        """The stored polls of these devices since ``since``, by device: one device's by
-        its own index, many devices' in one read of every poll since then."""
+        """The stored polls of these devices since ``since``, by device: a few devices'
+        found by their index, many devices' in one read of every poll since then."""
         if not devices:
             return {}
-        if len(devices) == 1:
-            return {devices[0]: self.store.polls_since(since, device=devices[0])}
         wanted = set(devices)
-        every = self.store.polls_since(since)
-        return {name: rows for name, rows in every.by_device() if name in wanted}
+        if len(devices) <= FEW_DEVICES:
+            found = self.store.polls_since(since, devices=devices)
+        else:
+            found = self.store.polls_since(since)
+        return {name: rows for name, rows in found.by_device() if name in wanted}
 
     def _poll_into(
         self, tables: list[PollTable], wanted: dict[str, list[str] | None]

@@ -252,12 +252,29 @@ class _Batch:
 
 
 _pending: dict[tuple[Any, ...], _Batch] = {}
+_sending: set[asyncio.Task[None]] = set()  # held until done: the loop keeps weak references
+
+
+def _send(key: tuple[Any, ...], span_s: float) -> None:
+    task = asyncio.get_running_loop().create_task(_ask_together(key, span_s))
+    _sending.add(task)
+    task.add_done_callback(_sending.discard)
 
 
 async def _ask_together(key: tuple[Any, ...], span_s: float) -> None:
     """Send the batch under ``key`` as one query per BATCH_DEVICES devices, and hand each
-    device the series of its own, or the error, as its own."""
+    device the series of its own, or the error, as its own; whatever else goes wrong is
+    every waiting device's error, never a wait until its deadline."""
     batch = _pending.pop(key)
+    try:
+        await _queries(batch, span_s)
+    except Exception as exc:  # a bug here fails the devices it concerns, as in polling
+        for _, answer in batch.asks:
+            if not answer.done():
+                answer.set_exception(exc)
+
+
+async def _queries(batch: _Batch, span_s: float) -> None:
     for start in range(0, len(batch.asks), BATCH_DEVICES):
         asks = batch.asks[start : start + BATCH_DEVICES]
         first = asks[0][0]
@@ -347,7 +364,7 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
         batch = _pending.get(key)
         if batch is None:
             batch = _pending[key] = _Batch(end)
-            loop.call_later(BATCH_WINDOW_S, lambda: loop.create_task(_ask_together(key, span_s)))
+            loop.call_later(BATCH_WINDOW_S, _send, key, span_s)
         answer: asyncio.Future[Any] = loop.create_future()
         batch.asks.append((self, answer))
         document = await answer
