@@ -348,6 +348,31 @@ def test_an_answer_that_is_not_a_matrix_is_a_bad_answer(api: CannedApi) -> None:
         read_once(collector(api.url))
 
 
+@pytest.mark.parametrize(
+    "body",
+    [
+        b"<html>proxy error</html>",
+        {"status": "success", "data": {"resultType": "matrix", "result": [{"values": 7}]}},
+        {"status": "success", "data": {"resultType": "matrix", "result": "none"}},
+    ],
+)
+def test_an_answer_of_another_shape_is_that_devices_bad_answer(api: CannedApi, body: Any) -> None:
+    api.body = body
+    with pytest.raises(
+        BadAnswerError, match=r"sw0001: answered with something not JSON, or not of the shape"
+    ):
+        read_once(collector(api.url))
+
+
+def test_sample_values_sent_as_numbers_are_read_too(api: CannedApi) -> None:
+    # The API sends values as strings; a store that sends numbers is read all the same.
+    answer = matrix(series("ifHCInOctets", "port1", (100.0, "5")))
+    answer["data"]["result"][0]["values"] = [[100.0, 5]]
+    api.body = answer
+    (snapshot,) = read_once(collector(api.url)).snapshots
+    assert snapshot.counters == {"ifHCInOctets": 5}
+
+
 def test_metric_and_label_names_are_configurable_per_device(api: CannedApi) -> None:
     api.body = {
         "status": "success",

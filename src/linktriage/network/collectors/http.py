@@ -11,6 +11,7 @@ from __future__ import annotations
 import functools
 import json
 import ssl
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -84,16 +85,26 @@ class HttpSession:
             await self._client.aclose()
             self._client = None
 
-    async def get_json(self, url: str, params: dict[str, str] | None = None) -> Any:
-        """GET ``url`` and parse its JSON, with the collector's timeout and retries."""
+    async def get_json(
+        self,
+        url: str,
+        params: dict[str, str] | None = None,
+        decode: Callable[[bytes], Any] = json.loads,
+    ) -> Any:
+        """GET ``url`` and parse its JSON (with ``decode``: the Prometheus collector's is
+        typed), with the collector's timeout and retries."""
         if self._client is None:
             timeout_s = self.collector.target.timeout_s
             self._client = _client(self.options, timeout_s, self.accept)
-        return await _get_json(self.collector, self._client, url, params)
+        return await _get_json(self.collector, self._client, url, params, decode)
 
 
 async def _get_json(
-    collector: Collector[Any], client: Any, url: str, params: dict[str, str] | None
+    collector: Collector[Any],
+    client: Any,
+    url: str,
+    params: dict[str, str] | None,
+    decode: Callable[[bytes], Any],
 ) -> Any:
     import httpx
 
@@ -114,10 +125,11 @@ async def _get_json(
             detail = f": {said}" if said else ""
             raise collector.error(BadAnswerError, f"answered {status} for {url}{detail}")
         try:
-            return json.loads(response.content)
-        except ValueError as exc:
+            return decode(response.content)
+        except ValueError as exc:  # json's and msgspec's decoding errors are ValueErrors
             raise collector.error(
-                BadAnswerError, f"answered with something not JSON: {exc}"
+                BadAnswerError,
+                f"answered with something not JSON, or not of the shape expected: {exc}",
             ) from exc
 
     return await collector.retrying(attempt, f"GET {url}")

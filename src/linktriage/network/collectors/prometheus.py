@@ -37,6 +37,7 @@ from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from typing import Annotated, Any
 
+import msgspec
 from pydantic import Field, ValidationError, field_validator
 
 from linktriage.counters import COLUMN_INDEX, COUNTER64_MAX
@@ -66,6 +67,30 @@ IFSPEED_MAX = 4_294_967_295
 _METRIC_NAME = re.compile(r"^[a-zA-Z_:][a-zA-Z0-9_:]*$")  # the Prometheus data model
 _LABEL_NAME = re.compile(r"^[a-zA-Z_][a-zA-Z0-9_]*$")
 MEDIA_TYPE = "application/json"
+
+
+class Series(msgspec.Struct):
+    """One series of a range query's answer (Prometheus HTTP API, "matrix")."""
+
+    metric: dict[str, str] = {}
+    values: list[tuple[float, str | float]] = []
+
+
+class QueryData(msgspec.Struct):
+    resultType: str = ""  # noqa: N815 (the API's own name)
+    result: list[Series] = []
+
+
+class QueryAnswer(msgspec.Struct):
+    """A query's answer, decoded straight into these types: a large fleet's answer is
+    millions of samples, and typed decoding takes about 40% less time than json.loads."""
+
+    status: str = ""
+    data: QueryData | None = None
+    error: str | None = None
+
+
+_decode_answer = msgspec.json.Decoder(QueryAnswer).decode
 
 
 class PrometheusOptions(HttpOptions):
@@ -144,26 +169,21 @@ def _integer(text: Any) -> int:
 class Samples:
     """A matrix answer sorted out: per port, per scrape time, object -> value."""
 
-    def __init__(self, document: Any, objects: dict[str, str], port_label: str) -> None:
-        data = document.get("data") if isinstance(document, dict) else None
-        if not isinstance(data, dict) or data.get("resultType") != "matrix":
+    def __init__(self, answer: QueryAnswer, objects: dict[str, str], port_label: str) -> None:
+        if answer.data is None or answer.data.resultType != "matrix":
             raise ValueError("the answer holds no matrix of samples")
-        result = data.get("result")
-        if not isinstance(result, list):
-            raise ValueError("the answer's result is not a list")
         self.ports: dict[str, dict[float, dict[str, Any]]] = defaultdict(dict)
         self.device: dict[str, list[tuple[float, Any]]] = {o: [] for o in DEVICE_OBJECTS}
         self.problems: dict[str, str] = {}
         unlabelled = 0
         seen: dict[tuple[str, str], int] = defaultdict(int)
-        for series in result:
-            labels = series.get("metric", {}) if isinstance(series, dict) else {}
+        for series in answer.data.result:
+            labels = series.metric
             obj = objects.get(labels.get("__name__", ""))
-            values = series.get("values") if isinstance(series, dict) else None
-            if obj is None or not isinstance(values, list):
+            if obj is None:
                 continue
             if obj in self.device:
-                self.device[obj] += [(float(t), v) for t, v in values]
+                self.device[obj] += series.values
                 continue
             port = labels.get(port_label)
             if not port:
@@ -171,8 +191,12 @@ class Samples:
                 continue
             seen[(port, obj)] += 1
             times = self.ports[port]
-            for t, v in values:
-                times.setdefault(float(t), {})[obj] = v
+            for t, v in series.values:
+                at = times.get(t)
+                if at is None:
+                    times[t] = {obj: v}
+                else:
+                    at[obj] = v
         for (port, obj), count in seen.items():
             if count > 1:  # two series for one port and metric: which one is the port?
                 self.problems[port] = (
@@ -288,7 +312,8 @@ async def _queries(batch: _Batch, span_s: float) -> None:
             chosen = selector(list(first.objects), rest, any_of=(label, instances))
         query = f"{chosen}[{max(1, math.ceil(span_s * 1000))}ms]"
         try:
-            document = await first.http.get_json(first.url, {"query": query, "time": f"{end:.3f}"})
+            params = {"query": query, "time": f"{end:.3f}"}
+            answer_of_all = await first.http.get_json(first.url, params, _decode_answer)
         except CollectorError as exc:
             for collector, answer in asks:
                 answer.set_exception(collector.error(type(exc), exc.reason))
@@ -298,33 +323,33 @@ async def _queries(batch: _Batch, span_s: float) -> None:
                 answer.set_exception(exc)
             continue
         if len(asks) == 1:  # one device's query selected its series already
-            asks[0][1].set_result(document)
+            asks[0][1].set_result(answer_of_all)
             continue
         label = first.options.device_label
-        own = _by_device(document, label)
+        own = _by_device(answer_of_all, label)
         for collector, answer in asks:
-            answer.set_result(own.get(collector.labels[label], _empty(document)))
+            answer.set_result(own.get(collector.labels[label], _empty(answer_of_all)))
 
 
-def _by_device(document: Any, label: str) -> dict[str, Any]:
+def _by_device(answer: QueryAnswer, label: str) -> dict[str, QueryAnswer]:
     """A query's answer split into one answer per value of the device label, in one pass."""
-    data = document.get("data") if isinstance(document, dict) else None
-    if not isinstance(data, dict) or not isinstance(data.get("result"), list):
+    if answer.data is None:
         return {}  # each device's own reading refuses the answer
-    split: dict[str, list[Any]] = defaultdict(list)
-    for series in data["result"]:
-        if isinstance(series, dict) and isinstance(series.get("metric"), dict):
-            split[series["metric"].get(label, "")].append(series)
-    return {value: {**document, "data": {**data, "result": own}} for value, own in split.items()}
+    split: dict[str, list[Series]] = defaultdict(list)
+    for series in answer.data.result:
+        split[series.metric.get(label, "")].append(series)
+    kind = answer.data.resultType
+    return {
+        value: QueryAnswer(answer.status, QueryData(kind, own), answer.error)
+        for value, own in split.items()
+    }
 
 
-def _empty(document: Any) -> Any:
-    """The answer for a device the query found nothing of (or the answer as it came, when
-    it is not one a device could read)."""
-    data = document.get("data") if isinstance(document, dict) else None
-    if not isinstance(data, dict) or not isinstance(data.get("result"), list):
-        return document
-    return {**document, "data": {**data, "result": []}}
+def _empty(answer: QueryAnswer) -> QueryAnswer:
+    """The answer for a device the query found nothing of."""
+    if answer.data is None:
+        return answer
+    return QueryAnswer(answer.status, QueryData(answer.data.resultType, []), answer.error)
 
 
 class PrometheusCollector(HistoryCollector[PrometheusOptions]):
@@ -367,10 +392,10 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
             loop.call_later(BATCH_WINDOW_S, _send, key, span_s)
         answer: asyncio.Future[Any] = loop.create_future()
         batch.asks.append((self, answer))
-        document = await answer
-        if not isinstance(document, dict) or document.get("status") != "success":
-            said = document.get("error") if isinstance(document, dict) else None
-            raise self.error(BadAnswerError, f"the query failed: {said or document!r}"[:300])
+        document: QueryAnswer = await answer
+        if document.status != "success":
+            said = document.error or document.status or "no status"
+            raise self.error(BadAnswerError, f"the query failed: {said}"[:300])
         try:
             return Samples(document, self.objects, self.options.port_label)
         except (ValueError, TypeError, AttributeError) as exc:
