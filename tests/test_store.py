@@ -286,3 +286,14 @@ def test_many_answers_are_kept_in_one_go_in_their_order(store: Store) -> None:
         stored = store.diagnosis(diagnosis_id)
         assert stored is not None and stored.port == f"p{n}"
     assert store.add_diagnoses([]) == []
+
+
+def test_inspecting_a_store_says_its_size_and_history(database_url: str) -> None:
+    store = Store(database_url)
+    store.add_polls(polls(line(), line(T5, port="port2")))
+    store.close()
+    state = inspect_store(database_url)
+    assert state.created and state.version == MIGRATIONS[-1].version
+    assert state.history == PollHistory(1, 2, polls(line()).time[0], polls(line(T5)).time[0])
+    assert state.size_bytes is not None and state.size_bytes > 0
+    assert state.url == masked_url(database_url)
