@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from sklearn.tree import DecisionTreeClassifier
 
-from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
+from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, diagnose_chunks
 from linktriage.features import FEATURE_NAMES
 from linktriage.network.demo import PLANTED
 from linktriage.render.jsonl import dumps, write_lines
@@ -183,3 +183,16 @@ def test_an_empty_file_diagnoses_no_ports(model: Model) -> None:
     from linktriage.polls import PollTable
 
     assert len(diagnose(PollTable.empty(), model)) == 0
+
+
+@pytest.mark.parametrize("ports", [1, 7, 1000])
+def test_diagnosing_a_chunk_of_ports_at_a_time_gives_the_same_answers_in_order(
+    model: Model, ports: int
+) -> None:
+    root = Path(__file__).resolve().parent.parent / "fixtures" / "snapshots"
+    table = read_snapshot_file(root / "demo-network.jsonl").polls
+    shuffled = table.take(np.random.default_rng(3).permutation(len(table)))  # lines in any order
+    whole = list(diagnose(shuffled, model).records())
+    chunks = list(diagnose_chunks(shuffled, model, ports=ports))
+    assert len(chunks) == -(-len(whole) // ports)
+    assert [r for batch in chunks for r in batch.records()] == whole

@@ -31,7 +31,7 @@ from linktriage.phy import phy_name
 from linktriage.physics import Allowed, allowed
 from linktriage.polls import PollTable
 from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict, cautions, next_checks
-from linktriage.window import DEFAULT_MAX_WINDOW_S, WindowTable, compute_windows
+from linktriage.window import DEFAULT_MAX_WINDOW_S, WindowTable, compute_windows, port_codes
 from linktriage.wording import (
     GUARD_POLLS,
     GUARD_TRAFFIC,
@@ -398,6 +398,32 @@ def diagnose(
     """Diagnose every port in ``polls`` with ``model``."""
     with collector_paused():  # per-port lists of small acyclic objects (see linktriage.bulk)
         return _diagnose(polls, model, max_window_s)
+
+
+#: Ports diagnosed at once by diagnose_chunks: the working arrays of a chunk take a few
+#: tens of MB, where a whole file's took more than the file itself.
+CHUNK_PORTS = 5000
+
+
+def diagnose_chunks(
+    polls: PollTable,
+    model: Model,
+    *,
+    max_window_s: float = DEFAULT_MAX_WINDOW_S,
+    ports: int = CHUNK_PORTS,
+) -> Iterator[DiagnosisBatch]:
+    """The diagnoses :func:`diagnose` gives, in the same order, ``ports`` ports at a time,
+    so that a large file is diagnosed and written in little more memory than its polls."""
+    codes, count = port_codes(polls)
+    if count <= ports:
+        yield diagnose(polls, model, max_window_s=max_window_s)
+        return
+    order = np.argsort(codes, kind="stable")
+    starts = np.searchsorted(codes[order], np.arange(0, count, ports))
+    ends = [*starts[1:].tolist(), len(order)]
+    for start, end in zip(starts.tolist(), ends, strict=True):
+        rows = np.sort(order[start:end])  # the rows in file order, as diagnose reads them
+        yield diagnose(polls.take(rows), model, max_window_s=max_window_s)
 
 
 def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisBatch:

@@ -145,6 +145,7 @@ def read_snapshots(lines: Iterable[bytes | str]) -> ReadResult:
     tables: list[PollTable] = []
     numbers: list[int] = []
     snaps: list[_Parsed] = []
+    strings: dict[str, str] = {}
     validate = Snapshot.model_validate_json
     fast = _fast_decode
     # Lines are validated and turned into columns a chunk at a time, so few snapshot objects
@@ -167,9 +168,9 @@ def read_snapshots(lines: Iterable[bytes | str]) -> ReadResult:
                     continue
             numbers.append(number)
             if len(snaps) == _CHUNK:
-                tables.append(_table_of(snaps, np.asarray(numbers, np.int64)))
+                tables.append(_table_of(snaps, np.asarray(numbers, np.int64), strings))
                 snaps, numbers = [], []
-        tables.append(_table_of(snaps, np.asarray(numbers, np.int64)))
+        tables.append(_table_of(snaps, np.asarray(numbers, np.int64), strings))
     return _drop_counter32_overflows(PollTable.concat(tables), problems)
 
 
@@ -190,9 +191,14 @@ def _floats(values: list[float | None]) -> np.ndarray:
     return np.array([np.nan if v is None else v for v in values], np.float64)
 
 
-def _table_of(snaps: Sequence[_Parsed], numbers: np.ndarray) -> PollTable:
-    """Columns of validated snapshots; one pass per column keeps the per-line cost low."""
+def _table_of(
+    snaps: Sequence[_Parsed], numbers: np.ndarray, strings: dict[str, str] | None = None
+) -> PollTable:
+    """Columns of validated snapshots; one pass per column keeps the per-line cost low.
+    Device and port names go through ``strings``, so a name repeated on many lines (of a
+    large file, read a chunk at a time) is held once."""
     n = len(snaps)
+    one = ({} if strings is None else strings).setdefault
     values: list[int] = []
     col_parts: list[np.ndarray] = []
     # Lines from one poller name the same counters in the same order: map each distinct
@@ -227,8 +233,8 @@ def _table_of(snaps: Sequence[_Parsed], numbers: np.ndarray) -> PollTable:
         None if s.discontinuity_time is None else s.discontinuity_time.timestamp() for s in snaps
     ]
     return PollTable.from_columns(
-        device=[s.device for s in snaps],
-        port=[s.port for s in snaps],
+        device=[one(s.device, s.device) for s in snaps],
+        port=[one(s.port, s.port) for s in snaps],
         time=[s.time.timestamp() for s in snaps],
         oper_status=[s.oper_status for s in snaps],
         state={

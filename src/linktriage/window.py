@@ -86,10 +86,17 @@ class WindowTable:
         return len(self.device)
 
 
+def port_codes(polls: PollTable) -> tuple[npt.NDArray[np.intp], int]:
+    """Each row's port as a number, numbered in the order ports first appear, and how many
+    ports there are: the order windows, and so diagnoses, come in."""
+    keys = polls.device.astype(object) + "\x1f" + polls.port.astype(object)
+    codes, uniques = pd.factorize(pd.Series(keys, dtype=object), sort=False)
+    return np.asarray(codes, np.intp), len(uniques)
+
+
 def compute_windows(polls: PollTable, *, max_window_s: float = DEFAULT_MAX_WINDOW_S) -> WindowTable:
     """Group polls by port and compute each port's window (see the module docstring)."""
-    keys = polls.device.astype(object) + "\x1f" + polls.port.astype(object)
-    codes, _ = pd.factorize(pd.Series(keys, dtype=object), sort=False)
+    codes, _ = port_codes(polls)
     order = np.lexsort((polls.time, codes))
     codes_s = codes[order]
     time_s = polls.time[order]

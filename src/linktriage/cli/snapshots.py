@@ -40,7 +40,7 @@ def diagnose(
     Lines that do not parse or fail validation are reported on standard error with their
     line numbers and skipped; the rest of the file is still diagnosed.
     """
-    from linktriage.diagnosis import Model, diagnose
+    from linktriage.diagnosis import Model, diagnose, diagnose_chunks
     from linktriage.render.formats import RENDERERS
     from linktriage.snapshot import read_snapshot_file
 
@@ -48,12 +48,21 @@ def diagnose(
     result = read_snapshot_file(path)
     for problem in result.problems:
         click.echo(words.line_skipped(path, problem.line, problem.message), err=True)
-    batch = diagnose(result.polls, model, max_window_s=window_s)
-    rows: Sequence[int] = range(len(batch))
-    if suspects:
-        rows = [i for i in rows if batch.verdict[i] in FAULTS]
-    RENDERERS["json" if as_json else "text"](batch, rows, sys.stdout)
-    click.echo(words.diagnosed(len(result.polls), len(batch), len(result.problems)), err=True)
+    # JSON Lines go out a chunk of ports at a time; the text table sizes its columns to
+    # every row, so it is drawn whole.
+    batches = (
+        diagnose_chunks(result.polls, model, max_window_s=window_s)
+        if as_json
+        else iter([diagnose(result.polls, model, max_window_s=window_s)])
+    )
+    ports = 0
+    for batch in batches:
+        rows: Sequence[int] = range(len(batch))
+        if suspects:
+            rows = [i for i in rows if batch.verdict[i] in FAULTS]
+        RENDERERS["json" if as_json else "text"](batch, rows, sys.stdout)
+        ports += len(batch)
+    click.echo(words.diagnosed(len(result.polls), ports, len(result.problems)), err=True)
 
 
 @click.command()
