@@ -38,7 +38,6 @@ from enum import IntEnum
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
-from scipy import sparse
 
 from linktriage.counters import COLUMN_INDEX, COLUMNS, QUANTITIES, max_rate_per_second
 from linktriage.polls import OPTICS_FIELDS, STATE_FIELDS, FloatArray, PollTable
@@ -212,14 +211,17 @@ def _windows_of_sorted(
     )
     used = interval & (idx > win_start[group_of_row])
 
-    # Sum the used intervals of each port: a sparse (ports x intervals) matrix of ones.
-    # A NaN in a used interval carries into the sum: that quantity is unknown for the window.
-    summing = sparse.csr_array(
-        (np.ones(int(used.sum())), (group_of_row[used], idx[used])), shape=(len(starts), m)
-    )
+    # Sum the used intervals of each port, one after another in time order (np.add.at adds
+    # unbuffered, in index order). A NaN in a used interval carries into the sum: that
+    # quantity is unknown for the window.
+    def summed(values: FloatArray) -> FloatArray:
+        out = np.zeros((len(starts), *values.shape[1:]))
+        np.add.at(out, group_of_row[used], values[used])
+        return out
+
     delta_rows = np.where(both & ~ambiguous, raw_f, np.nan)
     sums = np.full((len(starts), len(COLUMNS)), np.nan)
-    sums[:, active] = summing @ delta_rows
+    sums[:, active] = summed(delta_rows)
     polls_used = last - win_start + 1
     sums[polls_used < 2] = np.nan  # no interval at all: nothing is known, not zero
     deltas = {q.key: _pick(sums, q.hc, q.c32) for q in QUANTITIES}
@@ -250,8 +252,8 @@ def _windows_of_sorted(
         state={k: st[k][last] for k in STATE_FIELDS},
         optics={k: p.optics[k][last] for k in OPTICS_FIELDS},
         deltas=deltas,
-        link_changes=summing @ lc_rows,
-        status_changes=(summing @ flips).astype(np.int64),
+        link_changes=summed(lc_rows),
+        status_changes=summed(flips).astype(np.int64),
     )
 
 
