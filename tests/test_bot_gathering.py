@@ -25,7 +25,7 @@ def test_a_port_with_no_history_gets_two_polls_a_quick_window_apart(triage: Tria
     assert reply.record["verdict"] == "cable_fault"
     assert waited == [30.0]
     assert reply.record["window_s"] == 30.0
-    assert len(triage.store.polls_since(0.0, device="lark-east-idf2", port="port14")) == 2
+    assert len(triage.store.polls_since(0.0, devices=["lark-east-idf2"], port="port14")) == 2
     stored = triage.store.diagnosis(reply.diagnosis_id)
     assert stored is not None and stored.verdict == "cable_fault"
     assert stored.features["ber_over_objective"] is not None

@@ -75,7 +75,7 @@ def test_polls_come_back_as_they_went_in(store: Store) -> None:
     assert store.add_polls(first) == 1 and store.add_polls(second) == 1
     back = store.polls_since(0.0)
     np.testing.assert_array_equal(back.counters, np.concatenate([first.counters, second.counters]))
-    assert list(store.polls_since(0.0, device="lark-test-sw1", port="port2").port) == ["port2"]
+    assert list(store.polls_since(0.0, devices=["lark-test-sw1"], port="port2").port) == ["port2"]
     assert len(store.polls_since(second.time.max() + 1)) == 0
     assert store.prune_polls(second.time.max()) == 1  # the first poll, not the second
     assert list(store.polls_since(0.0).port) == ["port2"]

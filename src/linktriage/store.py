@@ -416,17 +416,14 @@ class Store:
         self,
         since: float,
         *,
-        device: str | None = None,
         devices: Sequence[str] | None = None,
         port: str | None = None,
     ) -> PollTable:
-        """Stored polls at or after ``since``: of one port, of one device or several (each
-        found by its index), or of every device."""
+        """Stored polls at or after ``since``: of some devices (each found by its index; with
+        ``port``, of that port of theirs), or of every device."""
         query = sa.select(polls_table.c.device, polls_table.c.body).where(
             polls_table.c.time >= since
         )
-        if device is not None:
-            query = query.where(polls_table.c.device == device)
         if devices is not None:
             query = query.where(polls_table.c.device.in_(list(devices)))
         with self._reading("read polls") as conn:
