@@ -128,18 +128,37 @@ class Gathering:
         return dict(gathered.failed)
 
 
+@dataclass(frozen=True, slots=True)
+class _History:
+    """Each port's polls in a table: how many, the oldest and the newest time."""
+
+    counts: dict[str, int]
+    oldest: dict[str, float]
+    newest: dict[str, float]
+
+    @classmethod
+    def of(cls, table: PollTable) -> _History:
+        names, which = np.unique(table.port.astype(str), return_inverse=True)
+        oldest = np.full(len(names), np.inf)
+        newest = np.full(len(names), -np.inf)
+        np.minimum.at(oldest, which, table.time)
+        np.maximum.at(newest, which, table.time)
+        counts = np.bincount(which, minlength=len(names))
+        keys = names.tolist()
+        return cls(
+            dict(zip(keys, counts.tolist(), strict=True)),
+            dict(zip(keys, oldest.tolist(), strict=True)),
+            dict(zip(keys, newest.tolist(), strict=True)),
+        )
+
+
 def _spans(table: PollTable, ports: list[str], quick: float) -> bool:
     """Whether every port has two polls or more in ``table``, spanning ``quick`` seconds."""
-    if not len(table):
-        return False
-    names, which = np.unique(table.port.astype(str), return_inverse=True)
-    oldest = np.full(len(names), np.inf)
-    newest = np.full(len(names), -np.inf)
-    np.minimum.at(oldest, which, table.time)
-    np.maximum.at(newest, which, table.time)
-    counts = np.bincount(which, minlength=len(names))
-    covered = set(names[(counts >= 2) & (newest - oldest >= quick)].tolist())
-    return all(port in covered for port in ports)
+    seen = _History.of(table)
+    return all(
+        seen.counts.get(port, 0) >= 2 and seen.newest[port] - seen.oldest[port] >= quick
+        for port in ports
+    )
 
 
 def _short_of(
@@ -149,9 +168,7 @@ def _short_of(
     ``now``, with how long to wait until it does; ports with none count only if
     ``absent`` (a source that keeps history and has none for a port will not after a
     wait either)."""
-    oldest: dict[str, float] = {}
-    for port, at in zip(table.port.tolist(), table.time.tolist(), strict=True):
-        oldest[port] = min(at, oldest.get(port, at))
+    oldest = _History.of(table).oldest
     short: dict[str, float] = {}
     for port in ports:
         if port in oldest and now - oldest[port] < quick:
