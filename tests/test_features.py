@@ -21,7 +21,7 @@ TRAFFIC = {"ifHCInOctets": 10**10, "ifHCInUcastPkts": 10**7, "ifHCOutUcastPkts":
 
 def features(grow: dict[str, int], **fields: Any) -> tuple[dict[str, float], dict[str, bool]]:
     rows = feature_rows(measure(compute_windows(polls(*grown(grow, **{**GIG, **fields})))).table)
-    return rows.values.iloc[0].to_dict(), rows.reported.iloc[0].to_dict()
+    return rows.values.row(0), rows.reported.row(0)
 
 
 def test_a_port_reporting_only_traffic_gives_the_values_of_nothing_counted() -> None:

@@ -1,9 +1,12 @@
-"""An import-light core: diagnosing needs numpy, pandas, scipy and pydantic, not scikit-learn."""
+"""An import-light core: diagnosing needs numpy, msgspec and pydantic; not scikit-learn, and
+not pandas or scipy (a third of a second to import, more than a one-port answer takes)."""
 
 from __future__ import annotations
 
+import json
 import subprocess
 import sys
+from pathlib import Path
 
 import pytest
 
@@ -31,6 +34,51 @@ def loaded_after(statement: str) -> set[str]:
 )
 def test_the_core_loads_no_heavy_library(statement: str) -> None:
     assert loaded_after(statement).isdisjoint(HEAVY)
+
+
+@pytest.mark.parametrize(
+    "statement",
+    [
+        "import linktriage.snapshot",
+        "import linktriage.measures",
+        "import linktriage.physics",
+        "from linktriage.diagnosis import Model, diagnose; Model.load()",
+        "import linktriage.render.text",
+        "import linktriage.render.jsonl",
+    ],
+)
+def test_the_engine_path_loads_neither_pandas_nor_scipy(statement: str) -> None:
+    assert loaded_after(statement).isdisjoint({"pandas", "scipy"})
+
+
+def test_diagnosing_a_clean_port_from_the_command_line_loads_neither_pandas_nor_scipy(
+    tmp_path: Path,
+) -> None:
+    # scipy's inverse beta is loaded only once some port counted errors (linktriage.measures).
+    line = {
+        "device": "lark-core1",
+        "port": "up1",
+        "time": "2026-12-02T10:00:00Z",
+        "oper_status": "up",
+        "counters": {"ifHCInUcastPkts": 10**6, "ifInErrors": 0},
+    }
+    later = {
+        **line,
+        "time": "2026-12-02T10:05:00Z",
+        "counters": {"ifHCInUcastPkts": 2 * 10**6, "ifInErrors": 0},
+    }
+    path = tmp_path / "one.jsonl"
+    path.write_text(json.dumps(line) + "\n" + json.dumps(later) + "\n", encoding="utf-8")
+    statement = (
+        "from linktriage.cli import main\n"
+        "try:\n"
+        f"    main(['diagnose', '--json', '--snapshots', {str(path)!r}])\n"
+        "except SystemExit:\n"
+        "    pass"
+    )
+    loaded = loaded_after(f"exec({statement!r})")
+    assert "linktriage" in loaded
+    assert loaded.isdisjoint({"pandas", "scipy", *HEAVY})
 
 
 def test_the_package_root_itself_loads_almost_nothing() -> None:

@@ -28,7 +28,7 @@ TEN_G_FIBER = {"speed_bps": 10**10, "max_speed_bps": 10**10, "duplex": "full", "
 def measures(grow: dict[str, int], **fields: Any) -> dict[str, Any]:
     state = {**GIG, **fields}
     measured = measure(compute_windows(polls(*grown(grow, **state))))
-    row: dict[str, Any] = measured.table.iloc[0].to_dict()
+    row = measured.table.row(0)
     row["note"] = measured.counter_faults[0]
     return row
 

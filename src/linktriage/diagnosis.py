@@ -17,9 +17,9 @@ from typing import TypedDict
 
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
 
 from linktriage.bulk import collector_paused
+from linktriage.columns import Columns
 from linktriage.errors import ModelError
 from linktriage.evidence import EvidenceRecord, evidence_of, item
 from linktriage.features import FEATURE_NAMES, FeatureRows, feature_rows
@@ -181,7 +181,7 @@ class DiagnosisBatch:
 
     model: Model
     windows: WindowTable
-    measures: pd.DataFrame
+    measures: Columns
     features: FeatureRows
     allowed: Allowed
     device: list[str]
@@ -480,11 +480,11 @@ def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisB
         confidence=np.where(is_guarded, 1.0, confidence).round(4).tolist(),
         node=np.where(is_guarded, -1, node).tolist(),
         ruled_out=ruled_out,
-        values=rows.values.to_numpy(np.float64),
-        reported=rows.reported.to_numpy(np.bool_),
-        fiber=_flags(m["fiber"].to_numpy()),
+        values=rows.values.matrix(np.float64),
+        reported=rows.reported.matrix(np.bool_),
+        fiber=_flags(m["fiber"]),
         poe=_flags(windows.state["poe"]),
-        phy=_phy_names(m["speed_bps"].to_numpy(), m["fiber"].to_numpy()),
+        phy=_phy_names(m["speed_bps"], m["fiber"]),
         window_s=windows.window_s.tolist(),
         polls=windows.polls_used.tolist(),
         note=notes,

@@ -20,8 +20,8 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
 
+from linktriage.columns import Columns
 from linktriage.measures import MIN_COLLISIONS, MIN_EVENTS
 from linktriage.polls import FloatArray
 
@@ -67,12 +67,12 @@ def _log10(x: FloatArray) -> FloatArray:
 class FeatureRows:
     """The tree's inputs per port, and which of them the device's counters actually gave."""
 
-    values: pd.DataFrame  # FEATURE_NAMES columns, float64, never NaN
-    reported: pd.DataFrame  # FEATURE_NAMES columns, bool
+    values: Columns  # FEATURE_NAMES columns, float64, never NaN
+    reported: Columns  # FEATURE_NAMES columns, bool
 
     def matrix(self) -> npt.NDArray[np.float32]:
         """The feature columns as the float32 matrix trees compare on (scikit-learn's dtype)."""
-        return np.ascontiguousarray(self.values.to_numpy(np.float32))
+        return self.values.matrix(np.float32)
 
 
 def _counted(ratio: FloatArray, count: FloatArray, least: float) -> FloatArray:
@@ -81,37 +81,31 @@ def _counted(ratio: FloatArray, count: FloatArray, least: float) -> FloatArray:
     return np.where(np.isnan(count), np.nan, np.where(count >= least, ratio, 0.0))
 
 
-def feature_rows(m: pd.DataFrame) -> FeatureRows:
+def feature_rows(m: Columns) -> FeatureRows:
     """Every feature of :data:`FEATURES` from the measures of each port."""
-    errors = m["rx_errors"].to_numpy()
-    ber_lo = _counted(m["ber_lo"].to_numpy(), errors, MIN_EVENTS)
-    hours = m["window_s"].to_numpy() / 3600.0
-    quiet = np.fmin(m["rx_fps"].to_numpy(), m["tx_fps"].to_numpy())
-    runts = m["runts"].to_numpy()
+    errors = m["rx_errors"]
+    ber_lo = _counted(m["ber_lo"], errors, MIN_EVENTS)
+    hours = m["window_s"] / 3600.0
+    quiet = np.fmin(m["rx_fps"], m["tx_fps"])
+    runts = m["runts"]
     raw = {
-        "ber_over_objective": _log10(ber_lo / m["objective"].to_numpy()),
-        "runts_vs_collisions": _counted(m["runts_vs_collisions"].to_numpy(), runts, MIN_EVENTS),
+        "ber_over_objective": _log10(ber_lo / m["objective"]),
+        "runts_vs_collisions": _counted(m["runts_vs_collisions"], runts, MIN_EVENTS),
         "late_collision_ratio": _log10(
-            _counted(m["late_ratio"].to_numpy(), m["late_collisions"].to_numpy(), MIN_COLLISIONS)
+            _counted(m["late_ratio"], m["late_collisions"], MIN_COLLISIONS)
         ),
-        "collision_ratio": _log10(
-            _counted(m["collision_ratio"].to_numpy(), m["collisions"].to_numpy(), MIN_COLLISIONS)
-        ),
-        "half_duplex": m["half_duplex_seen"].to_numpy(),
-        "speed_ratio": m["speed_ratio"].to_numpy(),
-        "giant_ratio": _log10(
-            _counted(m["giant_ratio"].to_numpy(), m["giants"].to_numpy(), MIN_EVENTS)
-        ),
-        "light_margin_db": m["light_margin_db"].to_numpy(),
-        "tx_margin_db": m["tx_margin_db"].to_numpy(),
+        "collision_ratio": _log10(_counted(m["collision_ratio"], m["collisions"], MIN_COLLISIONS)),
+        "half_duplex": m["half_duplex_seen"],
+        "speed_ratio": m["speed_ratio"],
+        "giant_ratio": _log10(_counted(m["giant_ratio"], m["giants"], MIN_EVENTS)),
+        "light_margin_db": m["light_margin_db"],
+        "tx_margin_db": m["tx_margin_db"],
         # Down/up cycles per hour, over an hour at least: one flap in a five-minute window
         # is one flap, not twelve an hour.
-        "flaps_per_hour": m["link_changes"].to_numpy() / 2.0 / np.maximum(hours, 1.0),
+        "flaps_per_hour": m["link_changes"] / 2.0 / np.maximum(hours, 1.0),
         "quiet_fps": _log10(quiet),
-        "discard_ratio": _log10(
-            _counted(m["discard_ratio"].to_numpy(), m["discards"].to_numpy(), MIN_EVENTS)
-        ),
-        "discard_utilisation": m["discard_util"].to_numpy(),
+        "discard_ratio": _log10(_counted(m["discard_ratio"], m["discards"], MIN_EVENTS)),
+        "discard_utilisation": m["discard_util"],
     }
     values = {}
     reported = {}
@@ -120,7 +114,4 @@ def feature_rows(m: pd.DataFrame) -> FeatureRows:
         known = ~np.isnan(v)
         reported[f.name] = known
         values[f.name] = np.clip(np.where(known, v, f.neutral), f.low, f.high)
-    return FeatureRows(
-        pd.DataFrame(values, columns=list(FEATURE_NAMES)),
-        pd.DataFrame(reported, columns=list(FEATURE_NAMES)),
-    )
+    return FeatureRows(Columns(values), Columns(reported))

@@ -26,8 +26,8 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
 
+from linktriage.columns import Columns
 from linktriage.counters import MAX_UNTAGGED_FRAME_OCTETS, MIN_FRAME_OCTETS, QUANTITIES
 from linktriage.phy import (
     HALF_DUPLEX_MAX_BPS,
@@ -94,7 +94,7 @@ _EVENT_SLACK = 1.02
 class Measured:
     """The measures of every port, and per port the counter faults left out (for its note)."""
 
-    table: pd.DataFrame
+    table: Columns
     counter_faults: list[str]
 
 
@@ -159,11 +159,11 @@ def speed_media_pairs(
     each port's pair: work that depends only on them is done once per pair, not per port."""
     medium = np.nan_to_num(fiber, nan=-1.0) + 1.0  # 0 unknown, 1 copper, 2 fiber
     keys = np.nan_to_num(speed, nan=-1.0) * 4.0 + medium  # exact: speeds are whole b/s
-    codes, uniques = pd.factorize(keys)
+    uniques, codes = np.unique(keys, return_inverse=True)
     pairs = [
         (float(k // 4.0), None if k % 4.0 == 0 else bool(k % 4.0 == 2)) for k in uniques.tolist()
     ]
-    return pairs, codes
+    return pairs, codes.astype(np.intp)
 
 
 def _per_pair(speed: FloatArray, fiber: FloatArray, f: object) -> FloatArray:
@@ -297,7 +297,7 @@ def measure(w: WindowTable) -> Measured:
     )
     link_changes = np.where(np.isnan(w.link_changes), w.status_changes, w.link_changes)
 
-    table = pd.DataFrame(
+    table = Columns(
         {
             "window_s": window_s,
             "speed_bps": speed,

@@ -20,10 +20,11 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
 
+from linktriage.columns import Columns
 from linktriage.measures import MIN_COLLISIONS, MIN_EVENTS
 from linktriage.phy import half_duplex_exists
+from linktriage.polls import FloatArray
 from linktriage.verdicts import TREE_VERDICTS, Verdict
 
 BoolArray = npt.NDArray[np.bool_]
@@ -51,8 +52,8 @@ NEAR_TX_DB = 1.0
 HOT_C = 70.0
 
 
-def _ge(values: pd.Series, least: float) -> BoolArray:
-    return np.asarray(values.to_numpy() >= least, np.bool_)  # NaN: False
+def _ge(values: FloatArray, least: float) -> BoolArray:
+    return np.asarray(values >= least, np.bool_)  # NaN: False
 
 
 @dataclass(frozen=True, slots=True)
@@ -77,31 +78,30 @@ class Signs:
     congested: BoolArray
 
     @classmethod
-    def read(cls, m: pd.DataFrame) -> Signs:
-        rx_errors = m["rx_errors"].to_numpy()
-        quiet = np.fmin(m["rx_frames"].to_numpy(), m["tx_frames"].to_numpy())
-        busy = np.fmax(m["rx_fps"].to_numpy(), m["tx_fps"].to_numpy())
-        fps_known = ~np.isnan(m["rx_fps"].to_numpy()) & ~np.isnan(m["tx_fps"].to_numpy())
+    def read(cls, m: Columns) -> Signs:
+        rx_errors = m["rx_errors"]
+        quiet = np.fmin(m["rx_frames"], m["tx_frames"])
+        busy = np.fmax(m["rx_fps"], m["tx_fps"])
+        fps_known = ~np.isnan(m["rx_fps"]) & ~np.isnan(m["tx_fps"])
         return cls(
-            enough_frames=(m["rx_frames"] >= m["frames_needed"]).to_numpy(),
-            errors=(rx_errors >= MIN_EVENTS) & (m["ber_lo"] > m["objective"]).to_numpy(),
+            enough_frames=(m["rx_frames"] >= m["frames_needed"]),
+            errors=(rx_errors >= MIN_EVENTS) & (m["ber_lo"] > m["objective"]),
             flapping=_ge(m["link_changes"], FLAPPING_CHANGES),
             late=_ge(m["late_collisions"], MIN_COLLISIONS),
             runts=_ge(m["runts"], MIN_EVENTS) & (rx_errors >= MIN_EVENTS),
-            half=(m["half_duplex_seen"] == 1.0).to_numpy(),
-            slow=(m["speed_ratio"] < 1.0).to_numpy(),
-            half_exists=half_duplex_exists(m["speed_bps"].to_numpy(), m["fiber"].to_numpy()) == 1.0,
+            half=(m["half_duplex_seen"] == 1.0),
+            slow=(m["speed_ratio"] < 1.0),
+            half_exists=half_duplex_exists(m["speed_bps"], m["fiber"]) == 1.0,
             giants=_ge(m["giants"], MIN_EVENTS),
-            optics=(m["has_optics"] == 1.0).to_numpy(),
-            light_low=(m["light_margin_db"] < 0.0).to_numpy(),
-            light_under_alarm=(m["floor_margin_db"] < 0.0).to_numpy(),
-            tx_low=(m["tx_margin_db"] < NEAR_TX_DB).to_numpy(),
-            hot=(m["temperature_c"] > HOT_C).to_numpy(),
+            optics=(m["has_optics"] == 1.0),
+            light_low=(m["light_margin_db"] < 0.0),
+            light_under_alarm=(m["floor_margin_db"] < 0.0),
+            tx_low=(m["tx_margin_db"] < NEAR_TX_DB),
+            hot=(m["temperature_c"] > HOT_C),
             silent=fps_known
-            & (quiet <= np.fmax(SILENT_FRAMES, SILENT_FPS * m["window_s"].to_numpy()))
+            & (quiet <= np.fmax(SILENT_FRAMES, SILENT_FPS * m["window_s"]))
             & (busy >= ALIVE_FPS),
-            congested=_ge(m["discards"], MIN_EVENTS)
-            & (m["discard_util"] >= CONGESTED_UTILISATION).to_numpy(),
+            congested=_ge(m["discards"], MIN_EVENTS) & (m["discard_util"] >= CONGESTED_UTILISATION),
         )
 
 
@@ -236,10 +236,10 @@ class Allowed:
         return None if k < 0 else RULES[k]
 
 
-def allowed(measures: pd.DataFrame) -> Allowed:
+def allowed(measures: Columns) -> Allowed:
     """Which tree verdicts each port's readings allow (:data:`RULES`)."""
     signs = Signs.read(measures)
-    n = len(measures)
+    n = measures.rows
     broken = np.full((n, len(TREE_VERDICTS)), -1, np.intp)
     for k, rule in reversed(list(enumerate(RULES))):  # reversed: the first failing rule wins
         fails = ~rule.holds(signs)

@@ -37,7 +37,6 @@ from enum import IntEnum
 
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
 
 from linktriage.counters import COLUMN_INDEX, COLUMNS, QUANTITIES, max_rate_per_second
 from linktriage.polls import OPTICS_FIELDS, STATE_FIELDS, FloatArray, PollTable
@@ -88,9 +87,11 @@ class WindowTable:
 def port_codes(polls: PollTable) -> tuple[npt.NDArray[np.intp], int]:
     """Each row's port as a number, numbered in the order ports first appear, and how many
     ports there are: the order windows, and so diagnoses, come in."""
-    keys = polls.device.astype(object) + "\x1f" + polls.port.astype(object)
-    codes, uniques = pd.factorize(pd.Series(keys, dtype=object), sort=False)
-    return np.asarray(codes, np.intp), len(uniques)
+    numbers: dict[tuple[str, str], int] = {}
+    number = numbers.setdefault
+    keys = zip(polls.device.tolist(), polls.port.tolist(), strict=True)
+    codes = [number(key, len(numbers)) for key in keys]
+    return np.array(codes, np.intp), len(numbers)
 
 
 def compute_windows(polls: PollTable, *, max_window_s: float = DEFAULT_MAX_WINDOW_S) -> WindowTable:
