@@ -9,8 +9,9 @@ for "not reported", so numpy and the tree see one representation of "unknown".
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
@@ -120,6 +121,56 @@ class PollTable:
             (str(name), self.take(order[start:end]))
             for name, start, end in zip(names.tolist(), starts.tolist(), ends, strict=True)
         ]
+
+    @classmethod
+    def grown(cls, chunks: Iterable[PollTable]) -> PollTable:
+        """All rows of ``chunks`` in order, like :meth:`concat`, copied as each chunk comes
+        into arrays that grow in place (realloc, not copy): a large file read a chunk at a
+        time is held once, never once in chunks and again whole."""
+        names: dict[str, list[str]] = {"device": [], "port": [], "oper_status": []}
+        columns: dict[str, npt.NDArray[Any]] = {}
+        rows = capacity = 0
+        for chunk in chunks:
+            parts = chunk._numbers()
+            end = rows + len(chunk)
+            if end > capacity:
+                # numpy zero-fills what a resize adds: grow by a quarter, not double, so at
+                # most a quarter more than the rows is ever touched.
+                capacity = max(capacity + capacity // 4, end)
+                for name, part in parts.items():
+                    column = columns.setdefault(name, np.empty((0, *part.shape[1:]), part.dtype))
+                    column.resize((capacity, *part.shape[1:]), refcheck=False)
+            for name, part in parts.items():
+                columns[name][rows:end] = part
+            for name, values in names.items():
+                values.extend(getattr(chunk, name).tolist())
+            rows = end
+        if not rows:
+            return cls.empty()
+        for column in columns.values():
+            column.resize((rows, *column.shape[1:]), refcheck=False)
+        return cls(
+            device=np.array(names["device"], object),
+            port=np.array(names["port"], object),
+            time=columns["time"],
+            oper_status=np.array(names["oper_status"], object),
+            state={k: columns[f"state.{k}"] for k in STATE_FIELDS},
+            optics={k: columns[f"optics.{k}"] for k in OPTICS_FIELDS},
+            counters=columns["counters"],
+            present=columns["present"],
+            line=columns["line"],
+        )
+
+    def _numbers(self) -> dict[str, npt.NDArray[Any]]:
+        """Every numeric column by a flat name (``state.mtu``, ``optics.bias_ma``, ...)."""
+        return {
+            "time": self.time,
+            **{f"state.{k}": v for k, v in self.state.items()},
+            **{f"optics.{k}": v for k, v in self.optics.items()},
+            "counters": self.counters,
+            "present": self.present,
+            "line": self.line,
+        }
 
     @classmethod
     def concat(cls, tables: Sequence[PollTable]) -> PollTable:

@@ -142,36 +142,45 @@ _CHUNK = 4096
 def read_snapshots(lines: Iterable[bytes | str]) -> ReadResult:
     """Parse snapshot lines into a poll table, reporting and skipping every bad line."""
     problems: list[LineProblem] = []
-    tables: list[PollTable] = []
+    # Lines are validated and turned into columns a chunk at a time, so few snapshot objects
+    # are alive at once; they hold no reference cycles (see linktriage.bulk).
+    with collector_paused():
+        table = PollTable.grown(_chunks(lines, problems))
+    problems.sort(key=lambda p: p.line)
+    return ReadResult(table, problems)
+
+
+def _chunks(lines: Iterable[bytes | str], problems: list[LineProblem]) -> Iterator[PollTable]:
+    """The usable lines as poll tables of up to :data:`_CHUNK` rows; bad lines go to
+    ``problems``."""
     numbers: list[int] = []
     snaps: list[_Parsed] = []
     strings: dict[str, str] = {}
     validate = Snapshot.model_validate_json
     fast = _fast_decode
-    # Lines are validated and turned into columns a chunk at a time, so few snapshot objects
-    # are alive at once; they hold no reference cycles (see linktriage.bulk).
-    with collector_paused():
-        for number, raw in enumerate(lines, start=1):
-            if number == 1:
-                raw = _without_bom(raw)
+    for number, raw in enumerate(lines, start=1):
+        if number == 1:
+            raw = _without_bom(raw)
+        try:
+            snap = fast(raw)
+            if snap.counters and max(snap.counters.values()) > COUNTER64_MAX:
+                raise msgspec.ValidationError  # past a Counter64: pydantic words it
+            snaps.append(snap)
+        except msgspec.MsgspecError:
             try:
-                snap = fast(raw)
-                if snap.counters and max(snap.counters.values()) > COUNTER64_MAX:
-                    raise msgspec.ValidationError  # past a Counter64: pydantic words it
-                snaps.append(snap)
-            except msgspec.MsgspecError:
-                try:
-                    snaps.append(validate(raw))
-                except ValidationError as exc:
-                    if raw.strip():  # blank lines are allowed and skipped silently
-                        problems.append(LineProblem(number, describe_validation_error(exc)))
-                    continue
-            numbers.append(number)
-            if len(snaps) == _CHUNK:
-                tables.append(_table_of(snaps, np.asarray(numbers, np.int64), strings))
-                snaps, numbers = [], []
-        tables.append(_table_of(snaps, np.asarray(numbers, np.int64), strings))
-    return _drop_counter32_overflows(PollTable.concat(tables), problems)
+                snaps.append(validate(raw))
+            except ValidationError as exc:
+                if raw.strip():  # blank lines are allowed and skipped silently
+                    problems.append(LineProblem(number, describe_validation_error(exc)))
+                continue
+        numbers.append(number)
+        if len(snaps) == _CHUNK:
+            table = _table_of(snaps, np.asarray(numbers, np.int64), strings)
+            yield _without_counter32_overflows(table, problems)
+            snaps, numbers = [], []
+    if snaps:
+        table = _table_of(snaps, np.asarray(numbers, np.int64), strings)
+        yield _without_counter32_overflows(table, problems)
 
 
 def _without_bom(raw: bytes | str) -> bytes | str:
@@ -184,7 +193,8 @@ def _without_bom(raw: bytes | str) -> bytes | str:
 def polls_of(snapshots: list[Snapshot]) -> ReadResult:
     """Snapshot models (from a collector) as a poll table; ``line`` numbers count from 1."""
     table = _table_of(snapshots, np.arange(1, len(snapshots) + 1, dtype=np.int64))
-    return _drop_counter32_overflows(table, [])
+    problems: list[LineProblem] = []
+    return ReadResult(_without_counter32_overflows(table, problems), problems)
 
 
 def _floats(values: list[float | None]) -> np.ndarray:
@@ -254,25 +264,26 @@ def _table_of(
     )
 
 
-def _drop_counter32_overflows(table: PollTable, problems: list[LineProblem]) -> ReadResult:
-    """A Counter32 above 2^32-1 cannot exist (RFC 2578 section 7.1.6): report and skip the line."""
-    narrow = np.array([c.bits == 32 for c in COLUMNS])
-    over = table.present[:, narrow] & (table.counters[:, narrow] > COUNTER32_MAX)
+def _without_counter32_overflows(table: PollTable, problems: list[LineProblem]) -> PollTable:
+    """A Counter32 above 2^32-1 cannot exist (RFC 2578 section 7.1.6): the table without
+    such lines, each reported in ``problems``."""
+    over = table.present[:, _NARROW] & (table.counters[:, _NARROW] > COUNTER32_MAX)
     bad = over.any(axis=1)
     if not bad.any():
-        problems.sort(key=lambda p: p.line)
-        return ReadResult(table, problems)
-    names = [c.name for c in COLUMNS if c.bits == 32]
+        return table
     for r in np.flatnonzero(bad):
-        name = names[int(np.argmax(over[r]))]
+        name = _NARROW_NAMES[int(np.argmax(over[r]))]
         problems.append(
             LineProblem(
                 int(table.line[r]),
                 f"counters.{name}: a Counter32 cannot exceed {COUNTER32_MAX} (RFC 2578)",
             )
         )
-    problems.sort(key=lambda p: p.line)
-    return ReadResult(table.take(np.flatnonzero(~bad)), problems)
+    return table.take(np.flatnonzero(~bad))
+
+
+_NARROW = np.array([c.bits == 32 for c in COLUMNS])
+_NARROW_NAMES = [c.name for c in COLUMNS if c.bits == 32]
 
 
 def read_snapshot_file(path: str | Path) -> ReadResult:
