@@ -2,9 +2,9 @@
 
 Guarded, each against one file in ``fixtures/golden/`` (JSON, indent 2, keys sorted):
 
-- one diagnosis answer per verdict, tree verdicts and guard verdicts alike
-  (``diagnosis-<verdict>.json``), each the packaged model's real answer for a port of a
-  recorded snapshot file;
+- one diagnosis answer per verdict, tree verdicts and guard verdicts alike, its first
+  message and its thread (``diagnosis-<verdict>.json``), each the packaged model's real
+  answer for a port of a recorded snapshot file;
 - a digest of suspect links with new links, cleared ones, a device not read and ports
   not judged (``digest.json``);
 - the packaged model's card (``model-card.json``).
@@ -31,7 +31,7 @@ import pytest
 from slack_sdk.models.blocks import Block
 
 from linktriage.diagnosis import DiagnosisRecord, Model, diagnose, headline
-from linktriage.render.blocks import message_for
+from linktriage.render.blocks import message_for, thread_for
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
 from linktriage.snapshot import read_snapshot_file
@@ -52,6 +52,7 @@ AT = 1_772_438_400.0  # Mon 2 Mar 2026 08:00 UTC
 DAY = 86_400.0
 SITE = "central"
 SERVES = "desk outlet, east wing"
+ASKED_BY = "U0ENGINEER"
 DIAGNOSIS_IDS = {verdict: 101 + n for n, verdict in enumerate(Verdict)}
 
 # The digest lists every fault answer, worst first; two are new since the day before's
@@ -104,11 +105,14 @@ def valid_block_kit(message: dict[str, Any]) -> None:
         assert block.to_dict() == raw, f"slack_sdk reads this block otherwise: {raw}"
 
 
-def matches_golden(name: str, message: dict[str, Any]) -> None:
-    """The message equals ``fixtures/golden/<name>``, or rewrites it when updating."""
-    valid_block_kit(message)
+def matches_golden(name: str, message: dict[str, Any], *thread: dict[str, Any]) -> None:
+    """The message (and the messages of its thread) equal ``fixtures/golden/<name>``, or
+    rewrite it when updating."""
+    for each in (message, *thread):
+        valid_block_kit(each)
     path = GOLDEN / name
-    drawn = json.dumps(message, indent=2, sort_keys=True, ensure_ascii=False) + "\n"
+    kept_as = {"message": message, "thread": list(thread)} if thread else message
+    drawn = json.dumps(kept_as, indent=2, sort_keys=True, ensure_ascii=False) + "\n"
     kept = path.read_text(encoding="utf-8") if path.exists() else None
     if UPDATING:
         if drawn != kept:
@@ -138,8 +142,10 @@ def test_each_verdicts_answer_draws_as_its_golden_file(
         f"no port of {SOURCES} is answered {verdict}: build its snapshot lines with "
         "tests/helpers.py, saying where their counter values come from"
     )
-    reply = DiagnosisReply(answers[verdict], DIAGNOSIS_IDS[verdict], SITE, SERVES)
-    matches_golden(f"diagnosis-{verdict.value}.json", message_for(reply))
+    reply = DiagnosisReply(
+        answers[verdict], DIAGNOSIS_IDS[verdict], SITE, SERVES, asked_by=ASKED_BY, at=AT
+    )
+    matches_golden(f"diagnosis-{verdict.value}.json", message_for(reply), *thread_for(reply))
 
 
 def test_the_digest_draws_as_its_golden_file(answers: dict[Verdict, DiagnosisRecord]) -> None:

@@ -42,15 +42,30 @@ def cable(triage: Triage) -> DiagnosisReply:
     return reply
 
 
-def test_a_diagnosis_reads_header_path_checks_cautions_buttons(cable: DiagnosisReply) -> None:
+def test_an_answer_reads_verdict_evidence_first_checks_cautions_then_buttons(
+    cable: DiagnosisReply,
+) -> None:
     message = message_for(cable)
     within_limits(message)
     kinds = [b["type"] for b in message["blocks"]]
-    assert kinds[:2] == ["header", "context"]
+    assert kinds[:3] == ["header", "context", "section"]
     text = json.dumps(message["blocks"])
-    assert "*Questions asked*" in text and "*Check next*" in text and "*Safety*" in text
+    assert "*Evidence:*" in text and "*Check first*" in text
     assert ":warning:" in text  # cautions look different from checks
-    assert "actions" in kinds
+    assert kinds.index("actions") > kinds.index("section")
+    assert "*Questions asked*" not in text  # the path is in the thread
+
+
+def test_an_answers_thread_holds_the_path_every_check_and_every_caution(
+    cable: DiagnosisReply,
+) -> None:
+    why, steps = thread_for(cable)
+    for message in (why, steps):
+        within_limits(message)
+    assert "*Questions asked*" in json.dumps(why["blocks"])
+    assert "*Check next*" in json.dumps(steps["blocks"]) and "*Safety*" in json.dumps(
+        steps["blocks"]
+    )
 
 
 def test_a_long_path_is_split_and_still_within_limits(cable: DiagnosisReply) -> None:
@@ -58,9 +73,11 @@ def test_a_long_path_is_split_and_still_within_limits(cable: DiagnosisReply) -> 
     question = record["questions"][0]
     record["questions"] = [dict(question, said="yes: " + "9" * 400) for _ in range(40)]  # type: ignore[misc]
     record["device"] = "d" * 200
-    message = message_for(DiagnosisReply(record, 1, "central", "x" * 500))
-    within_limits(message)
-    sections = [b for b in message["blocks"] if b["type"] == "section"]
+    reply = DiagnosisReply(record, 1, "central", "x" * 500)
+    within_limits(message_for(reply))
+    why, _ = thread_for(reply)
+    within_limits(why)
+    sections = [b for b in why["blocks"] if b["type"] == "section"]
     assert len(sections) > 4  # the path spilled over several sections
 
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from linktriage.render.words import coverage_words
+from linktriage.render.words import coverage_words, what_changed
 
 
 def test_a_list_of_suspects_is_an_all_clear_only_when_everything_was_read_and_judged() -> None:
@@ -18,3 +18,26 @@ def test_a_list_of_suspects_is_an_all_clear_only_when_everything_was_read_and_ju
     )
     nothing = coverage_words(0, 0, {}, {"a": "refused", "b": "no answer"})
     assert nothing.startswith("Nothing was read: 2 devices could not be read (a: refused; b:")
+
+
+def _answer(verdict: str, title: str, said: str) -> dict[str, object]:
+    evidence = [{"feature": "ber_over_objective", "said": said}]
+    return {"verdict": verdict, "title": title, "evidence": evidence}
+
+
+def test_a_check_again_says_what_the_verdict_was_and_what_moved() -> None:
+    before = _answer("cable_fault", "cable or connector fault", "49 errored frames")
+    after = _answer("healthy", "healthy", "no errored frames")
+    said = what_changed(before, 1000.0, after, 1600.0)
+    assert said == (
+        "Checked again 10 min after the first answer: was cable or connector fault, now "
+        "healthy. Then \u2192 now: 49 errored frames \u2192 no errored frames."
+    )
+
+
+def test_a_check_again_that_finds_the_same_says_so() -> None:
+    same = _answer("cable_fault", "cable or connector fault", "49 errored frames")
+    assert what_changed(same, 0.0, same, 3 * 3600.0).endswith(
+        "3.0 h after the first answer: still cable or connector fault. "
+        "The readings it rests on read the same."
+    )

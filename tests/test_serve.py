@@ -84,8 +84,12 @@ def test_serve_answers_a_signed_triage_refuses_a_bad_one_and_labels_once(
     )
     assert answer.token == TOKEN
     blocks = json.dumps(answer.params["blocks"])
-    assert "lark-core1 up5" in blocks and "Questions asked" in blocks
+    assert "lark-core1 up5" in blocks and "Check first" in blocks
     thread = "1772438401.000100"  # the emulator's first message id
+    why = emulator.wait_for("chat.postMessage", 3)[1]  # the answer's details, in its thread
+    assert why.params["thread_ts"] == thread and "Questions asked" in json.dumps(
+        why.params["blocks"]
+    )
     # The bot notes where it posted just after posting; wait for that, as a person would.
     store = Store(f"sqlite:///{Path(env['LINKTRIAGE_HOME']) / 'linktriage.sqlite'}")
     deadline = time.monotonic() + 10
@@ -97,12 +101,13 @@ def test_serve_answers_a_signed_triage_refuses_a_bad_one_and_labels_once(
     for attempt in range(3):
         headers = signed(reply) | ({"X-Slack-Retry-Num": str(attempt)} if attempt else {})
         assert post(url, reply, headers, "application/json")[0] == 200
-    acknowledged = emulator.wait_for("chat.postMessage", 2)
+    acknowledged = emulator.wait_for("chat.postMessage", 4)
     time.sleep(0.5)  # a retry that slipped through would post again by now
     thread_posts = [
         c for c in emulator.called("chat.postMessage") if c.params.get("thread_ts") == thread
     ]
-    assert len(thread_posts) == 1 and "Recorded" in acknowledged[1].params["text"]
+    # The answer's two messages of details, then one acknowledgement of the label.
+    assert len(thread_posts) == 3 and "Recorded" in acknowledged[3].params["text"]
     exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
     assert exe is not None
     listed = subprocess.run(

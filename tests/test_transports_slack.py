@@ -19,11 +19,18 @@ from pydantic import SecretStr
 from slack_sdk.signature import SignatureVerifier
 
 from linktriage.bot.triage import Triage
-from linktriage.network.demo import DemoClock
-from linktriage.render.blocks import CONFIRM_ACTION, CORRECT_ACTION, RECHECK_ACTION
+from linktriage.network.demo import PLANTED, DemoClock, DemoPort
+from linktriage.render.blocks import (
+    CONFIRM_ACTION,
+    CORRECT_ACTION,
+    RECHECK_ACTION,
+    escape,
+    text_size,
+)
 from linktriage.settings import Settings
 from linktriage.transports.slack import build_app
 from linktriage.transports.slack_http import http_server
+from linktriage.verdicts import SHORT, Caution
 
 from slack_emulator import BOT_USER, SlackEmulator
 
@@ -109,16 +116,65 @@ def test_a_signed_slash_command_posts_the_verdict_to_the_channel(
     status, body = slash(bot, emulator, "lark-east-idf2 port14")
     assert status == 200
     assert json.loads(body)["response_type"] == "ephemeral"  # the quick acknowledgement
-    (posted,) = emulator.wait_for("chat.postMessage")
+    posted, why, steps = emulator.wait_for("chat.postMessage", 3)
     assert posted.token == TOKEN
     assert posted.params["channel"] == CHANNEL
     blocks = posted.params["blocks"]
     assert blocks[0]["text"]["text"] == "lark-east-idf2 port14: cable or connector fault"
+    assert "asked by <@U0ENGINEER>" in blocks[1]["elements"][0]["text"]
+    assert "<!date^" in blocks[1]["elements"][0]["text"]  # Slack's date formatting
     sections = [b["text"]["text"] for b in blocks if b["type"] == "section"]
-    assert sections[0].startswith("*Evidence*\n\u2022 bit error ratio ")
-    assert any(text.startswith("*Questions asked*\n1. ") for text in sections)
-    stored = triage.store.diagnosis_for_message(CHANNEL, "1772438401.000100")
+    assert sections[0].startswith("*Evidence:* bit error ratio ")
+    ts = "1772438401.000100"
+    assert (why.params["thread_ts"], steps.params["thread_ts"]) == (ts, ts)
+    why_sections = [b["text"]["text"] for b in why.params["blocks"] if b["type"] == "section"]
+    assert any(text.startswith("*Questions asked*\n1. ") for text in why_sections)
+    stored = triage.store.diagnosis_for_message(CHANNEL, ts)
     assert stored is not None and stored.verdict == "cable_fault"
+
+
+def _texts(blocks: list[dict[str, Any]]) -> str:
+    return json.dumps(blocks, ensure_ascii=False)
+
+
+#: Words of checks that handle a cord, a connector or a module (unplugging, re-seating,
+#: swapping, cleaning, testing a run end to end), for which the port's PoE and fiber
+#: cautions must be on the first screen (issue 11; common practice).
+HANDLING = ("swap", "re-seat", "seated", "clean", "plugged", "test the permanent link",
+            "test each pair", "light source", "replace that transceiver", "patched")  # fmt: skip
+
+
+@pytest.mark.parametrize("planted", PLANTED, ids=lambda p: str(p.planted))
+def test_each_verdicts_first_message_fits_a_phone_screen_and_its_thread_holds_the_rest(
+    bot: str, emulator: SlackEmulator, triage: Triage, planted: DemoPort
+) -> None:
+    slash(bot, emulator, f"{planted.device} {planted.port}")
+    first, why, steps = emulator.wait_for("chat.postMessage", 3)
+    ts = "1772438401.000100"
+    stored = triage.store.diagnosis_for_message(CHANNEL, ts)
+    assert stored is not None
+    record = stored.record
+    blocks = first.params["blocks"]
+    shown = _texts(blocks)
+    # At most about 1,500 characters in all its blocks (issue 11), buttons included.
+    assert text_size(blocks) <= 1500
+    assert blocks[0]["text"]["text"] == f"{planted.device} {planted.port}: {record['title']}"
+    assert escape(record["evidence"][0]["said"]) in shown
+    checks = [c for c in record["next_checks"] if escape(c) in shown]
+    assert checks == record["next_checks"][: len(checks)] and len(checks) >= 2
+    handled = any(word in c.lower() for c in checks for word in HANDLING)
+    for caution in (Caution.POE_POWER, Caution.FIBER_EYES):
+        if handled and caution.value in record["cautions"]:
+            assert escape(SHORT[caution]) in shown, caution.name
+    assert any(e.get("action_id") == RECHECK_ACTION for b in blocks for e in b.get("elements", []))
+    # The thread, posted at once: the whole path with its measured values, every check
+    # and every caution.
+    assert why.params["thread_ts"] == steps.params["thread_ts"] == ts
+    thread = _texts(why.params["blocks"] + steps.params["blocks"])
+    for question in record["questions"]:
+        assert escape(question["said"]) in thread
+    for text in record["next_checks"] + record["cautions"]:
+        assert escape(text) in thread
 
 
 @pytest.mark.parametrize("tamper", ["wrong secret", "stale"])
@@ -173,7 +229,7 @@ def test_a_thread_reply_delivered_three_times_is_one_label(
     bot: str, emulator: SlackEmulator, triage: Triage
 ) -> None:
     slash(bot, emulator, "lark-east-idf2 port14")
-    (answer,) = emulator.wait_for("chat.postMessage")
+    answer = emulator.wait_for("chat.postMessage", 3)[0]  # the answer, then its thread
     thread = "1772438401.000100"
     assert answer.params["channel"] == CHANNEL
     body = event_body("cable_fault, crushed patch cord behind the desk", thread)
@@ -190,9 +246,9 @@ def test_a_thread_reply_delivered_three_times_is_one_label(
         "crushed patch cord behind the desk",
     )
     posts = emulator.called("chat.postMessage")
-    assert len(posts) == 2  # the answer, then one acknowledgement in its thread
-    assert posts[1].params["thread_ts"] == thread
-    assert "Recorded" in posts[1].params["text"]
+    assert len(posts) == 4  # the answer, its details, then one acknowledgement in its thread
+    assert posts[3].params["thread_ts"] == thread
+    assert "Recorded" in posts[3].params["text"]
 
 
 def test_the_bots_own_messages_and_plain_channel_talk_are_ignored(
@@ -239,7 +295,7 @@ def test_the_buttons_confirm_or_correct_the_verdict(
     bot: str, emulator: SlackEmulator, triage: Triage
 ) -> None:
     slash(bot, emulator, "lark-east-idf2 port7")
-    (answer,) = emulator.wait_for("chat.postMessage")
+    answer = emulator.wait_for("chat.postMessage", 3)[0]  # the answer, then its thread
     actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
     confirm = next(e for e in actions["elements"] if e["action_id"] == CONFIRM_ACTION)
     menu = next(e for e in actions["elements"] if e["action_id"] == CORRECT_ACTION)
@@ -260,12 +316,14 @@ def test_the_buttons_confirm_or_correct_the_verdict(
     thread_posts = [
         c for c in emulator.called("chat.postMessage") if c.params.get("thread_ts") == ts
     ]
-    assert len(thread_posts) == 2
-    said = thread_posts[1].params["blocks"][0]["text"]["text"]
+    assert len(thread_posts) == 4  # the answer's details, then two acknowledgements
+    said = thread_posts[3].params["blocks"][0]["text"]["text"]
     assert "instead of their earlier duplex_mismatch" in said
     # The answer is redrawn after each label: who said what, and the buttons to match.
     first, latest = emulator.wait_for("chat.update", 2)
     assert (latest.params["channel"], latest.params["ts"]) == (CHANNEL, ts)
+    # Redrawn as it was first posted: who asked and when are kept with the answer.
+    assert latest.params["blocks"][1] == answer.params["blocks"][1]
     lines = [e["text"] for b in latest.params["blocks"] if b["type"] == "context"
              for e in b["elements"]]  # fmt: skip
     assert "Labelled: <@U0ENGINEER> found negotiation degraded" in lines
@@ -278,7 +336,7 @@ def test_pressing_confirm_twice_records_one_label(
     bot: str, emulator: SlackEmulator, triage: Triage
 ) -> None:
     slash(bot, emulator, "lark-east-idf2 port14")
-    (answer,) = emulator.wait_for("chat.postMessage")
+    answer = emulator.wait_for("chat.postMessage", 3)[0]  # the answer, then its thread
     actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
     confirm = next(e for e in actions["elements"] if e["action_id"] == CONFIRM_ACTION)
     for n in range(2):
@@ -298,7 +356,7 @@ def test_a_quiet_port_is_checked_again_by_a_button_not_a_window_to_choose(
     # Issue 8.6: "ask over a longer window" is nothing a Slack user can do; the answer
     # carries a button that diagnoses the port again, its window grown by the polls since.
     slash(bot, emulator, "lark-west-idf1 port22")
-    (answer,) = emulator.wait_for("chat.postMessage")
+    answer = emulator.wait_for("chat.postMessage", 3)[0]  # the answer, then its thread
     assert answer.params["blocks"][0]["text"]["text"].endswith("not enough traffic to judge")
     actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
     again = next(e for e in actions["elements"] if e["action_id"] == RECHECK_ACTION)
@@ -309,9 +367,12 @@ def test_a_quiet_port_is_checked_again_by_a_button_not_a_window_to_choose(
     body = action_body(press, ts)
     status, _ = post(bot, body, signed(body), FORM)
     assert status == 200
-    second = emulator.wait_for("chat.postMessage", 2)[1]
-    assert second.params["thread_ts"] == ts
+    # The new answer goes in the first one's thread, with what changed, its details after it.
+    second, *details = emulator.wait_for("chat.postMessage", 6)[3:]
+    assert [m.params["thread_ts"] for m in (second, *details)] == [ts, ts, ts]
     assert second.params["blocks"][0]["text"]["text"].startswith("lark-west-idf1 port22: ")
+    changed = second.params["blocks"][2]["elements"][0]["text"]
+    assert changed.startswith("Checked again 10 min after the first answer: ")
     first, again_stored = (triage.store.diagnosis(i) for i in (1, 2))
     assert first is not None and again_stored is not None
     assert (first.record["window_s"], again_stored.record["window_s"]) == (30.0, 630.0)

@@ -232,6 +232,7 @@ class StoredDiagnosis:
     message_ts: str | None
     site: str = ""
     serves: str = ""
+    asked_by: str | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -528,6 +529,7 @@ class Store:
             message_ts=row.message_ts,
             site=row.site or "",
             serves=row.serves or "",
+            asked_by=row.asked_by,
         )
 
     # --- labels

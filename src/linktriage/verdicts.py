@@ -77,34 +77,109 @@ class Caution(StrEnum):
     )
 
 
+#: A few words of each caution, for the first screen of an answer; the whole text follows
+#: in its thread.
+SHORT: dict[Caution, str] = {
+    Caution.FIBER_EYES: (
+        "Never look into a fiber end or an open port: invisible laser light can injure "
+        "your eyes. Use a fiber scope; cap open ports."
+    ),
+    Caution.POE_POWER: (
+        "PoE port: unplugging it cuts power to what it feeds (phones, cameras, access "
+        "points, perhaps life-safety devices). Agree a time first."
+    ),
+    Caution.WORK_AT_HEIGHT: "Ceilings and risers: follow the site's rules for ladders; not alone.",
+    Caution.MAINS: "Mains power is work for a licensed electrician.",
+    Caution.SERVICE_BREAK: "This interrupts the link: tell its users first.",
+    Caution.LOCAL_CODES: "Local codes, site rules and licensed practice come first.",
+}
+
+
+class Touch(StrEnum):
+    """What doing a check involves, which decides the cautions it needs."""
+
+    UNPLUG = "unplugs, re-seats or re-patches a cord or module"
+    FIBER_END = "opens a fiber end or a transceiver port"
+    CONFIGURE = "changes the port's configuration"
+    HEIGHT = "follows a cable through ceilings or risers"
+    POWER_NEARBY = "looks at power cables and fittings near the run"
+
+
+#: The cautions each kind of work calls for (LOCAL_CODES goes with any of them).
+NEEDS: dict[Caution, frozenset[Touch]] = {
+    Caution.FIBER_EYES: frozenset({Touch.UNPLUG, Touch.FIBER_END}),
+    Caution.POE_POWER: frozenset({Touch.UNPLUG}),
+    Caution.WORK_AT_HEIGHT: frozenset({Touch.HEIGHT}),
+    Caution.MAINS: frozenset({Touch.POWER_NEARBY}),
+    Caution.SERVICE_BREAK: frozenset({Touch.UNPLUG, Touch.CONFIGURE}),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Check:
+    """One physical check, and what doing it involves."""
+
+    text: str
+    touches: frozenset[Touch] = frozenset()
+
+
+def _check(text: str, *touches: Touch) -> Check:
+    return Check(text, frozenset(touches))
+
+
 @dataclass(frozen=True, slots=True)
 class Guide:
     """What a verdict means and what to check, on copper and on fiber."""
 
     title: str
     meaning: str
-    checks: tuple[str, ...]
-    fiber_checks: tuple[str, ...] | None = None  # when fiber needs different steps
+    checks: tuple[Check, ...]
+    fiber_checks: tuple[Check, ...] | None = None  # when fiber needs different steps
 
 
 _CABLE_COPPER = (
-    "Look at the patch cords at both ends: kinks, crushed or stapled runs, a broken latch, a "
-    "cord under a chair castor or a door.",
-    "Swap the patch cord at one end for a known-good one, then at the other end, and watch "
-    "whether the errors stop after each swap.",
-    "If they do not, test the permanent link with a cable certifier for its category "
-    "(TIA-568: at most 90 m of permanent link plus 10 m of cords in a channel).",
-    "Check the terminations at the patch panel and the outlet: untwisted or split pairs, "
-    "a loose punch-down.",
-    "A gigabit port that links at 100 Mb/s usually has a broken pair: 1000BASE-T needs all "
-    "four pairs, 100BASE-TX only two.",
-    "Look for the cable running alongside fluorescent fittings, motors or power cables.",
+    _check(
+        "Look at the patch cords at both ends: kinks, crushed or stapled runs, a broken latch, a "
+        "cord under a chair castor or a door."
+    ),
+    _check(
+        "Swap the patch cord at one end for a known-good one, then at the other end, and watch "
+        "whether the errors stop after each swap.",
+        Touch.UNPLUG,
+    ),
+    _check(
+        "If they do not, test the permanent link with a cable certifier for its category "
+        "(TIA-568: at most 90 m of permanent link plus 10 m of cords in a channel).",
+        Touch.UNPLUG,
+    ),
+    _check(
+        "Check the terminations at the patch panel and the outlet: untwisted or split pairs, "
+        "a loose punch-down.",
+        Touch.UNPLUG,
+    ),
+    _check(
+        "A gigabit port that links at 100 Mb/s usually has a broken pair: 1000BASE-T needs all "
+        "four pairs, 100BASE-TX only two."
+    ),
+    _check(
+        "Look for the cable running alongside fluorescent fittings, motors or power cables.",
+        Touch.HEIGHT,
+        Touch.POWER_NEARBY,
+    ),
 )
 _CABLE_FIBER = (
-    "Clean both connectors and inspect the end faces with a fiber scope before re-seating "
-    "(IEC 61300-3-35 describes what a clean end face looks like).",
-    "Swap the patch cords for known-good ones, one end at a time.",
-    "Check received power against the module's thresholds at both ends.",
+    _check(
+        "Clean both connectors and inspect the end faces with a fiber scope before re-seating "
+        "(IEC 61300-3-35 describes what a clean end face looks like).",
+        Touch.UNPLUG,
+        Touch.FIBER_END,
+    ),
+    _check(
+        "Swap the patch cords for known-good ones, one end at a time.",
+        Touch.UNPLUG,
+        Touch.FIBER_END,
+    ),
+    _check("Check received power against the module's thresholds at both ends."),
 )
 
 GUIDES: dict[Verdict, Guide] = {
@@ -112,9 +187,13 @@ GUIDES: dict[Verdict, Guide] = {
         "healthy",
         "No fault signature in the window.",
         (
-            "Nothing to fix on this link. If users still report trouble, look beyond it: the "
-            "uplink, the far-end device, or the application.",
-            "A fault that comes and goes shows up in later windows: ask again if it recurs.",
+            _check(
+                "Nothing to fix on this link. If users still report trouble, look beyond it: the "
+                "uplink, the far-end device, or the application."
+            ),
+            _check(
+                "A fault that comes and goes shows up in later windows: ask again if it recurs."
+            ),
         ),
     ),
     Verdict.CABLE_FAULT: Guide(
@@ -127,113 +206,189 @@ GUIDES: dict[Verdict, Guide] = {
         "duplex mismatch",
         "The two ends disagree on duplex: one sends while the other thinks the wire is shared.",
         (
-            "Compare speed and duplex on both ends: a fixed setting at one end and "
-            "auto-negotiation at the other leaves the auto end at half duplex.",
-            "Configure both ends alike: auto-negotiation on both (1000BASE-T requires it), "
-            "or the same fixed speed and full duplex on both.",
-            "After the change, late collisions at the half-duplex end and FCS errors at the "
-            "full-duplex end should stop.",
+            _check(
+                "Compare speed and duplex on both ends: a fixed setting at one end and "
+                "auto-negotiation at the other leaves the auto end at half duplex."
+            ),
+            _check(
+                "Configure both ends alike: auto-negotiation on both (1000BASE-T requires it), "
+                "or the same fixed speed and full duplex on both.",
+                Touch.CONFIGURE,
+            ),
+            _check(
+                "After the change, late collisions at the half-duplex end and FCS errors at the "
+                "full-duplex end should stop."
+            ),
         ),
     ),
     Verdict.NEGOTIATION_DEGRADED: Guide(
         "negotiation degraded",
         "The link came up slower, or at half duplex, below what the port supports.",
         (
-            "Check both ends' settings: a fixed speed or duplex, or an advertisement "
-            "limited to lower speeds.",
-            "If both ends auto-negotiate and still come up slow, test the cable: a missing "
-            "or broken pair leaves a gigabit link at 100 Mb/s.",
-            "Check what the far end supports: an older device may only run at this speed, "
-            "in which case the link is as fast as it can be.",
+            _check(
+                "Check both ends' settings: a fixed speed or duplex, or an advertisement "
+                "limited to lower speeds."
+            ),
+            _check(
+                "If both ends auto-negotiate and still come up slow, test the cable: a missing "
+                "or broken pair leaves a gigabit link at 100 Mb/s.",
+                Touch.UNPLUG,
+            ),
+            _check(
+                "Check what the far end supports: an older device may only run at this speed, "
+                "in which case the link is as fast as it can be."
+            ),
         ),
     ),
     Verdict.MTU_MISMATCH: Guide(
         "MTU mismatch",
         "Frames arrive longer than this port accepts and are dropped, with no FCS errors.",
         (
-            "Compare the MTU at both ends and along the path: switch ports, VLAN and routed "
-            "interfaces, virtual switches, storage and tunnel endpoints.",
-            "Confirm with a do-not-fragment ping at the size in question from a host on each "
-            "side (8972 octets of payload for a 9000-octet IPv4 MTU).",
-            "Use one MTU across the layer-2 domain; jumbo frames only where every hop agrees.",
+            _check(
+                "Compare the MTU at both ends and along the path: switch ports, VLAN and routed "
+                "interfaces, virtual switches, storage and tunnel endpoints."
+            ),
+            _check(
+                "Confirm with a do-not-fragment ping at the size in question from a host on each "
+                "side (8972 octets of payload for a 9000-octet IPv4 MTU)."
+            ),
+            _check(
+                "Use one MTU across the layer-2 domain; jumbo frames only where every hop agrees.",
+                Touch.CONFIGURE,
+            ),
         ),
     ),
     Verdict.OPTIC_DEGRADED: Guide(
         "optic degraded",
         "Received light is near or under the module's low thresholds.",
         (
-            "Compare received power with the far end's transmit power: the difference is "
-            "the link's loss; set it against the link's loss budget.",
-            "Clean both connectors, inspect the end faces with a fiber scope, and re-seat.",
-            "Check patch cords for tight bends or crush; swap for a known-good cord.",
-            "If the loss stays high, test the link with a light source and power meter (or "
-            "an OTDR) against its design (TIA-568 cabled-fiber and connector allowances).",
-            "If the far end transmits low, or a module runs hot or at high bias current, "
-            "replace that transceiver.",
+            _check(
+                "Compare received power with the far end's transmit power: the difference is "
+                "the link's loss; set it against the link's loss budget."
+            ),
+            _check(
+                "Clean both connectors, inspect the end faces with a fiber scope, and re-seat.",
+                Touch.UNPLUG,
+                Touch.FIBER_END,
+            ),
+            _check(
+                "Check patch cords for tight bends or crush; swap for a known-good cord.",
+                Touch.UNPLUG,
+                Touch.FIBER_END,
+            ),
+            _check(
+                "If the loss stays high, test the link with a light source and power meter (or "
+                "an OTDR) against its design (TIA-568 cabled-fiber and connector allowances).",
+                Touch.UNPLUG,
+                Touch.FIBER_END,
+            ),
+            _check(
+                "If the far end transmits low, or a module runs hot or at high bias current, "
+                "replace that transceiver.",
+                Touch.UNPLUG,
+                Touch.FIBER_END,
+            ),
         ),
     ),
     Verdict.UNIDIRECTIONAL: Guide(
         "one-way link",
         "Traffic flows one way only on a link that is up.",
         (
-            "Swap the patch cord, then test each pair of the cable run.",
-            "Look at the far end: a one-way link usually shows there as receive-only or "
-            "transmit-only too.",
-            "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
-            "loops and black holes.",
+            _check(
+                "Swap the patch cord, then test each pair of the cable run.",
+                Touch.UNPLUG,
+            ),
+            _check(
+                "Look at the far end: a one-way link usually shows there as receive-only or "
+                "transmit-only too."
+            ),
+            _check(
+                "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
+                "loops and black holes.",
+                Touch.CONFIGURE,
+            ),
         ),
         (
-            "Check that transmit at each end is patched to receive at the other, and that "
-            "neither strand is broken; compare received power at both ends.",
-            "Look at the far end: a one-way link usually shows there as receive-only or "
-            "transmit-only too.",
-            "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
-            "loops and black holes.",
+            _check(
+                "Check that transmit at each end is patched to receive at the other, and that "
+                "neither strand is broken; compare received power at both ends.",
+                Touch.UNPLUG,
+                Touch.FIBER_END,
+            ),
+            _check(
+                "Look at the far end: a one-way link usually shows there as receive-only or "
+                "transmit-only too."
+            ),
+            _check(
+                "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
+                "loops and black holes.",
+                Touch.CONFIGURE,
+            ),
         ),
     ),
     Verdict.CONGESTION: Guide(
         "congestion",
         "Discards at high utilisation with no error signature: a capacity problem, not a fault.",
         (
-            "Find what fills the link: the busiest hosts and flows on this port.",
-            "Look at utilisation across the day: a nightly backup peak may be acceptable, "
-            "a sustained one needs capacity.",
-            "Options: aggregate or upgrade the link, move heavy users, or prioritise voice "
-            "and interactive traffic.",
+            _check("Find what fills the link: the busiest hosts and flows on this port."),
+            _check(
+                "Look at utilisation across the day: a nightly backup peak may be acceptable, "
+                "a sustained one needs capacity."
+            ),
+            _check(
+                "Options: aggregate or upgrade the link, move heavy users, or prioritise voice "
+                "and interactive traffic.",
+                Touch.CONFIGURE,
+            ),
         ),
     ),
     Verdict.INSUFFICIENT_TRAFFIC: Guide(
         "not enough traffic to judge",
         "Too few frames in the window to tell a healthy error rate from a faulty one.",
         (
-            "Check again in a few minutes (each poll lengthens the window) or at a busier time.",
-            "Or run a throughput test between two hosts across this link, then ask again.",
+            _check(
+                "Check again in a few minutes (each poll lengthens the window) or at a busier time."
+            ),
+            _check("Or run a throughput test between two hosts across this link, then ask again."),
         ),
     ),
     Verdict.LINK_DOWN: Guide(
         "link down",
         "The port is not up, so there is nothing to measure.",
         (
-            "Check that the far-end device is powered and its port enabled.",
-            "Check whether this port is administratively down or shut by a protection "
-            "feature (port security, storm control, error shutdown).",
-            "Check the cable is plugged in at both ends; swap the patch cord.",
+            _check("Check that the far-end device is powered and its port enabled."),
+            _check(
+                "Check whether this port is administratively down or shut by a protection "
+                "feature (port security, storm control, error shutdown)."
+            ),
+            _check(
+                "Check the cable is plugged in at both ends; swap the patch cord.",
+                Touch.UNPLUG,
+            ),
         ),
         (
-            "Check that the far-end device is powered and its port enabled.",
-            "Check whether this port is administratively down or shut by a protection "
-            "feature (port security, storm control, error shutdown).",
-            "Check both transceivers are seated and supported, and that light arrives.",
+            _check("Check that the far-end device is powered and its port enabled."),
+            _check(
+                "Check whether this port is administratively down or shut by a protection "
+                "feature (port security, storm control, error shutdown)."
+            ),
+            _check(
+                "Check both transceivers are seated and supported, and that light arrives.",
+                Touch.UNPLUG,
+                Touch.FIBER_END,
+            ),
         ),
     ),
     Verdict.NO_DATA: Guide(
         "no usable data",
         "Fewer than two usable polls of this port.",
         (
-            "A window needs two polls: poll again in a few minutes.",
-            "If the counters were reset (a reboot, counters cleared), the window restarts "
-            "at the next poll.",
-            "Check that the poller reads this port's counters at all.",
+            _check("A window needs two polls: poll again in a few minutes."),
+            _check(
+                "If the counters were reset (a reboot, counters cleared), the window restarts "
+                "at the next poll."
+            ),
+            _check("Check that the poller reads this port's counters at all."),
         ),
     ),
 }
@@ -241,10 +396,14 @@ GUIDES: dict[Verdict, Guide] = {
 
 def next_checks(verdict: Verdict, *, fiber: bool | None) -> list[str]:
     """The physical checks to do next, fiber-specific where the medium changes them."""
+    return [c.text for c in _checks(verdict, fiber=fiber)]
+
+
+def _checks(verdict: Verdict, *, fiber: bool | None) -> tuple[Check, ...]:
     guide = GUIDES[verdict]
     if fiber and guide.fiber_checks is not None:
-        return list(guide.fiber_checks)
-    return list(guide.checks)
+        return guide.fiber_checks
+    return guide.checks
 
 
 def cautions(verdict: Verdict, *, poe: bool | None, fiber: bool | None) -> list[str]:
@@ -267,3 +426,24 @@ def cautions(verdict: Verdict, *, poe: bool | None, fiber: bool | None) -> list[
     if chosen:
         chosen.append(Caution.LOCAL_CODES)
     return [c.value for c in chosen]
+
+
+#: Every check by its words, to find what a check in a record involves.
+_BY_TEXT: dict[str, Check] = {
+    c.text: c for g in GUIDES.values() for c in (*g.checks, *(g.fiber_checks or ()))
+}
+
+
+def cautions_for(checks: list[str], port_cautions: list[str]) -> list[Caution]:
+    """The cautions of ``port_cautions`` (a record's, for its port) that the given
+    ``checks`` call for: what must be read before doing them, not behind a click."""
+    touches = frozenset().union(*(_BY_TEXT[c].touches for c in checks if c in _BY_TEXT))
+    chosen = [
+        Caution(c)
+        for c in port_cautions
+        if c in _CAUTION_TEXTS and touches & NEEDS.get(Caution(c), frozenset())
+    ]
+    return [*chosen, Caution.LOCAL_CODES] if chosen else []
+
+
+_CAUTION_TEXTS = frozenset(c.value for c in Caution)

@@ -205,5 +205,7 @@ class Labelling:
             stored.site,
             stored.serves,
             labels=tuple((lb.user_id, lb.verdict) for lb in latest),
+            asked_by=stored.asked_by,
+            at=stored.at,
         )
         return reply, stored.channel, stored.message_ts

@@ -14,7 +14,7 @@ from __future__ import annotations
 import contextlib
 import time
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from linktriage.bot.answers import keep_answers
 from linktriage.bot.commands import (
@@ -137,7 +137,9 @@ class Triage:
             user=user,
             channel=channel,
         )
-        return DiagnosisReply(record, diagnosis_id, ref.site, ref.serves)
+        return DiagnosisReply(
+            record, diagnosis_id, ref.site, ref.serves, asked_by=user, at=self.clock()
+        )
 
     def recheck(
         self, diagnosis_id: int, *, user: str | None = None, channel: str | None = None
@@ -150,6 +152,8 @@ class Triage:
         reply: Reply
         try:
             reply = self.diagnose_port(stored.device, stored.port, user=user, channel=channel)
+            changed = words.what_changed(stored.record, stored.at, reply.record, self.clock())
+            reply = replace(reply, changed=changed)
         except LinktriageError as exc:
             reply = ErrorReply(exc.message, exc.hint)
         self._audit(f"check again {stored.device} {stored.port}", reply, user=user, channel=channel)

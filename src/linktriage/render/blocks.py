@@ -15,6 +15,7 @@ import re
 from datetime import UTC, datetime
 from typing import Any
 
+from linktriage.diagnosis import DiagnosisRecord
 from linktriage.render import words
 from linktriage.render.card import card_text
 from linktriage.render.replies import (
@@ -36,7 +37,7 @@ from linktriage.render.words import (
     label_recorded,
     ruled_out_line,
 )
-from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict
+from linktriage.verdicts import GUARD_VERDICTS, GUIDES, SHORT, TREE_VERDICTS, Verdict, cautions_for
 from linktriage.wording import sig
 
 MAX_BLOCKS = 50
@@ -48,6 +49,10 @@ MAX_FALLBACK = 3000  # the notification text: short, it is what a phone's lock s
 #: The characters of blocks one message may carry: Slack refuses about 13,000 and more
 #: (msg_blocks_too_long, slackapi/bolt-js#2509), whatever the per-block limits allow.
 MAX_MESSAGE_TEXT = 12_000
+#: The text an answer's first message may carry, buttons included: one phone screen.
+FIRST_SCREEN = 1500
+#: Checks on the first screen, fewer where their cautions would not fit.
+FIRST_CHECKS = 3
 
 CONFIRM_ACTION = "lt_confirm"
 CORRECT_ACTION = "lt_correct"
@@ -108,47 +113,112 @@ def _message(fallback: str, blocks: list[Block]) -> dict[str, Any]:
     return {"text": escape(_clip(fallback, MAX_FALLBACK)), "blocks": blocks}
 
 
-def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
+def text_size(blocks: list[Block]) -> int:
+    """The characters a reader sees in ``blocks``: every text they carry, buttons and menu
+    options included (what a phone screen has to hold)."""
+
+    def size(node: Any) -> int:
+        if isinstance(node, dict):
+            text = node.get("text")
+            own = len(text) if isinstance(text, str) else 0
+            return own + sum(size(v) for k, v in node.items() if k != "text" or own == 0)
+        if isinstance(node, list):
+            return sum(size(v) for v in node)
+        return 0
+
+    return size(blocks)
+
+
+def _slack_time(at: float) -> str:
+    """A moment in Slack's date formatting: each reader sees it in their own time zone."""
+    fallback = datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
+    return f"<!date^{int(at)}^{{date_short_pretty}} {{time}}|{fallback}>"
+
+
+def _facts(reply: DiagnosisReply) -> str:
+    """Confidence (for a tree verdict), where, who asked and when, on one line."""
     r = reply.record
-    facts = [
-        words.confidence_fact(f"*{r['confidence']:.2f}*"),
-        words.window_fact(sig(r["window_s"], 3), r["polls"]),
-        words.model_fact(f"`{escape(r['model_version'])}`"),
-    ]
-    if reply.serves:
-        facts.append(escape(reply.serves))
-    blocks: list[Block] = [
+    facts = []
+    if Verdict(r["verdict"]) not in GUARD_VERDICTS:  # a guard's answer is a fact, not a guess
+        facts.append(words.confidence_fact(f"*{r['confidence']:.2f}*"))
+    where = ", ".join(escape(part) for part in (reply.serves, reply.site) if part)
+    if where:
+        facts.append(where)
+    if reply.asked_by:
+        facts.append(words.asked_by(_person(reply.asked_by)))
+    if reply.at is not None:
+        facts.append(_slack_time(reply.at))
+    return " \u00b7 ".join(facts)
+
+
+def _first_steps(record: DiagnosisRecord, count: int) -> list[Block]:
+    """The first ``count`` checks, and the cautions those checks call for on this port."""
+    checks = record["next_checks"][:count]
+    blocks = _sections([f"\u2022 {escape(c)}" for c in checks], title=words.CHECK_FIRST)
+    needed = cautions_for(checks, record["cautions"])
+    if needed:
+        blocks.append(_context(*(f":warning: {escape(SHORT[c])}" for c in needed)))
+    return blocks
+
+
+def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
+    """The first screen of an answer: the verdict, the evidence it rests on, the first
+    checks with the cautions they need, and the buttons. The path with its measured
+    values, every check and every caution follow in its thread (:func:`diagnosis_thread`)."""
+    r = reply.record
+    head: list[Block] = [
         _header(words.port_title(r["device"], r["port"], r["title"])),
-        _context(" \u00b7 ".join(facts)),
+        _context(_facts(reply)),
     ]
-    evidence = [f"\u2022 {escape(e['said'])}" for e in r["evidence"]]
-    blocks += _sections(evidence, title=words.EVIDENCE)
-    if r["ruled_out"] is not None:
-        blocks.append(_context(escape(ruled_out_line(r["ruled_out"]))))
-    questions = [
-        f"{n}. {escape(q['question'])}  \u2192  *{escape(q['said'])}*"
-        for n, q in enumerate(r["questions"], start=1)
-    ]
-    blocks += _sections(questions, title=words.QUESTIONS_ASKED)
-    ber = r["bit_errors"]
-    if ber is not None:
-        blocks.append(_context(escape(ber_line(ber))))
-    if r["note"]:
-        blocks.append(_context(escape(r["note"])))
-    blocks.append({"type": "divider"})
-    checks = [f"\u2022 {escape(c)}" for c in r["next_checks"]]
-    blocks += _sections(checks, title=words.CHECK_NEXT)
-    if r["cautions"]:
-        cautions = [f":warning: {escape(c)}" for c in r["cautions"]]
-        blocks += _sections(cautions, title=words.SAFETY)
-    blocks.append(_label_actions(reply))
+    if reply.changed:
+        head.append(_context(escape(reply.changed)))
+    if r["evidence"]:
+        head.append(_section(f"*{words.EVIDENCE}:* {escape(r['evidence'][0]['said'])}"))
+    tail = [_label_actions(reply)]
     if reply.labels:
-        blocks.append(_context(_labels_line(reply)))
-    blocks.append(_context(LABEL_PROMPT))
+        tail.append(_context(_labels_line(reply)))
+    tail.append(_context(words.MORE_IN_THREAD))
+    for count in range(FIRST_CHECKS, 0, -1):
+        blocks = head + _first_steps(r, count) + tail
+        if text_size(blocks) <= FIRST_SCREEN:
+            break
     fallback = words.verdict_fallback(
         r["device"], r["port"], r["title"], r["verdict"], r["confidence"]
     )
     return _message(fallback, blocks)
+
+
+def diagnosis_thread(reply: DiagnosisReply) -> list[dict[str, Any]]:
+    """What follows an answer in its thread: why (the evidence, the questions the tree
+    asked with the measured values, the bit-error estimate), then every check and every
+    caution in full."""
+    r = reply.record
+    facts = [words.model_fact(f"`{escape(r['model_version'])}`")]
+    if r["polls"] >= 2:  # fewer: there is no window to speak of (the evidence says why)
+        facts.insert(0, words.window_fact(sig(r["window_s"], 3), r["polls"]))
+    why: list[Block] = [_context(" \u00b7 ".join(facts))]
+    why += _sections([f"\u2022 {escape(e['said'])}" for e in r["evidence"]], title=words.EVIDENCE)
+    if r["ruled_out"] is not None:
+        why.append(_context(escape(ruled_out_line(r["ruled_out"]))))
+    questions = [
+        f"{n}. {escape(q['question'])}  \u2192  *{escape(q['said'])}*"
+        for n, q in enumerate(r["questions"], start=1)
+    ]
+    why += _sections(questions, title=words.QUESTIONS_ASKED)
+    if r["bit_errors"] is not None:
+        why.append(_context(escape(ber_line(r["bit_errors"]))))
+    said = {e["said"] for e in r["evidence"]}
+    if r["note"] and r["note"] not in said:
+        why.append(_context(escape(r["note"])))
+    steps = _sections([f"\u2022 {escape(c)}" for c in r["next_checks"]], title=words.CHECK_NEXT)
+    if r["cautions"]:
+        steps += _sections([f":warning: {escape(c)}" for c in r["cautions"]], title=words.SAFETY)
+    steps.append(_context(LABEL_PROMPT))
+    title = words.port_title(r["device"], r["port"], r["title"])
+    return [
+        _message(words.why_fallback(title), why),
+        _message(words.steps_fallback(title), steps),
+    ]
 
 
 def _labels_line(reply: DiagnosisReply) -> str:
@@ -292,7 +362,10 @@ def suspects_thread(reply: SuspectsReply) -> list[dict[str, Any]]:
 
 
 def thread_for(reply: Reply) -> list[dict[str, Any]]:
-    """Messages that follow a reply in its thread (the rest of a long list); most have none."""
+    """Messages that follow a reply in its thread: an answer's details, the rest of a long
+    list; other replies have none."""
+    if isinstance(reply, DiagnosisReply):
+        return diagnosis_thread(reply)
     return suspects_thread(reply) if isinstance(reply, SuspectsReply) else []
 
 

@@ -21,6 +21,9 @@ class DiagnosisReply:
     serves: str
     visibility: Visibility = "channel"
     labels: tuple[tuple[str, str], ...] = ()  # (person, verdict): each one's latest label
+    asked_by: str | None = None  # who asked (a Slack user id or a name)
+    at: float | None = None  # when it was answered, seconds since the epoch
+    changed: str | None = None  # a check again: what differs from the answer before
 
     @property
     def disputed(self) -> bool:

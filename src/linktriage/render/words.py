@@ -26,7 +26,9 @@ def ruled_out_line(ruled_out: Mapping[str, Any]) -> str:
 
 
 def ber_line(ber: Mapping[str, Any]) -> str:
-    """How the bit error ratio (a ``bit_errors`` record) compares with the PHY's objective."""
+    """How the bit error ratio (a ``bit_errors`` record) compares with the PHY's objective.
+    The record holds three significant digits, shown as they are: rounding them again
+    could make this line disagree with the evidence worded from the unrounded values."""
     phy, estimate, objective = ber["phy"], ber["estimate"], ber["objective"]
     lower, upper, exceeds = ber["lower"], ber["upper"], ber["exceeds"]
     if estimate <= 0:
@@ -36,11 +38,11 @@ def ber_line(ber: Mapping[str, Any]) -> str:
         )
     if exceeds:
         return (
-            f"Estimated bit error ratio {estimate:.1e} (95%: at least {lower:.1e}), over the "
+            f"Estimated bit error ratio {estimate:.2e} (95%: at least {lower:.2e}), over the "
             f"{phy} objective of {objective:.0e}."
         )
     return (
-        f"Estimated bit error ratio {estimate:.1e} (95%: {lower:.0e} to {upper:.0e}), not "
+        f"Estimated bit error ratio {estimate:.2e} (95%: {lower:.2e} to {upper:.2e}), not "
         f"significantly over the {phy} objective of {objective:.0e}."
     )
 
@@ -52,6 +54,31 @@ NOT_JUDGED_WORDS = {
     "no_data": "without two usable polls",
     "link_down": "down",
 }
+
+
+def what_changed(
+    before: Mapping[str, Any], before_at: float, after: Mapping[str, Any], after_at: float
+) -> str:
+    """A check again, set against the answer it was asked from: the verdict then and now,
+    and each reading both rest on that reads differently now."""
+    minutes = max(0.0, after_at - before_at) / 60.0
+    ago = f"{minutes:.0f} min" if minutes < 120 else f"{minutes / 60:.1f} h"
+    line = f"Checked again {ago} after the first answer: "
+    if before["verdict"] == after["verdict"]:
+        line += f"still {after['title']}."
+    else:
+        line += f"was {before['title']}, now {after['title']}."
+    then = {e["feature"]: e["said"] for e in before.get("evidence", [])}
+    moved = [
+        f"{then[e['feature']]} \u2192 {e['said']}"
+        for e in after.get("evidence", [])
+        if e["feature"] in then and then[e["feature"]] != e["said"]
+    ]
+    if moved:
+        return f"{line} Then \u2192 now: {'; '.join(moved[:2])}."
+    if before["verdict"] == after["verdict"]:
+        return f"{line} The readings it rests on read the same."
+    return line
 
 
 def plural(n: int, one: str, many: str | None = None) -> str:
@@ -477,6 +504,8 @@ DEMO_NEXT = (
 EVIDENCE = "Evidence"
 QUESTIONS_ASKED = "Questions asked"
 CHECK_NEXT = "Check next"
+CHECK_FIRST = "Check first"
+MORE_IN_THREAD = "Why, the questions asked, every check and every caution: in this thread."
 SAFETY = "Safety"
 TABLE_HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "EVIDENCE")
 
@@ -493,6 +522,18 @@ def verdict_line(device: str, port: str, title: str, verdict: str, confidence: f
 def verdict_fallback(device: str, port: str, title: str, verdict: str, confidence: float) -> str:
     """An answer as a notification shows it."""
     return f"{port_title(device, port, title)} ({verdict}, {confidence:.2f})"
+
+
+def asked_by(person: str) -> str:
+    return f"asked by {person}"
+
+
+def why_fallback(title: str) -> str:
+    return f"Why: {title}"
+
+
+def steps_fallback(title: str) -> str:
+    return f"Checks and cautions: {title}"
 
 
 def confidence_fact(value: str) -> str:

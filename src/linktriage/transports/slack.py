@@ -41,13 +41,14 @@ log = logging.getLogger("linktriage.slack")
 WORKING = words.WORKING
 
 
-def post_reply(client: WebClient, channel: str, reply: Reply) -> str:
-    """Post a reply to a channel, and what follows it in its thread; returns its ``ts``.
-    Raises SlackApiError when Slack refuses the first message."""
-    posted = client.chat_postMessage(channel=channel, **message_for(reply))
+def post_reply(client: WebClient, channel: str, reply: Reply, *, thread: str | None = None) -> str:
+    """Post a reply to a channel (into ``thread`` when given), and what follows it in its
+    thread, at once; returns its ``ts``. Raises SlackApiError when Slack refuses the first
+    message."""
+    posted = client.chat_postMessage(channel=channel, thread_ts=thread, **message_for(reply))
     ts = str(posted["ts"])
     for follow in thread_for(reply):
-        client.chat_postMessage(channel=channel, thread_ts=ts, **follow)
+        client.chat_postMessage(channel=channel, thread_ts=thread or ts, **follow)
     return ts
 
 
@@ -242,9 +243,10 @@ def build_app(
             log.warning("ignored a check-again action with value %r", raw_id)
             return
         reply = triage.recheck(int(raw_id), user=user, channel=channel)
-        ts = deliver(reply, client, channel=channel, thread=thread, user=user)
-        if ts is not None:
-            triage.posted(reply, channel=channel, ts=ts)
+        if reply.visibility != "channel":
+            deliver(reply, client, channel=channel, thread=thread, user=user)
+            return
+        triage.posted(reply, channel=channel, ts=post_reply(client, channel, reply, thread=thread))
 
     app.action(RECHECK_ACTION)(ack=ack_recheck, lazy=[answer_recheck])
 
