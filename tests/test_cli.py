@@ -173,6 +173,37 @@ def test_demo_shows_suspects_explanations_and_safety() -> None:
     assert "Never look into a fiber" in out
 
 
+def test_demo_counts_suspects_as_the_digest_and_chat_do() -> None:
+    # One definition of a suspect link: a fault verdict; down, quiet and unreadable ports
+    # are not judged, and are counted apart wherever a count is given.
+    _, out, _ = run("demo")
+    assert (
+        "84 ports healthy; the other 10 need a look: 7 suspect links, 3 ports not judged "
+        "(1 down, 1 too quiet to judge, 1 without two usable polls):"
+    ) in out
+    assert "7 suspect links among 91 ports judged; 3 ports not judged" in out
+    chat = CliRunner().invoke(main, ["chat"], input="suspects\n").stdout
+    assert "7 suspect links among 91 ports judged; 3 ports not judged" in chat
+
+
+def test_the_demo_table_lists_suspects_worst_first_then_the_ports_not_judged() -> None:
+    _, out, _ = run("demo")
+    table = out.split("need a look", 1)[1].split("\n\n", 1)[0].splitlines()[2:]
+    verdicts = [row.split()[2] for row in table]
+    assert verdicts == [
+        "unidirectional",
+        "optic_degraded",
+        "cable_fault",
+        "duplex_mismatch",
+        "mtu_mismatch",
+        "congestion",
+        "negotiation_degraded",
+        "link_down",
+        "insufficient_traffic",
+        "no_data",
+    ]
+
+
 @pytest.mark.parametrize("command", COMMANDS)
 def test_every_command_has_help(command: str) -> None:
     code, out, _ = run(command, "--help")

@@ -55,7 +55,7 @@ class Digests:
                 failed.setdefault(device, words.ports_not_listed(why))
         batch = diagnose(polls, self.model)
         by_name = {(r.device, r.port): r for r in refs}
-        ranked = _ranked_faults(batch)
+        ranked = ranked_suspects(batch)
         records = batch.records_many(ranked)
         found = [by_name.get((batch.device[row], batch.port[row])) for row in ranked]
         ids = keep_answers(
@@ -65,7 +65,7 @@ class Digests:
             SuspectItem(rank, record, diagnosis_id, headline(record))
             for rank, (record, diagnosis_id) in enumerate(zip(records, ids, strict=True), start=1)
         ]
-        not_judged = Counter(v.value for v in batch.verdict if v in GUARD_VERDICTS)
+        not_judged = Counter(batch.verdict[i].value for i in unjudged(batch))
         return SuspectsReply(
             title=words.suspects_title(where),
             items=items,
@@ -115,7 +115,10 @@ def listed(items: list[SuspectItem]) -> list[dict[str, object]]:
     ]
 
 
-def _ranked_faults(batch: DiagnosisBatch) -> list[int]:
+def ranked_suspects(batch: DiagnosisBatch) -> list[int]:
+    """The rows of the suspect links, worst first. A suspect link is a port with a fault
+    verdict (:data:`~linktriage.verdicts.FAULTS`): the one definition behind every list and
+    count of suspects (``suspects``, the digest, ``sweep``, ``demo``)."""
     rows = [i for i, v in enumerate(batch.verdict) if v in FAULTS]
     return sorted(
         rows,
@@ -126,3 +129,9 @@ def _ranked_faults(batch: DiagnosisBatch) -> list[int]:
             batch.port[i],
         ),
     )
+
+
+def unjudged(batch: DiagnosisBatch) -> list[int]:
+    """The rows of the ports not judged (down, too quiet, without two usable polls): neither
+    suspect nor healthy, and counted apart."""
+    return [i for i, v in enumerate(batch.verdict) if v in GUARD_VERDICTS]

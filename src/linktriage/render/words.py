@@ -77,18 +77,22 @@ def coverage_words(
     else:
         head = "No port could be judged"
     parts = [head]
-    unjudged = sum(not_judged.values())
-    if unjudged:
-        why = ", ".join(
-            f"{n:,} {NOT_JUDGED_WORDS.get(verdict, verdict)}"
-            for verdict, n in sorted(not_judged.items(), key=lambda kv: -kv[1])
-            if n
-        )
-        parts.append(f"{plural(unjudged, 'port')} not judged ({why})")
+    if any(not_judged.values()):
+        parts.append(ports_not_judged(not_judged))
     if failed:
         devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
         parts.append(f"{plural(len(failed), 'device')} not read ({devices})")
     return "; ".join(parts) + "."
+
+
+def ports_not_judged(not_judged: Mapping[str, int]) -> str:
+    """ "3 ports not judged (1 down, 1 too quiet to judge, ...)", from counts by verdict."""
+    why = ", ".join(
+        f"{n:,} {NOT_JUDGED_WORDS.get(verdict, verdict)}"
+        for verdict, n in sorted(not_judged.items(), key=lambda kv: -kv[1])
+        if n
+    )
+    return f"{plural(sum(not_judged.values()), 'port')} not judged ({why})"
 
 
 # --- chat
@@ -435,8 +439,13 @@ def demo_intro(organisation: str, ports: int, switches: int, model_version: str)
     )
 
 
-def demo_needs_a_look(healthy: int, suspects: int) -> str:
-    return f"{healthy} ports healthy; the other {suspects} need a look:"
+def demo_needs_a_look(healthy: int, suspects: int, not_judged: Mapping[str, int]) -> str:
+    """The demo's count, in the digest's terms: suspect links, and ports not judged."""
+    parts = [plural(suspects, "suspect link")]
+    if any(not_judged.values()):
+        parts.append(ports_not_judged(not_judged))
+    look = suspects + sum(not_judged.values())
+    return f"{plural(healthy, 'port')} healthy; the other {look:,} need a look: {', '.join(parts)}:"
 
 
 def demo_asks(device: str, port: str) -> str:
