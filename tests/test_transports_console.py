@@ -51,3 +51,9 @@ def test_errors_have_no_thread(triage: Triage) -> None:
     answer = console.say("lark-east-idf9 port1")
     assert answer is not None and "No device named" in answer
     assert console.thread is None
+
+
+def test_a_leading_mention_of_the_bot_is_understood(triage: Triage) -> None:
+    answer = Console(triage).say("@linktriage lark-east-idf2 port14")
+    assert answer is not None
+    assert "\nlark-east-idf2 port14: cable or connector fault (cable_fault)" in answer

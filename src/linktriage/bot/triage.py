@@ -19,6 +19,7 @@ from dataclasses import dataclass, field
 from linktriage.bot.answers import keep_answers
 from linktriage.bot.commands import (
     COMMAND,
+    Command,
     DiagnosePort,
     ListSuspects,
     ShowHelp,
@@ -90,6 +91,17 @@ class Triage:
             reply = ErrorReply(exc.message, exc.hint)
         self._audit(text, reply, user=user, channel=channel)
         return reply
+
+    def settle(self, text: str) -> Command:
+        """The command ``text`` asks for, with every name in it checked against the network
+        and nothing polled: what a transport checks before it says an answer is on its way.
+        Raises :class:`LinktriageError` with the reason, as :meth:`handle` would answer."""
+        command = parse(text)
+        if isinstance(command, DiagnosePort):
+            self.network.find(command.device, command.port)
+        elif isinstance(command, ListSuspects):
+            self.digests.scope(command.site)
+        return command
 
     def _audit(self, text: str, reply: Reply, *, user: str | None, channel: str | None) -> None:
         outcome = (

@@ -118,13 +118,18 @@ class Network(ABC):
         return ref
 
 
+def fitting(text: str, names: list[str]) -> list[str]:
+    """The names a person may mean by ``text``: the one it names in full (in any case), else
+    every name that holds it as a part."""
+    lowered = text.lower()
+    whole = [n for n in names if n.lower() == lowered]
+    return whole[:1] or [n for n in names if lowered in n.lower()]
+
+
 def device_named(text: str, names: list[str]) -> str:
     """The device a person named: its full name in any case, or any part of it that fits
     one device only; refuses a part that fits several, or none."""
-    lowered = {n.lower(): n for n in names}
-    if text.lower() in lowered:
-        return lowered[text.lower()]
-    partial = [n for n in names if text.lower() in n.lower()]
+    partial = fitting(text, names)
     if len(partial) == 1:
         return partial[0]
     if partial:

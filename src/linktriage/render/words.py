@@ -170,12 +170,19 @@ def not_a_name(word: str) -> str:
     return f"{word[:40]!r} is not a device or port name."
 
 
-def no_such_site(site: str) -> str:
-    return f"No site named {site!r}."
+def no_such_site(text: str) -> str:
+    return f"No site or device named {text!r}."
 
 
 def known_sites(sites: list[str]) -> str:
-    return f"Sites: {', '.join(sites)}."
+    return (
+        f"Sites: {', '.join(sites)}; a unique part of a site's name will do, or a part of "
+        "some devices' names."
+    )
+
+
+def fits_sites(text: str, sites: int) -> str:
+    return f"{text!r} fits {sites} sites."
 
 
 def ports_not_listed(why: str) -> str:
@@ -189,6 +196,15 @@ def answered_without(port: str) -> str:
 
 def suspects_title(site: str | None) -> str:
     return f"Suspect links {'everywhere' if site is None else f'at {site}'}"
+
+
+def suspects_on(text: str, devices: list[str]) -> str:
+    """The title of a list of the devices a part of a name fits: their names, if few."""
+    if len(devices) == 1:
+        return f"Suspect links on {devices[0]}"
+    if len(devices) <= 3:
+        return f"Suspect links on {', '.join(devices[:-1])} and {devices[-1]}"
+    return f"Suspect links on the {len(devices)} devices named *{text}*"
 
 
 DIGEST_TITLE = "Digest of suspect links"
