@@ -268,11 +268,43 @@ def test_chat_reads_commands_from_standard_input() -> None:
     assert label["verdict"] == "unidirectional" and label["source"] == "console"
 
 
+def test_leaving_the_prompt_with_ctrl_d_ends_the_line(tmp_path: Path) -> None:
+    # At a terminal, end of input (Ctrl-D) leaves the prompt; the shell's own prompt must
+    # then start on a line of its own.
+    import os
+    import pty
+
+    exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
+    assert exe is not None
+    main_fd, child_fd = pty.openpty()
+    env = {**os.environ, "LINKTRIAGE_HOME": str(tmp_path / "home")}
+    child = subprocess.Popen(
+        [exe, "chat"], stdin=child_fd, stdout=child_fd, stderr=child_fd, env=env
+    )
+    os.close(child_fd)
+    seen = b""
+    while not seen.endswith(b"triage> "):
+        seen += os.read(main_fd, 1024)
+    os.write(main_fd, b"\x04")  # Ctrl-D at the start of a line: end of input
+    assert child.wait(timeout=30) == 0
+    rest = b""
+    while True:
+        try:
+            chunk = os.read(main_fd, 1024)
+        except OSError:  # the terminal closed with the child
+            break
+        if not chunk:
+            break
+        rest += chunk
+    os.close(main_fd)
+    assert rest.endswith(b"\r\n")
+
+
 def test_labels_export_writes_training_rows(tmp_path: Path) -> None:
     CliRunner().invoke(main, ["chat"], input="lark-east-idf2 port14\nreply confirmed\n")
     target = tmp_path / "labels.csv"
     code, _, err = run("labels", "export", str(target))
-    assert code == 0 and "wrote 1 labelled rows" in err
+    assert code == 0 and "wrote 1 labelled row to" in err
     header, row = target.read_text().splitlines()
     assert header.startswith("ber_over_objective,") and ",verdict," in header
     assert ",cable_fault," in row
@@ -284,7 +316,7 @@ def test_labels_mark_a_replaced_label_and_export_only_what_counts(tmp_path: Path
     code, out, _ = run("labels")
     assert code == 0
     assert out.splitlines()[0] == (
-        "2 labels: 1 count, 1 replaced by their author's later one, 0 on 0 disputed answers"
+        "2 labels: 1 counting, 1 replaced by their author's later one, 0 on 0 disputed answers"
     )
     assert "cable_fault = by console via console [replaced]" in out
     assert "[counts]: forced on the printer" in out
@@ -429,7 +461,7 @@ def test_control_characters_in_names_are_shown_not_obeyed(tmp_path: Path) -> Non
     path.write_text("\n".join(lines) + "\n")
     code, out, _ = run("diagnose", "--snapshots", str(path))
     assert code == 0
-    assert "\u001b" not in out and "sw\\x1b[2J" in out
+    assert "\u001b" not in out and "sw<U+001B>[2J" in out
     assert len(out.splitlines()) == 2  # the header and one row, no forged one
     code, out, _ = run("diagnose", "--snapshots", str(path), "--json")
     assert json.loads(out)["port"] == "p1\nlark-core1  up1  healthy"  # JSON keeps it exact

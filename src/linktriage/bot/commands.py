@@ -51,11 +51,10 @@ class ShowHelp:
 Command = DiagnosePort | ListSuspects | ShowModel | ShowHelp
 
 
-USAGE = words.usage(COMMAND)
-
-
-def parse(text: str) -> Command:
-    """What a person asked for; malformed text raises :class:`CommandError`."""
+def parse(text: str, *, command: str = COMMAND) -> Command:
+    """What a person asked for; malformed text raises :class:`CommandError`, its hint
+    spelt as commands start where the text was typed (``command``; "" at the console)."""
+    usage = words.usage(command)
     tokens = text.strip().split()
     if tokens and _MENTION.fullmatch(tokens[0]):
         tokens = tokens[1:]
@@ -66,15 +65,15 @@ def parse(text: str) -> Command:
     head = tokens[0].lower()
     if head == "suspects":
         if len(tokens) > 2:
-            raise CommandError(words.SUSPECTS_TAKES_ONE_SITE, hint=USAGE)
+            raise CommandError(words.SUSPECTS_TAKES_ONE_SITE, hint=usage)
         return ListSuspects(tokens[1] if len(tokens) == 2 else None)
     if head == "model":
         if len(tokens) > 1:
-            raise CommandError(words.MODEL_TAKES_NOTHING, hint=USAGE)
+            raise CommandError(words.MODEL_TAKES_NOTHING, hint=usage)
         return ShowModel()
     if len(tokens) != 2:
-        raise CommandError(words.NAME_DEVICE_AND_PORT, hint=USAGE)
+        raise CommandError(words.NAME_DEVICE_AND_PORT, hint=usage)
     for word, pattern in zip(tokens, (_DEVICE, _PORT), strict=True):
         if not pattern.fullmatch(word):
-            raise CommandError(words.not_a_name(word), hint=USAGE)
+            raise CommandError(words.not_a_name(word), hint=usage)
     return DiagnosePort(tokens[0], tokens[1])

@@ -73,13 +73,22 @@ class Triage:
         )
 
     # --- commands
-    def handle(self, text: str, *, user: str | None = None, channel: str | None = None) -> Reply:
-        """Run one command; anything that goes wrong becomes an :class:`ErrorReply`."""
+    def handle(
+        self,
+        text: str,
+        *,
+        user: str | None = None,
+        channel: str | None = None,
+        spelt: str = COMMAND,
+    ) -> Reply:
+        """Run one command; anything that goes wrong becomes an :class:`ErrorReply`. Help
+        and hints show commands starting with ``spelt``, as they are typed where the text
+        came from ("/triage" in Slack, "" at the console)."""
         try:
-            command = parse(text)
+            command = parse(text, command=spelt)
             reply: Reply
             if isinstance(command, ShowHelp):
-                reply = HelpReply(COMMAND)
+                reply = HelpReply(spelt)
             elif isinstance(command, ShowModel):
                 reply = self.model_card()
             elif isinstance(command, ListSuspects):

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 
 from linktriage.errors import AmbiguousNameError, PollError, UnknownPortError
 from linktriage.polls import PollTable
+from linktriage.printable import printable
 
 
 @dataclass(frozen=True, slots=True)
@@ -112,7 +113,7 @@ class Network(ABC):
         if ref is None:
             known = [r.port for r in ports]
             raise UnknownPortError(
-                f"{name} has no port named {port!r}.",
+                f"{name} has no port named '{printable(port)}'.",
                 suggestions=difflib.get_close_matches(port, known, n=3, cutoff=0.5),
             )
         return ref
@@ -134,9 +135,9 @@ def device_named(text: str, names: list[str]) -> str:
         return partial[0]
     if partial:
         raise AmbiguousNameError(
-            f"{text!r} fits {len(partial)} devices.", candidates=sorted(partial)
+            f"'{printable(text)}' fits {len(partial)} devices.", candidates=sorted(partial)
         )
     raise UnknownPortError(
-        f"No device named {text!r}.",
+        f"No device named '{printable(text)}'.",
         suggestions=difflib.get_close_matches(text, names, n=3, cutoff=0.5),
     )

@@ -11,6 +11,8 @@ from collections.abc import Mapping
 from datetime import UTC, datetime
 from typing import TYPE_CHECKING, Any
 
+from linktriage.printable import printable
+
 if TYPE_CHECKING:
     from linktriage.model.labels import Label
     from linktriage.store import StoreState
@@ -52,6 +54,12 @@ NOT_JUDGED_WORDS = {
     "no_data": "without two usable polls",
     "link_down": "down",
 }
+
+
+def quoted(text: str) -> str:
+    """A name a person typed, quoted and shown as :func:`~linktriage.printable.printable`
+    shows it, so a character that would hide or act is seen where it sits."""
+    return f"'{printable(text)}'"
 
 
 def plural(n: int, one: str, many: str | None = None) -> str:
@@ -96,17 +104,26 @@ def ports_not_judged(not_judged: Mapping[str, int]) -> str:
 
 
 # --- chat
+def _form(command: str, rest: str) -> str:
+    """A command as typed where ``command`` is how it starts ("/triage"; "" at a prompt)."""
+    return f"`{command} {rest}`" if command else f"`{rest}`"
+
+
 def help_lines(command: str) -> list[str]:
-    """What the bot's help says, one line each."""
-    return [
-        f"`{command} DEVICE PORT`: diagnose one port now (a unique part of the device name "
-        "will do).",
-        f"`{command} suspects [SITE]`: the suspect links, worst first.",
-        f"`{command} model`: the model's card.",
+    """What the bot's help says, one line each; at a prompt (no ``command``) the forms are
+    shown as typed there, and where the command's name goes in Slack."""
+    lines = [
+        f"{_form(command, 'DEVICE PORT')}: diagnose one port now (a unique part of the device "
+        "name will do).",
+        f"{_form(command, 'suspects [SITE]')}: the suspect links, worst first.",
+        f"{_form(command, 'model')}: the model's card.",
         "Reply in the thread of an answer with what you found, e.g. "
         "`cable_fault, crushed patch cord behind the desk`, or `confirmed`; in a digest's "
         "thread start with the link's number: `3: duplex forced on the printer`.",
     ]
+    if not command:
+        lines.append("In Slack, type them after `/triage` or a mention of the bot.")
+    return lines
 
 
 LABEL_PROMPT = "Found it? Reply in this thread with what it was, or use the buttons."
@@ -158,7 +175,8 @@ def label_recorded(
 
 # --- the bot
 def usage(command: str) -> str:
-    return f"Try `{command} DEVICE PORT`, `{command} suspects [SITE]`, or `{command} help`."
+    forms = [_form(command, rest) for rest in ("DEVICE PORT", "suspects [SITE]", "help")]
+    return f"Try {forms[0]}, {forms[1]}, or {forms[2]}."
 
 
 SUSPECTS_TAKES_ONE_SITE = "`suspects` takes at most one site."
@@ -167,11 +185,11 @@ NAME_DEVICE_AND_PORT = "Name one device and one port, e.g. `lark-east-idf2 port1
 
 
 def not_a_name(word: str) -> str:
-    return f"{word[:40]!r} is not a device or port name."
+    return f"{quoted(word[:40])} is not a device or port name."
 
 
 def no_such_site(text: str) -> str:
-    return f"No site or device named {text!r}."
+    return f"No site or device named {quoted(text)}."
 
 
 def known_sites(sites: list[str]) -> str:
@@ -182,7 +200,7 @@ def known_sites(sites: list[str]) -> str:
 
 
 def fits_sites(text: str, sites: int) -> str:
-    return f"{text!r} fits {sites} sites."
+    return f"{quoted(text)} fits {sites} sites."
 
 
 def ports_not_listed(why: str) -> str:
@@ -240,6 +258,9 @@ CONSOLE_GREETING = (
 )
 CONSOLE_LABEL_PROMPT = f"({LABEL_PROMPT.replace('use the buttons', 'type reply TEXT')})"
 CONSOLE_NOTHING_TO_REPLY = "Nothing to reply to yet: ask about a port first."
+CONSOLE_REPLY_WHAT = (
+    "Say what you found after `reply`, e.g. `reply cable_fault, crushed patch cord`."
+)
 CONSOLE_NOT_A_LABEL = "(not read as a label: name what you found, e.g. `cable_fault, crushed cord`)"
 
 
@@ -284,12 +305,15 @@ def line_skipped(path: object, line: int, why: str) -> str:
 
 
 def diagnosed(snapshots: int, ports: int, skipped: int) -> str:
-    return f"{snapshots} snapshots of {ports} ports diagnosed; {skipped} lines skipped"
+    return (
+        f"{plural(snapshots, 'snapshot')} of {plural(ports, 'port')} diagnosed; "
+        f"{plural(skipped, 'line')} skipped"
+    )
 
 
 def training_starts(ports: int, seed: int, folds: int) -> str:
     return (
-        f"simulating {ports:,} ports (seed {seed}) and choosing the pruning "
+        f"simulating {plural(ports, 'port')} (seed {seed}) and choosing the pruning "
         f"level by {folds}-fold cross-validation..."
     )
 
@@ -306,9 +330,9 @@ def learnt(
 ) -> str:
     """What training with labels learnt, and whether the candidate replaced the model."""
     return (
-        f"learnt from {trained_on} labels"
-        + (f" ({older} older ones left out)" if older else "")
-        + (f" ({disputed} answers held out: their labels disagree)" if disputed else "")
+        f"learnt from {plural(trained_on, 'label')}"
+        + (f" ({plural(older, 'older one')} left out)" if older else "")
+        + (f" ({plural(disputed, 'answer')} held out: their labels disagree)" if disputed else "")
         + f"; on {held_out} held out the candidate scores {candidate_score:.2f}, the current "
         f"model {current_version} {current_score:.2f}: "
         + ("promoted" if promoted else "kept, not promoted")
@@ -320,22 +344,22 @@ def kept_model_source(promoted: bool) -> str:
 
 
 def kept_version(version: str, labelled_rows: int, *, current: bool) -> str:
-    return f"  {'*' if current else ' '} kept {version}: {labelled_rows} labels"
+    return f"  {'*' if current else ' '} kept {version}: {plural(labelled_rows, 'label')}"
 
 
 def device_setup(
     name: str, site: str, collector: str, address: str | None, ports: int | None, state: str
 ) -> str:
-    listed = f"{ports} ports listed" if ports is not None else "all ports"
+    listed = f"{plural(ports, 'port')} listed" if ports is not None else "all ports"
     return f"{name} ({site}): {collector} at {address or '-'}, {listed}: {state}"
 
 
 def set_up_wrongly(bad: int, total: int) -> str:
-    return f"{bad} of {total} devices are set up wrongly"
+    return f"{bad:,} of {total:,} devices {'is' if bad == 1 else 'are'} set up wrongly"
 
 
 def devices_ok(total: int) -> str:
-    return f"{total} devices ok"
+    return f"{plural(total, 'device')} ok"
 
 
 def does_not_answer(device: str, why: str) -> str:
@@ -343,7 +367,7 @@ def does_not_answer(device: str, why: str) -> str:
 
 
 def answers_in(device: str, seconds: float, ports: int) -> str:
-    return f"{device}: answers in {seconds:.2f} s with {ports} ports"
+    return f"{device}: answers in {seconds:.2f} s with {plural(ports, 'port')}"
 
 
 def cannot_be_read(unread: int, total: int) -> str:
@@ -359,7 +383,7 @@ def port_said(device: str, port: str, why: str) -> str:
 
 
 def wrote_snapshots(written: int, device: str, polls: int) -> str:
-    return f"wrote {written} snapshots of {device} in {polls} polls"
+    return f"wrote {plural(written, 'snapshot')} of {device} in {plural(polls, 'poll')}"
 
 
 def settings_from(source: object) -> str:
@@ -408,7 +432,7 @@ def inventory_missing(path: object) -> str:
 
 
 def inventory_state(path: object, devices: int) -> str:
-    return f"inventory: {path}, {devices} devices"
+    return f"inventory: {path}, {plural(devices, 'device')}"
 
 
 def settings_warning(warning: str) -> str:
@@ -424,8 +448,8 @@ SETTINGS_USABLE = "settings are usable"
 
 def labels_summary(total: int, kept: int, replaced: int, disputed: int, answers: int) -> str:
     return (
-        f"{total} labels: {kept} count, {replaced} replaced by their author's later one, "
-        f"{disputed} on {answers} disputed answers"
+        f"{plural(total, 'label')}: {kept:,} counting, {replaced:,} replaced by their author's "
+        f"later one, {disputed:,} on {plural(answers, 'disputed answer')}"
     )
 
 
@@ -440,7 +464,7 @@ def label_line(label: Label, standing: str) -> str:
 
 
 def wrote_rows(rows: int, path: object) -> str:
-    return f"wrote {rows} labelled rows to {path}"
+    return f"wrote {plural(rows, 'labelled row')} to {path}"
 
 
 # --- the demo
@@ -525,7 +549,7 @@ def confidence_fact(value: str) -> str:
 
 
 def window_fact(seconds: str, polls: int) -> str:
-    return f"window {seconds} s over {polls} polls"
+    return f"window {seconds} s over {plural(polls, 'poll')}"
 
 
 def model_fact(version: str) -> str:
@@ -593,7 +617,7 @@ def continued(title: str) -> str:
 
 
 def suspects_fallback(title: str, links: int) -> str:
-    return f"{title}: {links} suspect links"
+    return f"{title}: {plural(links, 'suspect link')}"
 
 
 def found_note(note: str) -> str:
