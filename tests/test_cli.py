@@ -7,11 +7,13 @@ import random
 import shutil
 import subprocess
 import sys
+from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
 
+from linktriage.bot.triage import Triage
 from linktriage.cli import READ_NONE, READ_SOME, main
 from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.simulate import DEFAULT_START
@@ -318,12 +320,81 @@ def test_labels_mark_a_replaced_label_and_export_only_what_counts(tmp_path: Path
     assert out.splitlines()[0] == (
         "2 labels: 1 counting, 1 replaced by their author's later one, 0 on 0 disputed answers"
     )
-    assert "cable_fault = by console via console [replaced]" in out
+    replaced = "cable_fault (as answered), on answer 1, by console at the console [replaced]"
+    assert f"port14: {replaced}: confirmed" in out
     assert "[counts]: forced on the printer" in out
     target = tmp_path / "labels.csv"
     run("labels", "export", str(target))
     _, row = target.read_text().splitlines()
     assert ",duplex_mismatch," in row
+
+
+@pytest.fixture
+def central_european_time() -> Iterator[None]:
+    """Local time is CET (UTC+1 in March), whatever the machine's own zone (a POSIX zone
+    rule, so no zone database is needed)."""
+    import os
+    import time
+
+    before = os.environ.get("TZ")
+    os.environ["TZ"] = "CET-1CEST,M3.5.0,M10.5.0/3"
+    time.tzset()
+    yield
+    if before is None:
+        del os.environ["TZ"]
+    else:
+        os.environ["TZ"] = before
+    time.tzset()
+
+
+def _labelled_in_slack(triage: Triage, tmp_path: Path) -> Path:
+    """Two people's labels on one answer in a channel; the config that reads their store."""
+    reply = triage.handle("lark-east-idf2 port14", user="U0ENGINEER", channel="C0NETOPS")
+    assert triage.posted(reply, channel="C0NETOPS", ts="1772438401.000100")
+    triage.labels.reply(
+        "cable_fault, crushed cord",
+        user="U0ENGINEER",
+        channel="C0NETOPS",
+        thread_ts="1772438401.000100",
+        event_key="Ev1",
+    )
+    triage.labels.button(
+        1, "duplex_mismatch", user="U0TECH", channel="C0NETOPS", event_key="action:1"
+    )
+    config = tmp_path / "c.toml"
+    config.write_text(f'[store]\nurl = "{triage.store.url}"\n')
+    return config
+
+
+def test_labels_say_when_in_local_time_who_where_and_on_which_answer(
+    triage: Triage, tmp_path: Path, central_european_time: None
+) -> None:
+    config = _labelled_in_slack(triage, tmp_path)
+    code, out, _ = run("labels", "--config", str(config))
+    assert code == 0
+    # Asked at 08:00 UTC (two polls 30 s apart), labelled at 08:00:30 UTC: 09:00 CET.
+    assert out.splitlines()[1:] == [
+        "   1  2026-03-02 09:00 CET  lark-east-idf2 port14: cable_fault (as answered), on "
+        "answer 1, by U0ENGINEER in a thread in C0NETOPS [disputed]: crushed cord",
+        "   2  2026-03-02 09:00 CET  lark-east-idf2 port14: duplex_mismatch (answered "
+        "cable_fault), on answer 1, by U0TECH with a button in C0NETOPS [disputed]",
+    ]
+
+
+def test_labels_json_gives_the_time_in_rfc_3339(
+    triage: Triage, tmp_path: Path, central_european_time: None
+) -> None:
+    config = _labelled_in_slack(triage, tmp_path)
+    code, out, _ = run("labels", "--json", "--config", str(config))
+    assert code == 0
+    first = json.loads(out.splitlines()[0])
+    assert first["at"] == "2026-03-02T08:00:30Z"
+    assert (first["user_id"], first["channel"], first["source"], first["diagnosis_id"]) == (
+        "U0ENGINEER",
+        "C0NETOPS",
+        "thread",
+        1,
+    )
 
 
 def test_config_check_without_slack_is_usable_and_warns_what_serve_would_lack(

@@ -453,14 +453,35 @@ def labels_summary(total: int, kept: int, replaced: int, disputed: int, answers:
     )
 
 
+#: Where a label was given, by its source (``{channel}`` is filled in).
+LABEL_GIVEN = {
+    "thread": "in a thread in {channel}",
+    "button": "with a button in {channel}",
+    "console": "at the console",
+}
+
+
 def label_line(label: Label, standing: str) -> str:
-    """One label in the list: who found what, against what the model said, and whether
-    it counts."""
-    agreed = "=" if label.verdict == label.model_verdict else f"(model: {label.model_verdict})"
-    return (
-        f"{label.id:>4} {label.device} {label.port}: {label.verdict} {agreed} "
-        f"by {label.user_id} via {label.source} [{standing}]: {label.note}"
+    """One label in the list: when (local time), the port, what was found against what the
+    answer said, which answer, who, where, whether it counts, and the note."""
+    agreed = (
+        "as answered" if label.verdict == label.model_verdict else f"answered {label.model_verdict}"
     )
+    channel = printable(label.channel or "an unknown channel")
+    where = LABEL_GIVEN.get(label.source, f"by {label.source} in {{channel}}").format(
+        channel=channel
+    )
+    note = f": {printable(label.note)}" if label.note else ""
+    return (
+        f"{label.id:>4}  {_local(label.at)}  {printable(label.device)} {printable(label.port)}: "
+        f"{label.verdict} ({agreed}), on answer {label.diagnosis_id}, by "
+        f"{printable(label.user_id)} {where} [{standing}]{note}"
+    )
+
+
+def _local(at: float) -> str:
+    """A moment in the machine's local time, its zone named."""
+    return datetime.fromtimestamp(at).astimezone().strftime("%Y-%m-%d %H:%M %Z")
 
 
 def wrote_rows(rows: int, path: object) -> str:
