@@ -19,6 +19,10 @@ from linktriage.errors import CommandError
         ("model", ShowModel()),
         ("", ShowHelp()),
         ("help", ShowHelp()),
+        ("@linktriage lark-east-idf2 port14", DiagnosePort("lark-east-idf2", "port14")),
+        ("<@U0LTBOT> suspects annex", ListSuspects("annex")),
+        ("<@U0LTBOT|linktriage> lark-core1 up3", DiagnosePort("lark-core1", "up3")),
+        ("@LinkTriage", ShowHelp()),
     ],
 )
 def test_commands(text: str, command: object) -> None:
@@ -33,10 +37,17 @@ def test_commands(text: str, command: object) -> None:
         ("suspects a b", "at most one site"),
         ("model now", "nothing after it"),
         ("http://10.0.0.1/ x", "is not a device or port name"),
-        ("<@U123> port1", "is not a device or port name"),
+        ("port1 <@U123>", "is not a device or port name"),
     ],
 )
 def test_malformed_text_gets_a_short_answer_with_usage(text: str, complaint: str) -> None:
     with pytest.raises(CommandError, match=complaint) as caught:
         parse(text)
     assert caught.value.hint is not None and "/triage DEVICE PORT" in caught.value.hint
+
+
+def test_only_a_leading_mention_of_the_bot_is_taken_away() -> None:
+    with pytest.raises(CommandError, match="is not a device or port name"):
+        parse("lark-core1 <@U0LTBOT>")
+    with pytest.raises(CommandError, match="is not a device or port name"):
+        parse("@someone up3")  # someone else's name typed out is not the bot's

@@ -35,6 +35,39 @@ def test_suspects_of_one_site(triage: Triage) -> None:
     assert {i.record["device"] for i in reply.items} == {"lark-annex-sw1"}
 
 
+def test_a_unique_part_of_a_site_name_names_the_site(triage: Triage) -> None:
+    reply = triage.handle("suspects CENT")
+    assert isinstance(reply, SuspectsReply)
+    assert reply.title == "Suspect links at central"
+    assert "lark-annex-sw1" not in {i.record["device"] for i in reply.items}
+
+
+def test_a_part_of_device_names_lists_the_suspects_of_those_devices(triage: Triage) -> None:
+    # No site is called "east", but two devices are: their suspects are listed.
+    reply = triage.handle("suspects east")
+    assert isinstance(reply, SuspectsReply)
+    assert reply.title == "Suspect links on lark-east-idf1 and lark-east-idf2"
+    assert {(i.record["device"], i.record["port"]) for i in reply.items} == {
+        ("lark-east-idf1", "port19"),
+        ("lark-east-idf1", "up1"),
+        ("lark-east-idf2", "port7"),
+        ("lark-east-idf2", "port14"),
+    }
+    assert reply.ports_judged + sum(reply.not_judged.values()) == 50
+
+
+def test_a_name_that_fits_no_site_and_no_device_is_refused_with_what_fits(
+    triage: Triage,
+) -> None:
+    reply = triage.handle("suspects mars")
+    assert isinstance(reply, ErrorReply)
+    assert reply.message == "No site or device named 'mars'."
+    assert reply.hint == (
+        "Sites: annex, central; a unique part of a site's name will do, or a part of some "
+        "devices' names."
+    )
+
+
 class Flaky(DemoNetwork):
     """The demo network with one switch that never answers."""
 

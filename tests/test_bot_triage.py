@@ -20,7 +20,7 @@ from linktriage.render.replies import (
         ("east port1", "'east' fits 2 devices."),
         ("lark-core1 up99", "lark-core1 has no port named 'up99'."),
         ("lark-core1", "Name one device and one port"),
-        ("suspects mars", "No site named 'mars'."),
+        ("suspects mars", "No site or device named 'mars'."),
     ],
 )
 def test_bad_requests_get_a_short_answer_and_are_audited(

@@ -7,11 +7,13 @@ import random
 import shutil
 import subprocess
 import sys
+from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
 
+from linktriage.bot.triage import Triage
 from linktriage.cli import READ_NONE, READ_SOME, main
 from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.simulate import DEFAULT_START
@@ -173,6 +175,37 @@ def test_demo_shows_suspects_explanations_and_safety() -> None:
     assert "Never look into a fiber" in out
 
 
+def test_demo_counts_suspects_as_the_digest_and_chat_do() -> None:
+    # One definition of a suspect link: a fault verdict; down, quiet and unreadable ports
+    # are not judged, and are counted apart wherever a count is given.
+    _, out, _ = run("demo")
+    assert (
+        "84 ports healthy; the other 10 need a look: 7 suspect links, 3 ports not judged "
+        "(1 down, 1 too quiet to judge, 1 without two usable polls):"
+    ) in out
+    assert "7 suspect links among 91 ports judged; 3 ports not judged" in out
+    chat = CliRunner().invoke(main, ["chat"], input="suspects\n").stdout
+    assert "7 suspect links among 91 ports judged; 3 ports not judged" in chat
+
+
+def test_the_demo_table_lists_suspects_worst_first_then_the_ports_not_judged() -> None:
+    _, out, _ = run("demo")
+    table = out.split("need a look", 1)[1].split("\n\n", 1)[0].splitlines()[2:]
+    verdicts = [row.split()[2] for row in table]
+    assert verdicts == [
+        "unidirectional",
+        "optic_degraded",
+        "cable_fault",
+        "duplex_mismatch",
+        "mtu_mismatch",
+        "congestion",
+        "negotiation_degraded",
+        "link_down",
+        "insufficient_traffic",
+        "no_data",
+    ]
+
+
 @pytest.mark.parametrize("command", COMMANDS)
 def test_every_command_has_help(command: str) -> None:
     code, out, _ = run(command, "--help")
@@ -237,11 +270,43 @@ def test_chat_reads_commands_from_standard_input() -> None:
     assert label["verdict"] == "unidirectional" and label["source"] == "console"
 
 
+def test_leaving_the_prompt_with_ctrl_d_ends_the_line(tmp_path: Path) -> None:
+    # At a terminal, end of input (Ctrl-D) leaves the prompt; the shell's own prompt must
+    # then start on a line of its own.
+    import os
+    import pty
+
+    exe = shutil.which("linktriage", path=str(Path(sys.executable).parent))
+    assert exe is not None
+    main_fd, child_fd = pty.openpty()
+    env = {**os.environ, "LINKTRIAGE_HOME": str(tmp_path / "home")}
+    child = subprocess.Popen(
+        [exe, "chat"], stdin=child_fd, stdout=child_fd, stderr=child_fd, env=env
+    )
+    os.close(child_fd)
+    seen = b""
+    while not seen.endswith(b"triage> "):
+        seen += os.read(main_fd, 1024)
+    os.write(main_fd, b"\x04")  # Ctrl-D at the start of a line: end of input
+    assert child.wait(timeout=30) == 0
+    rest = b""
+    while True:
+        try:
+            chunk = os.read(main_fd, 1024)
+        except OSError:  # the terminal closed with the child
+            break
+        if not chunk:
+            break
+        rest += chunk
+    os.close(main_fd)
+    assert rest.endswith(b"\r\n")
+
+
 def test_labels_export_writes_training_rows(tmp_path: Path) -> None:
     CliRunner().invoke(main, ["chat"], input="lark-east-idf2 port14\nreply confirmed\n")
     target = tmp_path / "labels.csv"
     code, _, err = run("labels", "export", str(target))
-    assert code == 0 and "wrote 1 labelled rows" in err
+    assert code == 0 and "wrote 1 labelled row to" in err
     header, row = target.read_text().splitlines()
     assert header.startswith("ber_over_objective,") and ",verdict," in header
     assert ",cable_fault," in row
@@ -253,14 +318,83 @@ def test_labels_mark_a_replaced_label_and_export_only_what_counts(tmp_path: Path
     code, out, _ = run("labels")
     assert code == 0
     assert out.splitlines()[0] == (
-        "2 labels: 1 count, 1 replaced by their author's later one, 0 on 0 disputed answers"
+        "2 labels: 1 counting, 1 replaced by their author's later one, 0 on 0 disputed answers"
     )
-    assert "cable_fault = by console via console [replaced]" in out
+    replaced = "cable_fault (as answered), on answer 1, by console at the console [replaced]"
+    assert f"port14: {replaced}: confirmed" in out
     assert "[counts]: forced on the printer" in out
     target = tmp_path / "labels.csv"
     run("labels", "export", str(target))
     _, row = target.read_text().splitlines()
     assert ",duplex_mismatch," in row
+
+
+@pytest.fixture
+def central_european_time() -> Iterator[None]:
+    """Local time is CET (UTC+1 in March), whatever the machine's own zone (a POSIX zone
+    rule, so no zone database is needed)."""
+    import os
+    import time
+
+    before = os.environ.get("TZ")
+    os.environ["TZ"] = "CET-1CEST,M3.5.0,M10.5.0/3"
+    time.tzset()
+    yield
+    if before is None:
+        del os.environ["TZ"]
+    else:
+        os.environ["TZ"] = before
+    time.tzset()
+
+
+def _labelled_in_slack(triage: Triage, tmp_path: Path) -> Path:
+    """Two people's labels on one answer in a channel; the config that reads their store."""
+    reply = triage.handle("lark-east-idf2 port14", user="U0ENGINEER", channel="C0NETOPS")
+    assert triage.posted(reply, channel="C0NETOPS", ts="1772438401.000100")
+    triage.labels.reply(
+        "cable_fault, crushed cord",
+        user="U0ENGINEER",
+        channel="C0NETOPS",
+        thread_ts="1772438401.000100",
+        event_key="Ev1",
+    )
+    triage.labels.button(
+        1, "duplex_mismatch", user="U0TECH", channel="C0NETOPS", event_key="action:1"
+    )
+    config = tmp_path / "c.toml"
+    config.write_text(f'[store]\nurl = "{triage.store.url}"\n')
+    return config
+
+
+def test_labels_say_when_in_local_time_who_where_and_on_which_answer(
+    triage: Triage, tmp_path: Path, central_european_time: None
+) -> None:
+    config = _labelled_in_slack(triage, tmp_path)
+    code, out, _ = run("labels", "--config", str(config))
+    assert code == 0
+    # Asked at 08:00 UTC (two polls 30 s apart), labelled at 08:00:30 UTC: 09:00 CET.
+    assert out.splitlines()[1:] == [
+        "   1  2026-03-02 09:00 CET  lark-east-idf2 port14: cable_fault (as answered), on "
+        "answer 1, by U0ENGINEER in a thread in C0NETOPS [disputed]: crushed cord",
+        "   2  2026-03-02 09:00 CET  lark-east-idf2 port14: duplex_mismatch (answered "
+        "cable_fault), on answer 1, by U0TECH with a button in C0NETOPS [disputed]",
+    ]
+
+
+def test_labels_json_gives_the_time_in_rfc_3339(
+    triage: Triage, tmp_path: Path, central_european_time: None
+) -> None:
+    config = _labelled_in_slack(triage, tmp_path)
+    code, out, _ = run("labels", "--json", "--config", str(config))
+    assert code == 0
+    first = json.loads(out.splitlines()[0])
+    assert first["at"] == "2026-03-02T08:00:30Z"
+    assert (first["user_id"], first["channel"], first["source"], first["diagnosis_id"]) == (
+        "U0ENGINEER",
+        "C0NETOPS",
+        "thread",
+        1,
+    )
 
 
 def test_config_check_without_slack_is_usable_and_warns_what_serve_would_lack(
@@ -398,7 +532,7 @@ def test_control_characters_in_names_are_shown_not_obeyed(tmp_path: Path) -> Non
     path.write_text("\n".join(lines) + "\n")
     code, out, _ = run("diagnose", "--snapshots", str(path))
     assert code == 0
-    assert "\u001b" not in out and "sw\\x1b[2J" in out
+    assert "\u001b" not in out and "sw<U+001B>[2J" in out
     assert len(out.splitlines()) == 2  # the header and one row, no forged one
     code, out, _ = run("diagnose", "--snapshots", str(path), "--json")
     assert json.loads(out)["port"] == "p1\nlark-core1  up1  healthy"  # JSON keeps it exact

@@ -20,16 +20,18 @@ def test_the_manifest_declares_what_the_bot_uses() -> None:
     (command,) = manifest["features"]["slash_commands"]
     assert command["command"] == COMMAND
     scopes = set(manifest["oauth_config"]["scopes"]["bot"])
-    # slash command, posting, reading thread replies, checking user groups (Slack scopes)
+    # slash command, posting, mentions, reading thread replies, checking user groups
     assert scopes == {
         "commands",
         "chat:write",
+        "app_mentions:read",
         "channels:history",
         "groups:history",
         "usergroups:read",
     }
     settings = manifest["settings"]
     assert set(settings["event_subscriptions"]["bot_events"]) == {
+        "app_mention",
         "message.channels",
         "message.groups",
     }

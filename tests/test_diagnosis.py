@@ -196,3 +196,28 @@ def test_diagnosing_a_chunk_of_ports_at_a_time_gives_the_same_answers_in_order(
     chunks = list(diagnose_chunks(shuffled, model, ports=ports))
     assert len(chunks) == -(-len(whole) // ports)
     assert [r for batch in chunks for r in batch.records()] == whole
+
+
+def test_a_poll_that_lost_its_etherlike_table_costs_only_itself(model: Model) -> None:
+    # Three polls of the demo network; the middle one's walk timed out before the
+    # EtherLike-MIB table (RFC 3635), so those counters are absent from it.
+    from linktriage.counters import COLUMNS
+    from linktriage.network.demo import DemoNetwork
+    from linktriage.polls import PollTable
+    from linktriage.simulate import DEFAULT_START
+
+    network = DemoNetwork()
+    middle = network.poll_all(DEFAULT_START - 300.0)
+    middle.present[:, [c.name.startswith("dot3") for c in COLUMNS]] = False
+    polls_ = PollTable.concat(
+        [network.poll_all(DEFAULT_START - 600.0), middle, network.poll_all(DEFAULT_START)]
+    )
+    batch = diagnose(polls_, model)
+    row = batch.index_of("lark-east-idf2", "port14")
+    assert row is not None
+    record = batch.record(row)
+    assert record["verdict"] == Verdict.CABLE_FAULT
+    assert record["window_s"] == 600.0
+    assert record["note"] == (
+        "skipped a poll that lacks counters the latest reports (2026-03-02T07:55:00Z)"
+    )

@@ -26,7 +26,7 @@ def test_a_conversation_asks_labels_and_lists(triage: Triage) -> None:
         out.append,
     )
     text = "\n".join(out)
-    assert "`/triage suspects [SITE]`" in text
+    assert "`suspects [SITE]`" in text
     assert "lark-east-idf2 port14: cable or connector fault (cable_fault)" in text
     assert (
         "Recorded: console confirms cable_fault on lark-east-idf2 port14: crushed patch cord"
@@ -51,3 +51,38 @@ def test_errors_have_no_thread(triage: Triage) -> None:
     answer = console.say("lark-east-idf9 port1")
     assert answer is not None and "No device named" in answer
     assert console.thread is None
+
+
+def test_a_leading_mention_of_the_bot_is_understood(triage: Triage) -> None:
+    answer = Console(triage).say("@linktriage lark-east-idf2 port14")
+    assert answer is not None
+    assert "\nlark-east-idf2 port14: cable or connector fault (cable_fault)" in answer
+
+
+def test_help_at_the_prompt_shows_the_commands_as_typed_there(triage: Triage) -> None:
+    answer = Console(triage).say("help")
+    assert answer is not None
+    assert "- `DEVICE PORT`: diagnose one port now" in answer
+    assert "- `suspects [SITE]`: the suspect links" in answer
+    assert "In Slack, type them after `/triage` or a mention of the bot." in answer
+    wrong = Console(triage).say("lark-core1")
+    assert wrong is not None
+    assert wrong.endswith("Try `DEVICE PORT`, `suspects [SITE]`, or `help`.")
+
+
+def test_reply_with_nothing_after_it_asks_for_what_was_found(triage: Triage) -> None:
+    console = Console(triage)
+    console.say("lark-east-idf2 port14")
+    for typed in ("reply", "reply   ", "REPLY"):
+        assert console.say(typed) == (
+            "Say what you found after `reply`, e.g. `reply cable_fault, crushed patch cord`."
+        )
+    assert triage.store.labels() == []
+
+
+def test_an_invisible_character_in_a_name_is_shown_where_it_sits(triage: Triage) -> None:
+    # A zero-width space pasted in with the port name: the name looks right and is not.
+    answer = Console(triage).say("lark-east-idf2 port\u200b14")
+    assert answer is not None
+    assert answer.startswith("'port<U+200B>14' is not a device or port name.")
+    assert "\u200b" not in answer and "\\u200b" not in answer

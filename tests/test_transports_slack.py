@@ -27,7 +27,7 @@ from linktriage.render.blocks import (
     escape,
     text_size,
 )
-from linktriage.settings import Settings
+from linktriage.settings import LabelSettings, Settings
 from linktriage.transports.slack import build_app
 from linktriage.transports.slack_http import http_server
 from linktriage.verdicts import SHORT, Caution
@@ -225,6 +225,72 @@ def event_body(
     )
 
 
+def mention_body(text: str, *, event_id: str = "Ev0MENTION1", thread_ts: str | None = None) -> str:
+    event = {
+        "type": "app_mention",
+        "channel": CHANNEL,
+        "user": "U0ENGINEER",
+        "text": text,
+        "ts": "1772438450.000300",
+    }
+    if thread_ts is not None:
+        event["thread_ts"] = thread_ts
+    return json.dumps(
+        {
+            "type": "event_callback",
+            "team_id": "T0LARK",
+            "api_app_id": "A0LT",
+            "event_id": event_id,
+            "event_time": 1772438450,
+            "event": event,
+        }
+    )
+
+
+def test_a_mention_of_the_bot_is_a_command_answered_in_the_channel(
+    bot: str, emulator: SlackEmulator, triage: Triage
+) -> None:
+    body = mention_body(f"<@{BOT_USER}> lark-east-idf2 port14")
+    for attempt in range(2):  # delivered twice, answered once
+        headers = signed(body) | ({"X-Slack-Retry-Num": "1"} if attempt else {})
+        status, _ = post(bot, body, headers, "application/json")
+        assert status == 200
+    (working,) = emulator.called("chat.postEphemeral")
+    assert working.params["user"] == "U0ENGINEER" and "polling now" in working.params["text"]
+    posted, *details = emulator.wait_for("chat.postMessage", 3)
+    assert posted.params["channel"] == CHANNEL and "thread_ts" not in posted.params
+    assert posted.params["blocks"][0]["text"]["text"] == (
+        "lark-east-idf2 port14: cable or connector fault"
+    )
+    assert [d.params["thread_ts"] for d in details] == ["1772438401.000100"] * 2
+    time.sleep(0.3)  # a second delivery answered again would have posted by now
+    assert len(emulator.called("chat.postMessage")) == 3
+    stored = triage.store.diagnosis_for_message(CHANNEL, "1772438401.000100")
+    assert stored is not None and stored.verdict == "cable_fault"
+
+
+def test_a_mention_asking_for_help_or_a_wrong_name_is_answered_privately(
+    bot: str, emulator: SlackEmulator
+) -> None:
+    for n, text in enumerate([f"<@{BOT_USER}>", f"<@{BOT_USER}> suspects mars"]):
+        body = mention_body(text, event_id=f"Ev0MENTION{n}")
+        post(bot, body, signed(body), "application/json")
+    help_note, refusal = emulator.called("chat.postEphemeral")
+    assert "/triage suspects [SITE]" in json.dumps(help_note.params["blocks"])
+    assert "No site or device named 'mars'" in refusal.params["text"]
+    assert emulator.called("chat.postMessage") == []
+
+
+def test_a_mention_inside_a_thread_is_a_reply_there_not_a_command(
+    bot: str, emulator: SlackEmulator
+) -> None:
+    body = mention_body(f"<@{BOT_USER}> lark-core1 up3", thread_ts="1772438401.000100")
+    status, _ = post(bot, body, signed(body), "application/json")
+    assert status == 200
+    assert emulator.called("chat.postMessage") == []
+    assert emulator.called("chat.postEphemeral") == []
+
+
 def test_a_thread_reply_delivered_three_times_is_one_label(
     bot: str, emulator: SlackEmulator, triage: Triage
 ) -> None:
@@ -411,3 +477,38 @@ def test_a_channel_the_bot_is_not_in_gets_the_answer_privately(
     (hook,) = emulator.wait_for("response_url")
     assert "invite me" in hook.params["text"]
     assert hook.params["blocks"][0]["text"]["text"].startswith("lark-core1 up3")
+
+
+def test_a_list_for_a_site_that_does_not_exist_is_refused_in_the_acknowledgement(
+    bot: str, emulator: SlackEmulator
+) -> None:
+    status, body = slash(bot, emulator, "suspects mars")
+    assert status == 200
+    answer = json.loads(body)
+    assert answer["response_type"] == "ephemeral"
+    assert "No site or device named 'mars'" in json.dumps(answer["blocks"])
+    assert "will be posted" not in body
+    assert emulator.called("response_url") == []
+    assert emulator.called("chat.postMessage") == []
+
+
+def test_a_button_press_refused_is_told_to_the_person_alone(
+    bot: str, emulator: SlackEmulator, triage: Triage
+) -> None:
+    slash(bot, emulator, "lark-east-idf2 port14")
+    answer = emulator.wait_for("chat.postMessage", 3)[0]  # the answer, then its thread
+    triage.labels.settings = triage.settings.model_copy(
+        update={"labels": LabelSettings(channels=["C0ELSEWHERE"])}
+    )
+    actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
+    confirm = next(e for e in actions["elements"] if e["action_id"] == CONFIRM_ACTION)
+    press = {"type": "button", "action_id": CONFIRM_ACTION, "block_id": actions["block_id"],
+             "value": confirm["value"], "action_ts": "1772438600.1"}  # fmt: skip
+    body = action_body(press, "1772438401.000100")
+    status, _ = post(bot, body, signed(body), FORM)
+    assert status == 200
+    assert triage.store.labels() == []
+    assert len(emulator.called("chat.postMessage")) == 3  # the answer only, nothing public
+    (refusal,) = emulator.called("chat.postEphemeral")
+    assert refusal.params["user"] == "U0ENGINEER"
+    assert "not taken here" in refusal.params["text"]

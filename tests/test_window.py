@@ -144,14 +144,59 @@ def test_a_long_gap_still_gives_one_interval_when_that_is_all_there_is() -> None
     assert w.deltas["in_octets"][0] == 86_400
 
 
-def test_a_partial_poll_is_not_compared_across() -> None:
+def test_a_partial_poll_between_complete_ones_is_skipped_and_named() -> None:
+    # A walk that timed out half way: the EtherLike table did not answer at 08:05.
+    w = one(
+        line(counters={"ifHCInOctets": 0, "dot3StatsFCSErrors": 0}),
+        line(T5, counters={"ifHCInOctets": 100}),
+        line(T10, counters={"ifHCInOctets": 250, "dot3StatsFCSErrors": 2}),
+    )
+    assert w.status[0] == WindowStatus.OK
+    assert w.window_s[0] == 600.0
+    assert w.deltas["in_octets"][0] == 250
+    assert w.deltas["fcs_errors"][0] == 2
+    assert (w.polls_used[0], w.polls_seen[0]) == (2, 3)
+    assert w.note[0] == (
+        "skipped a poll that lacks counters the latest reports (2026-03-02T08:05:00Z)"
+    )
+
+
+def test_several_partial_polls_are_skipped_and_all_named() -> None:
     w = one(
         line(counters={"ifHCInOctets": 0, "ifInErrors": 0}),
+        line(T5, counters={"ifHCInOctets": 100}),
+        line(T10, counters={"ifHCInOctets": 250, "ifInErrors": 1}),
+        line("2026-03-02T08:15:00Z", counters={"ifInErrors": 1}),
+        line("2026-03-02T08:20:00Z", counters={"ifHCInOctets": 400, "ifInErrors": 3}),
+    )
+    assert w.status[0] == WindowStatus.OK
+    assert w.polls_used[0] == 3
+    assert w.deltas["in_errors"][0] == 3
+    assert w.note[0] == (
+        "skipped 2 polls that lack counters the latest reports "
+        "(2026-03-02T08:05:00Z, 2026-03-02T08:15:00Z)"
+    )
+
+
+def test_a_partial_poll_outside_the_window_goes_unmentioned() -> None:
+    w = one(
+        line(counters={"ifHCInOctets": 0}),  # before the window: the errors did not answer
+        line(T5, counters={"ifHCInOctets": 100, "ifInErrors": 0}),
+        line(T10, counters={"ifHCInOctets": 250, "ifInErrors": 2}),
+    )
+    assert w.status[0] == WindowStatus.OK
+    assert w.window_s[0] == 300.0
+    assert w.note[0] == ""
+
+
+def test_a_port_whose_earlier_polls_are_all_partial_has_no_window() -> None:
+    w = one(
+        line(counters={"ifHCInOctets": 0}),
         line(T5, counters={"ifHCInOctets": 100}),  # the errors counter did not answer
         line(T10, counters={"ifHCInOctets": 250, "ifInErrors": 2}),
     )
     assert w.status[0] == WindowStatus.NO_DATA
-    assert w.note[0] == "the poll before the latest lacks counters the latest reports"
+    assert w.note[0] == "every earlier poll lacks counters the latest reports"
 
 
 def test_the_64_bit_form_wins_where_both_are_reported() -> None:

@@ -16,9 +16,10 @@ Rules, applied to every pair of consecutive polls (an *interval*):
   used and the window restarts after it. So is an interval across which
   ``discontinuity_time`` changed (RFC 2863 ifCounterDiscontinuityTime), a Counter64 of a
   port with no known speed went backwards, or ``link_changes`` went backwards.
-* A poll that lacks a counter the port's latest poll reports (a partial answer) is not
-  compared across: the window starts after it. A counter missing from the latest poll too
-  is simply not reported by the device, and stays NaN.
+* A poll that lacks a counter the port's latest poll reports (a partial answer, such as
+  a walk that timed out half way) is skipped: the polls either side of it are compared
+  instead, and the port's note names the polls skipped within its window. A counter
+  missing from the latest poll too is simply not reported by the device, and stays NaN.
 * A Counter32 traffic counter (octets, packets) that could have wrapped more than once in
   the interval (at 1 Gb/s line rate ifInOctets wraps in about 34 s, RFC 2863 section 3.1.6)
   has an unknowable difference: it becomes NaN for this window rather than a wrong number.
@@ -33,6 +34,7 @@ Everything is vectorised over all ports at once: one sort, then array arithmetic
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import UTC, datetime
 from enum import IntEnum
 
 import numpy as np
@@ -105,7 +107,26 @@ def compute_windows(polls: PollTable, *, max_window_s: float = DEFAULT_MAX_WINDO
     dup[:-1] = (codes_s[1:] == codes_s[:-1]) & (time_s[1:] == time_s[:-1])
     if len(order) == 0:
         return _no_windows()
-    return _windows_of_sorted(polls.take(order[~dup]), codes_s[~dup], max_window_s)
+    rows, codes_s = order[~dup], codes_s[~dup]
+    partial = _partial(polls.present[rows], codes_s)
+    skipped = _Skipped(codes_s[partial], polls.time[rows[partial]])
+    return _windows_of_sorted(polls.take(rows[~partial]), codes_s[~partial], max_window_s, skipped)
+
+
+@dataclass(frozen=True, slots=True)
+class _Skipped:
+    """The partial polls left out: each one's port (as numbered by :func:`port_codes`)
+    and time."""
+
+    code: npt.NDArray[np.intp]
+    time: FloatArray
+
+
+def _partial(present: npt.NDArray[np.bool_], codes: npt.NDArray[np.intp]) -> npt.NDArray[np.bool_]:
+    """Which polls (sorted by port, then time) lack a counter their port's latest poll
+    reports; the latest poll itself never does, so every port keeps at least one."""
+    last = np.flatnonzero(np.r_[codes[1:] != codes[:-1], True])
+    return np.asarray(np.any(present[last][codes] & ~present, axis=1), np.bool_)
 
 
 def _no_windows() -> WindowTable:
@@ -133,7 +154,7 @@ def _no_windows() -> WindowTable:
 
 
 def _windows_of_sorted(
-    p: PollTable, codes: npt.NDArray[np.intp], max_window_s: float
+    p: PollTable, codes: npt.NDArray[np.intp], max_window_s: float, skipped: _Skipped
 ) -> WindowTable:
     m = len(p)
     idx = np.arange(m)
@@ -192,15 +213,9 @@ def _windows_of_sorted(
     )
     reset &= interval
 
-    # A poll lacking a counter the port's latest poll reports (a partial answer) cannot
-    # start or cross the window: the window begins after the last such poll.
-    group_of_row = np.repeat(np.arange(len(starts)), np.diff(np.r_[starts, m]))
-    incomplete = np.any(reported[last][group_of_row] & ~reported, axis=1)
-    partial = np.zeros(m, np.bool_)
-    partial[1:] = incomplete[:-1] & interval[1:]
-
     # --- the window: since the last reset, reaching back at most max_window_s
-    seg = np.maximum.accumulate(np.where(start | reset | partial, idx, 0))
+    group_of_row = np.repeat(np.arange(len(starts)), np.diff(np.r_[starts, m]))
+    seg = np.maximum.accumulate(np.where(start | reset, idx, 0))
     seg_start = seg[last]
     cutoff = p.time[last] - max_window_s
     candidate = np.where(
@@ -232,11 +247,14 @@ def _windows_of_sorted(
     flips = np.zeros(m)
     flips[1:] = p.oper_status[1:] != p.oper_status[:-1]
 
-    polls_seen = np.diff(np.r_[starts, m])
+    kept = np.diff(np.r_[starts, m])
+    polls_seen = kept + np.bincount(skipped.code, minlength=len(starts))
     resets = np.add.reduceat(reset.astype(np.int64), starts)
     oper = p.oper_status[last]
     no_counters = np.all(np.isnan(np.stack(list(deltas.values()), axis=1)), axis=1)
-    status, note = _status(oper, polls_used, polls_seen, no_counters, partial[last] & ~reset[last])
+    only_partial_before = (kept == 1) & (polls_seen > 1)
+    status, note = _status(oper, polls_used, polls_seen, no_counters, only_partial_before)
+    _name_skipped(note, status, skipped, p.time[win_start], p.time[last])
 
     return WindowTable(
         device=p.device[last],
@@ -271,7 +289,7 @@ def _status(
     polls_used: npt.NDArray[np.intp],
     polls_seen: npt.NDArray[np.intp],
     no_counters: npt.NDArray[np.bool_],
-    after_partial: npt.NDArray[np.bool_],
+    only_partial_before: npt.NDArray[np.bool_],
 ) -> tuple[npt.NDArray[np.int8], npt.NDArray[np.object_]]:
     n = len(oper)
     status = np.full(n, WindowStatus.OK, np.int8)
@@ -283,13 +301,34 @@ def _status(
     status[short | empty] = WindowStatus.NO_DATA
     note[down] = [f"the port is {s} at the latest poll" for s in oper[down]]
     note[short & (polls_seen < 2)] = "only one poll of this port"
-    # More polls, but the latest stands alone: the one before it cannot be compared.
+    # More polls, but the latest stands alone: the one before it cannot be compared, or
+    # every one before it was partial (and skipped).
     note[short & (polls_seen >= 2)] = "the counters were reset between the last two polls"
-    note[short & (polls_seen >= 2) & after_partial] = (
-        "the poll before the latest lacks counters the latest reports"
-    )
+    note[short & only_partial_before] = "every earlier poll lacks counters the latest reports"
     note[empty] = (
         "no counter can be compared across the window (not reported by both polls, "
         "or a Counter32 that may have wrapped more than once)"
     )
     return status, note
+
+
+def _name_skipped(
+    note: npt.NDArray[np.object_],
+    status: npt.NDArray[np.int8],
+    skipped: _Skipped,
+    start: FloatArray,
+    end: FloatArray,
+) -> None:
+    """Name in a measured port's note the partial polls skipped inside its window (a loop
+    over those polls only: most ports have none)."""
+    inside = (skipped.time > start[skipped.code]) & (skipped.time < end[skipped.code])
+    inside &= status[skipped.code] == WindowStatus.OK
+    times: dict[int, list[float]] = {}
+    for code, at in zip(skipped.code[inside].tolist(), skipped.time[inside].tolist(), strict=True):
+        times.setdefault(code, []).append(at)
+    for code, ats in times.items():
+        when = ", ".join(
+            datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%dT%H:%M:%SZ") for at in ats
+        )
+        polls = "a poll that lacks" if len(ats) == 1 else f"{len(ats)} polls that lack"
+        note[code] = f"skipped {polls} counters the latest reports ({when})"

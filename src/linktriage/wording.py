@@ -187,15 +187,6 @@ def format_threshold(kind: str, threshold: float) -> str:
     return sig(threshold)
 
 
-def printable(text: str) -> str:
-    """Text from a device or a file, safe to print on a terminal: control characters (an
-    escape sequence that clears the screen, a newline that forges a table row) are shown
-    escaped, as Python writes them, instead of acted on."""
-    if text.isprintable():
-        return text
-    return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode() for ch in text)
-
-
 def yes_no(answer: bool) -> str:
     return "yes" if answer else "no"
 

@@ -11,12 +11,27 @@ from dataclasses import dataclass, replace
 from linktriage.bot.answers import keep_answers
 from linktriage.bot.gathering import Gathering
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, headline
-from linktriage.errors import CommandError
-from linktriage.network.interface import Network
+from linktriage.errors import AmbiguousNameError, CommandError
+from linktriage.network.interface import Network, fitting
 from linktriage.render import words
 from linktriage.render.replies import SuspectItem, SuspectsReply
 from linktriage.store import Store
 from linktriage.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY
+
+
+@dataclass(frozen=True, slots=True)
+class Scope:
+    """What a list of suspects covers: everywhere, one site, or some devices."""
+
+    title: str
+    site: str | None = None
+    devices: frozenset[str] | None = None
+
+    def covers(self, device: str, site: str | None) -> bool:
+        """Whether a device (at ``site``) is in the list."""
+        if self.site is not None:
+            return site == self.site
+        return self.devices is None or device in self.devices
 
 
 @dataclass
@@ -39,23 +54,16 @@ class Digests:
     ) -> SuspectsReply:
         """The suspect links of a site (default: everywhere), ranked by severity; without
         ``fresh``, from the stored polls where they already make a window."""
-        refs = self.network.ports()
-        where: str | None = None
-        if site is not None:
-            sites = self.network.sites()
-            chosen = [s for s in sites if s.lower() == site.lower()]
-            if not chosen:
-                raise CommandError(words.no_such_site(site), hint=words.known_sites(sites))
-            where = chosen[0]
-            refs = [r for r in refs if r.site == where]
+        scope = self.scope(site)
+        refs = [r for r in self.network.ports() if scope.covers(r.device, r.site)]
         polls, failed = self.gathering.gather(refs, fresh=fresh)
         # Devices whose ports could not even be listed are not read either.
         for device, why in self.network.unlisted().items():
-            if where is None or self.network.site_of(device) == where:
+            if scope.covers(device, self.network.site_of(device) if scope.site else None):
                 failed.setdefault(device, words.ports_not_listed(why))
         batch = diagnose(polls, self.model)
         by_name = {(r.device, r.port): r for r in refs}
-        ranked = _ranked_faults(batch)
+        ranked = ranked_suspects(batch)
         records = batch.records_many(ranked)
         found = [by_name.get((batch.device[row], batch.port[row])) for row in ranked]
         ids = keep_answers(
@@ -65,15 +73,32 @@ class Digests:
             SuspectItem(rank, record, diagnosis_id, headline(record))
             for rank, (record, diagnosis_id) in enumerate(zip(records, ids, strict=True), start=1)
         ]
-        not_judged = Counter(v.value for v in batch.verdict if v in GUARD_VERDICTS)
+        not_judged = Counter(batch.verdict[i].value for i in unjudged(batch))
         return SuspectsReply(
-            title=words.suspects_title(where),
+            title=scope.title,
             items=items,
             ports_judged=len(batch) - sum(not_judged.values()),
             not_judged=dict(not_judged),
             failed=dict(failed),
             at=self.clock(),
         )
+
+    def scope(self, text: str | None) -> Scope:
+        """What ``suspects TEXT`` covers: everywhere (no text); a site named in full or by a
+        unique part of its name, as a device is; else the devices whose names hold the text
+        ("east" for lark-east-*). Names only: nothing is polled."""
+        if text is None:
+            return Scope(words.suspects_title(None))
+        sites = self.network.sites()
+        named = fitting(text, sites)
+        if len(named) > 1:
+            raise AmbiguousNameError(words.fits_sites(text, len(named)), candidates=named)
+        if named:
+            return Scope(words.suspects_title(named[0]), site=named[0])
+        devices = fitting(text, self.network.device_names())
+        if devices:
+            return Scope(words.suspects_on(text, devices), devices=frozenset(devices))
+        raise CommandError(words.no_such_site(text), hint=words.known_sites(sites))
 
     def digest(self, *, channel: str | None = None) -> SuspectsReply:
         """The scheduled digest: suspects, what is new since the last one, what cleared."""
@@ -115,7 +140,10 @@ def listed(items: list[SuspectItem]) -> list[dict[str, object]]:
     ]
 
 
-def _ranked_faults(batch: DiagnosisBatch) -> list[int]:
+def ranked_suspects(batch: DiagnosisBatch) -> list[int]:
+    """The rows of the suspect links, worst first. A suspect link is a port with a fault
+    verdict (:data:`~linktriage.verdicts.FAULTS`): the one definition behind every list and
+    count of suspects (``suspects``, the digest, ``sweep``, ``demo``)."""
     rows = [i for i, v in enumerate(batch.verdict) if v in FAULTS]
     return sorted(
         rows,
@@ -126,3 +154,9 @@ def _ranked_faults(batch: DiagnosisBatch) -> list[int]:
             batch.port[i],
         ),
     )
+
+
+def unjudged(batch: DiagnosisBatch) -> list[int]:
+    """The rows of the ports not judged (down, too quiet, without two usable polls): neither
+    suspect nor healthy, and counted apart."""
+    return [i for i, v in enumerate(batch.verdict) if v in GUARD_VERDICTS]

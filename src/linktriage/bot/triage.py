@@ -19,6 +19,7 @@ from dataclasses import dataclass, field, replace
 from linktriage.bot.answers import keep_answers
 from linktriage.bot.commands import (
     COMMAND,
+    Command,
     DiagnosePort,
     ListSuspects,
     ShowHelp,
@@ -72,13 +73,22 @@ class Triage:
         )
 
     # --- commands
-    def handle(self, text: str, *, user: str | None = None, channel: str | None = None) -> Reply:
-        """Run one command; anything that goes wrong becomes an :class:`ErrorReply`."""
+    def handle(
+        self,
+        text: str,
+        *,
+        user: str | None = None,
+        channel: str | None = None,
+        spelt: str = COMMAND,
+    ) -> Reply:
+        """Run one command; anything that goes wrong becomes an :class:`ErrorReply`. Help
+        and hints show commands starting with ``spelt``, as they are typed where the text
+        came from ("/triage" in Slack, "" at the console)."""
         try:
-            command = parse(text)
+            command = parse(text, command=spelt)
             reply: Reply
             if isinstance(command, ShowHelp):
-                reply = HelpReply(COMMAND)
+                reply = HelpReply(spelt)
             elif isinstance(command, ShowModel):
                 reply = self.model_card()
             elif isinstance(command, ListSuspects):
@@ -90,6 +100,17 @@ class Triage:
             reply = ErrorReply(exc.message, exc.hint)
         self._audit(text, reply, user=user, channel=channel)
         return reply
+
+    def settle(self, text: str) -> Command:
+        """The command ``text`` asks for, with every name in it checked against the network
+        and nothing polled: what a transport checks before it says an answer is on its way.
+        Raises :class:`LinktriageError` with the reason, as :meth:`handle` would answer."""
+        command = parse(text)
+        if isinstance(command, DiagnosePort):
+            self.network.find(command.device, command.port)
+        elif isinstance(command, ListSuspects):
+            self.digests.scope(command.site)
+        return command
 
     def _audit(self, text: str, reply: Reply, *, user: str | None, channel: str | None) -> None:
         outcome = (

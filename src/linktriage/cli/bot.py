@@ -35,6 +35,8 @@ def chat(config_path: Path | None, model_path: Path | None) -> None:
             try:
                 yield input(PROMPT) if interactive else next(sys.stdin)
             except (EOFError, StopIteration):
+                if interactive:
+                    click.echo()  # Ctrl-D leaves the prompt's line open: end it for the shell
                 return
 
     with opened(settings, model_path=model_path, simulated_time=True) as parts:

@@ -22,6 +22,9 @@ _DEMO_STORIES = {
 @model_option
 def demo(model_path: Path | None) -> None:
     """Show the whole job on the built-in demo network, offline."""
+    from collections import Counter
+
+    from linktriage.bot.digests import ranked_suspects, unjudged
     from linktriage.diagnosis import Model, diagnose
     from linktriage.network.demo import ORGANISATION, PLANTED, demo_polls, demo_ports
     from linktriage.render.text import explanation, table_rows
@@ -29,12 +32,13 @@ def demo(model_path: Path | None) -> None:
     loaded = Model.load(model_path)
     ports = demo_ports()
     batch = diagnose(demo_polls(), loaded)
-    records = list(batch.records())
-    suspects = [r for r in records if Verdict(r["verdict"]) is not Verdict.HEALTHY]
+    suspects, quiet = ranked_suspects(batch), unjudged(batch)
+    not_judged = Counter(batch.verdict[i].value for i in quiet)
+    healthy = len(batch) - len(suspects) - len(quiet)
     devices = {p.device for p in ports}
     click.echo(words.demo_intro(ORGANISATION, len(ports), len(devices), loaded.version))
-    click.echo(words.demo_needs_a_look(len(records) - len(suspects), len(suspects)))
-    click.echo("\n".join(table_rows(suspects)))
+    click.echo(words.demo_needs_a_look(healthy, len(suspects), not_judged))
+    click.echo("\n".join(table_rows(batch.records_many(suspects + quiet))))
     for planted in (p for p in PLANTED if p.planted in _DEMO_STORIES):
         row = batch.index_of(planted.device, planted.port)
         assert row is not None

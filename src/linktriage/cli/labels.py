@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import sys
+from datetime import UTC, datetime
 from pathlib import Path
 
 import click
@@ -40,7 +41,8 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
 
     if as_json:
         for label in found:
-            click.echo(json.dumps({**asdict(label), "standing": standing(label.id)}))
+            at = {"at": _rfc3339(label.at), "standing": standing(label.id)}
+            click.echo(json.dumps({**asdict(label), **at}))
         return
     summary = words.labels_summary(
         len(found), len(settled.kept), len(replaced), len(disputed), len(settled.disputed)
@@ -48,6 +50,12 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
     click.echo(summary)
     for label in found:
         click.echo(words.label_line(label, standing(label.id)))
+
+
+def _rfc3339(at: float) -> str:
+    """A moment as RFC 3339 text in UTC ("2026-03-02T08:00:30Z"), which every JSON reader
+    parses, where seconds since the epoch need the reader to know what they count."""
+    return datetime.fromtimestamp(at, UTC).isoformat(timespec="seconds").replace("+00:00", "Z")
 
 
 @labels.command("export")

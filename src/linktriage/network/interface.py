@@ -13,6 +13,7 @@ from dataclasses import dataclass
 
 from linktriage.errors import AmbiguousNameError, PollError, UnknownPortError
 from linktriage.polls import PollTable
+from linktriage.printable import printable
 
 
 @dataclass(frozen=True, slots=True)
@@ -112,26 +113,31 @@ class Network(ABC):
         if ref is None:
             known = [r.port for r in ports]
             raise UnknownPortError(
-                f"{name} has no port named {port!r}.",
+                f"{name} has no port named '{printable(port)}'.",
                 suggestions=difflib.get_close_matches(port, known, n=3, cutoff=0.5),
             )
         return ref
 
 
+def fitting(text: str, names: list[str]) -> list[str]:
+    """The names a person may mean by ``text``: the one it names in full (in any case), else
+    every name that holds it as a part."""
+    lowered = text.lower()
+    whole = [n for n in names if n.lower() == lowered]
+    return whole[:1] or [n for n in names if lowered in n.lower()]
+
+
 def device_named(text: str, names: list[str]) -> str:
     """The device a person named: its full name in any case, or any part of it that fits
     one device only; refuses a part that fits several, or none."""
-    lowered = {n.lower(): n for n in names}
-    if text.lower() in lowered:
-        return lowered[text.lower()]
-    partial = [n for n in names if text.lower() in n.lower()]
+    partial = fitting(text, names)
     if len(partial) == 1:
         return partial[0]
     if partial:
         raise AmbiguousNameError(
-            f"{text!r} fits {len(partial)} devices.", candidates=sorted(partial)
+            f"'{printable(text)}' fits {len(partial)} devices.", candidates=sorted(partial)
         )
     raise UnknownPortError(
-        f"No device named {text!r}.",
+        f"No device named '{printable(text)}'.",
         suggestions=difflib.get_close_matches(text, names, n=3, cutoff=0.5),
     )

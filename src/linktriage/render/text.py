@@ -9,6 +9,7 @@ from datetime import UTC, datetime
 from typing import IO
 
 from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, headline
+from linktriage.printable import printable
 from linktriage.render import words
 from linktriage.render.card import card_text
 from linktriage.render.replies import (
@@ -21,7 +22,7 @@ from linktriage.render.replies import (
     SuspectsReply,
 )
 from linktriage.render.words import ber_line, help_lines, label_recorded, ruled_out_line
-from linktriage.wording import printable, sig
+from linktriage.wording import sig
 
 WIDTH = 88
 _HEADER = words.TABLE_HEADER

@@ -11,6 +11,8 @@ from collections.abc import Mapping
 from datetime import UTC, datetime
 from typing import TYPE_CHECKING, Any
 
+from linktriage.printable import printable
+
 if TYPE_CHECKING:
     from linktriage.model.labels import Label
     from linktriage.store import StoreState
@@ -81,6 +83,12 @@ def what_changed(
     return line
 
 
+def quoted(text: str) -> str:
+    """A name a person typed, quoted and shown as :func:`~linktriage.printable.printable`
+    shows it, so a character that would hide or act is seen where it sits."""
+    return f"'{printable(text)}'"
+
+
 def plural(n: int, one: str, many: str | None = None) -> str:
     """ "1 port", "2 ports"."""
     return f"{n:,} {one if n == 1 else (many or one + 's')}"
@@ -104,32 +112,45 @@ def coverage_words(
     else:
         head = "No port could be judged"
     parts = [head]
-    unjudged = sum(not_judged.values())
-    if unjudged:
-        why = ", ".join(
-            f"{n:,} {NOT_JUDGED_WORDS.get(verdict, verdict)}"
-            for verdict, n in sorted(not_judged.items(), key=lambda kv: -kv[1])
-            if n
-        )
-        parts.append(f"{plural(unjudged, 'port')} not judged ({why})")
+    if any(not_judged.values()):
+        parts.append(ports_not_judged(not_judged))
     if failed:
         devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
         parts.append(f"{plural(len(failed), 'device')} not read ({devices})")
     return "; ".join(parts) + "."
 
 
+def ports_not_judged(not_judged: Mapping[str, int]) -> str:
+    """ "3 ports not judged (1 down, 1 too quiet to judge, ...)", from counts by verdict."""
+    why = ", ".join(
+        f"{n:,} {NOT_JUDGED_WORDS.get(verdict, verdict)}"
+        for verdict, n in sorted(not_judged.items(), key=lambda kv: -kv[1])
+        if n
+    )
+    return f"{plural(sum(not_judged.values()), 'port')} not judged ({why})"
+
+
 # --- chat
+def _form(command: str, rest: str) -> str:
+    """A command as typed where ``command`` is how it starts ("/triage"; "" at a prompt)."""
+    return f"`{command} {rest}`" if command else f"`{rest}`"
+
+
 def help_lines(command: str) -> list[str]:
-    """What the bot's help says, one line each."""
-    return [
-        f"`{command} DEVICE PORT`: diagnose one port now (a unique part of the device name "
-        "will do).",
-        f"`{command} suspects [SITE]`: the suspect links, worst first.",
-        f"`{command} model`: the model's card.",
+    """What the bot's help says, one line each; at a prompt (no ``command``) the forms are
+    shown as typed there, and where the command's name goes in Slack."""
+    lines = [
+        f"{_form(command, 'DEVICE PORT')}: diagnose one port now (a unique part of the device "
+        "name will do).",
+        f"{_form(command, 'suspects [SITE]')}: the suspect links, worst first.",
+        f"{_form(command, 'model')}: the model's card.",
         "Reply in the thread of an answer with what you found, e.g. "
         "`cable_fault, crushed patch cord behind the desk`, or `confirmed`; in a digest's "
         "thread start with the link's number: `3: duplex forced on the printer`.",
     ]
+    if not command:
+        lines.append("In Slack, type them after `/triage` or a mention of the bot.")
+    return lines
 
 
 LABEL_PROMPT = "Found it? Reply in this thread with what it was, or use the buttons."
@@ -181,7 +202,8 @@ def label_recorded(
 
 # --- the bot
 def usage(command: str) -> str:
-    return f"Try `{command} DEVICE PORT`, `{command} suspects [SITE]`, or `{command} help`."
+    forms = [_form(command, rest) for rest in ("DEVICE PORT", "suspects [SITE]", "help")]
+    return f"Try {forms[0]}, {forms[1]}, or {forms[2]}."
 
 
 SUSPECTS_TAKES_ONE_SITE = "`suspects` takes at most one site."
@@ -190,15 +212,22 @@ NAME_DEVICE_AND_PORT = "Name one device and one port, e.g. `lark-east-idf2 port1
 
 
 def not_a_name(word: str) -> str:
-    return f"{word[:40]!r} is not a device or port name."
+    return f"{quoted(word[:40])} is not a device or port name."
 
 
-def no_such_site(site: str) -> str:
-    return f"No site named {site!r}."
+def no_such_site(text: str) -> str:
+    return f"No site or device named {quoted(text)}."
 
 
 def known_sites(sites: list[str]) -> str:
-    return f"Sites: {', '.join(sites)}."
+    return (
+        f"Sites: {', '.join(sites)}; a unique part of a site's name will do, or a part of "
+        "some devices' names."
+    )
+
+
+def fits_sites(text: str, sites: int) -> str:
+    return f"{quoted(text)} fits {sites} sites."
 
 
 def ports_not_listed(why: str) -> str:
@@ -212,6 +241,15 @@ def answered_without(port: str) -> str:
 
 def suspects_title(site: str | None) -> str:
     return f"Suspect links {'everywhere' if site is None else f'at {site}'}"
+
+
+def suspects_on(text: str, devices: list[str]) -> str:
+    """The title of a list of the devices a part of a name fits: their names, if few."""
+    if len(devices) == 1:
+        return f"Suspect links on {devices[0]}"
+    if len(devices) <= 3:
+        return f"Suspect links on {', '.join(devices[:-1])} and {devices[-1]}"
+    return f"Suspect links on the {len(devices)} devices named *{text}*"
 
 
 DIGEST_TITLE = "Digest of suspect links"
@@ -247,6 +285,9 @@ CONSOLE_GREETING = (
 )
 CONSOLE_LABEL_PROMPT = f"({LABEL_PROMPT.replace('use the buttons', 'type reply TEXT')})"
 CONSOLE_NOTHING_TO_REPLY = "Nothing to reply to yet: ask about a port first."
+CONSOLE_REPLY_WHAT = (
+    "Say what you found after `reply`, e.g. `reply cable_fault, crushed patch cord`."
+)
 CONSOLE_NOT_A_LABEL = "(not read as a label: name what you found, e.g. `cable_fault, crushed cord`)"
 
 
@@ -291,12 +332,15 @@ def line_skipped(path: object, line: int, why: str) -> str:
 
 
 def diagnosed(snapshots: int, ports: int, skipped: int) -> str:
-    return f"{snapshots} snapshots of {ports} ports diagnosed; {skipped} lines skipped"
+    return (
+        f"{plural(snapshots, 'snapshot')} of {plural(ports, 'port')} diagnosed; "
+        f"{plural(skipped, 'line')} skipped"
+    )
 
 
 def training_starts(ports: int, seed: int, folds: int) -> str:
     return (
-        f"simulating {ports:,} ports (seed {seed}) and choosing the pruning "
+        f"simulating {plural(ports, 'port')} (seed {seed}) and choosing the pruning "
         f"level by {folds}-fold cross-validation..."
     )
 
@@ -313,9 +357,9 @@ def learnt(
 ) -> str:
     """What training with labels learnt, and whether the candidate replaced the model."""
     return (
-        f"learnt from {trained_on} labels"
-        + (f" ({older} older ones left out)" if older else "")
-        + (f" ({disputed} answers held out: their labels disagree)" if disputed else "")
+        f"learnt from {plural(trained_on, 'label')}"
+        + (f" ({plural(older, 'older one')} left out)" if older else "")
+        + (f" ({plural(disputed, 'answer')} held out: their labels disagree)" if disputed else "")
         + f"; on {held_out} held out the candidate scores {candidate_score:.2f}, the current "
         f"model {current_version} {current_score:.2f}: "
         + ("promoted" if promoted else "kept, not promoted")
@@ -327,22 +371,22 @@ def kept_model_source(promoted: bool) -> str:
 
 
 def kept_version(version: str, labelled_rows: int, *, current: bool) -> str:
-    return f"  {'*' if current else ' '} kept {version}: {labelled_rows} labels"
+    return f"  {'*' if current else ' '} kept {version}: {plural(labelled_rows, 'label')}"
 
 
 def device_setup(
     name: str, site: str, collector: str, address: str | None, ports: int | None, state: str
 ) -> str:
-    listed = f"{ports} ports listed" if ports is not None else "all ports"
+    listed = f"{plural(ports, 'port')} listed" if ports is not None else "all ports"
     return f"{name} ({site}): {collector} at {address or '-'}, {listed}: {state}"
 
 
 def set_up_wrongly(bad: int, total: int) -> str:
-    return f"{bad} of {total} devices are set up wrongly"
+    return f"{bad:,} of {total:,} devices {'is' if bad == 1 else 'are'} set up wrongly"
 
 
 def devices_ok(total: int) -> str:
-    return f"{total} devices ok"
+    return f"{plural(total, 'device')} ok"
 
 
 def does_not_answer(device: str, why: str) -> str:
@@ -350,7 +394,7 @@ def does_not_answer(device: str, why: str) -> str:
 
 
 def answers_in(device: str, seconds: float, ports: int) -> str:
-    return f"{device}: answers in {seconds:.2f} s with {ports} ports"
+    return f"{device}: answers in {seconds:.2f} s with {plural(ports, 'port')}"
 
 
 def cannot_be_read(unread: int, total: int) -> str:
@@ -366,7 +410,7 @@ def port_said(device: str, port: str, why: str) -> str:
 
 
 def wrote_snapshots(written: int, device: str, polls: int) -> str:
-    return f"wrote {written} snapshots of {device} in {polls} polls"
+    return f"wrote {plural(written, 'snapshot')} of {device} in {plural(polls, 'poll')}"
 
 
 def settings_from(source: object) -> str:
@@ -415,7 +459,7 @@ def inventory_missing(path: object) -> str:
 
 
 def inventory_state(path: object, devices: int) -> str:
-    return f"inventory: {path}, {devices} devices"
+    return f"inventory: {path}, {plural(devices, 'device')}"
 
 
 def settings_warning(warning: str) -> str:
@@ -431,23 +475,44 @@ SETTINGS_USABLE = "settings are usable"
 
 def labels_summary(total: int, kept: int, replaced: int, disputed: int, answers: int) -> str:
     return (
-        f"{total} labels: {kept} count, {replaced} replaced by their author's later one, "
-        f"{disputed} on {answers} disputed answers"
+        f"{plural(total, 'label')}: {kept:,} counting, {replaced:,} replaced by their author's "
+        f"later one, {disputed:,} on {plural(answers, 'disputed answer')}"
     )
+
+
+#: Where a label was given, by its source (``{channel}`` is filled in).
+LABEL_GIVEN = {
+    "thread": "in a thread in {channel}",
+    "button": "with a button in {channel}",
+    "console": "at the console",
+}
 
 
 def label_line(label: Label, standing: str) -> str:
-    """One label in the list: who found what, against what the model said, and whether
-    it counts."""
-    agreed = "=" if label.verdict == label.model_verdict else f"(model: {label.model_verdict})"
+    """One label in the list: when (local time), the port, what was found against what the
+    answer said, which answer, who, where, whether it counts, and the note."""
+    agreed = (
+        "as answered" if label.verdict == label.model_verdict else f"answered {label.model_verdict}"
+    )
+    channel = printable(label.channel or "an unknown channel")
+    where = LABEL_GIVEN.get(label.source, f"by {label.source} in {{channel}}").format(
+        channel=channel
+    )
+    note = f": {printable(label.note)}" if label.note else ""
     return (
-        f"{label.id:>4} {label.device} {label.port}: {label.verdict} {agreed} "
-        f"by {label.user_id} via {label.source} [{standing}]: {label.note}"
+        f"{label.id:>4}  {_local(label.at)}  {printable(label.device)} {printable(label.port)}: "
+        f"{label.verdict} ({agreed}), on answer {label.diagnosis_id}, by "
+        f"{printable(label.user_id)} {where} [{standing}]{note}"
     )
 
 
+def _local(at: float) -> str:
+    """A moment in the machine's local time, its zone named."""
+    return datetime.fromtimestamp(at).astimezone().strftime("%Y-%m-%d %H:%M %Z")
+
+
 def wrote_rows(rows: int, path: object) -> str:
-    return f"wrote {rows} labelled rows to {path}"
+    return f"wrote {plural(rows, 'labelled row')} to {path}"
 
 
 # --- the demo
@@ -462,8 +527,13 @@ def demo_intro(organisation: str, ports: int, switches: int, model_version: str)
     )
 
 
-def demo_needs_a_look(healthy: int, suspects: int) -> str:
-    return f"{healthy} ports healthy; the other {suspects} need a look:"
+def demo_needs_a_look(healthy: int, suspects: int, not_judged: Mapping[str, int]) -> str:
+    """The demo's count, in the digest's terms: suspect links, and ports not judged."""
+    parts = [plural(suspects, "suspect link")]
+    if any(not_judged.values()):
+        parts.append(ports_not_judged(not_judged))
+    look = suspects + sum(not_judged.values())
+    return f"{plural(healthy, 'port')} healthy; the other {look:,} need a look: {', '.join(parts)}:"
 
 
 def demo_asks(device: str, port: str) -> str:
@@ -541,7 +611,7 @@ def confidence_fact(value: str) -> str:
 
 
 def window_fact(seconds: str, polls: int) -> str:
-    return f"window {seconds} s over {polls} polls"
+    return f"window {seconds} s over {plural(polls, 'poll')}"
 
 
 def model_fact(version: str) -> str:
@@ -609,7 +679,7 @@ def continued(title: str) -> str:
 
 
 def suspects_fallback(title: str, links: int) -> str:
-    return f"{title}: {links} suspect links"
+    return f"{title}: {plural(links, 'suspect link')}"
 
 
 def found_note(note: str) -> str:

@@ -34,9 +34,10 @@ class Console:
         text = line.strip()
         if not text:
             return None
-        if text.lower().startswith("reply "):
-            return self._reply(text[len("reply ") :])
-        reply = self.triage.handle(text, user=self.user, channel=CHANNEL)
+        head, _, rest = text.partition(" ")
+        if head.lower() == "reply":
+            return self._reply(rest.strip())
+        reply = self.triage.handle(text, user=self.user, channel=CHANNEL, spelt="")
         shown = render(reply)
         posted = self._post(reply)
         if posted:
@@ -55,6 +56,8 @@ class Console:
     def _reply(self, text: str) -> str:
         if self.thread is None:
             return words.CONSOLE_NOTHING_TO_REPLY
+        if not text:
+            return words.CONSOLE_REPLY_WHAT
         label = self.triage.labels.reply(
             text,
             user=self.user,

@@ -1,10 +1,12 @@
 """The Slack transport: slack-bolt wiring around the transport-free service.
 
 Slash commands are acknowledged at once (Slack wants an answer within 3 seconds): help,
-the model card and anything malformed or unknown are answered in the acknowledgement
-itself, privately; a port or a list of suspects gets a short "looking" note, then the
-work runs after the acknowledgement and the answer is posted to the channel, where its
-thread collects what engineers found. Thread replies and the label buttons become labels.
+the model card and anything malformed or unknown (a name checked against the network,
+nothing polled) are answered in the acknowledgement itself, privately; a port or a list of
+suspects gets a short "looking" note, then the work runs after the acknowledgement and the
+answer is posted to the channel, where its thread collects what engineers found. A
+mention of the bot at the top of a channel (``@linktriage lark-core1 up3``) is the same
+command, answered the same way. Thread replies and the label buttons become labels.
 
 Two ways in: Socket Mode (no public URL; the default) and HTTP mode, whose listener
 (:mod:`linktriage.transports.slack_http`) checks each request before it hands it to bolt.
@@ -22,7 +24,7 @@ from slack_sdk import WebClient
 from slack_sdk.errors import SlackApiError
 from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
 
-from linktriage.bot.commands import COMMAND, DiagnosePort, ListSuspects, parse
+from linktriage.bot.commands import COMMAND, DiagnosePort, ListSuspects
 from linktriage.bot.triage import Triage
 from linktriage.errors import LinktriageError
 from linktriage.render import words
@@ -108,12 +110,10 @@ def build_app(
     seen = _Seen()
 
     def deferred(text: str) -> bool:
-        """Whether a command needs polls, so its answer comes after the acknowledgement."""
+        """Whether a command needs polls, so its answer comes after the acknowledgement;
+        its names are checked first (no polling), so a wrong one is answered at once."""
         try:
-            parsed = parse(text)
-            if isinstance(parsed, DiagnosePort):
-                triage.network.find(parsed.device, parsed.port)  # names only: no polling
-            return isinstance(parsed, DiagnosePort | ListSuspects)
+            return isinstance(triage.settle(text), DiagnosePort | ListSuspects)
         except LinktriageError:
             return False  # answered at once, with the reason
 
@@ -184,6 +184,26 @@ def build_app(
             log.warning(
                 "could not update answer %s in %s: %s", ts, channel, exc.response.get("error")
             )
+
+    @app.event("app_mention")
+    def on_mention(event: dict[str, Any], body: dict[str, Any], client: WebClient) -> None:
+        """A command said by mentioning the bot: a port or a list posted to the channel,
+        anything else told to the person alone. Inside a thread a mention is a reply there
+        (read as a label by on_message), not a command."""
+        thread = event.get("thread_ts")
+        if thread and thread != event.get("ts"):
+            return
+        event_id = str(body.get("event_id") or f"{event.get('channel')}:{event.get('ts')}")
+        if not seen.first_time(event_id):
+            return
+        text, user, channel = event.get("text", ""), event["user"], event["channel"]
+        if deferred(text):
+            client.chat_postEphemeral(channel=channel, user=user, text=WORKING)
+        reply = triage.handle(text, user=user, channel=channel)
+        if reply.visibility != "channel":
+            deliver(reply, client, channel=channel, thread=None, user=user)
+            return
+        triage.posted(reply, channel=channel, ts=post_reply(client, channel, reply))
 
     @app.event("message")
     def on_message(event: dict[str, Any], body: dict[str, Any], client: WebClient) -> None:
