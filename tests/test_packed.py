@@ -97,3 +97,17 @@ def test_damaged_bytes_are_refused(damage: object) -> None:
     blob = pack(polls(line(counters={"ifHCInOctets": 7})))
     with pytest.raises(PackError):
         unpack(damage(blob), "lark-test-sw1")  # type: ignore[operator]
+
+
+def test_neighbors_come_back_and_a_table_without_them_packs_as_before() -> None:
+    # A pack of a table naming no neighbor is format 1, byte for byte as before neighbors
+    # existed; one naming some is format 2 and brings their names back, None included.
+    plain = polls(line(), line(port="port2"))
+    assert pack(plain)[0] == 1
+    linked = polls(line(neighbor={"device": "lark-core1", "port": "up3"}), line(port="port2"))
+    blob = pack(linked)
+    assert blob[0] == 2
+    back = unpack(blob, "lark-test-sw1")
+    assert_same(back, linked)
+    assert back.neighbor_device.tolist() == ["lark-core1", None]
+    assert back.neighbor_port.tolist() == ["up3", None]

@@ -159,3 +159,24 @@ def test_line_numbers_hold_across_blocks_read_whole_and_line_by_line() -> None:
     assert len(result.polls) == 9000 - 2
     octets = result.polls.counters[:, COLUMN_INDEX["ifHCInOctets"]]
     assert (octets == result.polls.line).all()  # each row is the line it came from
+
+
+def test_a_neighbor_from_lldp_is_read_with_its_line_and_written_back() -> None:
+    # SNAPSHOT-FORMAT 1.1: an optional `neighbor` object, the far end as LLDP reports it
+    # (IEEE 802.1AB lldpRemSysName and lldpRemPortId).
+    far = {"device": "lark-core1", "port": "up3"}
+    table = polls(line(neighbor=far), line("2026-03-02T08:05:00Z", port="port2"))
+    assert table.neighbor_device.tolist() == ["lark-core1", None]
+    assert table.neighbor_port.tolist() == ["up3", None]
+    text = io.StringIO()
+    write_snapshots(iter_snapshots(table), text)
+    first, second = text.getvalue().splitlines()
+    assert '"neighbor":{"device":"lark-core1","port":"up3"}' in first
+    assert "neighbor" not in second  # a version 1 line stays one
+
+
+def test_a_neighbor_without_a_name_is_reported_and_its_line_skipped() -> None:
+    result = read_snapshots([line(neighbor={"device": "", "port": "up3"}), line(port="port2")])
+    assert [p.line for p in result.problems] == [1]
+    assert "neighbor.device" in result.problems[0].message
+    assert result.polls.port.tolist() == ["port2"]

@@ -21,7 +21,11 @@ import numpy.typing as npt
 from linktriage.counters import COLUMNS
 from linktriage.polls import OPTICS_FIELDS, STATE_FIELDS, PollTable
 
+#: Format 1 holds no neighbors; format 2 (written only when some row names one) adds the
+#: far end's names after the port names. Both are read.
 FORMAT = 1
+FORMAT_NEIGHBORS = 2
+_NONE = 2**32 - 1  # the length that stands for "no name"
 #: format, rows, columns reported (bit i: COLUMNS[i]), columns kept in 32 bits
 _HEADER = struct.Struct("<BIQQ")
 #: The snapshot format's operational statuses, by code (the codes are part of the format).
@@ -89,15 +93,48 @@ def pack(table: PollTable) -> bytes:
         *(table.optics[k] for k in OPTICS_FIELDS),
     ]
     body = b"".join(_shuffled(a) for a in arrays) + b"".join(names)
-    return _HEADER.pack(FORMAT, rows, _mask(reported), _mask(narrow)) + zlib.compress(body, 6)
+    version = FORMAT
+    if any(d is not None for d in table.neighbor_device):
+        version = FORMAT_NEIGHBORS
+        body += _strings(table.neighbor_device) + _strings(table.neighbor_port)
+    return _HEADER.pack(version, rows, _mask(reported), _mask(narrow)) + zlib.compress(body, 6)
+
+
+def _strings(values: npt.NDArray[np.object_]) -> bytes:
+    """Names (or None) as their lengths, then their UTF-8 bytes."""
+    encoded = [b"" if v is None else str(v).encode() for v in values]
+    lengths = np.array(
+        [_NONE if v is None else len(e) for v, e in zip(values, encoded, strict=True)], np.uint32
+    )
+    return lengths.tobytes() + b"".join(encoded)
+
+
+def _read_strings(body: memoryview, at: int, rows: int) -> tuple[list[str | None], int]:
+    """Names written by :func:`_strings` from ``at``, and where they end."""
+    if at + 4 * rows > len(body):
+        raise PackError("a pack shorter than its header says")
+    lengths = np.frombuffer(body[at : at + 4 * rows], np.uint32).tolist()
+    at += 4 * rows
+    names: list[str | None] = []
+    for length in lengths:
+        if length == _NONE:
+            names.append(None)
+            continue
+        if at + length > len(body):
+            raise PackError("a pack shorter than its header says")
+        names.append(bytes(body[at : at + length]).decode())
+        at += length
+    return names, at
 
 
 def unpack(blob: bytes, device: str) -> PollTable:
     """The poll table a pack was made from, its rows all of ``device``."""
     try:
         version, rows, reported_mask, narrow_mask = _HEADER.unpack_from(blob)
-        if version != FORMAT:
-            raise PackError(f"pack format {version}, this version reads {FORMAT}")
+        if version not in (FORMAT, FORMAT_NEIGHBORS):
+            raise PackError(
+                f"pack format {version}, this version reads {FORMAT} and {FORMAT_NEIGHBORS}"
+            )
         body = memoryview(zlib.decompress(blob[_HEADER.size :]))
     except (struct.error, zlib.error) as exc:
         raise PackError(f"not a pack of polls: {exc}") from None
@@ -125,9 +162,18 @@ def unpack(blob: bytes, device: str) -> PollTable:
     packed_bits = take(np.uint8, (bits + 7) // 8)
     present[:, reported] = np.unpackbits(packed_bits, count=bits).reshape(rows, -1).astype(bool)
     floats = [take(np.float64, rows) for _ in range(_FLOATS)]
-    names_bytes = bytes(body[at:])
+    names_end = at + int(lengths.sum())
+    names_bytes = bytes(body[at:names_end])
     if len(names_bytes) != int(lengths.sum()):
         raise PackError("port names of another length than the pack says")
+    far: list[str | None] | None = None
+    far_port: list[str | None] | None = None
+    if version == FORMAT_NEIGHBORS:
+        far, at = _read_strings(body, names_end, rows)
+        far_port, at = _read_strings(body, at, rows)
+        names_end = at
+    if names_end != len(body):
+        raise PackError("a pack longer than its header says")
     ends = np.cumsum(lengths)
     starts = ends - lengths
     ports = [names_bytes[s:e].decode() for s, e in zip(starts.tolist(), ends.tolist(), strict=True)]
@@ -140,4 +186,6 @@ def unpack(blob: bytes, device: str) -> PollTable:
         optics=dict(zip(OPTICS_FIELDS, floats[len(STATE_FIELDS) :], strict=True)),
         counters=counters,
         present=present,
+        neighbor_device=far,
+        neighbor_port=far_port,
     )

@@ -40,7 +40,20 @@ OPTICS_FIELDS: tuple[str, ...] = (
     "bias_ma",
 )
 
+#: The far end's name columns (object arrays, None where a line names no neighbor).
+NEIGHBOR_FIELDS: tuple[str, ...] = ("neighbor_device", "neighbor_port")
+
 FloatArray = npt.NDArray[np.float64]
+
+
+def _names(
+    values: Sequence[str | None] | npt.NDArray[np.object_] | None, n: int
+) -> npt.NDArray[np.object_]:
+    """An object column of ``n`` names, None throughout when none are given."""
+    column = np.empty(n, dtype=object)
+    if values is not None:
+        column[:] = values
+    return column
 
 
 @dataclass(slots=True)
@@ -56,6 +69,9 @@ class PollTable:
     counters: npt.NDArray[np.uint64]  # shape (rows, len(COLUMNS))
     present: npt.NDArray[np.bool_]  # shape (rows, len(COLUMNS))
     line: npt.NDArray[np.int64]  # line number in the source file, 0 when not from a file
+    # The far end of the link as LLDP reports it (system name, port id), None where unknown.
+    neighbor_device: npt.NDArray[np.object_]
+    neighbor_port: npt.NDArray[np.object_]
 
     def __len__(self) -> int:
         return len(self.time)
@@ -78,6 +94,8 @@ class PollTable:
         counters: npt.NDArray[np.uint64] | None = None,
         present: npt.NDArray[np.bool_] | None = None,
         line: npt.NDArray[np.int64] | None = None,
+        neighbor_device: Sequence[str | None] | npt.NDArray[np.object_] | None = None,
+        neighbor_port: Sequence[str | None] | npt.NDArray[np.object_] | None = None,
     ) -> PollTable:
         """Build a table, filling every column not given with "not reported"."""
         n = len(time)
@@ -94,6 +112,8 @@ class PollTable:
             counters=(np.zeros((n, len(COLUMNS)), np.uint64) if counters is None else counters),
             present=(np.zeros((n, len(COLUMNS)), np.bool_) if present is None else present),
             line=np.zeros(n, np.int64) if line is None else line,
+            neighbor_device=_names(neighbor_device, n),
+            neighbor_port=_names(neighbor_port, n),
         )
 
     def take(self, rows: npt.NDArray[np.intp] | npt.NDArray[np.bool_]) -> PollTable:
@@ -108,6 +128,8 @@ class PollTable:
             counters=self.counters[rows],
             present=self.present[rows],
             line=self.line[rows],
+            neighbor_device=self.neighbor_device[rows],
+            neighbor_port=self.neighbor_port[rows],
         )
 
     def by_device(self) -> list[tuple[str, PollTable]]:
@@ -127,7 +149,9 @@ class PollTable:
         """All rows of ``chunks`` in order, like :meth:`concat`, copied as each chunk comes
         into arrays that grow in place (realloc, not copy): a large file read a chunk at a
         time is held once, never once in chunks and again whole."""
-        names: dict[str, list[str]] = {"device": [], "port": [], "oper_status": []}
+        names: dict[str, list[str | None]] = {
+            name: [] for name in ("device", "port", "oper_status", *NEIGHBOR_FIELDS)
+        }
         columns: dict[str, npt.NDArray[Any]] = {}
         rows = capacity = 0
         for chunk in chunks:
@@ -159,6 +183,8 @@ class PollTable:
             counters=columns["counters"],
             present=columns["present"],
             line=columns["line"],
+            neighbor_device=np.array(names["neighbor_device"], object),
+            neighbor_port=np.array(names["neighbor_port"], object),
         )
 
     def _numbers(self) -> dict[str, npt.NDArray[Any]]:
@@ -187,4 +213,6 @@ class PollTable:
             counters=np.concatenate([t.counters for t in tables]),
             present=np.concatenate([t.present for t in tables]),
             line=np.concatenate([t.line for t in tables]),
+            neighbor_device=np.concatenate([t.neighbor_device for t in tables]),
+            neighbor_port=np.concatenate([t.neighbor_port for t in tables]),
         )

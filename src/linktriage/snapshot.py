@@ -1,4 +1,4 @@
-"""The counter snapshot format, version 1: pydantic models and JSON Lines reading and writing.
+"""The counter snapshot format, version 1.1: pydantic models and JSON Lines reading and writing.
 
 One JSON object per port per poll (see SNAPSHOT-FORMAT in the developer docs). A line that
 does not parse or fails validation is reported with its line number and skipped; it never
@@ -41,6 +41,17 @@ class Optics(BaseModel):
     bias_ma: Finite | None = None
 
 
+class Neighbor(BaseModel):
+    """The far end of the link as LLDP reports it (IEEE 802.1AB; LLDP-MIB lldpRemTable):
+    its system name (lldpRemSysName) and port (lldpRemPortId, or lldpRemPortDesc where the
+    id is a MAC address). Since version 1.1 of the format."""
+
+    model_config = ConfigDict(extra="ignore", frozen=True)
+
+    device: Annotated[str, Field(min_length=1)]
+    port: Annotated[str, Field(min_length=1)]
+
+
 class Snapshot(BaseModel):
     """The counters and state of one port at one instant, as one line of the format."""
 
@@ -61,6 +72,7 @@ class Snapshot(BaseModel):
     discontinuity_time: AwareDatetime | None = None
     poe: bool | None = None
     optics: Optics | None = None
+    neighbor: Neighbor | None = None
 
 
 class _FastOptics(msgspec.Struct):
@@ -73,6 +85,13 @@ class _FastOptics(msgspec.Struct):
     tx_power_low_alarm_dbm: float | None = None
     temperature_c: float | None = None
     bias_ma: float | None = None
+
+
+class _FastNeighbor(msgspec.Struct):
+    """:class:`Neighbor`, for the fast reader."""
+
+    device: Annotated[str, msgspec.Meta(min_length=1)]
+    port: Annotated[str, msgspec.Meta(min_length=1)]
 
 
 _Aware = Annotated[datetime, msgspec.Meta(tz=True)]
@@ -98,6 +117,7 @@ class _FastSnapshot(msgspec.Struct):
     discontinuity_time: _Aware | None = None
     poe: bool | None = None
     optics: _FastOptics | None = None
+    neighbor: _FastNeighbor | None = None
 
 
 _fast_decode = msgspec.json.Decoder(_FastSnapshot).decode
@@ -261,6 +281,12 @@ def _table_of(
         counters=counters,
         present=present,
         line=numbers,
+        neighbor_device=[
+            None if s.neighbor is None else one(s.neighbor.device, s.neighbor.device) for s in snaps
+        ],
+        neighbor_port=[
+            None if s.neighbor is None else one(s.neighbor.port, s.neighbor.port) for s in snaps
+        ],
     )
 
 
@@ -314,6 +340,7 @@ def iter_snapshots(table: PollTable) -> Iterator[Snapshot]:
     optics = {k: v.tolist() for k, v in table.optics.items()}
     for i in range(len(table)):
         readings = {k: v[i] for k, v in optics.items() if v[i] == v[i]}
+        far, far_port = table.neighbor_device[i], table.neighbor_port[i]
         disc = state["discontinuity"][i]
         poe = state["poe"][i]
         yield Snapshot(
@@ -335,6 +362,9 @@ def iter_snapshots(table: PollTable) -> Iterator[Snapshot]:
             discontinuity_time=None if disc != disc else datetime.fromtimestamp(disc, UTC),
             poe=None if poe != poe else bool(poe),
             optics=Optics(**readings) if readings else None,
+            neighbor=None
+            if far is None or far_port is None
+            else Neighbor(device=far, port=far_port),
         )
 
 
