@@ -53,6 +53,25 @@ def test_a_diagnosis_reads_header_path_checks_cautions_buttons(cable: DiagnosisR
     assert "actions" in kinds
 
 
+def test_what_would_change_the_verdict_follows_the_questions(
+    triage: Triage, cable: DiagnosisReply
+) -> None:
+    optic = triage.handle("lark-east-idf1 up1")
+    assert isinstance(optic, DiagnosisReply)
+    message = message_for(optic)
+    within_limits(message)
+    texts = [json.dumps(b) for b in message["blocks"]]
+    asked = next(k for k, text in enumerate(texts) if "*Questions asked*" in text)
+    assert message["blocks"][asked + 1]["type"] == "context"
+    assert (
+        "What would change the verdict: this port would be cable or connector fault with "
+        "received light above 0.7 dB"
+    ) in texts[asked + 1]
+    # No one change of a reading moves this answer: nothing is drawn.
+    assert cable.record["nearest_other"] is None
+    assert "What would change" not in json.dumps(message_for(cable))
+
+
 def test_a_long_path_is_split_and_still_within_limits(cable: DiagnosisReply) -> None:
     record: DiagnosisRecord = copy.deepcopy(cable.record)
     question = record["questions"][0]

@@ -34,6 +34,7 @@ from linktriage.render.words import (
     ber_line,
     help_lines,
     label_recorded,
+    nearest_line,
     ruled_out_line,
 )
 from linktriage.verdicts import GUIDES, TREE_VERDICTS, Verdict
@@ -130,6 +131,8 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
         for n, q in enumerate(r["questions"], start=1)
     ]
     blocks += _sections(questions, title=words.QUESTIONS_ASKED)
+    if r["nearest_other"] is not None:
+        blocks.append(_context(escape(nearest_line(r["nearest_other"]))))
     ber = r["bit_errors"]
     if ber is not None:
         blocks.append(_context(escape(ber_line(ber))))

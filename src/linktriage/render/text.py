@@ -20,7 +20,13 @@ from linktriage.render.replies import (
     Reply,
     SuspectsReply,
 )
-from linktriage.render.words import ber_line, help_lines, label_recorded, ruled_out_line
+from linktriage.render.words import (
+    ber_line,
+    help_lines,
+    label_recorded,
+    nearest_line,
+    ruled_out_line,
+)
 from linktriage.wording import printable, sig
 
 WIDTH = 88
@@ -84,6 +90,8 @@ def explanation(record: DiagnosisRecord) -> str:
     for n, q in enumerate(record["questions"], start=1):
         lines += _wrapped(q["question"], f"  {n}. ", "     ")
         lines += _wrapped(q["said"], "     -> ", "        ")
+    if record["nearest_other"] is not None:
+        lines += ["", *_wrapped(nearest_line(record["nearest_other"]), "", "")]
     ber = record["bit_errors"]
     if ber is not None:
         lines += ["", *_wrapped(ber_line(ber), "", "")]
