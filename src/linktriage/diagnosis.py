@@ -338,41 +338,46 @@ class DiagnosisBatch:
         return found
 
     def nearest_many(self, rows: list[int]) -> list[NearestOther | None]:
-        """The nearest other verdict of each of ``rows``, worded once per change."""
+        """What would change the verdict of each of ``rows``: worded once per change, and
+        ports at the same value share one record (records are for reading)."""
         at = np.asarray(rows, np.intp)
         near = self.nearest
         column = near.column[at]
-        values = self.values[at, np.maximum(column, 0)].tolist()
+        made: dict[tuple[int, float, bool, int, float], NearestOther] = {}
         out: list[NearestOther | None] = []
-        for c, t, up, k, v in zip(
+        for key in zip(
             column.tolist(),
             near.threshold[at].tolist(),
             near.above[at].tolist(),
             near.klass[at].tolist(),
-            values,
+            self.values[at, np.maximum(column, 0)].tolist(),
             strict=True,
         ):
-            if c < 0:
+            if key[0] < 0:
                 out.append(None)
                 continue
-            verdict = self.model.tree.classes[k]
-            said = self._changes.get((c, t, up, k))
-            if said is None:
-                feature = FEATURE_NAMES[c]
-                title = GUIDES[_VERDICTS[verdict]].title
-                said = change_said(feature, FEATURE_KIND[feature], t, up, title)
-                self._changes[(c, t, up, k)] = said
-            out.append(
-                {
-                    "verdict": verdict,
-                    "feature": FEATURE_NAMES[c],
-                    "value": float(f"{v:.6g}"),
-                    "threshold": t,
-                    "direction": "above" if up else "below",
-                    "said": said(v),
-                }
-            )
+            record = made.get(key)
+            if record is None:
+                record = made[key] = self._nearest(*key)
+            out.append(record)
         return out
+
+    def _nearest(self, column: int, threshold: float, up: bool, k: int, v: float) -> NearestOther:
+        verdict = self.model.tree.classes[k]
+        feature = FEATURE_NAMES[column]
+        said = self._changes.get((column, threshold, up, k))
+        if said is None:
+            title = GUIDES[_VERDICTS[verdict]].title
+            said = change_said(feature, FEATURE_KIND[feature], threshold, up, title)
+            self._changes[(column, threshold, up, k)] = said
+        return {
+            "verdict": verdict,
+            "feature": feature,
+            "value": float(f"{v:.6g}"),
+            "threshold": threshold,
+            "direction": "above" if up else "below",
+            "said": said(v),
+        }
 
     def ruled_out_record(self, i: int) -> RuledOutRecord | None:
         first = self.ruled_out[i]
