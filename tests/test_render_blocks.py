@@ -7,6 +7,7 @@ the reference for Block Kit's per-element limits, plus the 50-blocks-per-message
 from __future__ import annotations
 
 import copy
+import dataclasses
 import json
 from typing import Any
 
@@ -26,6 +27,7 @@ from linktriage.render.replies import (
     SuspectItem,
     SuspectsReply,
 )
+from linktriage.render.text import render
 
 
 def within_limits(message: dict[str, Any]) -> None:
@@ -70,6 +72,12 @@ def test_what_would_change_the_verdict_follows_the_questions(
     # No one change of a reading moves this answer: nothing is drawn.
     assert cable.record["nearest_other"] is None
     assert "What would change" not in json.dumps(message_for(cable))
+    # An answer kept in the store by an earlier release, redrawn when someone labels it.
+    kept = {k: v for k, v in optic.record.items() if k != "nearest_other"}
+    redrawn = message_for(dataclasses.replace(optic, record=kept))
+    within_limits(redrawn)
+    assert "What would change" not in json.dumps(redrawn)
+    assert "What would change" not in render(dataclasses.replace(optic, record=kept))
 
 
 def test_a_long_path_is_split_and_still_within_limits(cable: DiagnosisReply) -> None:

@@ -131,8 +131,9 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
         for n, q in enumerate(r["questions"], start=1)
     ]
     blocks += _sections(questions, title=words.QUESTIONS_ASKED)
-    if r["nearest_other"] is not None:
-        blocks.append(_context(escape(nearest_line(r["nearest_other"]))))
+    nearest = r.get("nearest_other")  # an answer kept by an earlier release has none
+    if nearest is not None:
+        blocks.append(_context(escape(nearest_line(nearest))))
     ber = r["bit_errors"]
     if ber is not None:
         blocks.append(_context(escape(ber_line(ber))))

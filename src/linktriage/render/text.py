@@ -90,8 +90,9 @@ def explanation(record: DiagnosisRecord) -> str:
     for n, q in enumerate(record["questions"], start=1):
         lines += _wrapped(q["question"], f"  {n}. ", "     ")
         lines += _wrapped(q["said"], "     -> ", "        ")
-    if record["nearest_other"] is not None:
-        lines += ["", *_wrapped(nearest_line(record["nearest_other"]), "", "")]
+    nearest = record.get("nearest_other")  # an answer kept by an earlier release has none
+    if nearest is not None:
+        lines += ["", *_wrapped(nearest_line(nearest), "", "")]
     ber = record["bit_errors"]
     if ber is not None:
         lines += ["", *_wrapped(ber_line(ber), "", "")]
