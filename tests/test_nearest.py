@@ -194,6 +194,17 @@ def test_a_verdict_no_float32_value_reaches_is_never_named(
     assert np.all(near.column == -1)
 
 
+def test_a_tree_of_one_leaf_has_nothing_to_change() -> None:
+    x = prior_rows(100, seed=46).x
+    clf = DecisionTreeClassifier(ccp_alpha=1.0, random_state=0).fit(x, ["healthy"] * len(x))
+    assert clf.get_n_leaves() == 1
+    tree = CompiledTree(artefact_of(clf, list(FEATURE_NAMES)))
+    near = Counterfactuals(tree).find(
+        x.astype(np.float64), np.ones((len(x), 1), np.bool_), np.ones(x.shape, np.bool_)
+    )
+    assert np.all(near.column == -1)
+
+
 def test_guard_answers_have_no_nearest_other(demo_batch: DiagnosisBatch) -> None:
     guarded = [r for r in demo_batch.records() if r["verdict"] in GUARDS]
     assert {r["verdict"] for r in guarded} == GUARDS

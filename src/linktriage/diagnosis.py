@@ -2,7 +2,9 @@
 
 polls -> windows -> measures -> features -> physics -> guards -> pruned tree -> records. The
 physics says which verdicts each port's readings allow (each rule with its reason); the
-tree ranks among those; where its first choice is ruled out the record says by which rule.
+tree ranks among those; where its first choice is ruled out the record says by which rule,
+and where one reading's change would lead the tree to another verdict, which change
+(:mod:`linktriage.model.nearest`).
 The whole batch is computed column-wise; one record per port (plain dicts, the shape of
 ``diagnose --json``) is built only when asked for, with the per-node wording worked out once.
 """

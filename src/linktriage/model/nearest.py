@@ -93,14 +93,13 @@ class Counterfactuals:
         features: the device's counters gave it) may change: one not reported stands at
         "nothing counted", which is no reading to move."""
         n = len(values)
-        none = Nearest(
-            np.full(n, -1, np.intp),
-            np.full(n, np.nan),
-            np.zeros(n, np.bool_),
-            np.full(n, -1, np.intp),
-        )
-        if n == 0 or len(self.columns) == 0:
-            return none
+        if n == 0 or len(self.columns) == 0:  # no ports, or a tree of one leaf: no change
+            return Nearest(
+                np.full(n, -1, np.intp),
+                np.full(n, np.nan),
+                np.zeros(n, np.bool_),
+                np.full(n, -1, np.intp),
+            )
         x = values.astype(np.float32)  # as the tree compares them
         cells = np.column_stack(
             [
@@ -114,7 +113,7 @@ class Counterfactuals:
             return_index=True,
             return_inverse=True,
         )
-        up, down = self._cells(x[first], cells[first], allowed[first])
+        up, down = self._per_cell(x[first], cells[first], allowed[first])
         # Per row and feature, the change up and down as a share of the feature's span.
         at = values[:, self.columns]
         up_t, up_k = up[0][inverse], up[1][inverse]
@@ -135,7 +134,7 @@ class Counterfactuals:
             klass=np.where(found, np.where(is_up, up_k[rows, k], down_k[rows, k]), -1),
         )
 
-    def _cells(
+    def _per_cell(
         self,
         x: npt.NDArray[np.float32],
         cells: npt.NDArray[np.uint16],
