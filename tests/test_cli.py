@@ -88,6 +88,21 @@ def test_ask_json_is_one_record() -> None:
     assert json.loads(out)["verdict"] == "unidirectional"
 
 
+def test_ask_says_what_would_change_the_verdict_in_text_and_json() -> None:
+    code, out, _ = run("ask", "lark-east-idf1", "up1")
+    assert code == 0
+    assert "What would change the verdict: this port would be cable or connector fault" in out
+    code, out, _ = run("ask", "lark-east-idf1", "up1", "--json")
+    near = json.loads(out)["nearest_other"]
+    assert set(near) == {"verdict", "feature", "value", "threshold", "direction", "said"}
+    assert (near["verdict"], near["feature"], near["direction"]) == (
+        "cable_fault",
+        "light_margin_db",
+        "above",
+    )
+    assert near["value"] < near["threshold"]
+
+
 def test_ask_suggests_close_names_for_an_unknown_device_or_port() -> None:
     code, _, err = run("ask", "lark-east-idf3", "port1")
     assert code == 1

@@ -34,8 +34,8 @@ RECORD_FIELDS = {
     "model_version",
     "window_s",
     "evidence",
-}  # fmt: skip  (SNAPSHOT-FORMAT 1.1's `diagnose --json` minimum; far_end and nearest_other
-#     belong to later work)
+    "nearest_other",
+}  # fmt: skip  (SNAPSHOT-FORMAT 1.1's `diagnose --json` minimum; far_end belongs to later work)
 
 #: The readings an engineer checks for each verdict, at least one of each group present.
 DEFINING: dict[str, list[set[str]]] = {

@@ -7,6 +7,7 @@ the reference for Block Kit's per-element limits, plus the 50-blocks-per-message
 from __future__ import annotations
 
 import copy
+import dataclasses
 import json
 from typing import Any
 
@@ -26,6 +27,7 @@ from linktriage.render.replies import (
     SuspectItem,
     SuspectsReply,
 )
+from linktriage.render.text import render
 
 
 def within_limits(message: dict[str, Any]) -> None:
@@ -66,6 +68,33 @@ def test_an_answers_thread_holds_the_path_every_check_and_every_caution(
     assert "*Check next*" in json.dumps(steps["blocks"]) and "*Safety*" in json.dumps(
         steps["blocks"]
     )
+
+
+def test_what_would_change_the_verdict_follows_the_questions(
+    triage: Triage, cable: DiagnosisReply
+) -> None:
+    optic = triage.handle("lark-east-idf1 up1")
+    assert isinstance(optic, DiagnosisReply)
+    why, _ = thread_for(optic)  # the path is in the answer's thread
+    within_limits(why)
+    texts = [json.dumps(b) for b in why["blocks"]]
+    asked = next(k for k, text in enumerate(texts) if "*Questions asked*" in text)
+    assert why["blocks"][asked + 1]["type"] == "context"
+    assert (
+        "What would change the verdict: this port would be cable or connector fault with "
+        "received light above 0.7 dB"
+    ) in texts[asked + 1]
+    # No one change of a reading moves this answer: nothing is drawn.
+    assert cable.record["nearest_other"] is None
+    assert "What would change" not in json.dumps(thread_for(cable))
+    # An answer kept in the store by an earlier release, redrawn when someone labels it.
+    kept = {k: v for k, v in optic.record.items() if k != "nearest_other"}
+    redrawn = [message_for(dataclasses.replace(optic, record=kept))]
+    redrawn += thread_for(dataclasses.replace(optic, record=kept))
+    for each in redrawn:
+        within_limits(each)
+    assert "What would change" not in json.dumps(redrawn)
+    assert "What would change" not in render(dataclasses.replace(optic, record=kept))
 
 
 def test_a_long_path_is_split_and_still_within_limits(cable: DiagnosisReply) -> None:

@@ -2,14 +2,16 @@
 
 polls -> windows -> measures -> features -> physics -> guards -> pruned tree -> records. The
 physics says which verdicts each port's readings allow (each rule with its reason); the
-tree ranks among those; where its first choice is ruled out the record says by which rule.
+tree ranks among those; where its first choice is ruled out the record says by which rule,
+and where one reading's change would lead the tree to another verdict, which change
+(:mod:`linktriage.model.nearest`).
 The whole batch is computed column-wise; one record per port (plain dicts, the shape of
 ``diagnose --json``) is built only when asked for, with the per-node wording worked out once.
 """
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
@@ -22,11 +24,12 @@ from linktriage.bulk import collector_paused
 from linktriage.columns import Columns
 from linktriage.errors import ModelError
 from linktriage.evidence import EvidenceRecord, evidence_of, item
-from linktriage.features import FEATURE_NAMES, FeatureRows, feature_rows
+from linktriage.features import FEATURE_KIND, FEATURE_NAMES, FeatureRows, feature_rows
 from linktriage.guards import apply_guards
 from linktriage.measures import measure, speed_media_pairs
 from linktriage.model.artefact import CompiledTree, TreeArtefact
 from linktriage.model.explain import Explainer, QuestionRecord, rounded
+from linktriage.model.nearest import Counterfactuals, Nearest
 from linktriage.phy import phy_name
 from linktriage.physics import Allowed, allowed
 from linktriage.polls import PollTable
@@ -37,6 +40,7 @@ from linktriage.wording import (
     GUARD_TRAFFIC,
     GUARD_UP,
     NO_FIT_NOTE,
+    change_said,
     format_ratio,
     ratio_scale,
     traffic_said,
@@ -67,6 +71,19 @@ class RuledOutRecord(TypedDict):
     source: str
 
 
+class NearestOther(TypedDict):
+    """The smallest change in one measured value that would lead the tree to another
+    verdict, with the port's other readings as they are (:mod:`linktriage.model.nearest`):
+    past ``threshold``, ``direction`` "above" or "below" it, the answer is ``verdict``."""
+
+    verdict: str
+    feature: str
+    value: float
+    threshold: float
+    direction: str
+    said: str
+
+
 class DiagnosisRecord(TypedDict):
     """One port's diagnosis: one line of ``diagnose --json``."""
 
@@ -78,6 +95,7 @@ class DiagnosisRecord(TypedDict):
     questions: list[QuestionRecord]
     evidence: list[EvidenceRecord]
     ruled_out: RuledOutRecord | None
+    nearest_other: NearestOther | None
     next_checks: list[str]
     cautions: list[str]
     model_version: str
@@ -107,6 +125,7 @@ class Model:
         self.trained_at = trained_at  # None for the packaged model
         self.tree = CompiledTree(artefact)
         self.explainer = Explainer(self.tree)
+        self.counterfactuals = Counterfactuals(self.tree)
         # Column j of the physics mask (TREE_VERDICTS order) for each class of the tree.
         self.class_columns = np.array(
             [TREE_VERDICTS.index(Verdict(c)) for c in artefact.classes], np.intp
@@ -192,6 +211,7 @@ class DiagnosisBatch:
     ruled_out: list[Verdict | None]  # the tree's first choice where the physics ruled it out
     values: npt.NDArray[np.float64]  # the feature columns, as the tree compared them
     reported: npt.NDArray[np.bool_]  # which features the device's counters gave
+    nearest: Nearest  # the change that would give another verdict; none where a guard answered
     fiber: list[bool | None]
     poe: list[bool | None]
     phy: list[str | None]
@@ -201,6 +221,7 @@ class DiagnosisBatch:
 
     def __post_init__(self) -> None:
         self._columns: dict[str, list[float]] | None = None
+        self._changes: dict[tuple[int, float, bool, int], Callable[[float], str]] = {}
 
     def __len__(self) -> int:
         return len(self.verdict)
@@ -246,6 +267,7 @@ class DiagnosisBatch:
 
     def _records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
         evidence = self.evidence_many(rows)
+        nearest = self.nearest_many(rows)
         asked = [i for i in rows if self.node[i] >= 0]
         questions = dict(
             zip(
@@ -260,13 +282,20 @@ class DiagnosisBatch:
         )
         return [
             self._record(
-                i, e, questions[i] if i in questions else self._guard_questions(i, self.verdict[i])
+                i,
+                e,
+                questions[i] if i in questions else self._guard_questions(i, self.verdict[i]),
+                n,
             )
-            for i, e in zip(rows, evidence, strict=True)
+            for i, e, n in zip(rows, evidence, nearest, strict=True)
         ]
 
     def _record(
-        self, i: int, evidence: list[EvidenceRecord], questions: list[QuestionRecord]
+        self,
+        i: int,
+        evidence: list[EvidenceRecord],
+        questions: list[QuestionRecord],
+        nearest: NearestOther | None,
     ) -> DiagnosisRecord:
         verdict = self.verdict[i]
         checks, warn = advice_lists(*self.advice_key(i))
@@ -279,6 +308,7 @@ class DiagnosisBatch:
             "questions": questions,
             "evidence": evidence,
             "ruled_out": self.ruled_out_record(i),
+            "nearest_other": nearest,
             "next_checks": checks,
             "cautions": warn,
             "model_version": self.model.version,
@@ -308,6 +338,48 @@ class DiagnosisBatch:
                 polls = float(self.polls[i])
                 found[k] = [item("polls", polls, "polls", 2.0, "common practice", said)]
         return found
+
+    def nearest_many(self, rows: list[int]) -> list[NearestOther | None]:
+        """What would change the verdict of each of ``rows``: worded once per change, and
+        ports at the same value share one record (records are for reading)."""
+        at = np.asarray(rows, np.intp)
+        near = self.nearest
+        column = near.column[at]
+        made: dict[tuple[int, float, bool, int, float], NearestOther] = {}
+        out: list[NearestOther | None] = []
+        for key in zip(
+            column.tolist(),
+            near.threshold[at].tolist(),
+            near.above[at].tolist(),
+            near.klass[at].tolist(),
+            self.values[at, np.maximum(column, 0)].tolist(),
+            strict=True,
+        ):
+            if key[0] < 0:
+                out.append(None)
+                continue
+            record = made.get(key)
+            if record is None:
+                record = made[key] = self._nearest(*key)
+            out.append(record)
+        return out
+
+    def _nearest(self, column: int, threshold: float, up: bool, k: int, v: float) -> NearestOther:
+        verdict = self.model.tree.classes[k]
+        feature = FEATURE_NAMES[column]
+        said = self._changes.get((column, threshold, up, k))
+        if said is None:
+            title = GUIDES[_VERDICTS[verdict]].title
+            said = change_said(feature, FEATURE_KIND[feature], threshold, up, title)
+            self._changes[(column, threshold, up, k)] = said
+        return {
+            "verdict": verdict,
+            "feature": feature,
+            "value": float(f"{v:.6g}"),
+            "threshold": threshold,
+            "direction": "above" if up else "below",
+            "said": said(v),
+        }
 
     def ruled_out_record(self, i: int) -> RuledOutRecord | None:
         first = self.ruled_out[i]
@@ -447,6 +519,10 @@ def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisB
     first_ruled_out = ~mask[np.arange(len(leaf)), choice.first] & ~unfit
 
     is_guarded = np.array([g is not None for g in guarded], np.bool_)
+    values = rows.values.matrix(np.float64)
+    reported = rows.reported.matrix(np.bool_)
+    # A guard's answer does not come from the tree: no change of a feature moves it.
+    nearest = model.counterfactuals.find(values, mask, reported & ~is_guarded[:, None])
     verdict = [
         _VERDICTS[g if g is not None else c]
         for g, c in zip(guarded, tree.classes[klass].tolist(), strict=True)
@@ -480,8 +556,9 @@ def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisB
         confidence=np.where(is_guarded, 1.0, confidence).round(4).tolist(),
         node=np.where(is_guarded, -1, node).tolist(),
         ruled_out=ruled_out,
-        values=rows.values.matrix(np.float64),
-        reported=rows.reported.matrix(np.bool_),
+        values=values,
+        reported=reported,
+        nearest=nearest,
         fiber=_flags(m["fiber"]),
         poe=_flags(windows.state["poe"]),
         phy=_phy_names(m["speed_bps"], m["fiber"]),

@@ -97,6 +97,47 @@ ANY_QUESTIONS: dict[str, str] = {
         f"Frames discarded, {MIN_EVENTS} or more, in the direction with the most discards?"
     ),
 }
+#: For each feature, the change that would give another verdict, as it reads after "with":
+#: ``{dir}`` is "above" or "below" and ``{t}`` the tree's threshold as it reads.
+CHANGES: dict[str, str] = {
+    "ber_over_objective": (
+        "the bit error ratio, at the low end of its 95% range, {dir} {t} the PHY's objective"
+    ),
+    "runts_vs_collisions": (
+        "runts {dir} {t} the share of receive errors that collisions leave as runts"
+    ),
+    "late_collision_ratio": "late collisions {dir} {t} sent frames",
+    "collision_ratio": "collisions {dir} {t} sent frames",
+    "speed_ratio": "the port running {dir} {t} of its top speed",
+    "giant_ratio": "received frames too long for this port {dir} {t}",
+    "light_margin_db": "received light {dir} {t} over the module's low warning",
+    "tx_margin_db": "transmitted light {dir} {t} over the module's low alarm",
+    "flaps_per_hour": "the link going down and up {dir} {t} times an hour",
+    "quiet_fps": "the quieter direction carrying {dir} {t}",
+    "discard_ratio": "discards {dir} {t} frames, in the direction with the most",
+    "discard_utilisation": "the direction with the most discards running {dir} {t} of line rate",
+}
+#: Changes that read as a state rather than a threshold, (above, below): a flag, and a
+#: per-frame ratio split below ANY_BELOW (which only asks whether events were counted).
+STATE_CHANGES: dict[str, tuple[str, str]] = {
+    "half_duplex": ("the port running half duplex", "the port running full duplex"),
+    "late_collision_ratio": (
+        f"late collisions counted, {MIN_COLLISIONS} or more",
+        f"fewer than {MIN_COLLISIONS} late collisions counted",
+    ),
+    "collision_ratio": (
+        f"collisions counted, {MIN_COLLISIONS} or more",
+        f"fewer than {MIN_COLLISIONS} collisions counted",
+    ),
+    "giant_ratio": (
+        f"received frames too long for this port counted, {MIN_EVENTS} or more",
+        f"fewer than {MIN_EVENTS} received frames too long for this port counted",
+    ),
+    "discard_ratio": (
+        f"discards counted, {MIN_EVENTS} or more, in the direction with the most",
+        f"fewer than {MIN_EVENTS} discards counted in either direction",
+    ),
+}
 NOT_REPORTED = "not reported, so no evidence of it"
 NONE_COUNTED = "none"
 
@@ -185,6 +226,23 @@ def format_threshold(kind: str, threshold: float) -> str:
     if kind == "db":
         return f"{threshold:.1f} dB"
     return sig(threshold)
+
+
+def change_said(
+    feature: str, kind: str, threshold: float, above: bool, title: str
+) -> Callable[[float], str]:
+    """How the nearest other verdict reads for a port whose value is ``v``: "would be
+    healthy with fewer than 20 received frames too long for this port counted; now 1.2 in
+    100,000". Worked out once per change; only the value read differs from port to port."""
+    states = STATE_CHANGES.get(feature)
+    if states is not None and (kind == "flag" or threshold < ANY_BELOW):
+        change, reads = states[0 if above else 1], value_reader(kind, None)
+    else:
+        direction = "above" if above else "below"
+        t = format_threshold(kind, threshold)
+        change, reads = CHANGES[feature].format(dir=direction, t=t), value_reader(kind, threshold)
+    head = f"would be {title} with {change}; now "
+    return lambda v: head + reads(v)
 
 
 def yes_no(answer: bool) -> str:

@@ -35,6 +35,7 @@ from linktriage.render.words import (
     ber_line,
     help_lines,
     label_recorded,
+    nearest_line,
     ruled_out_line,
 )
 from linktriage.verdicts import GUARD_VERDICTS, GUIDES, SHORT, TREE_VERDICTS, Verdict, cautions_for
@@ -205,6 +206,9 @@ def diagnosis_thread(reply: DiagnosisReply) -> list[dict[str, Any]]:
         for n, q in enumerate(r["questions"], start=1)
     ]
     why += _sections(questions, title=words.QUESTIONS_ASKED)
+    nearest = r.get("nearest_other")  # an answer kept by an earlier release has none
+    if nearest is not None:
+        why.append(_context(escape(nearest_line(nearest))))
     if r["bit_errors"] is not None:
         why.append(_context(escape(ber_line(r["bit_errors"]))))
     said = {e["said"] for e in r["evidence"]}

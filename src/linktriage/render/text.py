@@ -21,7 +21,13 @@ from linktriage.render.replies import (
     Reply,
     SuspectsReply,
 )
-from linktriage.render.words import ber_line, help_lines, label_recorded, ruled_out_line
+from linktriage.render.words import (
+    ber_line,
+    help_lines,
+    label_recorded,
+    nearest_line,
+    ruled_out_line,
+)
 from linktriage.wording import sig
 
 WIDTH = 88
@@ -85,6 +91,9 @@ def explanation(record: DiagnosisRecord) -> str:
     for n, q in enumerate(record["questions"], start=1):
         lines += _wrapped(q["question"], f"  {n}. ", "     ")
         lines += _wrapped(q["said"], "     -> ", "        ")
+    nearest = record.get("nearest_other")  # an answer kept by an earlier release has none
+    if nearest is not None:
+        lines += ["", *_wrapped(nearest_line(nearest), "", "")]
     ber = record["bit_errors"]
     if ber is not None:
         lines += ["", *_wrapped(ber_line(ber), "", "")]

@@ -27,6 +27,11 @@ def ruled_out_line(ruled_out: Mapping[str, Any]) -> str:
     )
 
 
+def nearest_line(nearest: Mapping[str, Any]) -> str:
+    """What would change the verdict (a ``nearest_other`` record), after the questions."""
+    return f"What would change the verdict: this port {nearest['said']}."
+
+
 def ber_line(ber: Mapping[str, Any]) -> str:
     """How the bit error ratio (a ``bit_errors`` record) compares with the PHY's objective.
     The record holds three significant digits, shown as they are: rounding them again
