@@ -3,7 +3,8 @@
 Every chat transport (Slack, the console) and every job calls into :class:`Triage`, which
 answers commands itself (one port, the model's card, help) and hands the rest to its
 parts, one job each: :mod:`~linktriage.bot.gathering` (polls for a question, the poll
-job), :mod:`~linktriage.bot.digests` (lists of suspects, the digest) and
+job), :mod:`~linktriage.bot.digests` (lists of suspects, the digest),
+:mod:`~linktriage.bot.history` (a port over time) and
 :mod:`~linktriage.bot.labelling` (labels from threads and buttons). It takes its clock
 and its sleep from outside, so tests and the demo run it on a simulated clock, and
 answers with the plain data of :mod:`linktriage.render.replies`.
@@ -22,15 +23,18 @@ from linktriage.bot.commands import (
     DiagnosePort,
     ListSuspects,
     ShowHelp,
+    ShowHistory,
     ShowModel,
+    ShowTree,
     parse,
 )
 from linktriage.bot.digests import Digests, listed
 from linktriage.bot.gathering import Gathering
+from linktriage.bot.history import Histories
 from linktriage.bot.labelling import GroupMembers, Labelling
-from linktriage.diagnosis import Model, diagnose
+from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
 from linktriage.errors import LinktriageError, PollError, StoreError
-from linktriage.network.interface import Network
+from linktriage.network.interface import Network, PortRef
 from linktriage.render import words
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import (
@@ -40,6 +44,7 @@ from linktriage.render.replies import (
     ModelReply,
     Reply,
     SuspectsReply,
+    TreeReply,
 )
 from linktriage.settings import Settings
 from linktriage.store import Store
@@ -59,6 +64,7 @@ class Triage:
     gathering: Gathering = field(init=False)
     digests: Digests = field(init=False)
     labels: Labelling = field(init=False)
+    histories: Histories = field(init=False)
 
     def __post_init__(self) -> None:
         self.gathering = Gathering(
@@ -70,6 +76,7 @@ class Triage:
         self.labels = Labelling(
             self.store, self.settings, clock=self.clock, members_of=self.members_of
         )
+        self.histories = Histories(self.network, self.store, self.model, clock=self.clock)
 
     # --- commands
     def handle(self, text: str, *, user: str | None = None, channel: str | None = None) -> Reply:
@@ -83,6 +90,10 @@ class Triage:
                 reply = self.model_card()
             elif isinstance(command, ListSuspects):
                 reply = self.digests.suspects(command.site, channel=channel)
+            elif isinstance(command, ShowHistory):
+                reply = self.histories.of(command.device, command.port, command.since_s)
+            elif isinstance(command, ShowTree):
+                reply = self.tree(command.device, command.port)
             else:
                 assert isinstance(command, DiagnosePort)
                 reply = self.diagnose_port(command.device, command.port, user=user, channel=channel)
@@ -118,13 +129,7 @@ class Triage:
     ) -> DiagnosisReply:
         """Diagnose one port now, from its stored history if recent, else two fresh polls."""
         ref = self.network.find(device, port)
-        polls, failed = self.gathering.gather([ref])
-        if failed:
-            raise PollError(ref.device, failed[ref.device])
-        batch = diagnose(polls, self.model)
-        row = batch.index_of(ref.device, ref.port)
-        if row is None:
-            raise PollError(ref.device, words.answered_without(ref.port))
+        batch, row = self._diagnosed(ref)
         record = batch.record(row)
         (diagnosis_id,) = keep_answers(
             self.store,
@@ -138,6 +143,22 @@ class Triage:
             channel=channel,
         )
         return DiagnosisReply(record, diagnosis_id, ref.site, ref.serves)
+
+    def tree(self, device: str, port: str) -> TreeReply:
+        """One port diagnosed now, with the tree it went through (to draw its path)."""
+        batch, row = self._diagnosed(self.network.find(device, port))
+        return TreeReply(batch.record(row), batch.node[row], self.model.artefact)
+
+    def _diagnosed(self, ref: PortRef) -> tuple[DiagnosisBatch, int]:
+        """The port's polls gathered and diagnosed: the batch and the port's row in it."""
+        polls, failed = self.gathering.gather([ref])
+        if failed:
+            raise PollError(ref.device, failed[ref.device])
+        batch = diagnose(polls, self.model)
+        row = batch.index_of(ref.device, ref.port)
+        if row is None:
+            raise PollError(ref.device, words.answered_without(ref.port))
+        return batch, row
 
     def recheck(
         self, diagnosis_id: int, *, user: str | None = None, channel: str | None = None

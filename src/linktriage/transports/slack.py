@@ -22,7 +22,14 @@ from slack_sdk import WebClient
 from slack_sdk.errors import SlackApiError
 from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
 
-from linktriage.bot.commands import COMMAND, DiagnosePort, ListSuspects, parse
+from linktriage.bot.commands import (
+    COMMAND,
+    DiagnosePort,
+    ListSuspects,
+    ShowHistory,
+    ShowTree,
+    parse,
+)
 from linktriage.bot.triage import Triage
 from linktriage.errors import LinktriageError
 from linktriage.render import words
@@ -110,9 +117,9 @@ def build_app(
         """Whether a command needs polls, so its answer comes after the acknowledgement."""
         try:
             parsed = parse(text)
-            if isinstance(parsed, DiagnosePort):
+            if isinstance(parsed, DiagnosePort | ShowHistory | ShowTree):
                 triage.network.find(parsed.device, parsed.port)  # names only: no polling
-            return isinstance(parsed, DiagnosePort | ListSuspects)
+            return isinstance(parsed, DiagnosePort | ShowHistory | ShowTree | ListSuspects)
         except LinktriageError:
             return False  # answered at once, with the reason
 
