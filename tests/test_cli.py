@@ -503,3 +503,40 @@ def test_ask_reads_a_device_of_an_inventory_now(tmp_path: Path, snapshots: Path)
         "ask", "annex-old1", "port9", "--inventory", str(inventory), "--config", str(config)
     )
     assert code == 1 and "lark-annex-old1 has no port named 'port9'" in err
+
+
+def test_history_plot_writes_the_chart_the_bot_would_post(tmp_path: Path) -> None:
+    from PIL import Image
+
+    config = _polled_for_an_hour(tmp_path)
+    chart = tmp_path / "port14.png"
+    code, _, err = run("history", "idf2", "port14", "--plot", str(chart), "--config", str(config))
+    assert code == 0 and f"wrote {chart}" in err
+    with Image.open(chart) as image:
+        assert image.format == "PNG" and image.width >= 400
+
+
+def test_ask_plot_writes_the_tree_with_the_path_or_says_why_not(tmp_path: Path) -> None:
+    from PIL import Image
+
+    picture = tmp_path / "tree.png"
+    code, out, _ = run("ask", "lark-core1", "up3", "--plot", str(picture))
+    assert code == 0 and out.startswith("lark-core1 up3: one-way link (unidirectional)")
+    with Image.open(picture) as image:
+        assert image.format == "PNG" and image.width >= 400
+    down = tmp_path / "down.png"
+    code, _, err = run("ask", "lark-west-idf1", "port9", "--plot", str(down))
+    assert code == 0 and "No picture written: a guard answered" in err
+    assert not down.exists()
+
+
+def test_the_demo_shows_a_history_and_writes_its_chart() -> None:
+    from linktriage.paths import data_dir
+
+    code, out, _ = run("demo")
+    assert code == 0
+    assert "$ linktriage history lark-east-idf2 port14 --since 3h" in out
+    assert "cable_fault since 05:40 UTC, healthy before" in out
+    chart = data_dir() / "history-lark-east-idf2-port14.png"
+    assert f"Its chart (what the bot posts in the answer's thread): {chart}" in out
+    assert chart.read_bytes().startswith(b"\x89PNG\r\n\x1a\n")

@@ -20,10 +20,12 @@ def test_the_manifest_declares_what_the_bot_uses() -> None:
     (command,) = manifest["features"]["slash_commands"]
     assert command["command"] == COMMAND
     scopes = set(manifest["oauth_config"]["scopes"]["bot"])
-    # slash command, posting, reading thread replies, checking user groups (Slack scopes)
+    # slash command, posting, uploading pictures, reading thread replies, checking user
+    # groups (Slack scopes)
     assert scopes == {
         "commands",
         "chat:write",
+        "files:write",
         "channels:history",
         "groups:history",
         "usergroups:read",

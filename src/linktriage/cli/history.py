@@ -7,7 +7,13 @@ from pathlib import Path
 
 import click
 
-from linktriage.cli.options import config_option, inventory_option, model_option
+from linktriage.cli.options import (
+    config_option,
+    inventory_option,
+    model_option,
+    plot_option,
+    write_plot,
+)
 
 
 @click.command()
@@ -21,6 +27,7 @@ from linktriage.cli.options import config_option, inventory_option, model_option
     help="How far back to reach: 90m, 24h, 3d, ... (the store keeps [store] keep_polls_h).",
 )
 @click.option("--json", "as_json", is_flag=True, help="The history as one JSON object.")
+@plot_option("a chart of the verdicts, errors, discards and load each way")
 @inventory_option
 @config_option
 @model_option
@@ -29,6 +36,7 @@ def history(
     port: str,
     span: str,
     as_json: bool,
+    plot: Path | None,
     inventory_path: Path | None,
     config_path: Path | None,
     model_path: Path | None,
@@ -55,3 +63,5 @@ def history(
         click.echo(json.dumps(reply.as_record(), ensure_ascii=False))
     else:
         click.echo(history_text(reply))
+    if plot is not None:
+        write_plot(plot, reply)

@@ -9,7 +9,13 @@ from typing import TYPE_CHECKING
 
 import click
 
-from linktriage.cli.options import config_option, inventory_option, model_option
+from linktriage.cli.options import (
+    config_option,
+    inventory_option,
+    model_option,
+    plot_option,
+    write_plot,
+)
 from linktriage.render import words
 from linktriage.verdicts import FAULTS
 
@@ -73,6 +79,7 @@ def diagnose(
 @click.argument("device")
 @click.argument("port")
 @click.option("--json", "as_json", is_flag=True, help="The diagnosis as one JSON object.")
+@plot_option("a picture of the tree with the port's path marked")
 @inventory_option
 @config_option
 @model_option
@@ -80,6 +87,7 @@ def ask(
     device: str,
     port: str,
     as_json: bool,
+    plot: Path | None,
     inventory_path: Path | None,
     config_path: Path | None,
     model_path: Path | None,
@@ -91,6 +99,8 @@ def ask(
 
     reply = _answered(device, port, inventory_path, config_path, model_path)
     click.echo(dumps(reply.record) if as_json else explanation(reply.record))
+    if plot is not None:
+        write_plot(plot, reply)
 
 
 def _answered(

@@ -226,6 +226,7 @@ def history_message(reply: HistoryReply) -> dict[str, Any]:
         _context(" \u00b7 ".join(facts)),
         _section(f"*{escape(reply.summary)}*"),
         *_sections(runs, title=words.HISTORY_CHANGES),
+        _context(words.CHART_IN_THREAD),
     ]
     fallback = words.history_fallback(reply.device, reply.port, reply.summary)
     return _message(fallback, blocks)
@@ -243,6 +244,7 @@ def tree_message(reply: TreeReply) -> dict[str, Any]:
             for n, q in enumerate(r["questions"], start=1)
         ]
         blocks += _sections(questions, title=words.QUESTIONS_ASKED)
+        blocks.append(_context(words.TREE_IN_THREAD))
     return _message(words.tree_title(r["device"], r["port"], r["verdict"]), blocks)
 
 

@@ -536,6 +536,17 @@ CHART_PATH = "the path taken"
 CHART_OTHER = "branches not taken"
 
 
+NO_PICTURE = "No picture written: a guard answered before the tree was asked."
+
+
+def wrote_picture(path: object) -> str:
+    return f"wrote {path}"
+
+
+def cannot_write(path: object, why: object) -> str:
+    return f"Cannot write {path}: {why}"
+
+
 def chart_alt(device: str, port: str, summary: str) -> str:
     """What a chart shows, for people who cannot see it (Slack's alt text)."""
     return (
@@ -574,6 +585,17 @@ def demo_asks(device: str, port: str) -> str:
 
 def demo_serves(serves: str) -> str:
     return f"({serves})\n"
+
+
+def demo_asks_history(device: str, port: str, since_s: float) -> str:
+    return (
+        f"\n{RULE}\nThe poll job polled every port every five minutes all morning.\n"
+        f"$ linktriage history {device} {port} --since {span(since_s).replace(' ', '')}"
+    )
+
+
+def demo_chart(path: object) -> str:
+    return f"  ...\nIts chart (what the bot posts in the answer's thread): {path}"
 
 
 DEMO_DIGEST = f"\n{RULE}\nThe digest, as posted to the team channel on weekday mornings:\n"

@@ -4,7 +4,8 @@ Slash commands are acknowledged at once (Slack wants an answer within 3 seconds)
 the model card and anything malformed or unknown are answered in the acknowledgement
 itself, privately; a port or a list of suspects gets a short "looking" note, then the
 work runs after the acknowledgement and the answer is posted to the channel, where its
-thread collects what engineers found. Thread replies and the label buttons become labels.
+thread collects what engineers found; a history's chart and a tree's picture follow in
+that thread as PNG uploads. Thread replies and the label buttons become labels.
 
 Two ways in: Socket Mode (no public URL; the default) and HTTP mode, whose listener
 (:mod:`linktriage.transports.slack_http`) checks each request before it hands it to bolt.
@@ -19,7 +20,7 @@ from typing import Any
 
 from slack_bolt import Ack, App, BoltContext, Respond
 from slack_sdk import WebClient
-from slack_sdk.errors import SlackApiError
+from slack_sdk.errors import SlackApiError, SlackClientError
 from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
 
 from linktriage.bot.commands import (
@@ -40,6 +41,7 @@ from linktriage.render.blocks import (
     message_for,
     thread_for,
 )
+from linktriage.render.charts import pictures_for
 from linktriage.render.replies import LabelReply, Reply
 from linktriage.settings import Settings
 from linktriage.verdicts import TREE_VERDICTS
@@ -56,6 +58,26 @@ def post_reply(client: WebClient, channel: str, reply: Reply) -> str:
     for follow in thread_for(reply):
         client.chat_postMessage(channel=channel, thread_ts=ts, **follow)
     return ts
+
+
+def upload_pictures(client: WebClient, channel: str, ts: str, reply: Reply) -> None:
+    """The reply's pictures (a history's chart, a tree's path) into its thread, through
+    Slack's external upload (files.getUploadURLExternal, the bytes, then
+    files.completeUploadExternal with the thread). The answer is already posted: a picture
+    that cannot go up is logged, not retried."""
+    for picture in pictures_for(reply):
+        try:
+            client.files_upload_v2(
+                channel=channel,
+                thread_ts=ts,
+                file=picture.data,
+                filename=picture.filename,
+                title=picture.title,
+                alt_txt=picture.alt,
+            )
+        except SlackClientError as exc:
+            error = exc.response.get("error") if isinstance(exc, SlackApiError) else exc
+            log.warning("could not upload %s to %s: %s", picture.filename, channel, error)
 
 
 def web_client(settings: Settings) -> WebClient:
@@ -153,6 +175,7 @@ def build_app(
             )
             return
         triage.posted(reply, channel=channel, ts=ts)
+        upload_pictures(client, channel, ts, reply)
 
     app.command(COMMAND)(ack=ack_triage, lazy=[answer_triage])
 
