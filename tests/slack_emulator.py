@@ -1,8 +1,10 @@
 """A local stand-in for Slack's Web API, so the bot's real client talks to something real.
 
-It answers the methods the bot calls (auth.test, chat.postMessage, usergroups.users.list)
-and response_url webhooks, and records every call for tests to assert on. Runs on an
-ephemeral loopback port in a thread of its own.
+It answers the methods the bot calls (auth.test, chat.postMessage, usergroups.users.list,
+the external file upload: files.getUploadURLExternal, the upload URL it hands out, and
+files.completeUploadExternal) and response_url webhooks, and records every call for tests
+to assert on (an upload's bytes as they arrived). Runs on an ephemeral loopback port in a
+thread of its own.
 """
 
 from __future__ import annotations
@@ -38,7 +40,12 @@ class SlackEmulator:
 
         class Handler(BaseHTTPRequestHandler):
             def do_POST(self) -> None:
-                raw = self.rfile.read(int(self.headers.get("Content-Length") or 0)).decode()
+                body = self.rfile.read(int(self.headers.get("Content-Length") or 0))
+                if self.path.startswith("/upload/"):  # the bytes of a file, as sent
+                    emulator.calls.append(Call("upload", {"path": self.path, "data": body}, None))
+                    self._reply(b"OK")
+                    return
+                raw = body.decode()
                 if "json" in (self.headers.get("Content-Type") or ""):
                     params = json.loads(raw or "{}")
                 else:
@@ -46,7 +53,9 @@ class SlackEmulator:
                 auth = self.headers.get("Authorization", "")
                 token = auth.removeprefix("Bearer ") if auth else params.get("token")
                 answer = emulator._answer(self.path, params, token)
-                body = (answer if isinstance(answer, str) else json.dumps(answer)).encode()
+                self._reply((answer if isinstance(answer, str) else json.dumps(answer)).encode())
+
+            def _reply(self, body: bytes) -> None:
                 self.send_response(200)
                 self.send_header("Content-Type", "application/json")
                 self.send_header("Content-Length", str(len(body)))
@@ -96,6 +105,13 @@ class SlackEmulator:
             return {"ok": True, "channel": params.get("channel"), "ts": params.get("ts")}
         if method == "chat.postEphemeral":
             return {"ok": True, "message_ts": f"{1772438400 + self._ts}.000200"}
+        if method == "files.getUploadURLExternal":
+            file_id = f"F0LT{len(self.called(method)):04d}"
+            upload_url = f"http://127.0.0.1:{self.port}/upload/v1/{file_id}"
+            return {"ok": True, "upload_url": upload_url, "file_id": file_id}
+        if method == "files.completeUploadExternal":
+            files = json.loads(params.get("files", "[]"))
+            return {"ok": True, "files": [{"id": f["id"], "title": f.get("title")} for f in files]}
         if method == "usergroups.users.list":
             return {"ok": True, "users": self.usergroups.get(str(params.get("usergroup")), [])}
         return {"ok": False, "error": "unknown_method"}

@@ -4,7 +4,17 @@ from __future__ import annotations
 
 import pytest
 
-from linktriage.bot.commands import DiagnosePort, ListSuspects, ShowHelp, ShowModel, parse
+from linktriage.bot.commands import (
+    DEFAULT_HISTORY_S,
+    DiagnosePort,
+    ListSuspects,
+    ShowHelp,
+    ShowHistory,
+    ShowModel,
+    ShowTree,
+    parse,
+    span_seconds,
+)
 from linktriage.errors import CommandError
 
 
@@ -17,6 +27,9 @@ from linktriage.errors import CommandError
         ("suspects", ListSuspects(None)),
         ("Suspects annex", ListSuspects("annex")),
         ("model", ShowModel()),
+        ("history idf2 port14", ShowHistory("idf2", "port14", DEFAULT_HISTORY_S)),
+        ("History lark-core1 up3 90m", ShowHistory("lark-core1", "up3", 5400.0)),
+        ("tree lark-core1 up3", ShowTree("lark-core1", "up3")),
         ("", ShowHelp()),
         ("help", ShowHelp()),
         ("@linktriage lark-east-idf2 port14", DiagnosePort("lark-east-idf2", "port14")),
@@ -36,6 +49,11 @@ def test_commands(text: str, command: object) -> None:
         ("a b c", "Name one device and one port"),
         ("suspects a b", "at most one site"),
         ("model now", "nothing after it"),
+        ("history lark-core1", "`history` takes a device, a port and how far back"),
+        ("history lark-core1 up3 6h now", "`history` takes a device, a port and how far back"),
+        ("history lark-core1 up3 yesterday", "is not a span of time"),
+        ("history http://x up3", "is not a device or port name"),
+        ("tree lark-core1 up3 6h", "`tree` takes a device and a port"),
         ("http://10.0.0.1/ x", "is not a device or port name"),
         ("port1 <@U123>", "is not a device or port name"),
     ],
@@ -51,3 +69,17 @@ def test_only_a_leading_mention_of_the_bot_is_taken_away() -> None:
         parse("lark-core1 <@U0LTBOT>")
     with pytest.raises(CommandError, match="is not a device or port name"):
         parse("@someone up3")  # someone else's name typed out is not the bot's
+
+
+@pytest.mark.parametrize(
+    ("text", "seconds"),
+    [("30s", 30.0), ("90m", 5400.0), ("24h", 86_400.0), ("1.5h", 5400.0), ("3d", 259_200.0)],
+)
+def test_spans_of_time_read_as_people_write_them(text: str, seconds: float) -> None:
+    assert span_seconds(text) == seconds
+
+
+@pytest.mark.parametrize("text", ["0h", "h", "-1h", "24", "2 weeks", ""])
+def test_a_span_that_is_not_one_is_refused(text: str) -> None:
+    with pytest.raises(CommandError, match="is not a span of time"):
+        span_seconds(text)

@@ -7,6 +7,7 @@ import random
 import shutil
 import subprocess
 import sys
+import time
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -551,3 +552,140 @@ def test_control_characters_in_names_are_shown_not_obeyed(tmp_path: Path) -> Non
     assert len(out.splitlines()) == 2  # the header and one row, no forged one
     code, out, _ = run("diagnose", "--snapshots", str(path), "--json")
     assert json.loads(out)["port"] == "p1\nlark-core1  up1  healthy"  # JSON keeps it exact
+
+
+def _polled_for_an_hour(tmp_path: Path) -> Path:
+    """A settings file whose store holds the poll job's last hour of the demo network."""
+    from linktriage.bot.jobs import Jobs
+    from linktriage.bot.triage import Triage
+    from linktriage.diagnosis import Model
+    from linktriage.settings import Settings
+
+    store_path = tmp_path / "s.sqlite"
+    config = tmp_path / "c.toml"
+    config.write_text(f'[store]\nurl = "sqlite:///{store_path}"\n')
+    clock = DemoClock(time.time() - 3600.0)
+    store = Store(f"sqlite:///{store_path}")
+    triage = Triage(DemoNetwork(clock=clock), store, Model.load(), Settings(), clock=clock)
+    jobs = Jobs(triage, post=lambda reply: None, channel=None)
+    for _ in range(12):
+        jobs.poll()
+        clock.sleep(300.0)
+    store.close()
+    return config
+
+
+def test_history_answers_from_the_polls_the_poll_job_stored(tmp_path: Path) -> None:
+    config = _polled_for_an_hour(tmp_path)
+    code, out, _ = run("history", "idf2", "port14", "--since", "2h", "--config", str(config))
+    assert code == 0
+    lines = out.splitlines()
+    assert lines[0] == "lark-east-idf2 port14: the last 2 h"
+    assert lines[1].startswith("cable_fault throughout, 11 windows since ")
+    header = lines.index("FROM   TO     VERDICT      CONF  ERROR RATIO  DISC IN/OUT  LOAD IN/OUT")
+    assert len(lines) - header - 1 == 11
+    assert all(" cable_fault  1.00  1.3e-05 " in line for line in lines[header + 1 :])
+
+
+def test_history_json_is_one_object_with_every_window_and_the_changes(tmp_path: Path) -> None:
+    config = _polled_for_an_hour(tmp_path)
+    code, out, _ = run("history", "lark-core1", "up3", "--json", "--config", str(config))
+    assert code == 0
+    found = json.loads(out)
+    assert (found["device"], found["port"], found["site"]) == ("lark-core1", "up3", "central")
+    assert found["summary"].startswith("unidirectional throughout")
+    assert len(found["windows"]) == 11
+    assert found["changes"] == [
+        {
+            "verdict": "unidirectional",
+            "start": found["windows"][0]["start"],
+            "end": found["windows"][-1]["end"],
+            "windows": 11,
+        }
+    ]
+    window = found["windows"][0]
+    assert window["rx_util"] == 0 and 0.08 < window["tx_util"] <= 0.09  # planted: 9% one way
+    assert window["end"] - window["start"] == 300.0
+
+
+def test_history_of_nothing_stored_says_so_and_fails(tmp_path: Path) -> None:
+    config = tmp_path / "c.toml"
+    config.write_text(f'[store]\nurl = "sqlite:///{tmp_path / "s.sqlite"}"\n')
+    code, _, err = run("history", "idf2", "port14", "--since", "6h", "--config", str(config))
+    assert code == 1
+    assert "No history of lark-east-idf2 port14 over the last 6 h" in err
+    assert "healthy" not in err
+    code, _, err = run("history", "idf2", "port14", "--since", "soon", "--config", str(config))
+    assert code == 1 and "'soon' is not a span of time" in err
+
+
+def test_ask_reads_a_device_of_an_inventory_now(tmp_path: Path, snapshots: Path) -> None:
+    inventory = tmp_path / "inventory.toml"
+    inventory.write_text(
+        '[[devices]]\nname = "lark-annex-old1"\nsite = "annex"\ncollector = "file"\n'
+        f'[devices.options]\npath = "{snapshots / "counter32-device.jsonl"}"\n'
+    )
+    config = tmp_path / "c.toml"
+    store_path = tmp_path / "s.sqlite"
+    config.write_text(f'[chat]\nquick_window_s = 0.1\n[store]\nurl = "sqlite:///{store_path}"\n')
+    code, out, _ = run(
+        "ask",
+        "annex-old1",
+        "port2",
+        "--json",
+        "--inventory",
+        str(inventory),
+        "--config",
+        str(config),
+    )
+    assert code == 0
+    record = json.loads(out)
+    assert (record["device"], record["verdict"], record["polls"]) == (
+        "lark-annex-old1",
+        "healthy",
+        2,
+    )
+    store = Store(f"sqlite:///{store_path}")
+    assert store.poll_history().ports == 2  # the two polls read for the answer, kept
+    store.close()
+    code, _, err = run(
+        "ask", "annex-old1", "port9", "--inventory", str(inventory), "--config", str(config)
+    )
+    assert code == 1 and "lark-annex-old1 has no port named 'port9'" in err
+
+
+def test_history_plot_writes_the_chart_the_bot_would_post(tmp_path: Path) -> None:
+    from PIL import Image
+
+    config = _polled_for_an_hour(tmp_path)
+    chart = tmp_path / "port14.png"
+    code, _, err = run("history", "idf2", "port14", "--plot", str(chart), "--config", str(config))
+    assert code == 0 and f"wrote {chart}" in err
+    with Image.open(chart) as image:
+        assert image.format == "PNG" and image.width >= 400
+
+
+def test_ask_plot_writes_the_tree_with_the_path_or_says_why_not(tmp_path: Path) -> None:
+    from PIL import Image
+
+    picture = tmp_path / "tree.png"
+    code, out, _ = run("ask", "lark-core1", "up3", "--plot", str(picture))
+    assert code == 0 and out.startswith("lark-core1 up3: one-way link (unidirectional)")
+    with Image.open(picture) as image:
+        assert image.format == "PNG" and image.width >= 400
+    down = tmp_path / "down.png"
+    code, _, err = run("ask", "lark-west-idf1", "port9", "--plot", str(down))
+    assert code == 0 and "No picture written: a guard answered" in err
+    assert not down.exists()
+
+
+def test_the_demo_shows_a_history_and_writes_its_chart() -> None:
+    from linktriage.paths import data_dir
+
+    code, out, _ = run("demo")
+    assert code == 0
+    assert "$ linktriage history lark-east-idf2 port14 --since 3h" in out
+    assert "cable_fault since 05:40 UTC, healthy before" in out
+    chart = data_dir() / "history-lark-east-idf2-port14.png"
+    assert f"Its chart (what the bot posts in the answer's thread): {chart}" in out
+    assert chart.read_bytes().startswith(b"\x89PNG\r\n\x1a\n")

@@ -20,11 +20,13 @@ def test_the_manifest_declares_what_the_bot_uses() -> None:
     (command,) = manifest["features"]["slash_commands"]
     assert command["command"] == COMMAND
     scopes = set(manifest["oauth_config"]["scopes"]["bot"])
-    # slash command, posting, mentions, reading thread replies, checking user groups
+    # slash command, posting, mentions, uploading pictures, reading thread replies,
+    # checking user groups (Slack scopes)
     assert scopes == {
         "commands",
         "chat:write",
         "app_mentions:read",
+        "files:write",
         "channels:history",
         "groups:history",
         "usergroups:read",

@@ -10,7 +10,7 @@ from pathlib import Path
 
 import pytest
 
-HEAVY = ("sklearn", "slack_bolt", "slack_sdk", "apscheduler", "pysnmp", "httpx")
+HEAVY = ("sklearn", "slack_bolt", "slack_sdk", "apscheduler", "pysnmp", "httpx", "matplotlib")
 
 
 def loaded_after(statement: str) -> set[str]:
@@ -30,6 +30,7 @@ def loaded_after(statement: str) -> set[str]:
         "import linktriage.bot.triage",
         "import linktriage.transports.console",
         "import linktriage.render.blocks",
+        "import linktriage.render.charts",
     ],
 )
 def test_the_core_loads_no_heavy_library(statement: str) -> None:

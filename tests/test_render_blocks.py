@@ -14,18 +14,22 @@ from typing import Any
 import pytest
 from slack_sdk.models.blocks import Block
 
+from linktriage.bot.history import verdict_runs
 from linktriage.bot.triage import Triage
 from linktriage.diagnosis import DiagnosisRecord, Model
-from linktriage.render.blocks import MAX_BLOCKS, escape, message_for, thread_for
+from linktriage.render.blocks import MAX_BLOCKS, MAX_RUNS, escape, message_for, thread_for
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import (
     DiagnosisReply,
     ErrorReply,
     HelpReply,
+    HistoryPoint,
+    HistoryReply,
     LabelReply,
     ModelReply,
     SuspectItem,
     SuspectsReply,
+    TreeReply,
 )
 from linktriage.render.text import render
 
@@ -176,3 +180,56 @@ def test_the_other_replies_fit_too(model: Model) -> None:
         message = message_for(reply)
         within_limits(message)
         assert "<!channel>" not in json.dumps(message)
+
+
+def _history(verdicts: list[str]) -> HistoryReply:
+    points: list[HistoryPoint] = [
+        {
+            "start": 1772434800.0 + 300 * k,
+            "end": 1772435100.0 + 300 * k,
+            "verdict": v,
+            "confidence": 1.0,
+            "polls": 2,
+            "error_ratio": 0.0,
+            "bit_error_ratio": 0.0,
+            "objective": 1e-10,
+            "rx_errors": 0.0,
+            "in_discards": 0.0,
+            "out_discards": 0.0,
+            "rx_util": 0.1,
+            "tx_util": 0.1,
+        }
+        for k, v in enumerate(verdicts)
+    ]
+    return HistoryReply(
+        "lark-east-idf2", "port14", "central", "desk <@U0BOSS>", 1772434800.0, 6 * 3600.0,
+        points, verdict_runs(points), "52cbdda12037",
+    )  # fmt: skip
+
+
+def test_a_history_says_when_it_changed_and_its_latest_runs_within_limits() -> None:
+    message = message_for(_history(["healthy", "cable_fault"] * 36))  # flapping all along
+    within_limits(message)
+    blocks = message["blocks"]
+    assert blocks[0]["text"]["text"] == "lark-east-idf2 port14: the last 6 h"
+    assert blocks[2]["text"]["text"] == (
+        "*cable_fault since 12:55 UTC, healthy before (71 changes since Mon 02 Mar 07:00 UTC)*"
+    )
+    runs = "\n".join(b["text"]["text"] for b in blocks[3:-1])
+    assert blocks[-1]["elements"][0]["text"].startswith("Chart of errors")
+    assert runs.count("\u2022 ") == MAX_RUNS and runs.endswith("cable_fault (1 window)")
+    assert "<@U0BOSS>" not in json.dumps(blocks)  # what a device says it serves is escaped
+
+
+def test_a_tree_answer_lists_the_path_or_says_no_tree_was_asked(
+    triage: Triage, cable: DiagnosisReply
+) -> None:
+    tree = triage.handle("tree lark-east-idf2 port14")
+    assert isinstance(tree, TreeReply) and tree.node >= 0
+    message = message_for(tree)
+    within_limits(message)
+    said = message["blocks"][1]["text"]["text"]
+    assert said.startswith("*Questions asked*\n1. ")
+    assert said.count("\u2192") == len(cable.record["questions"])
+    down = message_for(triage.handle("tree lark-west-idf1 port9"))
+    assert "The tree was not asked: link_down is decided by a guard" in json.dumps(down)

@@ -3,6 +3,7 @@ to a local Slack API emulator, answers and labels checked on what the emulator r
 
 from __future__ import annotations
 
+import io
 import json
 import threading
 import time
@@ -15,6 +16,7 @@ from typing import Any
 from urllib.parse import quote, urlencode
 
 import pytest
+from PIL import Image
 from pydantic import SecretStr
 from slack_sdk.signature import SignatureVerifier
 
@@ -28,6 +30,7 @@ from linktriage.render.blocks import (
     text_size,
 )
 from linktriage.settings import LabelSettings, Settings
+from linktriage.simulate import DEFAULT_START
 from linktriage.transports.slack import build_app
 from linktriage.transports.slack_http import http_server
 from linktriage.verdicts import SHORT, Caution
@@ -512,3 +515,74 @@ def test_a_button_press_refused_is_told_to_the_person_alone(
     (refusal,) = emulator.called("chat.postEphemeral")
     assert refusal.params["user"] == "U0ENGINEER"
     assert "not taken here" in refusal.params["text"]
+
+
+def picture_in_thread(emulator: SlackEmulator, thread_ts: str) -> Image.Image:
+    """The one picture uploaded into a thread, checked through Slack's external upload
+    flow end to end, and decoded."""
+    (asked,) = emulator.called("files.getUploadURLExternal")
+    (sent,) = emulator.called("upload")
+    (completed,) = emulator.called("files.completeUploadExternal")
+    (done,) = json.loads(completed.params["files"])
+    file_id = done["id"]
+    assert sent.params["path"].endswith(f"/{file_id}")
+    assert int(asked.params["length"]) == len(sent.params["data"])
+    assert completed.params["channel_id"] == CHANNEL
+    assert completed.params["thread_ts"] == thread_ts
+    assert asked.params["alt_txt"]  # said in words for people who cannot see it
+    image = Image.open(io.BytesIO(sent.params["data"]))
+    assert image.format == "PNG"
+    image.load()  # decodes every pixel: a truncated or corrupt file fails here
+    return image
+
+
+def test_a_history_is_posted_with_its_chart_in_the_answers_thread(
+    bot: str, emulator: SlackEmulator, triage: Triage, clock: DemoClock
+) -> None:
+    clock.now = DEFAULT_START - 3 * 3600.0
+    for _ in range(37):  # the poll job, every five minutes up to the demo's moment
+        triage.gathering.poll_round()
+        clock.sleep(300.0)
+    clock.now = DEFAULT_START
+    slash(bot, emulator, "history lark-east-idf2 port14 3h")
+    (posted,) = emulator.wait_for("chat.postMessage")
+    assert posted.params["channel"] == CHANNEL
+    said = json.dumps(posted.params["blocks"])
+    assert "cable_fault since 05:40 UTC, healthy before" in said
+    chart = picture_in_thread(emulator, "1772438401.000100")
+    assert chart.width >= 400 and chart.height >= 400
+    (asked,) = emulator.called("files.getUploadURLExternal")
+    assert asked.params["filename"] == "history-lark-east-idf2-port14.png"
+
+
+def test_a_tree_is_asked_for_and_its_picture_follows_in_the_thread(
+    bot: str, emulator: SlackEmulator
+) -> None:
+    slash(bot, emulator, "tree idf2 port14")
+    (posted,) = emulator.wait_for("chat.postMessage")
+    assert posted.params["blocks"][0]["text"]["text"] == (
+        "lark-east-idf2 port14: the tree's path to cable_fault"
+    )
+    picture = picture_in_thread(emulator, "1772438401.000100")
+    assert picture.width >= 400
+
+
+def test_a_port_with_no_history_is_told_privately_and_nothing_is_uploaded(
+    bot: str, emulator: SlackEmulator
+) -> None:
+    slash(bot, emulator, "history lark-east-idf2 port14")
+    (told,) = emulator.wait_for("response_url")
+    assert "No history of lark-east-idf2 port14 over the last 24 h" in told.params["text"]
+    assert emulator.called("chat.postMessage") == []
+    assert emulator.called("files.getUploadURLExternal") == []
+
+
+def test_a_picture_slack_refuses_leaves_the_answer_standing(
+    bot: str, emulator: SlackEmulator
+) -> None:
+    emulator.failures["files.getUploadURLExternal"] = "not_allowed_token_type"
+    slash(bot, emulator, "tree lark-core1 up3")
+    (posted,) = emulator.wait_for("chat.postMessage")
+    assert "the tree's path to unidirectional" in posted.params["text"]
+    assert len(emulator.called("files.getUploadURLExternal")) == 1
+    assert emulator.called("upload") == emulator.called("files.completeUploadExternal") == []

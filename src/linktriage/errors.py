@@ -17,6 +17,7 @@ drawing to the classes).
     │       ├── DeviceTimeoutError       no answer within the timeout, after every retry
     │       ├── DeviceRefusedError       the request refused (credentials, permissions)
     │       └── BadAnswerError           an answer that cannot be read
+    ├── NoHistoryError           no stored polls of a port make a window over the span asked for
     ├── ModelError               a model artefact is missing, malformed or of another format
     └── StoreError               the store cannot be opened or written (which operation)
 
@@ -73,6 +74,11 @@ class PollError(LinktriageError):
         super().__init__(f"{device}: {message}", hint=hint)
         self.device = device
         self.reason = message
+
+
+class NoHistoryError(LinktriageError):
+    """No stored polls of a port make a window over the span asked for: nothing to judge,
+    which is never to be read as healthy."""
 
 
 class ModelError(LinktriageError):

@@ -734,7 +734,9 @@ class LiveCounters:
 
     Reading them at any instant gives what a switch would answer then; two readings any
     time apart make a window. Parameters may carry ``cleared`` (counters cleared at every
-    read) and ``down`` (the link is down).
+    read) and ``down`` (the link is down). A port may turn faulty while it runs: until its
+    ``onset`` (a time; NaN for none) its counters grow at the rates of its row of
+    ``before``, from then on at those of ``params``, so a history shows when it changed.
     """
 
     def __init__(
@@ -746,6 +748,8 @@ class LiveCounters:
         port: Sequence[str],
         epoch: float,
         seed: int,
+        before: pd.DataFrame | None = None,
+        onset: np.ndarray | None = None,
     ) -> None:
         self.params = params.reset_index(drop=True)
         if "cleared" not in self.params:
@@ -756,12 +760,14 @@ class LiveCounters:
         self.epoch = epoch
         self.seed = seed
         self.constants = PortConstants.draw(self.params, rng, np.full(n, epoch))
-        reference = 1e6  # rates from a long window, so that rounding down costs nothing
-        counts = window_counts(self.params, Expect(), np.full(n, reference))
-        self.rates = {key: value / reference for key, value in counts.items()}
-        self.flaps_per_s = (
-            self.params["link_changes"].to_numpy() / self.params["window_s"].to_numpy()
+        self.rates, self.flaps_per_s = _live_rates(self.params)
+        self.rates_before, self.flaps_before = (
+            (self.rates, self.flaps_per_s)
+            if before is None
+            else _live_rates(before.reset_index(drop=True))
         )
+        # Without an onset a port runs at its own rates from the epoch on.
+        self.onset = np.full(n, epoch) if onset is None else np.where(np.isnan(onset), epoch, onset)
 
     def __len__(self) -> int:
         return len(self.params)
@@ -770,8 +776,13 @@ class LiveCounters:
         """The counters of ``rows`` read at ``when``."""
         p = self.params.iloc[rows].reset_index(drop=True)
         elapsed = max(when - self.epoch, 0.0)  # before the epoch, counters have not started
+        before_s = np.clip(self.onset[rows] - self.epoch, 0.0, elapsed)
+        after_s = elapsed - before_s
         cleared = p["cleared"].to_numpy(np.bool_)
-        steps = {k: np.where(cleared, 0.0, v[rows] * elapsed) for k, v in self.rates.items()}
+        steps = {
+            k: np.where(cleared, 0.0, self.rates_before[k][rows] * before_s + v[rows] * after_s)
+            for k, v in self.rates.items()
+        }
         constants = PortConstants(
             starts={k: v[rows] for k, v in self.constants.starts.items()},
             link_changes=self.constants.link_changes[rows],
@@ -786,8 +797,16 @@ class LiveCounters:
             port=self.port[rows],
             time=np.full(len(rows), when),
             down=p["down"].to_numpy(np.bool_),
-            link_changes=self.flaps_per_s[rows] * elapsed,
+            link_changes=self.flaps_before[rows] * before_s + self.flaps_per_s[rows] * after_s,
         )
+
+
+def _live_rates(params: pd.DataFrame) -> tuple[dict[str, np.ndarray], np.ndarray]:
+    """How fast each counter grows per second at the ports' mean rates, and their flaps."""
+    reference = 1e6  # rates from a long window, so that rounding down costs nothing
+    counts = window_counts(params, Expect(), np.full(len(params), reference))
+    flaps = params["link_changes"].to_numpy() / params["window_s"].to_numpy()
+    return {key: value / reference for key, value in counts.items()}, flaps
 
 
 class Draw:

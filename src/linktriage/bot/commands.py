@@ -1,6 +1,8 @@
 """Parsing the text of one ``/triage`` command into what to do.
 
 /triage DEVICE PORT     diagnose one port now
+/triage history DEVICE PORT [SINCE]  the port's verdicts over time, from stored polls
+/triage tree DEVICE PORT             the tree's path for the port, as a picture
 /triage suspects [SITE] the current suspect links, ranked
 /triage model           the model's card
 /triage help            how to use it
@@ -34,6 +36,19 @@ class DiagnosePort:
 
 
 @dataclass(frozen=True, slots=True)
+class ShowHistory:
+    device: str
+    port: str
+    since_s: float
+
+
+@dataclass(frozen=True, slots=True)
+class ShowTree:
+    device: str
+    port: str
+
+
+@dataclass(frozen=True, slots=True)
 class ListSuspects:
     site: str | None
 
@@ -48,7 +63,12 @@ class ShowHelp:
     pass
 
 
-Command = DiagnosePort | ListSuspects | ShowModel | ShowHelp
+Command = DiagnosePort | ShowHistory | ShowTree | ListSuspects | ShowModel | ShowHelp
+
+#: How far back a history reaches unless asked otherwise: the last day, a night's on-call.
+DEFAULT_HISTORY_S = 86_400.0
+_SPAN = re.compile(r"(\d+(?:\.\d+)?)([smhd])")
+_UNIT_S = {"s": 1.0, "m": 60.0, "h": 3600.0, "d": 86_400.0}
 
 
 def parse(text: str, *, command: str = COMMAND) -> Command:
@@ -71,9 +91,37 @@ def parse(text: str, *, command: str = COMMAND) -> Command:
         if len(tokens) > 1:
             raise CommandError(words.MODEL_TAKES_NOTHING, hint=usage)
         return ShowModel()
+    if head == "history":
+        if len(tokens) not in (3, 4):
+            raise CommandError(words.HISTORY_NAMES, hint=usage)
+        device, port = _names(tokens[1:3], usage)
+        try:
+            since_s = span_seconds(tokens[3]) if len(tokens) == 4 else DEFAULT_HISTORY_S
+        except CommandError as exc:
+            raise CommandError(exc.message, hint=usage) from None
+        return ShowHistory(device, port, since_s)
+    if head == "tree":
+        if len(tokens) != 3:
+            raise CommandError(words.TREE_NAMES, hint=usage)
+        return ShowTree(*_names(tokens[1:3], usage))
     if len(tokens) != 2:
         raise CommandError(words.NAME_DEVICE_AND_PORT, hint=usage)
+    return DiagnosePort(*_names(tokens, usage))
+
+
+def _names(tokens: list[str], usage: str) -> tuple[str, str]:
+    """A device and a port name as typed, refusing anything that cannot be one."""
     for word, pattern in zip(tokens, (_DEVICE, _PORT), strict=True):
         if not pattern.fullmatch(word):
             raise CommandError(words.not_a_name(word), hint=usage)
-    return DiagnosePort(tokens[0], tokens[1])
+    return tokens[0], tokens[1]
+
+
+def span_seconds(text: str) -> float:
+    """A span of time as people write it (``90m``, ``24h``, ``2d``, ``3600s``), in seconds;
+    anything else, or nothing at all, raises :class:`CommandError`."""
+    found = _SPAN.fullmatch(text.strip().lower())
+    seconds = float(found[1]) * _UNIT_S[found[2]] if found else 0.0
+    if seconds <= 0:
+        raise CommandError(words.not_a_span(text))
+    return seconds

@@ -3,7 +3,8 @@
 Every chat transport (Slack, the console) and every job calls into :class:`Triage`, which
 answers commands itself (one port, the model's card, help) and hands the rest to its
 parts, one job each: :mod:`~linktriage.bot.gathering` (polls for a question, the poll
-job), :mod:`~linktriage.bot.digests` (lists of suspects, the digest) and
+job), :mod:`~linktriage.bot.digests` (lists of suspects, the digest),
+:mod:`~linktriage.bot.history` (a port over time) and
 :mod:`~linktriage.bot.labelling` (labels from threads and buttons). It takes its clock
 and its sleep from outside, so tests and the demo run it on a simulated clock, and
 answers with the plain data of :mod:`linktriage.render.replies`.
@@ -23,15 +24,18 @@ from linktriage.bot.commands import (
     DiagnosePort,
     ListSuspects,
     ShowHelp,
+    ShowHistory,
     ShowModel,
+    ShowTree,
     parse,
 )
 from linktriage.bot.digests import Digests, listed
 from linktriage.bot.gathering import Gathering
+from linktriage.bot.history import Histories
 from linktriage.bot.labelling import GroupMembers, Labelling
-from linktriage.diagnosis import Model, diagnose
+from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
 from linktriage.errors import LinktriageError, PollError, StoreError
-from linktriage.network.interface import Network
+from linktriage.network.interface import Network, PortRef
 from linktriage.render import words
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import (
@@ -41,6 +45,7 @@ from linktriage.render.replies import (
     ModelReply,
     Reply,
     SuspectsReply,
+    TreeReply,
 )
 from linktriage.settings import Settings
 from linktriage.store import Store
@@ -60,6 +65,7 @@ class Triage:
     gathering: Gathering = field(init=False)
     digests: Digests = field(init=False)
     labels: Labelling = field(init=False)
+    histories: Histories = field(init=False)
 
     def __post_init__(self) -> None:
         self.gathering = Gathering(
@@ -71,6 +77,7 @@ class Triage:
         self.labels = Labelling(
             self.store, self.settings, clock=self.clock, members_of=self.members_of
         )
+        self.histories = Histories(self.network, self.store, self.model, clock=self.clock)
 
     # --- commands
     def handle(
@@ -93,6 +100,10 @@ class Triage:
                 reply = self.model_card()
             elif isinstance(command, ListSuspects):
                 reply = self.digests.suspects(command.site, channel=channel)
+            elif isinstance(command, ShowHistory):
+                reply = self.histories.of(command.device, command.port, command.since_s)
+            elif isinstance(command, ShowTree):
+                reply = self.tree(command.device, command.port)
             else:
                 assert isinstance(command, DiagnosePort)
                 reply = self.diagnose_port(command.device, command.port, user=user, channel=channel)
@@ -106,7 +117,7 @@ class Triage:
         and nothing polled: what a transport checks before it says an answer is on its way.
         Raises :class:`LinktriageError` with the reason, as :meth:`handle` would answer."""
         command = parse(text)
-        if isinstance(command, DiagnosePort):
+        if isinstance(command, DiagnosePort | ShowHistory | ShowTree):
             self.network.find(command.device, command.port)
         elif isinstance(command, ListSuspects):
             self.digests.scope(command.site)
@@ -139,13 +150,7 @@ class Triage:
     ) -> DiagnosisReply:
         """Diagnose one port now, from its stored history if recent, else two fresh polls."""
         ref = self.network.find(device, port)
-        polls, failed = self.gathering.gather([ref])
-        if failed:
-            raise PollError(ref.device, failed[ref.device])
-        batch = diagnose(polls, self.model)
-        row = batch.index_of(ref.device, ref.port)
-        if row is None:
-            raise PollError(ref.device, words.answered_without(ref.port))
+        batch, row = self._diagnosed(ref)
         record = batch.record(row)
         (diagnosis_id,) = keep_answers(
             self.store,
@@ -161,6 +166,22 @@ class Triage:
         return DiagnosisReply(
             record, diagnosis_id, ref.site, ref.serves, asked_by=user, at=self.clock()
         )
+
+    def tree(self, device: str, port: str) -> TreeReply:
+        """One port diagnosed now, with the tree it went through (to draw its path)."""
+        batch, row = self._diagnosed(self.network.find(device, port))
+        return TreeReply(batch.record(row), batch.node[row], self.model.artefact)
+
+    def _diagnosed(self, ref: PortRef) -> tuple[DiagnosisBatch, int]:
+        """The port's polls gathered and diagnosed: the batch and the port's row in it."""
+        polls, failed = self.gathering.gather([ref])
+        if failed:
+            raise PollError(ref.device, failed[ref.device])
+        batch = diagnose(polls, self.model)
+        row = batch.index_of(ref.device, ref.port)
+        if row is None:
+            raise PollError(ref.device, words.answered_without(ref.port))
+        return batch, row
 
     def recheck(
         self, diagnosis_id: int, *, user: str | None = None, channel: str | None = None

@@ -5,7 +5,7 @@ from __future__ import annotations
 import click
 
 from linktriage import __version__
-from linktriage.cli import bot, config, demo, devices, labels, models, snapshots
+from linktriage.cli import bot, config, demo, devices, history, labels, models, snapshots
 from linktriage.cli.options import READ_ALL, READ_NONE, READ_SOME, Group
 
 __all__ = ["READ_ALL", "READ_NONE", "READ_SOME", "main"]
@@ -25,6 +25,7 @@ def main() -> None:
 for command in (
     snapshots.diagnose,
     snapshots.ask,
+    history.history,
     models.train,
     models.model,
     bot.chat,

@@ -10,6 +10,8 @@ from linktriage.cli.options import model_option
 from linktriage.render import words
 from linktriage.verdicts import Verdict
 
+#: The port whose history the demo shows: its cable fault began during the morning.
+_HISTORY_OF = ("lark-east-idf2", "port14")
 _DEMO_STORIES = {
     Verdict.CABLE_FAULT,
     Verdict.DUPLEX_MISMATCH,
@@ -46,6 +48,7 @@ def demo(model_path: Path | None) -> None:
         click.echo(words.demo_serves(planted.serves))
         click.echo(explanation(batch.record(row)))
     _demo_digest_and_label(model_path)
+    _demo_history(model_path)
     click.echo(words.DEMO_NEXT)
 
 
@@ -84,3 +87,43 @@ def _demo_digest_and_label(model_path: Path | None) -> None:
                 click.echo(f"  {render(label)}")
             (stored,) = parts.store.labels()
             click.echo(words.demo_stored(stored))
+
+
+#: How far back the demo's history reaches: across the cable fault's start at 05:40 UTC.
+_HISTORY_S = 3 * 3600.0
+_POLL_S = 300.0
+
+
+def _demo_history(model_path: Path | None) -> None:
+    """A morning of the poll job, the cable fault's port over it, and its chart written
+    where the engineer can open it (the data directory)."""
+    import tempfile
+
+    from linktriage.assembly import opened
+    from linktriage.network.demo import DemoClock, DemoNetwork
+    from linktriage.paths import data_dir
+    from linktriage.render.charts import pictures_for
+    from linktriage.render.text import history_text
+    from linktriage.settings import Settings, StoreSettings
+    from linktriage.simulate import DEFAULT_START
+
+    device, port = _HISTORY_OF
+    clock = DemoClock(DEFAULT_START - _HISTORY_S)
+    with tempfile.TemporaryDirectory() as folder:
+        settings = Settings(store=StoreSettings(url=f"sqlite:///{folder}/demo.sqlite"))
+        network = DemoNetwork(clock=clock)
+        with opened(settings, model_path=model_path, network=network, demo_clock=clock) as parts:
+            triage = parts.triage()
+            for poll in range(int(_HISTORY_S / _POLL_S) + 1):  # up to the demo's moment
+                if poll:
+                    clock.sleep(_POLL_S)
+                triage.gathering.poll_round()
+            reply = triage.histories.of(device, port, _HISTORY_S)
+    click.echo(words.demo_asks_history(device, port, _HISTORY_S))
+    lines = history_text(reply).splitlines()
+    click.echo("\n".join(lines[: lines.index("") + len(reply.runs) + 2]))  # up to the changes
+    (chart,) = pictures_for(reply)
+    path = data_dir() / chart.filename
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_bytes(chart.data)
+    click.echo(words.demo_chart(path))

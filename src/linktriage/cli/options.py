@@ -5,12 +5,15 @@ from __future__ import annotations
 import sys
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any, TypeVar
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import click
 
 from linktriage.errors import LinktriageError
 from linktriage.render import words
+
+if TYPE_CHECKING:
+    from linktriage.render.replies import Reply
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -50,6 +53,35 @@ def inventory_option(func: F) -> F:
         help="Inventory file (TOML). Default: [network] inventory of the settings, else the "
         "built-in demo network read through the demo collector.",
     )(func)
+
+
+def plot_option(what: str) -> Callable[[F], F]:
+    """``--plot FILE``: the picture the bot would put in the answer's thread, as a PNG."""
+
+    def decorate(func: F) -> F:
+        return click.option(
+            "--plot",
+            type=click.Path(dir_okay=False, path_type=Path),
+            default=None,
+            help=f"Also write {what} to this PNG file (the picture the bot posts in Slack).",
+        )(func)
+
+    return decorate
+
+
+def write_plot(path: Path, reply: Reply) -> None:
+    """Write the reply's picture; a reply with none (a guard answered) is said so."""
+    from linktriage.render.charts import pictures_for
+
+    pictures = pictures_for(reply)
+    if not pictures:
+        click.echo(words.NO_PICTURE, err=True)
+        return
+    try:
+        path.write_bytes(pictures[0].data)
+    except OSError as exc:
+        raise LinktriageError(words.cannot_write(path, exc.strerror or exc)) from exc
+    click.echo(words.wrote_picture(path), err=True)
 
 
 #: Exit codes of the commands that read devices (sweep, collect, inventory check --reach):

@@ -1,16 +1,26 @@
-"""``diagnose`` and ``ask``: snapshot files and demo ports, answered in full."""
+"""``diagnose`` and ``ask``: snapshot files, and one port answered in full."""
 
 from __future__ import annotations
 
 import sys
 from collections.abc import Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import click
 
-from linktriage.cli.options import model_option
+from linktriage.cli.options import (
+    config_option,
+    inventory_option,
+    model_option,
+    plot_option,
+    write_plot,
+)
 from linktriage.render import words
 from linktriage.verdicts import FAULTS
+
+if TYPE_CHECKING:
+    from linktriage.render.replies import TreeReply
 
 
 @click.command()
@@ -69,17 +79,55 @@ def diagnose(
 @click.argument("device")
 @click.argument("port")
 @click.option("--json", "as_json", is_flag=True, help="The diagnosis as one JSON object.")
+@plot_option("a picture of the tree with the port's path marked")
+@inventory_option
+@config_option
 @model_option
-def ask(device: str, port: str, as_json: bool, model_path: Path | None) -> None:
-    """Diagnose one port of the demo network, with the full explanation."""
-    from linktriage.diagnosis import Model, diagnose
-    from linktriage.network.demo import DemoNetwork, demo_polls
+def ask(
+    device: str,
+    port: str,
+    as_json: bool,
+    plot: Path | None,
+    inventory_path: Path | None,
+    config_path: Path | None,
+    model_path: Path | None,
+) -> None:
+    """Diagnose one port, with the full explanation: of the inventory's devices when there
+    is one (read now, twice if the store holds no recent poll), else of the demo network."""
     from linktriage.render.jsonl import dumps
     from linktriage.render.text import explanation
 
+    reply = _answered(device, port, inventory_path, config_path, model_path)
+    click.echo(dumps(reply.record) if as_json else explanation(reply.record))
+    if plot is not None:
+        write_plot(plot, reply)
+
+
+def _answered(
+    device: str,
+    port: str,
+    inventory_path: Path | None,
+    config_path: Path | None,
+    model_path: Path | None,
+) -> TreeReply:
+    """One port diagnosed, with the tree it went through: read from the inventory's device
+    when an inventory is given or configured, else from the demo network's fixed polls
+    (the same answer every time, as the README shows it)."""
+    from linktriage.assembly import inventory_for, opened
+    from linktriage.diagnosis import Model, diagnose
+    from linktriage.network.demo import DemoNetwork, demo_polls
+    from linktriage.network.polling import InventoryNetwork
+    from linktriage.render.replies import TreeReply
+    from linktriage.settings import load_settings
+
+    settings = load_settings(config_path)
+    if inventory_path is not None or settings.network.inventory is not None:
+        network = InventoryNetwork(inventory_for(inventory_path, config_path))
+        with opened(settings, model_path=model_path, network=network) as parts:
+            return parts.triage().tree(device, port)
+    model = Model.load(model_path)
     ref = DemoNetwork().find(device, port)
-    batch = diagnose(demo_polls(), Model.load(model_path))
+    batch = diagnose(demo_polls(), model)
     row = batch.index_of(ref.device, ref.port)
     assert row is not None  # every demo port is polled
-    record = batch.record(row)
-    click.echo(dumps(record) if as_json else explanation(record))
+    return TreeReply(batch.record(row), batch.node[row], model.artefact)

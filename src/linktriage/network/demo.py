@@ -37,6 +37,7 @@ class DemoPort:
     serves: str
     planted: Verdict | None = None
     overrides: dict[str, Any] = field(default_factory=dict)
+    since_s: float | None = None  # the fault began this long before the demo's moment
 
 
 _COPPER_1G = {"fiber": 0.0, "speed_bps": G, "max_speed_bps": G, "hc": True, "dot3": True}
@@ -65,6 +66,8 @@ PLANTED: tuple[DemoPort, ...] = (
             "link_changes": 8.0,
             "runt_ratio": 1e-10,
         },
+        # A cord crushed by a chair at 05:40 UTC: a history shows the clean link before.
+        since_s=2 * 3600.0 + 20 * 60.0,
     ),
     DemoPort(
         "central",
@@ -201,13 +204,18 @@ class DemoNetwork(Network):
         self._ports = demo_ports()
         self._refs = [PortRef(p.site, p.device, p.port, p.serves) for p in self._ports]
         rng = np.random.default_rng(seed)
+        params = _parameters(self._ports, rng)
         self.counters = LiveCounters(
-            _parameters(self._ports, rng),
+            params,
             rng,
             device=[p.device for p in self._ports],
             port=[p.port for p in self._ports],
             epoch=DEFAULT_START - _RUNNING_S,
             seed=seed,
+            before=_before(self._ports, params),
+            onset=np.array(
+                [np.nan if p.since_s is None else DEFAULT_START - p.since_s for p in self._ports]
+            ),
         )
         self._rows = {(p.device, p.port): i for i, p in enumerate(self._ports)}
 
@@ -255,6 +263,20 @@ def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame
         for key, value in port.overrides.items():
             params.loc[row, key] = value
     return params
+
+
+#: A clean line: what a port whose fault has a beginning read like before it.
+_CLEAN_LINE = {"rx_ber": 1e-13, "runt_ratio": 0.0, "link_changes": 0.0, "burst_errors": 0.0}
+
+
+def _before(ports: list[DemoPort], params: pd.DataFrame) -> pd.DataFrame:
+    """The parameters before each fault began: those of a clean line where it has a
+    beginning, the same as after elsewhere."""
+    before = params.copy()
+    began = [row for row, p in enumerate(ports) if p.since_s is not None]
+    for key, value in _CLEAN_LINE.items():
+        before.loc[began, key] = value
+    return before
 
 
 def demo_polls(*, seed: int = DEFAULT_SEED, end_time: float = DEFAULT_START) -> PollTable:

@@ -22,12 +22,14 @@ from linktriage.render.replies import (
     DiagnosisReply,
     ErrorReply,
     HelpReply,
+    HistoryReply,
     LabelRefused,
     LabelReply,
     ModelReply,
     Reply,
     SuspectItem,
     SuspectsReply,
+    TreeReply,
 )
 from linktriage.render.words import (
     DIGEST_PROMPT,
@@ -46,6 +48,9 @@ MAX_SECTION = 3000
 MAX_HEADER = 150
 MAX_CONTEXT_ELEMENTS = 10
 MAX_OPTION_TEXT = 75
+#: The latest runs of one verdict a history shows: a port that flaps between verdicts all
+#: day would otherwise fill the message; its chart shows every window.
+MAX_RUNS = 12
 MAX_FALLBACK = 3000  # the notification text: short, it is what a phone's lock screen shows
 #: The characters of blocks one message may carry: Slack refuses about 13,000 and more
 #: (msg_blocks_too_long, slackapi/bolt-js#2509), whatever the per-block limits allow.
@@ -281,6 +286,42 @@ def _label_actions(reply: DiagnosisReply) -> Block:
     return {"type": "actions", "block_id": f"labels-{diagnosis}", "elements": elements}
 
 
+def history_message(reply: HistoryReply) -> dict[str, Any]:
+    """A port's history: when the verdict changed, then its latest runs."""
+    facts = [words.history_facts(len(reply.points), f"`{escape(reply.model_version)}`")]
+    if reply.serves:
+        facts.append(escape(reply.serves))
+    runs = [
+        f"\u2022 {escape(words.run_line(r['verdict'], r['start'], r['end'], r['windows']))}"
+        for r in reply.runs[-MAX_RUNS:]
+    ]
+    blocks = [
+        _header(words.history_title(reply.device, reply.port, reply.span_s)),
+        _context(" \u00b7 ".join(facts)),
+        _section(f"*{escape(reply.summary)}*"),
+        *_sections(runs, title=words.HISTORY_CHANGES),
+        _context(words.CHART_IN_THREAD),
+    ]
+    fallback = words.history_fallback(reply.device, reply.port, reply.summary)
+    return _message(fallback, blocks)
+
+
+def tree_message(reply: TreeReply) -> dict[str, Any]:
+    """The questions on the port's path through the tree."""
+    r = reply.record
+    blocks = [_header(words.tree_title(r["device"], r["port"], r["verdict"]))]
+    if reply.node < 0:
+        blocks.append(_section(escape(words.tree_guarded(r["verdict"]))))
+    else:
+        questions = [
+            f"{n}. {escape(q['question'])}  \u2192  *{escape(q['said'])}*"
+            for n, q in enumerate(r["questions"], start=1)
+        ]
+        blocks += _sections(questions, title=words.QUESTIONS_ASKED)
+        blocks.append(_context(words.TREE_IN_THREAD))
+    return _message(words.tree_title(r["device"], r["port"], r["verdict"]), blocks)
+
+
 def _when(at: float) -> str:
     return datetime.fromtimestamp(at, UTC).strftime("%a %d %b %H:%M UTC")
 
@@ -379,6 +420,10 @@ def message_for(reply: Reply) -> dict[str, Any]:
         return diagnosis_message(reply)
     if isinstance(reply, SuspectsReply):
         return suspects_message(reply)
+    if isinstance(reply, HistoryReply):
+        return history_message(reply)
+    if isinstance(reply, TreeReply):
+        return tree_message(reply)
     if isinstance(reply, HelpReply):
         lines = [f"\u2022 {line}" for line in help_lines(reply.command)]
         return _message(words.HOW_TO_USE, _sections(lines, title=words.HELP_TITLE))

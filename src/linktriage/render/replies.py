@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import Any, Literal, TypedDict
 
 from linktriage.diagnosis import DiagnosisRecord
-from linktriage.render.words import coverage_words
+from linktriage.model.artefact import TreeArtefact
+from linktriage.render.words import coverage_words, history_summary
 
 Visibility = Literal["channel", "ephemeral"]
 
@@ -29,6 +30,97 @@ class DiagnosisReply:
     def disputed(self) -> bool:
         """Whether the people who labelled this answer disagree (so it teaches nothing)."""
         return len({verdict for _, verdict in self.labels}) > 1
+
+
+class HistoryPoint(TypedDict):
+    """One window of a port's history: its verdict and what it measured, each way.
+
+    Ratios and utilisation are fractions; None where the counters did not say."""
+
+    start: float
+    end: float
+    verdict: str
+    confidence: float
+    polls: int
+    error_ratio: float | None  # errored frames / received frames
+    bit_error_ratio: float | None  # the estimate behind the error ratio, for the PHY
+    objective: float | None  # the PHY's bit error ratio objective (IEEE 802.3)
+    rx_errors: float | None
+    in_discards: float | None
+    out_discards: float | None
+    rx_util: float | None
+    tx_util: float | None
+
+
+class VerdictRun(TypedDict):
+    """Consecutive windows with one verdict: from the first one's start to the last one's end."""
+
+    verdict: str
+    start: float
+    end: float
+    windows: int
+
+
+class HistoryRecord(TypedDict):
+    """A port's history as ``linktriage history --json`` writes it."""
+
+    device: str
+    port: str
+    site: str
+    serves: str
+    since: float
+    summary: str
+    model_version: str
+    windows: list[HistoryPoint]
+    changes: list[VerdictRun]
+
+
+@dataclass(frozen=True, slots=True)
+class HistoryReply:
+    """One port over time: every window of its stored polls diagnosed, and the runs of one
+    verdict they make, latest last."""
+
+    device: str
+    port: str
+    site: str
+    serves: str
+    since: float  # the history reaches back at most this far: now less ``span_s``
+    span_s: float  # how far back was asked for
+    points: list[HistoryPoint]
+    runs: list[VerdictRun]
+    model_version: str
+    visibility: Visibility = "channel"
+
+    @property
+    def summary(self) -> str:
+        """When the verdict last changed: "cable_fault since 02:40 UTC, healthy before"."""
+        return history_summary(self.runs)
+
+    def as_record(self) -> HistoryRecord:
+        return {
+            "device": self.device,
+            "port": self.port,
+            "site": self.site,
+            "serves": self.serves,
+            "since": self.since,
+            "summary": self.summary,
+            "model_version": self.model_version,
+            "windows": self.points,
+            "changes": self.runs,
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class TreeReply:
+    """One port's diagnosis with the tree it went through, to draw with its path marked.
+
+    ``node`` is the tree node whose classes decided, -1 where a guard answered and the tree
+    was not asked."""
+
+    record: DiagnosisRecord
+    node: int
+    tree: TreeArtefact
+    visibility: Visibility = "channel"
 
 
 @dataclass(frozen=True, slots=True)
@@ -115,5 +207,13 @@ class LabelRefused:
 
 
 Reply = (
-    DiagnosisReply | SuspectsReply | HelpReply | ModelReply | ErrorReply | LabelReply | LabelRefused
+    DiagnosisReply
+    | HistoryReply
+    | TreeReply
+    | SuspectsReply
+    | HelpReply
+    | ModelReply
+    | ErrorReply
+    | LabelReply
+    | LabelRefused
 )

@@ -16,10 +16,13 @@ from linktriage.render.replies import (
     DiagnosisReply,
     ErrorReply,
     HelpReply,
+    HistoryPoint,
+    HistoryReply,
     LabelReply,
     ModelReply,
     Reply,
     SuspectsReply,
+    TreeReply,
 )
 from linktriage.render.words import (
     ber_line,
@@ -129,6 +132,60 @@ def suspects_text(reply: SuspectsReply) -> str:
     return "\n".join(lines)
 
 
+def _share(value: float | None) -> str:
+    return "-" if value is None else f"{sig(value * 100)}%"
+
+
+def _count(value: float | None) -> str:
+    return "-" if value is None else f"{value:,.0f}"
+
+
+def _history_cells(point: HistoryPoint) -> tuple[str, ...]:
+    ratio = point["error_ratio"]
+    return (
+        words.clock_time(point["start"]).removesuffix(" UTC"),
+        words.clock_time(point["end"]).removesuffix(" UTC"),
+        point["verdict"],
+        f"{point['confidence']:.2f}",
+        "-" if ratio is None else ("0" if ratio == 0 else f"{ratio:.1e}"),
+        f"{_count(point['in_discards'])}/{_count(point['out_discards'])}",
+        f"{_share(point['rx_util'])}/{_share(point['tx_util'])}",
+    )
+
+
+def history_text(reply: HistoryReply) -> str:
+    """A port's history: when the verdict changed, its runs, then every window."""
+    device, port = printable(reply.device), printable(reply.port)
+    lines = [
+        words.history_title(device, port, reply.span_s),
+        reply.summary,
+        words.history_facts(len(reply.points), reply.model_version),
+        "",
+        words.HISTORY_CHANGES,
+    ]
+    lines += [
+        "  " + words.run_line(r["verdict"], r["start"], r["end"], r["windows"]) for r in reply.runs
+    ]
+    rows = [words.HISTORY_HEADER, *(_history_cells(p) for p in reply.points)]
+    widths = [max(len(row[k]) for row in rows) for k in range(len(words.HISTORY_HEADER))]
+    lines.append("")
+    lines += ["  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip()
+              for row in rows]  # fmt: skip
+    return "\n".join(lines)
+
+
+def tree_text(reply: TreeReply) -> str:
+    """The port's verdict and the questions on its path (the picture draws the tree)."""
+    r = reply.record
+    device, port = printable(r["device"]), printable(r["port"])
+    lines = [words.tree_title(device, port, r["verdict"])]
+    if reply.node < 0:
+        return "\n".join([*lines, words.tree_guarded(r["verdict"])])
+    for n, q in enumerate(r["questions"], start=1):
+        lines += _wrapped(f"{q['question']} -> {q['said']}", f"  {n}. ", "     ")
+    return "\n".join(lines)
+
+
 def render(reply: Reply) -> str:
     """Any reply as text."""
     if isinstance(reply, DiagnosisReply):
@@ -136,6 +193,10 @@ def render(reply: Reply) -> str:
         return where + explanation(reply.record)
     if isinstance(reply, SuspectsReply):
         return suspects_text(reply)
+    if isinstance(reply, HistoryReply):
+        return history_text(reply)
+    if isinstance(reply, TreeReply):
+        return tree_text(reply)
     if isinstance(reply, HelpReply):
         return "\n".join(f"- {line}" for line in help_lines(reply.command))
     if isinstance(reply, ModelReply):

@@ -7,7 +7,7 @@ The words inside a diagnosis record (questions, evidence, checks) are the engine
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from datetime import UTC, datetime
 from typing import TYPE_CHECKING, Any
 
@@ -147,6 +147,11 @@ def help_lines(command: str) -> list[str]:
     lines = [
         f"{_form(command, 'DEVICE PORT')}: diagnose one port now (a unique part of the device "
         "name will do).",
+        f"{_form(command, 'history DEVICE PORT [SINCE]')}: the port's verdicts, errors, "
+        "discards and load over time from the stored polls (since 24h unless told, e.g. 6h, "
+        "3d), with a chart in the thread.",
+        f"{_form(command, 'tree DEVICE PORT')}: the port diagnosed now, with a picture of the "
+        "tree and its path marked.",
         f"{_form(command, 'suspects [SITE]')}: the suspect links, worst first.",
         f"{_form(command, 'model')}: the model's card.",
         "Reply in the thread of an answer with what you found, e.g. "
@@ -207,13 +212,47 @@ def label_recorded(
 
 # --- the bot
 def usage(command: str) -> str:
-    forms = [_form(command, rest) for rest in ("DEVICE PORT", "suspects [SITE]", "help")]
-    return f"Try {forms[0]}, {forms[1]}, or {forms[2]}."
+    forms = [
+        _form(command, rest)
+        for rest in ("DEVICE PORT", "history DEVICE PORT [SINCE]", "suspects [SITE]", "help")
+    ]
+    return f"Try {forms[0]}, {forms[1]}, {forms[2]}, or {forms[3]}."
 
 
 SUSPECTS_TAKES_ONE_SITE = "`suspects` takes at most one site."
 MODEL_TAKES_NOTHING = "`model` takes nothing after it."
 NAME_DEVICE_AND_PORT = "Name one device and one port, e.g. `lark-east-idf2 port14`."
+HISTORY_NAMES = (
+    "`history` takes a device, a port and how far back, e.g. `history lark-east-idf2 port14 6h`."
+)
+TREE_NAMES = "`tree` takes a device and a port, e.g. `tree lark-east-idf2 port14`."
+
+
+def not_a_span(text: str) -> str:
+    return f"{text[:40]!r} is not a span of time: write it as `90m`, `24h` or `3d`."
+
+
+def span(seconds: float) -> str:
+    """A span of time in the largest unit that keeps it whole, days from two on: "24 h",
+    "3 d", "90 min"."""
+    for unit, size in (("d", 86_400.0), ("h", 3600.0), ("min", 60.0)):
+        if seconds >= size * (2 if unit == "d" else 1) and seconds % size == 0:
+            return f"{seconds / size:g} {unit}"
+    return f"{seconds:g} s"
+
+
+def no_history(device: str, port: str, since_s: float) -> str:
+    """Said when a port's stored polls make no window: never an all-clear."""
+    return (
+        f"No history of {device} {port} over the last {span(since_s)}: fewer than two of its "
+        "polls are stored that far apart, so nothing was judged."
+    )
+
+
+NO_HISTORY_HINT = (
+    "The poll job stores a poll of every port every few minutes while the bot runs "
+    "(`linktriage serve`); ask again once it has run twice, or over a longer span."
+)
 
 
 def not_a_name(word: str) -> str:
@@ -520,6 +559,107 @@ def wrote_rows(rows: int, path: object) -> str:
     return f"wrote {plural(rows, 'labelled row')} to {path}"
 
 
+# --- a port's history
+def clock_time(at: float) -> str:
+    """A time of day in a history: "02:40 UTC"."""
+    return datetime.fromtimestamp(at, UTC).strftime("%H:%M UTC")
+
+
+def day_and_time(at: float) -> str:
+    return datetime.fromtimestamp(at, UTC).strftime("%a %d %b %H:%M UTC")
+
+
+def history_summary(runs: Sequence[Mapping[str, Any]]) -> str:
+    """When the verdict last changed, in one line: "cable_fault since 02:40 UTC, healthy
+    before"; a history of one verdict says how long it has held."""
+    last = runs[-1]
+    if len(runs) == 1:
+        return (
+            f"{last['verdict']} throughout, {plural(last['windows'], 'window')} since "
+            f"{day_and_time(last['start'])}"
+        )
+    said = f"{last['verdict']} since {clock_time(last['start'])}, {runs[-2]['verdict']} before"
+    if len(runs) > 2:
+        said += f" ({plural(len(runs) - 1, 'change')} since {day_and_time(runs[0]['start'])})"
+    return said
+
+
+def history_title(device: str, port: str, since_s: float) -> str:
+    return f"{device} {port}: the last {span(since_s)}"
+
+
+def history_facts(windows: int, model_version: str) -> str:
+    return f"{plural(windows, 'window')} of stored polls, each diagnosed; model {model_version}"
+
+
+HISTORY_CHANGES = "Verdicts, oldest first"
+HISTORY_HEADER = ("FROM", "TO", "VERDICT", "CONF", "ERROR RATIO", "DISC IN/OUT", "LOAD IN/OUT")
+CHART_IN_THREAD = "Chart of errors, discards and load in the thread."
+
+
+def run_line(verdict: str, start: float, end: float, windows: int) -> str:
+    return f"{day_and_time(start)} to {clock_time(end)}: {verdict} ({plural(windows, 'window')})"
+
+
+def history_fallback(device: str, port: str, summary: str) -> str:
+    return f"{device} {port}: {summary}"
+
+
+# --- the tree's picture
+def tree_title(device: str, port: str, verdict: str) -> str:
+    return f"{device} {port}: the tree's path to {verdict}"
+
+
+def tree_guarded(verdict: str) -> str:
+    return (
+        f"The tree was not asked: {verdict} is decided by a guard before it (the link's "
+        "state, the polls, or the traffic), so there is no path to draw."
+    )
+
+
+TREE_IN_THREAD = "Picture of the tree with this port's path marked in the thread."
+CHART_TITLE = "Errors, discards and load"
+TREE_PICTURE_TITLE = "The tree's path"
+CHART_BER = "Bit error ratio"
+CHART_FER = "Frame error ratio"
+CHART_OBJECTIVE = "IEEE 802.3 objective"
+CHART_NONE_COUNTED = "no errors counted (drawn at the floor)"
+CHART_DISCARDS = "Discards per window"
+CHART_LOAD = "Load, % of link speed"
+CHART_IN = "in (received)"
+CHART_OUT = "out (sent)"
+CHART_TIME = "time (UTC)"
+CHART_PATH = "the path taken"
+CHART_OTHER = "branches not taken"
+
+
+NO_PICTURE = "No picture written: a guard answered before the tree was asked."
+
+
+def wrote_picture(path: object) -> str:
+    return f"wrote {path}"
+
+
+def cannot_write(path: object, why: object) -> str:
+    return f"Cannot write {path}: {why}"
+
+
+def chart_alt(device: str, port: str, summary: str) -> str:
+    """What a chart shows, for people who cannot see it (Slack's alt text)."""
+    return (
+        f"Chart of {device} {port} over time: bit or frame error ratio against the "
+        f"objective, discards each way, load each way, and the verdict of each window. "
+        f"{summary}."
+    )
+
+
+def tree_alt(device: str, port: str, verdict: str, questions: int) -> str:
+    return (
+        f"The decision tree with the path of {device} {port} marked: {questions} questions "
+        f"leading to {verdict}."
+    )
+
+
 # --- the demo
 RULE = "=" * 88
 
@@ -547,6 +687,17 @@ def demo_asks(device: str, port: str) -> str:
 
 def demo_serves(serves: str) -> str:
     return f"({serves})\n"
+
+
+def demo_asks_history(device: str, port: str, since_s: float) -> str:
+    return (
+        f"\n{RULE}\nThe poll job polled every port every five minutes all morning.\n"
+        f"$ linktriage history {device} {port} --since {span(since_s).replace(' ', '')}"
+    )
+
+
+def demo_chart(path: object) -> str:
+    return f"  ...\nIts chart (what the bot posts in the answer's thread): {path}"
 
 
 DEMO_DIGEST = f"\n{RULE}\nThe digest, as posted to the team channel on weekday mornings:\n"

@@ -4,9 +4,10 @@ Slash commands are acknowledged at once (Slack wants an answer within 3 seconds)
 the model card and anything malformed or unknown (a name checked against the network,
 nothing polled) are answered in the acknowledgement itself, privately; a port or a list of
 suspects gets a short "looking" note, then the work runs after the acknowledgement and the
-answer is posted to the channel, where its thread collects what engineers found. A
-mention of the bot at the top of a channel (``@linktriage lark-core1 up3``) is the same
-command, answered the same way. Thread replies and the label buttons become labels.
+answer is posted to the channel, where its thread collects what engineers found; a
+history's chart and a tree's picture follow in that thread as PNG uploads. A mention of
+the bot at the top of a channel (``@linktriage lark-core1 up3``) is the same command,
+answered the same way. Thread replies and the label buttons become labels.
 
 Two ways in: Socket Mode (no public URL; the default) and HTTP mode, whose listener
 (:mod:`linktriage.transports.slack_http`) checks each request before it hands it to bolt.
@@ -21,10 +22,16 @@ from typing import Any
 
 from slack_bolt import Ack, App, BoltContext, Respond
 from slack_sdk import WebClient
-from slack_sdk.errors import SlackApiError
+from slack_sdk.errors import SlackApiError, SlackClientError
 from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
 
-from linktriage.bot.commands import COMMAND, DiagnosePort, ListSuspects
+from linktriage.bot.commands import (
+    COMMAND,
+    DiagnosePort,
+    ListSuspects,
+    ShowHistory,
+    ShowTree,
+)
 from linktriage.bot.triage import Triage
 from linktriage.errors import LinktriageError
 from linktriage.render import words
@@ -35,6 +42,7 @@ from linktriage.render.blocks import (
     message_for,
     thread_for,
 )
+from linktriage.render.charts import pictures_for
 from linktriage.render.replies import LabelReply, Reply
 from linktriage.settings import Settings
 from linktriage.verdicts import TREE_VERDICTS
@@ -52,6 +60,26 @@ def post_reply(client: WebClient, channel: str, reply: Reply, *, thread: str | N
     for follow in thread_for(reply):
         client.chat_postMessage(channel=channel, thread_ts=thread or ts, **follow)
     return ts
+
+
+def upload_pictures(client: WebClient, channel: str, ts: str, reply: Reply) -> None:
+    """The reply's pictures (a history's chart, a tree's path) into its thread, through
+    Slack's external upload (files.getUploadURLExternal, the bytes, then
+    files.completeUploadExternal with the thread). The answer is already posted: a picture
+    that cannot go up is logged, not retried."""
+    for picture in pictures_for(reply):
+        try:
+            client.files_upload_v2(
+                channel=channel,
+                thread_ts=ts,
+                file=picture.data,
+                filename=picture.filename,
+                title=picture.title,
+                alt_txt=picture.alt,
+            )
+        except SlackClientError as exc:
+            error = exc.response.get("error") if isinstance(exc, SlackApiError) else exc
+            log.warning("could not upload %s to %s: %s", picture.filename, channel, error)
 
 
 def web_client(settings: Settings) -> WebClient:
@@ -113,7 +141,9 @@ def build_app(
         """Whether a command needs polls, so its answer comes after the acknowledgement;
         its names are checked first (no polling), so a wrong one is answered at once."""
         try:
-            return isinstance(triage.settle(text), DiagnosePort | ListSuspects)
+            return isinstance(
+                triage.settle(text), DiagnosePort | ShowHistory | ShowTree | ListSuspects
+            )
         except LinktriageError:
             return False  # answered at once, with the reason
 
@@ -147,6 +177,7 @@ def build_app(
             )
             return
         triage.posted(reply, channel=channel, ts=ts)
+        upload_pictures(client, channel, ts, reply)
 
     app.command(COMMAND)(ack=ack_triage, lazy=[answer_triage])
 

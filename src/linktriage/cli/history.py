@@ -1,0 +1,67 @@
+"""``history``: one port over time, from the polls the poll job stored."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from linktriage.cli.options import (
+    config_option,
+    inventory_option,
+    model_option,
+    plot_option,
+    write_plot,
+)
+
+
+@click.command()
+@click.argument("device")
+@click.argument("port")
+@click.option(
+    "--since",
+    "span",
+    default="24h",
+    show_default=True,
+    help="How far back to reach: 90m, 24h, 3d, ... (the store keeps [store] keep_polls_h).",
+)
+@click.option("--json", "as_json", is_flag=True, help="The history as one JSON object.")
+@plot_option("a chart of the verdicts, errors, discards and load each way")
+@inventory_option
+@config_option
+@model_option
+def history(
+    device: str,
+    port: str,
+    span: str,
+    as_json: bool,
+    plot: Path | None,
+    inventory_path: Path | None,
+    config_path: Path | None,
+    model_path: Path | None,
+) -> None:
+    """A port's verdicts over time: its stored polls cut into windows of about the poll
+    job's interval, each diagnosed, with its error ratio, discards and load each way, and
+    when the verdict changed.
+
+    A port with no two stored polls far enough apart is said to have no history, never to
+    be healthy. A device read through Prometheus answers from Prometheus's own history.
+    """
+    from linktriage.assembly import inventory_for, opened
+    from linktriage.bot.commands import span_seconds
+    from linktriage.network.polling import InventoryNetwork
+    from linktriage.render.text import history_text
+    from linktriage.settings import load_settings
+
+    since_s = span_seconds(span)
+    settings = load_settings(config_path)
+    network = InventoryNetwork(inventory_for(inventory_path, config_path))
+    with opened(settings, model_path=model_path, network=network) as parts:
+        reply = parts.triage().histories.of(device, port, since_s)
+    if as_json:
+        click.echo(json.dumps(reply.as_record(), ensure_ascii=False))
+    else:
+        click.echo(history_text(reply))
+    if plot is not None:
+        write_plot(plot, reply)

@@ -1,0 +1,167 @@
+"""A port's history: the poll job's stored polls cut into windows, each diagnosed as a
+question in chat would be, and when the verdict changed."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from linktriage.bot.commands import DEFAULT_HISTORY_S
+from linktriage.bot.history import MIN_WINDOW_S, verdict_runs, window_bounds
+from linktriage.bot.jobs import Jobs
+from linktriage.bot.triage import Triage
+from linktriage.diagnosis import diagnose
+from linktriage.errors import NoHistoryError, PollError, UnknownPortError
+from linktriage.network.demo import PLANTED, DemoClock, DemoNetwork
+from linktriage.network.interface import Gathered
+from linktriage.polls import PollTable
+from linktriage.render.replies import HistoryPoint
+from linktriage.simulate import DEFAULT_START
+from linktriage.verdicts import Verdict
+
+FIVE_MIN = 300.0
+(CABLE,) = [p for p in PLANTED if p.planted is Verdict.CABLE_FAULT]
+
+
+def poll_job_runs(triage: Triage, clock: DemoClock, rounds: int) -> None:
+    """The poll job, every five minutes of simulated time."""
+    jobs = Jobs(triage, post=lambda reply: None, channel=None)
+    for _ in range(rounds):
+        jobs.poll()
+        clock.sleep(FIVE_MIN)
+
+
+@pytest.fixture
+def three_hours(triage: Triage, clock: DemoClock) -> Triage:
+    """Three hours of the poll job up to the demo's moment, across the cable fault's start."""
+    clock.now = DEFAULT_START - 3 * 3600.0
+    poll_job_runs(triage, clock, 37)
+    clock.now = DEFAULT_START  # asked right after the last poll
+    return triage
+
+
+def test_windows_end_at_the_first_poll_far_enough_from_their_start() -> None:
+    times = np.array([0.0, 30.0, 300.0, 330.0, 600.0, 630.0])
+    assert window_bounds(times, 240.0) == [(0, 2), (2, 4)]  # 600 -> 630 is too short alone
+    assert window_bounds(np.array([0.0, 100.0]), 240.0) == []
+    assert MIN_WINDOW_S < FIVE_MIN  # every pair of the poll job's polls is a window
+
+
+def test_a_fault_that_began_during_the_history_is_said_with_when(three_hours: Triage) -> None:
+    assert CABLE.since_s is not None
+    began = DEFAULT_START - CABLE.since_s  # 05:40 UTC
+    reply = three_hours.histories.of(CABLE.device, CABLE.port, 3 * 3600.0)
+    assert reply.summary == "cable_fault since 05:40 UTC, healthy before"
+    assert [(r["verdict"], r["windows"]) for r in reply.runs] == [
+        ("healthy", 8),
+        ("cable_fault", 28),
+    ]
+    assert reply.runs[1]["start"] == began and reply.runs[1]["end"] == DEFAULT_START
+    before = [p for p in reply.points if p["end"] <= began]
+    after = [p for p in reply.points if p["start"] >= began]
+    assert len(before) + len(after) == len(reply.points) == 36
+    assert all(p["rx_errors"] == 0 for p in before)
+    ber = [p["bit_error_ratio"] for p in after]
+    objective = after[0]["objective"]
+    assert objective == 1e-10 and all(b is not None and b > 100 * objective for b in ber)
+
+
+def test_each_window_is_diagnosed_as_the_same_two_polls_would_be_alone(
+    three_hours: Triage,
+) -> None:
+    reply = three_hours.histories.of(CABLE.device, CABLE.port, 3 * 3600.0)
+    point = reply.points[-1]
+    stored = three_hours.store.polls_since(point["start"], devices=[CABLE.device], port=CABLE.port)
+    alone = diagnose(stored, three_hours.model)
+    assert alone.verdict == [Verdict(point["verdict"])] and alone.polls == [point["polls"]] == [2]
+    for name, key in (
+        ("fer", "error_ratio"),
+        ("in_discards", "in_discards"),
+        ("out_discards", "out_discards"),
+        ("rx_util", "rx_util"),
+        ("tx_util", "tx_util"),
+    ):
+        assert alone.measured(name, 0) == pytest.approx(point[key], rel=1e-5), name  # type: ignore[literal-required]
+
+
+def test_runs_join_consecutive_windows_of_one_verdict() -> None:
+    def point(start: float, verdict: str) -> HistoryPoint:
+        return {"start": start, "end": start + FIVE_MIN, "verdict": verdict, "confidence": 1.0,
+                "polls": 2, "error_ratio": None, "bit_error_ratio": None, "objective": None,
+                "rx_errors": None, "in_discards": None, "out_discards": None, "rx_util": None,
+                "tx_util": None}  # fmt: skip
+
+    verdicts = ["healthy", "healthy", "cable_fault", "healthy", "healthy", "healthy"]
+    runs = verdict_runs([point(k * FIVE_MIN, v) for k, v in enumerate(verdicts)])
+    assert [(r["verdict"], r["start"], r["end"], r["windows"]) for r in runs] == [
+        ("healthy", 0.0, 600.0, 2),
+        ("cable_fault", 600.0, 900.0, 1),
+        ("healthy", 900.0, 1800.0, 3),
+    ]
+
+
+def test_a_port_the_poll_job_never_stored_has_no_history_not_a_clean_one(
+    triage: Triage,
+) -> None:
+    reply = triage.handle(f"history {CABLE.device} {CABLE.port}")
+    assert reply.visibility == "ephemeral"
+    said = getattr(reply, "message", "")
+    assert said == (
+        "No history of lark-east-idf2 port14 over the last 24 h: fewer than two of its polls "
+        "are stored that far apart, so nothing was judged."
+    )
+    assert "healthy" not in said
+
+
+def test_one_poll_or_polls_too_close_together_are_no_history(
+    triage: Triage, clock: DemoClock
+) -> None:
+    triage.gathering.poll_round()
+    clock.sleep(60.0)
+    triage.gathering.poll_round()
+    with pytest.raises(NoHistoryError):
+        triage.histories.of(CABLE.device, CABLE.port, DEFAULT_HISTORY_S)
+
+
+def test_a_history_reaches_back_only_as_far_as_asked(three_hours: Triage) -> None:
+    reply = three_hours.histories.of(CABLE.device, CABLE.port, 3600.0)
+    assert reply.summary.startswith("cable_fault throughout, 12 windows since ")
+    assert reply.points[0]["start"] >= reply.since
+
+
+def test_names_are_settled_before_anything_is_read(triage: Triage) -> None:
+    with pytest.raises(UnknownPortError, match="lark-core1 has no port named 'up99'"):
+        triage.histories.of("core1", "up99", 3600.0)
+
+
+class _Recorded:
+    """A source that keeps history: the demo's own polls, answered as a time-series
+    database would, and a device it cannot reach."""
+
+    def __init__(self, network: DemoNetwork) -> None:
+        self.network = network
+
+    def history(self, wanted: dict[str, list[str]], since: float) -> Gathered:
+        if "lark-core1" in wanted:
+            return Gathered({}, {"lark-core1": "no answer within 5 s"}, {})
+        times = np.arange(since, DEFAULT_START + 1, 60.0)  # scraped every minute
+        return Gathered(
+            {d: PollTable.concat([self.polled_at(d, t) for t in times]) for d in wanted}, {}, {}
+        )
+
+    def polled_at(self, device: str, when: float) -> PollTable:
+        rows = np.flatnonzero(self.network.counters.device == device)
+        return self.network.counters.at(rows, when)
+
+
+def test_a_device_whose_source_keeps_history_is_answered_from_it(
+    triage: Triage, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    assert isinstance(triage.network, DemoNetwork)
+    monkeypatch.setattr(triage.network, "history", _Recorded(triage.network).history)
+    reply = triage.histories.of(CABLE.device, CABLE.port, 3600.0)
+    assert triage.store.poll_history().ports == 0  # nothing was stored, nothing read from it
+    assert {p["end"] - p["start"] for p in reply.points} == {MIN_WINDOW_S}
+    assert reply.runs[-1]["verdict"] == "cable_fault"
+    with pytest.raises(PollError, match="no answer within 5 s"):
+        triage.histories.of("lark-core1", "up3", 3600.0)
