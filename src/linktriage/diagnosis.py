@@ -15,7 +15,7 @@ from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
-from typing import TypedDict
+from typing import NotRequired, TypedDict
 
 import numpy as np
 import numpy.typing as npt
@@ -26,6 +26,7 @@ from linktriage.errors import ModelError
 from linktriage.evidence import EvidenceRecord, evidence_of, item
 from linktriage.features import FEATURE_KIND, FEATURE_NAMES, FeatureRows, feature_rows
 from linktriage.guards import apply_guards
+from linktriage.links import judge_link, pair_ends
 from linktriage.measures import measure, speed_media_pairs
 from linktriage.model.artefact import CompiledTree, TreeArtefact
 from linktriage.model.explain import Explainer, QuestionRecord, rounded
@@ -84,6 +85,26 @@ class NearestOther(TypedDict):
     said: str
 
 
+class FarEndRecord(TypedDict):
+    """The port at the other end of the link, as diagnosed from the same input."""
+
+    device: str
+    port: str
+    verdict: str
+    evidence: list[EvidenceRecord]
+
+
+class LinkRecord(TypedDict):
+    """The link judged from both ends (:mod:`linktriage.links`): its verdict, why, and the
+    checks, each naming the end it applies to."""
+
+    verdict: str
+    title: str
+    said: list[str]
+    checks: list[str]
+    agree: bool  # both ends gave this verdict on their own
+
+
 class DiagnosisRecord(TypedDict):
     """One port's diagnosis: one line of ``diagnose --json``."""
 
@@ -103,6 +124,8 @@ class DiagnosisRecord(TypedDict):
     polls: int
     bit_errors: BitErrorRecord | None
     note: str | None
+    far_end: NotRequired[FarEndRecord]  # only where the far end is in the same input
+    link: NotRequired[LinkRecord]
 
 
 class Model:
@@ -218,6 +241,7 @@ class DiagnosisBatch:
     window_s: list[float]
     polls: list[int]
     note: list[str | None]
+    far: list[int]  # the row at the other end of each port's link, -1 where none is known
 
     def __post_init__(self) -> None:
         self._columns: dict[str, list[float]] | None = None
@@ -267,6 +291,7 @@ class DiagnosisBatch:
 
     def _records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
         evidence = self.evidence_many(rows)
+        links = self._links(rows, evidence)
         nearest = self.nearest_many(rows)
         asked = [i for i in rows if self.node[i] >= 0]
         questions = dict(
@@ -280,7 +305,7 @@ class DiagnosisBatch:
                 strict=True,
             )
         )
-        return [
+        records = [
             self._record(
                 i,
                 e,
@@ -289,6 +314,45 @@ class DiagnosisBatch:
             )
             for i, e, n in zip(rows, evidence, nearest, strict=True)
         ]
+        for record, i in zip(records, rows, strict=True):
+            if i in links:
+                record["far_end"], record["link"] = links[i]
+        return records
+
+    def _links(
+        self, rows: list[int], evidence: list[list[EvidenceRecord]]
+    ) -> dict[int, tuple[FarEndRecord, LinkRecord]]:
+        """Each row's far end and the link seen from both ends, for rows whose far end is
+        in the batch."""
+        paired = [i for i in rows if self.far[i] >= 0]
+        if not paired:
+            return {}
+        said = dict(zip(rows, evidence, strict=True))
+        missing = sorted({self.far[i] for i in paired} - said.keys())
+        said.update(zip(missing, self.evidence_many(missing), strict=True))
+        out = {}
+        for i in paired:
+            j = self.far[i]
+            view = judge_link(i, j, self.verdict, self.column, self.end_name)
+            far_end: FarEndRecord = {
+                "device": self.device[j],
+                "port": self.port[j],
+                "verdict": self.verdict[j].value,
+                "evidence": said[j],
+            }
+            link: LinkRecord = {
+                "verdict": view.verdict.value,
+                "title": GUIDES[view.verdict].title,
+                "said": list(view.said),
+                "checks": list(view.checks),
+                "agree": view.agree,
+            }
+            out[i] = (far_end, link)
+        return out
+
+    def end_name(self, i: int) -> str:
+        """A port as the link's words name it: ``lark-core1 up3``."""
+        return f"{self.device[i]} {self.port[i]}"
 
     def _record(
         self,
@@ -484,18 +548,43 @@ def diagnose_chunks(
     max_window_s: float = DEFAULT_MAX_WINDOW_S,
     ports: int = CHUNK_PORTS,
 ) -> Iterator[DiagnosisBatch]:
-    """The diagnoses :func:`diagnose` gives, in the same order, ``ports`` ports at a time,
-    so that a large file is diagnosed and written in little more memory than its polls."""
+    """The diagnoses :func:`diagnose` gives, ``ports`` ports at a time, so that a large file
+    is diagnosed and written in little more memory than its polls. Ports come in the order
+    :func:`diagnose` gives them, except that both ends of a link (LLDP) are diagnosed in
+    the chunk of the end that came first, so that each answer carries its far end."""
     codes, count = port_codes(polls)
     if count <= ports:
         yield diagnose(polls, model, max_window_s=max_window_s)
         return
-    order = np.argsort(codes, kind="stable")
-    starts = np.searchsorted(codes[order], np.arange(0, count, ports))
+    chunk = _chunks_of_ports(polls, codes, count, ports)[codes]
+    order = np.argsort(chunk, kind="stable")
+    starts = np.searchsorted(chunk[order], np.arange(int(chunk.max()) + 1))
     ends = [*starts[1:].tolist(), len(order)]
     for start, end in zip(starts.tolist(), ends, strict=True):
         rows = np.sort(order[start:end])  # the rows in file order, as diagnose reads them
         yield diagnose(polls.take(rows), model, max_window_s=max_window_s)
+
+
+def _chunks_of_ports(
+    polls: PollTable, codes: npt.NDArray[np.intp], count: int, ports: int
+) -> npt.NDArray[np.intp]:
+    """Each port's chunk: ``ports`` ports at a time in order of first appearance, a port
+    whose far end is in the file placed next to whichever end came first."""
+    lead = np.arange(count)
+    if not (polls.neighbor_device != None).any():  # noqa: E711 (elementwise, on objects)
+        return lead // ports
+    last = np.empty(count, np.intp)
+    last[codes] = np.arange(len(codes))  # one row of each port, to read its names from
+    far = pair_ends(
+        polls.device[last].tolist(),
+        polls.port[last].tolist(),
+        polls.neighbor_device[last].tolist(),
+        polls.neighbor_port[last].tolist(),
+    )
+    lead = np.where(far >= 0, np.minimum(lead, far), lead)
+    position = np.empty(count, np.intp)
+    position[np.argsort(lead, kind="stable")] = np.arange(count)
+    return np.asarray(position[lead] // ports, np.intp)
 
 
 def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisBatch:
@@ -563,6 +652,12 @@ def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisB
         poe=_flags(windows.state["poe"]),
         phy=_phy_names(m["speed_bps"], m["fiber"]),
         window_s=windows.window_s.tolist(),
+        far=pair_ends(
+            windows.device.tolist(),
+            windows.port.tolist(),
+            windows.neighbor_device.tolist(),
+            windows.neighbor_port.tolist(),
+        ).tolist(),
         polls=windows.polls_used.tolist(),
         note=notes,
     )

@@ -81,6 +81,8 @@ class WindowTable:
     deltas: dict[str, FloatArray]  # quantity key -> increase over the window, NaN if unknown
     link_changes: FloatArray  # increase of link_changes, NaN where not reported
     status_changes: npt.NDArray[np.int64]  # oper-status flips seen between polls
+    neighbor_device: npt.NDArray[np.object_]  # the far end at the latest poll, or None
+    neighbor_port: npt.NDArray[np.object_]
 
     def __len__(self) -> int:
         return len(self.device)
@@ -150,6 +152,8 @@ def _no_windows() -> WindowTable:
         deltas={q.key: none for q in QUANTITIES},
         link_changes=none,
         status_changes=whole,
+        neighbor_device=np.zeros(0, object),
+        neighbor_port=np.zeros(0, object),
     )
 
 
@@ -273,6 +277,8 @@ def _windows_of_sorted(
         deltas=deltas,
         link_changes=summed(lc_rows),
         status_changes=summed(flips).astype(np.int64),
+        neighbor_device=p.neighbor_device[last],
+        neighbor_port=p.neighbor_port[last],
     )
 
 
