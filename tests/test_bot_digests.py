@@ -157,3 +157,21 @@ def test_a_digest_polls_the_devices_the_poll_job_missed(store: Store, model: Mod
     digest = triage.digests.digest(channel="C1")
     assert sorted(set(network.polled)) == sorted(network.device_names())
     assert digest.ports_judged > 0
+
+
+def test_a_link_read_from_both_ends_is_one_suspect_listed_at_the_end_that_sees_it(
+    triage: Triage,
+) -> None:
+    # Issue 12: port7 and the printer it feeds are one duplex mismatch (alone, the printer
+    # looks like a cable fault), lark-core1 up3 and lark-west-idf1 up1 one one-way fiber:
+    # each link is one line, under the end whose own verdict is the link's (the half-duplex
+    # end; the deaf receiver).
+    reply = triage.digests.suspects()
+    listed_ports = [f"{i.record['device']} {i.record['port']}" for i in reply.items]
+    assert len(listed_ports) == 7
+    assert "lark-east-idf2 port7" in listed_ports and "lark-circ-prn1 eth0" not in listed_ports
+    assert "lark-core1 up3" in listed_ports and "lark-west-idf1 up1" not in listed_ports
+    (one_way,) = [i for i in reply.items if i.record["port"] == "up3"]
+    assert one_way.reason.startswith(
+        "one-way link, seen from both ends (with lark-west-idf1 up1): lark-west-idf1 up1 sends"
+    )

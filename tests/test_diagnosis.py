@@ -191,11 +191,29 @@ def test_diagnosing_a_chunk_of_ports_at_a_time_gives_the_same_answers_in_order(
 ) -> None:
     root = Path(__file__).resolve().parent.parent / "fixtures" / "snapshots"
     table = read_snapshot_file(root / "demo-network.jsonl").polls
+    table.neighbor_device[:] = None  # a file without neighbors (version 1 lines)
+    table.neighbor_port[:] = None
     shuffled = table.take(np.random.default_rng(3).permutation(len(table)))  # lines in any order
     whole = list(diagnose(shuffled, model).records())
     chunks = list(diagnose_chunks(shuffled, model, ports=ports))
     assert len(chunks) == -(-len(whole) // ports)
     assert [r for batch in chunks for r in batch.records()] == whole
+
+
+@pytest.mark.parametrize("ports", [1, 7, 1000])
+def test_a_chunk_at_a_time_gives_each_port_its_whole_answer_far_end_included(
+    model: Model, ports: int
+) -> None:
+    # With neighbors, both ends of a link share a chunk, so an answer never loses its far
+    # end; a far end may come earlier than its own first line would place it.
+    root = Path(__file__).resolve().parent.parent / "fixtures" / "snapshots"
+    table = read_snapshot_file(root / "demo-network.jsonl").polls
+    shuffled = table.take(np.random.default_rng(3).permutation(len(table)))
+    whole = {(r["device"], r["port"]): r for r in diagnose(shuffled, model).records()}
+    chunked = [r for b in diagnose_chunks(shuffled, model, ports=ports) for r in b.records()]
+    assert len(chunked) == len(whole)
+    assert {(r["device"], r["port"]): r for r in chunked} == whole
+    assert sum("far_end" in r for r in chunked) == 10  # five demo links, both ends each
 
 
 def test_a_poll_that_lost_its_etherlike_table_costs_only_itself(model: Model) -> None:

@@ -586,3 +586,23 @@ def test_a_picture_slack_refuses_leaves_the_answer_standing(
     assert "the tree's path to unidirectional" in posted.params["text"]
     assert len(emulator.called("files.getUploadURLExternal")) == 1
     assert emulator.called("upload") == emulator.called("files.completeUploadExternal") == []
+
+
+def test_an_answer_shows_the_far_ends_view_in_its_thread_with_checks_naming_their_end(
+    bot: str, emulator: SlackEmulator
+) -> None:
+    # Issue 12: the label printer at the far end of port7 is read too (LLDP names it); the
+    # link is a duplex mismatch from both ends, and each check says where it is done.
+    slash(bot, emulator, "lark-east-idf2 port7")
+    first, why, _ = emulator.wait_for("chat.postMessage", 3)
+    assert "From both ends, duplex mismatch: lark-east-idf2 port7 runs half duplex" in _texts(
+        first.params["blocks"]
+    )
+    both = next(
+        b["text"]["text"]
+        for b in why.params["blocks"]
+        if b["type"] == "section" and b["text"]["text"].startswith("*Both ends*")
+    )
+    assert "far end lark-circ-prn1 eth0: " in both
+    assert "\u2192 at lark-east-idf2 port7: it is the auto-negotiating end left at half" in both
+    assert "\u2192 at lark-circ-prn1 eth0: if it is fixed at full duplex" in both

@@ -26,7 +26,7 @@ from linktriage.errors import ModelError
 from linktriage.evidence import EvidenceRecord, evidence_of, item
 from linktriage.features import FEATURE_KIND, FEATURE_NAMES, FeatureRows, feature_rows
 from linktriage.guards import apply_guards
-from linktriage.links import judge_link, pair_ends
+from linktriage.links import LinkView, judge_link, pair_ends
 from linktriage.measures import measure, speed_media_pairs
 from linktriage.model.artefact import CompiledTree, TreeArtefact
 from linktriage.model.explain import Explainer, QuestionRecord, rounded
@@ -333,7 +333,8 @@ class DiagnosisBatch:
         out = {}
         for i in paired:
             j = self.far[i]
-            view = judge_link(i, j, self.verdict, self.column, self.end_name)
+            view = self.link(i)
+            assert view is not None
             far_end: FarEndRecord = {
                 "device": self.device[j],
                 "port": self.port[j],
@@ -349,6 +350,18 @@ class DiagnosisBatch:
             }
             out[i] = (far_end, link)
         return out
+
+    def link(self, i: int) -> LinkView | None:
+        """The link of row ``i`` judged from both ends, None where its far end is not in
+        the batch."""
+        j = self.far[i]
+        return None if j < 0 else judge_link(i, j, self.verdict, self.column, self.end_name)
+
+    def link_verdict(self, i: int) -> Verdict:
+        """What row ``i``'s link is, from both ends where both are in the batch, else from
+        the port alone: what lists of suspects rank by."""
+        view = self.link(i)
+        return self.verdict[i] if view is None else view.verdict
 
     def end_name(self, i: int) -> str:
         """A port as the link's words name it: ``lark-core1 up3``."""

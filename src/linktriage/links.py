@@ -36,6 +36,13 @@ CHANNEL_LOSS_DB: dict[int, tuple[str, float]] = {
     1_000_000_000: ("1000BASE-LX", 4.5),
     10_000_000_000: ("10GBASE-LR", 6.2),
 }
+#: Why a fault one end sees need not show at the other (RFC 2863 and RFC 3635 counters
+#: belong to the interface that counts them).
+ONE_END_ONLY: dict[Verdict, str] = {
+    Verdict.CONGESTION: "discards are counted where a queue overflows, on one side of the link",
+    Verdict.NEGOTIATION_DEGRADED: "a port's speed is what its own negotiation settled on",
+    Verdict.DUPLEX_MISMATCH: "a port's duplex is its own setting",
+}
 #: Verdicts of an end with no window to read two-ended signs from.
 UNREAD = frozenset({Verdict.LINK_DOWN, Verdict.NO_DATA})
 #: Frames a second a direction must carry for its silence at the far end to mean a break.
@@ -46,6 +53,31 @@ def _short(name: str) -> str:
     return name.split(".", 1)[0].casefold()
 
 
+class PortMatcher:
+    """Finds the port a neighbor names among known ports (the module docstring says how)."""
+
+    def __init__(self, device: Sequence[str], port: Sequence[str]) -> None:
+        self.rows = {(d, p): i for i, (d, p) in enumerate(zip(device, port, strict=True))}
+        self.folded = {(d.casefold(), p.casefold()): i for (d, p), i in self.rows.items()}
+        self.by_label: dict[str, set[str]] = {}
+        for d in set(device):
+            self.by_label.setdefault(_short(d), set()).add(d)
+
+    def find(self, far: str, far_port: str) -> int:
+        """The row of the port named, or -1."""
+        exact = self.rows.get((far, far_port))
+        if exact is not None:
+            return exact
+        found = self.folded.get((far.casefold(), far_port.casefold()))
+        if found is not None:
+            return found
+        named = self.by_label.get(_short(far), set())
+        if len(named) == 1:
+            (only,) = named
+            return self.folded.get((only.casefold(), far_port.casefold()), -1)
+        return -1
+
+
 def pair_ends(
     device: Sequence[str],
     port: Sequence[str],
@@ -53,29 +85,11 @@ def pair_ends(
     neighbor_port: Sequence[str | None],
 ) -> npt.NDArray[np.intp]:
     """For each row, the row of the port at the other end of its link, or -1."""
-    rows = {(d, p): i for i, (d, p) in enumerate(zip(device, port, strict=True))}
-    folded = {(d.casefold(), p.casefold()): i for (d, p), i in rows.items()}
-    by_label: dict[str, set[str]] = {}
-    for d in set(device):
-        by_label.setdefault(_short(d), set()).add(d)
-
-    def find(far: str, far_port: str) -> int:
-        exact = rows.get((far, far_port))
-        if exact is not None:
-            return exact
-        found = folded.get((far.casefold(), far_port.casefold()))
-        if found is not None:
-            return found
-        named = by_label.get(_short(far), set())
-        if len(named) == 1:
-            (only,) = named
-            return folded.get((only.casefold(), far_port.casefold()), -1)
-        return -1
-
+    matcher = PortMatcher(device, port)
     named_far = np.full(len(device), -1, np.intp)
     for i, (far, far_port) in enumerate(zip(neighbor_device, neighbor_port, strict=True)):
         if far is not None and far_port is not None:
-            named_far[i] = find(far, far_port)
+            named_far[i] = matcher.find(far, far_port)
     far_end = np.full(len(device), -1, np.intp)
     for i, j in enumerate(named_far.tolist()):
         if j < 0 or j == i:
@@ -276,10 +290,9 @@ def _worse_end(ends: _Ends, losses: list[str]) -> LinkView:
     said = [f"{first} says {GUIDES[va].title}; {second} says {GUIDES[vb].title}", *losses]
     if va != vb and worst in FAULTS:
         seen_at = first if worst == va else second
-        said.append(
-            f"{GUIDES[worst].title} wins: each end counts only what it receives, so what "
-            f"{seen_at} sees cannot show at the other end"
-        )
+        why = ONE_END_ONLY.get(worst, "each end counts only what it receives")
+        title = GUIDES[worst].title
+        said.append(f"{title} wins: {why}, so what {seen_at} sees need not show at the other end")
     return ends.view(worst, said, [])
 
 

@@ -10,7 +10,7 @@ from dataclasses import dataclass, replace
 
 from linktriage.bot.answers import keep_answers
 from linktriage.bot.gathering import Gathering
-from linktriage.diagnosis import DiagnosisBatch, Model, diagnose, headline
+from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, Model, diagnose, headline
 from linktriage.errors import AmbiguousNameError, CommandError
 from linktriage.network.interface import Network, fitting
 from linktriage.render import words
@@ -70,7 +70,7 @@ class Digests:
             self.store, batch, ranked, records, found, at=self.clock(), origin=kind, channel=channel
         )
         items = [
-            SuspectItem(rank, record, diagnosis_id, headline(record))
+            SuspectItem(rank, record, diagnosis_id, reason(record))
             for rank, (record, diagnosis_id) in enumerate(zip(records, ids, strict=True), start=1)
         ]
         not_judged = Counter(batch.verdict[i].value for i in unjudged(batch))
@@ -143,17 +143,46 @@ def listed(items: list[SuspectItem]) -> list[dict[str, object]]:
 def ranked_suspects(batch: DiagnosisBatch) -> list[int]:
     """The rows of the suspect links, worst first. A suspect link is a port with a fault
     verdict (:data:`~linktriage.verdicts.FAULTS`): the one definition behind every list and
-    count of suspects (``suspects``, the digest, ``sweep``, ``demo``)."""
-    rows = [i for i, v in enumerate(batch.verdict) if v in FAULTS]
+    count of suspects (``suspects``, the digest, ``sweep``, ``demo``). Where both ends of a
+    link are in the batch, the link's verdict from both views decides, and the link is
+    listed once, under the end that sees the fault itself (the worse, then the first by
+    name)."""
+    verdicts = [batch.link_verdict(i) for i in range(len(batch))]
+    rows = [i for i, v in enumerate(verdicts) if v in FAULTS]
+    chosen = set(rows)
+    for i in rows:
+        j = batch.far[i]
+        if j >= 0 and j in chosen and i in chosen and _listed_end(batch, j) < _listed_end(batch, i):
+            chosen.discard(i)
     return sorted(
-        rows,
+        chosen,
         key=lambda i: (
-            -SEVERITY[batch.verdict[i]],
+            -SEVERITY[verdicts[i]],
             -batch.confidence[i],
             batch.device[i],
             batch.port[i],
         ),
     )
+
+
+def reason(record: DiagnosisRecord) -> str:
+    """Why a link is listed, in one line: from both ends where the far end was read."""
+    link, far = record.get("link"), record.get("far_end")
+    if link is None or far is None or not link["said"]:
+        return headline(record)
+    return words.link_reason(link["title"], far["device"], far["port"], link["said"][0])
+
+
+def _listed_end(batch: DiagnosisBatch, i: int) -> tuple[int, int, int, str, str]:
+    """Which end of a link lists it (smaller sorts first): the one whose own verdict is the
+    link's (the half-duplex end of a mismatch, whose printer alone looks like a cable
+    fault), then the one the link's first reason names, then the worse, then by name."""
+    own = batch.verdict[i]
+    view = batch.link(i)
+    agrees = view is not None and view.verdict == own
+    named = view is not None and view.said[0].startswith(batch.end_name(i))
+    severity = SEVERITY[own] if own in FAULTS else 0
+    return (0 if agrees else 1, 0 if named else 1, -severity, batch.device[i], batch.port[i])
 
 
 def unjudged(batch: DiagnosisBatch) -> list[int]:

@@ -17,6 +17,8 @@ import time
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 
+import numpy as np
+
 from linktriage.bot.answers import keep_answers
 from linktriage.bot.commands import (
     COMMAND,
@@ -35,7 +37,9 @@ from linktriage.bot.history import Histories
 from linktriage.bot.labelling import GroupMembers, Labelling
 from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
 from linktriage.errors import LinktriageError, PollError, StoreError
+from linktriage.links import PortMatcher
 from linktriage.network.interface import Network, PortRef
+from linktriage.polls import PollTable
 from linktriage.render import words
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import (
@@ -173,15 +177,35 @@ class Triage:
         return TreeReply(batch.record(row), batch.node[row], self.model.artefact)
 
     def _diagnosed(self, ref: PortRef) -> tuple[DiagnosisBatch, int]:
-        """The port's polls gathered and diagnosed: the batch and the port's row in it."""
+        """The port's polls gathered and diagnosed, with its far end's where LLDP names a
+        port this network reads: the batch and the port's row in it."""
         polls, failed = self.gathering.gather([ref])
         if failed:
             raise PollError(ref.device, failed[ref.device])
+        far = self._far_end(ref, polls)
+        if far is not None:
+            far_polls, far_failed = self.gathering.gather([far])
+            if not far_failed:  # a far end that cannot be read costs the answer nothing
+                polls = PollTable.concat([polls, far_polls])
         batch = diagnose(polls, self.model)
         row = batch.index_of(ref.device, ref.port)
         if row is None:
             raise PollError(ref.device, words.answered_without(ref.port))
         return batch, row
+
+    def _far_end(self, ref: PortRef, polls: PollTable) -> PortRef | None:
+        """The port at the other end of ``ref``'s link, as its latest poll's neighbor names
+        it, where the network reads that port."""
+        mine = np.flatnonzero((polls.device == ref.device) & (polls.port == ref.port))
+        if not len(mine):
+            return None
+        latest = mine[np.argmax(polls.time[mine])]
+        far, far_port = polls.neighbor_device[latest], polls.neighbor_port[latest]
+        if far is None or far_port is None:
+            return None
+        refs = self.network.ports()
+        found = PortMatcher([r.device for r in refs], [r.port for r in refs]).find(far, far_port)
+        return None if found < 0 else refs[found]
 
     def recheck(
         self, diagnosis_id: int, *, user: str | None = None, channel: str | None = None

@@ -28,18 +28,18 @@ def demo(model_path: Path | None) -> None:
 
     from linktriage.bot.digests import ranked_suspects, unjudged
     from linktriage.diagnosis import Model, diagnose
-    from linktriage.network.demo import ORGANISATION, PLANTED, demo_polls, demo_ports
+    from linktriage.network.demo import ORGANISATION, PLANTED, demo_polls
     from linktriage.render.text import explanation, table_rows
 
     loaded = Model.load(model_path)
-    ports = demo_ports()
     batch = diagnose(demo_polls(), loaded)
     suspects, quiet = ranked_suspects(batch), unjudged(batch)
     not_judged = Counter(batch.verdict[i].value for i in quiet)
-    healthy = len(batch) - len(suspects) - len(quiet)
-    devices = {p.device for p in ports}
-    click.echo(words.demo_intro(ORGANISATION, len(ports), len(devices), loaded.version))
-    click.echo(words.demo_needs_a_look(healthy, len(suspects), not_judged))
+    in_links = {j for i in suspects for j in (i, batch.far[i]) if j >= 0}
+    healthy = len(batch) - len(in_links) - len(quiet)
+    devices = len(set(batch.device))
+    click.echo(words.demo_intro(ORGANISATION, len(batch), devices, loaded.version))
+    click.echo(words.demo_needs_a_look(healthy, len(suspects), len(in_links), not_judged))
     click.echo("\n".join(table_rows(batch.records_many(suspects + quiet))))
     for planted in (p for p in PLANTED if p.planted in _DEMO_STORIES):
         row = batch.index_of(planted.device, planted.port)

@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 
 from linktriage.errors import PollError
@@ -143,6 +144,45 @@ PLANTED: tuple[DemoPort, ...] = (
     ),
 )
 
+#: Ports on devices other than switches, at the far end of a demo link.
+FAR_ENDS: tuple[DemoPort, ...] = (
+    DemoPort(
+        "central",
+        "lark-circ-prn1",
+        "eth0",
+        "label printer at the circulation desk, fixed at 100 Mb/s full duplex",
+        None,
+        # The full-duplex end of port7's mismatch: it receives frames cut short by the half
+        # end's collisions, as FCS errors and runts (IEEE 802.3 clause 4; common practice).
+        {**_COPPER_1G, "speed_bps": 100 * M, "max_speed_bps": 100 * M, "poe": 0.0,
+         "rx_ber": 4e-7, "runt_ratio": 2e-4, "rx_util": 0.05, "tx_util": 0.08},
+    ),
+)  # fmt: skip
+
+
+@dataclass(frozen=True, slots=True)
+class DemoLink:
+    """Two demo ports cabled to each other, each naming the other over LLDP; ``deaf`` is
+    the end that receives nothing of what the other sends (a broken direction)."""
+
+    a: tuple[str, str]
+    b: tuple[str, str]
+    deaf: tuple[str, str] | None = None
+
+
+LINKS: tuple[DemoLink, ...] = (
+    # The strand toward lark-east-idf1 has a damaged connector: its light arrives low.
+    DemoLink(("lark-core1", "up1"), ("lark-east-idf1", "up1")),
+    DemoLink(("lark-core1", "up2"), ("lark-east-idf2", "up1")),
+    # A one-way fiber: lark-core1 up3 hears nothing of what lark-west-idf1 sends.
+    DemoLink(("lark-core1", "up3"), ("lark-west-idf1", "up1"), deaf=("lark-core1", "up3")),
+    DemoLink(("lark-core1", "up5"), ("lark-annex-sw1", "up1")),
+    # The duplex mismatch: the switch port auto-negotiated to half, the printer is fixed.
+    DemoLink(("lark-east-idf2", "port7"), ("lark-circ-prn1", "eth0")),
+)
+#: The light a healthy fiber direction loses, connectors and patch cords included.
+HEALTHY_LOSS_DB = 1.5
+
 _ACCESS = {
     "lark-east-idf1": ("central", 24),
     "lark-east-idf2": ("central", 24),
@@ -201,23 +241,20 @@ class DemoNetwork(Network):
 
     def __init__(self, *, seed: int = DEFAULT_SEED, clock: Callable[[], float] = time.time) -> None:
         self.clock = clock
-        self._ports = demo_ports()
+        switches, others = demo_ports(), list(FAR_ENDS)
+        self._ports = switches + others
         self._refs = [PortRef(p.site, p.device, p.port, p.serves) for p in self._ports]
-        rng = np.random.default_rng(seed)
-        params = _parameters(self._ports, rng)
-        self.counters = LiveCounters(
-            params,
-            rng,
-            device=[p.device for p in self._ports],
-            port=[p.port for p in self._ports],
-            epoch=DEFAULT_START - _RUNNING_S,
-            seed=seed,
-            before=_before(self._ports, params),
-            onset=np.array(
-                [np.nan if p.since_s is None else DEFAULT_START - p.since_s for p in self._ports]
-            ),
-        )
+        # The switches and the devices at the far end of their links draw from streams of
+        # their own, so that adding a far end leaves every switch port's counters as they were.
+        rng, rng_far = np.random.default_rng(seed), np.random.default_rng(seed + 1)
+        params, params_far = _parameters(switches, rng), _parameters(others, rng_far)
+        _cabled(self._ports, params, params_far)
+        self.counters = _live(switches, params, rng, seed)
+        self.far_counters = _live(others, params_far, rng_far, seed + 1)
         self._rows = {(p.device, p.port): i for i, p in enumerate(self._ports)}
+        self._far = {self._rows[link.a]: link.b for link in LINKS} | {
+            self._rows[link.b]: link.a for link in LINKS
+        }
 
     @property
     def rates(self) -> dict[str, np.ndarray]:
@@ -235,11 +272,43 @@ class DemoNetwork(Network):
         if unknown:
             raise PollError(device, f"has no port {unknown[0]!r}")
         rows = np.array([self._rows[(device, name)] for name in names], np.intp)
-        return self.counters.at(rows, self.clock())
+        return self._read(rows, self.clock())
 
     def poll_all(self, at: float) -> PollTable:
         """Every port of the network, read at ``at``."""
-        return self.counters.at(np.arange(len(self._ports)), at)
+        return self._read(np.arange(len(self._ports)), at)
+
+    def _read(self, rows: npt.NDArray[np.intp], at: float) -> PollTable:
+        """The rows' counters at ``at`` (switch ports, then far ends), with neighbors."""
+        n = len(self.counters.device)
+        parts = [self.counters.at(rows[rows < n], at)]
+        if (rows >= n).any():
+            parts.append(self.far_counters.at(rows[rows >= n] - n, at))
+        order = np.concatenate([rows[rows < n], rows[rows >= n]])
+        return self._with_neighbors(PollTable.concat(parts), order)
+
+    def _with_neighbors(self, table: PollTable, rows: npt.NDArray[np.intp]) -> PollTable:
+        """The polls with each cabled port's far end, as its LLDP would name it."""
+        far = [self._far.get(int(row)) for row in rows]
+        table.neighbor_device = np.array([f and f[0] for f in far], dtype=object)
+        table.neighbor_port = np.array([f and f[1] for f in far], dtype=object)
+        return table
+
+
+def _live(
+    ports: list[DemoPort], params: pd.DataFrame, rng: np.random.Generator, seed: int
+) -> LiveCounters:
+    """Counters for ``ports`` that grow with time from their parameters."""
+    return LiveCounters(
+        params,
+        rng,
+        device=[p.device for p in ports],
+        port=[p.port for p in ports],
+        epoch=DEFAULT_START - _RUNNING_S,
+        seed=seed,
+        before=_before(ports, params),
+        onset=np.array([np.nan if p.since_s is None else DEFAULT_START - p.since_s for p in ports]),
+    )
 
 
 def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame:
@@ -263,6 +332,39 @@ def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame
         for key, value in port.overrides.items():
             params.loc[row, key] = value
     return params
+
+
+def _cabled(ports: list[DemoPort], params: pd.DataFrame, params_far: pd.DataFrame) -> None:
+    """Each link's two ends made to agree: what one end sends, the other receives (its
+    load, and its light less a healthy loss), except where a planted reading says
+    otherwise or the direction is broken. ``ports`` are the switches' then the far ends'."""
+    n = len(params)
+    tables = {k: (params, k) if k < n else (params_far, k - n) for k in range(len(ports))}
+    rows = {(p.device, p.port): k for k, p in enumerate(ports)}
+
+    def get(k: int, key: str) -> float:
+        table, row = tables[k]
+        return float(table[key].iloc[row])
+
+    def put(k: int, key: str, value: float) -> None:
+        table, row = tables[k]
+        table.at[row, key] = value
+
+    for link in LINKS:
+        a, b = rows[link.a], rows[link.b]
+        for tx, rx in ((a, b), (b, a)):
+            if link.deaf == (ports[rx].device, ports[rx].port):
+                continue
+            planted = ports[rx].overrides
+            if "rx_util" in planted:  # the planted receiver's reading stands: the sender sends it
+                put(tx, "tx_util", planted["rx_util"])
+                put(tx, "tx_frame_octets", get(rx, "rx_frame_octets"))
+            else:
+                put(rx, "rx_util", get(tx, "tx_util"))
+                put(rx, "rx_frame_octets", get(tx, "tx_frame_octets"))
+            light = get(tx, "tx_power_dbm") - HEALTHY_LOSS_DB
+            if "rx_margin_db" not in planted and light == light:  # not NaN: both read light
+                put(rx, "rx_margin_db", light - get(rx, "rx_alarm_dbm"))
 
 
 #: A clean line: what a port whose fault has a beginning read like before it.

@@ -180,6 +180,10 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
         head.append(_context(escape(reply.changed)))
     if r["evidence"]:
         head.append(_section(f"*{words.EVIDENCE}:* {escape(r['evidence'][0]['said'])}"))
+    link = r.get("link")
+    if link is not None and link["said"]:
+        both = words.link_summary(link["title"], link["said"][0])
+        head.append(_context(escape(both)))
     tail = [_label_actions(reply)]
     if reply.labels:
         tail.append(_context(_labels_line(reply)))
@@ -219,6 +223,7 @@ def diagnosis_thread(reply: DiagnosisReply) -> list[dict[str, Any]]:
     said = {e["said"] for e in r["evidence"]}
     if r["note"] and r["note"] not in said:
         why.append(_context(escape(r["note"])))
+    why += _both_ends(r)
     steps = _sections([f"\u2022 {escape(c)}" for c in r["next_checks"]], title=words.CHECK_NEXT)
     if r["cautions"]:
         steps += _sections([f":warning: {escape(c)}" for c in r["cautions"]], title=words.SAFETY)
@@ -228,6 +233,23 @@ def diagnosis_thread(reply: DiagnosisReply) -> list[dict[str, Any]]:
         _message(words.why_fallback(title), why),
         _message(words.steps_fallback(title), steps),
     ]
+
+
+def _both_ends(record: DiagnosisRecord) -> list[Block]:
+    """The far end's view and the link judged from both ends, with checks naming their
+    end; nothing where the far end was not read."""
+    far, link = record.get("far_end"), record.get("link")
+    if far is None or link is None:
+        return []
+    title = GUIDES[Verdict(far["verdict"])].title
+    lines = [
+        escape(words.far_end_line(far["device"], far["port"], title)),
+        *(f"\u2022 {escape(e['said'])}" for e in far["evidence"]),
+        escape(words.link_line(link["title"], record["title"], title)),
+        *(f"\u2022 {escape(said)}" for said in link["said"]),
+        *(f"\u2192 {escape(check)}" for check in link["checks"]),
+    ]
+    return _sections(lines, title=words.BOTH_ENDS)
 
 
 def _labels_line(reply: DiagnosisReply) -> str:

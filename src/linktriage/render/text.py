@@ -31,6 +31,7 @@ from linktriage.render.words import (
     nearest_line,
     ruled_out_line,
 )
+from linktriage.verdicts import GUIDES, Verdict
 from linktriage.wording import sig
 
 WIDTH = 88
@@ -100,6 +101,7 @@ def explanation(record: DiagnosisRecord) -> str:
     ber = record["bit_errors"]
     if ber is not None:
         lines += ["", *_wrapped(ber_line(ber), "", "")]
+    lines += _both_ends(record)
     lines += ["", words.CHECK_NEXT]
     for check in record["next_checks"]:
         lines += _wrapped(check, "  - ", "    ")
@@ -108,6 +110,24 @@ def explanation(record: DiagnosisRecord) -> str:
         for caution in record["cautions"]:
             lines += _wrapped(caution, "  ! ", "    ")
     return "\n".join(lines)
+
+
+def _both_ends(record: DiagnosisRecord) -> list[str]:
+    """The far end and the link, where the far end was in the same input."""
+    far, link = record.get("far_end"), record.get("link")
+    if far is None or link is None:
+        return []
+    title = GUIDES[Verdict(far["verdict"])].title
+    lines = ["", words.BOTH_ENDS]
+    lines += _wrapped(
+        words.far_end_line(printable(far["device"]), printable(far["port"]), title), "  ", "    "
+    )
+    lines += _wrapped(words.link_line(link["title"], record["title"], title), "  ", "    ")
+    for said in link["said"]:
+        lines += _wrapped(said, "  * ", "    ")
+    for check in link["checks"]:
+        lines += _wrapped(check, "  - ", "    ")
+    return lines
 
 
 def _when(at: float) -> str:

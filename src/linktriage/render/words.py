@@ -664,20 +664,25 @@ def tree_alt(device: str, port: str, verdict: str, questions: int) -> str:
 RULE = "=" * 88
 
 
-def demo_intro(organisation: str, ports: int, switches: int, model_version: str) -> str:
+def demo_intro(organisation: str, ports: int, devices: int, model_version: str) -> str:
     return (
         f"{organisation} (an invented organisation; simulated counters)\n"
-        f"{ports} ports on {switches} switches, two polls five minutes apart, "
-        f"model {model_version}\n"
+        f"{ports} ports on {devices} devices (switches and a printer), two polls five minutes "
+        f"apart, model {model_version}\n"
     )
 
 
-def demo_needs_a_look(healthy: int, suspects: int, not_judged: Mapping[str, int]) -> str:
-    """The demo's count, in the digest's terms: suspect links, and ports not judged."""
+def demo_needs_a_look(
+    healthy: int, suspects: int, suspect_ports: int, not_judged: Mapping[str, int]
+) -> str:
+    """The demo's count, in the digest's terms: suspect links (a link read from both ends
+    is one link of two ports), and ports not judged."""
     parts = [plural(suspects, "suspect link")]
+    if suspect_ports != suspects:
+        parts[0] += f" ({suspect_ports} ports: both ends of a link count once)"
     if any(not_judged.values()):
         parts.append(ports_not_judged(not_judged))
-    look = suspects + sum(not_judged.values())
+    look = suspect_ports + sum(not_judged.values())
     return f"{plural(healthy, 'port')} healthy; the other {look:,} need a look: {', '.join(parts)}:"
 
 
@@ -731,6 +736,35 @@ EVIDENCE = "Evidence"
 QUESTIONS_ASKED = "Questions asked"
 CHECK_NEXT = "Check next"
 CHECK_FIRST = "Check first"
+BOTH_ENDS = "Both ends"
+
+
+def far_end_line(device: str, port: str, title: str) -> str:
+    """The far end of the link and what it says of itself."""
+    return f"far end {device} {port}: {title}"
+
+
+def link_reason(title: str, far_device: str, far_port: str, said: str) -> str:
+    """A link in a list of suspects: its verdict from both ends, the far end, and why."""
+    return f"{title}, seen from both ends (with {far_device} {far_port}): {said}"
+
+
+def link_summary(title: str, said: str) -> str:
+    """The link's verdict from both ends in one line, for an answer's first screen."""
+    return f"From both ends, {title}: {said}"
+
+
+def link_line(title: str, near: str, far: str) -> str:
+    """The link's verdict from both ends, and what an end alone said where it differs
+    (``near`` and ``far`` are each end's own verdict in words)."""
+    if near == title == far:
+        return f"the link: {title}, as both ends say alone"
+    if near != title and far != title:
+        return f"the link: {title} (alone, this port says {near} and the far end {far})"
+    other = f"this port alone says {near}" if near != title else f"the far end alone says {far}"
+    return f"the link: {title} ({other})"
+
+
 MORE_IN_THREAD = "Why, the questions asked, every check and every caution: in this thread."
 SAFETY = "Safety"
 TABLE_HEADER = ("DEVICE", "PORT", "VERDICT", "CONF", "WINDOW", "EVIDENCE")
