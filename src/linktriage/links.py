@@ -85,12 +85,14 @@ def pair_ends(
     neighbor_port: Sequence[str | None],
 ) -> npt.NDArray[np.intp]:
     """For each row, the row of the port at the other end of its link, or -1."""
+    far_end = np.full(len(device), -1, np.intp)
+    if all(d is None for d in neighbor_device):
+        return far_end  # version 1 lines: no link to look for
     matcher = PortMatcher(device, port)
     named_far = np.full(len(device), -1, np.intp)
     for i, (far, far_port) in enumerate(zip(neighbor_device, neighbor_port, strict=True)):
         if far is not None and far_port is not None:
             named_far[i] = matcher.find(far, far_port)
-    far_end = np.full(len(device), -1, np.intp)
     for i, j in enumerate(named_far.tolist()):
         if j < 0 or j == i:
             continue
