@@ -182,6 +182,15 @@ _CABLE_FIBER = (
     _check("Check received power against the module's thresholds at both ends."),
 )
 
+_ONE_WAY_FAR_END = _check(
+    "Look at the far end: a one-way link usually shows there as receive-only or transmit-only too."
+)
+_ONE_WAY_OUT_OF_FORWARDING = _check(
+    "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
+    "loops and black holes.",
+    Touch.CONFIGURE,
+)
+
 GUIDES: dict[Verdict, Guide] = {
     Verdict.HEALTHY: Guide(
         "healthy",
@@ -298,15 +307,8 @@ GUIDES: dict[Verdict, Guide] = {
                 "Swap the patch cord, then test each pair of the cable run.",
                 Touch.UNPLUG,
             ),
-            _check(
-                "Look at the far end: a one-way link usually shows there as receive-only or "
-                "transmit-only too."
-            ),
-            _check(
-                "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
-                "loops and black holes.",
-                Touch.CONFIGURE,
-            ),
+            _ONE_WAY_FAR_END,
+            _ONE_WAY_OUT_OF_FORWARDING,
         ),
         (
             _check(
@@ -315,15 +317,8 @@ GUIDES: dict[Verdict, Guide] = {
                 Touch.UNPLUG,
                 Touch.FIBER_END,
             ),
-            _check(
-                "Look at the far end: a one-way link usually shows there as receive-only or "
-                "transmit-only too."
-            ),
-            _check(
-                "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
-                "loops and black holes.",
-                Touch.CONFIGURE,
-            ),
+            _ONE_WAY_FAR_END,
+            _ONE_WAY_OUT_OF_FORWARDING,
         ),
     ),
     Verdict.CONGESTION: Guide(

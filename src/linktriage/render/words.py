@@ -602,7 +602,7 @@ def run_line(verdict: str, start: float, end: float, windows: int) -> str:
 
 
 def history_fallback(device: str, port: str, summary: str) -> str:
-    return f"{device} {port}: {summary}"
+    return port_said(device, port, summary)
 
 
 # --- the tree's picture
