@@ -207,7 +207,8 @@ def _one_way(ends: _Ends) -> LinkView | None:
 
 def _light_lost(ends: _Ends) -> tuple[list[str], list[tuple[int, int]]]:
     """The light each direction loses (far end's transmit power minus near end's received
-    power), in words, and the directions that lose more than any PMD of the speed allows."""
+    power), in words, a lossy direction first, and the directions that lose more than any
+    PMD of the speed allows."""
     rx_dbm, tx_dbm = ends.column("rx_dbm"), ends.column("tx_dbm")
     speed = ends.column("speed_bps")[ends.a]
     allowed = CHANNEL_LOSS_DB.get(int(speed)) if _known(speed) else None
@@ -224,6 +225,8 @@ def _light_lost(ends: _Ends) -> tuple[list[str], list[tuple[int, int]]]:
             line += f" ({'over' if over else 'within'} the {sig(most)} dB a {pmd} channel allows)"
             if over:
                 lossy.append((tx, rx))
+                said.insert(0, line)
+                continue
         said.append(line)
     return said, lossy
 

@@ -63,6 +63,8 @@ PLANTED: tuple[DemoPort, ...] = (
             **_COPPER_1G,
             "poe": 1.0,
             "rx_util": 0.1,
+            "tx_util": 0.04,  # a desk's phone and PC: light load both ways
+            "in_discard_ratio": 0.0,
             "rx_ber": 2e-8,
             "link_changes": 8.0,
             "runt_ratio": 1e-10,
