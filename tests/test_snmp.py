@@ -1,5 +1,6 @@
 """The SNMP collector against real agents on loopback: net-snmp's snmpd (v2c and v3) for
-the machine's own interfaces, and snmpsim serving a recorded 48-port switch."""
+the machine's own interfaces, and snmpsim serving a recorded 48-port switch, with and
+without LLDP's tables."""
 
 from __future__ import annotations
 
@@ -15,6 +16,7 @@ from linktriage.counters import COLUMN_INDEX
 from linktriage.errors import CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector
+from linktriage.snapshot import Neighbor
 from linktriage.verdicts import Verdict
 
 from agents.fleet import Fleet
@@ -24,8 +26,12 @@ from agents.snmp import (
     V3_AUTH,
     V3_PRIV,
     V3_USER,
+    Remote,
     Snmpd,
     Snmpsim,
+    by_oid,
+    lldp_v2_walk,
+    lldp_walk,
     recorded_walk,
 )
 from helpers import read_once
@@ -130,6 +136,7 @@ def test_a_recorded_48_port_switch_reads_back_exactly(
                 expected if name.startswith("ifHC") else expected % 2**32
             )
         assert snap.duplex == "full" and snap.mtu == 1500
+        assert snap.neighbor is None  # the recording has no LLDP tables
 
 
 def test_only_the_ports_asked_for(switch48: Snmpsim, monkeypatch: pytest.MonkeyPatch) -> None:
@@ -138,6 +145,87 @@ def test_only_the_ports_asked_for(switch48: Snmpsim, monkeypatch: pytest.MonkeyP
         collector(switch48.port, {"community": {"env": "LARK48_COMMUNITY"}}), ["port3", "port40"]
     )
     assert [s.port for s in reading.snapshots] == ["port3", "port40"]
+
+
+#: What the 48-port switch heard on its ports, as LLDP-MIB's lldpRemTable holds it. Its
+#: local port numbers are bridge port numbers (LLDP-MIB LldpPortNumber: a bridge numbers
+#: ports as dot1dBasePort), 100 above the ifIndex, so only lldpLocPortTable tells which
+#: port each is; port20's number has no row there and is taken for its ifIndex.
+MAC_OF_AP3 = bytes.fromhex("02005e100003")  # a port id of subtype macAddress(3): 6 octets
+HEARD = [
+    Remote(101, "lark-core1", 5, "xe-0/0/1", desc="to lark-lab-sw1"),  # interfaceName(5)
+    Remote(102, "lark-lab-ap3", 3, MAC_OF_AP3, desc="eth0"),  # macAddress(3): the desc names it
+    Remote(107, "lark-lab-sw2", 7, "24"),  # local(7), printable
+    Remote(110, "lark-lab-cam1", 3, bytes.fromhex("02005e100010")),  # a MAC and no desc
+    Remote(112, "lark-lab-phone4", 5, "lan", index=1),  # two far ends on one port
+    Remote(112, "lark-lab-pc9", 5, "eno1", index=2),
+    Remote(114, "lark-lab-sw3", 5, "ge-0/0/47", time_mark=0),  # one far end, two time marks
+    Remote(114, "lark-lab-sw3", 5, "ge-0/0/47", time_mark=4521),
+    Remote(20, "lark-lab-printer2", 5, "lan0"),  # no lldpLocPortTable row: ifIndex 20
+    Remote(160, "lark-lab-ghost", 5, "x1"),  # no row, and no ifIndex 160
+]
+#: lldpLocPortTable: the id is the ifName (interfaceName(5)), except port7's, a MAC
+#: address, whose description is its ifDescr as LLDP-MIB lldpLocPortDesc says it should be.
+LOCAL = {100 + i: (5, f"port{i}", f"port{i}") for i in range(1, 49) if i not in (7, 20)} | {
+    107: (3, bytes.fromhex("02005e1000a7"), "Ethernet Interface 7")
+}
+
+
+@pytest.fixture(scope="module")
+def lldp_switches(tmp_path_factory: pytest.TempPathFactory, fleet: Fleet) -> Iterator[Snmpsim]:
+    """The 48-port switch with LLDP-MIB's tables (community lark-lldp), and with
+    LLDP-V2-MIB's beside them (lark-lldp2); port7's ifDescr differs from its ifName."""
+    walk = [
+        f"{IF_ENTRY}.2.7|4|Ethernet Interface 7" if line.startswith(f"{IF_ENTRY}.2.7|") else line
+        for line in recorded_walk(fleet, "sw0001", RECORDED_AT)
+    ]
+    v1 = by_oid(walk + lldp_walk(HEARD, LOCAL))
+    # LLDP-V2-MIB indexes by the ifIndex itself (lldpV2RemLocalIfIndex).
+    v2 = lldp_v2_walk(
+        [Remote(3, "lark-core2", 5, "et-0/0/3"), Remote(5, "lark-core2", 5, "et-0/0/5")]
+    )
+    agent = Snmpsim(
+        tmp_path_factory.mktemp("lldp"), v1, community="lark-lldp",
+        more={"lark-lldp2": "\n".join(by_oid(v1 + v2)) + "\n"},
+    )  # fmt: skip
+    yield agent
+    agent.stop()
+
+
+def neighbors_of(
+    agent: Snmpsim, community: str, monkeypatch: pytest.MonkeyPatch
+) -> dict[str, Neighbor]:
+    monkeypatch.setenv("LARK_LLDP_COMMUNITY", community)
+    reading = read_once(collector(agent.port, {"community": {"env": "LARK_LLDP_COMMUNITY"}}))
+    assert reading.problems == {} and len(reading.snapshots) == 48
+    return {s.port: s.neighbor for s in reading.snapshots if s.neighbor is not None}
+
+
+def test_lldp_mib_neighbors_land_on_the_ports_the_local_port_table_names(
+    lldp_switches: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    assert neighbors_of(lldp_switches, "lark-lldp", monkeypatch) == {
+        # lldpLocPortId 101 is "port1" (interfaceName): the far end's id is its ifName.
+        "port1": Neighbor(device="lark-core1", port="xe-0/0/1"),
+        # A far end naming its port by MAC address: lldpRemPortDesc names it (SNAPSHOT-FORMAT 1.1).
+        "port2": Neighbor(device="lark-lab-ap3", port="eth0"),
+        # Local port 107 has a MAC id; its lldpLocPortDesc is port7's ifDescr.
+        "port7": Neighbor(device="lark-lab-sw2", port="24"),
+        # Two time marks of one far end (lldpRemTimeMark, RFC 2021 TimeFilter) are one neighbor.
+        "port14": Neighbor(device="lark-lab-sw3", port="ge-0/0/47"),
+        # No lldpLocPortTable row for 20: LldpPortNumber is the ifIndex (not a bridge).
+        "port20": Neighbor(device="lark-lab-printer2", port="lan0"),
+    }  # port10 (a MAC and no description) and port12 (two far ends) name none
+
+
+def test_lldp_v2_mib_is_read_where_the_device_answers_it(
+    lldp_switches: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # LLDP-V2-MIB (IEEE 802.1AB-2009) indexes its remote table by ifIndex: ifIndex 3 is port3.
+    assert neighbors_of(lldp_switches, "lark-lldp2", monkeypatch) == {
+        "port3": Neighbor(device="lark-core2", port="et-0/0/3"),
+        "port5": Neighbor(device="lark-core2", port="et-0/0/5"),
+    }
 
 
 def test_an_older_switch_answers_with_counter32_and_a_bad_value_spoils_only_its_port(

@@ -1,0 +1,117 @@
+"""The far end of a link as LLDP reports it (IEEE 802.1AB), read the same way by every
+collector: which port ids name a port, MAC addresses written out, one neighbor per port.
+
+A remote entry (LLDP-MIB lldpRemEntry, LLDP-V2-MIB lldpV2RemEntry, ieee802-dot1ab-lldp
+remote-systems-data, or the SNMP exporter's series of them) gives the far end's system name,
+a port id with the subtype that says what the id is, and a port description. The snapshot
+format names the far port by the id where the id is a name, and by the description where
+the id is a MAC address; an id of any other kind falls back to the description too.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+from linktriage.snapshot import Neighbor
+
+#: LldpPortIdSubtype (LLDP-MIB, IEEE 802.1AB-2005 12.1; the same numbers in LLDP-V2-TC-MIB
+#: of IEEE 802.1AB-2009 and in ieee802-types' port-id-subtype-type, whose names these are).
+PORT_ID_SUBTYPES = {
+    "interface-alias": 1,  # ifAlias (RFC 2863)
+    "port-component": 2,  # entPhysicalAlias (RFC 2737)
+    "mac-address": 3,
+    "network-address": 4,  # an IANA address family octet, then the address
+    "interface-name": 5,  # ifName (RFC 2863)
+    "agent-circuit-id": 6,  # RFC 3046
+    "local": 7,
+}
+MAC_ADDRESS = PORT_ID_SUBTYPES["mac-address"]
+#: Subtypes whose id is a name when it is printable text: ifName, ifAlias, entPhysicalAlias,
+#: and a locally assigned id (which may also be a binary port number).
+NAMED_BY = {PORT_ID_SUBTYPES[kind] for kind in ("interface-name", "interface-alias",
+                                               "port-component", "local")}  # fmt: skip
+#: A MAC address written as text: six octets in hex, colon, hyphen (IEEE 802 canonical
+#: form, ieee802-types mac-address) or nothing between them.
+_MAC_TEXT = re.compile(r"^[0-9A-Fa-f]{2}([:-]?)(?:[0-9A-Fa-f]{2}\1){4}[0-9A-Fa-f]{2}$")
+
+
+def mac_address(octets: bytes) -> str:
+    """Six octets (network byte order, LLDP-MIB LldpPortId) as aa:bb:cc:dd:ee:ff."""
+    return ":".join(f"{octet:02x}" for octet in octets)
+
+
+def _text(value: bytes | str) -> str | None:
+    """An id as printable text, or None where it is not text (binary octets)."""
+    if isinstance(value, bytes):
+        try:
+            value = value.decode("utf-8")
+        except UnicodeDecodeError:
+            return None
+    value = value.rstrip("\x00").strip()  # some agents end DisplayStrings with a NUL
+    return value if value and value.isprintable() else None
+
+
+@dataclass(frozen=True, slots=True)
+class FarEnd:
+    """One remote entry as read: the id is kept as the device gave it, a MAC address
+    written aa:bb:cc:dd:ee:ff, so a record of it reads the same whatever carried it."""
+
+    system_name: str
+    port_id: str
+    subtype: int | None
+    port_desc: str
+    id_is_name: bool
+
+    @property
+    def port(self) -> str | None:
+        """The far port's name: the id where it is a name, else the description."""
+        return self.port_id if self.id_is_name else (self.port_desc or None)
+
+
+def far_end(
+    system_name: bytes | str | None,
+    subtype: int | str | None,
+    port_id: bytes | str | None,
+    port_desc: bytes | str | None,
+) -> FarEnd:
+    """A remote entry from its four values, however the protocol carried them: octets
+    (SNMP) or text (YANG strings, exporter labels), the subtype as a number or a YANG enum
+    name. Without a subtype (an exporter told not to publish it), an id that reads as a
+    MAC address is taken for one, and other text for a name."""
+    kind = PORT_ID_SUBTYPES.get(subtype) if isinstance(subtype, str) else subtype
+    raw = b"" if port_id is None else port_id
+    text = _text(raw)
+    if kind is None and text is not None and _MAC_TEXT.match(text):
+        kind = MAC_ADDRESS
+    if kind == MAC_ADDRESS:
+        shown, named = _mac(raw, text), False
+    else:
+        shown = text if text is not None else (raw.hex() if isinstance(raw, bytes) else raw)
+        named = text is not None and (kind is None or kind in NAMED_BY)
+    return FarEnd(_text(system_name or "") or "", shown, kind, _text(port_desc or "") or "", named)
+
+
+def _mac(raw: bytes | str, text: str | None) -> str:
+    """A MAC address id written aa:bb:cc:dd:ee:ff, from octets or from any hex text form;
+    an id that is neither is kept as it came (hex for octets)."""
+    if isinstance(raw, bytes) and len(raw) == 6:
+        return mac_address(raw)
+    digits = re.sub(r"[^0-9A-Fa-f]", "", text or "")
+    if text is not None and _MAC_TEXT.match(text):
+        return mac_address(bytes.fromhex(digits))
+    return raw.hex() if isinstance(raw, bytes) else raw
+
+
+def neighbor(ends: Iterable[FarEnd]) -> Neighbor | None:
+    """The one neighbor a local port hears: None where no entry names both a system and a
+    port, or where entries name different ones (a hub, or a phone with a computer behind
+    it: no single far end to pair this port with). Repeats of one far end (one per time
+    mark, or per destination address in LLDP-V2-MIB) are one neighbor."""
+    named = {(end.system_name, end.port) for end in ends if end.system_name and end.port}
+    if len(named) != 1:
+        return None
+    ((device, port),) = named
+    assert port is not None
+    return Neighbor(device=device, port=port)
