@@ -11,20 +11,32 @@ gauge64 speed) arrive as strings, 32-bit ones as numbers; member names may carry
 module's prefix. Statistics map to the IF-MIB objects RFC 8343 section 4 names
 (in-octets: ifHCInOctets, in-errors: ifInErrors, ...). TLS certificates are verified
 unless the inventory says otherwise; credentials (basic or a bearer token) are references.
+
+Beside it, in the same family of standard models, each port's far end comes from IEEE's
+LLDP module, ieee802-dot1ab-lldp (IEEE 802.1ABcu; ``lldp/port[name][dest-mac-address]/
+remote-systems-data``), asked for at the same time::
+
+    GET {scheme}://{address}{root}/data/ieee802-dot1ab-lldp:lldp?content=nonconfig
+
+Its ports are named by ``if:interface-ref``, so they are the ietf-interfaces names
+themselves. A device without the module (404), or one whose answer cannot be read, still
+gives its counters, with no neighbors.
 """
 
 from __future__ import annotations
 
+import asyncio
 from collections.abc import Sequence
 from datetime import UTC, datetime
 from typing import Any, Literal
 
 from pydantic import ValidationError
 
-from linktriage.errors import BadAnswerError
+from linktriage.errors import BadAnswerError, CollectorError
 from linktriage.network.collectors.base import Collector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
-from linktriage.snapshot import Snapshot
+from linktriage.network.collectors.lldp import FarEnd, far_end, neighbor
+from linktriage.snapshot import Neighbor, Snapshot
 
 #: RFC 8343 statistics leaves and the IF-MIB counters they are (RFC 8343 section 4).
 STATISTICS = {
@@ -84,10 +96,34 @@ def _counter(value: Any) -> int:
     raise ValueError(f"{value!r} is not a counter")
 
 
+def lldp_neighbors(document: Any) -> dict[str, Neighbor]:
+    """The neighbor of each port an ieee802-dot1ab-lldp document names (port name ->
+    neighbor): its remote-systems-data entries' system-name, and port-id by its
+    port-id-subtype, or port-desc (ieee802-types port-id-subtype-type). A port is listed
+    once per destination address it runs LLDP for; all of its entries are one port's."""
+    ports = _members(_members(document).get("lldp")).get("port")
+    heard: dict[str, list[FarEnd]] = {}
+    for raw in ports if isinstance(ports, list) else []:
+        entry = _members(raw)
+        name, remote = entry.get("name"), entry.get("remote-systems-data")
+        if not isinstance(name, str) or not isinstance(remote, list):
+            continue
+        for far in map(_members, remote):
+            values = [
+                far.get(leaf) for leaf in ("system-name", "port-id-subtype", "port-id", "port-desc")
+            ]
+            if all(value is None or isinstance(value, str) for value in values):
+                heard.setdefault(name, []).append(far_end(*values))
+    found = {name: neighbor(ends) for name, ends in heard.items()}
+    return {name: far for name, far in found.items() if far is not None}
+
+
 def interfaces_to_snapshots(
-    document: Any, device: str, at: datetime
+    document: Any, device: str, at: datetime, neighbors: dict[str, Neighbor] | None = None
 ) -> tuple[list[Snapshot], dict[str, str]]:
-    """Snapshots of every interface in an ietf-interfaces document, and per-port problems."""
+    """Snapshots of every interface in an ietf-interfaces document, with each port's
+    neighbor (port name -> neighbor), and per-port problems."""
+    neighbors = neighbors or {}
     top = _members(document).get("interfaces")
     interfaces = _members(top).get("interface")
     if not isinstance(interfaces, list):
@@ -117,6 +153,7 @@ def interfaces_to_snapshots(
                     counters=counters,
                     speed_bps=None if speed is None else _counter(speed),
                     discontinuity_time=statistics.get("discontinuity-time"),
+                    neighbor=neighbors.get(name),
                 )
             )
         except (ValueError, ValidationError) as exc:
@@ -132,12 +169,10 @@ class RestconfCollector(Collector[RestconfOptions]):
         o = self.options
         port = f":{o.port}" if o.port else ""
         host = f"[{target.address}]" if target.address and ":" in target.address else target.address
-        path = (
-            "/data/ietf-interfaces:interfaces"
-            if o.datastore == "data"
-            else "/ds/ietf-datastores:operational/ietf-interfaces:interfaces"
-        )
-        self.url = f"{o.scheme}://{host}{port}{o.root.rstrip('/')}{path}"
+        data = "/data/" if o.datastore == "data" else "/ds/ietf-datastores:operational/"
+        base = f"{o.scheme}://{host}{port}{o.root.rstrip('/')}{data}"
+        self.url = base + "ietf-interfaces:interfaces"
+        self.lldp_url = base + "ieee802-dot1ab-lldp:lldp"
         self.params = {"content": "nonconfig"} if o.datastore == "data" else {}
         self.http = HttpSession(self, o, MEDIA_TYPE)
 
@@ -150,11 +185,25 @@ class RestconfCollector(Collector[RestconfOptions]):
     async def ports(self) -> list[str]:
         return [s.port for s in (await self.read()).snapshots]
 
+    async def _neighbors(self) -> dict[str, Neighbor]:
+        """Each port's neighbor; none where the device has no LLDP module or its answer
+        cannot be read: the counters do not depend on it."""
+        try:
+            return lldp_neighbors(await self.http.get_json(self.lldp_url, self.params))
+        except CollectorError:
+            return {}
+
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
-        document = await self._get()
+        lldp = asyncio.create_task(self._neighbors())  # asked at once, beside the counters
+        try:
+            document = await self._get()
+        except BaseException:
+            lldp.cancel()
+            raise
+        neighbors = await lldp
         try:
             snapshots, problems = interfaces_to_snapshots(
-                document, self.target.name, datetime.now(UTC)
+                document, self.target.name, datetime.now(UTC), neighbors
             )
         except ValueError as exc:
             raise self.error(BadAnswerError, f"answered without interface data: {exc}") from exc
