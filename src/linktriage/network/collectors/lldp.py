@@ -1,5 +1,6 @@
 """The far end of a link as LLDP reports it (IEEE 802.1AB), read the same way by every
-collector: which port ids name a port, MAC addresses written out, one neighbor per port.
+collector: which port ids name a port, MAC addresses written out, one neighbor per port,
+and LLDP-MIB's local port numbers matched to interfaces.
 
 A remote entry (LLDP-MIB lldpRemEntry, LLDP-V2-MIB lldpV2RemEntry, ieee802-dot1ab-lldp
 remote-systems-data, or the SNMP exporter's series of them) gives the far end's system name,
@@ -13,6 +14,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable
 from dataclasses import dataclass
+from typing import Any
 
 from linktriage.snapshot import Neighbor
 
@@ -115,3 +117,35 @@ def neighbor(ends: Iterable[FarEnd]) -> Neighbor | None:
     ((device, port),) = named
     assert port is not None
     return Neighbor(device=device, port=port)
+
+
+def local_ports(
+    numbers: Iterable[int],
+    local: dict[int, FarEnd],
+    names: dict[int, Any],
+    descriptions: dict[int, Any],
+) -> dict[int, int]:
+    """LLDP-MIB's local port numbers as ifIndex (lldpRemLocalPortNum -> ifIndex).
+
+    An LldpPortNumber "has no mandatory relationship to an InterfaceIndex" (LLDP-MIB): a
+    bridge numbers its ports as dot1dBasePort. So a port is matched through its
+    lldpLocPortTable row (``local``, read as :func:`far_end` reads a remote entry): by
+    lldpLocPortId against ifName, then by lldpLocPortDesc against ifDescr (which the MIB
+    says it should equal). Only a port number the device gives nothing better for (no row,
+    or a row with neither a name for an id nor a description) is taken for an ifIndex, as
+    the MIB has it for a system that is not a bridge. A row whose id and description match
+    no interface names no neighbor rather than a guessed one.
+    """
+    by_name = {str(name): index for index, name in names.items()}
+    by_description = {str(text): index for index, text in descriptions.items()}
+    known = set(names) | set(descriptions)
+    mapped: dict[int, int] = {}
+    for number in numbers:
+        port = local.get(number)
+        if port is not None and port.id_is_name and port.port_id in by_name:
+            mapped[number] = by_name[port.port_id]
+        elif port is not None and port.port_desc in by_description:
+            mapped[number] = by_description[port.port_desc]
+        elif (port is None or not (port.id_is_name or port.port_desc)) and number in known:
+            mapped[number] = number
+    return mapped

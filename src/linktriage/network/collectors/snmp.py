@@ -10,16 +10,17 @@ cannot travel over it (RFC 3584 section 4.2.2.1).
 
 The far end of each port comes from LLDP's remote table: LLDP-V2-MIB's (IEEE 802.1AB-2009)
 where the device answers it, indexed by the local ifIndex itself, else LLDP-MIB's
-(IEEE 802.1AB-2005), whose local port numbers are matched to ports as
-:func:`local_ports` says. The system names are walked with the counters; the rest of the
-table only where a device has some, so a device without LLDP costs two short walks.
+(IEEE 802.1AB-2005), whose local port numbers are matched to ports through
+lldpLocPortTable (:func:`~linktriage.network.collectors.lldp.local_ports`). The system
+names are walked with the counters, the rest of the table only where a device has some:
+a device without LLDP costs two short walks.
 """
 
 from __future__ import annotations
 
 import asyncio
 import time
-from collections.abc import Awaitable, Callable, Iterable, Sequence
+from collections.abc import Awaitable, Callable, Sequence
 from datetime import UTC, datetime
 from typing import Annotated, Any, Literal
 
@@ -27,7 +28,7 @@ from pydantic import Field
 
 from linktriage.errors import BadAnswerError, CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Collector, Options, Reading, SecretRef, Target
-from linktriage.network.collectors.lldp import FarEnd, far_end, neighbor
+from linktriage.network.collectors.lldp import FarEnd, far_end, local_ports, neighbor
 from linktriage.snapshot import Neighbor, Snapshot
 
 IF_ENTRY = "1.3.6.1.2.1.2.2.1"
@@ -180,38 +181,6 @@ def snapshots_from_columns(
 
 
 Row = tuple[int, ...]  # a table row's index: the OID's sub-identifiers after the column
-
-
-def local_ports(
-    numbers: Iterable[int],
-    local: dict[int, FarEnd],
-    names: dict[int, Any],
-    descriptions: dict[int, Any],
-) -> dict[int, int]:
-    """LLDP-MIB's local port numbers as ifIndex (lldpRemLocalPortNum -> ifIndex).
-
-    An LldpPortNumber "has no mandatory relationship to an InterfaceIndex" (LLDP-MIB): a
-    bridge numbers its ports as dot1dBasePort. So a port is matched through its
-    lldpLocPortTable row (``local``): by lldpLocPortId against ifName, then by
-    lldpLocPortDesc against ifDescr (which the MIB says it should equal). Only a port number
-    the device gives nothing better for (no row, or a row with neither a name for an id nor
-    a description) is taken for an ifIndex, as the MIB has it for a system that is not a
-    bridge. A row whose id and description match no interface names no neighbor rather
-    than a guessed one.
-    """
-    by_name = {str(name): index for index, name in names.items()}
-    by_description = {str(text): index for index, text in descriptions.items()}
-    known = set(names) | set(descriptions)
-    mapped: dict[int, int] = {}
-    for number in numbers:
-        port = local.get(number)
-        if port is not None and port.id_is_name and port.port_id in by_name:
-            mapped[number] = by_name[port.port_id]
-        elif port is not None and port.port_desc in by_description:
-            mapped[number] = by_description[port.port_desc]
-        elif (port is None or not (port.id_is_name or port.port_desc)) and number in known:
-            mapped[number] = number
-    return mapped
 
 
 def lldp_neighbors(remote: dict[Row, FarEnd], local_port: dict[int, int]) -> dict[int, Neighbor]:
