@@ -78,6 +78,33 @@ def test_the_collector_reads_what_snmpbulkwalk_reads(
         assert "ifInErrors" in snap.counters
 
 
+def test_snmpd_serving_lldp_mib_gives_the_loopback_its_neighbor(
+    snmpd: Snmpd, community: dict[str, object], tmp_path: Path
+) -> None:
+    # net-snmp has no LLDP-MIB of its own: a pass_persist program serves the tables
+    # (snmpd.conf(5)); the interfaces are this machine's own.
+    assert "lo" in snmpd.walk(f"{IFX_ENTRY}.1").values()
+    rem, loc = "1.0.8802.1.1.2.1.4.1.1", "1.0.8802.1.1.2.1.3.7.1"  # LLDP-MIB, 802.1AB-2005
+    row = "0.1001.1"  # lldpRemTimeMark 0, lldpRemLocalPortNum 1001 (not an ifIndex), index 1
+    lldp = {
+        f"{loc}.2.1001": ("integer", "5"),  # lldpLocPortIdSubtype: interfaceName(5)
+        f"{loc}.3.1001": ("string", "lo"),  # lldpLocPortId: port 1001 is lo
+        f"{loc}.4.1001": ("string", "loopback"),  # lldpLocPortDesc
+        f"{rem}.6.{row}": ("integer", "3"),  # lldpRemPortIdSubtype: macAddress(3)
+        f"{rem}.7.{row}": ("octet", "02 00 5e 10 00 03"),  # lldpRemPortId, six octets
+        f"{rem}.8.{row}": ("string", "eth0"),  # lldpRemPortDesc
+        f"{rem}.9.{row}": ("string", "lark-lab-ap3"),  # lldpRemSysName
+    }
+    agent = Snmpd(tmp_path, lldp=lldp)
+    try:
+        reading = read_once(collector(agent.port, community))
+    finally:
+        agent.stop()
+    neighbors = {s.port: s.neighbor for s in reading.snapshots}
+    assert neighbors.pop("lo") == Neighbor(device="lark-lab-ap3", port="eth0")
+    assert set(neighbors.values()) <= {None}  # every other interface: none
+
+
 def test_snmp_v3_with_authentication_and_privacy(
     snmpd: Snmpd, monkeypatch: pytest.MonkeyPatch
 ) -> None:

@@ -4,6 +4,7 @@ where a test adds them."""
 
 from __future__ import annotations
 
+import json
 import os
 import shutil
 import socket
@@ -102,16 +103,25 @@ def start_agent(
 
 
 class Snmpd:
-    """net-snmp's snmpd in the foreground, our own config, v2c and a v3 user."""
+    """net-snmp's snmpd in the foreground, our own config, v2c and a v3 user; with
+    ``lldp`` (OID -> pass type and value), LLDP's tables served by a pass_persist program."""
 
-    def __init__(self, folder: Path) -> None:
+    def __init__(self, folder: Path, lldp: dict[str, tuple[str, str]] | None = None) -> None:
         binary = require("snmpd")
         self.port = free_udp_port()
         config = folder / "snmpd.conf"
+        served = ""
+        if lldp is not None:
+            (folder / "lldp.json").write_text(json.dumps(lldp))
+            program = Path(__file__).with_name("lldp_pass.py")
+            # LLDP-MIB's subtree, lldpMIB (IEEE 802.1AB-2005 12.1).
+            served = (
+                f"pass_persist .1.0.8802.1.1.2 {sys.executable} {program} {folder / 'lldp.json'}\n"
+            )
         config.write_text(
             f"rocommunity {COMMUNITY} 127.0.0.1\n"
             f'createUser {V3_USER} SHA "{V3_AUTH}" AES "{V3_PRIV}"\n'
-            f"rouser {V3_USER} priv\n"
+            f"rouser {V3_USER} priv\n" + served
         )
         (folder / "persist").mkdir(exist_ok=True)
         env = {**os.environ, "SNMP_PERSISTENT_DIR": str(folder / "persist")}
