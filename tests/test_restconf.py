@@ -19,7 +19,7 @@ from linktriage.snapshot import Neighbor
 
 from agents.fleet import Fleet
 from agents.restconf import RestconfAgent
-from helpers import read_once
+from helpers import ask_once, read_once
 
 
 @pytest.fixture(scope="module")
@@ -175,6 +175,26 @@ def test_each_port_gets_its_neighbor_from_the_ieee_lldp_module() -> None:
         "port1": Neighbor(device="lark-core1", port="xe-0/0/1"),
         "port2": Neighbor(device="lark-lab-ap3", port="eth0"),
     }  # port3: a MAC and no description; port4: two far ends; neither names one
+
+
+@pytest.mark.parametrize(("every_s", "asked"), [(None, 1), (0, 3)])
+def test_neighbors_are_asked_for_again_only_when_due(every_s: float | None, asked: int) -> None:
+    # LLDP follows the cabling: by default a collector keeps a device's neighbors 300 s.
+    running = RestconfAgent(Fleet(devices=1, ports=2)).start()
+    core = remote("lark-core1", "interface-name", "xe-0/0/1")
+    port1 = {"name": "port1", "dest-mac-address": NEAREST_BRIDGE, "remote-systems-data": [core]}
+    running.lldp["sw0001"] = {"ieee802-dot1ab-lldp:lldp": {"port": [port1]}}
+    options = {} if every_s is None else {"neighbors_every_s": every_s}
+
+    async def three_reads(c: RestconfCollector) -> list[Neighbor | None]:
+        return [(await c.read(["port1"])).snapshots[0].neighbor for _ in range(3)]
+
+    try:
+        seen = ask_once(collector(running, "sw0001", **options), three_reads)
+    finally:
+        running.stop()
+    assert seen == [Neighbor(device="lark-core1", port="xe-0/0/1")] * 3  # kept in between
+    assert sum("ieee802-dot1ab-lldp" in path for path in running.requests) == asked
 
 
 def test_an_unknown_resource_is_a_bad_answer(agent: RestconfAgent) -> None:

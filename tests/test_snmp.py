@@ -34,7 +34,7 @@ from agents.snmp import (
     lldp_walk,
     recorded_walk,
 )
-from helpers import read_once
+from helpers import ask_once, read_once
 
 
 @pytest.fixture(scope="module")
@@ -253,6 +253,21 @@ def test_lldp_v2_mib_is_read_where_the_device_answers_it(
         "port3": Neighbor(device="lark-core2", port="et-0/0/3"),
         "port5": Neighbor(device="lark-core2", port="et-0/0/5"),
     }
+
+
+def test_a_second_read_within_the_interval_keeps_the_neighbors_the_first_read(
+    lldp_switches: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # The second read walks no LLDP table (neighbors_every_s, 300 s by default) and still
+    # gives each port its far end.
+    monkeypatch.setenv("LARK_LLDP_COMMUNITY", "lark-lldp")
+    c = collector(lldp_switches.port, {"community": {"env": "LARK_LLDP_COMMUNITY"}})
+
+    async def two_reads(c: SnmpCollector) -> list[dict[str, Neighbor | None]]:
+        return [{s.port: s.neighbor for s in (await c.read()).snapshots} for _ in range(2)]
+
+    first, second = ask_once(c, two_reads)
+    assert second == first and first["port1"] == Neighbor(device="lark-core1", port="xe-0/0/1")
 
 
 def test_an_older_switch_answers_with_counter32_and_a_bad_value_spoils_only_its_port(

@@ -12,11 +12,19 @@ the id is a MAC address; an id of any other kind falls back to the description t
 from __future__ import annotations
 
 import re
+import time
 from collections.abc import Iterable
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, Generic, TypeVar
 
 from linktriage.snapshot import Neighbor
+
+K = TypeVar("K")
+#: How long a device's neighbors are kept before they are asked for again. LLDP follows the
+#: cabling, which changes far more rarely than counters are read; a change shows in the
+#: far end's tables within its hold time, 120 s by default (msgTxInterval 30 s times
+#: msgTxHold 4, ieee802-dot1ab-lldp defaults).
+NEIGHBORS_EVERY_S = 300.0
 
 #: LldpPortIdSubtype (LLDP-MIB, IEEE 802.1AB-2005 12.1; the same numbers in LLDP-V2-TC-MIB
 #: of IEEE 802.1AB-2009 and in ieee802-types' port-id-subtype-type, whose names these are).
@@ -149,3 +157,20 @@ def local_ports(
         elif (port is None or not (port.id_is_name or port.port_desc)) and number in known:
             mapped[number] = number
     return mapped
+
+
+class Remembered(Generic[K]):
+    """A device's neighbors as last read (by port, as the collector keys them), due to be
+    read again once older than ``every_s`` (0: at every read)."""
+
+    def __init__(self, every_s: float) -> None:
+        self.every_s = every_s
+        self.neighbors: dict[K, Neighbor] = {}
+        self._at: float | None = None
+
+    def due(self) -> bool:
+        return self._at is None or time.monotonic() - self._at >= self.every_s
+
+    def keep(self, neighbors: dict[K, Neighbor]) -> None:
+        self.neighbors = neighbors
+        self._at = time.monotonic()

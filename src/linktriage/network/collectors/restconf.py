@@ -20,7 +20,8 @@ remote-systems-data``), asked for at the same time::
 
 Its ports are named by ``if:interface-ref``, so they are the ietf-interfaces names
 themselves. A device without the module (404), or one whose answer cannot be read, still
-gives its counters, with no neighbors.
+gives its counters, with no neighbors. Neighbors are asked for again only every
+``neighbors_every_s`` (300 s unless set), and kept in between.
 """
 
 from __future__ import annotations
@@ -28,14 +29,20 @@ from __future__ import annotations
 import asyncio
 from collections.abc import Sequence
 from datetime import UTC, datetime
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import ValidationError
+from pydantic import Field, ValidationError
 
 from linktriage.errors import BadAnswerError, CollectorError
 from linktriage.network.collectors.base import Collector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
-from linktriage.network.collectors.lldp import FarEnd, far_end, neighbor
+from linktriage.network.collectors.lldp import (
+    NEIGHBORS_EVERY_S,
+    FarEnd,
+    Remembered,
+    far_end,
+    neighbor,
+)
 from linktriage.snapshot import Neighbor, Snapshot
 
 #: RFC 8343 statistics leaves and the IF-MIB counters they are (RFC 8343 section 4).
@@ -71,6 +78,7 @@ class RestconfOptions(HttpOptions):
     port: int | None = None
     root: str = "/restconf"
     datastore: Literal["data", "operational"] = "data"
+    neighbors_every_s: Annotated[float, Field(ge=0)] = NEIGHBORS_EVERY_S
 
 
 def _local(name: str) -> str:
@@ -175,6 +183,7 @@ class RestconfCollector(Collector[RestconfOptions]):
         self.lldp_url = base + "ieee802-dot1ab-lldp:lldp"
         self.params = {"content": "nonconfig"} if o.datastore == "data" else {}
         self.http = HttpSession(self, o, MEDIA_TYPE)
+        self.lldp: Remembered[str] = Remembered(o.neighbors_every_s)
 
     async def close(self) -> None:
         await self.http.close()
@@ -194,16 +203,19 @@ class RestconfCollector(Collector[RestconfOptions]):
             return {}
 
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
-        lldp = asyncio.create_task(self._neighbors())  # asked at once, beside the counters
+        # Asked at once, beside the counters, when due.
+        lldp = asyncio.create_task(self._neighbors()) if self.lldp.due() else None
         try:
             document = await self._get()
         except BaseException:
-            lldp.cancel()
+            if lldp is not None:
+                lldp.cancel()
             raise
-        neighbors = await lldp
+        if lldp is not None:
+            self.lldp.keep(await lldp)
         try:
             snapshots, problems = interfaces_to_snapshots(
-                document, self.target.name, datetime.now(UTC), neighbors
+                document, self.target.name, datetime.now(UTC), self.lldp.neighbors
             )
         except ValueError as exc:
             raise self.error(BadAnswerError, f"answered without interface data: {exc}") from exc

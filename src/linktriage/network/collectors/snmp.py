@@ -13,7 +13,8 @@ where the device answers it, indexed by the local ifIndex itself, else LLDP-MIB'
 (IEEE 802.1AB-2005), whose local port numbers are matched to ports through
 lldpLocPortTable (:func:`~linktriage.network.collectors.lldp.local_ports`). The system
 names are walked with the counters, the rest of the table only where a device has some:
-a device without LLDP costs two short walks.
+a device without LLDP costs two short walks. Neighbors are read again only every
+``neighbors_every_s`` (300 s unless set), and kept in between.
 """
 
 from __future__ import annotations
@@ -28,7 +29,14 @@ from pydantic import Field
 
 from linktriage.errors import BadAnswerError, CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Collector, Options, Reading, SecretRef, Target
-from linktriage.network.collectors.lldp import FarEnd, far_end, local_ports, neighbor
+from linktriage.network.collectors.lldp import (
+    NEIGHBORS_EVERY_S,
+    FarEnd,
+    Remembered,
+    far_end,
+    local_ports,
+    neighbor,
+)
 from linktriage.snapshot import Neighbor, Snapshot
 
 IF_ENTRY = "1.3.6.1.2.1.2.2.1"
@@ -118,6 +126,7 @@ class SnmpOptions(Options):
     max_repetitions: int = 25
     #: Walks in flight at once to one device: a switch's agent is a small, busy process.
     parallel_walks: Annotated[int, Field(ge=1, le=32)] = 4
+    neighbors_every_s: Annotated[float, Field(ge=0)] = NEIGHBORS_EVERY_S
 
 
 def _engine() -> Any:
@@ -225,6 +234,7 @@ class SnmpCollector(Collector[SnmpOptions]):
             raise self.error(CollectorError, 'SNMP v2c needs community = { env = "..." }')
         if o.version == "3" and o.user is None:
             raise self.error(CollectorError, "SNMP v3 needs a user")
+        self.lldp: Remembered[int] = Remembered(o.neighbors_every_s)
 
     def _auth(self) -> Any:
         from pysnmp.hlapi.v3arch import asyncio as hlapi
@@ -332,18 +342,20 @@ class SnmpCollector(Collector[SnmpOptions]):
             return list(await asyncio.gather(*(gated(oid) for oid in oids)))
 
         all_columns = {**COUNTER_COLUMNS, **STATE_COLUMNS}
-        *walked, v2_names, v1_names = await walk(
-            [*all_columns, LLDP_V2_REM_SYS_NAME, LLDP_REM_SYS_NAME]
-        )
+        asking = self.lldp.due()
+        lldp = [LLDP_V2_REM_SYS_NAME, LLDP_REM_SYS_NAME] if asking else []
+        walked = await walk([*all_columns, *lldp])
         columns = {
             name: {
                 row[0]: plain for row, value in rows.items() if (plain := _plain(value)) is not None
             }
-            for name, rows in zip(all_columns.values(), walked, strict=True)
+            for name, rows in zip(all_columns.values(), walked[: len(all_columns)], strict=True)
         }
-        neighbors = await self._neighbors(walk, columns, v2_names, v1_names)
+        if asking:
+            v2_names, v1_names = walked[len(all_columns) :]
+            self.lldp.keep(await self._neighbors(walk, columns, v2_names, v1_names))
         snapshots, problems = snapshots_from_columns(
-            self.target.name, columns, uptime_s, now, neighbors
+            self.target.name, columns, uptime_s, now, self.lldp.neighbors
         )
         return Reading(snapshots, problems).only(ports)
 
