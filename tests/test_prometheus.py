@@ -329,7 +329,9 @@ def test_lldp_labels_looked_up_onto_the_remote_series_are_read_too(api: CannedAp
     # A module with `lookups: [{source_indexes: [lldpRemLocalPortNum], lookup: lldpLocPortId}]`
     # puts the local port id on each remote series; without lldpRemPortIdSubtype walked, the
     # exporter can only write the id's octets in hex, 0x6c616e30 (snmp_exporter issue #584).
-    def remote(name: str, value: str) -> dict[str, Any]:
+    def remote(name: str, value: str, sample: str = "1") -> dict[str, Any]:
+        """A remote-table series: a string object's value in its label, a gauge's (the
+        subtype's) in its sample."""
         labels = {
             "__name__": name,
             "instance": "sw0001",
@@ -339,13 +341,18 @@ def test_lldp_labels_looked_up_onto_the_remote_series_are_read_too(api: CannedAp
             "lldpRemTimeMark": "0",
             "lldpLocPortId": "port3",
         }
-        return {"metric": labels | {name: value}, "values": [[100.0, "1"]]}  # fmt: skip
+        own = {name: value} if value else {}
+        return {"metric": labels | own, "values": [[100.0, sample]]}
 
     port3 = series("ifHCInOctets", "port3", (100.0, "5"))
     port3["metric"] |= {"ifIndex": "3", "ifDescr": "port3"}
     api.body = matrix(
         port3, remote("lldpRemSysName", "lark-lab-sw2"), remote("lldpRemPortId", "0x6c616e30")
     )
+    (snap,) = read_once(collector(api.url)).snapshots
+    assert snap.neighbor == Neighbor(device="lark-lab-sw2", port="lan0")
+    # A subtype that is no LldpPortIdSubtype number costs nothing but itself.
+    api.body["data"]["result"].append(remote("lldpRemPortIdSubtype", "", sample="NaN"))
     (snap,) = read_once(collector(api.url)).snapshots
     assert snap.neighbor == Neighbor(device="lark-lab-sw2", port="lan0")
     assert "lldpRemSysName" in api.queries[0]["query"][0]  # asked in the same query

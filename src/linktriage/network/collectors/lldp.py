@@ -108,9 +108,8 @@ def _mac(raw: bytes | str, text: str | None) -> str:
     an id that is neither is kept as it came (hex for octets)."""
     if isinstance(raw, bytes) and len(raw) == 6:
         return mac_address(raw)
-    digits = re.sub(r"[^0-9A-Fa-f]", "", text or "")
     if text is not None and _MAC_TEXT.match(text):
-        return mac_address(bytes.fromhex(digits))
+        return mac_address(bytes.fromhex(re.sub(r"[:-]", "", text)))
     return raw.hex() if isinstance(raw, bytes) else raw
 
 

@@ -313,7 +313,10 @@ def _lldp_value(series: Series, obj: str) -> Any:
     """An LLDP object's value: the subtype is the gauge's newest sample; a string is the
     label named as the metric (the SNMP exporter's info series)."""
     if obj == "lldpRemPortIdSubtype":
-        return _integer(max(series.values)[1]) if series.values else None
+        try:
+            return _integer(max(series.values)[1]) if series.values else None
+        except ValueError:  # not a subtype: the id is read as if none were published
+            return None
     return _exported(series.metric.get(series.metric.get("__name__", ""), ""))
 
 
