@@ -18,8 +18,10 @@ from linktriage.network.collectors.base import (
 )
 from linktriage.network.collectors.demo import DemoCollector
 from linktriage.network.collectors.file import FileCollector, FileOptions
+from linktriage.snapshot import Neighbor
 
 import plugins
+from helpers import line
 
 
 def test_the_built_in_collectors_register_like_any_other() -> None:
@@ -104,6 +106,19 @@ def test_the_file_collector_replays_recorded_polls_in_order(snapshots: Path) -> 
     assert asyncio.run(collector.ports()) == ["port1", "port2"]
     times = [asyncio.run(collector.read(["port1"])).snapshots[0].time.minute for _ in range(4)]
     assert times == [0, 5, 10, 0]  # three recorded polls, then from the start again
+
+
+def test_the_file_collector_replays_the_neighbor_a_line_names(tmp_path: Path) -> None:
+    # SNAPSHOT-FORMAT 1.1: the optional `neighbor` object, replayed as it was recorded.
+    recorded = tmp_path / "lldp.jsonl"
+    far = {"device": "lark-core1", "port": "xe-0/0/1"}
+    recorded.write_text(line(neighbor=far) + "\n" + line(port="port2") + "\n")
+    collector = FileCollector(Target("lark-test-sw1", None, {"path": str(recorded)}))
+    reading = asyncio.run(collector.read())
+    assert {s.port: s.neighbor for s in reading.snapshots} == {
+        "port1": Neighbor(device="lark-core1", port="xe-0/0/1"),
+        "port2": None,
+    }
 
 
 def test_a_collector_is_an_abstract_interface() -> None:

@@ -1,6 +1,7 @@
 """The Prometheus collector against Debian's Prometheus on loopback, scraping an exporter of
 the simulated fleet in the SNMP exporter's naming: what the collector reads back is what
-was scraped, to the octet, at the time Prometheus stamped the scrape."""
+was scraped, to the octet, at the time Prometheus stamped the scrape; and the far ends one
+switch publishes from LLDP-MIB."""
 
 from __future__ import annotations
 
@@ -22,7 +23,7 @@ from linktriage.network.inventory import Defaults, DeviceEntry, Inventory
 from linktriage.network.polling import InventoryNetwork
 from linktriage.render.replies import DiagnosisReply
 from linktriage.settings import ChatSettings, Settings
-from linktriage.snapshot import Snapshot, iter_snapshots
+from linktriage.snapshot import Neighbor, Snapshot, iter_snapshots
 from linktriage.store import Store
 
 from agents.fleet import Fleet
@@ -32,9 +33,43 @@ from helpers import ask_once, read_once
 DEVICES = ["sw0001", "sw0002", "sw0003"]
 
 
+def lldp_row(port_number: int, **labels: str) -> str:
+    """The labels of one lldpRemTable row: its indexes (LLDP-MIB lldpRemEntry INDEX), then
+    the value label an info series carries."""
+    row = {"lldpRemIndex": "1", "lldpRemLocalPortNum": str(port_number), "lldpRemTimeMark": "0"}
+    return "{" + ",".join(f'{k}="{v}"' for k, v in sorted((row | labels).items())) + "}"
+
+
+#: What sw0002 publishes through an SNMP exporter module walking LLDP-MIB's lldpRemTable and
+#: lldpLocPortTable, in the exporter's own form (snmp_exporter collector/collector.go: a
+#: string object is a series of value 1 with the string in a label named as the metric;
+#: lldpRemPortId decoded by lldpRemPortIdSubtype, a MAC address written 02:00:5e:...; the
+#: subtype a gauge). Its local port numbers are 100 above the ifIndex, so lldpLocPortId
+#: tells which port each is; number 4 has no lldpLocPortTable row and is taken for ifIndex 4.
+LLDP_SERIES = f"""\
+# TYPE lldpLocPortId gauge
+lldpLocPortId{{lldpLocPortId="port1",lldpLocPortNum="101"}} 1
+lldpLocPortId{{lldpLocPortId="port2",lldpLocPortNum="102"}} 1
+# TYPE lldpRemSysName gauge
+lldpRemSysName{lldp_row(101, lldpRemSysName="lark-core1")} 1
+lldpRemSysName{lldp_row(102, lldpRemSysName="lark-lab-ap3")} 1
+lldpRemSysName{lldp_row(4, lldpRemSysName="lark-lab-printer2")} 1
+# TYPE lldpRemPortIdSubtype gauge
+lldpRemPortIdSubtype{lldp_row(101)} 5
+lldpRemPortIdSubtype{lldp_row(102)} 3
+lldpRemPortIdSubtype{lldp_row(4)} 5
+# TYPE lldpRemPortId gauge
+lldpRemPortId{lldp_row(101, lldpRemPortId="xe-0/0/1")} 1
+lldpRemPortId{lldp_row(102, lldpRemPortId="02:00:5e:10:00:03")} 1
+lldpRemPortId{lldp_row(4, lldpRemPortId="lan0")} 1
+# TYPE lldpRemPortDesc gauge
+lldpRemPortDesc{lldp_row(102, lldpRemPortDesc="eth0")} 1
+"""
+
+
 @pytest.fixture(scope="module")
 def exporter() -> Iterator[Exporter]:
-    served = Exporter(Fleet(len(DEVICES), 8, seed=23))
+    served = Exporter(Fleet(len(DEVICES), 8, seed=23), lldp={"sw0002": LLDP_SERIES})
     yield served
     served.close()
 
@@ -98,6 +133,20 @@ def test_a_read_gives_every_ports_newest_scrape_to_the_octet(
         booted = scrape.at - scrape.uptime_ticks / 100
         assert snap.discontinuity_time is not None
         assert abs(snap.discontinuity_time.timestamp() - booted) < 0.5
+        assert snap.neighbor is None  # sw0001 publishes no LLDP series
+
+
+def test_the_far_ends_a_switch_publishes_from_lldp_mib_land_on_its_ports(
+    prometheus: Prometheus,
+) -> None:
+    reading = read_once(collector(prometheus.url, "sw0002"))
+    assert reading.problems == {} and len(reading.snapshots) == 8
+    assert {s.port: s.neighbor for s in reading.snapshots if s.neighbor} == {
+        "port1": Neighbor(device="lark-core1", port="xe-0/0/1"),  # interfaceName(5)
+        # A far end naming its port by MAC address: lldpRemPortDesc names it (SNAPSHOT-FORMAT).
+        "port2": Neighbor(device="lark-lab-ap3", port="eth0"),
+        "port4": Neighbor(device="lark-lab-printer2", port="lan0"),
+    }
 
 
 def inventory_of(server: str, devices: list[str], **options: Any) -> InventoryNetwork:
@@ -274,6 +323,39 @@ def series(metric: str, port: str | None, *values: tuple[float, str]) -> dict[st
 
 def matrix(*result: dict[str, Any]) -> dict[str, Any]:
     return {"status": "success", "data": {"resultType": "matrix", "result": list(result)}}
+
+
+def test_lldp_labels_looked_up_onto_the_remote_series_are_read_too(api: CannedApi) -> None:
+    # A module with `lookups: [{source_indexes: [lldpRemLocalPortNum], lookup: lldpLocPortId}]`
+    # puts the local port id on each remote series; without lldpRemPortIdSubtype walked, the
+    # exporter can only write the id's octets in hex, 0x6c616e30 (snmp_exporter issue #584).
+    def remote(name: str, value: str, sample: str = "1") -> dict[str, Any]:
+        """A remote-table series: a string object's value in its label, a gauge's (the
+        subtype's) in its sample."""
+        labels = {
+            "__name__": name,
+            "instance": "sw0001",
+            "job": "snmp",
+            "lldpRemIndex": "1",
+            "lldpRemLocalPortNum": "7",
+            "lldpRemTimeMark": "0",
+            "lldpLocPortId": "port3",
+        }
+        own = {name: value} if value else {}
+        return {"metric": labels | own, "values": [[100.0, sample]]}
+
+    port3 = series("ifHCInOctets", "port3", (100.0, "5"))
+    port3["metric"] |= {"ifIndex": "3", "ifDescr": "port3"}
+    api.body = matrix(
+        port3, remote("lldpRemSysName", "lark-lab-sw2"), remote("lldpRemPortId", "0x6c616e30")
+    )
+    (snap,) = read_once(collector(api.url)).snapshots
+    assert snap.neighbor == Neighbor(device="lark-lab-sw2", port="lan0")
+    # A subtype that is no LldpPortIdSubtype number costs nothing but itself.
+    api.body["data"]["result"].append(remote("lldpRemPortIdSubtype", "", sample="NaN"))
+    (snap,) = read_once(collector(api.url)).snapshots
+    assert snap.neighbor == Neighbor(device="lark-lab-sw2", port="lan0")
+    assert "lldpRemSysName" in api.queries[0]["query"][0]  # asked in the same query
 
 
 def test_the_servers_own_error_message_is_passed_on(api: CannedApi) -> None:

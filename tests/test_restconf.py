@@ -1,4 +1,5 @@
-"""The RESTCONF collector against a real HTTP(S) server on loopback serving RFC 8343 JSON."""
+"""The RESTCONF collector against a real HTTP(S) server on loopback serving RFC 8343 JSON,
+and ieee802-dot1ab-lldp (IEEE 802.1ABcu) where a device has it."""
 
 from __future__ import annotations
 
@@ -14,10 +15,11 @@ from linktriage.errors import BadAnswerError, CollectorError, DeviceRefusedError
 from linktriage.network.collectors.base import Target
 from linktriage.network.collectors.restconf import RestconfCollector, interfaces_to_snapshots
 from linktriage.network.inventory import DeviceEntry, Inventory, problems
+from linktriage.snapshot import Neighbor
 
 from agents.fleet import Fleet
 from agents.restconf import RestconfAgent
-from helpers import read_once
+from helpers import ask_once, read_once
 
 
 @pytest.fixture(scope="module")
@@ -48,9 +50,9 @@ def test_a_read_gives_every_interface_with_its_counters(agent: RestconfAgent) ->
         )
         assert snap.speed_bps == int(before.state["speed_bps"][i])
         assert "dot3StatsFCSErrors" not in snap.counters  # ietf-interfaces has no FCS count
-    assert (
-        agent.requests[-1] == "/sw0001/restconf/data/ietf-interfaces:interfaces?content=nonconfig"
-    )
+        assert snap.neighbor is None  # the device has no LLDP module: 404, counters all the same
+    assert "/sw0001/restconf/data/ietf-interfaces:interfaces?content=nonconfig" in agent.requests
+    assert "/sw0001/restconf/data/ieee802-dot1ab-lldp:lldp?content=nonconfig" in agent.requests
 
 
 def test_64_bit_counters_arrive_as_strings_and_keep_every_bit() -> None:
@@ -104,7 +106,8 @@ def test_a_server_error_is_retried_then_named(agent: RestconfAgent) -> None:
     count = len(agent.requests)
     with pytest.raises(CollectorError, match=r"answered 500 for .*\(2 tries\)"):
         read_once(collector(agent, "sw0003"))
-    assert len(agent.requests) - count == 2
+    asked = [path for path in agent.requests[count:] if "ietf-interfaces" in path]
+    assert len(asked) == 2
 
 
 def test_an_answer_slower_than_the_timeout_is_a_timeout(agent: RestconfAgent) -> None:
@@ -126,6 +129,72 @@ def test_a_malformed_counter_costs_only_its_port(agent: RestconfAgent) -> None:
     assert "'lots' is not a counter" in reading.problems["port2"]
     assert len(reading.snapshots) == 7
     agent.behaviour.pop("sw0003")
+
+
+def remote(system: str, subtype: str, port_id: str, desc: str | None = None) -> dict[str, object]:
+    """One remote-systems-data entry of ieee802-dot1ab-lldp (leaves as the module names them;
+    port-id-subtype is ieee802-types' port-id-subtype-type enumeration)."""
+    entry: dict[str, object] = {"time-mark": 0, "remote-index": 1, "system-name": system,
+                                "port-id-subtype": subtype, "port-id": port_id}  # fmt: skip
+    return entry | ({} if desc is None else {"port-desc": desc})
+
+
+#: The nearest bridge and nearest customer bridge group addresses (IEEE 802.1AB-2016 7.1, from
+#: memory): a port may run LLDP for each, and then is listed once for each.
+NEAREST_BRIDGE, NEAREST_CUSTOMER_BRIDGE = "01-80-C2-00-00-0E", "01-80-C2-00-00-00"
+
+
+def test_each_port_gets_its_neighbor_from_the_ieee_lldp_module() -> None:
+    running = RestconfAgent(Fleet(devices=1, ports=8)).start()
+    core = remote("lark-core1", "interface-name", "xe-0/0/1")
+    running.lldp["sw0001"] = {
+        "ieee802-dot1ab-lldp:lldp": {
+            "port": [
+                {"name": "port1", "dest-mac-address": NEAREST_BRIDGE,
+                 "remote-systems-data": [core]},
+                {"name": "port1", "dest-mac-address": NEAREST_CUSTOMER_BRIDGE,
+                 "remote-systems-data": [core]},
+                # A far end naming its port by MAC address: port-desc names it (SNAPSHOT-FORMAT).
+                {"name": "port2", "dest-mac-address": NEAREST_BRIDGE, "remote-systems-data": [
+                    remote("lark-lab-ap3", "mac-address", "02-00-5E-10-00-03", "eth0")]},
+                {"name": "port3", "dest-mac-address": NEAREST_BRIDGE, "remote-systems-data": [
+                    remote("lark-lab-cam1", "mac-address", "02-00-5E-10-00-10")]},
+                {"name": "port4", "dest-mac-address": NEAREST_BRIDGE, "remote-systems-data": [
+                    remote("lark-lab-phone4", "interface-name", "lan"),
+                    remote("lark-lab-pc9", "interface-name", "eno1")]},
+                {"name": "port5", "dest-mac-address": NEAREST_BRIDGE},  # nothing heard
+            ]
+        }
+    }  # fmt: skip
+    try:
+        reading = read_once(collector(running, "sw0001"))
+    finally:
+        running.stop()
+    assert len(reading.snapshots) == 8 and reading.problems == {}
+    assert {s.port: s.neighbor for s in reading.snapshots if s.neighbor} == {
+        "port1": Neighbor(device="lark-core1", port="xe-0/0/1"),
+        "port2": Neighbor(device="lark-lab-ap3", port="eth0"),
+    }  # port3: a MAC and no description; port4: two far ends; neither names one
+
+
+@pytest.mark.parametrize(("every_s", "asked"), [(None, 1), (0, 3)])
+def test_neighbors_are_asked_for_again_only_when_due(every_s: float | None, asked: int) -> None:
+    # LLDP follows the cabling: by default a collector keeps a device's neighbors 300 s.
+    running = RestconfAgent(Fleet(devices=1, ports=2)).start()
+    core = remote("lark-core1", "interface-name", "xe-0/0/1")
+    port1 = {"name": "port1", "dest-mac-address": NEAREST_BRIDGE, "remote-systems-data": [core]}
+    running.lldp["sw0001"] = {"ieee802-dot1ab-lldp:lldp": {"port": [port1]}}
+    options = {} if every_s is None else {"neighbors_every_s": every_s}
+
+    async def three_reads(c: RestconfCollector) -> list[Neighbor | None]:
+        return [(await c.read(["port1"])).snapshots[0].neighbor for _ in range(3)]
+
+    try:
+        seen = ask_once(collector(running, "sw0001", **options), three_reads)
+    finally:
+        running.stop()
+    assert seen == [Neighbor(device="lark-core1", port="xe-0/0/1")] * 3  # kept in between
+    assert sum("ieee802-dot1ab-lldp" in path for path in running.requests) == asked
 
 
 def test_an_unknown_resource_is_a_bad_answer(agent: RestconfAgent) -> None:

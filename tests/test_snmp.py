@@ -1,5 +1,6 @@
 """The SNMP collector against real agents on loopback: net-snmp's snmpd (v2c and v3) for
-the machine's own interfaces, and snmpsim serving a recorded 48-port switch."""
+the machine's own interfaces, and snmpsim serving a recorded 48-port switch, with and
+without LLDP's tables."""
 
 from __future__ import annotations
 
@@ -15,6 +16,7 @@ from linktriage.counters import COLUMN_INDEX
 from linktriage.errors import CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector
+from linktriage.snapshot import Neighbor
 from linktriage.verdicts import Verdict
 
 from agents.fleet import Fleet
@@ -24,11 +26,15 @@ from agents.snmp import (
     V3_AUTH,
     V3_PRIV,
     V3_USER,
+    Remote,
     Snmpd,
     Snmpsim,
+    by_oid,
+    lldp_v2_walk,
+    lldp_walk,
     recorded_walk,
 )
-from helpers import read_once
+from helpers import ask_once, read_once
 
 
 @pytest.fixture(scope="module")
@@ -70,6 +76,33 @@ def test_the_collector_reads_what_snmpbulkwalk_reads(
         # Read between two walks of the same object: counters only grow.
         assert int(before[index]) <= snap.counters["ifHCInOctets"] <= int(after[index])
         assert "ifInErrors" in snap.counters
+
+
+def test_snmpd_serving_lldp_mib_gives_the_loopback_its_neighbor(
+    snmpd: Snmpd, community: dict[str, object], tmp_path: Path
+) -> None:
+    # net-snmp has no LLDP-MIB of its own: a pass_persist program serves the tables
+    # (snmpd.conf(5)); the interfaces are this machine's own.
+    assert "lo" in snmpd.walk(f"{IFX_ENTRY}.1").values()
+    rem, loc = "1.0.8802.1.1.2.1.4.1.1", "1.0.8802.1.1.2.1.3.7.1"  # LLDP-MIB, 802.1AB-2005
+    row = "0.1001.1"  # lldpRemTimeMark 0, lldpRemLocalPortNum 1001 (not an ifIndex), index 1
+    lldp = {
+        f"{loc}.2.1001": ("integer", "5"),  # lldpLocPortIdSubtype: interfaceName(5)
+        f"{loc}.3.1001": ("string", "lo"),  # lldpLocPortId: port 1001 is lo
+        f"{loc}.4.1001": ("string", "loopback"),  # lldpLocPortDesc
+        f"{rem}.6.{row}": ("integer", "3"),  # lldpRemPortIdSubtype: macAddress(3)
+        f"{rem}.7.{row}": ("octet", "02 00 5e 10 00 03"),  # lldpRemPortId, six octets
+        f"{rem}.8.{row}": ("string", "eth0"),  # lldpRemPortDesc
+        f"{rem}.9.{row}": ("string", "lark-lab-ap3"),  # lldpRemSysName
+    }
+    agent = Snmpd(tmp_path, lldp=lldp)
+    try:
+        reading = read_once(collector(agent.port, community))
+    finally:
+        agent.stop()
+    neighbors = {s.port: s.neighbor for s in reading.snapshots}
+    assert neighbors.pop("lo") == Neighbor(device="lark-lab-ap3", port="eth0")
+    assert set(neighbors.values()) <= {None}  # every other interface: none
 
 
 def test_snmp_v3_with_authentication_and_privacy(
@@ -130,6 +163,7 @@ def test_a_recorded_48_port_switch_reads_back_exactly(
                 expected if name.startswith("ifHC") else expected % 2**32
             )
         assert snap.duplex == "full" and snap.mtu == 1500
+        assert snap.neighbor is None  # the recording has no LLDP tables
 
 
 def test_only_the_ports_asked_for(switch48: Snmpsim, monkeypatch: pytest.MonkeyPatch) -> None:
@@ -138,6 +172,102 @@ def test_only_the_ports_asked_for(switch48: Snmpsim, monkeypatch: pytest.MonkeyP
         collector(switch48.port, {"community": {"env": "LARK48_COMMUNITY"}}), ["port3", "port40"]
     )
     assert [s.port for s in reading.snapshots] == ["port3", "port40"]
+
+
+#: What the 48-port switch heard on its ports, as LLDP-MIB's lldpRemTable holds it. Its
+#: local port numbers are bridge port numbers (LLDP-MIB LldpPortNumber: a bridge numbers
+#: ports as dot1dBasePort), 100 above the ifIndex, so only lldpLocPortTable tells which
+#: port each is; port20's number has no row there and is taken for its ifIndex.
+MAC_OF_AP3 = bytes.fromhex("02005e100003")  # a port id of subtype macAddress(3): 6 octets
+HEARD = [
+    Remote(101, "lark-core1", 5, "xe-0/0/1", desc="to lark-lab-sw1"),  # interfaceName(5)
+    Remote(102, "lark-lab-ap3", 3, MAC_OF_AP3, desc="eth0"),  # macAddress(3): the desc names it
+    Remote(107, "lark-lab-sw2", 7, "24"),  # local(7), printable
+    Remote(110, "lark-lab-cam1", 3, bytes.fromhex("02005e100010")),  # a MAC and no desc
+    Remote(112, "lark-lab-phone4", 5, "lan", index=1),  # two far ends on one port
+    Remote(112, "lark-lab-pc9", 5, "eno1", index=2),
+    Remote(114, "lark-lab-sw3", 5, "ge-0/0/47", time_mark=0),  # one far end, two time marks
+    Remote(114, "lark-lab-sw3", 5, "ge-0/0/47", time_mark=4521),
+    Remote(20, "lark-lab-printer2", 5, "lan0"),  # no lldpLocPortTable row: ifIndex 20
+    Remote(160, "lark-lab-ghost", 5, "x1"),  # no row, and no ifIndex 160
+]
+#: lldpLocPortTable: the id is the ifName (interfaceName(5)), except port7's, a MAC
+#: address, whose description is its ifDescr as LLDP-MIB lldpLocPortDesc says it should be.
+LOCAL = {100 + i: (5, f"port{i}", f"port{i}") for i in range(1, 49) if i not in (7, 20)} | {
+    107: (3, bytes.fromhex("02005e1000a7"), "Ethernet Interface 7")
+}
+
+
+@pytest.fixture(scope="module")
+def lldp_switches(tmp_path_factory: pytest.TempPathFactory, fleet: Fleet) -> Iterator[Snmpsim]:
+    """The 48-port switch with LLDP-MIB's tables (community lark-lldp), and with
+    LLDP-V2-MIB's beside them (lark-lldp2); port7's ifDescr differs from its ifName."""
+    walk = [
+        f"{IF_ENTRY}.2.7|4|Ethernet Interface 7" if line.startswith(f"{IF_ENTRY}.2.7|") else line
+        for line in recorded_walk(fleet, "sw0001", RECORDED_AT)
+    ]
+    v1 = by_oid(walk + lldp_walk(HEARD, LOCAL))
+    # LLDP-V2-MIB indexes by the ifIndex itself (lldpV2RemLocalIfIndex).
+    v2 = lldp_v2_walk(
+        [Remote(3, "lark-core2", 5, "et-0/0/3"), Remote(5, "lark-core2", 5, "et-0/0/5")]
+    )
+    agent = Snmpsim(
+        tmp_path_factory.mktemp("lldp"), v1, community="lark-lldp",
+        more={"lark-lldp2": "\n".join(by_oid(v1 + v2)) + "\n"},
+    )  # fmt: skip
+    yield agent
+    agent.stop()
+
+
+def neighbors_of(
+    agent: Snmpsim, community: str, monkeypatch: pytest.MonkeyPatch
+) -> dict[str, Neighbor]:
+    monkeypatch.setenv("LARK_LLDP_COMMUNITY", community)
+    reading = read_once(collector(agent.port, {"community": {"env": "LARK_LLDP_COMMUNITY"}}))
+    assert reading.problems == {} and len(reading.snapshots) == 48
+    return {s.port: s.neighbor for s in reading.snapshots if s.neighbor is not None}
+
+
+def test_lldp_mib_neighbors_land_on_the_ports_the_local_port_table_names(
+    lldp_switches: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    assert neighbors_of(lldp_switches, "lark-lldp", monkeypatch) == {
+        # lldpLocPortId 101 is "port1" (interfaceName): the far end's id is its ifName.
+        "port1": Neighbor(device="lark-core1", port="xe-0/0/1"),
+        # A far end naming its port by MAC address: lldpRemPortDesc names it (SNAPSHOT-FORMAT 1.1).
+        "port2": Neighbor(device="lark-lab-ap3", port="eth0"),
+        # Local port 107 has a MAC id; its lldpLocPortDesc is port7's ifDescr.
+        "port7": Neighbor(device="lark-lab-sw2", port="24"),
+        # Two time marks of one far end (lldpRemTimeMark, RFC 2021 TimeFilter) are one neighbor.
+        "port14": Neighbor(device="lark-lab-sw3", port="ge-0/0/47"),
+        # No lldpLocPortTable row for 20: LldpPortNumber is the ifIndex (not a bridge).
+        "port20": Neighbor(device="lark-lab-printer2", port="lan0"),
+    }  # port10 (a MAC and no description) and port12 (two far ends) name none
+
+
+def test_lldp_v2_mib_is_read_where_the_device_answers_it(
+    lldp_switches: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # LLDP-V2-MIB (IEEE 802.1AB-2009) indexes its remote table by ifIndex: ifIndex 3 is port3.
+    assert neighbors_of(lldp_switches, "lark-lldp2", monkeypatch) == {
+        "port3": Neighbor(device="lark-core2", port="et-0/0/3"),
+        "port5": Neighbor(device="lark-core2", port="et-0/0/5"),
+    }
+
+
+def test_a_second_read_within_the_interval_keeps_the_neighbors_the_first_read(
+    lldp_switches: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # The second read walks no LLDP table (neighbors_every_s, 300 s by default) and still
+    # gives each port its far end.
+    monkeypatch.setenv("LARK_LLDP_COMMUNITY", "lark-lldp")
+    c = collector(lldp_switches.port, {"community": {"env": "LARK_LLDP_COMMUNITY"}})
+
+    async def two_reads(c: SnmpCollector) -> list[dict[str, Neighbor | None]]:
+        return [{s.port: s.neighbor for s in (await c.read()).snapshots} for _ in range(2)]
+
+    first, second = ask_once(c, two_reads)
+    assert second == first and first["port1"] == Neighbor(device="lark-core1", port="xe-0/0/1")
 
 
 def test_an_older_switch_answers_with_counter32_and_a_bad_value_spoils_only_its_port(

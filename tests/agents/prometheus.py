@@ -4,7 +4,8 @@ The exporter answers ``/snmp?target=DEVICE`` the way an SNMP exporter with the I
 EtherLike-MIB modules does: one metric per MIB object, named as the object, with ifIndex,
 ifName and ifDescr labels, and sysUpTime. It keeps what it served, so a test can compare
 what the collector reads back through Prometheus with what was scraped. A device can be
-told to fail (its scrape answers 500, as the exporter does when the device is silent).
+told to fail (its scrape answers 500, as the exporter does when the device is silent), and
+given more series to publish (``lldp``: the exposition of its LLDP tables).
 
 :class:`Prometheus` runs Debian's ``prometheus`` binary with a configuration of our own:
 the exporter's targets relabelled into ``instance`` as SNMP exporter setups do.
@@ -107,6 +108,7 @@ class Exporter:
     fleet: Fleet
     failing: set[str] = field(default_factory=set)
     served: dict[str, list[Served]] = field(default_factory=dict)
+    lldp: dict[str, str] = field(default_factory=dict)  # device -> exposition lines
 
     def __post_init__(self) -> None:
         self.started = time.time()
@@ -126,7 +128,8 @@ class Exporter:
         ticks = UPTIME_TICKS_AT_START + int((now - self.started) * 100)
         with self._lock:
             self.served.setdefault(device, []).append(Served(now, table, ticks))
-        return 200, "text/plain; version=0.0.4", exposition(table, ticks).encode()
+        text = exposition(table, ticks) + self.lldp.get(device, "")
+        return 200, "text/plain; version=0.0.4", text.encode()
 
     def scrape_near(self, device: str, at: float) -> Served:
         """The answer to the scrape Prometheus stamped ``at`` (it stamps the scrape's start)."""

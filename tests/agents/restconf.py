@@ -1,6 +1,8 @@
 """A RESTCONF agent on loopback serving RFC 8343 interface statistics as RFC 7951 JSON.
 
-Each device answers under its own root, ``/<device>/restconf``. Devices can be told to
+Each device answers under its own root, ``/<device>/restconf``; a device given an LLDP
+document (``lldp``) serves it as ``ieee802-dot1ab-lldp:lldp``, the others answer 404 for
+it, as a server without that module does. Devices can be told to
 misbehave: ``auth`` (basic credentials required), ``error`` (500), ``slow`` (answers after
 ``slow_s``), ``garbage`` (not JSON), ``bad-types`` (a counter that is not a number).
 Every answer can be delayed by ``latency_s``, as a busy switch's agent would be.
@@ -83,6 +85,7 @@ class RestconfAgent:
         self._table: PollTable | None = None
         self._documents: dict[str, bytes] = {}
         self.behaviour: dict[str, str] = {}
+        self.lldp: dict[str, dict[str, Any]] = {}  # device -> its ieee802-dot1ab-lldp document
         self.credentials = ("netops", "s3cret")
         self.requests: list[str] = []
         self._server: ThreadingHTTPServer | None = None
@@ -104,11 +107,12 @@ class RestconfAgent:
                 device = parts[0]
                 if agent.latency_s:
                     time.sleep(agent.latency_s)
-                if device not in agent.fleet.names or parts[1:] != [
-                    "restconf",
-                    "data",
-                    "ietf-interfaces:interfaces",
-                ]:
+                resource = parts[1:]
+                lldp = resource == ["restconf", "data", "ieee802-dot1ab-lldp:lldp"]
+                if device not in agent.fleet.names or not (
+                    resource == ["restconf", "data", "ietf-interfaces:interfaces"]
+                    or (lldp and device in agent.lldp)
+                ):
                     return self._send(404, b'{"errors": "no such resource"}')
                 mode = agent.behaviour.get(device, "normal")
                 if mode == "auth" and not self._authorised():
@@ -119,7 +123,10 @@ class RestconfAgent:
                     time.sleep(agent.slow_s)
                 if mode == "garbage":
                     return self._send(200, b"<html>not json</html>")
-                self._send(200, agent.answer(device, mode), "application/yang-data+json")
+                body = (
+                    json.dumps(agent.lldp[device]).encode() if lldp else agent.answer(device, mode)
+                )
+                self._send(200, body, "application/yang-data+json")
 
             def _authorised(self) -> bool:
                 user, password = agent.credentials

@@ -1,14 +1,17 @@
 """SNMP agents on loopback: net-snmp's snmpd (the machine's own interfaces) and snmpsim
-serving a recorded walk of a 48-port switch with EtherLike counters."""
+serving a recorded walk of a 48-port switch with EtherLike counters, and LLDP's tables
+where a test adds them."""
 
 from __future__ import annotations
 
+import json
 import os
 import shutil
 import socket
 import subprocess
 import sys
 import time
+from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
@@ -100,16 +103,25 @@ def start_agent(
 
 
 class Snmpd:
-    """net-snmp's snmpd in the foreground, our own config, v2c and a v3 user."""
+    """net-snmp's snmpd in the foreground, our own config, v2c and a v3 user; with
+    ``lldp`` (OID -> pass type and value), LLDP's tables served by a pass_persist program."""
 
-    def __init__(self, folder: Path) -> None:
+    def __init__(self, folder: Path, lldp: dict[str, tuple[str, str]] | None = None) -> None:
         binary = require("snmpd")
         self.port = free_udp_port()
         config = folder / "snmpd.conf"
+        served = ""
+        if lldp is not None:
+            (folder / "lldp.json").write_text(json.dumps(lldp))
+            program = Path(__file__).with_name("lldp_pass.py")
+            # LLDP-MIB's subtree, lldpMIB (IEEE 802.1AB-2005 12.1).
+            served = (
+                f"pass_persist .1.0.8802.1.1.2 {sys.executable} {program} {folder / 'lldp.json'}\n"
+            )
         config.write_text(
             f"rocommunity {COMMUNITY} 127.0.0.1\n"
             f'createUser {V3_USER} SHA "{V3_AUTH}" AES "{V3_PRIV}"\n'
-            f"rouser {V3_USER} priv\n"
+            f"rouser {V3_USER} priv\n" + served
         )
         (folder / "persist").mkdir(exist_ok=True)
         env = {**os.environ, "SNMP_PERSISTENT_DIR": str(folder / "persist")}
@@ -163,8 +175,78 @@ def recorded_walk(
             wide = counter.startswith("ifHC")
             tag = 70 if wide else 65
             lines.append(f"{oid}.{index}|{tag}|{value if wide else value % 2**32}")
-    # snmprec files are sorted by OID, compared component by component.
+    return by_oid(lines)
+
+
+def by_oid(lines: list[str]) -> list[str]:
+    """snmprec lines in the order snmpsim needs: by OID, compared component by component."""
     return sorted(lines, key=lambda line: [int(p) for p in line.split("|")[0].split(".")])
+
+
+#: LLDP's tables, numbered from the MIB texts themselves (not taken from the collector):
+#: LLDP-MIB, IEEE 802.1AB-2005 12.1 (lldpRemEntry columns 6 lldpRemPortIdSubtype,
+#: 7 lldpRemPortId, 8 lldpRemPortDesc, 9 lldpRemSysName; lldpLocPortEntry columns
+#: 2 lldpLocPortIdSubtype, 3 lldpLocPortId, 4 lldpLocPortDesc), and LLDP-V2-MIB,
+#: IEEE 802.1AB-2009 (lldpV2RemEntry columns 7 to 10, the same four objects).
+LLDP_REM_ENTRY = "1.0.8802.1.1.2.1.4.1.1"
+LLDP_LOC_PORT_ENTRY = "1.0.8802.1.1.2.1.3.7.1"
+LLDP_V2_REM_ENTRY = "1.3.111.2.802.1.1.13.1.4.1.1"
+
+
+@dataclass(frozen=True)
+class Remote:
+    """One remote entry: what the device heard on local port ``local`` (lldpRemLocalPortNum
+    in LLDP-MIB, the ifIndex itself in LLDP-V2-MIB)."""
+
+    local: int
+    system: str
+    subtype: int  # LldpPortIdSubtype: 3 macAddress, 5 interfaceName, 7 local, ...
+    port_id: str | bytes
+    desc: str | None = None
+    time_mark: int = 0
+    index: int = 1
+
+
+def _octets(value: str | bytes) -> str:
+    """An OCTET STRING as an snmprec tag and value: text as it is, octets in hex (4x)."""
+    return f"4x|{value.hex()}" if isinstance(value, bytes) else f"4|{value}"
+
+
+def lldp_walk(remote: list[Remote], local: dict[int, tuple[int, str | bytes, str]]) -> list[str]:
+    """LLDP-MIB's remote table and local port table (lldpLocPortNum -> subtype, id,
+    description) as snmprec lines."""
+    lines = []
+    for far in remote:
+        row = f"{far.time_mark}.{far.local}.{far.index}"
+        lines += [
+            f"{LLDP_REM_ENTRY}.6.{row}|2|{far.subtype}",
+            f"{LLDP_REM_ENTRY}.7.{row}|{_octets(far.port_id)}",
+            f"{LLDP_REM_ENTRY}.9.{row}|4|{far.system}",
+        ]
+        if far.desc is not None:
+            lines.append(f"{LLDP_REM_ENTRY}.8.{row}|4|{far.desc}")
+    for number, (subtype, port_id, desc) in local.items():
+        lines += [
+            f"{LLDP_LOC_PORT_ENTRY}.2.{number}|2|{subtype}",
+            f"{LLDP_LOC_PORT_ENTRY}.3.{number}|{_octets(port_id)}",
+            f"{LLDP_LOC_PORT_ENTRY}.4.{number}|4|{desc}",
+        ]
+    return lines
+
+
+def lldp_v2_walk(remote: list[Remote], dest_address_index: int = 1) -> list[str]:
+    """LLDP-V2-MIB's remote table as snmprec lines (``local`` is the ifIndex)."""
+    lines = []
+    for far in remote:
+        row = f"{far.time_mark}.{far.local}.{dest_address_index}.{far.index}"
+        lines += [
+            f"{LLDP_V2_REM_ENTRY}.7.{row}|2|{far.subtype}",
+            f"{LLDP_V2_REM_ENTRY}.8.{row}|{_octets(far.port_id)}",
+            f"{LLDP_V2_REM_ENTRY}.10.{row}|4|{far.system}",
+        ]
+        if far.desc is not None:
+            lines.append(f"{LLDP_V2_REM_ENTRY}.9.{row}|4|{far.desc}")
+    return lines
 
 
 class Snmpsim:

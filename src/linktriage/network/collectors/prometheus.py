@@ -24,6 +24,16 @@ the ``ifName`` label; both are configurable per device, as is the label that nam
 
 Prometheus stores samples as float64: counters are exact up to 2^53 (9 PB of octets),
 beyond that they keep 53 significant bits, which leaves rates over any window intact.
+
+Each port's far end comes, in the same query, from the series an SNMP exporter publishes
+when its module walks LLDP-MIB's lldpRemTable and lldpLocPortTable (IEEE 802.1AB-2005
+12.1): a string object as an info series whose value is a label of the metric's own name
+(``lldpRemSysName{lldpRemLocalPortNum="101",...,lldpRemSysName="core1"} 1``), the port id
+already decoded by its subtype (a MAC address as 04:05:06:07:08:09, text for names, hex
+``0x...`` for the rest; snmp_exporter collector/collector.go), and the subtype as a gauge.
+The local port number is matched to a port as :func:`~linktriage.network.collectors.lldp.
+local_ports` says, from the lldpLocPortId and lldpLocPortDesc series or from the same
+labels where the module looks them up onto the remote series.
 """
 
 from __future__ import annotations
@@ -44,7 +54,8 @@ from linktriage.counters import COLUMN_INDEX, COUNTER64_MAX
 from linktriage.errors import BadAnswerError, CollectorError
 from linktriage.network.collectors.base import HistoryCollector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
-from linktriage.snapshot import Snapshot
+from linktriage.network.collectors.lldp import FarEnd, far_end, local_ports, neighbor
+from linktriage.snapshot import Neighbor, Snapshot
 
 #: Port state the collector reads, by the IF-MIB / EtherLike-MIB object (RFC 2863, RFC 3635)
 #: whose value the metric carries.
@@ -60,6 +71,12 @@ STATE_OBJECTS = (
 #: ifCounterDiscontinuityTime in time, and ``up``, Prometheus's own record of whether the
 #: last scrape worked (0: what it holds is stale).
 DEVICE_OBJECTS = ("sysUpTime", "up")
+#: LLDP-MIB objects (IEEE 802.1AB-2005 12.1) of the remote table, indexed by the labels
+#: lldpRemTimeMark, lldpRemLocalPortNum and lldpRemIndex, and of the local port table,
+#: indexed by lldpLocPortNum.
+LLDP_REMOTE = ("lldpRemSysName", "lldpRemPortIdSubtype", "lldpRemPortId", "lldpRemPortDesc")
+LLDP_LOCAL = ("lldpLocPortId", "lldpLocPortDesc")
+LLDP_ROW = ("lldpRemTimeMark", "lldpRemLocalPortNum", "lldpRemIndex")
 OPER_STATUS = {1: "up", 2: "down", 3: "testing", 4: "unknown", 5: "dormant", 6: "notPresent",
                7: "lowerLayerDown"}  # fmt: skip
 DUPLEX = {1: "unknown", 2: "half", 3: "full"}
@@ -127,7 +144,7 @@ class PrometheusOptions(HttpOptions):
     @field_validator("metrics")
     @classmethod
     def _metric_names(cls, metrics: dict[str, str]) -> dict[str, str]:
-        known = {*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS}
+        known = {*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS, *LLDP_REMOTE, *LLDP_LOCAL}
         for obj, metric in metrics.items():
             if obj not in known:
                 raise ValueError(f"{obj!r} is not a counter or state object linktriage reads")
@@ -174,6 +191,8 @@ class Samples:
             raise ValueError("the answer holds no matrix of samples")
         self.ports: dict[str, dict[float, dict[str, Any]]] = defaultdict(dict)
         self.device: dict[str, list[tuple[float, Any]]] = {o: [] for o in DEVICE_OBJECTS}
+        self.lldp: dict[str, list[Series]] = {o: [] for o in (*LLDP_REMOTE, *LLDP_LOCAL)}
+        self.interfaces: dict[str, dict[str, str]] = {}  # port -> its series' labels
         self.problems: dict[str, str] = {}
         unlabelled = 0
         seen: dict[tuple[str, str], int] = defaultdict(int)
@@ -185,10 +204,14 @@ class Samples:
             if obj in self.device:
                 self.device[obj] += series.values
                 continue
+            if obj in self.lldp:
+                self.lldp[obj].append(series)
+                continue
             port = labels.get(port_label)
             if not port:
                 unlabelled += 1
                 continue
+            self.interfaces.setdefault(port, labels)
             seen[(port, obj)] += 1
             times = self.ports[port]
             for t, v in series.values:
@@ -219,6 +242,51 @@ class Samples:
         t, ticks = min(uptime, key=lambda sample: abs(sample[0] - at))
         return t - _integer(ticks) / 100.0
 
+    def neighbors(self) -> dict[str, Neighbor]:
+        """Each port's neighbor from the LLDP-MIB series (port -> neighbor); a port is
+        known here by its series' ifIndex and ifDescr labels, as the exporter sets them."""
+        remote: dict[tuple[str, ...], dict[str, Any]] = defaultdict(dict)
+        local: dict[str, dict[str, Any]] = defaultdict(dict)  # lldpLocPortNum -> objects
+        for obj in LLDP_REMOTE:
+            for series in self.lldp[obj]:
+                labels = series.metric
+                row = tuple(labels.get(name, "") for name in LLDP_ROW)
+                remote[row][obj] = _lldp_value(series, obj)
+                for looked_up in LLDP_LOCAL:  # a module may look them up onto this series
+                    if labels.get(looked_up):
+                        local[row[1]].setdefault(looked_up, _exported(labels[looked_up]))
+        for obj in LLDP_LOCAL:
+            for series in self.lldp[obj]:
+                number = series.metric.get("lldpLocPortNum", "")
+                local[number].setdefault(obj, _lldp_value(series, obj))
+        ends = {
+            row: far_end(v.get("lldpRemSysName"), v.get("lldpRemPortIdSubtype"),
+                         v.get("lldpRemPortId"), v.get("lldpRemPortDesc"))
+            for row, v in remote.items()
+        }  # fmt: skip
+        by_index = {
+            int(labels["ifIndex"]): port
+            for port, labels in self.interfaces.items()
+            if labels.get("ifIndex", "").isdigit()
+        }
+        descriptions = {
+            index: self.interfaces[port].get("ifDescr", "") for index, port in by_index.items()
+        }
+        numbers = {int(row[1]) for row in ends if row[1].isdigit()}
+        rows = {
+            int(number): far_end(None, None, v.get("lldpLocPortId"), v.get("lldpLocPortDesc"))
+            for number, v in local.items()
+            if number.isdigit()
+        }
+        mapped = local_ports(numbers, rows, by_index, descriptions)
+        heard: dict[str, list[FarEnd]] = defaultdict(list)
+        for row, end in ends.items():
+            index = mapped.get(int(row[1])) if row[1].isdigit() else None
+            if index is not None:
+                heard[by_index[index]].append(end)
+        found = {port: neighbor(far) for port, far in heard.items()}
+        return {port: far for port, far in found.items() if far is not None}
+
     def failed_since(self) -> float | None:
         """When the scrapes that still fail began, if the newest one failed (``up`` 0)."""
         up = self.device["up"]
@@ -230,8 +298,35 @@ class Samples:
         return up[first][0]
 
 
+def _exported(text: str) -> bytes | str:
+    """An exporter's rendering of an OCTET STRING as far as it goes: ``0x...`` is octets
+    it could not decode (no subtype to go by), anything else is text."""
+    if text.startswith("0x"):
+        try:
+            return bytes.fromhex(text[2:])
+        except ValueError:
+            return text
+    return text
+
+
+def _lldp_value(series: Series, obj: str) -> Any:
+    """An LLDP object's value: the subtype is the gauge's newest sample; a string is the
+    label named as the metric (the SNMP exporter's info series)."""
+    if obj == "lldpRemPortIdSubtype":
+        try:
+            return _integer(max(series.values)[1]) if series.values else None
+        except ValueError:  # not a subtype: the id is read as if none were published
+            return None
+    return _exported(series.metric.get(series.metric.get("__name__", ""), ""))
+
+
 def _snapshot(
-    device: str, port: str, at: float, values: dict[str, Any], booted: float | None
+    device: str,
+    port: str,
+    at: float,
+    values: dict[str, Any],
+    booted: float | None,
+    far: Neighbor | None,
 ) -> Snapshot:
     # float64 rounds the top 1,024 Counter64 values up to 2^64: read them as the largest.
     counters = {
@@ -258,6 +353,7 @@ def _snapshot(
         duplex=None if duplex is None else DUPLEX.get(duplex),
         mtu=state.get("ifMtu"),
         discontinuity_time=discontinuity,
+        neighbor=far,
     )
 
 
@@ -361,7 +457,7 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
         super().__init__(target)
         o = self.options
         self.url = o.server.rstrip("/") + "/api/v1/query"
-        names = [*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS]
+        names = [*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS, *LLDP_REMOTE, *LLDP_LOCAL]
         self.objects = {o.metrics.get(name, name): name for name in names}  # metric -> object
         instance = o.instance or target.address or target.name
         self.labels = {o.device_label: instance, **o.matchers}
@@ -420,13 +516,21 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
         wanted = None if ports is None else set(ports)
         snapshots: list[Snapshot] = []
         problems = {p: why for p, why in samples.problems.items() if wanted is None or p in wanted}
+        neighbors = samples.neighbors()
         for port, times in samples.ports.items():
             if wanted is not None and port not in wanted:
                 continue
             moments = sorted(times)[-1:] if newest_only else sorted(times)
             try:
                 snapshots += [
-                    _snapshot(self.target.name, port, at, times[at], samples.booted(at))
+                    _snapshot(
+                        self.target.name,
+                        port,
+                        at,
+                        times[at],
+                        samples.booted(at),
+                        neighbors.get(port),
+                    )
                     for at in moments
                 ]
             except (ValueError, TypeError, ValidationError) as exc:

@@ -11,20 +11,39 @@ gauge64 speed) arrive as strings, 32-bit ones as numbers; member names may carry
 module's prefix. Statistics map to the IF-MIB objects RFC 8343 section 4 names
 (in-octets: ifHCInOctets, in-errors: ifInErrors, ...). TLS certificates are verified
 unless the inventory says otherwise; credentials (basic or a bearer token) are references.
+
+Beside it, in the same family of standard models, each port's far end comes from IEEE's
+LLDP module, ieee802-dot1ab-lldp (IEEE 802.1ABcu; ``lldp/port[name][dest-mac-address]/
+remote-systems-data``), asked for at the same time::
+
+    GET {scheme}://{address}{root}/data/ieee802-dot1ab-lldp:lldp?content=nonconfig
+
+Its ports are named by ``if:interface-ref``, so they are the ietf-interfaces names
+themselves. A device without the module (404), or one whose answer cannot be read, still
+gives its counters, with no neighbors. Neighbors are asked for again only every
+``neighbors_every_s`` (300 s unless set), and kept in between.
 """
 
 from __future__ import annotations
 
+import asyncio
 from collections.abc import Sequence
 from datetime import UTC, datetime
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import ValidationError
+from pydantic import Field, ValidationError
 
-from linktriage.errors import BadAnswerError
+from linktriage.errors import BadAnswerError, CollectorError
 from linktriage.network.collectors.base import Collector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
-from linktriage.snapshot import Snapshot
+from linktriage.network.collectors.lldp import (
+    NEIGHBORS_EVERY_S,
+    FarEnd,
+    Remembered,
+    far_end,
+    neighbor,
+)
+from linktriage.snapshot import Neighbor, Snapshot
 
 #: RFC 8343 statistics leaves and the IF-MIB counters they are (RFC 8343 section 4).
 STATISTICS = {
@@ -59,6 +78,7 @@ class RestconfOptions(HttpOptions):
     port: int | None = None
     root: str = "/restconf"
     datastore: Literal["data", "operational"] = "data"
+    neighbors_every_s: Annotated[float, Field(ge=0)] = NEIGHBORS_EVERY_S
 
 
 def _local(name: str) -> str:
@@ -84,10 +104,34 @@ def _counter(value: Any) -> int:
     raise ValueError(f"{value!r} is not a counter")
 
 
+def lldp_neighbors(document: Any) -> dict[str, Neighbor]:
+    """The neighbor of each port an ieee802-dot1ab-lldp document names (port name ->
+    neighbor): its remote-systems-data entries' system-name, and port-id by its
+    port-id-subtype, or port-desc (ieee802-types port-id-subtype-type). A port is listed
+    once per destination address it runs LLDP for; all of its entries are one port's."""
+    ports = _members(_members(document).get("lldp")).get("port")
+    heard: dict[str, list[FarEnd]] = {}
+    for raw in ports if isinstance(ports, list) else []:
+        entry = _members(raw)
+        name, remote = entry.get("name"), entry.get("remote-systems-data")
+        if not isinstance(name, str) or not isinstance(remote, list):
+            continue
+        for far in map(_members, remote):
+            values = [
+                far.get(leaf) for leaf in ("system-name", "port-id-subtype", "port-id", "port-desc")
+            ]
+            if all(value is None or isinstance(value, str) for value in values):
+                heard.setdefault(name, []).append(far_end(*values))
+    found = {name: neighbor(ends) for name, ends in heard.items()}
+    return {name: far for name, far in found.items() if far is not None}
+
+
 def interfaces_to_snapshots(
-    document: Any, device: str, at: datetime
+    document: Any, device: str, at: datetime, neighbors: dict[str, Neighbor] | None = None
 ) -> tuple[list[Snapshot], dict[str, str]]:
-    """Snapshots of every interface in an ietf-interfaces document, and per-port problems."""
+    """Snapshots of every interface in an ietf-interfaces document, with each port's
+    neighbor (port name -> neighbor), and per-port problems."""
+    neighbors = neighbors or {}
     top = _members(document).get("interfaces")
     interfaces = _members(top).get("interface")
     if not isinstance(interfaces, list):
@@ -117,6 +161,7 @@ def interfaces_to_snapshots(
                     counters=counters,
                     speed_bps=None if speed is None else _counter(speed),
                     discontinuity_time=statistics.get("discontinuity-time"),
+                    neighbor=neighbors.get(name),
                 )
             )
         except (ValueError, ValidationError) as exc:
@@ -132,14 +177,13 @@ class RestconfCollector(Collector[RestconfOptions]):
         o = self.options
         port = f":{o.port}" if o.port else ""
         host = f"[{target.address}]" if target.address and ":" in target.address else target.address
-        path = (
-            "/data/ietf-interfaces:interfaces"
-            if o.datastore == "data"
-            else "/ds/ietf-datastores:operational/ietf-interfaces:interfaces"
-        )
-        self.url = f"{o.scheme}://{host}{port}{o.root.rstrip('/')}{path}"
+        data = "/data/" if o.datastore == "data" else "/ds/ietf-datastores:operational/"
+        base = f"{o.scheme}://{host}{port}{o.root.rstrip('/')}{data}"
+        self.url = base + "ietf-interfaces:interfaces"
+        self.lldp_url = base + "ieee802-dot1ab-lldp:lldp"
         self.params = {"content": "nonconfig"} if o.datastore == "data" else {}
         self.http = HttpSession(self, o, MEDIA_TYPE)
+        self.lldp: Remembered[str] = Remembered(o.neighbors_every_s)
 
     async def close(self) -> None:
         await self.http.close()
@@ -150,11 +194,28 @@ class RestconfCollector(Collector[RestconfOptions]):
     async def ports(self) -> list[str]:
         return [s.port for s in (await self.read()).snapshots]
 
+    async def _neighbors(self) -> dict[str, Neighbor]:
+        """Each port's neighbor; none where the device has no LLDP module or its answer
+        cannot be read: the counters do not depend on it."""
+        try:
+            return lldp_neighbors(await self.http.get_json(self.lldp_url, self.params))
+        except CollectorError:
+            return {}
+
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
-        document = await self._get()
+        # Asked at once, beside the counters, when due.
+        lldp = asyncio.create_task(self._neighbors()) if self.lldp.due() else None
+        try:
+            document = await self._get()
+        except BaseException:
+            if lldp is not None:
+                lldp.cancel()
+            raise
+        if lldp is not None:
+            self.lldp.keep(await lldp)
         try:
             snapshots, problems = interfaces_to_snapshots(
-                document, self.target.name, datetime.now(UTC)
+                document, self.target.name, datetime.now(UTC), self.lldp.neighbors
             )
         except ValueError as exc:
             raise self.error(BadAnswerError, f"answered without interface data: {exc}") from exc

@@ -7,13 +7,21 @@ ifCounterDiscontinuityTime into a moment. Ports are named by ifName (ifDescr whe
 has no ifName). A device without the 64-bit objects still answers with its Counter32 ones;
 objects a device lacks are left out of the snapshot. SNMPv1 is not offered: Counter64
 cannot travel over it (RFC 3584 section 4.2.2.1).
+
+The far end of each port comes from LLDP's remote table: LLDP-V2-MIB's (IEEE 802.1AB-2009)
+where the device answers it, indexed by the local ifIndex itself, else LLDP-MIB's
+(IEEE 802.1AB-2005), whose local port numbers are matched to ports through
+lldpLocPortTable (:func:`~linktriage.network.collectors.lldp.local_ports`). The system
+names are walked with the counters, the rest of the table only where a device has some:
+a device without LLDP costs two short walks. Neighbors are read again only every
+``neighbors_every_s`` (300 s unless set), and kept in between.
 """
 
 from __future__ import annotations
 
 import asyncio
 import time
-from collections.abc import Sequence
+from collections.abc import Awaitable, Callable, Sequence
 from datetime import UTC, datetime
 from typing import Annotated, Any, Literal
 
@@ -21,7 +29,15 @@ from pydantic import Field
 
 from linktriage.errors import BadAnswerError, CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Collector, Options, Reading, SecretRef, Target
-from linktriage.snapshot import Snapshot
+from linktriage.network.collectors.lldp import (
+    NEIGHBORS_EVERY_S,
+    FarEnd,
+    Remembered,
+    far_end,
+    local_ports,
+    neighbor,
+)
+from linktriage.snapshot import Neighbor, Snapshot
 
 IF_ENTRY = "1.3.6.1.2.1.2.2.1"
 IFX_ENTRY = "1.3.6.1.2.1.31.1.1.1"
@@ -66,6 +82,31 @@ STATE_COLUMNS: dict[str, str] = {
     f"{IFX_ENTRY}.19": "ifCounterDiscontinuityTime",
     f"{DOT3_ENTRY}.19": "dot3StatsDuplexStatus",
 }
+#: LLDP-MIB (IEEE 802.1AB-2005 12.1): lldpRemEntry, indexed by lldpRemTimeMark,
+#: lldpRemLocalPortNum, lldpRemIndex; lldpLocPortEntry, indexed by lldpLocPortNum.
+LLDP_REM_ENTRY = "1.0.8802.1.1.2.1.4.1.1"
+LLDP_LOC_PORT_ENTRY = "1.0.8802.1.1.2.1.3.7.1"
+LLDP_REM = {
+    "subtype": f"{LLDP_REM_ENTRY}.6",  # lldpRemPortIdSubtype
+    "port_id": f"{LLDP_REM_ENTRY}.7",  # lldpRemPortId
+    "port_desc": f"{LLDP_REM_ENTRY}.8",  # lldpRemPortDesc
+}
+LLDP_REM_SYS_NAME = f"{LLDP_REM_ENTRY}.9"
+LLDP_LOC = {
+    "subtype": f"{LLDP_LOC_PORT_ENTRY}.2",  # lldpLocPortIdSubtype
+    "port_id": f"{LLDP_LOC_PORT_ENTRY}.3",  # lldpLocPortId
+    "port_desc": f"{LLDP_LOC_PORT_ENTRY}.4",  # lldpLocPortDesc
+}
+#: LLDP-V2-MIB (IEEE 802.1AB-2009): lldpV2RemEntry, indexed by lldpV2RemTimeMark,
+#: lldpV2RemLocalIfIndex, lldpV2RemLocalDestMACAddress, lldpV2RemIndex; each column sits one
+#: above its LLDP-MIB counterpart (the ifIndex is column 2).
+LLDP_V2_REM_ENTRY = "1.3.111.2.802.1.1.13.1.4.1.1"
+LLDP_V2_REM = {
+    "subtype": f"{LLDP_V2_REM_ENTRY}.7",  # lldpV2RemPortIdSubtype
+    "port_id": f"{LLDP_V2_REM_ENTRY}.8",  # lldpV2RemPortId
+    "port_desc": f"{LLDP_V2_REM_ENTRY}.9",  # lldpV2RemPortDesc
+}
+LLDP_V2_REM_SYS_NAME = f"{LLDP_V2_REM_ENTRY}.10"
 #: ifOperStatus values (RFC 2863) and dot3StatsDuplexStatus values (RFC 3635).
 OPER_STATUS = {1: "up", 2: "down", 3: "testing", 4: "unknown", 5: "dormant", 6: "notPresent",
                7: "lowerLayerDown"}  # fmt: skip
@@ -85,6 +126,7 @@ class SnmpOptions(Options):
     max_repetitions: int = 25
     #: Walks in flight at once to one device: a switch's agent is a small, busy process.
     parallel_walks: Annotated[int, Field(ge=1, le=32)] = 4
+    neighbors_every_s: Annotated[float, Field(ge=0)] = NEIGHBORS_EVERY_S
 
 
 def _engine() -> Any:
@@ -100,9 +142,15 @@ def _engine() -> Any:
 
 
 def snapshots_from_columns(
-    device: str, columns: dict[str, dict[int, Any]], uptime_s: float | None, now: float
+    device: str,
+    columns: dict[str, dict[int, Any]],
+    uptime_s: float | None,
+    now: float,
+    neighbors: dict[int, Neighbor] | None = None,
 ) -> tuple[list[Snapshot], dict[str, str]]:
-    """Snapshots from walked columns (column name -> ifIndex -> value)."""
+    """Snapshots from walked columns (column name -> ifIndex -> value), with the far end
+    of each port LLDP names (ifIndex -> neighbor)."""
+    neighbors = neighbors or {}
     names = columns.get("ifName", {})
     descriptions = columns.get("ifDescr", {})
     at = datetime.fromtimestamp(now, UTC)
@@ -133,11 +181,27 @@ def snapshots_from_columns(
                     duplex=_lookup(DUPLEX, state["dot3StatsDuplexStatus"]),
                     mtu=None if state["ifMtu"] is None else int(state["ifMtu"]),
                     discontinuity_time=_moment(booted, state["ifCounterDiscontinuityTime"]),
+                    neighbor=neighbors.get(index),
                 )
             )
         except (TypeError, ValueError) as exc:
             problems[name] = f"malformed answer: {exc}".splitlines()[0]
     return snapshots, problems
+
+
+Row = tuple[int, ...]  # a table row's index: the OID's sub-identifiers after the column
+
+
+def lldp_neighbors(remote: dict[Row, FarEnd], local_port: dict[int, int]) -> dict[int, Neighbor]:
+    """The neighbor of each ifIndex from remote entries keyed by their row index, whose
+    second sub-identifier is the local port (``local_port`` maps it to an ifIndex)."""
+    heard: dict[int, list[FarEnd]] = {}
+    for row, end in remote.items():
+        index = local_port.get(row[1])
+        if index is not None:
+            heard.setdefault(index, []).append(end)
+    found = {index: neighbor(ends) for index, ends in heard.items()}
+    return {index: far for index, far in found.items() if far is not None}
 
 
 def _speed(high: Any, low: Any) -> int | None:
@@ -170,6 +234,7 @@ class SnmpCollector(Collector[SnmpOptions]):
             raise self.error(CollectorError, 'SNMP v2c needs community = { env = "..." }')
         if o.version == "3" and o.user is None:
             raise self.error(CollectorError, "SNMP v3 needs a user")
+        self.lldp: Remembered[int] = Remembered(o.neighbors_every_s)
 
     def _auth(self) -> Any:
         from pysnmp.hlapi.v3arch import asyncio as hlapi
@@ -198,8 +263,9 @@ class SnmpCollector(Collector[SnmpOptions]):
             privProtocol=priv if o.priv_key else hlapi.USM_PRIV_NONE,
         )
 
-    async def _walk(self, engine: Any, auth: Any, transport: Any, column: str) -> dict[int, Any]:
-        """Every row of one column, by ifIndex (GETBULK, stopping at the column's end)."""
+    async def _walk(self, engine: Any, auth: Any, transport: Any, column: str) -> dict[Row, Any]:
+        """Every row of one column, by its index (GETBULK, stopping at the column's end),
+        as the agent typed it; exception values (RFC 3416) left out."""
         from pysnmp.hlapi.v3arch.asyncio import (
             ContextData,
             ObjectIdentity,
@@ -208,7 +274,7 @@ class SnmpCollector(Collector[SnmpOptions]):
         )
 
         o = self.options
-        rows: dict[int, Any] = {}
+        rows: dict[Row, Any] = {}
         prefix = column + "."
         async for error, status, _index, binds in bulk_walk_cmd(
             engine, auth, transport, ContextData(), 0, o.max_repetitions,
@@ -224,9 +290,8 @@ class SnmpCollector(Collector[SnmpOptions]):
                 break  # e.g. noSuchName from a device that lacks the table
             for oid, value in binds:
                 text = str(oid)
-                plain = _plain(value)
-                if text.startswith(prefix) and plain is not None:
-                    rows[int(text[len(prefix) :].split(".")[0])] = plain
+                if text.startswith(prefix) and value.__class__.__name__ not in _EXCEPTIONS:
+                    rows[tuple(int(part) for part in text[len(prefix) :].split("."))] = value
         return rows
 
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
@@ -267,17 +332,57 @@ class SnmpCollector(Collector[SnmpOptions]):
         # ifCounterDiscontinuityTime cannot be placed in time without it.
         uptime = _plain(binds[0][1])
         uptime_s = uptime / 100.0 if isinstance(uptime, int) else None
-        all_columns = {**COUNTER_COLUMNS, **STATE_COLUMNS}
         gate = asyncio.Semaphore(o.parallel_walks)
 
-        async def gated(oid: str) -> dict[int, Any]:
-            async with gate:
-                return await self._walk(engine, auth, transport, oid)
+        async def walk(oids: list[str]) -> list[dict[Row, Any]]:
+            async def gated(oid: str) -> dict[Row, Any]:
+                async with gate:
+                    return await self._walk(engine, auth, transport, oid)
 
-        walked = await asyncio.gather(*(gated(oid) for oid in all_columns))
-        columns = dict(zip(all_columns.values(), walked, strict=True))
-        snapshots, problems = snapshots_from_columns(self.target.name, columns, uptime_s, now)
+            return list(await asyncio.gather(*(gated(oid) for oid in oids)))
+
+        all_columns = {**COUNTER_COLUMNS, **STATE_COLUMNS}
+        asking = self.lldp.due()
+        lldp = [LLDP_V2_REM_SYS_NAME, LLDP_REM_SYS_NAME] if asking else []
+        walked = await walk([*all_columns, *lldp])
+        columns = {
+            name: {
+                row[0]: plain for row, value in rows.items() if (plain := _plain(value)) is not None
+            }
+            for name, rows in zip(all_columns.values(), walked[: len(all_columns)], strict=True)
+        }
+        if asking:
+            v2_names, v1_names = walked[len(all_columns) :]
+            self.lldp.keep(await self._neighbors(walk, columns, v2_names, v1_names))
+        snapshots, problems = snapshots_from_columns(
+            self.target.name, columns, uptime_s, now, self.lldp.neighbors
+        )
         return Reading(snapshots, problems).only(ports)
+
+    async def _neighbors(
+        self,
+        walk: Callable[[list[str]], Awaitable[list[dict[Row, Any]]]],
+        columns: dict[str, dict[int, Any]],
+        v2_names: dict[Row, Any],
+        v1_names: dict[Row, Any],
+    ) -> dict[int, Neighbor]:
+        """The far end of each port (ifIndex -> neighbor) from LLDP-V2-MIB where the device
+        has remote entries there, else from LLDP-MIB; none where it has neither."""
+        if v2_names:
+            remote = _far_ends(v2_names, await walk(list(LLDP_V2_REM.values())))
+            return lldp_neighbors(remote, {row[1]: row[1] for row in remote})
+        if not v1_names:
+            return {}
+        *rem, loc_subtype, loc_id, loc_desc = await walk([*LLDP_REM.values(), *LLDP_LOC.values()])
+        remote = _far_ends(v1_names, rem)
+        local = {
+            row[0]: far_end(None, _lldp_value(loc_subtype.get(row)), _lldp_value(port_id),
+                            _lldp_value(loc_desc.get(row)))
+            for row, port_id in loc_id.items()
+        }  # fmt: skip
+        numbers = {row[1] for row in remote}
+        mapped = local_ports(numbers, local, columns.get("ifName", {}), columns.get("ifDescr", {}))
+        return lldp_neighbors(remote, mapped)
 
     async def ports(self) -> list[str]:
         return [s.port for s in (await self.read()).snapshots]
@@ -294,6 +399,30 @@ class SnmpCollector(Collector[SnmpOptions]):
 #: SNMPv2 exception values (RFC 3416 section 3): the agent has no such object or instance,
 #: or the walk ran off the end of its MIB. They stand for "not reported", never for a value.
 _EXCEPTIONS = frozenset({"NoSuchObject", "NoSuchInstance", "EndOfMibView"})
+
+
+def _far_ends(names: dict[Row, Any], columns: list[dict[Row, Any]]) -> dict[Row, FarEnd]:
+    """Remote entries from the system name column and the subtype, id and description
+    columns, by row."""
+    subtype, port_id, desc = columns
+    return {
+        row: far_end(_lldp_value(name), _lldp_value(subtype.get(row)),
+                     _lldp_value(port_id.get(row)), _lldp_value(desc.get(row)))
+        for row, name in names.items()
+    }  # fmt: skip
+
+
+def _lldp_value(value: Any) -> Any:
+    """An LLDP object as octets (an OCTET STRING, kept whole: a port id may be a MAC
+    address) or an int (a subtype); None where absent or of another type."""
+    if value is None:
+        return None
+    if value.__class__.__name__ in ("OctetString", "DisplayString"):
+        return bytes(value.asOctets())
+    try:
+        return int(value)
+    except (TypeError, ValueError):
+        return None
 
 
 def _plain(value: Any) -> int | str | None:
