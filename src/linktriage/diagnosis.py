@@ -245,6 +245,7 @@ class DiagnosisBatch:
 
     def __post_init__(self) -> None:
         self._columns: dict[str, list[float]] | None = None
+        self._views: dict[int, LinkView] = {}
         self._changes: dict[tuple[int, float, bool, int], Callable[[float], str]] = {}
 
     def __len__(self) -> int:
@@ -353,9 +354,14 @@ class DiagnosisBatch:
 
     def link(self, i: int) -> LinkView | None:
         """The link of row ``i`` judged from both ends, None where its far end is not in
-        the batch."""
+        the batch; judged once, as lists of suspects and records both ask."""
         j = self.far[i]
-        return None if j < 0 else judge_link(i, j, self.verdict, self.column, self.end_name)
+        if j < 0:
+            return None
+        view = self._views.get(i)
+        if view is None:
+            view = self._views[i] = judge_link(i, j, self.verdict, self.column, self.end_name)
+        return view
 
     def link_verdict(self, i: int) -> Verdict:
         """What row ``i``'s link is, from both ends where both are in the batch, else from
