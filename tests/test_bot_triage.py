@@ -3,14 +3,23 @@ answered with where it is and what it serves."""
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import pytest
 
 from linktriage.bot.triage import Triage
+from linktriage.diagnosis import Model
+from linktriage.errors import PollError
+from linktriage.network.demo import DemoClock, DemoNetwork
+from linktriage.polls import PollTable
 from linktriage.render.replies import (
+    DiagnosisReply,
     ErrorReply,
     HelpReply,
     ModelReply,
 )
+from linktriage.settings import Settings
+from linktriage.store import Store
 
 
 @pytest.mark.parametrize(
@@ -39,3 +48,29 @@ def test_help_and_model_are_answered_privately(triage: Triage) -> None:
     card = triage.handle("model")
     assert isinstance(card, ModelReply) and card.visibility == "ephemeral"
     assert card.card["version"] == triage.model.version
+
+
+class FarEndSilent(DemoNetwork):
+    """The demo network whose lark-west-idf1 never answers: the far end of lark-core1 up3."""
+
+    def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
+        if device == "lark-west-idf1":
+            raise PollError(device, "no answer within 2 s")
+        return super().poll(device, ports)
+
+
+def test_an_answer_reads_its_far_end_and_stands_without_it_when_it_cannot_be_read(
+    triage: Triage, store: Store, model: Model, clock: DemoClock
+) -> None:
+    # lark-core1 up3's LLDP names lark-west-idf1 up1: read, the link is judged from both
+    # ends; not read, the port is answered alone, never with a view of what was not read.
+    both = triage.handle("lark-core1 up3")
+    assert isinstance(both, DiagnosisReply)
+    assert both.record["far_end"]["device"] == "lark-west-idf1"
+    assert both.record["link"]["verdict"] == "unidirectional"
+    silent = Triage(FarEndSilent(clock=clock), store, model, Settings(), clock=clock,
+                    sleep=clock.sleep)  # fmt: skip
+    alone = silent.handle("lark-core1 up3")
+    assert isinstance(alone, DiagnosisReply)
+    assert alone.record["verdict"] == "unidirectional"
+    assert "far_end" not in alone.record and "link" not in alone.record
