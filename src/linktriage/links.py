@@ -25,6 +25,7 @@ import numpy as np
 import numpy.typing as npt
 
 from linktriage.measures import MIN_COLLISIONS, MIN_EVENTS
+from linktriage.physics import ALIVE_FPS
 from linktriage.verdicts import FAULTS, GUIDES, SEVERITY, Verdict
 from linktriage.wording import sig
 
@@ -45,8 +46,6 @@ ONE_END_ONLY: dict[Verdict, str] = {
 }
 #: Verdicts of an end with no window to read two-ended signs from.
 UNREAD = frozenset({Verdict.LINK_DOWN, Verdict.NO_DATA})
-#: Frames a second a direction must carry for its silence at the far end to mean a break.
-ALIVE_FPS = 3.0
 
 
 def _short(name: str) -> str:
