@@ -5,8 +5,13 @@ from __future__ import annotations
 
 import asyncio
 import json
+import os
+import shutil
+import subprocess
+import sys
 from collections.abc import Awaitable, Callable
 from datetime import datetime, timedelta
+from pathlib import Path
 from typing import Any, TypeVar
 
 from linktriage.network.collectors.base import Collector, Reading
@@ -70,6 +75,65 @@ def polls(*lines: str) -> PollTable:
     result = read_snapshots(lines)
     assert result.problems == [], result.problems
     return result.polls
+
+
+def named(table: PollTable) -> dict[str, dict[str, Any]]:
+    """Every row of a poll table by device, port and time, each value by its own name (the
+    snapshot format's counter names, the table's field names): equal for two tables that
+    hold the same readings, whatever order their catalogues keep columns in."""
+    from linktriage.counters import COLUMNS
+
+    out: dict[str, dict[str, Any]] = {}
+    for i in range(len(table)):
+        key = f"{table.device[i]} {table.port[i]} {table.time[i]!r}"
+        readings = {**{f"state.{k}": v[i] for k, v in table.state.items()},
+                    **{f"optics.{k}": v[i] for k, v in table.optics.items()}}  # fmt: skip
+        out[key] = {
+            "status": str(table.oper_status[i]),
+            "counters": {
+                c.name: int(table.counters[i, j])
+                for j, c in enumerate(COLUMNS)
+                if table.present[i, j]
+            },
+            "readings": {k: float(v) for k, v in readings.items() if v == v},  # NaN: absent
+            "neighbor": [table.neighbor_device[i], table.neighbor_port[i]],
+        }
+    return out
+
+
+PACKAGE = Path(__file__).resolve().parents[1] / "src" / "linktriage"
+
+
+def package_copy(where: Path, edits: dict[str, Callable[[str], str]]) -> Path:
+    """A copy of the linktriage package under ``where``, each file named in ``edits``
+    (relative to the package) rewritten by its function; returns the folder to put on
+    PYTHONPATH. A test changes the product as a developer would, in a copy."""
+    root = where / "package"
+    shutil.copytree(PACKAGE, root / "linktriage", ignore=shutil.ignore_patterns("__pycache__"))
+    for name, edit in edits.items():
+        path = root / "linktriage" / name
+        before = path.read_text()
+        after = edit(before)
+        assert after != before, f"the edit of {name} changed nothing"
+        path.write_text(after)
+    return root
+
+
+def run_in_copy(root: Path, script: str, *args: str) -> subprocess.CompletedProcess[str]:
+    """Run ``script`` in a fresh interpreter that imports the package copy at ``root``
+    (and these test helpers); it must exit 0."""
+    tests = Path(__file__).resolve().parent
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join([str(root), str(tests)])}
+    check = f"import linktriage; assert linktriage.__file__.startswith({str(root)!r})\n"
+    done = subprocess.run(
+        [sys.executable, "-c", check + script, *args],
+        env=env,
+        capture_output=True,
+        text=True,
+        check=False,
+    )
+    assert done.returncode == 0, done.stderr
+    return done
 
 
 def artefact_of(clf: Any, features: list[str]) -> Any:

@@ -3,17 +3,31 @@ bytes of a JSON line; damaged bytes are refused, never read as counters."""
 
 from __future__ import annotations
 
+import logging
+import sqlite3
+import struct
+import zlib
 from pathlib import Path
 from typing import get_args
 
 import numpy as np
 import pytest
 
-from linktriage.packed import STATUSES, PackError, pack, unpack
+from linktriage.counters import COLUMN_INDEX
+from linktriage.packed import (
+    FORMAT,
+    LEGACY_FORMATS,
+    STATUSES,
+    PackError,
+    pack,
+    pack_columns,
+    unpack,
+    upgraded,
+)
 from linktriage.polls import PollTable
 from linktriage.snapshot import OperStatus, read_snapshot_file
 
-from helpers import line, polls
+from helpers import line, named, polls
 
 FIXTURES = Path(__file__).parents[1] / "fixtures" / "snapshots"
 
@@ -99,15 +113,100 @@ def test_damaged_bytes_are_refused(damage: object) -> None:
         unpack(damage(blob), "lark-test-sw1")  # type: ignore[operator]
 
 
-def test_neighbors_come_back_and_a_table_without_them_packs_as_before() -> None:
-    # A pack of a table naming no neighbor is format 1, byte for byte as before neighbors
-    # existed; one naming some is format 2 and brings their names back, None included.
+def test_neighbors_come_back_and_a_table_without_them_holds_no_neighbor_names() -> None:
     plain = polls(line(), line(port="port2"))
-    assert pack(plain)[0] == 1
+    assert 'neighbors":false' in _directory(pack(plain))
     linked = polls(line(neighbor={"device": "lark-core1", "port": "up3"}), line(port="port2"))
-    blob = pack(linked)
-    assert blob[0] == 2
-    back = unpack(blob, "lark-test-sw1")
+    back = unpack(pack(linked), "lark-test-sw1")
     assert_same(back, linked)
     assert back.neighbor_device.tolist() == ["lark-core1", None]
     assert back.neighbor_port.tolist() == ["up3", None]
+
+
+def _directory(blob: bytes) -> str:
+    """The column directory at the start of a format 3 pack's body, as text."""
+    heading = struct.unpack_from("<BII", blob)[2]
+    return zlib.decompress(blob[9:])[:heading].decode()
+
+
+def _renamed(blob: bytes, old: str, new: str) -> bytes:
+    """A format 3 pack whose directory calls column ``old`` ``new``, its values untouched."""
+    version, rows, heading = struct.unpack_from("<BII", blob)
+    body = zlib.decompress(blob[9:])
+    directory = body[:heading].decode().replace(f'"{old}"', f'"{new}"').encode()
+    return struct.pack("<BII", version, rows, len(directory)) + zlib.compress(
+        directory + body[heading:]
+    )
+
+
+def test_a_pack_names_every_column_it_holds_by_its_snapshot_format_name() -> None:
+    table = polls(
+        line(counters={"ifHCInOctets": 2**40, "dot3StatsFCSErrors": 7}, speed_bps=10**9,
+             optics={"rx_power_dbm": -3.1}),
+    )  # fmt: skip
+    blob = pack(table)
+    assert blob[0] == FORMAT
+    # Counters by their MIB names (RFC 2863, RFC 3635), the wide one first; readings only
+    # where some row carries them (NaN everywhere is not kept).
+    assert pack_columns(blob) == (
+        "ifHCInOctets", "dot3StatsFCSErrors", "state.speed_bps", "optics.rx_power_dbm",
+    )  # fmt: skip
+
+
+def test_a_column_this_release_does_not_know_is_named_and_the_rest_reads_exactly(
+    caplog: pytest.LogCaptureFixture,
+) -> None:
+    # As if a later release had added a counter: the pack names it, this reader has none.
+    table = polls(
+        line(counters={"ifHCInOctets": 5, "dot3StatsFCSErrors": 7, "ifInErrors": 9}, mtu=9000)
+    )
+    blob = _renamed(pack(table), "dot3StatsFCSErrors", "dot3StatsFutureCounter")
+    blob = _renamed(blob, "state.mtu", "state.future_reading")
+    with caplog.at_level(logging.WARNING, logger="linktriage.packed"):
+        back = unpack(blob, "lark-test-sw1")
+    said = caplog.text
+    assert "'dot3StatsFutureCounter'" in said and "'state.future_reading'" in said
+    fcs, errors, octets = (COLUMN_INDEX[n] for n in
+                           ("dot3StatsFCSErrors", "ifInErrors", "ifHCInOctets"))  # fmt: skip
+    assert not back.present[0, fcs]  # not shifted onto the column it replaced
+    assert back.present[0, errors] and int(back.counters[0, errors]) == 9
+    assert back.present[0, octets] and int(back.counters[0, octets]) == 5
+    assert int(back.present[0].sum()) == 2
+    assert np.isnan(back.state["mtu"][0])
+
+
+def test_a_directory_naming_one_column_twice_is_refused() -> None:
+    blob = pack(polls(line(counters={"ifHCInOctets": 5, "ifInErrors": 9})))
+    with pytest.raises(PackError, match="twice"):
+        unpack(_renamed(blob, "ifInErrors", "ifHCInOctets"), "lark-test-sw1")
+
+
+STORE = Path(__file__).parents[1] / "fixtures" / "store" / "release-0.1.0.sqlite"
+
+
+def test_packs_of_the_first_release_read_exactly_through_the_catalogue_they_were_written_for(
+) -> None:  # fmt: skip
+    # fixtures/store/release-0.1.0.sqlite: packs of formats 1 and 2, written by release
+    # 0.1.0 from the recorded files below (fixtures/store/README.md).
+    with sqlite3.connect(STORE) as conn:
+        rows = conn.execute("SELECT device, body FROM poll_packs ORDER BY id").fetchall()
+    assert {body[0] for _, body in rows} == set(LEGACY_FORMATS)
+    back = PollTable.concat([unpack(body, device) for device, body in rows])
+    assert named(back) == named(_recorded())
+    assert pack_columns(rows[0][1])[:2] == ("ifHCInOctets", "ifHCOutOctets")
+
+
+def test_an_earlier_format_is_upgraded_to_the_same_columns_under_their_names() -> None:
+    with sqlite3.connect(STORE) as conn:
+        rows = conn.execute("SELECT device, body FROM poll_packs ORDER BY id").fetchall()
+    for device, body in rows:
+        new = upgraded(body)
+        assert new[0] == FORMAT and upgraded(new) is new
+        assert pack_columns(new) == pack_columns(body)
+        assert named(unpack(new, device)) == named(unpack(body, device))
+
+
+def _recorded() -> PollTable:
+    files = ["demo-network.jsonl", "counter32-device.jsonl", "format-example.jsonl"]
+    paths = [FIXTURES / f for f in files] + sorted((FIXTURES / "verdicts").glob("*.jsonl"))
+    return PollTable.concat([read_snapshot_file(p).polls for p in paths])

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+import shutil
 import sqlite3
 import sys
 from collections.abc import Iterator
@@ -15,8 +17,11 @@ from linktriage.bot.triage import Triage
 from linktriage.diagnosis import Model
 from linktriage.errors import StoreError
 from linktriage.network.demo import DemoClock, DemoNetwork
+from linktriage.packed import FORMAT as PACK_FORMAT
+from linktriage.polls import PollTable
 from linktriage.settings import Settings
 from linktriage.simulate import DEFAULT_START
+from linktriage.snapshot import read_snapshot_file
 from linktriage.store import (
     MIGRATIONS,
     NewAnswer,
@@ -24,10 +29,11 @@ from linktriage.store import (
     Store,
     inspect_store,
     masked_url,
+    polls_table,
     schema_version_table,
 )
 
-from helpers import line, polls
+from helpers import line, named, package_copy, polls, run_in_copy
 
 T5 = "2026-03-02T08:05:00Z"
 
@@ -297,3 +303,134 @@ def test_inspecting_a_store_says_its_size_and_history(database_url: str) -> None
     assert state.history == PollHistory(1, 2, polls(line()).time[0], polls(line(T5)).time[0])
     assert state.size_bytes is not None and state.size_bytes > 0
     assert state.url == masked_url(database_url)
+
+
+FIXTURES = Path(__file__).parents[1] / "fixtures"
+PREVIOUS_RELEASE = FIXTURES / "store" / "release-0.1.0.sqlite"
+SNAPSHOTS = FIXTURES / "snapshots"
+RECORDED = [
+    SNAPSHOTS / name
+    for name in ("demo-network.jsonl", "counter32-device.jsonl", "format-example.jsonl")
+] + sorted((SNAPSHOTS / "verdicts").glob("*.jsonl"))
+
+
+def _recorded() -> PollTable:
+    return PollTable.concat([read_snapshot_file(path).polls for path in RECORDED])
+
+
+def _previous_release_store(database_url: str) -> str:
+    """``database_url`` holding what release 0.1.0 left (fixtures/store/README.md): the
+    fixture itself copied (SQLite), or its packs in a schema migrations 1 to 3 built
+    (PostgreSQL)."""
+    if database_url.startswith("sqlite"):
+        shutil.copyfile(PREVIOUS_RELEASE, database_url.removeprefix("sqlite:///"))
+        return database_url
+    with sqlite3.connect(PREVIOUS_RELEASE) as old:
+        packs = old.execute("SELECT id, device, time, first, ports, body FROM poll_packs")
+        rows = [dict(zip(("id", "device", "time", "first", "ports", "body"), r, strict=True))
+                for r in packs.fetchall()]  # fmt: skip
+    engine = sa.create_engine(database_url)
+    with engine.begin() as conn:
+        schema_version_table.create(conn)
+        for migration in MIGRATIONS[:3]:
+            migration.apply(conn)
+            conn.execute(
+                schema_version_table.insert().values(
+                    version=migration.version, description=migration.description, applied_at=0.0
+                )
+            )
+        conn.execute(polls_table.insert(), rows)
+    engine.dispose()
+    return database_url
+
+
+def _formats(store: Store) -> set[int]:
+    with store.engine.connect() as conn:
+        return {bytes(body)[0] for (body,) in conn.execute(sa.select(polls_table.c.body))}
+
+
+def test_a_store_of_the_previous_release_is_migrated_and_reads_exactly(database_url: str) -> None:
+    url = _previous_release_store(database_url)
+    store = Store(url)
+    try:
+        assert store.schema_version() == MIGRATIONS[-1].version
+        assert _formats(store) == {PACK_FORMAT}  # every pack names its columns now
+        assert named(store.polls_since(0.0)) == named(_recorded())
+    finally:
+        store.close()
+
+
+#: A child interpreter's view of a store: its catalogue, what the store gives back, and what
+#: the recorded files say, each row by name (tests/helpers.py named).
+READ_BACK = """
+import json, sys
+from helpers import named
+from linktriage.counters import COLUMNS
+from linktriage.polls import PollTable
+from linktriage.snapshot import read_snapshot_file
+from linktriage.store import Store
+store = Store(sys.argv[1])
+back = store.polls_since(0.0)
+store.close()
+recorded = PollTable.concat([read_snapshot_file(p).polls for p in sys.argv[2:]])
+print(json.dumps({"columns": [c.name for c in COLUMNS], "store": named(back),
+                  "recorded": named(recorded)}))
+"""
+
+
+def _symbol_errors_then_a_new_counter_and_every_quantity_reversed(text: str) -> str:
+    new = '    Quantity("test_new", Unit.EVENTS, "dot3HCStatsTestNew", "dot3StatsTestNew"),\n'
+    at = text.index('    Quantity("late_collisions"')
+    text = text[:at] + new + text[at:]
+    return text.replace("\nQUANTITY_KEYS", "\nQUANTITIES = QUANTITIES[::-1]\nQUANTITY_KEYS", 1)
+
+
+def _without_jabbers(text: str) -> str:
+    return text.replace('    Quantity("jabbers", Unit.EVENTS, None, "etherStatsJabbers"),\n', "")
+
+
+def test_packs_read_exactly_after_a_counter_is_added_in_the_middle_and_the_order_changes(
+    database_url: str, tmp_path: Path
+) -> None:
+    # Packs written by this release, read by a release whose catalogue gained a counter in
+    # the middle (after the symbol errors) and lists every quantity in reverse.
+    store = Store(database_url)
+    for path in RECORDED:
+        table = read_snapshot_file(path).polls
+        for t in sorted(set(table.time.tolist())):
+            store.add_polls(table.take(np.flatnonzero(table.time == t)))
+    store.close()
+    root = package_copy(
+        tmp_path, {"counters.py": _symbol_errors_then_a_new_counter_and_every_quantity_reversed}
+    )
+    seen = json.loads(run_in_copy(root, READ_BACK, database_url, *map(str, RECORDED)).stdout)
+    columns = seen["columns"]
+    assert "dot3StatsTestNew" in columns[1:-1]  # really in the middle, and the order changed
+    assert columns.index("dot3StatsTestNew") + 1 == columns.index("dot3HCStatsSymbolErrors")
+    assert columns[0] == "etherStatsJabbers"
+    today = named(_recorded())
+    assert seen["store"] == seen["recorded"] == json.loads(json.dumps(today))
+    # The sum that shifted columns once turned from 6,993,073,012,271,955 into 99,373,902,525.
+    total = sum(r["counters"].get("dot3HCStatsFrameTooLongs", 0) for r in seen["store"].values())
+    assert total == sum(r["counters"].get("dot3HCStatsFrameTooLongs", 0) for r in today.values())
+
+
+def test_a_counter_removed_from_the_catalogue_is_named_and_kept_in_the_store(
+    database_url: str, tmp_path: Path
+) -> None:
+    # The previous release's store, migrated by a release that no longer knows one counter:
+    # that release reads every other column exactly and says which it left out; the packs
+    # still hold it, for a release that knows it again.
+    url = _previous_release_store(database_url)
+    root = package_copy(tmp_path, {"counters.py": _without_jabbers})
+    done = run_in_copy(root, READ_BACK, url, *map(str, RECORDED))
+    seen = json.loads(done.stdout)
+    assert "etherStatsJabbers" not in seen["columns"]
+    assert seen["store"] == seen["recorded"]
+    assert "'etherStatsJabbers'" in done.stderr and "left out" in done.stderr
+    store = Store(url)
+    try:
+        assert store.schema_version() == MIGRATIONS[-1].version
+        assert named(store.polls_since(0.0)) == named(_recorded())
+    finally:
+        store.close()

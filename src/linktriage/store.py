@@ -4,8 +4,9 @@ SQLite by default (one file under the data directory, in WAL mode so the bot's t
 read while one writes); any SQLAlchemy URL, e.g. PostgreSQL, otherwise. The schema grows
 by numbered migrations, each applied in the same transaction that records it, so a store
 is never left half-migrated. Polls are kept packed (:mod:`linktriage.packed`): one row per
-device per poll, a little over 100 bytes per port, found by device and time or by time
-alone without a sort, and forgotten after ``[store] keep_polls_h`` in small batches.
+device per poll, about 160 bytes per port, each pack naming its columns; found by device and
+time or by time alone without a sort, and forgotten after ``[store] keep_polls_h`` in small
+batches.
 
 Labels carry an *event key* (a Slack event id, or a button press's own id) under a
 unique constraint: the same event delivered twice is stored once.
@@ -28,7 +29,7 @@ from sqlalchemy.engine import Connection, Engine
 
 from linktriage.errors import StoreError
 from linktriage.model.labels import Label
-from linktriage.packed import pack, unpack
+from linktriage.packed import pack, unpack, upgraded
 from linktriage.polls import PollTable
 from linktriage.snapshot import read_snapshots
 
@@ -184,11 +185,45 @@ def _packs(table: PollTable) -> list[dict[str, Any]]:
     return packs
 
 
+#: Packs rewritten per batch by migration 4: bounded memory whatever the store's size.
+_REPACK_BATCH = 2_000
+
+
+def _named_packs(conn: Connection) -> None:
+    """Every pack rewritten in the format that names its columns (:func:`upgraded`: the
+    same bytes with the names in front), so no stored poll depends on the catalogue's order
+    again; batch by batch, in bounded memory."""
+    last = -1
+    while True:
+        rows = conn.execute(
+            sa.select(polls_table.c.id, polls_table.c.body)
+            .where(polls_table.c.id > last)
+            .order_by(polls_table.c.id)
+            .limit(_REPACK_BATCH)
+        ).all()
+        if not rows:
+            break
+        last = rows[-1].id
+        changed = [
+            {"pack_id": row.id, "new_body": new}
+            for row in rows
+            if (new := upgraded(row.body)) is not row.body
+        ]
+        if changed:
+            conn.execute(
+                polls_table.update()
+                .where(polls_table.c.id == sa.bindparam("pack_id"))
+                .values(body=sa.bindparam("new_body")),
+                changed,
+            )
+
+
 #: Every schema change, in order. A new change is a new entry; old entries never change.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "polls, diagnoses, labels, digests, audit", _initial_schema),
     Migration(2, "diagnoses keep their site and what the port serves", _answer_context),
     Migration(3, "polls packed, one row per device per poll; 64-bit ids", _packed_polls),
+    Migration(4, "poll packs name their columns", _named_packs),
 )
 
 
