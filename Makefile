@@ -48,7 +48,7 @@ bench: $(STAMP)
 ## model: rebuild the packaged model from the simulated prior, on numpy's AVX2 paths so that
 ## every x86-64 machine rebuilds it bit for bit (AVX-512 rounds exp and log differently)
 model: $(STAMP)
-	NPY_DISABLE_CPU_FEATURES="X86_V4 AVX512_ICL AVX512_SPR" $(BIN)/linktriage train --out src/linktriage/model/default.json
+	NPY_DISABLE_CPU_FEATURES="X86_V4 AVX512_ICL AVX512_SPR" $(BIN)/linktriage train --out src/linktriage/engine/model/default.json
 
 clean:
 	rm -rf $(VENV) .pytest_cache .mypy_cache .ruff_cache

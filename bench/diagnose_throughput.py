@@ -31,10 +31,11 @@ from pathlib import Path
 
 import numpy as np
 
-from linktriage.diagnosis import Model, diagnose
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.snapshot import iter_snapshots, read_snapshot_file, write_snapshots
+from linktriage.engine.simulate import simulate_prior
 from linktriage.render.jsonl import write_lines
-from linktriage.simulate import simulate_prior
-from linktriage.snapshot import iter_snapshots, read_snapshot_file, write_snapshots
 
 TARGET = 1.5
 TARGET_PEAK_MB = 250

@@ -34,11 +34,11 @@ from sklearn.ensemble import HistGradientBoostingClassifier, RandomForestClassif
 from sklearn.metrics import f1_score
 from sklearn.tree import DecisionTreeClassifier
 
-from linktriage.diagnosis import Model
-from linktriage.model.train import TrainingConfig, class_weights, prior_rows
-from linktriage.scoring import Score, score_labelled, score_simulated
-from linktriage.simulate import SHIFTED, TRAINING
-from linktriage.verdicts import Verdict
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.scoring import Score, score_labelled, score_simulated
+from linktriage.engine.model.train import TrainingConfig, class_weights, prior_rows
+from linktriage.engine.simulate import SHIFTED, TRAINING
+from linktriage.engine.verdicts import Verdict
 
 HELD_OUT_SEED = 424242
 GENERATOR_SEED = 7

@@ -32,10 +32,10 @@ import httpx
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 
-from linktriage.counters import COLUMN_INDEX
+from linktriage.engine.format.counters import COLUMN_INDEX
 from linktriage.network.collectors import prometheus
 from linktriage.network.inventory import Defaults, DeviceEntry, Inventory
-from linktriage.network.polling import InventoryNetwork
+from linktriage.network.inventory_network import InventoryNetwork
 
 from agents.prometheus import serve_fleet_api
 

@@ -7,7 +7,7 @@ the rest spread over the faults), on simulated time, into real SQLite files:
 
 * bytes per port per poll: one round of ``--small`` ports packed into the store, against
   the snapshot format's JSON lines of the same polls (how the store kept them before);
-* a week: the poll job (Gathering.poll_round) every 5 minutes for ``--days`` days at
+* a week: the poll job (Poller.poll_round) every 5 minutes for ``--days`` days at
   ``--small`` ports, forgetting polls older than [store] keep_polls_h (72 h); the polls
   kept at the end, and the largest the file (and its write-ahead log) grew, target under
   2 GB; and the file's bytes per port poll kept, indexes included, target at most 200;
@@ -31,12 +31,13 @@ import sqlalchemy as sa
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import Model, diagnose
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.snapshot import iter_snapshots
+from linktriage.engine.verdicts import FAULTS, Verdict
 from linktriage.network.demo import DemoClock
 from linktriage.settings import Settings
-from linktriage.snapshot import iter_snapshots
 from linktriage.store import Store
-from linktriage.verdicts import FAULTS, Verdict
 
 from agents.fleet import Fleet, FleetNetwork
 
@@ -84,7 +85,7 @@ def week(ports: int, days: float, folder: Path, model: Model) -> None:
     rounds = int(days * 86_400 / POLL_S)
     largest, forgotten, started = 0, 0, time.perf_counter()
     for n in range(rounds):
-        forgotten += triage.gathering.poll_round().forgotten
+        forgotten += triage.poller.poll_round().forgotten
         clock.sleep(POLL_S)
         if n % 288 == 287:
             largest = max(largest, on_disk(path))
@@ -123,7 +124,7 @@ def digest_time(ports: int, folder: Path, model: Model, repeats: int = 3) -> Non
     triage = Triage(network, store, model, Settings(), clock=clock, sleep=clock.sleep)
     clock.sleep(23 * 3600)
     for _ in range(12):  # the last hour, polled for real
-        triage.gathering.poll_round()
+        triage.poller.poll_round()
         clock.sleep(POLL_S)
     with store.engine.begin() as conn:  # the 23 hours before: copies of that hour
         for hour in range(1, 24):

@@ -32,7 +32,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 
 from linktriage.network.collectors.restconf import interfaces_to_snapshots
 from linktriage.network.inventory import Defaults, DeviceEntry, Inventory
-from linktriage.network.polling import InventoryNetwork, deadline_s
+from linktriage.network.inventory_network import InventoryNetwork, deadline_s
 
 from agents.restconf import serve_in_process
 

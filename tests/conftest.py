@@ -10,11 +10,13 @@ from pathlib import Path
 import pytest
 
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
-from linktriage.model.artefact import TreeArtefact
+from linktriage.engine.diagnosis.batch import DiagnosisBatch
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.model.artefact import TreeArtefact
+from linktriage.engine.simulate import DEFAULT_START
 from linktriage.network.demo import DemoClock, DemoNetwork, demo_polls
 from linktriage.settings import Settings
-from linktriage.simulate import DEFAULT_START
 from linktriage.store import Store
 
 from agents.postgres import fresh_database, postgres_server

@@ -14,9 +14,9 @@ from datetime import datetime, timedelta
 from pathlib import Path
 from typing import Any, TypeVar
 
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.format.snapshot import read_snapshots
 from linktriage.network.collectors.base import Collector, Reading
-from linktriage.polls import PollTable
-from linktriage.snapshot import read_snapshots
 
 T0 = "2026-03-02T08:00:00Z"
 C = TypeVar("C", bound=Collector)
@@ -81,7 +81,7 @@ def named(table: PollTable) -> dict[str, dict[str, Any]]:
     """Every row of a poll table by device, port and time, each value by its own name (the
     snapshot format's counter names, the table's field names): equal for two tables that
     hold the same readings, whatever order their catalogues keep columns in."""
-    from linktriage.counters import COLUMNS
+    from linktriage.engine.format.counters import COLUMNS
 
     out: dict[str, dict[str, Any]] = {}
     for i in range(len(table)):
@@ -138,8 +138,8 @@ def run_in_copy(root: Path, script: str, *args: str) -> subprocess.CompletedProc
 
 def artefact_of(clf: Any, features: list[str]) -> Any:
     """A fitted scikit-learn tree as a linktriage artefact (with a placeholder summary)."""
-    from linktriage.model.artefact import TrainingSummary, TreeArtefact, content_version
-    from linktriage.model.train import tree_arrays
+    from linktriage.engine.model.artefact import TrainingSummary, TreeArtefact, content_version
+    from linktriage.engine.model.train import tree_arrays
 
     arrays = tree_arrays(clf)
     classes = [str(c) for c in clf.classes_]

@@ -14,9 +14,9 @@ from pathlib import Path
 
 import pytest
 
+from linktriage.engine.format.snapshot import Snapshot
 from linktriage.errors import DeviceRefusedError
 from linktriage.network.collectors.base import Collector, Options, Reading
-from linktriage.snapshot import Snapshot
 
 ENTRY_POINTS = """[linktriage.collectors]
 hang = plugins:HangingCollector

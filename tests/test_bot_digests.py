@@ -6,10 +6,10 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import Model
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.format.poll_table import PollTable
 from linktriage.errors import PollError
 from linktriage.network.demo import DemoClock, DemoNetwork
-from linktriage.polls import PollTable
 from linktriage.render.replies import (
     ErrorReply,
     SuspectsReply,
@@ -89,7 +89,7 @@ def test_a_device_that_does_not_answer_is_named_and_the_rest_still_answer(
     asked = triage.handle("lark-west-idf1 port1")
     assert isinstance(asked, ErrorReply)
     assert asked.message == "lark-west-idf1: no answer within 2 s"
-    assert triage.gathering.poll_round().failed == {"lark-west-idf1": "no answer within 2 s"}
+    assert triage.poller.poll_round().failed == {"lark-west-idf1": "no answer within 2 s"}
 
 
 def test_a_digest_says_what_is_new_and_what_cleared(triage: Triage, clock: DemoClock) -> None:
@@ -133,7 +133,7 @@ def test_the_digest_reads_the_poll_jobs_history_without_polling_again(
     network = Counted(clock)
     triage = Triage(network, store, model, Settings(), clock=clock, sleep=clock.sleep)
     for _ in range(3):  # the poll job, every five minutes
-        triage.gathering.poll_round()
+        triage.poller.poll_round()
         clock.sleep(300.0)
     network.polled.clear()
     digest = triage.digests.digest(channel="C1")
@@ -149,9 +149,9 @@ def test_a_digest_polls_the_devices_the_poll_job_missed(store: Store, model: Mod
     clock = DemoClock(1_772_438_400.0)
     network = Counted(clock)
     triage = Triage(network, store, model, Settings(), clock=clock, sleep=clock.sleep)
-    triage.gathering.poll_round()
+    triage.poller.poll_round()
     clock.sleep(300.0)
-    triage.gathering.poll_round()
+    triage.poller.poll_round()
     clock.sleep(1200.0)  # the poll job stopped twenty minutes ago: nothing recent
     network.polled.clear()
     digest = triage.digests.digest(channel="C1")

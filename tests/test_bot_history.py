@@ -10,14 +10,14 @@ from linktriage.bot.commands import DEFAULT_HISTORY_S
 from linktriage.bot.history import MIN_WINDOW_S, verdict_runs, window_bounds
 from linktriage.bot.jobs import Jobs
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import diagnose
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.simulate import DEFAULT_START
+from linktriage.engine.verdicts import Verdict
 from linktriage.errors import NoHistoryError, PollError, UnknownPortError
 from linktriage.network.demo import PLANTED, DemoClock, DemoNetwork
-from linktriage.network.interface import Gathered
-from linktriage.polls import PollTable
+from linktriage.network.watched import Gathered
 from linktriage.render.replies import HistoryPoint
-from linktriage.simulate import DEFAULT_START
-from linktriage.verdicts import Verdict
 
 FIVE_MIN = 300.0
 (CABLE,) = [p for p in PLANTED if p.planted is Verdict.CABLE_FAULT]
@@ -116,9 +116,9 @@ def test_a_port_the_poll_job_never_stored_has_no_history_not_a_clean_one(
 def test_one_poll_or_polls_too_close_together_are_no_history(
     triage: Triage, clock: DemoClock
 ) -> None:
-    triage.gathering.poll_round()
+    triage.poller.poll_round()
     clock.sleep(60.0)
-    triage.gathering.poll_round()
+    triage.poller.poll_round()
     with pytest.raises(NoHistoryError):
         triage.histories.of(CABLE.device, CABLE.port, DEFAULT_HISTORY_S)
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
-from linktriage.verdicts import Verdict
+from linktriage.engine.verdicts import Verdict
 
 
 @pytest.mark.parametrize(

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import Model
+from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.render.replies import (
     DiagnosisReply,

@@ -8,10 +8,10 @@ from collections.abc import Sequence
 import pytest
 
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import Model
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.format.poll_table import PollTable
 from linktriage.errors import PollError
 from linktriage.network.demo import DemoClock, DemoNetwork
-from linktriage.polls import PollTable
 from linktriage.render.replies import (
     DiagnosisReply,
     ErrorReply,

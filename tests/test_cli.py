@@ -16,8 +16,8 @@ from click.testing import CliRunner
 
 from linktriage.bot.triage import Triage
 from linktriage.cli import READ_NONE, READ_SOME, main
+from linktriage.engine.simulate import DEFAULT_START
 from linktriage.network.demo import DemoClock, DemoNetwork
-from linktriage.simulate import DEFAULT_START
 from linktriage.store import Store
 
 import plugins
@@ -561,7 +561,7 @@ def _polled_for_an_hour(tmp_path: Path) -> Path:
     """A settings file whose store holds the poll job's last hour of the demo network."""
     from linktriage.bot.jobs import Jobs
     from linktriage.bot.triage import Triage
-    from linktriage.diagnosis import Model
+    from linktriage.engine.diagnosis.loaded_model import Model
     from linktriage.settings import Settings
 
     store_path = tmp_path / "s.sqlite"

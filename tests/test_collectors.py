@@ -7,6 +7,7 @@ from pathlib import Path
 
 import pytest
 
+from linktriage.engine.format.snapshot import Neighbor
 from linktriage.errors import DeviceTimeoutError, InputError, UnknownCollectorError
 from linktriage.network.collectors.base import (
     Collector,
@@ -18,7 +19,6 @@ from linktriage.network.collectors.base import (
 )
 from linktriage.network.collectors.demo import DemoCollector
 from linktriage.network.collectors.file import FileCollector, FileOptions
-from linktriage.snapshot import Neighbor
 
 import plugins
 from helpers import line

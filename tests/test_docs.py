@@ -9,7 +9,7 @@ import pytest
 from click.testing import CliRunner
 
 from linktriage.cli import main
-from linktriage.verdicts import Verdict
+from linktriage.engine.verdicts import Verdict
 
 ROOT = Path(__file__).resolve().parent.parent
 README = (ROOT / "README.md").read_text(encoding="utf-8")

@@ -13,10 +13,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
-from linktriage.scoring import score, score_labelled
-from linktriage.snapshot import read_snapshot_file
-from linktriage.verdicts import Verdict
+from linktriage.engine.diagnosis.batch import DiagnosisBatch
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.diagnosis.scoring import score, score_labelled
+from linktriage.engine.format.snapshot import read_snapshot_file
+from linktriage.engine.verdicts import Verdict
 
 FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
 EXPERT = FIXTURES / "expert"

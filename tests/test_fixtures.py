@@ -7,9 +7,10 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.diagnosis import Model, diagnose
-from linktriage.snapshot import read_snapshot_file
-from linktriage.verdicts import Verdict
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.snapshot import read_snapshot_file
+from linktriage.engine.verdicts import Verdict
 
 FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
 sys.path.insert(0, str(FIXTURES))

@@ -30,12 +30,15 @@ from typing import Any
 import pytest
 from slack_sdk.models.blocks import Block
 
-from linktriage.diagnosis import DiagnosisRecord, Model, diagnose, headline
+from linktriage.engine.diagnosis.batch import headline
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.format.snapshot import read_snapshot_file
+from linktriage.engine.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY, Verdict
 from linktriage.render.blocks import message_for, thread_for
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
-from linktriage.snapshot import read_snapshot_file
-from linktriage.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY, Verdict
 
 ROOT = Path(__file__).resolve().parent.parent
 GOLDEN = ROOT / "fixtures" / "golden"

@@ -5,11 +5,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from linktriage.guards import apply_guards
-from linktriage.measures import MIN_EVENTS, measure
-from linktriage.physics import allowed
-from linktriage.verdicts import Verdict
-from linktriage.window import compute_windows
+from linktriage.engine.guards import apply_guards
+from linktriage.engine.measure.measures import MIN_EVENTS, measure
+from linktriage.engine.measure.window import compute_windows
+from linktriage.engine.physics import allowed
+from linktriage.engine.verdicts import Verdict
 
 from helpers import grown, line, polls
 

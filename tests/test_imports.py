@@ -23,9 +23,9 @@ def loaded_after(statement: str) -> set[str]:
     "statement",
     [
         "import linktriage",
-        "import linktriage.features",
-        "import linktriage.snapshot",
-        "from linktriage.diagnosis import Model, diagnose; Model.load()",
+        "import linktriage.engine.model.features",
+        "import linktriage.engine.format.snapshot",
+        "from linktriage.engine.diagnosis.pipeline import Model, diagnose; Model.load()",
         "import linktriage.cli",
         "import linktriage.bot.triage",
         "import linktriage.transports.console",
@@ -40,10 +40,10 @@ def test_the_core_loads_no_heavy_library(statement: str) -> None:
 @pytest.mark.parametrize(
     "statement",
     [
-        "import linktriage.snapshot",
-        "import linktriage.measures",
-        "import linktriage.physics",
-        "from linktriage.diagnosis import Model, diagnose; Model.load()",
+        "import linktriage.engine.format.snapshot",
+        "import linktriage.engine.measure.measures",
+        "import linktriage.engine.physics",
+        "from linktriage.engine.diagnosis.pipeline import Model, diagnose; Model.load()",
         "import linktriage.render.text",
         "import linktriage.render.jsonl",
     ],
@@ -55,7 +55,8 @@ def test_the_engine_path_loads_neither_pandas_nor_scipy(statement: str) -> None:
 def test_diagnosing_a_clean_port_from_the_command_line_loads_neither_pandas_nor_scipy(
     tmp_path: Path,
 ) -> None:
-    # scipy's inverse beta is loaded only once some port counted errors (linktriage.measures).
+    # scipy's inverse beta is loaded only once some port counted errors
+    # (linktriage.engine.measure.measures).
     line = {
         "device": "lark-core1",
         "port": "up1",

@@ -12,8 +12,10 @@ from typing import Any
 
 import pytest
 
-from linktriage.diagnosis import DiagnosisRecord, Model, diagnose, diagnose_chunks
-from linktriage.links import pair_ends
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose, diagnose_chunks
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.links import pair_ends
 
 from helpers import grown, polls
 

@@ -13,10 +13,10 @@ from typing import Any
 
 import pytest
 
+from linktriage.engine.format.snapshot import Snapshot
 from linktriage.errors import InputError
 from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.linux import LinuxCollector, parse_ethtool_stats
-from linktriage.snapshot import Snapshot
 
 SIOCGIFMTU = 0x8921  # linux/sockios.h
 

@@ -6,8 +6,8 @@ from __future__ import annotations
 
 import pytest
 
+from linktriage.engine.format.snapshot import Neighbor
 from linktriage.network.collectors.lldp import PORT_ID_SUBTYPES, far_end, mac_address, neighbor
-from linktriage.snapshot import Neighbor
 
 
 def test_the_subtype_numbers_are_the_mibs() -> None:

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from linktriage.features import FEATURE_NAMES
-from linktriage.model.labels import label_frame, settle
+from linktriage.engine.model.features import FEATURE_NAMES
+from linktriage.engine.model.labels import label_frame, settle
 from linktriage.store import Label
 
 

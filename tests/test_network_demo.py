@@ -5,13 +5,14 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from linktriage.counters import COLUMN_INDEX
-from linktriage.diagnosis import Model, diagnose
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.counters import COLUMN_INDEX
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.simulate import DEFAULT_START
+from linktriage.engine.verdicts import Verdict
 from linktriage.errors import PollError
 from linktriage.network.demo import ORGANISATION, PLANTED, DemoNetwork, demo_polls, demo_ports
-from linktriage.polls import PollTable
-from linktriage.simulate import DEFAULT_START
-from linktriage.verdicts import Verdict
 
 
 def test_every_verdict_but_healthy_is_planted_exactly_once() -> None:

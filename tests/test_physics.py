@@ -10,12 +10,14 @@ from typing import Any
 
 import pytest
 
-from linktriage.diagnosis import DiagnosisRecord, Model, diagnose
-from linktriage.measures import measure
-from linktriage.physics import RULES, Rule, allowed
-from linktriage.snapshot import read_snapshots
-from linktriage.verdicts import FAULTS, TREE_VERDICTS, Verdict
-from linktriage.window import compute_windows
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.format.snapshot import read_snapshots
+from linktriage.engine.measure.measures import measure
+from linktriage.engine.measure.window import compute_windows
+from linktriage.engine.physics import RULES, Rule, allowed
+from linktriage.engine.verdicts import FAULTS, TREE_VERDICTS, Verdict
 
 from helpers import grown, polls
 

@@ -14,16 +14,16 @@ from typing import Any
 import pytest
 
 from linktriage.bot.triage import Triage
-from linktriage.counters import COLUMNS
-from linktriage.diagnosis import Model
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.format.counters import COLUMNS
+from linktriage.engine.format.snapshot import Neighbor, Snapshot, iter_snapshots
 from linktriage.errors import BadAnswerError, CollectorError, InputError
 from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.prometheus import PrometheusCollector, promql_string
 from linktriage.network.inventory import Defaults, DeviceEntry, Inventory
-from linktriage.network.polling import InventoryNetwork
+from linktriage.network.inventory_network import InventoryNetwork
 from linktriage.render.replies import DiagnosisReply
 from linktriage.settings import ChatSettings, Settings
-from linktriage.snapshot import Neighbor, Snapshot, iter_snapshots
 from linktriage.store import Store
 
 from agents.fleet import Fleet

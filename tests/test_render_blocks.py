@@ -16,7 +16,8 @@ from slack_sdk.models.blocks import Block
 
 from linktriage.bot.history import verdict_runs
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import DiagnosisRecord, Model
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.render.blocks import MAX_BLOCKS, MAX_RUNS, escape, message_for, thread_for
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import (

@@ -11,10 +11,10 @@ from PIL import Image
 
 from linktriage.bot.history import verdict_runs
 from linktriage.bot.triage import Triage
+from linktriage.engine.simulate import DEFAULT_START
 from linktriage.network.demo import DemoClock
 from linktriage.render.charts import history_png, pictures_for, tree_png
 from linktriage.render.replies import HistoryReply, TreeReply
-from linktriage.simulate import DEFAULT_START
 
 #: Slack shows a picture in a thread at up to about 360 points wide on a phone; narrower
 #: than 400 pixels and it is drawn upscaled and blurred.
@@ -38,7 +38,7 @@ def pixels_of(image: Image.Image, colour: tuple[int, int, int]) -> int:
 def history(triage: Triage, clock: DemoClock) -> HistoryReply:
     clock.now = DEFAULT_START - 3 * 3600.0
     for _ in range(37):
-        triage.gathering.poll_round()
+        triage.poller.poll_round()
         clock.sleep(300.0)
     clock.now = DEFAULT_START
     reply = triage.handle("history lark-east-idf2 port14 3h")

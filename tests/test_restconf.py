@@ -10,12 +10,12 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.counters import COLUMN_INDEX
+from linktriage.engine.format.counters import COLUMN_INDEX
+from linktriage.engine.format.snapshot import Neighbor
 from linktriage.errors import BadAnswerError, CollectorError, DeviceRefusedError, DeviceTimeoutError
 from linktriage.network.collectors.base import Target
 from linktriage.network.collectors.restconf import RestconfCollector, interfaces_to_snapshots
 from linktriage.network.inventory import DeviceEntry, Inventory, problems
-from linktriage.snapshot import Neighbor
 
 from agents.fleet import Fleet
 from agents.restconf import RestconfAgent

@@ -5,11 +5,11 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from linktriage.counters import COLUMN_INDEX
-from linktriage.polls import PollTable
-from linktriage.simulate import render_polls, sample_parameters, simulate_prior
-from linktriage.verdicts import Verdict
-from linktriage.window import compute_windows
+from linktriage.engine.format.counters import COLUMN_INDEX
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.measure.window import compute_windows
+from linktriage.engine.simulate import render_polls, sample_parameters, simulate_prior
+from linktriage.engine.verdicts import Verdict
 
 
 def _ports(
@@ -115,7 +115,7 @@ def test_healthy_ports_carry_the_nuisances_of_real_networks() -> None:
 
 
 def test_the_shifted_ranges_lie_outside_the_training_ones() -> None:
-    from linktriage.simulate import SHIFTED, TRAINING
+    from linktriage.engine.simulate import SHIFTED, TRAINING
 
     assert SHIFTED.frame_octets[1] > TRAINING.frame_octets[1]
     assert SHIFTED.windows[0] < TRAINING.windows[0]

@@ -14,14 +14,14 @@ import pytest
 import sqlalchemy as sa
 
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import Model
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.format.packs import FORMAT as PACK_FORMAT
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.format.snapshot import read_snapshot_file
+from linktriage.engine.simulate import DEFAULT_START
 from linktriage.errors import StoreError
 from linktriage.network.demo import DemoClock, DemoNetwork
-from linktriage.packed import FORMAT as PACK_FORMAT
-from linktriage.polls import PollTable
 from linktriage.settings import Settings
-from linktriage.simulate import DEFAULT_START
-from linktriage.snapshot import read_snapshot_file
 from linktriage.store import (
     MIGRATIONS,
     NewAnswer,
@@ -259,7 +259,7 @@ def test_the_bot_answers_digests_and_labels_on_this_store(store: Store, model: M
     triage = Triage(
         DemoNetwork(clock=clock), store, model, Settings(), clock=clock, sleep=clock.sleep
     )
-    triage.gathering.poll_round()
+    triage.poller.poll_round()
     clock.sleep(300.0)
     digest = triage.digests.digest(channel="C1")
     assert digest.items and triage.posted(digest, channel="C1", ts="1.1")
@@ -365,9 +365,9 @@ def test_a_store_of_the_previous_release_is_migrated_and_reads_exactly(database_
 READ_BACK = """
 import json, sys
 from helpers import named
-from linktriage.counters import COLUMNS
-from linktriage.polls import PollTable
-from linktriage.snapshot import read_snapshot_file
+from linktriage.engine.format.counters import COLUMNS
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.format.snapshot import read_snapshot_file
 from linktriage.store import Store
 store = Store(sys.argv[1])
 back = store.polls_since(0.0)
@@ -378,7 +378,7 @@ print(json.dumps({"columns": [c.name for c in COLUMNS], "store": named(back),
 """
 
 
-def _symbol_errors_then_a_new_counter_and_every_quantity_reversed(text: str) -> str:
+def _counter_added_in_the_middle_and_order_reversed(text: str) -> str:
     new = '    Quantity("test_new", Unit.EVENTS, "dot3HCStatsTestNew", "dot3StatsTestNew"),\n'
     at = text.index('    Quantity("late_collisions"')
     text = text[:at] + new + text[at:]
@@ -401,7 +401,8 @@ def test_packs_read_exactly_after_a_counter_is_added_in_the_middle_and_the_order
             store.add_polls(table.take(np.flatnonzero(table.time == t)))
     store.close()
     root = package_copy(
-        tmp_path, {"counters.py": _symbol_errors_then_a_new_counter_and_every_quantity_reversed}
+        tmp_path,
+        {"engine/format/counters.py": _counter_added_in_the_middle_and_order_reversed},
     )
     seen = json.loads(run_in_copy(root, READ_BACK, database_url, *map(str, RECORDED)).stdout)
     columns = seen["columns"]
@@ -422,7 +423,7 @@ def test_a_counter_removed_from_the_catalogue_is_named_and_kept_in_the_store(
     # that release reads every other column exactly and says which it left out; the packs
     # still hold it, for a release that knows it again.
     url = _previous_release_store(database_url)
-    root = package_copy(tmp_path, {"counters.py": _without_jabbers})
+    root = package_copy(tmp_path, {"engine/format/counters.py": _without_jabbers})
     done = run_in_copy(root, READ_BACK, url, *map(str, RECORDED))
     seen = json.loads(done.stdout)
     assert "etherStatsJabbers" not in seen["columns"]

@@ -21,6 +21,8 @@ from pydantic import SecretStr
 from slack_sdk.signature import SignatureVerifier
 
 from linktriage.bot.triage import Triage
+from linktriage.engine.simulate import DEFAULT_START
+from linktriage.engine.verdicts import SHORT, Caution
 from linktriage.network.demo import PLANTED, DemoClock, DemoPort
 from linktriage.render.blocks import (
     CONFIRM_ACTION,
@@ -30,10 +32,8 @@ from linktriage.render.blocks import (
     text_size,
 )
 from linktriage.settings import LabelSettings, Settings
-from linktriage.simulate import DEFAULT_START
 from linktriage.transports.slack import build_app
 from linktriage.transports.slack_http import http_server
-from linktriage.verdicts import SHORT, Caution
 
 from slack_emulator import BOT_USER, SlackEmulator
 
@@ -541,7 +541,7 @@ def test_a_history_is_posted_with_its_chart_in_the_answers_thread(
 ) -> None:
     clock.now = DEFAULT_START - 3 * 3600.0
     for _ in range(37):  # the poll job, every five minutes up to the demo's moment
-        triage.gathering.poll_round()
+        triage.poller.poll_round()
         clock.sleep(300.0)
     clock.now = DEFAULT_START
     slash(bot, emulator, "history lark-east-idf2 port14 3h")

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from linktriage.verdicts import (
+from linktriage.engine.verdicts import (
     GUARD_VERDICTS,
     GUIDES,
     SHORT,

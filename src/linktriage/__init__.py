@@ -12,20 +12,20 @@ from typing import Any
 __version__ = "0.1.0"
 
 _EXPORTS = {
-    "DiagnosisBatch": "linktriage.diagnosis",
-    "DiagnosisRecord": "linktriage.diagnosis",
-    "LineProblem": "linktriage.snapshot",
+    "DiagnosisBatch": "linktriage.engine.diagnosis.batch",
+    "DiagnosisRecord": "linktriage.engine.format.answers",
+    "LineProblem": "linktriage.engine.format.snapshot",
     "LinktriageError": "linktriage.errors",
-    "Model": "linktriage.diagnosis",
-    "PollTable": "linktriage.polls",
-    "Snapshot": "linktriage.snapshot",
-    "Verdict": "linktriage.verdicts",
-    "compute_windows": "linktriage.window",
-    "diagnose": "linktriage.diagnosis",
-    "feature_rows": "linktriage.features",
-    "measure": "linktriage.measures",
-    "read_snapshot_file": "linktriage.snapshot",
-    "read_snapshots": "linktriage.snapshot",
+    "Model": "linktriage.engine.diagnosis.loaded_model",
+    "PollTable": "linktriage.engine.format.poll_table",
+    "Snapshot": "linktriage.engine.format.snapshot",
+    "Verdict": "linktriage.engine.verdicts",
+    "compute_windows": "linktriage.engine.measure.window",
+    "diagnose": "linktriage.engine.diagnosis.pipeline",
+    "feature_rows": "linktriage.engine.model.features",
+    "measure": "linktriage.engine.measure.measures",
+    "read_snapshot_file": "linktriage.engine.format.snapshot",
+    "read_snapshots": "linktriage.engine.format.snapshot",
 }
 
 __all__ = ["__version__", *sorted(_EXPORTS)]

@@ -16,11 +16,11 @@ from pathlib import Path
 
 from linktriage.bot.labelling import GroupMembers
 from linktriage.bot.triage import Triage
-from linktriage.diagnosis import Model
+from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.network.demo import DemoClock, DemoNetwork
-from linktriage.network.interface import Network
 from linktriage.network.inventory import Inventory, demo_inventory, load_inventory
-from linktriage.network.polling import InventoryNetwork
+from linktriage.network.inventory_network import InventoryNetwork
+from linktriage.network.watched import Network
 from linktriage.settings import Settings, load_settings
 from linktriage.store import Store
 

@@ -22,8 +22,8 @@ drawing to the classes).
     └── StoreError               the store cannot be opened or written (which operation)
 
 A malformed *line* of a snapshot file is not an exception: it is reported as a
-:class:`linktriage.snapshot.LineProblem` and skipped, so one bad line never stops a file.
-Every error carries a message for people and an optional hint saying what to do next.
+:class:`linktriage.engine.format.snapshot.LineProblem` and skipped, so one bad line never stops a
+file. Every error carries a message for people and an optional hint saying what to do next.
 """
 
 from __future__ import annotations

@@ -1,12 +1,11 @@
 """The store: poll history, what was answered where, labels, digests and the audit log.
 
-SQLite by default (one file under the data directory, in WAL mode so the bot's threads
-read while one writes); any SQLAlchemy URL, e.g. PostgreSQL, otherwise. The schema grows
-by numbered migrations, each applied in the same transaction that records it, so a store
-is never left half-migrated. Polls are kept packed (:mod:`linktriage.packed`): one row per
-device per poll, about 160 bytes per port, each pack naming its columns; found by device and
-time or by time alone without a sort, and forgotten after ``[store] keep_polls_h`` in small
-batches.
+SQLite by default (one file under the data directory, in WAL mode so the bot's threads read while
+one writes); any SQLAlchemy URL, e.g. PostgreSQL, otherwise. The schema grows by numbered
+migrations, each applied in the same transaction that records it, so a store is never left
+half-migrated. Polls are kept packed (:mod:`linktriage.engine.format.packs`): one row per device per
+poll, about 160 bytes per port, each pack naming its columns; found by device and time or by time
+alone without a sort, and forgotten after ``[store] keep_polls_h`` in small batches.
 
 Labels carry an *event key* (a Slack event id, or a button press's own id) under a
 unique constraint: the same event delivered twice is stored once.
@@ -27,11 +26,11 @@ import numpy as np
 import sqlalchemy as sa
 from sqlalchemy.engine import Connection, Engine
 
+from linktriage.engine.format.packs import pack, unpack, upgraded
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.format.snapshot import read_snapshots
+from linktriage.engine.model.labels import Label
 from linktriage.errors import StoreError
-from linktriage.model.labels import Label
-from linktriage.packed import pack, unpack, upgraded
-from linktriage.polls import PollTable
-from linktriage.snapshot import read_snapshots
 
 metadata = sa.MetaData()
 
@@ -53,7 +52,7 @@ polls_table = sa.Table(
     sa.Column("time", sa.Float, nullable=False),  # the newest poll in the pack
     sa.Column("first", sa.Float, nullable=False),  # the oldest poll in the pack
     sa.Column("ports", sa.Integer, nullable=False),  # rows in the pack
-    sa.Column("body", sa.LargeBinary, nullable=False),  # linktriage.packed
+    sa.Column("body", sa.LargeBinary, nullable=False),  # linktriage.engine.format.packs
     sa.Index("poll_packs_by_device", "device", "time"),  # this device (its ports) since T
     sa.Index("poll_packs_by_time", "time"),  # every port since T; what to forget
 )
@@ -616,7 +615,7 @@ class Store:
 
     def labels(self, diagnosis_id: int | None = None) -> list[Label]:
         """Every label (or those of one answer), oldest first: changed ones included, for
-        the audit; :func:`linktriage.model.labels.settle` says which ones count."""
+        the audit; :func:`linktriage.engine.model.labels.settle` says which ones count."""
         query = sa.select(labels_table).order_by(labels_table.c.id)
         if diagnosis_id is not None:
             query = query.where(labels_table.c.diagnosis_id == diagnosis_id)

@@ -7,10 +7,10 @@ from collections.abc import Callable, Sequence
 
 import numpy as np
 
-from linktriage.network.interface import Gathered, Network, PortRef
-from linktriage.polls import PollTable
-from linktriage.simulate import LiveCounters, sample_mix, sample_parameters
-from linktriage.verdicts import Verdict
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.simulate import LiveCounters, sample_mix, sample_parameters
+from linktriage.engine.verdicts import Verdict
+from linktriage.network.watched import Gathered, Network, PortRef
 
 
 class Fleet:

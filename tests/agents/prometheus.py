@@ -31,8 +31,8 @@ from urllib.parse import parse_qs, urlparse
 
 import numpy as np
 
-from linktriage.counters import COLUMNS
-from linktriage.polls import PollTable
+from linktriage.engine.format.counters import COLUMNS
+from linktriage.engine.format.poll_table import PollTable
 
 from agents.fleet import Fleet
 from agents.snmp import require, stop

@@ -20,8 +20,8 @@ from typing import Any
 
 import numpy as np
 
-from linktriage.counters import COLUMN_INDEX
-from linktriage.polls import PollTable
+from linktriage.engine.format.counters import COLUMN_INDEX
+from linktriage.engine.format.poll_table import PollTable
 
 from agents.fleet import Fleet
 

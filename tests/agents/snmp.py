@@ -16,7 +16,7 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.counters import COLUMN_INDEX
+from linktriage.engine.format.counters import COLUMN_INDEX
 from linktriage.network.collectors.snmp import (
     COUNTER_COLUMNS,
     DOT3_ENTRY,

@@ -1,2 +1,2 @@
-"""The bot's work, free of any transport: commands and their parsing, gathering polls,
-lists of suspects and digests, labels from threads, and the scheduled jobs."""
+"""The bot's work, free of any transport: commands and their parsing, the poll job and the
+polls a question needs, lists of suspects and digests, labels from threads, and the jobs."""

@@ -5,9 +5,10 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord
-from linktriage.features import FEATURE_NAMES
-from linktriage.network.interface import PortRef
+from linktriage.engine.diagnosis.batch import DiagnosisBatch
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.model.features import FEATURE_NAMES
+from linktriage.network.watched import PortRef
 from linktriage.store import NewAnswer, Store
 
 

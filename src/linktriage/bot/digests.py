@@ -9,14 +9,17 @@ from collections.abc import Callable
 from dataclasses import dataclass, replace
 
 from linktriage.bot.answers import keep_answers
-from linktriage.bot.gathering import Gathering
-from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, Model, diagnose, headline
+from linktriage.bot.poller import Poller
+from linktriage.engine.diagnosis.batch import DiagnosisBatch, headline
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY
 from linktriage.errors import AmbiguousNameError, CommandError
-from linktriage.network.interface import Network, fitting
+from linktriage.network.watched import Network, fitting
 from linktriage.render import words
 from linktriage.render.replies import SuspectItem, SuspectsReply
 from linktriage.store import Store
-from linktriage.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY
 
 
 @dataclass(frozen=True, slots=True)
@@ -41,7 +44,7 @@ class Digests:
     network: Network
     store: Store
     model: Model
-    gathering: Gathering
+    poller: Poller
     clock: Callable[[], float] = time.time
 
     def suspects(
@@ -56,7 +59,7 @@ class Digests:
         ``fresh``, from the stored polls where they already make a window."""
         scope = self.scope(site)
         refs = [r for r in self.network.ports() if scope.covers(r.device, r.site)]
-        polls, failed = self.gathering.gather(refs, fresh=fresh)
+        polls, failed = self.poller.polls_for(refs, fresh=fresh)
         # Devices whose ports could not even be listed are not read either.
         for device, why in self.network.unlisted().items():
             if scope.covers(device, self.network.site_of(device) if scope.site else None):
@@ -142,7 +145,7 @@ def listed(items: list[SuspectItem]) -> list[dict[str, object]]:
 
 def ranked_suspects(batch: DiagnosisBatch) -> list[int]:
     """The rows of the suspect links, worst first. A suspect link is a port with a fault
-    verdict (:data:`~linktriage.verdicts.FAULTS`): the one definition behind every list and
+    verdict (:data:`~linktriage.engine.verdicts.FAULTS`): the one definition behind every list and
     count of suspects (``suspects``, the digest, ``sweep``, ``demo``). Where both ends of a
     link are in the batch, the link's verdict from both views decides, and the link is
     listed once, under the end that sees the fault itself (the worse, then the first by

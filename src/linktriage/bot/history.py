@@ -15,10 +15,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
+from linktriage.engine.diagnosis.batch import DiagnosisBatch
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.poll_table import PollTable
 from linktriage.errors import NoHistoryError, PollError
-from linktriage.network.interface import Network, PortRef
-from linktriage.polls import PollTable
+from linktriage.network.watched import Network, PortRef
 from linktriage.render import words
 from linktriage.render.replies import HistoryPoint, HistoryReply, VerdictRun
 from linktriage.store import Store

@@ -20,7 +20,7 @@ from apscheduler.schedulers.background import BackgroundScheduler
 from apscheduler.triggers.cron import CronTrigger
 from apscheduler.triggers.interval import IntervalTrigger
 
-from linktriage.bot.gathering import PollRound
+from linktriage.bot.poller import PollRound
 from linktriage.bot.triage import Triage
 from linktriage.render.replies import SuspectsReply
 from linktriage.settings import ScheduleSettings
@@ -70,7 +70,7 @@ class Jobs:
     retries_s: tuple[float, ...] = POST_RETRIES_S
 
     def poll(self) -> PollRound:
-        result = self.triage.gathering.poll_round()
+        result = self.triage.poller.poll_round()
         if result.failed:
             log.warning("poll: no answer from %s", ", ".join(sorted(result.failed)))
         return result

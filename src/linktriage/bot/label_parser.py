@@ -13,7 +13,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 
-from linktriage.verdicts import TREE_VERDICTS, Verdict
+from linktriage.engine.verdicts import TREE_VERDICTS, Verdict
 
 # Phrases of the trade, each with a weight: a specific one ("sfp") outweighs a general
 # one ("connector") when a reply has both.

@@ -10,9 +10,10 @@ from dataclasses import dataclass, field
 from typing import cast
 
 from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
-from linktriage.diagnosis import DiagnosisRecord
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.model.labels import current
+from linktriage.engine.verdicts import TREE_VERDICTS, Verdict
 from linktriage.errors import StoreError
-from linktriage.model.labels import current
 from linktriage.render.replies import DiagnosisReply, LabelRefused, LabelReply
 from linktriage.render.words import (
     LABEL_ALREADY,
@@ -28,7 +29,6 @@ from linktriage.render.words import (
 )
 from linktriage.settings import Settings
 from linktriage.store import Store, StoredDiagnosis
-from linktriage.verdicts import TREE_VERDICTS, Verdict
 
 #: Members of a chat user group, by group id (Slack: usergroups.users.list).
 GroupMembers = Callable[[str], set[str]]

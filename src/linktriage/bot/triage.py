@@ -2,7 +2,7 @@
 
 Every chat transport (Slack, the console) and every job calls into :class:`Triage`, which
 answers commands itself (one port, the model's card, help) and hands the rest to its
-parts, one job each: :mod:`~linktriage.bot.gathering` (polls for a question, the poll
+parts, one job each: :mod:`~linktriage.bot.poller` (polls for a question, the poll
 job), :mod:`~linktriage.bot.digests` (lists of suspects, the digest),
 :mod:`~linktriage.bot.history` (a port over time) and
 :mod:`~linktriage.bot.labelling` (labels from threads and buttons). It takes its clock
@@ -32,14 +32,16 @@ from linktriage.bot.commands import (
     parse,
 )
 from linktriage.bot.digests import Digests, listed
-from linktriage.bot.gathering import Gathering
 from linktriage.bot.history import Histories
 from linktriage.bot.labelling import GroupMembers, Labelling
-from linktriage.diagnosis import DiagnosisBatch, Model, diagnose
+from linktriage.bot.poller import Poller
+from linktriage.engine.diagnosis.batch import DiagnosisBatch
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.links import PortMatcher
 from linktriage.errors import LinktriageError, PollError, StoreError
-from linktriage.links import PortMatcher
-from linktriage.network.interface import Network, PortRef
-from linktriage.polls import PollTable
+from linktriage.network.watched import Network, PortRef
 from linktriage.render import words
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import (
@@ -66,18 +68,16 @@ class Triage:
     clock: Callable[[], float] = time.time
     sleep: Callable[[float], None] = time.sleep
     members_of: GroupMembers | None = None
-    gathering: Gathering = field(init=False)
+    poller: Poller = field(init=False)
     digests: Digests = field(init=False)
     labels: Labelling = field(init=False)
     histories: Histories = field(init=False)
 
     def __post_init__(self) -> None:
-        self.gathering = Gathering(
+        self.poller = Poller(
             self.network, self.store, self.settings, clock=self.clock, sleep=self.sleep
         )
-        self.digests = Digests(
-            self.network, self.store, self.model, self.gathering, clock=self.clock
-        )
+        self.digests = Digests(self.network, self.store, self.model, self.poller, clock=self.clock)
         self.labels = Labelling(
             self.store, self.settings, clock=self.clock, members_of=self.members_of
         )
@@ -179,12 +179,12 @@ class Triage:
     def _diagnosed(self, ref: PortRef) -> tuple[DiagnosisBatch, int]:
         """The port's polls gathered and diagnosed, with its far end's where LLDP names a
         port this network reads: the batch and the port's row in it."""
-        polls, failed = self.gathering.gather([ref])
+        polls, failed = self.poller.polls_for([ref])
         if failed:
             raise PollError(ref.device, failed[ref.device])
         far = self._far_end(ref, polls)
         if far is not None:
-            far_polls, far_failed = self.gathering.gather([far])
+            far_polls, far_failed = self.poller.polls_for([far])
             if not far_failed:  # a far end that cannot be read costs the answer nothing
                 polls = PollTable.concat([polls, far_polls])
         batch = diagnose(polls, self.model)

@@ -7,8 +7,8 @@ from pathlib import Path
 import click
 
 from linktriage.cli.options import model_option
+from linktriage.engine.verdicts import Verdict
 from linktriage.render import words
-from linktriage.verdicts import Verdict
 
 #: The port whose history the demo shows: its cable fault began during the morning.
 _HISTORY_OF = ("lark-east-idf2", "port14")
@@ -27,7 +27,8 @@ def demo(model_path: Path | None) -> None:
     from collections import Counter
 
     from linktriage.bot.digests import ranked_suspects, unjudged
-    from linktriage.diagnosis import Model, diagnose
+    from linktriage.engine.diagnosis.loaded_model import Model
+    from linktriage.engine.diagnosis.pipeline import diagnose
     from linktriage.network.demo import ORGANISATION, PLANTED, demo_polls
     from linktriage.render.text import explanation, table_rows
 
@@ -57,10 +58,10 @@ def _demo_digest_and_label(model_path: Path | None) -> None:
     import tempfile
 
     from linktriage.assembly import opened
+    from linktriage.engine.simulate import DEFAULT_START
     from linktriage.network.demo import DemoClock, DemoNetwork
     from linktriage.render.text import render
     from linktriage.settings import Settings, StoreSettings
-    from linktriage.simulate import DEFAULT_START
 
     clock = DemoClock(DEFAULT_START - 300.0)
     with tempfile.TemporaryDirectory() as folder:
@@ -68,7 +69,7 @@ def _demo_digest_and_label(model_path: Path | None) -> None:
         network = DemoNetwork(clock=clock)
         with opened(settings, model_path=model_path, network=network, demo_clock=clock) as parts:
             triage = parts.triage()
-            triage.gathering.poll_round()  # the poll job ran five minutes before the digest
+            triage.poller.poll_round()  # the poll job ran five minutes before the digest
             clock.sleep(300.0)
             digest = triage.digests.digest(channel="demo")
             triage.posted(digest, channel="demo", ts="digest-1")
@@ -100,12 +101,12 @@ def _demo_history(model_path: Path | None) -> None:
     import tempfile
 
     from linktriage.assembly import opened
+    from linktriage.engine.simulate import DEFAULT_START
     from linktriage.network.demo import DemoClock, DemoNetwork
     from linktriage.paths import data_dir
     from linktriage.render.charts import pictures_for
     from linktriage.render.text import history_text
     from linktriage.settings import Settings, StoreSettings
-    from linktriage.simulate import DEFAULT_START
 
     device, port = _HISTORY_OF
     clock = DemoClock(DEFAULT_START - _HISTORY_S)
@@ -117,7 +118,7 @@ def _demo_history(model_path: Path | None) -> None:
             for poll in range(int(_HISTORY_S / _POLL_S) + 1):  # up to the demo's moment
                 if poll:
                     clock.sleep(_POLL_S)
-                triage.gathering.poll_round()
+                triage.poller.poll_round()
             reply = triage.histories.of(device, port, _HISTORY_S)
     click.echo(words.demo_asks_history(device, port, _HISTORY_S))
     lines = history_text(reply).splitlines()

@@ -31,7 +31,7 @@ def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path 
 
     from linktriage.assembly import inventory_for
     from linktriage.network.inventory import problems
-    from linktriage.network.polling import InventoryNetwork
+    from linktriage.network.inventory_network import InventoryNetwork
 
     found = inventory_for(inventory_path, config_path)
     bad = problems(found)
@@ -108,9 +108,9 @@ def collect(
     import time
 
     from linktriage.assembly import inventory_for
-    from linktriage.network.interface import device_named
-    from linktriage.network.polling import InventoryNetwork
-    from linktriage.snapshot import iter_snapshots, write_snapshots
+    from linktriage.engine.format.snapshot import iter_snapshots, write_snapshots
+    from linktriage.network.inventory_network import InventoryNetwork
+    from linktriage.network.watched import device_named
 
     found = inventory_for(inventory_path, config_path)
     name = device_named(device, [d.name for d in found.devices])
@@ -154,7 +154,7 @@ def sweep(
     when some were not, 4 when none was.
     """
     from linktriage.assembly import inventory_for, opened
-    from linktriage.network.polling import InventoryNetwork
+    from linktriage.network.inventory_network import InventoryNetwork
     from linktriage.render.jsonl import dumps
     from linktriage.render.text import suspects_text
     from linktriage.settings import load_settings

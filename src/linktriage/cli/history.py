@@ -50,7 +50,7 @@ def history(
     """
     from linktriage.assembly import inventory_for, opened
     from linktriage.bot.commands import span_seconds
-    from linktriage.network.polling import InventoryNetwork
+    from linktriage.network.inventory_network import InventoryNetwork
     from linktriage.render.text import history_text
     from linktriage.settings import load_settings
 

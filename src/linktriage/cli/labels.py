@@ -25,7 +25,7 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
     from dataclasses import asdict
 
     from linktriage.assembly import opened_store
-    from linktriage.model.labels import settle
+    from linktriage.engine.model.labels import settle
     from linktriage.settings import load_settings
 
     with opened_store(load_settings(config_path)) as store:
@@ -65,7 +65,7 @@ def labels_export(out: Path, config_path: Path | None) -> None:
     """Write the labels that count as training rows (CSV: the features, then the label);
     replaced and disputed ones are left out."""
     from linktriage.assembly import opened_store
-    from linktriage.model.labels import label_frame, settle
+    from linktriage.engine.model.labels import label_frame, settle
     from linktriage.settings import load_settings
 
     with opened_store(load_settings(config_path)) as store:

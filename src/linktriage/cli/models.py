@@ -47,10 +47,10 @@ def train(
     import time
     from dataclasses import replace
 
-    from linktriage.diagnosis import Model
-    from linktriage.model.registry import Entry, Registry
-    from linktriage.model.train import TrainingConfig
-    from linktriage.model.train import train as run_training
+    from linktriage.engine.diagnosis.loaded_model import Model
+    from linktriage.engine.model.registry import Entry, Registry
+    from linktriage.engine.model.train import TrainingConfig
+    from linktriage.engine.model.train import train as run_training
     from linktriage.render.card import card_text, model_card_data
 
     cfg = TrainingConfig()
@@ -63,7 +63,7 @@ def train(
     promote = True
     if with_labels:
         from linktriage.assembly import opened_store
-        from linktriage.model.learning import learn
+        from linktriage.engine.model.learning import learn
         from linktriage.settings import load_settings
 
         with opened_store(load_settings(config_path)) as store:
@@ -114,8 +114,8 @@ def train(
 @model_option
 def model(as_json: bool, use_version: str | None, model_path: Path | None) -> None:
     """Show the model's card: version, size, pruning, scores, labels, kept versions."""
-    from linktriage.diagnosis import Model
-    from linktriage.model.registry import Registry
+    from linktriage.engine.diagnosis.loaded_model import Model
+    from linktriage.engine.model.registry import Registry
     from linktriage.render.card import card_text, model_card_data
 
     registry = Registry()

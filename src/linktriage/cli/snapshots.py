@@ -16,8 +16,8 @@ from linktriage.cli.options import (
     plot_option,
     write_plot,
 )
+from linktriage.engine.verdicts import FAULTS
 from linktriage.render import words
-from linktriage.verdicts import FAULTS
 
 if TYPE_CHECKING:
     from linktriage.render.replies import TreeReply
@@ -50,9 +50,10 @@ def diagnose(
     Lines that do not parse or fail validation are reported on standard error with their
     line numbers and skipped; the rest of the file is still diagnosed.
     """
-    from linktriage.diagnosis import Model, diagnose, diagnose_chunks
+    from linktriage.engine.diagnosis.loaded_model import Model
+    from linktriage.engine.diagnosis.pipeline import diagnose, diagnose_chunks
+    from linktriage.engine.format.snapshot import read_snapshot_file
     from linktriage.render.formats import RENDERERS
-    from linktriage.snapshot import read_snapshot_file
 
     model = Model.load(model_path)
     result = read_snapshot_file(path)
@@ -114,9 +115,10 @@ def _answered(
     when an inventory is given or configured, else from the demo network's fixed polls
     (the same answer every time, as the README shows it)."""
     from linktriage.assembly import inventory_for, opened
-    from linktriage.diagnosis import Model, diagnose
+    from linktriage.engine.diagnosis.loaded_model import Model
+    from linktriage.engine.diagnosis.pipeline import diagnose
     from linktriage.network.demo import DemoNetwork, demo_polls
-    from linktriage.network.polling import InventoryNetwork
+    from linktriage.network.inventory_network import InventoryNetwork
     from linktriage.render.replies import TreeReply
     from linktriage.settings import load_settings
 

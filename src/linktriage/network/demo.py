@@ -3,7 +3,7 @@
 Two sites: the central library (a core switch and wiring closets in the east and west
 wings) and a branch annex. Most ports are healthy; a handful carry one planted fault each,
 so the demo and the documentation can show every verdict on ports with a story behind
-them. Counters come from :mod:`linktriage.simulate`, deterministically for a given seed,
+them. Counters come from :mod:`linktriage.engine.simulate`, deterministically for a given seed,
 and grow with time: the network can be polled at any moment, like real switches.
 """
 
@@ -18,11 +18,11 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.simulate import DEFAULT_START, G, LiveCounters, M, sample_parameters
+from linktriage.engine.verdicts import Verdict
 from linktriage.errors import PollError
-from linktriage.network.interface import Network, PortRef
-from linktriage.polls import PollTable
-from linktriage.simulate import DEFAULT_START, G, LiveCounters, M, sample_parameters
-from linktriage.verdicts import Verdict
+from linktriage.network.watched import Network, PortRef
 
 ORGANISATION = "Larkmoor Civic Library"
 DEFAULT_SEED = 7

@@ -15,7 +15,16 @@ import re
 from datetime import UTC, datetime
 from typing import Any
 
-from linktriage.diagnosis import DiagnosisRecord
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.measure.numbers import sig
+from linktriage.engine.verdicts import (
+    GUARD_VERDICTS,
+    GUIDES,
+    SHORT,
+    TREE_VERDICTS,
+    Verdict,
+    cautions_for,
+)
 from linktriage.render import words
 from linktriage.render.card import card_text
 from linktriage.render.replies import (
@@ -40,8 +49,6 @@ from linktriage.render.words import (
     nearest_line,
     ruled_out_line,
 )
-from linktriage.verdicts import GUARD_VERDICTS, GUIDES, SHORT, TREE_VERDICTS, Verdict, cautions_for
-from linktriage.wording import sig
 
 MAX_BLOCKS = 50
 MAX_SECTION = 3000

@@ -5,10 +5,10 @@ from __future__ import annotations
 from datetime import UTC, datetime
 from typing import Any
 
-from linktriage.measures import RESOLUTION_CAP, RESOLUTION_TIMES_OBJECTIVE
-from linktriage.model.artefact import TreeArtefact
-from linktriage.model.impurity import feature_importances
-from linktriage.wording import format_ratio, ratio_scale, sig
+from linktriage.engine.measure.measures import RESOLUTION_CAP, RESOLUTION_TIMES_OBJECTIVE
+from linktriage.engine.measure.numbers import format_ratio, ratio_scale, sig
+from linktriage.engine.model.artefact import TreeArtefact
+from linktriage.engine.model.impurity import feature_importances
 
 
 def importances(artefact: TreeArtefact) -> dict[str, float]:

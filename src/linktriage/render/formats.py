@@ -6,7 +6,7 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 from typing import IO
 
-from linktriage.diagnosis import DiagnosisBatch
+from linktriage.engine.diagnosis.batch import DiagnosisBatch
 from linktriage.render import jsonl, text
 
 Renderer = Callable[[DiagnosisBatch, Sequence[int], IO[str]], None]

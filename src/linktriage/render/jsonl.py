@@ -11,8 +11,9 @@ from typing import IO
 
 import msgspec
 
-from linktriage.bulk import collector_paused
-from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord
+from linktriage.engine.diagnosis.batch import DiagnosisBatch
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.gc_pause import gc_paused
 
 _encoder = msgspec.json.Encoder()
 _encode = _encoder.encode
@@ -31,7 +32,7 @@ def write_lines(batch: DiagnosisBatch, rows: Sequence[int], out: IO[str]) -> Non
     raw = getattr(out, "buffer", None)  # a text stream over bytes: write the UTF-8 as is
     if raw is not None:
         out.flush()
-    with collector_paused():  # the records are acyclic (see linktriage.bulk)
+    with gc_paused():  # the records are acyclic (see linktriage.gc_pause)
         for start in range(0, len(ordered), _CHUNK):
             lines = _encoder.encode_lines(batch.records_many(ordered[start : start + _CHUNK]))
             if raw is not None:

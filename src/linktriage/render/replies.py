@@ -5,8 +5,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any, Literal, TypedDict
 
-from linktriage.diagnosis import DiagnosisRecord
-from linktriage.model.artefact import TreeArtefact
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.model.artefact import TreeArtefact
 from linktriage.render.words import coverage_words, history_summary
 
 Visibility = Literal["channel", "ephemeral"]

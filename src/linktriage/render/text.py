@@ -8,7 +8,10 @@ from collections.abc import Sequence
 from datetime import UTC, datetime
 from typing import IO
 
-from linktriage.diagnosis import DiagnosisBatch, DiagnosisRecord, headline
+from linktriage.engine.diagnosis.batch import DiagnosisBatch, headline
+from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.measure.numbers import sig
+from linktriage.engine.verdicts import GUIDES, Verdict
 from linktriage.printable import printable
 from linktriage.render import words
 from linktriage.render.card import card_text
@@ -31,8 +34,6 @@ from linktriage.render.words import (
     nearest_line,
     ruled_out_line,
 )
-from linktriage.verdicts import GUIDES, Verdict
-from linktriage.wording import sig
 
 WIDTH = 88
 _HEADER = words.TABLE_HEADER

@@ -2,7 +2,8 @@
 constant per idea, so the wording can be read and reviewed as text.
 
 The words inside a diagnosis record (questions, evidence, checks) are the engine's, in
-:mod:`linktriage.wording`, :mod:`linktriage.evidence` and :mod:`linktriage.verdicts`.
+:mod:`linktriage.engine.model.questions`, :mod:`linktriage.engine.evidence` and
+:mod:`linktriage.engine.verdicts`.
 """
 
 from __future__ import annotations
@@ -14,7 +15,7 @@ from typing import TYPE_CHECKING, Any
 from linktriage.printable import printable
 
 if TYPE_CHECKING:
-    from linktriage.model.labels import Label
+    from linktriage.engine.model.labels import Label
     from linktriage.store import StoreState
 
 

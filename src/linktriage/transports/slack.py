@@ -33,6 +33,7 @@ from linktriage.bot.commands import (
     ShowTree,
 )
 from linktriage.bot.triage import Triage
+from linktriage.engine.verdicts import TREE_VERDICTS
 from linktriage.errors import LinktriageError
 from linktriage.render import words
 from linktriage.render.blocks import (
@@ -45,7 +46,6 @@ from linktriage.render.blocks import (
 from linktriage.render.charts import pictures_for
 from linktriage.render.replies import LabelReply, Reply
 from linktriage.settings import Settings
-from linktriage.verdicts import TREE_VERDICTS
 
 log = logging.getLogger("linktriage.slack")
 WORKING = words.WORKING

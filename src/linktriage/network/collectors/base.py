@@ -30,13 +30,13 @@ from typing import Any, ClassVar, Generic, TypeVar, cast, get_args, get_origin
 
 from pydantic import BaseModel, ConfigDict, ValidationError, model_validator
 
+from linktriage.engine.format.snapshot import Snapshot
 from linktriage.errors import (
     CollectorError,
     DeviceTimeoutError,
     InputError,
     UnknownCollectorError,
 )
-from linktriage.snapshot import Snapshot
 
 ENTRY_POINTS = "linktriage.collectors"
 T = TypeVar("T")

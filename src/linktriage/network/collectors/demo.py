@@ -4,10 +4,10 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
+from linktriage.engine.format.snapshot import iter_snapshots
 from linktriage.errors import CollectorError, PollError
 from linktriage.network.collectors.base import Collector, Options, Reading, Target
 from linktriage.network.demo import DEFAULT_SEED, DemoNetwork
-from linktriage.snapshot import iter_snapshots
 
 
 class DemoOptions(Options):

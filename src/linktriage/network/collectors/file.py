@@ -11,9 +11,9 @@ from pathlib import Path
 
 import numpy as np
 
+from linktriage.engine.format.snapshot import Snapshot, iter_snapshots, read_snapshot_file
 from linktriage.errors import BadAnswerError, SnapshotFileError
 from linktriage.network.collectors.base import Collector, Options, Reading, Target
-from linktriage.snapshot import Snapshot, iter_snapshots, read_snapshot_file
 
 
 class FileOptions(Options):

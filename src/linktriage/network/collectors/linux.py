@@ -30,10 +30,10 @@ from pathlib import Path
 
 from pydantic import Field, ValidationError, field_validator
 
-from linktriage.counters import COLUMN_INDEX
+from linktriage.engine.format.counters import COLUMN_INDEX
+from linktriage.engine.format.snapshot import Snapshot
 from linktriage.errors import BadAnswerError, InputError
 from linktriage.network.collectors.base import Collector, Options, Reading, Target
-from linktriage.snapshot import Snapshot
 
 #: sysfs statistics of every interface -> the snapshot counter (RFC 2863 IF-MIB names).
 TRAFFIC = {

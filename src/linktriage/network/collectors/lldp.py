@@ -17,7 +17,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any, Generic, TypeVar
 
-from linktriage.snapshot import Neighbor
+from linktriage.engine.format.snapshot import Neighbor
 
 K = TypeVar("K")
 #: How long a device's neighbors are kept before they are asked for again. LLDP follows the

@@ -50,12 +50,12 @@ from typing import Annotated, Any
 import msgspec
 from pydantic import Field, ValidationError, field_validator
 
-from linktriage.counters import COLUMN_INDEX, COUNTER64_MAX
+from linktriage.engine.format.counters import COLUMN_INDEX, COUNTER64_MAX
+from linktriage.engine.format.snapshot import Neighbor, Snapshot
 from linktriage.errors import BadAnswerError, CollectorError
 from linktriage.network.collectors.base import HistoryCollector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
 from linktriage.network.collectors.lldp import FarEnd, far_end, local_ports, neighbor
-from linktriage.snapshot import Neighbor, Snapshot
 
 #: Port state the collector reads, by the IF-MIB / EtherLike-MIB object (RFC 2863, RFC 3635)
 #: whose value the metric carries.

@@ -33,6 +33,7 @@ from typing import Annotated, Any, Literal
 
 from pydantic import Field, ValidationError
 
+from linktriage.engine.format.snapshot import Neighbor, Snapshot
 from linktriage.errors import BadAnswerError, CollectorError
 from linktriage.network.collectors.base import Collector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
@@ -43,7 +44,6 @@ from linktriage.network.collectors.lldp import (
     far_end,
     neighbor,
 )
-from linktriage.snapshot import Neighbor, Snapshot
 
 #: RFC 8343 statistics leaves and the IF-MIB counters they are (RFC 8343 section 4).
 STATISTICS = {

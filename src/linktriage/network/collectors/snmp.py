@@ -27,6 +27,7 @@ from typing import Annotated, Any, Literal
 
 from pydantic import Field
 
+from linktriage.engine.format.snapshot import Neighbor, Snapshot
 from linktriage.errors import BadAnswerError, CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Collector, Options, Reading, SecretRef, Target
 from linktriage.network.collectors.lldp import (
@@ -37,7 +38,6 @@ from linktriage.network.collectors.lldp import (
     local_ports,
     neighbor,
 )
-from linktriage.snapshot import Neighbor, Snapshot
 
 IF_ENTRY = "1.3.6.1.2.1.2.2.1"
 IFX_ENTRY = "1.3.6.1.2.1.31.1.1.1"

@@ -1,0 +1,400 @@
+"""A batch of diagnoses: every port's verdict computed column-wise, and each port's record
+(the shape of ``diagnose --json``) built only when asked for, with the per-node, per-leaf
+and per-verdict wording worked out once for the ports that share it."""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from functools import cache
+
+import numpy as np
+import numpy.typing as npt
+
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.evidence import evidence_of, item
+from linktriage.engine.format.answers import (
+    BitErrorRecord,
+    DiagnosisRecord,
+    EvidenceRecord,
+    FarEndRecord,
+    LinkRecord,
+    NearestOther,
+    QuestionRecord,
+    RuledOutRecord,
+)
+from linktriage.engine.links import LinkView, judge_link
+from linktriage.engine.measure.columns import Columns
+from linktriage.engine.measure.numbers import format_ratio, ratio_scale, sig
+from linktriage.engine.measure.window import WindowTable
+from linktriage.engine.model.explain import rounded
+from linktriage.engine.model.features import FEATURE_KIND, FEATURE_NAMES, FeatureRows
+from linktriage.engine.model.nearest import Nearest
+from linktriage.engine.model.questions import change_said
+from linktriage.engine.physics import Allowed
+from linktriage.engine.verdicts import GUIDES, Verdict, cautions, next_checks
+from linktriage.gc_pause import gc_paused
+
+VERDICT_BY_ID = {v.value: v for v in Verdict}  # a dict lookup, cheaper than Verdict(value)
+
+#: Ports whose records are worded together: enough to share the work of a verdict's words,
+#: few enough to keep one chunk's records in memory.
+_CHUNK = 4096
+
+# Verdicts whose reading rests on bit errors, so the BER estimate belongs in the answer.
+# (A duplex mismatch damages frames by collision, not by bit errors on the wire.)
+_BER_VERDICTS = frozenset({Verdict.HEALTHY, Verdict.CABLE_FAULT, Verdict.OPTIC_DEGRADED})
+
+
+@cache
+def advice(
+    verdict: Verdict, fiber: bool | None, poe: bool | None
+) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """Next checks and cautions for a verdict on a port of this medium and PoE state."""
+    return tuple(next_checks(verdict, fiber=fiber)), tuple(cautions(verdict, poe=poe, fiber=fiber))
+
+
+@cache
+def advice_lists(
+    verdict: Verdict, fiber: bool | None, poe: bool | None
+) -> tuple[list[str], list[str]]:
+    """:func:`advice` as the lists a record holds, one pair shared by every record alike."""
+    checks, warn = advice(verdict, fiber, poe)
+    return list(checks), list(warn)
+
+
+_BER_COLUMNS = ("ber", "ber_lo", "ber_hi", "objective", "rx_errors")
+
+
+@dataclass
+class DiagnosisBatch:
+    """Every port's verdict, computed column-wise; records are built on demand.
+
+    The per-port columns are kept as Python lists: records read them one port at a time.
+    """
+
+    model: Model
+    windows: WindowTable
+    measures: Columns
+    features: FeatureRows
+    allowed: Allowed
+    device: list[str]
+    port: list[str]
+    verdict: list[Verdict]
+    confidence: list[float]  # rounded to 4 places, as reported
+    node: list[int]  # the tree node whose classes decided; -1 where a guard answered
+    ruled_out: list[Verdict | None]  # the tree's first choice where the physics ruled it out
+    values: npt.NDArray[np.float64]  # the feature columns, as the tree compared them
+    reported: npt.NDArray[np.bool_]  # which features the device's counters gave
+    nearest: Nearest  # the change that would give another verdict; none where a guard answered
+    fiber: list[bool | None]
+    poe: list[bool | None]
+    phy: list[str | None]
+    window_s: list[float]
+    polls: list[int]
+    note: list[str | None]
+    far: list[int]  # the row at the other end of each port's link, -1 where none is known
+
+    def __post_init__(self) -> None:
+        self._columns: dict[str, list[float]] | None = None
+        self._views: dict[int, LinkView] = {}
+        self._changes: dict[tuple[int, float, bool, int], Callable[[float], str]] = {}
+
+    def __len__(self) -> int:
+        return len(self.verdict)
+
+    def index_of(self, device: str, port: str) -> int | None:
+        """Row of one port, or None when the batch has no such port."""
+        for i, (d, p) in enumerate(zip(self.device, self.port, strict=True)):
+            if d == device and p == port:
+                return i
+        return None
+
+    def records(self) -> Iterator[DiagnosisRecord]:
+        for start in range(0, len(self), _CHUNK):
+            yield from self.records_many(list(range(start, min(start + _CHUNK, len(self)))))
+
+    def advice_key(self, i: int) -> tuple[Verdict, bool | None, bool | None]:
+        """What the checks and cautions of row ``i`` depend on: verdict, fiber, PoE."""
+        return self.verdict[i], self.fiber[i], self.poe[i]
+
+    def column(self, name: str) -> list[float]:
+        """A :mod:`~linktriage.engine.measure.measures` column as a list (records read it port
+        by port)."""
+        if self._columns is None:
+            self._columns = {}
+        values = self._columns.get(name)
+        if values is None:
+            values = self._columns[name] = self.measures[name].tolist()
+        return values
+
+    def measured(self, name: str, i: int) -> float:
+        """One measure of the port in row ``i``."""
+        return self.column(name)[i]
+
+    def record(self, i: int) -> DiagnosisRecord:
+        """The full diagnosis of the port in row ``i``."""
+        return self.records_many([i])[0]
+
+    def records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
+        """The diagnoses of ``rows``, worded together: evidence a verdict at a time,
+        questions a node at a time (records are for reading: ports that say the same share
+        the words)."""
+        with gc_paused():  # many small acyclic dicts (see linktriage.gc_pause)
+            return self._records_many(rows)
+
+    def _records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
+        evidence = self.evidence_many(rows)
+        links = self._links(rows, evidence)
+        nearest = self.nearest_many(rows)
+        asked = [i for i in rows if self.node[i] >= 0]
+        questions = dict(
+            zip(
+                asked,
+                self.model.explainer.questions_many(
+                    [self.node[i] for i in asked],
+                    self.values[asked],
+                    self.reported[asked],
+                ),
+                strict=True,
+            )
+        )
+        records = [
+            self._record(
+                i,
+                e,
+                questions[i] if i in questions else self._guard_questions(i, self.verdict[i]),
+                n,
+            )
+            for i, e, n in zip(rows, evidence, nearest, strict=True)
+        ]
+        for record, i in zip(records, rows, strict=True):
+            if i in links:
+                record["far_end"], record["link"] = links[i]
+        return records
+
+    def _links(
+        self, rows: list[int], evidence: list[list[EvidenceRecord]]
+    ) -> dict[int, tuple[FarEndRecord, LinkRecord]]:
+        """Each row's far end and the link seen from both ends, for rows whose far end is
+        in the batch."""
+        paired = [i for i in rows if self.far[i] >= 0]
+        if not paired:
+            return {}
+        said = dict(zip(rows, evidence, strict=True))
+        missing = sorted({self.far[i] for i in paired} - said.keys())
+        said.update(zip(missing, self.evidence_many(missing), strict=True))
+        out = {}
+        for i in paired:
+            j = self.far[i]
+            view = self.link(i)
+            assert view is not None
+            far_end: FarEndRecord = {
+                "device": self.device[j],
+                "port": self.port[j],
+                "verdict": self.verdict[j].value,
+                "evidence": said[j],
+            }
+            link: LinkRecord = {
+                "verdict": view.verdict.value,
+                "title": GUIDES[view.verdict].title,
+                "said": list(view.said),
+                "checks": list(view.checks),
+                "agree": view.agree,
+            }
+            out[i] = (far_end, link)
+        return out
+
+    def link(self, i: int) -> LinkView | None:
+        """The link of row ``i`` judged from both ends, None where its far end is not in
+        the batch; judged once, as lists of suspects and records both ask."""
+        j = self.far[i]
+        if j < 0:
+            return None
+        view = self._views.get(i)
+        if view is None:
+            view = self._views[i] = judge_link(i, j, self.verdict, self.column, self.end_name)
+        return view
+
+    def link_verdict(self, i: int) -> Verdict:
+        """What row ``i``'s link is, from both ends where both are in the batch, else from
+        the port alone: what lists of suspects rank by."""
+        view = self.link(i)
+        return self.verdict[i] if view is None else view.verdict
+
+    def end_name(self, i: int) -> str:
+        """A port as the link's words name it: ``lark-core1 up3``."""
+        return f"{self.device[i]} {self.port[i]}"
+
+    def _record(
+        self,
+        i: int,
+        evidence: list[EvidenceRecord],
+        questions: list[QuestionRecord],
+        nearest: NearestOther | None,
+    ) -> DiagnosisRecord:
+        verdict = self.verdict[i]
+        checks, warn = advice_lists(*self.advice_key(i))
+        return {
+            "device": self.device[i],
+            "port": self.port[i],
+            "verdict": verdict.value,
+            "title": GUIDES[verdict].title,
+            "confidence": self.confidence[i],
+            "questions": questions,
+            "evidence": evidence,
+            "ruled_out": self.ruled_out_record(i),
+            "nearest_other": nearest,
+            "next_checks": checks,
+            "cautions": warn,
+            "model_version": self.model.version,
+            "window_s": self.window_s[i],
+            "polls": self.polls[i],
+            "bit_errors": self.bit_errors(i),
+            "note": self.note[i],
+        }
+
+    def evidence(self, i: int) -> list[EvidenceRecord]:
+        """The readings the verdict of row ``i`` rests on."""
+        return self.evidence_many([i])[0]
+
+    def evidence_many(self, rows: list[int]) -> list[list[EvidenceRecord]]:
+        """The readings each verdict of ``rows`` rests on, worded a verdict at a time."""
+        found = evidence_of(self.verdict, self.column, self.phy, rows)
+        for k, i in enumerate(rows):
+            verdict = self.verdict[i]
+            if verdict is Verdict.LINK_DOWN:
+                state = str(self.windows.oper_status[i])
+                said = f"the port is {state} at the latest poll"
+                found[k] = [
+                    item("oper_status", state, "state", None, "RFC 2863 ifOperStatus", said)
+                ]
+            elif verdict is Verdict.NO_DATA:
+                said = self.note[i] or "fewer than two usable polls"
+                polls = float(self.polls[i])
+                found[k] = [item("polls", polls, "polls", 2.0, "common practice", said)]
+        return found
+
+    def nearest_many(self, rows: list[int]) -> list[NearestOther | None]:
+        """What would change the verdict of each of ``rows``: worded once per change, and
+        ports at the same value share one record (records are for reading)."""
+        at = np.asarray(rows, np.intp)
+        near = self.nearest
+        column = near.column[at]
+        made: dict[tuple[int, float, bool, int, float], NearestOther] = {}
+        out: list[NearestOther | None] = []
+        for key in zip(
+            column.tolist(),
+            near.threshold[at].tolist(),
+            near.above[at].tolist(),
+            near.klass[at].tolist(),
+            self.values[at, np.maximum(column, 0)].tolist(),
+            strict=True,
+        ):
+            if key[0] < 0:
+                out.append(None)
+                continue
+            record = made.get(key)
+            if record is None:
+                record = made[key] = self._nearest(*key)
+            out.append(record)
+        return out
+
+    def _nearest(self, column: int, threshold: float, up: bool, k: int, v: float) -> NearestOther:
+        verdict = self.model.tree.classes[k]
+        feature = FEATURE_NAMES[column]
+        said = self._changes.get((column, threshold, up, k))
+        if said is None:
+            title = GUIDES[VERDICT_BY_ID[verdict]].title
+            said = change_said(feature, FEATURE_KIND[feature], threshold, up, title)
+            self._changes[(column, threshold, up, k)] = said
+        return {
+            "verdict": verdict,
+            "feature": feature,
+            "value": float(f"{v:.6g}"),
+            "threshold": threshold,
+            "direction": "above" if up else "below",
+            "said": said(v),
+        }
+
+    def ruled_out_record(self, i: int) -> RuledOutRecord | None:
+        first = self.ruled_out[i]
+        if first is None:
+            return None
+        rule = self.allowed.rule_against(i, first)
+        if rule is None:
+            return None
+        return {"verdict": first.value, "needs": rule.needs, "source": rule.source}
+
+    def bit_errors(self, i: int) -> BitErrorRecord | None:
+        """The BER estimate of row ``i`` where its verdict rests on bit errors."""
+        phy = self.phy[i]
+        if self.verdict[i] not in _BER_VERDICTS or phy is None:
+            return None
+        fer = self.column("fer")[i]
+        if fer != fer:  # NaN: no receive error counts to estimate from
+            return None
+        ber, lower, upper, objective, errors = (self.column(n)[i] for n in _BER_COLUMNS)
+        return {
+            "phy": phy,
+            "estimate": float(f"{ber:.3g}"),
+            "lower": float(f"{lower:.3g}"),
+            "upper": float(f"{upper:.3g}"),
+            "objective": objective,
+            "errors": errors,
+            "exceeds": bool(self.allowed.signs.errors[i]),
+        }
+
+    def _guard_questions(self, i: int, verdict: Verdict) -> list[QuestionRecord]:
+        w = self.windows
+        if verdict is Verdict.LINK_DOWN:
+            return [_q(GUARD_UP, False, "oper_status", None, None, f"no: {w.oper_status[i]}")]
+        if verdict is Verdict.NO_DATA:
+            said = f"no: {self.note[i]}"
+            return [_q(GUARD_POLLS, False, "polls", float(self.polls[i]), 2.0, said)]
+        value = self.measured
+        resolution, needed, frames = (
+            value("resolution", i),
+            value("frames_needed", i),
+            value("rx_frames", i),
+        )
+        text = GUARD_TRAFFIC.format(t=format_ratio(resolution, ratio_scale(resolution)))
+        said = traffic_said(frames, value("rx_errors", i), self.window_s[i], needed)
+        return [_q(text, False, "rx_frames", rounded(frames), needed, said)]
+
+
+def headline(record: DiagnosisRecord) -> str:
+    """The one reading a verdict rests on most, for one-line summaries; else its note."""
+    if record["evidence"]:
+        return record["evidence"][0]["said"]
+    return record["note"] or ""
+
+
+def _q(
+    text: str, answer: bool, feature: str, value: float | None, threshold: float | None, said: str
+) -> QuestionRecord:
+    return {
+        "question": text,
+        "answer": answer,
+        "feature": feature,
+        "value": value,
+        "threshold": threshold,
+        "said": said,
+    }
+
+
+#: The guards' questions, and the note of a port no verdict fits.
+GUARD_UP = "Is the port up?"
+GUARD_POLLS = "Two or more usable polls in the window?"
+GUARD_TRAFFIC = "Enough traffic to tell an error ratio of {t} from zero?"
+
+
+NO_FIT_NOTE = "no verdict fits every reading; this is the tree's own answer"
+
+
+def traffic_said(frames: float, errors: float, window_s: float, needed: float) -> str:
+    errors_text = "no" if errors != errors else sig(errors, 3)  # NaN: not reported
+    return (
+        f"no: {sig(frames, 3)} frames received and {errors_text} errors in "
+        f"{sig(window_s, 3)} s; a clean window needs about {sig(needed, 2)} frames"
+    )

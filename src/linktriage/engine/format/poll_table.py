@@ -1,0 +1,218 @@
+"""The poll table: many snapshots held as columns, the form every later stage computes on.
+
+One row per snapshot line. Counters sit in one ``uint64`` matrix (one column per counter name of
+:data:`linktriage.engine.format.counters.COLUMNS`) beside a boolean ``present`` matrix, because a
+counter a device does not report is missing, never zero, and because unsigned arithmetic gives
+Counter32 and Counter64 wrap-around for free. Everything else is ``float64`` with NaN for "not
+reported", so numpy and the tree see one representation of "unknown".
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from linktriage.engine.format.counters import COLUMNS
+
+#: Per-snapshot state fields held as float64 columns (NaN when the line does not carry them).
+STATE_FIELDS: tuple[str, ...] = (
+    "speed_bps",
+    "max_speed_bps",
+    "mtu",
+    "link_changes",
+    "discontinuity",
+    "half_duplex",
+    "fiber",
+    "poe",
+)
+#: Transceiver readings of the snapshot format's ``optics`` object, in dBm, degrees C and mA.
+OPTICS_FIELDS: tuple[str, ...] = (
+    "rx_power_dbm",
+    "tx_power_dbm",
+    "rx_power_low_alarm_dbm",
+    "rx_power_low_warn_dbm",
+    "tx_power_low_alarm_dbm",
+    "temperature_c",
+    "bias_ma",
+)
+
+#: The far end's name columns (object arrays, None where a line names no neighbor).
+NEIGHBOR_FIELDS: tuple[str, ...] = ("neighbor_device", "neighbor_port")
+
+FloatArray = npt.NDArray[np.float64]
+
+
+def _names(
+    values: Sequence[str | None] | npt.NDArray[np.object_] | None, n: int
+) -> npt.NDArray[np.object_]:
+    """An object column of ``n`` names, None throughout when none are given."""
+    column = np.empty(n, dtype=object)
+    if values is not None:
+        column[:] = values
+    return column
+
+
+@dataclass(slots=True)
+class PollTable:
+    """Snapshots as columns; row ``i`` of every array belongs to the same snapshot."""
+
+    device: npt.NDArray[np.object_]
+    port: npt.NDArray[np.object_]
+    time: FloatArray  # seconds since the Unix epoch
+    oper_status: npt.NDArray[np.object_]
+    state: dict[str, FloatArray]  # keys: STATE_FIELDS
+    optics: dict[str, FloatArray]  # keys: OPTICS_FIELDS
+    counters: npt.NDArray[np.uint64]  # shape (rows, len(COLUMNS))
+    present: npt.NDArray[np.bool_]  # shape (rows, len(COLUMNS))
+    line: npt.NDArray[np.int64]  # line number in the source file, 0 when not from a file
+    # The far end of the link as LLDP reports it (system name, port id), None where unknown.
+    neighbor_device: npt.NDArray[np.object_]
+    neighbor_port: npt.NDArray[np.object_]
+
+    def __len__(self) -> int:
+        return len(self.time)
+
+    @classmethod
+    def empty(cls) -> PollTable:
+        """A table with no rows, for a file with no usable lines."""
+        return cls.from_columns(device=[], port=[], time=[], oper_status=[])
+
+    @classmethod
+    def from_columns(
+        cls,
+        *,
+        device: Sequence[str] | npt.NDArray[np.object_],
+        port: Sequence[str] | npt.NDArray[np.object_],
+        time: Sequence[float] | FloatArray,
+        oper_status: Sequence[str] | npt.NDArray[np.object_],
+        state: dict[str, FloatArray] | None = None,
+        optics: dict[str, FloatArray] | None = None,
+        counters: npt.NDArray[np.uint64] | None = None,
+        present: npt.NDArray[np.bool_] | None = None,
+        line: npt.NDArray[np.int64] | None = None,
+        neighbor_device: Sequence[str | None] | npt.NDArray[np.object_] | None = None,
+        neighbor_port: Sequence[str | None] | npt.NDArray[np.object_] | None = None,
+    ) -> PollTable:
+        """Build a table, filling every column not given with "not reported"."""
+        n = len(time)
+        state = state or {}
+        optics = optics or {}
+        nan = np.full(n, np.nan)
+        return cls(
+            device=np.asarray(device, dtype=object),
+            port=np.asarray(port, dtype=object),
+            time=np.asarray(time, dtype=np.float64),
+            oper_status=np.asarray(oper_status, dtype=object),
+            state={k: np.asarray(state.get(k, nan), np.float64) for k in STATE_FIELDS},
+            optics={k: np.asarray(optics.get(k, nan), np.float64) for k in OPTICS_FIELDS},
+            counters=(np.zeros((n, len(COLUMNS)), np.uint64) if counters is None else counters),
+            present=(np.zeros((n, len(COLUMNS)), np.bool_) if present is None else present),
+            line=np.zeros(n, np.int64) if line is None else line,
+            neighbor_device=_names(neighbor_device, n),
+            neighbor_port=_names(neighbor_port, n),
+        )
+
+    def take(self, rows: npt.NDArray[np.intp] | npt.NDArray[np.bool_]) -> PollTable:
+        """The rows selected by an index or mask array, as a new table."""
+        return PollTable(
+            device=self.device[rows],
+            port=self.port[rows],
+            time=self.time[rows],
+            oper_status=self.oper_status[rows],
+            state={k: v[rows] for k, v in self.state.items()},
+            optics={k: v[rows] for k, v in self.optics.items()},
+            counters=self.counters[rows],
+            present=self.present[rows],
+            line=self.line[rows],
+            neighbor_device=self.neighbor_device[rows],
+            neighbor_port=self.neighbor_port[rows],
+        )
+
+    def by_device(self) -> list[tuple[str, PollTable]]:
+        """The rows of each device, in name order (grouped once, by sorting)."""
+        if not len(self):
+            return []
+        order = np.argsort(self.device, kind="stable")
+        names, starts = np.unique(self.device[order], return_index=True)
+        ends = [*starts[1:].tolist(), len(order)]
+        return [
+            (str(name), self.take(order[start:end]))
+            for name, start, end in zip(names.tolist(), starts.tolist(), ends, strict=True)
+        ]
+
+    @classmethod
+    def grown(cls, chunks: Iterable[PollTable]) -> PollTable:
+        """All rows of ``chunks`` in order, like :meth:`concat`, copied as each chunk comes
+        into arrays that grow in place (realloc, not copy): a large file read a chunk at a
+        time is held once, never once in chunks and again whole."""
+        names: dict[str, list[str | None]] = {
+            name: [] for name in ("device", "port", "oper_status", *NEIGHBOR_FIELDS)
+        }
+        columns: dict[str, npt.NDArray[Any]] = {}
+        rows = capacity = 0
+        for chunk in chunks:
+            parts = chunk._numbers()
+            end = rows + len(chunk)
+            if end > capacity:
+                # numpy zero-fills what a resize adds: grow by a quarter, not double, so at
+                # most a quarter more than the rows is ever touched.
+                capacity = max(capacity + capacity // 4, end)
+                for name, part in parts.items():
+                    column = columns.setdefault(name, np.empty((0, *part.shape[1:]), part.dtype))
+                    column.resize((capacity, *part.shape[1:]), refcheck=False)
+            for name, part in parts.items():
+                columns[name][rows:end] = part
+            for name, values in names.items():
+                values.extend(getattr(chunk, name).tolist())
+            rows = end
+        if not rows:
+            return cls.empty()
+        for column in columns.values():
+            column.resize((rows, *column.shape[1:]), refcheck=False)
+        return cls(
+            device=np.array(names["device"], object),
+            port=np.array(names["port"], object),
+            time=columns["time"],
+            oper_status=np.array(names["oper_status"], object),
+            state={k: columns[f"state.{k}"] for k in STATE_FIELDS},
+            optics={k: columns[f"optics.{k}"] for k in OPTICS_FIELDS},
+            counters=columns["counters"],
+            present=columns["present"],
+            line=columns["line"],
+            neighbor_device=np.array(names["neighbor_device"], object),
+            neighbor_port=np.array(names["neighbor_port"], object),
+        )
+
+    def _numbers(self) -> dict[str, npt.NDArray[Any]]:
+        """Every numeric column by a flat name (``state.mtu``, ``optics.bias_ma``, ...)."""
+        return {
+            "time": self.time,
+            **{f"state.{k}": v for k, v in self.state.items()},
+            **{f"optics.{k}": v for k, v in self.optics.items()},
+            "counters": self.counters,
+            "present": self.present,
+            "line": self.line,
+        }
+
+    @classmethod
+    def concat(cls, tables: Sequence[PollTable]) -> PollTable:
+        """All rows of several tables, in order."""
+        if not tables:
+            return cls.empty()
+        return PollTable(
+            device=np.concatenate([t.device for t in tables]),
+            port=np.concatenate([t.port for t in tables]),
+            time=np.concatenate([t.time for t in tables]),
+            oper_status=np.concatenate([t.oper_status for t in tables]),
+            state={k: np.concatenate([t.state[k] for t in tables]) for k in STATE_FIELDS},
+            optics={k: np.concatenate([t.optics[k] for t in tables]) for k in OPTICS_FIELDS},
+            counters=np.concatenate([t.counters for t in tables]),
+            present=np.concatenate([t.present for t in tables]),
+            line=np.concatenate([t.line for t in tables]),
+            neighbor_device=np.concatenate([t.neighbor_device for t in tables]),
+            neighbor_port=np.concatenate([t.neighbor_port for t in tables]),
+        )

@@ -1,0 +1,155 @@
+"""The path through the tree as yes/no questions, each with the measured value and threshold.
+
+Questions on one feature merge into one: a path that asks "more than 2?" and later "more
+than 5?" of the same value asks once, and "more than 2?" then "more than 5? no" reads as
+one range question. A node's path is fixed, so its wording is worked out once per node;
+only the measured values differ from port to port.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+
+from linktriage.engine.format.answers import QuestionRecord
+from linktriage.engine.model.artefact import CompiledTree, Step
+from linktriage.engine.model.features import FEATURE_KIND
+from linktriage.engine.model.questions import (
+    ANY_BELOW,
+    ANY_QUESTIONS,
+    NOT_REPORTED,
+    QUESTIONS,
+    format_threshold,
+    value_reader,
+    yes_no,
+)
+
+
+@dataclass(frozen=True, slots=True)
+class PathQuestion:
+    """A question on the path to a node, with everything that does not depend on the port."""
+
+    text: str
+    feature: str
+    column: int
+    threshold: float
+    answer: bool
+    reads: Callable[[float], str]  # a measured value as it reads beside this question
+    range: tuple[float, float] | None = None
+
+
+def rounded(value: float) -> float | None:
+    """A measured value for output: six significant digits, None when not reported."""
+    if math.isnan(value):
+        return None
+    return float(f"{value:.6g}")
+
+
+def merge(path: Sequence[Step], features: Sequence[str]) -> list[PathQuestion]:
+    """One question per feature on ``path``, in the order the features were first asked."""
+    order: list[int] = []
+    low: dict[int, float] = {}  # the value is above this
+    high: dict[int, float] = {}  # the value is at most this
+    for step in path:
+        if step.feature not in order:
+            order.append(step.feature)
+        if step.went_right:
+            low[step.feature] = max(low.get(step.feature, -math.inf), step.threshold)
+        else:
+            high[step.feature] = min(high.get(step.feature, math.inf), step.threshold)
+    out = []
+    for column in order:
+        feature = features[column]
+        kind = FEATURE_KIND[feature]
+        above, between = QUESTIONS[feature]
+        lo, hi = low.get(column), high.get(column)
+        if lo is not None and hi is not None:
+            text = between.format(lo=format_threshold(kind, lo), hi=format_threshold(kind, hi))
+            reads = value_reader(kind, lo)
+            out.append(PathQuestion(text, feature, column, lo, True, reads, (lo, hi)))
+        else:
+            t = lo if lo is not None else hi
+            assert t is not None
+            if kind == "log_ratio" and t < ANY_BELOW:
+                text, reads = ANY_QUESTIONS[feature], value_reader(kind, None)
+            else:
+                text, reads = above.format(t=format_threshold(kind, t)), value_reader(kind, t)
+            out.append(PathQuestion(text, feature, column, t, lo is not None, reads))
+    return out
+
+
+class Explainer:
+    """Turns a node and a port's feature row into the questions the tree asked."""
+
+    def __init__(self, tree: CompiledTree) -> None:
+        self.tree = tree
+        self.steps: dict[int, tuple[PathQuestion, ...]] = {
+            node: tuple(merge(path, tree.features)) for node, path in tree.paths.items()
+        }
+
+    @staticmethod
+    def said(question: PathQuestion, value: float, reported: bool = True) -> str:
+        """The answer as it reads, with the measured value: "yes: 4.1 in 100,000"."""
+        if not reported:
+            return f"{yes_no(question.answer)}: {NOT_REPORTED}"
+        return f"{yes_no(question.answer)}: {question.reads(value)}"
+
+    def _answered(self, q: PathQuestion, value: float, known: bool) -> QuestionRecord:
+        record: QuestionRecord = {
+            "question": q.text,
+            "answer": q.answer,
+            "feature": q.feature,
+            "value": rounded(value) if known else None,
+            "threshold": q.threshold,
+            "said": self.said(q, value, known),
+        }
+        if q.range is not None:
+            record["range"] = list(q.range)
+        return record
+
+    def questions(
+        self, node: int, row: Sequence[float], reported: Sequence[bool] | None = None
+    ) -> list[QuestionRecord]:
+        """The questions on the way to ``node`` for the port whose features are ``row``."""
+        return [
+            self._answered(
+                q, float(row[q.column]), True if reported is None else bool(reported[q.column])
+            )
+            for q in self.steps[node]
+        ]
+
+    def questions_many(
+        self,
+        nodes: Sequence[int],
+        rows: npt.NDArray[np.float64],
+        reported: npt.NDArray[np.bool_],
+    ) -> list[list[QuestionRecord]]:
+        """The questions of many ports (``nodes[k]``, row ``k`` of ``rows`` and
+        ``reported``), asked a node at a time: only the columns a node asks about are read,
+        and ports that answer a question with the same value share its record (records are
+        for reading)."""
+        out: list[list[QuestionRecord]] = [[] for _ in nodes]
+        groups: dict[int, list[int]] = {}
+        for k, node in enumerate(nodes):
+            groups.setdefault(node, []).append(k)
+        for node, places in groups.items():
+            at = np.asarray(places, np.intp)
+            columns = []
+            for q in self.steps[node]:
+                made: dict[tuple[float, bool], QuestionRecord] = {}
+                answers = []
+                values = rows[at, q.column].tolist()
+                known = reported[at, q.column].tolist()
+                for key in zip(values, known, strict=True):
+                    record = made.get(key)
+                    if record is None:
+                        record = made[key] = self._answered(q, *key)
+                    answers.append(record)
+                columns.append(answers)
+            for n, k in enumerate(places):
+                out[k] = [answers[n] for answers in columns]
+        return out

@@ -1,0 +1,143 @@
+"""The network linktriage watches: which ports it may ask about, and reading them now.
+
+Chat commands and jobs name ports only through a :class:`Network`; a name it does not
+list is refused before anything is polled. The demo network is one implementation.
+"""
+
+from __future__ import annotations
+
+import difflib
+from abc import ABC, abstractmethod
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.errors import AmbiguousNameError, PollError, UnknownPortError
+from linktriage.printable import printable
+
+
+@dataclass(frozen=True, slots=True)
+class Gathered:
+    """What polling several devices gave: a table per device that answered, the reason
+    for each device that did not, and ports whose answers were malformed."""
+
+    tables: dict[str, PollTable]
+    failed: dict[str, str]  # device -> why
+    problems: dict[tuple[str, str], str]  # (device, port) -> what was wrong
+
+
+@dataclass(frozen=True, slots=True)
+class PortRef:
+    """One port the network knows: where it is and what it serves."""
+
+    site: str
+    device: str
+    port: str
+    serves: str = ""
+
+
+class Network(ABC):
+    """Ports to watch and a way to poll them.
+
+    ``poll`` returns one row per requested port, read at one instant, in the snapshot
+    format's columns; it raises :class:`linktriage.errors.PollError` naming the device when
+    the device cannot be read.
+    """
+
+    @abstractmethod
+    def ports(self) -> list[PortRef]:
+        """Every port, grouped by device in a stable order."""
+
+    @abstractmethod
+    def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
+        """Read the counters of some ports (default: all) of one device now."""
+
+    def poll_many(self, wanted: dict[str, list[str] | None]) -> Gathered:
+        """Poll several devices (ports None: all of them); one that fails does not stop the
+        others. Implementations that can should read the devices at once."""
+        tables: dict[str, PollTable] = {}
+        failed: dict[str, str] = {}
+        for device, ports in wanted.items():
+            try:
+                tables[device] = self.poll(device, ports)
+            except PollError as exc:
+                failed[device] = exc.reason
+        return Gathered(tables, failed, {})
+
+    def history(self, wanted: dict[str, list[str]], since: float) -> Gathered:
+        """Polls since ``since`` from devices whose source keeps history (a time-series
+        database); devices without one are absent from the answer. By default: none."""
+        return Gathered({}, {}, {})
+
+    def unlisted(self) -> dict[str, str]:
+        """Devices whose ports could not be listed (so none of them is among ``ports``), and
+        why: a list of ports must never pass over them in silence. By default: none."""
+        return {}
+
+    def close(self) -> None:  # noqa: B027 (optional: most networks hold nothing)
+        """Release what reading the network holds (connections, the poll loop)."""
+
+    def site_of(self, device: str) -> str | None:
+        """The site a device belongs to, listed or not."""
+        refs = self.devices().get(device)
+        return refs[0].site if refs else None
+
+    def sites(self) -> list[str]:
+        return sorted({p.site for p in self.ports()})
+
+    def devices(self) -> dict[str, list[PortRef]]:
+        out: dict[str, list[PortRef]] = {}
+        for ref in self.ports():
+            out.setdefault(ref.device, []).append(ref)
+        return out
+
+    def device_names(self) -> list[str]:
+        """Every device's name; implementations answer without contacting any device."""
+        return list(self.devices())
+
+    def ports_of(self, device: str) -> list[PortRef]:
+        """The ports of one known device."""
+        return self.devices()[device]
+
+    def find(self, device: str, port: str) -> PortRef:
+        """The port a person named, refusing names the network does not have.
+
+        A device may be named by any unique part of its name ("idf2" for
+        "lark-east-idf2"); a part that fits several devices is ambiguous. The name is
+        settled before any device is contacted.
+        """
+        name = device_named(device, self.device_names())
+        ports = self.ports_of(name)
+        refs = {r.port.lower(): r for r in ports}
+        ref = refs.get(port.lower())
+        if ref is None:
+            known = [r.port for r in ports]
+            raise UnknownPortError(
+                f"{name} has no port named '{printable(port)}'.",
+                suggestions=difflib.get_close_matches(port, known, n=3, cutoff=0.5),
+            )
+        return ref
+
+
+def fitting(text: str, names: list[str]) -> list[str]:
+    """The names a person may mean by ``text``: the one it names in full (in any case), else
+    every name that holds it as a part."""
+    lowered = text.lower()
+    whole = [n for n in names if n.lower() == lowered]
+    return whole[:1] or [n for n in names if lowered in n.lower()]
+
+
+def device_named(text: str, names: list[str]) -> str:
+    """The device a person named: its full name in any case, or any part of it that fits
+    one device only; refuses a part that fits several, or none."""
+    partial = fitting(text, names)
+    if len(partial) == 1:
+        return partial[0]
+    if partial:
+        raise AmbiguousNameError(
+            f"'{printable(text)}' fits {len(partial)} devices.", candidates=sorted(partial)
+        )
+    raise UnknownPortError(
+        f"No device named '{printable(text)}'.",
+        suggestions=difflib.get_close_matches(text, names, n=3, cutoff=0.5),
+    )

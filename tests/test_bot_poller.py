@@ -1,0 +1,117 @@
+"""Polls for a question: stored history where recent, fresh polls where not, a wait where
+the window is too short; and the poll job's round. On the demo network, a real store and
+simulated time."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from linktriage.bot import poller
+from linktriage.bot.triage import Triage
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.network.demo import DemoClock
+from linktriage.render.replies import (
+    DiagnosisReply,
+)
+
+
+def test_a_port_with_no_history_gets_two_polls_a_quick_window_apart(triage: Triage) -> None:
+    waited: list[float] = []
+    sleep = triage.sleep
+    triage.poller.sleep = lambda s: (waited.append(s), sleep(s))[1]  # type: ignore[func-returns-value]
+    reply = triage.handle("lark-east-idf2 port14", user="U1", channel="C1")
+    assert isinstance(reply, DiagnosisReply)
+    assert reply.record["verdict"] == "cable_fault"
+    assert waited == [30.0]
+    assert reply.record["window_s"] == 30.0
+    assert len(triage.store.polls_since(0.0, devices=["lark-east-idf2"], port="port14")) == 2
+    stored = triage.store.diagnosis(reply.diagnosis_id)
+    assert stored is not None and stored.verdict == "cable_fault"
+    assert stored.features["ber_over_objective"] is not None
+
+
+def test_recent_history_needs_one_fresh_poll_and_no_wait(triage: Triage, clock: DemoClock) -> None:
+    triage.poller.poll_round()
+    clock.sleep(300.0)
+    triage.poller.sleep = lambda s: pytest.fail("should not wait")
+    reply = triage.handle("lark-core1 up3")
+    assert isinstance(reply, DiagnosisReply)
+    assert reply.record["verdict"] == "unidirectional"
+    assert reply.record["window_s"] == 300.0
+
+
+def test_a_stored_poll_seconds_old_is_not_a_window(triage: Triage, clock: DemoClock) -> None:
+    # Issue 8.6: right after start the poll job has stored one round 2 s ago; answering on a
+    # 2 s window would call a busy port "insufficient traffic". Wait out the quick window.
+    waited: list[float] = []
+    sleep = triage.sleep
+    triage.poller.sleep = lambda s: (waited.append(s), sleep(s))[1]  # type: ignore[func-returns-value]
+    triage.poller.poll_round()
+    clock.sleep(2.0)
+    reply = triage.handle("lark-east-idf2 port14")
+    assert isinstance(reply, DiagnosisReply)
+    assert waited == [28.0]
+    assert reply.record["window_s"] == 30.0
+    assert reply.record["verdict"] == "cable_fault"
+
+
+def test_a_poll_round_keeps_every_port(triage: Triage) -> None:
+    result = triage.poller.poll_round()
+    assert result.failed == {}
+    assert result.stored == len(triage.network.ports())
+
+
+def test_history_read_back_from_the_store_diagnoses_like_the_polls_themselves(
+    triage: Triage, clock: DemoClock, model: Model
+) -> None:
+    from linktriage.engine.diagnosis.pipeline import diagnose
+    from linktriage.engine.simulate import DEFAULT_START
+    from linktriage.network.demo import demo_polls
+
+    clock.now = DEFAULT_START - 300.0
+    triage.poller.poll_round()
+    clock.now = DEFAULT_START
+    direct = diagnose(demo_polls(), model)
+    for spec in ("lark-east-idf2 port7", "lark-annex-sw1 port3", "lark-core1 up5"):
+        reply = triage.handle(spec)
+        assert isinstance(reply, DiagnosisReply)
+        device, port = spec.split()
+        row = direct.index_of(device, port)
+        assert row is not None
+        assert reply.record == direct.record(row)
+
+
+def test_the_poll_job_forgets_polls_older_than_the_settings_keep(
+    triage: Triage, clock: DemoClock
+) -> None:
+    kept_h = triage.settings.store.keep_polls_h
+    first = triage.poller.poll_round()
+    assert first.forgotten == 0
+    clock.sleep(kept_h * 3600.0 / 2)
+    triage.poller.poll_round()
+    clock.sleep(kept_h * 3600.0 / 2 + 60.0)
+    last = triage.poller.poll_round()
+    assert last.forgotten == first.stored  # the first round's polls, no more
+    history = triage.store.poll_history()
+    assert history.ports == 2 * first.stored
+    assert history.oldest is not None and history.oldest >= clock() - kept_h * 3600.0
+
+
+def test_stored_polls_read_by_device_or_by_window_are_the_same(
+    triage: Triage, clock: DemoClock, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    for _ in range(3):
+        triage.poller.poll_round()
+        clock.sleep(300.0)
+    devices = triage.network.device_names()[:3]
+    since = clock() - 900.0
+    by_index = triage.poller._stored(devices, since)
+    monkeypatch.setattr(poller, "FEW_DEVICES", 0)  # as for a network of many devices
+    by_window = triage.poller._stored(devices, since)
+    assert sorted(by_index) == sorted(by_window) == sorted(devices)
+    for device in devices:
+        a, b = by_index[device], by_window[device]
+        assert len(a) == 3 * len(triage.network.ports_of(device))
+        order_a, order_b = np.lexsort((a.time, a.port)), np.lexsort((b.time, b.port))
+        np.testing.assert_array_equal(a.counters[order_a], b.counters[order_b])

@@ -1,0 +1,182 @@
+"""Reading and writing the snapshot format: every bad line reported, nothing else lost."""
+
+from __future__ import annotations
+
+import io
+from pathlib import Path
+
+import numpy as np
+import pytest
+from pydantic import ValidationError
+
+from linktriage.engine.format.counters import COLUMN_INDEX
+from linktriage.engine.format.snapshot import (
+    Snapshot,
+    iter_snapshots,
+    polls_of,
+    read_snapshot_file,
+    read_snapshots,
+    write_snapshots,
+)
+from linktriage.errors import SnapshotFileError
+
+from helpers import line, polls
+
+
+def test_the_format_example_reads_as_two_polls_of_one_port(snapshots: Path) -> None:
+    result = read_snapshot_file(snapshots / "format-example.jsonl")
+    assert result.problems == []
+    table = result.polls
+    assert len(table) == 2
+    assert set(table.device) == {"lib-east-idf2"}
+    assert table.time[1] - table.time[0] == 300.0
+    assert int(table.counters[1, COLUMN_INDEX["dot3StatsFCSErrors"]]) == 4779
+
+
+def test_bad_lines_are_reported_with_their_numbers_and_good_lines_kept(snapshots: Path) -> None:
+    result = read_snapshot_file(snapshots / "bad-lines.jsonl")
+    assert [p.line for p in result.problems] == [2, 3, 5, 6, 7, 8, 10, 11]
+    messages = {p.line: p.message for p in result.problems}
+    assert "timezone" in messages[2]  # RFC 3339 times carry Z or an offset
+    assert "Invalid JSON" in messages[3]
+    assert messages[5].startswith("counters.ifHCInOctets")
+    assert messages[8] == "counters.ifInErrors: a Counter32 cannot exceed 4294967295 (RFC 2578)"
+    assert messages[11] == "counters: Field required"
+    assert len(result.polls) == 3  # lines 1, 9 and 12; line 4 is blank
+
+
+def test_a_time_with_an_offset_is_the_same_instant_in_utc() -> None:
+    table = polls(line("2026-03-02T09:00:00+01:00"), line("2026-03-02T08:05:00Z"))
+    assert table.time[1] - table.time[0] == 300.0
+
+
+def test_a_counter_the_device_does_not_report_is_missing_not_zero() -> None:
+    table = polls(line(counters={"ifHCInOctets": 5}))
+    assert table.present[0, COLUMN_INDEX["ifHCInOctets"]]
+    assert not table.present[0, COLUMN_INDEX["dot3StatsFCSErrors"]]
+
+
+def test_unknown_fields_and_counter_names_are_ignored() -> None:
+    table = polls(line(counters={"ifHCInOctets": 5, "vendorMagic": 7}, colour="teal"))
+    assert table.present[0].sum() == 1
+
+
+def test_counter64_values_keep_every_bit() -> None:
+    top = 2**64 - 1  # RFC 2578 section 7.1.10: the largest Counter64
+    table = polls(line(counters={"ifHCInOctets": top}))
+    assert int(table.counters[0, COLUMN_INDEX["ifHCInOctets"]]) == top
+
+
+def test_a_counter_above_the_counter64_range_is_refused() -> None:
+    result = read_snapshots([line(counters={"ifHCInOctets": 2**64})])
+    assert len(result.polls) == 0
+    assert result.problems[0].line == 1
+
+
+def test_invalid_utf8_is_reported_not_raised() -> None:
+    good = line().encode()
+    result = read_snapshots([good, b'{"device": "\xff\xfe"}', good])
+    assert [p.line for p in result.problems] == [2]
+    assert len(result.polls) == 2
+
+
+def test_writing_then_reading_gives_back_the_same_table() -> None:
+    original = polls(
+        line(counters={"ifHCInOctets": 10, "ifInErrors": 1}, speed_bps=10**9, duplex="half"),
+        line(
+            "2026-03-02T08:05:00Z",
+            counters={"ifHCInOctets": 99, "ifInErrors": 2},
+            media="fiber",
+            poe=False,
+            optics={"rx_power_dbm": -7.5, "rx_power_low_alarm_dbm": -14.4},
+            discontinuity_time="2026-02-01T00:00:00Z",
+        ),
+    )
+    text = io.StringIO()
+    assert write_snapshots(iter_snapshots(original), text) == 2
+    again = read_snapshots(text.getvalue().splitlines()).polls
+    np.testing.assert_array_equal(again.counters, original.counters)
+    np.testing.assert_array_equal(again.present, original.present)
+    np.testing.assert_array_equal(again.time, original.time)
+    for key in original.state:
+        np.testing.assert_array_equal(again.state[key], original.state[key])
+    for key in original.optics:
+        np.testing.assert_array_equal(again.optics[key], original.optics[key])
+
+
+def test_a_missing_file_is_a_clear_error(tmp_path: Path) -> None:
+    with pytest.raises(SnapshotFileError, match="Cannot read snapshot file"):
+        read_snapshot_file(tmp_path / "nope.jsonl")
+
+
+@pytest.mark.parametrize(
+    "name",
+    ["bad-lines.jsonl", "counter32-device.jsonl", "format-example.jsonl", "demo-network.jsonl"],
+)
+def test_the_fast_reader_reads_exactly_what_the_model_accepts(snapshots: Path, name: str) -> None:
+    # The C decoder is a fast path only: the pydantic model decides what a line says.
+    lines = (snapshots / name).read_bytes().splitlines()
+    fast = read_snapshots(lines)
+    valid = []
+    for raw in lines:
+        try:
+            valid.append(Snapshot.model_validate_json(raw))
+        except ValidationError:
+            continue
+    reference = polls_of(valid)
+    np.testing.assert_array_equal(fast.polls.counters, reference.polls.counters)
+    np.testing.assert_array_equal(fast.polls.present, reference.polls.present)
+    np.testing.assert_array_equal(fast.polls.time, reference.polls.time)
+    for key in fast.polls.state:
+        np.testing.assert_array_equal(fast.polls.state[key], reference.polls.state[key])
+    for key in fast.polls.optics:
+        np.testing.assert_array_equal(fast.polls.optics[key], reference.polls.optics[key])
+
+
+def test_numbers_written_as_strings_still_read_through_the_model() -> None:
+    # RFC 7951 writes 64-bit integers as JSON strings; the model accepts them, and a line
+    # the fast decoder refuses is read by the model.
+    text = line(counters={"ifHCInOctets": 5}).replace("5}", '"5"}')
+    result = read_snapshots([text])
+    assert result.problems == [] and len(result.polls) == 1
+
+
+def test_a_byte_order_mark_at_the_start_of_a_file_is_not_part_of_the_first_line() -> None:
+    first = line(counters={"ifHCInOctets": 5})
+    result = read_snapshots([b"\xef\xbb\xbf" + first.encode(), line(counters={"ifHCInOctets": 9})])
+    assert result.problems == [] and len(result.polls) == 2
+    assert read_snapshots(["\ufeff" + first]).problems == []
+
+
+def test_line_numbers_hold_across_blocks_read_whole_and_line_by_line() -> None:
+    # Blocks that decode whole and blocks with a bad or blank line (read line by line)
+    # give the same numbering: a problem names its own line, each row keeps its line.
+    lines = [line(port=f"port{n}", counters={"ifHCInOctets": n}) for n in range(1, 9001)]
+    lines[9] = ""  # blank: skipped without a word
+    lines[4099] = '{"device": "lark-test-sw1"}'  # line 4100, in the second block
+    result = read_snapshots([text.encode() for text in lines])
+    assert [p.line for p in result.problems] == [4100]
+    assert len(result.polls) == 9000 - 2
+    octets = result.polls.counters[:, COLUMN_INDEX["ifHCInOctets"]]
+    assert (octets == result.polls.line).all()  # each row is the line it came from
+
+
+def test_a_neighbor_from_lldp_is_read_with_its_line_and_written_back() -> None:
+    # SNAPSHOT-FORMAT 1.1: an optional `neighbor` object, the far end as LLDP reports it
+    # (IEEE 802.1AB lldpRemSysName and lldpRemPortId).
+    far = {"device": "lark-core1", "port": "up3"}
+    table = polls(line(neighbor=far), line("2026-03-02T08:05:00Z", port="port2"))
+    assert table.neighbor_device.tolist() == ["lark-core1", None]
+    assert table.neighbor_port.tolist() == ["up3", None]
+    text = io.StringIO()
+    write_snapshots(iter_snapshots(table), text)
+    first, second = text.getvalue().splitlines()
+    assert '"neighbor":{"device":"lark-core1","port":"up3"}' in first
+    assert "neighbor" not in second  # a version 1 line stays one
+
+
+def test_a_neighbor_without_a_name_is_reported_and_its_line_skipped() -> None:
+    result = read_snapshots([line(neighbor={"device": "", "port": "up3"}), line(port="port2")])
+    assert [p.line for p in result.problems] == [1]
+    assert "neighbor.device" in result.problems[0].message
+    assert result.polls.port.tolist() == ["port2"]
