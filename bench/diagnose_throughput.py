@@ -34,7 +34,7 @@ import numpy as np
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.snapshot import iter_snapshots, read_snapshot_file, write_snapshots
-from linktriage.engine.simulate import simulate_prior
+from linktriage.engine.prior import simulate_prior
 from linktriage.render.jsonl import write_lines
 
 TARGET = 1.5

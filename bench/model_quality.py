@@ -37,8 +37,7 @@ from sklearn.tree import DecisionTreeClassifier
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.scoring import Score, score_labelled, score_simulated
 from linktriage.engine.model.train import TrainingConfig, class_weights, prior_rows
-from linktriage.engine.simulate import SHIFTED, TRAINING
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.simulate.ports import SHIFTED, TRAINING
 
 HELD_OUT_SEED = 424242
 GENERATOR_SEED = 7
@@ -60,8 +59,8 @@ def generator_score(model: Model, ports: int) -> Score:
 
 
 def false_alarm(y: np.ndarray, predicted: np.ndarray) -> float:
-    healthy = y == Verdict.HEALTHY.value
-    return float(np.mean(predicted[healthy] != Verdict.HEALTHY.value))
+    healthy = y == "healthy"
+    return float(np.mean(predicted[healthy] != "healthy"))
 
 
 def tree_against_bigger_models(model: Model, ports: int) -> tuple[list[tuple], float]:

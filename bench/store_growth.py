@@ -34,7 +34,7 @@ from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.snapshot import iter_snapshots
-from linktriage.engine.verdicts import FAULTS, Verdict
+from linktriage.engine.verdicts import FAULTS
 from linktriage.network.demo import DemoClock
 from linktriage.settings import Settings
 from linktriage.store import Store
@@ -47,7 +47,7 @@ TARGET_BYTES_PER_POLL = 200
 TARGET_WEEK_BYTES = 2e9
 TARGET_DIGEST_S = 10.0
 #: A site on a normal day: most ports healthy, a few per hundred in trouble.
-SITE_MIX = {Verdict.HEALTHY: 0.97, **{fault: 0.03 / len(FAULTS) for fault in FAULTS}}
+SITE_MIX = {"healthy": 0.97, **{fault: 0.03 / len(FAULTS) for fault in FAULTS}}
 
 
 def fleet(ports: int, clock: DemoClock) -> FleetNetwork:

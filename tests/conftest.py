@@ -14,7 +14,7 @@ from linktriage.engine.diagnosis.batch import DiagnosisBatch
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.model.artefact import TreeArtefact
-from linktriage.engine.simulate import DEFAULT_START
+from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.network.demo import DemoClock, DemoNetwork, demo_polls
 from linktriage.settings import Settings
 from linktriage.store import Store

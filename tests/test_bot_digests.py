@@ -26,7 +26,7 @@ def test_suspects_are_ranked_worst_first(triage: Triage) -> None:
     assert "healthy" not in verdicts and "link_down" not in verdicts
     assert [i.rank for i in reply.items] == list(range(1, len(reply.items) + 1))
     assert reply.ports_judged + sum(reply.not_judged.values()) == len(triage.network.ports())
-    assert reply.not_judged["link_down"] == 1 and reply.failed == {}
+    assert reply.not_judged["down"] == 1 and reply.failed == {}
 
 
 def test_suspects_of_one_site(triage: Triage) -> None:

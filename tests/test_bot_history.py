@@ -11,16 +11,16 @@ from linktriage.bot.history import MIN_WINDOW_S, verdict_runs, window_bounds
 from linktriage.bot.jobs import Jobs
 from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.answers import Verdict
 from linktriage.engine.format.poll_table import PollTable
-from linktriage.engine.simulate import DEFAULT_START
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.errors import NoHistoryError, PollError, UnknownPortError
 from linktriage.network.demo import PLANTED, DemoClock, DemoNetwork
 from linktriage.network.watched import Gathered
 from linktriage.render.replies import HistoryPoint
 
 FIVE_MIN = 300.0
-(CABLE,) = [p for p in PLANTED if p.planted is Verdict.CABLE_FAULT]
+(CABLE,) = [p for p in PLANTED if p.planted == "cable_fault"]
 
 
 def poll_job_runs(triage: Triage, clock: DemoClock, rounds: int) -> None:

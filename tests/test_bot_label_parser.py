@@ -5,27 +5,27 @@ from __future__ import annotations
 import pytest
 
 from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.format.answers import Verdict
 
 
 @pytest.mark.parametrize(
     ("text", "verdict", "note"),
     [
-        ("cable_fault, crushed patch cord behind the desk", Verdict.CABLE_FAULT,
+        ("cable_fault, crushed patch cord behind the desk", "cable_fault",
          "crushed patch cord behind the desk"),
-        ("crushed patch cord behind the desk", Verdict.CABLE_FAULT,
+        ("crushed patch cord behind the desk", "cable_fault",
          "crushed patch cord behind the desk"),
-        ("dirty connector on the SFP, cleaned it", Verdict.OPTIC_DEGRADED,
+        ("dirty connector on the SFP, cleaned it", "optic_degraded",
          "dirty connector on the SFP, cleaned it"),
-        ("Optic degraded - replaced the module", Verdict.OPTIC_DEGRADED, "replaced the module"),
-        ("printer was forced to 100/full, duplex", Verdict.DUPLEX_MISMATCH,
+        ("Optic degraded - replaced the module", "optic_degraded", "replaced the module"),
+        ("printer was forced to 100/full, duplex", "duplex_mismatch",
          "printer was forced to 100/full, duplex"),
-        ("NAS had jumbo frames, MTU 9000", Verdict.MTU_MISMATCH, "NAS had jumbo frames, MTU 9000"),
-        ("tx and rx swapped fibers at the patch panel, one-way", Verdict.UNIDIRECTIONAL,
+        ("NAS had jumbo frames, MTU 9000", "mtu_mismatch", "NAS had jumbo frames, MTU 9000"),
+        ("tx and rx swapped fibers at the patch panel, one-way", "unidirectional",
          "tx and rx swapped fibers at the patch panel, one-way"),
-        ("nightly backup job saturating the uplink", Verdict.CONGESTION,
+        ("nightly backup job saturating the uplink", "congestion",
          "nightly backup job saturating the uplink"),
-        ("false alarm, nothing wrong at the desk", Verdict.HEALTHY,
+        ("false alarm, nothing wrong at the desk", "healthy",
          "false alarm, nothing wrong at the desk"),
     ],
 )  # fmt: skip
@@ -45,19 +45,19 @@ def test_talk_is_not_a_label(text: str) -> None:
 
 
 def test_two_readings_as_strong_as_each_other_ask_which() -> None:
-    assert parse_label("cable or optic?") == Unclear([Verdict.CABLE_FAULT, Verdict.OPTIC_DEGRADED])
+    assert parse_label("cable or optic?") == Unclear(["cable_fault", "optic_degraded"])
     assert parse_label("cable_fault or maybe optic_degraded") == Unclear(
-        [Verdict.CABLE_FAULT, Verdict.OPTIC_DEGRADED]
+        ["cable_fault", "optic_degraded"]
     )
 
 
 def test_a_digest_reply_names_its_link_by_number_or_name() -> None:
     assert parse_label("3: duplex forced on the printer") == LabelIntent(
-        Verdict.DUPLEX_MISMATCH, "duplex forced on the printer", item=3
+        "duplex_mismatch", "duplex forced on the printer", item=3
     )
     names = [("lark-east-idf2", "port14"), ("lark-core1", "up3")]
     assert parse_label("lark-core1 up3 swapped fibres one-way", names=names) == LabelIntent(
-        Verdict.UNIDIRECTIONAL, "swapped fibres one-way", device="lark-core1", port="up3"
+        "unidirectional", "swapped fibres one-way", device="lark-core1", port="up3"
     )
 
 
@@ -68,11 +68,11 @@ def test_mentions_are_not_read_as_words() -> None:
 @pytest.mark.parametrize(
     ("text", "negated"),
     [
-        ("not a cable fault, the far-end NIC was bad", [Verdict.CABLE_FAULT]),
-        ("wasn't duplex", [Verdict.DUPLEX_MISMATCH]),
-        ("cable fault? no.", [Verdict.CABLE_FAULT]),
-        ("no congestion here", [Verdict.CONGESTION]),
-        ("not congestion, the backup job is fine", [Verdict.CONGESTION]),
+        ("not a cable fault, the far-end NIC was bad", ["cable_fault"]),
+        ("wasn't duplex", ["duplex_mismatch"]),
+        ("cable fault? no.", ["cable_fault"]),
+        ("no congestion here", ["congestion"]),
+        ("not congestion, the backup job is fine", ["congestion"]),
     ],
 )
 def test_a_reply_that_negates_a_verdict_is_asked_back_never_stored_as_it(
@@ -87,11 +87,11 @@ def test_a_reply_that_negates_a_verdict_is_asked_back_never_stored_as_it(
 def test_a_reply_that_negates_one_verdict_and_names_another_is_the_other() -> None:
     # "backup job" alone would read as congestion; negated here, the reply says healthy.
     assert parse_label("not congestion, the backup job is fine, false alarm") == LabelIntent(
-        Verdict.HEALTHY, "not congestion, the backup job is fine, false alarm"
+        "healthy", "not congestion, the backup job is fine, false alarm"
     )
     assert parse_label("not duplex: a crushed patch cord") == LabelIntent(
-        Verdict.CABLE_FAULT, "not duplex: a crushed patch cord"
+        "cable_fault", "not duplex: a crushed patch cord"
     )
     assert parse_label("it wasn't the cable_fault, optic_degraded") == LabelIntent(
-        Verdict.OPTIC_DEGRADED, "it wasn't the cable_fault"
+        "optic_degraded", "it wasn't the cable_fault"
     )

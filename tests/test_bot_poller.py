@@ -66,7 +66,7 @@ def test_history_read_back_from_the_store_diagnoses_like_the_polls_themselves(
     triage: Triage, clock: DemoClock, model: Model
 ) -> None:
     from linktriage.engine.diagnosis.pipeline import diagnose
-    from linktriage.engine.simulate import DEFAULT_START
+    from linktriage.engine.simulate.ports import DEFAULT_START
     from linktriage.network.demo import demo_polls
 
     clock.now = DEFAULT_START - 300.0

@@ -16,7 +16,7 @@ from click.testing import CliRunner
 
 from linktriage.bot.triage import Triage
 from linktriage.cli import READ_NONE, READ_SOME, main
-from linktriage.engine.simulate import DEFAULT_START
+from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.store import Store
 

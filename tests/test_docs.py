@@ -9,7 +9,7 @@ import pytest
 from click.testing import CliRunner
 
 from linktriage.cli import main
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.verdicts import VERDICTS
 
 ROOT = Path(__file__).resolve().parent.parent
 README = (ROOT / "README.md").read_text(encoding="utf-8")
@@ -35,8 +35,8 @@ def test_every_command_and_its_options_are_in_the_readme(command: str) -> None:
 
 
 def test_every_verdict_is_in_the_readme() -> None:
-    for verdict in Verdict:
-        assert f"`{verdict.value}`" in README
+    for verdict in VERDICTS:
+        assert f"`{verdict}`" in README
 
 
 def test_the_readme_ask_example_is_what_ask_prints() -> None:

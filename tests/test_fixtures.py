@@ -9,8 +9,9 @@ import pytest
 
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
+from linktriage.engine.format.answers import Verdict
 from linktriage.engine.format.snapshot import read_snapshot_file
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.verdicts import VERDICTS
 
 FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
 sys.path.insert(0, str(FIXTURES))
@@ -24,9 +25,9 @@ def test_the_recorded_files_match_what_the_demo_network_produces() -> None:
         )
 
 
-@pytest.mark.parametrize("verdict", list(Verdict))
+@pytest.mark.parametrize("verdict", VERDICTS)
 def test_each_verdict_file_is_diagnosed_as_its_verdict(verdict: Verdict, model: Model) -> None:
-    result = read_snapshot_file(FIXTURES / "snapshots" / "verdicts" / f"{verdict.value}.jsonl")
+    result = read_snapshot_file(FIXTURES / "snapshots" / "verdicts" / f"{verdict}.jsonl")
     assert result.problems == []
     batch = diagnose(result.polls, model)
     assert batch.verdict == [verdict]

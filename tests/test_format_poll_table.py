@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from linktriage.engine.format.poll_table import PollTable
-from linktriage.engine.simulate import simulate_prior
+from linktriage.engine.prior import simulate_prior
 
 
 def assert_same(a: PollTable, b: PollTable) -> None:

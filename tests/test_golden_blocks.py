@@ -33,9 +33,9 @@ from slack_sdk.models.blocks import Block
 from linktriage.engine.diagnosis.batch import headline
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
-from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.format.answers import DiagnosisRecord, Verdict
 from linktriage.engine.format.snapshot import read_snapshot_file
-from linktriage.engine.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY, Verdict
+from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, GUARD_VERDICTS, SEVERITY, VERDICTS
 from linktriage.render.blocks import message_for, thread_for
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
@@ -56,24 +56,24 @@ DAY = 86_400.0
 SITE = "central"
 SERVES = "desk outlet, east wing"
 ASKED_BY = "U0ENGINEER"
-DIAGNOSIS_IDS = {verdict: 101 + n for n, verdict in enumerate(Verdict)}
+DIAGNOSIS_IDS = {verdict: 101 + n for n, verdict in enumerate(VERDICTS)}
 
 # The digest lists every fault answer, worst first; two are new since the day before's
 # digest, two links have cleared, one device was not read and seven ports not judged.
-NEW_SINCE_LAST = {Verdict.CABLE_FAULT, Verdict.CONGESTION}
+NEW_SINCE_LAST = {"cable_fault", "congestion"}
 CLEARED = ["lark-east-idf1 port7", "lark-west-idf1 port3"]
 NOT_READ = {"lark-annex-sw2": "no answer within 2 s"}
-NOT_JUDGED = {
-    Verdict.INSUFFICIENT_TRAFFIC.value: 4,
-    Verdict.LINK_DOWN.value: 2,
-    Verdict.NO_DATA.value: 1,
+NOT_JUDGED = {  # as each guard verdict says why a port is not judged
+    "too quiet to judge": 4,
+    "down": 2,
+    "without two usable polls": 1,
 }
 PORTS_JUDGED = 91
 
 #: The card of a model trained at a fixed moment; nothing in it depends on the machine.
 TRAINED_AT = AT - 7 * DAY
 
-CASES = [f"diagnosis-{v.value}.json" for v in Verdict] + ["digest.json", "model-card.json"]
+CASES = [f"diagnosis-{v}.json" for v in VERDICTS] + ["digest.json", "model-card.json"]
 
 
 @pytest.fixture
@@ -137,7 +137,7 @@ def matches_golden(name: str, message: dict[str, Any], *thread: dict[str, Any]) 
         )
 
 
-@pytest.mark.parametrize("verdict", list(Verdict), ids=str)
+@pytest.mark.parametrize("verdict", VERDICTS, ids=str)
 def test_each_verdicts_answer_draws_as_its_golden_file(
     verdict: Verdict, answers: dict[Verdict, DiagnosisRecord]
 ) -> None:
@@ -148,12 +148,14 @@ def test_each_verdicts_answer_draws_as_its_golden_file(
     reply = DiagnosisReply(
         answers[verdict], DIAGNOSIS_IDS[verdict], SITE, SERVES, asked_by=ASKED_BY, at=AT
     )
-    matches_golden(f"diagnosis-{verdict.value}.json", message_for(reply), *thread_for(reply))
+    matches_golden(f"diagnosis-{verdict}.json", message_for(reply), *thread_for(reply))
 
 
 def test_the_digest_draws_as_its_golden_file(answers: dict[Verdict, DiagnosisRecord]) -> None:
-    assert set(NOT_JUDGED) == {v.value for v in GUARD_VERDICTS}, "one count per guard verdict"
-    worst_first = sorted(FAULTS, key=lambda v: (-SEVERITY[v], list(Verdict).index(v)))
+    assert set(NOT_JUDGED) == {GUARD_KINDS[v].not_judged for v in GUARD_VERDICTS}, (
+        "one count per guard"
+    )
+    worst_first = sorted(FAULTS, key=lambda v: (-SEVERITY[v], VERDICTS.index(v)))
     items = [
         SuspectItem(
             rank,

@@ -77,5 +77,6 @@ def test_an_import_cycle_within_one_layer_breaks_the_build(copy_of_the_house: Pa
     done = lint(copy_of_the_house)
     assert done.returncode != 0
     assert "at any depth BROKEN" in done.stdout  # the cycle contract, and only it
-    assert "10 kept, 1 broken" in done.stdout
+    contracts = CONFIG.read_text().count("[[tool.importlinter.contracts]]")
+    assert f"{contracts - 1} kept, 1 broken" in done.stdout
     assert ".optics -> .counters" in done.stdout

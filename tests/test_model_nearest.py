@@ -19,14 +19,14 @@ from linktriage.engine.model.artefact import CompiledTree, TreeArrays
 from linktriage.engine.model.features import FEATURE_BY_NAME, FEATURE_NAMES
 from linktriage.engine.model.nearest import Counterfactuals
 from linktriage.engine.model.train import class_weights, prior_rows
-from linktriage.engine.simulate import simulate_prior
-from linktriage.engine.verdicts import GUIDES, Verdict
+from linktriage.engine.prior import simulate_prior
+from linktriage.engine.verdicts import kind_of
 
 from helpers import artefact_of
 
 EXPERT = Path(__file__).resolve().parent.parent / "fixtures" / "expert"
 
-GUARDS = {Verdict.LINK_DOWN.value, Verdict.NO_DATA.value, Verdict.INSUFFICIENT_TRAFFIC.value}
+GUARDS = {"link_down", "no_data", "insufficient_traffic"}
 UP = np.float32(np.inf)
 DOWN = np.float32(-np.inf)
 
@@ -227,7 +227,7 @@ def test_on_the_expert_set_the_nearest_other_is_another_verdict(model: Model) ->
         assert near["verdict"] not in GUARDS
         assert near["feature"] in model.tree.features
         assert near["direction"] in ("above", "below")
-        title = GUIDES[Verdict(near["verdict"])].title
+        title = kind_of(near["verdict"]).title
         assert near["said"].startswith(f"would be {title} with ")
         assert json.loads(json.dumps(near)) == near
     assert named >= 5

@@ -9,15 +9,15 @@ from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.counters import COLUMN_INDEX
 from linktriage.engine.format.poll_table import PollTable
-from linktriage.engine.simulate import DEFAULT_START
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.simulate.ports import DEFAULT_START
+from linktriage.engine.verdicts import VERDICTS
 from linktriage.errors import PollError
 from linktriage.network.demo import ORGANISATION, PLANTED, DemoNetwork, demo_polls, demo_ports
 
 
 def test_every_verdict_but_healthy_is_planted_exactly_once() -> None:
     planted = [p.planted for p in PLANTED]
-    assert sorted(planted) == sorted(set(Verdict) - {Verdict.HEALTHY})
+    assert sorted(planted) == sorted(set(VERDICTS) - {"healthy"})
 
 
 def test_every_planted_port_is_part_of_the_network() -> None:

@@ -11,7 +11,7 @@ from PIL import Image
 
 from linktriage.bot.history import verdict_runs
 from linktriage.bot.triage import Triage
-from linktriage.engine.simulate import DEFAULT_START
+from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.network.demo import DemoClock
 from linktriage.render.charts import history_png, pictures_for, tree_png
 from linktriage.render.replies import HistoryReply, TreeReply

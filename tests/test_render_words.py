@@ -10,7 +10,7 @@ from linktriage.render.words import coverage_words, what_changed
 
 def test_a_list_of_suspects_is_an_all_clear_only_when_everything_was_read_and_judged() -> None:
     assert coverage_words(0, 90, {}, {}) == "No suspects among the 90 ports judged."
-    partial = coverage_words(2, 80, {"insufficient_traffic": 7, "link_down": 1}, {})
+    partial = coverage_words(2, 80, {"too quiet to judge": 7, "down": 1}, {})
     assert partial == (
         "2 suspect links among 80 ports judged; 8 ports not judged (7 too quiet to judge, 1 down)."
     )

@@ -14,7 +14,7 @@ from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.counters import COLUMN_INDEX, QUANTITIES
 from linktriage.engine.format.poll_table import PollTable
-from linktriage.engine.simulate import simulate_prior
+from linktriage.engine.prior import simulate_prior
 
 HELD_OUT_SEED = 77_001  # not the packaged model's training seed
 

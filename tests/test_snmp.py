@@ -12,9 +12,9 @@ import pytest
 from click.testing import CliRunner
 
 from linktriage.cli import main
+from linktriage.engine.format.answers import Verdict
 from linktriage.engine.format.counters import COLUMN_INDEX
 from linktriage.engine.format.snapshot import Neighbor
-from linktriage.engine.verdicts import Verdict
 from linktriage.errors import CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector

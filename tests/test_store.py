@@ -18,7 +18,7 @@ from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.packs import FORMAT as PACK_FORMAT
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.format.snapshot import read_snapshot_file
-from linktriage.engine.simulate import DEFAULT_START
+from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.errors import StoreError
 from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.settings import Settings

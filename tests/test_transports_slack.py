@@ -21,8 +21,8 @@ from pydantic import SecretStr
 from slack_sdk.signature import SignatureVerifier
 
 from linktriage.bot.triage import Triage
-from linktriage.engine.simulate import DEFAULT_START
-from linktriage.engine.verdicts import SHORT, Caution
+from linktriage.engine.simulate.ports import DEFAULT_START
+from linktriage.engine.verdict_kit.declaration import SHORT, Caution
 from linktriage.network.demo import PLANTED, DemoClock, DemoPort
 from linktriage.render.blocks import (
     CONFIRM_ACTION,

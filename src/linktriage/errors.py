@@ -19,6 +19,7 @@ drawing to the classes).
     │       └── BadAnswerError           an answer that cannot be read
     ├── NoHistoryError           no stored polls of a port make a window over the span asked for
     ├── ModelError               a model artefact is missing, malformed or of another format
+    ├── VerdictDeclarationError  a verdict module misses a part or clashes with another
     └── StoreError               the store cannot be opened or written (which operation)
 
 A malformed *line* of a snapshot file is not an exception: it is reported as a
@@ -115,6 +116,11 @@ class DeviceRefusedError(CollectorError):
 
 class BadAnswerError(CollectorError):
     """The device answered with something that cannot be read."""
+
+
+class VerdictDeclarationError(LinktriageError):
+    """A verdict module under ``engine/verdicts/`` that misses a part or clashes with another
+    verdict: a developer's mistake, refused when the registry gathers the modules."""
 
 
 class StoreError(LinktriageError):

@@ -7,9 +7,10 @@ from collections.abc import Callable, Sequence
 
 import numpy as np
 
+from linktriage.engine.format.answers import Verdict
 from linktriage.engine.format.poll_table import PollTable
-from linktriage.engine.simulate import LiveCounters, sample_mix, sample_parameters
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.prior import sample_mix, sample_parameters
+from linktriage.engine.simulate.polled import LiveCounters
 from linktriage.network.watched import Gathered, Network, PortRef
 
 

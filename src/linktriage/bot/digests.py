@@ -14,7 +14,7 @@ from linktriage.engine.diagnosis.batch import DiagnosisBatch, headline
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.answers import DiagnosisRecord
-from linktriage.engine.verdicts import FAULTS, GUARD_VERDICTS, SEVERITY
+from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, GUARD_VERDICTS, SEVERITY
 from linktriage.errors import AmbiguousNameError, CommandError
 from linktriage.network.watched import Network, fitting
 from linktriage.render import words
@@ -76,7 +76,7 @@ class Digests:
             SuspectItem(rank, record, diagnosis_id, reason(record))
             for rank, (record, diagnosis_id) in enumerate(zip(records, ids, strict=True), start=1)
         ]
-        not_judged = Counter(batch.verdict[i].value for i in unjudged(batch))
+        not_judged = Counter(GUARD_KINDS[batch.verdict[i]].not_judged for i in unjudged(batch))
         return SuspectsReply(
             title=scope.title,
             items=items,

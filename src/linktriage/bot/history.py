@@ -77,7 +77,7 @@ def _point(batch: DiagnosisBatch, row: int, start: float, end: float) -> History
     return {
         "start": start,
         "end": end,
-        "verdict": batch.verdict[row].value,
+        "verdict": batch.verdict[row],
         "confidence": batch.confidence[row],
         "polls": batch.polls[row],
         "error_ratio": _known(value("fer", row)),

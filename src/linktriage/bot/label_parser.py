@@ -13,41 +13,13 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 
-from linktriage.engine.verdicts import TREE_VERDICTS, Verdict
+from linktriage.engine.format.answers import Verdict
+from linktriage.engine.verdicts import TREE, TREE_VERDICTS, VERDICTS
+from linktriage.engine.verdicts.healthy import HEALTHY
 
-# Phrases of the trade, each with a weight: a specific one ("sfp") outweighs a general
-# one ("connector") when a reply has both.
-PHRASES: dict[Verdict, tuple[tuple[str, int], ...]] = {
-    Verdict.UNIDIRECTIONAL: (
-        ("one-way", 3), ("one way", 3), ("unidirectional", 3), ("swapped fib", 3),
-        ("swapped strand", 3), ("broken strand", 3), ("crossed fib", 3), ("tx/rx", 2),
-        ("rx/tx", 2),
-    ),
-    Verdict.OPTIC_DEGRADED: (
-        ("optic", 3), ("sfp", 3), ("transceiver", 3), ("dirty", 2), ("light level", 3),
-        ("rx power", 3), ("dbm", 2), ("attenuat", 2), ("end face", 2), ("ferrule", 2),
-        ("fiber", 1), ("fibre", 1),
-    ),
-    Verdict.DUPLEX_MISMATCH: (("duplex", 3), ("late collision", 3)),
-    Verdict.NEGOTIATION_DEGRADED: (
-        ("autoneg", 3), ("auto-neg", 3), ("negotiat", 3), ("forced speed", 3),
-        ("hard-coded speed", 3), ("hardcoded speed", 3), ("speed", 1),
-    ),
-    Verdict.MTU_MISMATCH: (("mtu", 3), ("jumbo", 3), ("frame size", 2), ("giant", 2)),
-    Verdict.CONGESTION: (
-        ("congest", 3), ("capacity", 2), ("saturat", 2), ("oversubscri", 2),
-        ("bandwidth", 1), ("backup job", 2),
-    ),
-    Verdict.CABLE_FAULT: (
-        ("cable", 2), ("cord", 2), ("patch", 1), ("crimp", 2), ("punch", 2), ("jack", 2),
-        ("pair", 1), ("termination", 2), ("rj45", 2), ("rj-45", 2), ("keystone", 2),
-        ("crushed", 2), ("kinked", 2), ("connector", 1),
-    ),
-    Verdict.HEALTHY: (
-        ("healthy", 3), ("false alarm", 3), ("nothing wrong", 3), ("no fault", 3),
-        ("all good", 2), ("works fine", 2),
-    ),
-}  # fmt: skip
+# Phrases of the trade, each with a weight, as each verdict declares them: a specific one
+# ("sfp") outweighs a general one ("connector") when a reply has both.
+PHRASES: dict[Verdict, tuple[tuple[str, int], ...]] = {k.verdict: k.phrases for k in TREE}
 _CONFIRM = re.compile(r"\b(confirmed|confirm|correct|agreed|right call|spot on)\b|\+1")
 _NEGATION = re.compile(r"\b(not|no|wrong|isn't|wasn't|nope)\b")
 # A verdict is negated by a negation just before it ("not a cable fault", "wasn't duplex",
@@ -90,7 +62,7 @@ def _explicit(text: str) -> list[tuple[Verdict, int, int]]:
     """Verdict ids or their words ("cable fault", "cable-fault"), with where they stand."""
     found = []
     for verdict in TREE_VERDICTS:
-        words = verdict.value.replace("_", r"[ _\-]")
+        words = verdict.replace("_", r"[ _\-]")
         for match in re.finditer(rf"\b{words}\b", text, re.IGNORECASE):
             found.append((verdict, match.start(), match.end()))
     return found
@@ -145,7 +117,7 @@ def parse_label(
     if explicit:
         verdicts = {v for v, _, _ in explicit}
         if len(verdicts) > 1:
-            return Unclear(sorted(verdicts, key=list(Verdict).index))
+            return Unclear(sorted(verdicts, key=VERDICTS.index))
         verdict, start, end = min(explicit, key=lambda e: e[1])
         return LabelIntent(verdict, _note(rest[:start] + " " + rest[end:]), item, device, port)
     lowered = rest.lower()
@@ -153,15 +125,15 @@ def parse_label(
     negated |= negated_phrases
     for verdict in negated:
         scores.pop(verdict, None)
-    ranked = sorted(scores.items(), key=lambda kv: -kv[1]) + [(Verdict.HEALTHY, 0)] * 2
+    ranked = sorted(scores.items(), key=lambda kv: -kv[1]) + [(HEALTHY, 0)] * 2
     (first, best), (second, runner_up) = ranked[0], ranked[1]
     if best > 0:
         # Two readings about as strong ("cable or optic?"): ask rather than guess.
         if runner_up >= 2 and runner_up >= best - 1:
-            return Unclear(sorted([first, second], key=list(Verdict).index))
+            return Unclear(sorted([first, second], key=VERDICTS.index))
         return LabelIntent(first, _note(rest), item, device, port)
     if negated:
-        order = list(Verdict).index
+        order = VERDICTS.index
         others = [v for v in TREE_VERDICTS if v not in negated]
         return Unclear(sorted(others, key=order), sorted(negated, key=order))
     if _CONFIRM.search(lowered) and not _NEGATION.search(lowered):

@@ -10,9 +10,9 @@ from dataclasses import dataclass, field
 from typing import cast
 
 from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
-from linktriage.engine.format.answers import DiagnosisRecord
+from linktriage.engine.format.answers import DiagnosisRecord, Verdict
 from linktriage.engine.model.labels import current
-from linktriage.engine.verdicts import TREE_VERDICTS, Verdict
+from linktriage.engine.verdicts import TREE_VERDICTS, known
 from linktriage.errors import StoreError
 from linktriage.render.replies import DiagnosisReply, LabelRefused, LabelReply
 from linktriage.render.words import (
@@ -87,9 +87,9 @@ class Labelling:
         if not self.may_label(user, channel):
             return LabelRefused(LABEL_NOT_ALLOWED)
         if isinstance(intent, Unclear):
-            options = label_options([v.value for v in intent.candidates])
+            options = label_options(list(intent.candidates))
             if intent.negated:
-                said = negated_verdicts([v.value for v in intent.negated])
+                said = negated_verdicts(list(intent.negated))
                 return LabelRefused(LABEL_NOT_WHICH.format(negated=said, options=options))
             return LabelRefused(LABEL_WHICH.format(options=options))
         if digest is not None:
@@ -136,7 +136,7 @@ class Labelling:
             return LabelRefused(LABEL_GONE)
         if not self.may_label(user, channel):
             return LabelRefused(LABEL_NOT_ALLOWED)
-        chosen = None if verdict is None else Verdict(verdict)
+        chosen = None if verdict is None else known(verdict)
         return self.record(
             diagnosis, chosen, "", user=user, channel=channel, source="button", event_key=event_key
         )
@@ -155,19 +155,19 @@ class Labelling:
         """Store a label, then say so. One label per person per answer counts: a new one
         replaces theirs (the earlier stays for the audit), the same one again is not
         stored twice, and a retry of a stored event says nothing."""
-        found = verdict if verdict is not None else Verdict(diagnosis.verdict)
+        found = verdict if verdict is not None else known(diagnosis.verdict)
         if found not in TREE_VERDICTS:
-            return LabelRefused(LABEL_NOT_A_FAULT.format(verdict=found.value))
+            return LabelRefused(LABEL_NOT_A_FAULT.format(verdict=found))
         try:
             if self.store.has_event(event_key):
                 return None
             before, _ = current(self.store.labels(diagnosis.id))
             mine = next((lb for lb in before if lb.user_id == user), None)
-            if mine is not None and mine.verdict == found.value and not note:
-                return LabelRefused(LABEL_ALREADY.format(verdict=found.value))
+            if mine is not None and mine.verdict == found and not note:
+                return LabelRefused(LABEL_ALREADY.format(verdict=found))
             stored = self.store.add_label(
                 diagnosis,
-                found.value,
+                found,
                 note=note,
                 user_id=user,
                 channel=channel,
@@ -179,16 +179,16 @@ class Labelling:
             return LabelRefused(LABEL_STORE_FAILED.format(reason=exc.message))
         if not stored:
             return None
-        others = sorted({lb.verdict for lb in before if lb.user_id != user} - {found.value})
+        others = sorted({lb.verdict for lb in before if lb.user_id != user} - {found})
         return LabelReply(
             user,
             diagnosis.device,
             diagnosis.port,
-            found.value,
+            found,
             diagnosis.verdict,
             note,
             diagnosis_id=diagnosis.id,
-            replaced=mine.verdict if mine is not None and mine.verdict != found.value else None,
+            replaced=mine.verdict if mine is not None and mine.verdict != found else None,
             disputed_with=tuple(others),
         )
 

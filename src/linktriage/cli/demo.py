@@ -7,17 +7,12 @@ from pathlib import Path
 import click
 
 from linktriage.cli.options import model_option
-from linktriage.engine.verdicts import Verdict
 from linktriage.render import words
 
 #: The port whose history the demo shows: its cable fault began during the morning.
 _HISTORY_OF = ("lark-east-idf2", "port14")
-_DEMO_STORIES = {
-    Verdict.CABLE_FAULT,
-    Verdict.DUPLEX_MISMATCH,
-    Verdict.OPTIC_DEGRADED,
-    Verdict.INSUFFICIENT_TRAFFIC,
-}
+#: The planted ports the demo explains in full, by their verdicts' ids.
+_DEMO_STORIES = {"cable_fault", "duplex_mismatch", "optic_degraded", "insufficient_traffic"}
 
 
 @click.command()
@@ -29,13 +24,14 @@ def demo(model_path: Path | None) -> None:
     from linktriage.bot.digests import ranked_suspects, unjudged
     from linktriage.engine.diagnosis.loaded_model import Model
     from linktriage.engine.diagnosis.pipeline import diagnose
+    from linktriage.engine.verdicts import GUARD_KINDS
     from linktriage.network.demo import ORGANISATION, PLANTED, demo_polls
     from linktriage.render.text import explanation, table_rows
 
     loaded = Model.load(model_path)
     batch = diagnose(demo_polls(), loaded)
     suspects, quiet = ranked_suspects(batch), unjudged(batch)
-    not_judged = Counter(batch.verdict[i].value for i in quiet)
+    not_judged = Counter(GUARD_KINDS[batch.verdict[i]].not_judged for i in quiet)
     in_links = {j for i in suspects for j in (i, batch.far[i]) if j >= 0}
     healthy = len(batch) - len(in_links) - len(quiet)
     devices = len(set(batch.device))
@@ -58,7 +54,7 @@ def _demo_digest_and_label(model_path: Path | None) -> None:
     import tempfile
 
     from linktriage.assembly import opened
-    from linktriage.engine.simulate import DEFAULT_START
+    from linktriage.engine.simulate.ports import DEFAULT_START
     from linktriage.network.demo import DemoClock, DemoNetwork
     from linktriage.render.text import render
     from linktriage.settings import Settings, StoreSettings
@@ -101,7 +97,7 @@ def _demo_history(model_path: Path | None) -> None:
     import tempfile
 
     from linktriage.assembly import opened
-    from linktriage.engine.simulate import DEFAULT_START
+    from linktriage.engine.simulate.ports import DEFAULT_START
     from linktriage.network.demo import DemoClock, DemoNetwork
     from linktriage.paths import data_dir
     from linktriage.render.charts import pictures_for

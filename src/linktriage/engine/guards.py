@@ -1,13 +1,12 @@
 """Guards: the verdicts answered without the tree, when a window cannot support one.
 
-``link_down`` and ``no_data`` come from the window: there is nothing to measure.
-``insufficient_traffic`` is statistical and answers only for rates: zero errors in ``n`` frames
-bound the error ratio below about ``3/n`` with 95% confidence (the rule of three), so a clean port
-is called healthy only once its received frames bound the ratio at the PHY's resolution
-(:mod:`linktriage.engine.measure.measures`). A port with too few frames is still judged when a state
-reading (a speed below capability, half duplex, light under the thresholds, one direction silent,
-flapping) or significant errors allow a verdict (:mod:`linktriage.engine.physics`): only when
-nothing is allowed and the frames are too few is the answer ``insufficient_traffic``.
+Each verdict answered before the tree declares, in its own module
+(:mod:`linktriage.engine.verdicts`), when it applies and its precedence: ``link_down`` and
+``no_data`` come from the window, where there is nothing to measure; ``insufficient_traffic``
+is statistical and answers only for rates (the rule of three), so a port with too few frames
+is still judged when a state reading or significant errors allow a verdict
+(:mod:`linktriage.engine.physics`). Where two guards apply, the one of higher precedence
+answers.
 """
 
 from __future__ import annotations
@@ -15,16 +14,22 @@ from __future__ import annotations
 import numpy as np
 import numpy.typing as npt
 
-from linktriage.engine.measure.window import WindowStatus, WindowTable
+from linktriage.engine.measure.window import WindowTable
 from linktriage.engine.physics import Allowed
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.verdict_kit.declaration import GuardInputs
+from linktriage.engine.verdicts import GUARDS
+
+_BY_PRECEDENCE = sorted(GUARDS, key=lambda kind: kind.precedence)
 
 
 def apply_guards(windows: WindowTable, allowed: Allowed) -> npt.NDArray[np.object_]:
-    """Per port, ``link_down``, ``no_data``, ``insufficient_traffic``, or None for the tree."""
+    """Per port, the verdict a guard answers, or None for the tree."""
     verdict = np.full(len(windows), None, dtype=object)
-    nothing = ~allowed.mask.any(axis=1) & ~allowed.signs.enough_frames
-    verdict[nothing] = Verdict.INSUFFICIENT_TRAFFIC
-    verdict[windows.status == WindowStatus.NO_DATA] = Verdict.NO_DATA
-    verdict[windows.status == WindowStatus.LINK_DOWN] = Verdict.LINK_DOWN
+    inputs = GuardInputs(
+        status=windows.status,
+        enough_frames=allowed.signs.enough_frames,
+        anything_allowed=np.asarray(allowed.mask.any(axis=1), np.bool_),
+    )
+    for kind in _BY_PRECEDENCE:  # a higher precedence answers over a lower one
+        verdict[kind.guard(inputs)] = kind.verdict
     return verdict

@@ -18,9 +18,13 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from linktriage.engine.format.answers import Verdict
 from linktriage.engine.format.poll_table import PollTable
-from linktriage.engine.simulate import DEFAULT_START, G, LiveCounters, M, sample_parameters
-from linktriage.engine.verdicts import Verdict
+from linktriage.engine.prior import sample_parameters
+from linktriage.engine.simulate.polled import LiveCounters
+from linktriage.engine.simulate.ports import COPPER_1G, DEFAULT_START, FIBER_10G, M
+from linktriage.engine.verdicts import KINDS, TREE_VERDICTS
+from linktriage.engine.verdicts.healthy import HEALTHY
 from linktriage.errors import PollError
 from linktriage.network.watched import Network, PortRef
 
@@ -41,109 +45,19 @@ class DemoPort:
     since_s: float | None = None  # the fault began this long before the demo's moment
 
 
-_COPPER_1G = {"fiber": 0.0, "speed_bps": G, "max_speed_bps": G, "hc": True, "dot3": True}
-_FIBER_10G = {
-    "fiber": 1.0,
-    "speed_bps": 10 * G,
-    "max_speed_bps": 10 * G,
-    "poe": 0.0,
-    "hc": True,
-    "dot3": True,
-    "rx_alarm_dbm": -14.4,
-}
-
-PLANTED: tuple[DemoPort, ...] = (
+#: Every port planted with a verdict, as each verdict's module declares it.
+PLANTED: tuple[DemoPort, ...] = tuple(
     DemoPort(
-        "central",
-        "lark-east-idf2",
-        "port14",
-        "desk phone and PC, east wing reading room",
-        Verdict.CABLE_FAULT,
-        {
-            **_COPPER_1G,
-            "poe": 1.0,
-            "rx_util": 0.1,
-            "tx_util": 0.04,  # a desk's phone and PC: light load both ways
-            "in_discard_ratio": 0.0,
-            "rx_ber": 2e-8,
-            "link_changes": 8.0,
-            "runt_ratio": 1e-10,
-        },
-        # A cord crushed by a chair at 05:40 UTC: a history shows the clean link before.
-        since_s=2 * 3600.0 + 20 * 60.0,
-    ),
-    DemoPort(
-        "central",
-        "lark-east-idf2",
-        "port7",
-        "label printer, circulation desk",
-        Verdict.DUPLEX_MISMATCH,
-        {"speed_bps": 100 * M, "max_speed_bps": G, "rx_util": 0.08, "tx_util": 0.05},
-    ),
-    DemoPort(
-        "central",
-        "lark-east-idf1",
-        "port19",
-        "catalogue kiosk, east wing lobby",
-        Verdict.NEGOTIATION_DEGRADED,
-        {"speed_bps": 100 * M, "max_speed_bps": G, "half_duplex": 0.0, "rx_util": 0.15},
-    ),
-    DemoPort(
-        "central",
-        "lark-east-idf1",
-        "up1",
-        "uplink to lark-core1",
-        Verdict.OPTIC_DEGRADED,
-        {**_FIBER_10G, "rx_margin_db": -1.2, "rx_ber": 3e-9, "rx_util": 0.12},
-    ),
-    DemoPort(
-        "central",
-        "lark-core1",
-        "up3",
-        "downlink to lark-west-idf1",
-        Verdict.UNIDIRECTIONAL,
-        {**_FIBER_10G, "rx_margin_db": 6.0, "rx_util": 0.0, "tx_util": 0.09},
-    ),
-    DemoPort(
-        "central",
-        "lark-core1",
-        "up5",
-        "link to the annex",
-        Verdict.CONGESTION,
-        {**_FIBER_10G, "rx_margin_db": 7.5, "tx_util": 0.94, "out_discard_ratio": 4e-3},
-    ),
-    DemoPort(
-        "annex",
-        "lark-annex-sw1",
-        "port3",
-        "archive storage server",
-        Verdict.MTU_MISMATCH,
-        {**_COPPER_1G, "poe": 0.0, "mtu": 1500.0, "giant_ratio": 0.02, "rx_util": 0.2},
-    ),
-    DemoPort(
-        "central",
-        "lark-west-idf1",
-        "port22",
-        "study room wall outlet, usually empty",
-        Verdict.INSUFFICIENT_TRAFFIC,
-        {**_COPPER_1G, "rx_util": 2e-7, "tx_util": 4e-7},
-    ),
-    DemoPort(
-        "central",
-        "lark-west-idf1",
-        "port9",
-        "meeting room display",
-        Verdict.LINK_DOWN,
-        {**_COPPER_1G, "down": True},
-    ),
-    DemoPort(
-        "annex",
-        "lark-annex-sw1",
-        "port11",
-        "self-service terminal; a script clears its counters at every poll",
-        Verdict.NO_DATA,
-        {**_COPPER_1G, "cleared": True},
-    ),
+        kind.demo.site,
+        kind.demo.device,
+        kind.demo.port,
+        kind.demo.serves,
+        kind.verdict,
+        dict(kind.demo.parameters),
+        kind.demo.since_s,
+    )
+    for kind in KINDS
+    if kind.demo is not None
 )
 
 #: Ports on devices other than switches, at the far end of a demo link.
@@ -156,7 +70,7 @@ FAR_ENDS: tuple[DemoPort, ...] = (
         None,
         # The full-duplex end of port7's mismatch: it receives frames cut short by the half
         # end's collisions, as FCS errors and runts (IEEE 802.3 clause 4; common practice).
-        {**_COPPER_1G, "speed_bps": 100 * M, "max_speed_bps": 100 * M, "poe": 0.0,
+        {**COPPER_1G, "speed_bps": 100 * M, "max_speed_bps": 100 * M, "poe": 0.0,
          "rx_ber": 4e-7, "runt_ratio": 2e-4, "rx_util": 0.05, "tx_util": 0.08},
     ),
 )  # fmt: skip
@@ -202,21 +116,15 @@ def demo_ports() -> list[DemoPort]:
         for name in names:
             uplink = name.startswith("up")
             serves = "uplink to lark-core1" if uplink else "desk outlet"
-            default = DemoPort(site, device, name, serves, None, _FIBER_10G if uplink else {})
+            default = DemoPort(site, device, name, serves, None, FIBER_10G if uplink else {})
             ports.append(planted.get((device, name), default))
     for n in range(1, 7):
         name = f"up{n}"
-        default = DemoPort("central", "lark-core1", name, "fiber link", None, _FIBER_10G)
+        default = DemoPort("central", "lark-core1", name, "fiber link", None, FIBER_10G)
         ports.append(planted.get(("lark-core1", name), default))
     return ports
 
 
-# The guard verdicts are planted on healthy-looking ports; the tree's classes are sampled.
-_SAMPLED_AS = {
-    Verdict.INSUFFICIENT_TRAFFIC: Verdict.HEALTHY,
-    Verdict.LINK_DOWN: Verdict.HEALTHY,
-    Verdict.NO_DATA: Verdict.HEALTHY,
-}
 # Counters start this long before the fixed demo time, so every poll finds them running.
 _RUNNING_S = 86_400.0
 
@@ -315,10 +223,8 @@ def _live(
 
 def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame:
     """Simulation parameters of every demo port, with the planted overrides applied."""
-    labels = [
-        Verdict.HEALTHY if p.planted is None else _SAMPLED_AS.get(p.planted, p.planted)
-        for p in ports
-    ]
+    # The guard verdicts are planted on healthy-looking ports; the tree's classes are sampled.
+    labels = [p.planted if p.planted in TREE_VERDICTS else HEALTHY for p in ports]
     params = sample_parameters(labels, rng)
     params["window_s"] = 300.0
     params["stray_errors"] = 0.0
@@ -326,7 +232,7 @@ def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame
     # Office hours on gigabit desk outlets: every healthy port carries enough to be judged.
     background = [row for row, p in enumerate(ports) if p.planted is None]
     quiet_line = {"half_duplex": 0.0, "mtu": 1500.0, "rx_ber": 1e-13, "burst_errors": 0.0}
-    for key, value in {**_COPPER_1G, **quiet_line}.items():
+    for key, value in {**COPPER_1G, **quiet_line}.items():
         params.loc[background, key] = value
     params.loc[background, "rx_util"] = rng.uniform(0.02, 0.25, len(background))
     params.loc[background, "tx_util"] = rng.uniform(0.02, 0.25, len(background))

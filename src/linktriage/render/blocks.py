@@ -17,14 +17,8 @@ from typing import Any
 
 from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.engine.measure.numbers import sig
-from linktriage.engine.verdicts import (
-    GUARD_VERDICTS,
-    GUIDES,
-    SHORT,
-    TREE_VERDICTS,
-    Verdict,
-    cautions_for,
-)
+from linktriage.engine.verdict_kit.declaration import SHORT
+from linktriage.engine.verdicts import GUARD_VERDICTS, TREE_VERDICTS, cautions_for, kind_of
 from linktriage.render import words
 from linktriage.render.card import card_text
 from linktriage.render.replies import (
@@ -152,7 +146,7 @@ def _facts(reply: DiagnosisReply) -> str:
     """Confidence (for a tree verdict), where, who asked and when, on one line."""
     r = reply.record
     facts = []
-    if Verdict(r["verdict"]) not in GUARD_VERDICTS:  # a guard's answer is a fact, not a guess
+    if r["verdict"] not in GUARD_VERDICTS:  # a guard's answer is a fact, not a guess
         facts.append(words.confidence_fact(f"*{r['confidence']:.2f}*"))
     where = ", ".join(escape(part) for part in (reply.serves, reply.site) if part)
     if where:
@@ -248,7 +242,7 @@ def _both_ends(record: DiagnosisRecord) -> list[Block]:
     far, link = record.get("far_end"), record.get("link")
     if far is None or link is None:
         return []
-    title = GUIDES[Verdict(far["verdict"])].title
+    title = kind_of(far["verdict"]).title
     lines = [
         escape(words.far_end_line(far["device"], far["port"], title)),
         *(f"\u2022 {escape(e['said'])}" for e in far["evidence"]),
@@ -263,9 +257,7 @@ def _labels_line(reply: DiagnosisReply) -> str:
     """Who said what on this answer (each person's latest), and whether it teaches."""
     model = reply.record["verdict"]
     said = [
-        words.person_labelled(
-            _person(user), verdict == model, escape(GUIDES[Verdict(verdict)].title)
-        )
+        words.person_labelled(_person(user), verdict == model, escape(kind_of(verdict).title))
         for user, verdict in reply.labels
     ]
     return words.labelled(said, reply.disputed)
@@ -275,18 +267,18 @@ def _label_actions(reply: DiagnosisReply) -> Block:
     """A button to confirm the verdict, a menu to say what it really was, and one to
     diagnose the port again."""
     diagnosis = str(reply.diagnosis_id)
-    title = GUIDES[Verdict(reply.record["verdict"])].title
+    title = kind_of(reply.record["verdict"]).title
     options = [
         {
-            "text": {"type": "plain_text", "text": _clip(GUIDES[v].title, MAX_OPTION_TEXT)},
-            "value": f"{diagnosis}:{v.value}",
+            "text": {"type": "plain_text", "text": _clip(kind_of(v).title, MAX_OPTION_TEXT)},
+            "value": f"{diagnosis}:{v}",
         }
         for v in TREE_VERDICTS
     ]
     elements: list[Block] = []
     confirmed = sum(1 for _, verdict in reply.labels if verdict == reply.record["verdict"])
     confirm = words.confirm_button(title, confirmed)
-    if reply.record["verdict"] in {v.value for v in TREE_VERDICTS}:
+    if reply.record["verdict"] in TREE_VERDICTS:
         elements.append(
             {
                 "type": "button",

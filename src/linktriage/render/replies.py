@@ -142,7 +142,7 @@ class SuspectsReply:
     title: str
     items: list[SuspectItem]
     ports_judged: int  # ports with a verdict on their health: healthy or a fault
-    not_judged: dict[str, int]  # verdict id -> ports without one (too quiet, no data, down)
+    not_judged: dict[str, int]  # why, as a list says it -> ports without a verdict on health
     failed: dict[str, str]  # device -> why it could not be read
     at: float
     since: float | None = None  # the digest before this one, if any

@@ -11,7 +11,7 @@ from typing import IO
 from linktriage.engine.diagnosis.batch import DiagnosisBatch, headline
 from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.engine.measure.numbers import sig
-from linktriage.engine.verdicts import GUIDES, Verdict
+from linktriage.engine.verdicts import kind_of
 from linktriage.printable import printable
 from linktriage.render import words
 from linktriage.render.card import card_text
@@ -118,7 +118,7 @@ def _both_ends(record: DiagnosisRecord) -> list[str]:
     far, link = record.get("far_end"), record.get("link")
     if far is None or link is None:
         return []
-    title = GUIDES[Verdict(far["verdict"])].title
+    title = kind_of(far["verdict"]).title
     lines = ["", words.BOTH_ENDS]
     lines += _wrapped(
         words.far_end_line(printable(far["device"]), printable(far["port"]), title), "  ", "    "

@@ -56,12 +56,6 @@ def ber_line(ber: Mapping[str, Any]) -> str:
 
 
 # --- coverage: what a list of suspects rests on
-#: Why a port has no verdict on its health, as a list of suspects says it.
-NOT_JUDGED_WORDS = {
-    "insufficient_traffic": "too quiet to judge",
-    "no_data": "without two usable polls",
-    "link_down": "down",
-}
 
 
 def what_changed(
@@ -127,11 +121,10 @@ def coverage_words(
 
 
 def ports_not_judged(not_judged: Mapping[str, int]) -> str:
-    """ "3 ports not judged (1 down, 1 too quiet to judge, ...)", from counts by verdict."""
+    """ "3 ports not judged (1 down, 1 too quiet to judge, ...)", from counts by why (each
+    guard verdict's words for it)."""
     why = ", ".join(
-        f"{n:,} {NOT_JUDGED_WORDS.get(verdict, verdict)}"
-        for verdict, n in sorted(not_judged.items(), key=lambda kv: -kv[1])
-        if n
+        f"{n:,} {reason}" for reason, n in sorted(not_judged.items(), key=lambda kv: -kv[1]) if n
     )
     return f"{plural(sum(not_judged.values()), 'port')} not judged ({why})"
 

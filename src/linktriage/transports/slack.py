@@ -266,9 +266,7 @@ def build_app(
             raw_id, _, verdict = (
                 (action.get("selected_option") or {}).get("value", "").partition(":")
             )
-        if not raw_id.isdigit() or (
-            verdict is not None and verdict not in {v.value for v in TREE_VERDICTS}
-        ):
+        if not raw_id.isdigit() or (verdict is not None and verdict not in TREE_VERDICTS):
             log.warning("ignored a label action with value %r", action.get("value"))
             return
         key = f"action:{thread}:{user}:{action.get('action_ts')}"

@@ -6,13 +6,12 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from functools import cache
+from functools import cache, cached_property
 
 import numpy as np
 import numpy.typing as npt
 
 from linktriage.engine.diagnosis.loaded_model import Model
-from linktriage.engine.evidence import evidence_of, item
 from linktriage.engine.format.answers import (
     BitErrorRecord,
     DiagnosisRecord,
@@ -22,28 +21,26 @@ from linktriage.engine.format.answers import (
     NearestOther,
     QuestionRecord,
     RuledOutRecord,
+    Verdict,
 )
-from linktriage.engine.links import LinkView, judge_link
+from linktriage.engine.links import judge_link
 from linktriage.engine.measure.columns import Columns
-from linktriage.engine.measure.numbers import format_ratio, ratio_scale, sig
 from linktriage.engine.measure.window import WindowTable
-from linktriage.engine.model.explain import rounded
 from linktriage.engine.model.features import FEATURE_KIND, FEATURE_NAMES, FeatureRows
 from linktriage.engine.model.nearest import Nearest
 from linktriage.engine.model.questions import change_said
 from linktriage.engine.physics import Allowed
-from linktriage.engine.verdicts import GUIDES, Verdict, cautions, next_checks
+from linktriage.engine.verdict_kit.ends import LinkView
+from linktriage.engine.verdict_kit.readings import PortGroup
+from linktriage.engine.verdicts import GUARD_KINDS, TREE, kind_of
 from linktriage.gc_pause import gc_paused
-
-VERDICT_BY_ID = {v.value: v for v in Verdict}  # a dict lookup, cheaper than Verdict(value)
 
 #: Ports whose records are worded together: enough to share the work of a verdict's words,
 #: few enough to keep one chunk's records in memory.
 _CHUNK = 4096
 
-# Verdicts whose reading rests on bit errors, so the BER estimate belongs in the answer.
-# (A duplex mismatch damages frames by collision, not by bit errors on the wire.)
-_BER_VERDICTS = frozenset({Verdict.HEALTHY, Verdict.CABLE_FAULT, Verdict.OPTIC_DEGRADED})
+#: Verdicts whose reading rests on bit errors, so the BER estimate belongs in the answer.
+_BER_VERDICTS = frozenset(kind.verdict for kind in TREE if kind.bit_errors)
 
 
 @cache
@@ -51,7 +48,9 @@ def advice(
     verdict: Verdict, fiber: bool | None, poe: bool | None
 ) -> tuple[tuple[str, ...], tuple[str, ...]]:
     """Next checks and cautions for a verdict on a port of this medium and PoE state."""
-    return tuple(next_checks(verdict, fiber=fiber)), tuple(cautions(verdict, poe=poe, fiber=fiber))
+    kind = kind_of(verdict)
+    checks = tuple(c.text for c in kind.checks_for(fiber=fiber))
+    return checks, tuple(c.value for c in kind.cautions_for(poe=poe, fiber=fiber))
 
 
 @cache
@@ -163,7 +162,9 @@ class DiagnosisBatch:
             self._record(
                 i,
                 e,
-                questions[i] if i in questions else self._guard_questions(i, self.verdict[i]),
+                questions[i]
+                if i in questions
+                else [GUARD_KINDS[self.verdict[i]].question(self, i)],
                 n,
             )
             for i, e, n in zip(rows, evidence, nearest, strict=True)
@@ -192,12 +193,12 @@ class DiagnosisBatch:
             far_end: FarEndRecord = {
                 "device": self.device[j],
                 "port": self.port[j],
-                "verdict": self.verdict[j].value,
+                "verdict": self.verdict[j],
                 "evidence": said[j],
             }
             link: LinkRecord = {
-                "verdict": view.verdict.value,
-                "title": GUIDES[view.verdict].title,
+                "verdict": view.verdict,
+                "title": kind_of(view.verdict).title,
                 "said": list(view.said),
                 "checks": list(view.checks),
                 "agree": view.agree,
@@ -238,8 +239,8 @@ class DiagnosisBatch:
         return {
             "device": self.device[i],
             "port": self.port[i],
-            "verdict": verdict.value,
-            "title": GUIDES[verdict].title,
+            "verdict": verdict,
+            "title": kind_of(verdict).title,
             "confidence": self.confidence[i],
             "questions": questions,
             "evidence": evidence,
@@ -259,21 +260,22 @@ class DiagnosisBatch:
         return self.evidence_many([i])[0]
 
     def evidence_many(self, rows: list[int]) -> list[list[EvidenceRecord]]:
-        """The readings each verdict of ``rows`` rests on, worded a verdict at a time."""
-        found = evidence_of(self.verdict, self.column, self.phy, rows)
+        """The readings each verdict of ``rows`` rests on, worded a verdict at a time by
+        the verdict's own module."""
+        out: list[list[EvidenceRecord]] = [[] for _ in rows]
+        groups: dict[Verdict, list[int]] = {}
         for k, i in enumerate(rows):
-            verdict = self.verdict[i]
-            if verdict is Verdict.LINK_DOWN:
-                state = str(self.windows.oper_status[i])
-                said = f"the port is {state} at the latest poll"
-                found[k] = [
-                    item("oper_status", state, "state", None, "RFC 2863 ifOperStatus", said)
-                ]
-            elif verdict is Verdict.NO_DATA:
-                said = self.note[i] or "fewer than two usable polls"
-                polls = float(self.polls[i])
-                found[k] = [item("polls", polls, "polls", 2.0, "common practice", said)]
-        return found
+            groups.setdefault(self.verdict[i], []).append(k)
+        for verdict, places in groups.items():
+            built = kind_of(verdict).evidence(PortGroup(self, [rows[k] for k in places]))
+            for k, items in zip(places, built, strict=True):
+                out[k] = items
+        return out
+
+    @cached_property
+    def oper_status(self) -> list[str]:
+        """Each port's operational status at its latest poll (RFC 2863 ifOperStatus)."""
+        return [str(state) for state in self.windows.oper_status]
 
     def nearest_many(self, rows: list[int]) -> list[NearestOther | None]:
         """What would change the verdict of each of ``rows``: worded once per change, and
@@ -305,7 +307,7 @@ class DiagnosisBatch:
         feature = FEATURE_NAMES[column]
         said = self._changes.get((column, threshold, up, k))
         if said is None:
-            title = GUIDES[VERDICT_BY_ID[verdict]].title
+            title = kind_of(verdict).title
             said = change_said(feature, FEATURE_KIND[feature], threshold, up, title)
             self._changes[(column, threshold, up, k)] = said
         return {
@@ -324,7 +326,7 @@ class DiagnosisBatch:
         rule = self.allowed.rule_against(i, first)
         if rule is None:
             return None
-        return {"verdict": first.value, "needs": rule.needs, "source": rule.source}
+        return {"verdict": first, "needs": rule.needs, "source": rule.source}
 
     def bit_errors(self, i: int) -> BitErrorRecord | None:
         """The BER estimate of row ``i`` where its verdict rests on bit errors."""
@@ -345,23 +347,6 @@ class DiagnosisBatch:
             "exceeds": bool(self.allowed.signs.errors[i]),
         }
 
-    def _guard_questions(self, i: int, verdict: Verdict) -> list[QuestionRecord]:
-        w = self.windows
-        if verdict is Verdict.LINK_DOWN:
-            return [_q(GUARD_UP, False, "oper_status", None, None, f"no: {w.oper_status[i]}")]
-        if verdict is Verdict.NO_DATA:
-            said = f"no: {self.note[i]}"
-            return [_q(GUARD_POLLS, False, "polls", float(self.polls[i]), 2.0, said)]
-        value = self.measured
-        resolution, needed, frames = (
-            value("resolution", i),
-            value("frames_needed", i),
-            value("rx_frames", i),
-        )
-        text = GUARD_TRAFFIC.format(t=format_ratio(resolution, ratio_scale(resolution)))
-        said = traffic_said(frames, value("rx_errors", i), self.window_s[i], needed)
-        return [_q(text, False, "rx_frames", rounded(frames), needed, said)]
-
 
 def headline(record: DiagnosisRecord) -> str:
     """The one reading a verdict rests on most, for one-line summaries; else its note."""
@@ -370,31 +355,5 @@ def headline(record: DiagnosisRecord) -> str:
     return record["note"] or ""
 
 
-def _q(
-    text: str, answer: bool, feature: str, value: float | None, threshold: float | None, said: str
-) -> QuestionRecord:
-    return {
-        "question": text,
-        "answer": answer,
-        "feature": feature,
-        "value": value,
-        "threshold": threshold,
-        "said": said,
-    }
-
-
-#: The guards' questions, and the note of a port no verdict fits.
-GUARD_UP = "Is the port up?"
-GUARD_POLLS = "Two or more usable polls in the window?"
-GUARD_TRAFFIC = "Enough traffic to tell an error ratio of {t} from zero?"
-
-
+#: The note of a port no verdict fits.
 NO_FIT_NOTE = "no verdict fits every reading; this is the tree's own answer"
-
-
-def traffic_said(frames: float, errors: float, window_s: float, needed: float) -> str:
-    errors_text = "no" if errors != errors else sig(errors, 3)  # NaN: not reported
-    return (
-        f"no: {sig(frames, 3)} frames received and {errors_text} errors in "
-        f"{sig(window_s, 3)} s; a clean window needs about {sig(needed, 2)} frames"
-    )

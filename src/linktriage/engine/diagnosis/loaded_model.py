@@ -11,7 +11,7 @@ from linktriage.engine.model.artefact import CompiledTree, TreeArtefact
 from linktriage.engine.model.explain import Explainer
 from linktriage.engine.model.features import FEATURE_NAMES
 from linktriage.engine.model.nearest import Counterfactuals
-from linktriage.engine.verdicts import TREE_VERDICTS, Verdict
+from linktriage.engine.verdicts import TREE_VERDICTS
 from linktriage.errors import ModelError
 
 
@@ -30,6 +30,12 @@ class Model:
                 f"{source} was trained on other inputs than this release computes",
                 hint="Rebuild it with `linktriage train`.",
             )
+        unknown = [c for c in artefact.classes if c not in TREE_VERDICTS]
+        if unknown:
+            raise ModelError(
+                f"{source} answers verdicts this release does not know: {', '.join(unknown)}",
+                hint="Rebuild it with `linktriage train`.",
+            )
         self.artefact = artefact
         self.source = source  # where it was loaded from, for the model card
         self.trained_at = trained_at  # None for the packaged model
@@ -37,9 +43,7 @@ class Model:
         self.explainer = Explainer(self.tree)
         self.counterfactuals = Counterfactuals(self.tree)
         # Column j of the physics mask (TREE_VERDICTS order) for each class of the tree.
-        self.class_columns = np.array(
-            [TREE_VERDICTS.index(Verdict(c)) for c in artefact.classes], np.intp
-        )
+        self.class_columns = np.array([TREE_VERDICTS.index(c) for c in artefact.classes], np.intp)
 
     @property
     def version(self) -> str:

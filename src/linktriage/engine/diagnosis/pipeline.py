@@ -16,7 +16,7 @@ from collections.abc import Iterator
 import numpy as np
 import numpy.typing as npt
 
-from linktriage.engine.diagnosis.batch import NO_FIT_NOTE, VERDICT_BY_ID, DiagnosisBatch
+from linktriage.engine.diagnosis.batch import NO_FIT_NOTE, DiagnosisBatch
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.guards import apply_guards
@@ -132,12 +132,12 @@ def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisB
     # A guard's answer does not come from the tree: no change of a feature moves it.
     nearest = model.counterfactuals.find(values, mask, reported & ~is_guarded[:, None])
     verdict = [
-        VERDICT_BY_ID[g if g is not None else c]
+        g if g is not None else c
         for g, c in zip(guarded, tree.classes[klass].tolist(), strict=True)
     ]
     first = tree.classes[choice.first]
     ruled_out = [
-        VERDICT_BY_ID[f] if r and not g else None
+        f if r and not g else None
         for f, r, g in zip(
             first.tolist(), first_ruled_out.tolist(), is_guarded.tolist(), strict=True
         )

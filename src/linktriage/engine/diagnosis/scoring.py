@@ -19,8 +19,11 @@ from linktriage.engine.diagnosis.batch import DiagnosisBatch
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.snapshot import read_snapshots
-from linktriage.engine.simulate import Ranges, simulate_prior
-from linktriage.engine.verdicts import FAULTS, Verdict
+from linktriage.engine.prior import simulate_prior
+from linktriage.engine.simulate.ports import Ranges
+from linktriage.engine.verdicts import FAULTS
+from linktriage.engine.verdicts.healthy import HEALTHY
+from linktriage.engine.verdicts.insufficient_traffic import INSUFFICIENT_TRAFFIC
 
 
 @dataclass(frozen=True, slots=True)
@@ -40,9 +43,8 @@ def score(expected: npt.NDArray[np.object_], answered: npt.NDArray[np.object_]) 
     answered = answered.astype(str)
     labels = sorted(set(expected))
     recall = recall_score(expected, answered, labels=labels, average=None, zero_division=0.0)
-    healthy = expected == Verdict.HEALTHY.value
-    faults = {v.value for v in FAULTS}
-    alarm = float(np.mean([a in faults for a in answered[healthy]])) if healthy.any() else 0.0
+    healthy = expected == HEALTHY
+    alarm = float(np.mean([a in FAULTS for a in answered[healthy]])) if healthy.any() else 0.0
     wrong = [(int(i), expected[i], answered[i]) for i in np.flatnonzero(expected != answered)]
     return Score(
         ports=len(expected),
@@ -58,8 +60,8 @@ def expected_verdicts(
 ) -> npt.NDArray[np.object_]:
     """The simulator's classes, with healthy ports too quiet to judge expected as such."""
     expected = labels.astype(object).copy()
-    quiet = (expected == Verdict.HEALTHY.value) & ~batch.allowed.signs.enough_frames
-    expected[quiet] = Verdict.INSUFFICIENT_TRAFFIC.value
+    quiet = (expected == HEALTHY) & ~batch.allowed.signs.enough_frames
+    expected[quiet] = INSUFFICIENT_TRAFFIC
     return expected
 
 
@@ -74,7 +76,7 @@ def score_labelled(
     batch = diagnose(result.polls, model)
     expect = {(label["device"], label["port"]): label["expect"] for label in labels}
     expected = np.array([expect[key] for key in zip(batch.device, batch.port, strict=True)])
-    return score(expected, np.array([v.value for v in batch.verdict]))
+    return score(expected, np.array(batch.verdict))
 
 
 def score_simulated(model: Model, ports: int, seed: int, ranges: Ranges) -> Score:
@@ -82,5 +84,5 @@ def score_simulated(model: Model, ports: int, seed: int, ranges: Ranges) -> Scor
     polls, labels = simulate_prior(ports, np.random.default_rng(seed), ranges)
     batch = diagnose(polls, model)
     # Simulated port names are unique and windows keep the order of first appearance.
-    answered = np.array([v.value for v in batch.verdict], dtype=object)
+    answered = np.array(batch.verdict, dtype=object)
     return score(expected_verdicts(batch, labels), answered)

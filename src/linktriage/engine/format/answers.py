@@ -3,7 +3,12 @@
 
 from __future__ import annotations
 
-from typing import NotRequired, TypedDict
+from typing import NewType, NotRequired, TypedDict
+
+#: A verdict id of the snapshot format ("cable_fault", "link_down", ...): every diagnosis ends
+#: in one (docs/snapshot-format.md, "Verdicts"); each has a module of its own under
+#: ``engine/verdicts/``.
+Verdict = NewType("Verdict", str)
 
 
 class EvidenceRecord(TypedDict):

@@ -39,3 +39,10 @@ def format_ratio(value: float, scale: int) -> str:
 def times(multiple: float) -> str:
     """A multiple of a reference value: "3.2 times"."""
     return f"{sig(multiple)} times"
+
+
+def rounded(value: float) -> float | None:
+    """A measured value for output: six significant digits, None when not reported."""
+    if math.isnan(value):
+        return None
+    return float(f"{value:.6g}")

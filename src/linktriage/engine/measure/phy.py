@@ -68,6 +68,15 @@ _OBJECTIVE: dict[str, float] = {
 #: The loosest objective of any Ethernet PHY above: used when the PHY is unknown.
 LOOSEST_OBJECTIVE = max(_OBJECTIVE.values())
 
+#: The largest channel insertion loss a fiber PMD of each speed allows, so that a
+#: direction is called lossy only where it is lossy for every PMD the port could run:
+#: 1 Gb/s, 1000BASE-LX channel 4.5 dB (TIA FOTC's 1000BASE-LX page, reproducing IEEE 802.3
+#: clause 38); 10 Gb/s, 10GBASE-LR channel 6.2 dB (IEEE 802.3 clause 52, from memory).
+CHANNEL_LOSS_DB: dict[int, tuple[str, float]] = {
+    1_000_000_000: ("1000BASE-LX", 4.5),
+    10_000_000_000: ("10GBASE-LR", 6.2),
+}
+
 #: Receiver sensitivity (average received power, dBm) for modules that report no thresholds
 #: of their own: the most sensitive common receiver of each speed, so that light is called
 #: low only where it is low for every receiver the port could have. 1000BASE-LX -19 dBm

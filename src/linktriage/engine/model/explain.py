@@ -16,6 +16,7 @@ import numpy as np
 import numpy.typing as npt
 
 from linktriage.engine.format.answers import QuestionRecord
+from linktriage.engine.measure.numbers import rounded
 from linktriage.engine.model.artefact import CompiledTree, Step
 from linktriage.engine.model.features import FEATURE_KIND
 from linktriage.engine.model.questions import (
@@ -40,13 +41,6 @@ class PathQuestion:
     answer: bool
     reads: Callable[[float], str]  # a measured value as it reads beside this question
     range: tuple[float, float] | None = None
-
-
-def rounded(value: float) -> float | None:
-    """A measured value for output: six significant digits, None when not reported."""
-    if math.isnan(value):
-        return None
-    return float(f"{value:.6g}")
 
 
 def merge(path: Sequence[Step], features: Sequence[str]) -> list[PathQuestion]:

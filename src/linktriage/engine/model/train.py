@@ -33,8 +33,10 @@ from linktriage.engine.model.artefact import (
 )
 from linktriage.engine.model.features import FEATURE_NAMES, feature_rows
 from linktriage.engine.physics import allowed
-from linktriage.engine.simulate import TRAINING, Ranges, simulate_prior
-from linktriage.engine.verdicts import TREE_VERDICTS, Verdict
+from linktriage.engine.prior import simulate_prior
+from linktriage.engine.simulate.ports import TRAINING, Ranges
+from linktriage.engine.verdicts import TREE_VERDICTS
+from linktriage.engine.verdicts.healthy import HEALTHY
 
 DEFAULT_SEED = 2026
 
@@ -75,7 +77,7 @@ def prior_rows(n: int, seed: int, ranges: Ranges = TRAINING) -> PriorRows:
     m = measure(windows).table
     ok = allowed(m)
     guarded = apply_guards(windows, ok)
-    columns = np.array([TREE_VERDICTS.index(Verdict(v)) for v in labels], np.intp)
+    columns = np.array([TREE_VERDICTS.index(v) for v in labels], np.intp)
     possible = ok.mask[np.arange(len(labels)), columns]
     keep = np.array([v is None for v in guarded]) & possible
     return PriorRows(feature_rows(m).matrix()[keep], labels[keep], n)
@@ -96,8 +98,8 @@ def class_weights(y: npt.NDArray[np.object_], healthy_weight: float) -> dict[str
     """Balanced weights (n / (classes * n_class)), with healthy multiplied by ``healthy_weight``."""
     names, counts = np.unique(y.astype(str), return_counts=True)
     weights = {str(c): float(len(y) / (len(names) * k)) for c, k in zip(names, counts, strict=True)}
-    if Verdict.HEALTHY.value in weights:
-        weights[Verdict.HEALTHY.value] *= healthy_weight
+    if HEALTHY in weights:
+        weights[HEALTHY] *= healthy_weight
     return weights
 
 
@@ -220,10 +222,8 @@ def train(cfg: TrainingConfig | None = None, labelled: LabelledRows | None = Non
     predicted = predicted.astype(str)
     classes = [str(c) for c in clf.classes_]
     recall = recall_score(y, predicted, labels=classes, average=None, zero_division=0.0)
-    healthy = y == Verdict.HEALTHY.value
-    false_alarm = (
-        float(np.mean(predicted[healthy] != Verdict.HEALTHY.value)) if healthy.any() else 0.0
-    )
+    healthy = y == HEALTHY
+    false_alarm = float(np.mean(predicted[healthy] != HEALTHY)) if healthy.any() else 0.0
 
     arrays = tree_arrays(clf)
     summary = TrainingSummary(

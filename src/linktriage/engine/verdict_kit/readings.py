@@ -1,0 +1,264 @@
+"""The readings verdicts cite as evidence, in an engineer's units, each with the value it is
+held against: the pieces several verdicts share, and the group of ports they are worded for.
+
+A senior engineer checking a verdict looks at a few readings, not at the tree: the bit error
+ratio against the PHY's objective for a cable fault; collisions, late collisions, runts and
+duplex for a duplex mismatch; received power in dBm against the module's thresholds for an
+optic; which direction is silent for a one-way link; the discards and the load of that same
+direction for congestion. Each item is one such reading: ``feature``, ``value``, ``unit``,
+``reference`` (what it is held against, or None), ``source`` and ``said`` (as it reads). The
+first item of a verdict is its headline, shown in one-line summaries. Evidence is worded a
+verdict at a time, for all the ports of that verdict together, so the per-port work is the
+wording alone.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Protocol
+
+from linktriage.engine.format.answers import EvidenceRecord
+from linktriage.engine.measure.numbers import format_ratio, ratio_scale, sig, times
+from linktriage.engine.measure.signs import FLAPPING_CHANGES
+
+
+def item(
+    feature: str, value: float | str | None, unit: str, reference: float | None, source: str,
+    said: str,
+) -> EvidenceRecord:  # fmt: skip
+    """One piece of evidence: what was measured, against which reference, from which source."""
+    return {
+        "feature": feature,
+        "value": value,
+        "unit": unit,
+        "reference": reference,
+        "source": source,
+        "said": said,
+    }
+
+
+def six(x: float) -> float:
+    """A derived value (a ratio, a rate) to six significant digits; counts and readings are
+    shown as they were counted or read."""
+    return float(f"{x:.6g}")
+
+
+def speed_words(bps: float) -> str:
+    """A line rate as engineers say it: "100 Mb/s", "10 Gb/s"."""
+    if bps >= 1e9:
+        return f"{sig(bps / 1e9, 3)} Gb/s"
+    return f"{sig(bps / 1e6, 3)} Mb/s"
+
+
+def ratio_words(value: float) -> str:
+    return format_ratio(value, ratio_scale(value))
+
+
+def window_words(seconds: float) -> str:
+    if seconds >= 5400:
+        return f"{sig(seconds / 3600, 2)} h"
+    if seconds >= 120:
+        return f"{sig(seconds / 60, 2)} min"
+    return f"{sig(seconds, 3)} s"
+
+
+ERROR_SOURCE = {
+    1.0: "RFC 3635 dot3StatsFCSErrors + dot3StatsAlignmentErrors",
+    2.0: "RFC 2863 ifInErrors (less frames too long; may include other errors)",
+}
+
+
+class PortFacts(Protocol):
+    """What evidence and guard questions read of each port, by row: the measures column by
+    column, the PHY's name, the state at the latest poll, the window's note and polls."""
+
+    @property
+    def phy(self) -> Sequence[str | None]: ...
+    @property
+    def oper_status(self) -> Sequence[str]: ...
+    @property
+    def note(self) -> Sequence[str | None]: ...
+    @property
+    def polls(self) -> Sequence[int]: ...
+    @property
+    def window_s(self) -> Sequence[float]: ...
+    def column(self, name: str) -> Sequence[float]: ...
+
+
+class PortGroup:
+    """The ports of one verdict, their measures column by column as Python lists, read on
+    demand."""
+
+    def __init__(self, facts: PortFacts, rows: list[int]) -> None:
+        self.facts = facts
+        self.rows = rows
+        self.phy = [facts.phy[i] for i in rows]
+        self._lists: dict[str, list[float]] = {}
+
+    def __getitem__(self, name: str) -> list[float]:
+        values = self._lists.get(name)
+        if values is None:
+            whole = self.facts.column(name)
+            values = self._lists[name] = [whole[i] for i in self.rows]
+        return values
+
+    def __len__(self) -> int:
+        return len(self.rows)
+
+
+Items = list[EvidenceRecord]
+MaybeItems = list[EvidenceRecord | None]
+
+
+def bit_errors(c: PortGroup) -> Items:
+    """The receive errors as a bit error ratio against the PHY's objective."""
+    out: Items = []
+    for errors, frames, ber, lo, hi, objective, phy in zip(
+        c["rx_errors"], c["rx_frames"], c["ber"], c["ber_lo"], c["ber_hi"], c["objective"],
+        c.phy, strict=True,
+    ):  # fmt: skip
+        name = phy or "this PHY"
+        source = f"IEEE 802.3 {name} bit-error-ratio objective"
+        if errors != errors:  # NaN: not reported
+            said = "receive errors not reported: the bit error ratio cannot be judged"
+            out.append(item("bit_error_ratio", None, "BER", objective, source, said))
+        elif errors == 0:
+            said = (
+                f"no errored frames in {frames:,.0f} received: bit error ratio below "
+                f"{hi:.0e} (95%); the {name} objective is {objective:.0e}"
+            )
+            out.append(item("bit_error_ratio", 0.0, "BER", objective, source, said))
+        elif lo > objective:
+            said = (
+                f"bit error ratio {ber:.1e}, at least {lo:.1e} (95%), from {errors:,.0f} "
+                f"errored frames in {frames:,.0f} received: {times(lo / objective)} the "
+                f"{name} objective of {objective:.0e}"
+            )
+            out.append(item("bit_error_ratio", six(ber), "BER", objective, source, said))
+        else:
+            said = (
+                f"bit error ratio {ber:.1e} from {errors:,.0f} errored frames in "
+                f"{frames:,.0f} received; not significantly over the {name} objective of "
+                f"{objective:.0e}"
+            )
+            out.append(item("bit_error_ratio", six(ber), "BER", objective, source, said))
+    return out
+
+
+def errored_frames(c: PortGroup) -> MaybeItems:
+    out: MaybeItems = []
+    for errors, fer, where in zip(c["rx_errors"], c["fer"], c["error_source"], strict=True):
+        if not errors > 0:  # none, or not reported (NaN)
+            out.append(None)
+            continue
+        what = "received frames failed the FCS check" if where == 1.0 else "receive errors counted"
+        said = f"{errors:,.0f} {what} ({ratio_words(fer)})"
+        out.append(item("rx_errored_frames", errors, "frames", None, ERROR_SOURCE[where], said))
+    return out
+
+
+def symbols(c: PortGroup) -> MaybeItems:
+    # A zero is weak evidence: many devices never count symbol errors, so only a count shows.
+    source = "RFC 3635 dot3StatsSymbolErrors"
+    return [
+        item("symbol_errors", n, "events", None, source,
+              f"{n:,.0f} symbol errors: the PHY saw invalid code groups")
+        if n == n and n > 0 else None
+        for n in c["symbol_errors"]
+    ]  # fmt: skip
+
+
+def flaps(c: PortGroup) -> MaybeItems:
+    out: MaybeItems = []
+    for changes, window in zip(c["link_changes"], c["window_s"], strict=True):
+        if not changes >= 2:  # also NaN
+            out.append(None)
+            continue
+        said = f"link went down or up {changes:,.0f} times in {window_words(window)}" + (
+            " (flapping)" if changes >= FLAPPING_CHANGES else ""
+        )
+        reference = float(FLAPPING_CHANGES)
+        out.append(item("link_changes", changes, "changes", reference, "common practice", said))
+    return out
+
+
+def speed(c: PortGroup) -> MaybeItems:
+    source = "IEEE 802.3 clause 28 (autonegotiation)"
+    return [
+        item("speed", speed, "b/s", top, source,
+              f"{speed_words(speed)} on a {speed_words(top)} port")
+        if speed < top else None  # False where either is NaN
+        for speed, top in zip(c["speed_bps"], c["max_speed_bps"], strict=True)
+    ]  # fmt: skip
+
+
+def duplex(c: PortGroup) -> Items:
+    source = "RFC 3635 dot3StatsDuplexStatus"
+    out: Items = []
+    for reported, seen in zip(c["half_duplex"], c["half_duplex_seen"], strict=True):
+        if seen == 1.0 and reported != 1.0:
+            said = "half duplex: collisions are counted, which full duplex never does"
+            out.append(item("duplex", "half", "state", None, f"{source}; RFC 3635", said))
+        elif seen == 1.0:
+            out.append(item("duplex", "half", "state", None, source, "half duplex"))
+        elif reported != reported:
+            out.append(item("duplex", None, "state", None, source, "duplex not reported"))
+        else:
+            out.append(item("duplex", "full", "state", None, source, "full duplex"))
+    return out
+
+
+def count_and_share(
+    c: PortGroup, feature: str, column: str, ratio: str, noun: str, per: str, source: str,
+    extra: list[str] | None = None,
+) -> Items:  # fmt: skip
+    """A count and its share of the frames of its direction, for each port."""
+    out: Items = []
+    extras = extra or [""] * len(c)
+    for value, share, more in zip(c[column], c[ratio], extras, strict=True):
+        if value != value:
+            out.append(item(feature, None, "frames", None, source, f"{noun}: not reported"))
+        elif value == 0:
+            out.append(item(feature, 0.0, "frames", None, source, f"no {noun}"))
+        else:
+            said = f"{value:,.0f} {noun} ({ratio_words(share)} {per}){more}"
+            out.append(item(feature, value, "frames", None, source, said))
+    return out
+
+
+def collisions(c: PortGroup) -> Items:
+    return count_and_share(
+        c, "collisions", "collisions", "collision_ratio", "collisions", "sent frames",
+        "RFC 3635 dot3StatsSingle/MultipleCollisionFrames",
+    )  # fmt: skip
+
+
+_REFERENCE = {1.0: "the module's low warning", 2.0: "the module's low alarm"}
+
+
+def rx_light(c: PortGroup) -> MaybeItems:
+    out: MaybeItems = []
+    for rx, reference, kind, alarm, phy in zip(
+        c["rx_dbm"], c["rx_reference_dbm"], c["rx_reference_kind"], c["rx_alarm_dbm"], c.phy,
+        strict=True,
+    ):  # fmt: skip
+        if rx != rx:
+            out.append(None)
+            continue
+        if reference != reference:
+            said = f"receiving {rx:.1f} dBm; the module reports no thresholds"
+            out.append(item("rx_power", rx, "dBm", None, "SFF-8472 digital diagnostics", said))
+            continue
+        against = _REFERENCE.get(kind, f"the receiver's sensitivity ({phy or 'this PHY'})")
+        margin = rx - reference
+        side = "above" if margin >= 0 else "under"
+        also = f"; low alarm {alarm:.1f} dBm" if kind == 1.0 and alarm == alarm else ""
+        where = f"{abs(margin):.1f} dB {side} {against} ({reference:.1f} dBm)"
+        said = f"receiving {rx:.1f} dBm, {where}{also}"
+        source = "SFF-8472 thresholds" if kind in _REFERENCE else "IEEE 802.3 receiver sensitivity"
+        out.append(item("rx_power", rx, "dBm", reference, source, said))
+    return out
+
+
+def present(*items: EvidenceRecord | None) -> Items:
+    return [i for i in items if i is not None]

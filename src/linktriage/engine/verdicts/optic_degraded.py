@@ -1,0 +1,214 @@
+"""optic_degraded: received light near or under the module's low thresholds.
+
+Received power under the module's low warning (near its alarm), low transmit power, or a
+module running hot (SFF-8472 digital diagnostics), usually with FCS errors: a dirty or
+damaged connector, a failing transceiver, excess loss. From both ends of a fiber link: a
+direction losing more light than any PMD of its speed allows (far end's transmit power less
+near end's received power) points at that strand.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from linktriage.engine.format.answers import Verdict
+from linktriage.engine.measure.signs import HOT_C
+from linktriage.engine.simulate.ports import (
+    FIBER_10G,
+    Ranges,
+    Rng,
+    chance,
+    choice,
+    objective,
+    optics,
+)
+from linktriage.engine.verdict_kit.declaration import (
+    Caution,
+    DemoPlant,
+    LinkJudge,
+    Need,
+    Touch,
+    TreeVerdict,
+    When,
+    check,
+)
+from linktriage.engine.verdict_kit.ends import Ends, LinkView
+from linktriage.engine.verdict_kit.readings import (
+    Items,
+    MaybeItems,
+    PortGroup,
+    bit_errors,
+    item,
+    present,
+    rx_light,
+)
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+OPTIC_DEGRADED = Verdict("optic_degraded")
+
+
+def _tx_light(c: PortGroup) -> MaybeItems:
+    out: MaybeItems = []
+    for tx, alarm in zip(c["tx_dbm"], c["tx_alarm_dbm"], strict=True):
+        if tx != tx:
+            out.append(None)
+        elif alarm != alarm:
+            out.append(item("tx_power", tx, "dBm", None, "SFF-8472", f"transmitting {tx:.1f} dBm"))
+        else:
+            margin = tx - alarm
+            said = (
+                f"transmitting {tx:.1f} dBm, {abs(margin):.1f} dB "
+                f"{'above' if margin >= 0 else 'under'} the module's low alarm ({alarm:.1f} dBm)"
+            )
+            out.append(item("tx_power", tx, "dBm", alarm, "SFF-8472 thresholds", said))
+    return out
+
+
+def _temperature(c: PortGroup) -> MaybeItems:
+    out: MaybeItems = []
+    for t in c["temperature_c"]:
+        if t != t:
+            out.append(None)
+            continue
+        said = f"module at {t:.0f} \u00b0C" + (
+            f", over the {HOT_C:.0f} \u00b0C of commercial-grade modules" if t > HOT_C else ""
+        )
+        out.append(item("temperature", t, "\u00b0C", HOT_C, "common practice", said))
+    return out
+
+
+def _bias(c: PortGroup) -> MaybeItems:
+    source = "SFF-8472 digital diagnostics"
+    return [
+        item("bias", b, "mA", None, source, f"laser bias {b:.1f} mA") if b == b else None
+        for b in c["bias_ma"]
+    ]
+
+
+def _evidence(c: PortGroup) -> list[Items]:
+    return [
+        [*present(rx, tx, hot, bias), errors]
+        for rx, tx, hot, bias, errors in zip(
+            rx_light(c), _tx_light(c), _temperature(c), _bias(c), bit_errors(c), strict=True
+        )
+    ]
+
+
+def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
+    n = len(p)
+    p["fiber"] = 1.0
+    p["poe"] = 0.0
+    p["speed_bps"] = choice(rng, r.fiber_speeds, n)
+    p["max_speed_bps"] = np.where(np.isnan(p["max_speed_bps"]), np.nan, p["speed_bps"])
+    p["hc"] = True
+    over_warn = rng.uniform(*r.optic_margin_db, n)
+    optics(p, rng, r, over_warn, dom=np.ones(n, np.bool_))
+    # Bit errors climb steeply as the light falls (illustrative slope); a third are still
+    # clean: low light is a state reading.
+    times = 10.0 ** np.clip(1.5 * (1.5 - over_warn) + rng.normal(0.0, 0.7, n), 0.5, 9.0)
+    ber = objective(p["speed_bps"].to_numpy(), p["fiber"].to_numpy()) * times
+    clean = chance(rng, 0.3, n)
+    p["rx_ber"] = np.where(clean, ber * 1e-6, np.minimum(ber, 1e-3))
+    p["symbols_per_error"] = rng.uniform(0.5, 2.0, n)
+    # A failing transmitter at the far end shows as low light here; at this end, as low
+    # transmit power. Some modules run hot.
+    weak_tx = chance(rng, 0.12, n)
+    p["tx_power_dbm"] = np.where(
+        weak_tx, p["tx_alarm_dbm"] + rng.uniform(-2.0, 0.5, n), p["tx_power_dbm"]
+    )
+    p["temperature_c"] = np.where(
+        chance(rng, 0.05, n), rng.uniform(72.0, 90.0, n), p["temperature_c"]
+    )
+    flapping = (over_warn < -4.0) & chance(rng, 0.2, n)
+    p["link_changes"] = np.where(flapping, 2 * rng.integers(1, 6, n), 0).astype(float)
+
+
+def _lossy_strand(ends: Ends) -> LinkView | None:
+    """A fiber direction losing more light than its channel may: that strand's connectors
+    and cords (a dirty or damaged end face, a tight bend)."""
+    if not ends.lossy:
+        return None
+    tx, rx = ends.lossy[0]
+    sender, receiver = ends.name(tx), ends.name(rx)
+    other = "loses too much as well" if len(ends.lossy) == 2 else "is within its allowance"
+    checks = [
+        f"the {sender} \u2192 {receiver} strand: clean and inspect its connectors with a fiber "
+        f"scope ({sender}'s transmit end, {receiver}'s receive end) and its patch cords",
+        f"at {receiver}: compare with the other strand, which {other}",
+    ]
+    return ends.view(OPTIC_DEGRADED, ends.losses, checks)
+
+
+#: Phrases of the trade that name this verdict in a thread reply, each with a weight.
+_PHRASES: tuple[tuple[str, int], ...] = (
+    ("optic", 3), ("sfp", 3), ("transceiver", 3), ("dirty", 2), ("light level", 3),
+    ("rx power", 3), ("dbm", 2), ("attenuat", 2), ("end face", 2), ("ferrule", 2), ("fiber", 1),
+    ("fibre", 1),
+)  # fmt: skip
+
+KIND = TreeVerdict(
+    verdict=OPTIC_DEGRADED,
+    listed=6,
+    title="optic degraded",
+    meaning="Received light is near or under the module's low thresholds.",
+    checks=(
+        check(
+            "Compare received power with the far end's transmit power: the difference is "
+            "the link's loss; set it against the link's loss budget."
+        ),
+        check(
+            "Clean both connectors, inspect the end faces with a fiber scope, and re-seat.",
+            Touch.UNPLUG,
+            Touch.FIBER_END,
+        ),
+        check(
+            "Check patch cords for tight bends or crush; swap for a known-good cord.",
+            Touch.UNPLUG,
+            Touch.FIBER_END,
+        ),
+        check(
+            "If the loss stays high, test the link with a light source and power meter (or "
+            "an OTDR) against its design (TIA-568 cabled-fiber and connector allowances).",
+            Touch.UNPLUG,
+            Touch.FIBER_END,
+        ),
+        check(
+            "If the far end transmits low, or a module runs hot or at high bias current, "
+            "replace that transceiver.",
+            Touch.UNPLUG,
+            Touch.FIBER_END,
+        ),
+    ),
+    cautions=((Caution.FIBER_EYES, When.ALWAYS), (Caution.SERVICE_BREAK, When.ALWAYS)),
+    evidence=_evidence,
+    demo=DemoPlant(
+        "central",
+        "lark-east-idf1",
+        "up1",
+        "uplink to lark-core1",
+        {**FIBER_10G, "rx_margin_db": -1.2, "rx_ber": 3e-9, "rx_util": 0.12},
+    ),
+    severity=5,
+    needs=(
+        Need(
+            "transceiver readings (optical power)",
+            "SFF-8472 digital diagnostics",
+            lambda s: s.optics,
+        ),
+        Need(
+            "received light under the module's low warning (near its alarm), low transmit "
+            "power, or a module running hot",
+            "SFF-8472 alarm and warning thresholds",
+            lambda s: s.light_low | s.tx_low | s.hot,
+        ),
+    ),
+    bit_errors=True,
+    phrases=_PHRASES,
+    signature=_signature,
+    prior_share=0.10,
+    link=LinkJudge(30, _lossy_strand),
+)
