@@ -8,6 +8,7 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
+from linktriage.bot.commands import FORMS
 from linktriage.cli import main
 from linktriage.engine.verdicts import VERDICTS
 
@@ -32,6 +33,13 @@ def test_every_command_and_its_options_are_in_the_readme(command: str) -> None:
                 # The command's usage: from its first mention to the end of that paragraph.
                 usage = re.search(rf"linktriage {command}.*?(\n\n|$)", README, re.DOTALL)
                 assert usage is not None and opt in usage.group(0), (command, opt)
+
+
+def test_the_readmes_table_of_chat_commands_is_the_bots() -> None:
+    # bot/commands.py FORMS is the one list of commands: parsing, help and usage use it.
+    section = README.split("## In the team channel", 1)[1]
+    rows = re.findall(r"^\| `/triage ([^`]+)` \| (.+) \|$", section, re.MULTILINE)
+    assert rows == [(form.form, form.does) for form in FORMS]
 
 
 def test_every_verdict_is_in_the_readme() -> None:

@@ -14,6 +14,7 @@ from typing import Any
 import pytest
 from slack_sdk.models.blocks import Block
 
+from linktriage.bot.commands import FORMS
 from linktriage.bot.history import verdict_runs
 from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
@@ -174,7 +175,7 @@ def test_text_from_people_cannot_mention_or_link() -> None:
 
 def test_the_other_replies_fit_too(model: Model) -> None:
     for reply in (
-        HelpReply("/triage"),
+        HelpReply("/triage", tuple((form.form, form.does) for form in FORMS)),
         ModelReply(model_card_data(model.artefact, source="x")),
         ErrorReply("No device named 'x<!channel>'.", "Did you mean: y?"),
     ):

@@ -67,8 +67,9 @@ def test_help_at_the_prompt_shows_the_commands_as_typed_there(triage: Triage) ->
     assert "In Slack, type them after `/triage` or a mention of the bot." in answer
     wrong = Console(triage).say("lark-core1")
     assert wrong is not None
-    assert wrong.endswith(
-        "Try `DEVICE PORT`, `history DEVICE PORT [SINCE]`, `suspects [SITE]`, or `help`."
+    assert wrong.endswith(  # every command, as typed at the prompt
+        "Try `DEVICE PORT`, `history DEVICE PORT [SINCE]`, `tree DEVICE PORT`, "
+        "`suspects [SITE]`, `model`, or `help`."
     )
 
 

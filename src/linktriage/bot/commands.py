@@ -1,19 +1,17 @@
-"""Parsing the text of one ``/triage`` command into what to do.
+"""The commands of ``/triage``: each written once, in :data:`FORMS` (how it is typed, what it
+does, how its words are read), and what a parsed one asks for, as a closed union.
 
-/triage DEVICE PORT     diagnose one port now
-/triage history DEVICE PORT [SINCE]  the port's verdicts over time, from stored polls
-/triage tree DEVICE PORT             the tree's path for the port, as a picture
-/triage suspects [SITE] the current suspect links, ranked
-/triage model           the model's card
-/triage help            how to use it
-
-The same text may start with the command's name typed out or with a mention of the bot
-(``@linktriage`` at the console, ``<@U...>`` as Slack sends an app mention).
+Parsing, the help, the usage hint and the README's table of commands all come from
+:data:`FORMS`. The same text may start with the command's name typed out or with a
+mention of the bot (``@linktriage`` at the console, ``<@U...>`` as Slack sends an app
+mention). Every handler of a :data:`Command` ends in ``assert_never``, so adding one
+makes mypy name each place it must be handled.
 """
 
 from __future__ import annotations
 
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 
 from linktriage.errors import CommandError
@@ -71,42 +69,108 @@ _SPAN = re.compile(r"(\d+(?:\.\d+)?)([smhd])")
 _UNIT_S = {"s": 1.0, "m": 60.0, "h": 3600.0, "d": 86_400.0}
 
 
+def _diagnose(words_: list[str], usage: str) -> Command:
+    if len(words_) != 2:
+        raise CommandError(words.NAME_DEVICE_AND_PORT, hint=usage)
+    return DiagnosePort(*_names(words_, usage))
+
+
+def _history(words_: list[str], usage: str) -> Command:
+    if len(words_) not in (2, 3):
+        raise CommandError(words.HISTORY_NAMES, hint=usage)
+    device, port = _names(words_[:2], usage)
+    try:
+        since_s = span_seconds(words_[2]) if len(words_) == 3 else DEFAULT_HISTORY_S
+    except CommandError as exc:
+        raise CommandError(exc.message, hint=usage) from None
+    return ShowHistory(device, port, since_s)
+
+
+def _tree(words_: list[str], usage: str) -> Command:
+    if len(words_) != 2:
+        raise CommandError(words.TREE_NAMES, hint=usage)
+    return ShowTree(*_names(words_, usage))
+
+
+def _suspects(words_: list[str], usage: str) -> Command:
+    if len(words_) > 1:
+        raise CommandError(words.SUSPECTS_TAKES_ONE_SITE, hint=usage)
+    return ListSuspects(words_[0] if words_ else None)
+
+
+def _model(words_: list[str], usage: str) -> Command:
+    if words_:
+        raise CommandError(words.MODEL_TAKES_NOTHING, hint=usage)
+    return ShowModel()
+
+
+def _help(words_: list[str], usage: str) -> Command:
+    return ShowHelp()
+
+
+@dataclass(frozen=True, slots=True)
+class Form:
+    """One command as people type it: its first word (None for a device and a port), its
+    whole form, what it does (as the help says it), and how the words after the first are
+    read."""
+
+    word: str | None
+    form: str
+    does: str
+    read: Callable[[list[str], str], Command]
+
+
+#: Every command, in the order help and usage list them.
+FORMS: tuple[Form, ...] = (
+    Form(
+        None,
+        "DEVICE PORT",
+        "diagnose one port now (a unique part of the device name will do).",
+        _diagnose,
+    ),
+    Form(
+        "history",
+        "history DEVICE PORT [SINCE]",
+        "the port's verdicts, errors, discards and load over time from the stored polls "
+        "(since 24h unless told, e.g. 6h, 3d), with a chart in the thread.",
+        _history,
+    ),
+    Form(
+        "tree",
+        "tree DEVICE PORT",
+        "the port diagnosed now, with a picture of the tree and its path marked.",
+        _tree,
+    ),
+    Form("suspects", "suspects [SITE]", "the suspect links, worst first.", _suspects),
+    Form("model", "model", "the model's card.", _model),
+    Form("help", "help", "what the bot understands.", _help),
+)
+_BY_WORD = {form.word: form for form in FORMS}
+#: Other ways people ask for help.
+_HELP_WORDS = ("?", "-h", "--help")
+
+
+def usage(command: str) -> str:
+    """The hint after a malformed command: every form, spelt as typed where the text came
+    from (``command``; "" at the console)."""
+    return words.usage([words.spelt(command, form.form) for form in FORMS])
+
+
 def parse(text: str, *, command: str = COMMAND) -> Command:
     """What a person asked for; malformed text raises :class:`CommandError`, its hint
     spelt as commands start where the text was typed (``command``; "" at the console)."""
-    usage = words.usage(command)
+    hint = usage(command)
     tokens = text.strip().split()
     if tokens and _MENTION.fullmatch(tokens[0]):
         tokens = tokens[1:]
     if tokens and tokens[0].lower() in (COMMAND, COMMAND.lstrip("/")):
         tokens = tokens[1:]  # the console accepts the command name typed out
-    if not tokens or tokens[0].lower() in ("help", "?", "-h", "--help"):
+    if not tokens or tokens[0].lower() in _HELP_WORDS:
         return ShowHelp()
-    head = tokens[0].lower()
-    if head == "suspects":
-        if len(tokens) > 2:
-            raise CommandError(words.SUSPECTS_TAKES_ONE_SITE, hint=usage)
-        return ListSuspects(tokens[1] if len(tokens) == 2 else None)
-    if head == "model":
-        if len(tokens) > 1:
-            raise CommandError(words.MODEL_TAKES_NOTHING, hint=usage)
-        return ShowModel()
-    if head == "history":
-        if len(tokens) not in (3, 4):
-            raise CommandError(words.HISTORY_NAMES, hint=usage)
-        device, port = _names(tokens[1:3], usage)
-        try:
-            since_s = span_seconds(tokens[3]) if len(tokens) == 4 else DEFAULT_HISTORY_S
-        except CommandError as exc:
-            raise CommandError(exc.message, hint=usage) from None
-        return ShowHistory(device, port, since_s)
-    if head == "tree":
-        if len(tokens) != 3:
-            raise CommandError(words.TREE_NAMES, hint=usage)
-        return ShowTree(*_names(tokens[1:3], usage))
-    if len(tokens) != 2:
-        raise CommandError(words.NAME_DEVICE_AND_PORT, hint=usage)
-    return DiagnosePort(*_names(tokens, usage))
+    form = _BY_WORD.get(tokens[0].lower())
+    if form is None:
+        return _BY_WORD[None].read(tokens, hint)
+    return form.read(tokens[1:], hint)
 
 
 def _names(tokens: list[str], usage: str) -> tuple[str, str]:

@@ -16,12 +16,14 @@ import contextlib
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
+from typing import assert_never
 
 import numpy as np
 
 from linktriage.bot.answers import keep_answers
 from linktriage.bot.commands import (
     COMMAND,
+    FORMS,
     Command,
     DiagnosePort,
     ListSuspects,
@@ -96,35 +98,46 @@ class Triage:
         and hints show commands starting with ``spelt``, as they are typed where the text
         came from ("/triage" in Slack, "" at the console)."""
         try:
-            command = parse(text, command=spelt)
-            reply: Reply
-            if isinstance(command, ShowHelp):
-                reply = HelpReply(spelt)
-            elif isinstance(command, ShowModel):
-                reply = self.model_card()
-            elif isinstance(command, ListSuspects):
-                reply = self.digests.suspects(command.site, channel=channel)
-            elif isinstance(command, ShowHistory):
-                reply = self.histories.of(command.device, command.port, command.since_s)
-            elif isinstance(command, ShowTree):
-                reply = self.tree(command.device, command.port)
-            else:
-                assert isinstance(command, DiagnosePort)
-                reply = self.diagnose_port(command.device, command.port, user=user, channel=channel)
+            reply = self._answer(parse(text, command=spelt), spelt, user=user, channel=channel)
         except LinktriageError as exc:  # bad text, unknown names, a device that fails
             reply = ErrorReply(exc.message, exc.hint)
         self._audit(text, reply, user=user, channel=channel)
         return reply
+
+    def _answer(
+        self, command: Command, spelt: str, *, user: str | None, channel: str | None
+    ) -> Reply:
+        """What a command is answered with (each command a case of its own)."""
+        match command:
+            case DiagnosePort(device, port):
+                return self.diagnose_port(device, port, user=user, channel=channel)
+            case ShowHistory(device, port, since_s):
+                return self.histories.of(device, port, since_s)
+            case ShowTree(device, port):
+                return self.tree(device, port)
+            case ListSuspects(site):
+                return self.digests.suspects(site, channel=channel)
+            case ShowModel():
+                return self.model_card()
+            case ShowHelp():
+                return HelpReply(spelt, tuple((form.form, form.does) for form in FORMS))
+            case _:
+                assert_never(command)
 
     def settle(self, text: str) -> Command:
         """The command ``text`` asks for, with every name in it checked against the network
         and nothing polled: what a transport checks before it says an answer is on its way.
         Raises :class:`LinktriageError` with the reason, as :meth:`handle` would answer."""
         command = parse(text)
-        if isinstance(command, DiagnosePort | ShowHistory | ShowTree):
-            self.network.find(command.device, command.port)
-        elif isinstance(command, ListSuspects):
-            self.digests.scope(command.site)
+        match command:
+            case DiagnosePort(device, port) | ShowHistory(device, port) | ShowTree(device, port):
+                self.network.find(device, port)
+            case ListSuspects(site):
+                self.digests.scope(site)
+            case ShowModel() | ShowHelp():
+                pass  # names nothing
+            case _:
+                assert_never(command)
         return command
 
     def _audit(self, text: str, reply: Reply, *, user: str | None, channel: str | None) -> None:

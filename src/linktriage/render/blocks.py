@@ -13,7 +13,7 @@ from __future__ import annotations
 import json
 import re
 from datetime import UTC, datetime
-from typing import Any
+from typing import Any, assert_never
 
 from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.engine.measure.numbers import sig
@@ -430,46 +430,68 @@ def suspects_thread(reply: SuspectsReply) -> list[dict[str, Any]]:
 def thread_for(reply: Reply) -> list[dict[str, Any]]:
     """Messages that follow a reply in its thread: an answer's details, the rest of a long
     list; other replies have none."""
-    if isinstance(reply, DiagnosisReply):
-        return diagnosis_thread(reply)
-    return suspects_thread(reply) if isinstance(reply, SuspectsReply) else []
+    match reply:
+        case DiagnosisReply():
+            return diagnosis_thread(reply)
+        case SuspectsReply():
+            return suspects_thread(reply)
+        case (
+            HistoryReply()
+            | TreeReply()
+            | HelpReply()
+            | ModelReply()
+            | ErrorReply()
+            | LabelReply()
+            | LabelRefused()
+        ):
+            return []  # a history's chart and a tree's picture follow as uploads
+        case _:
+            assert_never(reply)
 
 
 def message_for(reply: Reply) -> dict[str, Any]:
     """Any reply as a Slack message: ``text`` (the notification) and ``blocks``."""
-    if isinstance(reply, DiagnosisReply):
-        return diagnosis_message(reply)
-    if isinstance(reply, SuspectsReply):
-        return suspects_message(reply)
-    if isinstance(reply, HistoryReply):
-        return history_message(reply)
-    if isinstance(reply, TreeReply):
-        return tree_message(reply)
-    if isinstance(reply, HelpReply):
-        lines = [f"\u2022 {line}" for line in help_lines(reply.command)]
-        return _message(words.HOW_TO_USE, _sections(lines, title=words.HELP_TITLE))
-    if isinstance(reply, ModelReply):
-        text = card_text(reply.card)
-        return _message(
-            text.splitlines()[0], [_section(f"```{escape(_clip(text, MAX_SECTION - 6))}```")]
-        )
-    if isinstance(reply, ErrorReply):
-        lines = [f":x: {escape(reply.message)}"] + ([escape(reply.hint)] if reply.hint else [])
-        return _message(reply.message, _sections(lines))
-    if isinstance(reply, LabelReply):
-        where = f"`{escape(reply.device)} {escape(reply.port)}`"
-        said = label_recorded(
-            _person(reply.user),
-            reply.verdict,
-            reply.model_verdict,
-            where,
-            "",
-            replaced=reply.replaced,
-            disputed_with=reply.disputed_with,
-        )
-        blocks = [_section(":white_check_mark: " + said)]
-        if reply.note:
-            blocks.append(_context(words.found_note(reply.note), plain=True))
-        return _message(words.recorded_fallback(reply.verdict, reply.device, reply.port), blocks)
-    assert isinstance(reply, LabelRefused)
-    return _message(reply.message, [_section(escape(reply.message))])
+    match reply:
+        case DiagnosisReply():
+            return diagnosis_message(reply)
+        case SuspectsReply():
+            return suspects_message(reply)
+        case HistoryReply():
+            return history_message(reply)
+        case TreeReply():
+            return tree_message(reply)
+        case HelpReply():
+            lines = [f"\u2022 {line}" for line in help_lines(reply.command, reply.forms)]
+            return _message(words.HOW_TO_USE, _sections(lines, title=words.HELP_TITLE))
+        case ModelReply():
+            text = card_text(reply.card)
+            return _message(
+                text.splitlines()[0], [_section(f"```{escape(_clip(text, MAX_SECTION - 6))}```")]
+            )
+        case ErrorReply():
+            lines = [f":x: {escape(reply.message)}"] + ([escape(reply.hint)] if reply.hint else [])
+            return _message(reply.message, _sections(lines))
+        case LabelReply():
+            return _label_message(reply)
+        case LabelRefused():
+            return _message(reply.message, [_section(escape(reply.message))])
+        case _:
+            assert_never(reply)
+
+
+def _label_message(reply: LabelReply) -> dict[str, Any]:
+    """A stored label, said in the answer's thread."""
+    where = f"`{escape(reply.device)} {escape(reply.port)}`"
+    said = label_recorded(
+        _person(reply.user),
+        reply.verdict,
+        reply.model_verdict,
+        where,
+        "",
+        replaced=reply.replaced,
+        disputed_with=reply.disputed_with,
+    )
+    blocks = [_section(":white_check_mark: " + said)]
+    if reply.note:
+        blocks.append(_context(words.found_note(reply.note), plain=True))
+    return _message(words.recorded_fallback(reply.verdict, reply.device, reply.port), blocks)

@@ -159,9 +159,11 @@ class SuspectsReply:
 
 @dataclass(frozen=True, slots=True)
 class HelpReply:
-    """How to talk to the bot."""
+    """How to talk to the bot: every command as it is typed and what it does, spelt as
+    commands start where help was asked for (``command``; "" at the console)."""
 
     command: str
+    forms: tuple[tuple[str, str], ...]
     visibility: Visibility = "ephemeral"
 
 

@@ -6,7 +6,7 @@ from __future__ import annotations
 import textwrap
 from collections.abc import Sequence
 from datetime import UTC, datetime
-from typing import IO
+from typing import IO, assert_never
 
 from linktriage.engine.diagnosis.batch import DiagnosisBatch, headline
 from linktriage.engine.format.answers import DiagnosisRecord
@@ -21,6 +21,7 @@ from linktriage.render.replies import (
     HelpReply,
     HistoryPoint,
     HistoryReply,
+    LabelRefused,
     LabelReply,
     ModelReply,
     Reply,
@@ -209,30 +210,34 @@ def tree_text(reply: TreeReply) -> str:
 
 def render(reply: Reply) -> str:
     """Any reply as text."""
-    if isinstance(reply, DiagnosisReply):
-        where = words.serves_at(reply.serves, reply.site) + "\n" if reply.serves else ""
-        return where + explanation(reply.record)
-    if isinstance(reply, SuspectsReply):
-        return suspects_text(reply)
-    if isinstance(reply, HistoryReply):
-        return history_text(reply)
-    if isinstance(reply, TreeReply):
-        return tree_text(reply)
-    if isinstance(reply, HelpReply):
-        return "\n".join(f"- {line}" for line in help_lines(reply.command))
-    if isinstance(reply, ModelReply):
-        return card_text(reply.card)
-    if isinstance(reply, ErrorReply):
-        return reply.message if reply.hint is None else f"{reply.message}\n{reply.hint}"
-    if isinstance(reply, LabelReply):
-        where = f"{reply.device} {reply.port}"
-        return label_recorded(
-            reply.user,
-            reply.verdict,
-            reply.model_verdict,
-            where,
-            reply.note,
-            replaced=reply.replaced,
-            disputed_with=reply.disputed_with,
-        )
-    return reply.message
+    match reply:
+        case DiagnosisReply():
+            where = words.serves_at(reply.serves, reply.site) + "\n" if reply.serves else ""
+            return where + explanation(reply.record)
+        case SuspectsReply():
+            return suspects_text(reply)
+        case HistoryReply():
+            return history_text(reply)
+        case TreeReply():
+            return tree_text(reply)
+        case HelpReply():
+            return "\n".join(f"- {line}" for line in help_lines(reply.command, reply.forms))
+        case ModelReply():
+            return card_text(reply.card)
+        case ErrorReply():
+            return reply.message if reply.hint is None else f"{reply.message}\n{reply.hint}"
+        case LabelReply():
+            where = f"{reply.device} {reply.port}"
+            return label_recorded(
+                reply.user,
+                reply.verdict,
+                reply.model_verdict,
+                where,
+                reply.note,
+                replaced=reply.replaced,
+                disputed_with=reply.disputed_with,
+            )
+        case LabelRefused():
+            return reply.message
+        case _:
+            assert_never(reply)

@@ -130,28 +130,21 @@ def ports_not_judged(not_judged: Mapping[str, int]) -> str:
 
 
 # --- chat
-def _form(command: str, rest: str) -> str:
+def spelt(command: str, rest: str) -> str:
     """A command as typed where ``command`` is how it starts ("/triage"; "" at a prompt)."""
     return f"`{command} {rest}`" if command else f"`{rest}`"
 
 
-def help_lines(command: str) -> list[str]:
-    """What the bot's help says, one line each; at a prompt (no ``command``) the forms are
-    shown as typed there, and where the command's name goes in Slack."""
-    lines = [
-        f"{_form(command, 'DEVICE PORT')}: diagnose one port now (a unique part of the device "
-        "name will do).",
-        f"{_form(command, 'history DEVICE PORT [SINCE]')}: the port's verdicts, errors, "
-        "discards and load over time from the stored polls (since 24h unless told, e.g. 6h, "
-        "3d), with a chart in the thread.",
-        f"{_form(command, 'tree DEVICE PORT')}: the port diagnosed now, with a picture of the "
-        "tree and its path marked.",
-        f"{_form(command, 'suspects [SITE]')}: the suspect links, worst first.",
-        f"{_form(command, 'model')}: the model's card.",
+def help_lines(command: str, forms: Sequence[tuple[str, str]]) -> list[str]:
+    """What the bot's help says, one line each: every command (``forms``: how it is typed,
+    what it does) and how to report what was found; at a prompt (no ``command``) the forms
+    are shown as typed there, and where the command's name goes in Slack."""
+    lines = [f"{spelt(command, form)}: {does}" for form, does in forms]
+    lines.append(
         "Reply in the thread of an answer with what you found, e.g. "
         "`cable_fault, crushed patch cord behind the desk`, or `confirmed`; in a digest's "
-        "thread start with the link's number: `3: duplex forced on the printer`.",
-    ]
+        "thread start with the link's number: `3: duplex forced on the printer`."
+    )
     if not command:
         lines.append("In Slack, type them after `/triage` or a mention of the bot.")
     return lines
@@ -205,12 +198,9 @@ def label_recorded(
 
 
 # --- the bot
-def usage(command: str) -> str:
-    forms = [
-        _form(command, rest)
-        for rest in ("DEVICE PORT", "history DEVICE PORT [SINCE]", "suspects [SITE]", "help")
-    ]
-    return f"Try {forms[0]}, {forms[1]}, {forms[2]}, or {forms[3]}."
+def usage(forms: Sequence[str]) -> str:
+    """ "Try `a`, `b`, or `c`.", from every command as typed."""
+    return f"Try {', '.join(forms[:-1])}, or {forms[-1]}."
 
 
 SUSPECTS_TAKES_ONE_SITE = "`suspects` takes at most one site."

@@ -18,7 +18,7 @@ from __future__ import annotations
 import logging
 import uuid
 from collections import OrderedDict
-from typing import Any
+from typing import Any, assert_never
 
 from slack_bolt import Ack, App, BoltContext, Respond
 from slack_sdk import WebClient
@@ -27,9 +27,12 @@ from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
 
 from linktriage.bot.commands import (
     COMMAND,
+    Command,
     DiagnosePort,
     ListSuspects,
+    ShowHelp,
     ShowHistory,
+    ShowModel,
     ShowTree,
 )
 from linktriage.bot.triage import Triage
@@ -80,6 +83,18 @@ def upload_pictures(client: WebClient, channel: str, ts: str, reply: Reply) -> N
         except SlackClientError as exc:
             error = exc.response.get("error") if isinstance(exc, SlackApiError) else exc
             log.warning("could not upload %s to %s: %s", picture.filename, channel, error)
+
+
+def answered_later(command: Command) -> bool:
+    """Whether a command's answer needs polls (or a sweep), so it follows Slack's
+    acknowledgement instead of being the acknowledgement (which must come within 3 s)."""
+    match command:
+        case DiagnosePort() | ShowHistory() | ShowTree() | ListSuspects():
+            return True
+        case ShowModel() | ShowHelp():
+            return False
+        case _:
+            assert_never(command)
 
 
 def web_client(settings: Settings) -> WebClient:
@@ -141,9 +156,7 @@ def build_app(
         """Whether a command needs polls, so its answer comes after the acknowledgement;
         its names are checked first (no polling), so a wrong one is answered at once."""
         try:
-            return isinstance(
-                triage.settle(text), DiagnosePort | ShowHistory | ShowTree | ListSuspects
-            )
+            return answered_later(triage.settle(text))
         except LinktriageError:
             return False  # answered at once, with the reason
 

@@ -5,8 +5,9 @@ described by *parameters* (one row of a DataFrame: speed, medium, load, frame si
 error ratio, collision and discard ratios, optical readings, which counters the device
 reports), drawn within a set of :class:`~.ports.Ranges` (:mod:`.ports`) and turned into a
 fault by each verdict's own signature (its module under ``engine/verdicts/``); then
-:mod:`.polled` turns parameters into cumulative counters at two or three polls, exactly as a poller would read them: Counter32 values modulo 2^32, Counter64
-modulo 2^64, random starting values, missing counter groups left out rather than zeroed.
+:mod:`.polled` turns parameters into cumulative counters at two or three polls, exactly as
+a poller would read them: Counter32 values modulo 2^32, Counter64 modulo 2^64, random
+starting values, missing counter groups left out rather than zeroed.
 
 Physics used:
 
@@ -35,7 +36,7 @@ single flap, a burst of a few errors after a re-seat, light comfortably in range
 Faults range from the detection limit (a few times the objective, a few dozen events) to
 the blatant.
 
-:data:`~.ports.TRAINING` holds the ranges of the packaged model's prior; :data:`~.ports.SHIFTED` moves
-every range and nuisance mix outside them, to test that the verdicts do not follow the
-prior's particulars.
+:data:`~.ports.TRAINING` holds the ranges of the packaged model's prior;
+:data:`~.ports.SHIFTED` moves every range and nuisance mix outside them, to test that the
+verdicts do not follow the prior's particulars.
 """
