@@ -45,9 +45,38 @@ def test_diagnose_reports_bad_lines_on_stderr_and_goes_on(snapshots: Path) -> No
     path = snapshots / "bad-lines.jsonl"
     code, out, err = run("diagnose", "--snapshots", str(path))
     assert code == 0
-    assert f"{path}:2: skipped: time: Input should have timezone info" in err
+    assert f"{path}:2: skipped: time: expected a time with its zone (Z, or an offset" in err
     assert "8 lines skipped" in err
     assert "lark-east-idf2" in out
+
+
+@pytest.mark.parametrize("as_json", [False, True])
+@pytest.mark.parametrize(
+    ("text", "why"),
+    [("[1, 2]\nnot json\n", "its 2 lines were all skipped"), ("", "it holds no line")],
+)
+def test_a_file_with_no_usable_line_draws_nothing_and_exits_four(
+    tmp_path: Path, text: str, why: str, as_json: bool
+) -> None:
+    path = tmp_path / "lines.jsonl"
+    path.write_text(text)
+    code, out, err = run("diagnose", "--snapshots", str(path), *(["--json"] if as_json else []))
+    assert (code, out) == (4, "")  # no empty table: nothing was read
+    assert f"Nothing to diagnose in {path}: {why}." in err
+
+
+def test_a_device_set_up_wrongly_is_named_once_with_what_is_wrong(tmp_path: Path) -> None:
+    inventory = tmp_path / "inventory.toml"
+    inventory.write_text(
+        '[[devices]]\nname = "lark-core9"\nsite = "central"\ncollector = "snmp"\n'
+        'address = "192.0.2.9"\noptions = { version = "v4", port = "abc" }\n'
+    )
+    code, out, _ = run("inventory", "check", "--inventory", str(inventory))
+    assert code == 1
+    (line,) = [text for text in out.splitlines() if "lark-core9" in text]
+    assert line.count("lark-core9") == 1
+    assert "options.version: expected '2c' or '3', got 'v4'" in line
+    assert "options.port: expected a whole number, got 'abc'" in line
 
 
 def test_diagnose_suspects_lists_only_faults(snapshots: Path) -> None:

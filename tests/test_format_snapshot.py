@@ -37,11 +37,20 @@ def test_bad_lines_are_reported_with_their_numbers_and_good_lines_kept(snapshots
     result = read_snapshot_file(snapshots / "bad-lines.jsonl")
     assert [p.line for p in result.problems] == [2, 3, 5, 6, 7, 8, 10, 11]
     messages = {p.line: p.message for p in result.problems}
-    assert "timezone" in messages[2]  # RFC 3339 times carry Z or an offset
-    assert "Invalid JSON" in messages[3]
-    assert messages[5].startswith("counters.ifHCInOctets")
-    assert messages[8] == "counters.ifInErrors: a Counter32 cannot exceed 4294967295 (RFC 2578)"
-    assert messages[11] == "counters: Field required"
+    # Which field, what was expected, what was found: in the product's words, never the
+    # validating library's ("Input should ...", "Field required", "Invalid JSON").
+    assert messages == {
+        2: "time: expected a time with its zone (Z, or an offset such as +01:00), got "
+        "'2026-03-02T08:02:30'",  # RFC 3339 times carry Z or an offset
+        3: "not valid JSON: it ends before its value is complete",
+        5: "counters.ifHCInOctets: expected 0 or more, got -5",
+        6: "counters.ifInErrors: expected a whole number, got 12.5",
+        7: "oper_status: expected 'up', 'down', 'testing', 'dormant', 'notPresent', "
+        "'lowerLayerDown' or 'unknown', got 'flapping'",  # RFC 2863 ifOperStatus
+        8: "counters.ifInErrors: a Counter32 cannot exceed 4294967295 (RFC 2578)",
+        10: "expected an object, got a list",
+        11: "counters: required, but missing",
+    }
     assert len(result.polls) == 3  # lines 1, 9 and 12; line 4 is blank
 
 

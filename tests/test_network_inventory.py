@@ -54,7 +54,7 @@ DEVICE = '[[devices]]\nname = "{name}"\nsite = "s"\ncollector = "demo"\n'
 @pytest.mark.parametrize(
     ("text", "complaint"),
     [
-        (DEVICE.format(name="a") + "port = 1\n", "devices.0.port: Extra inputs"),
+        (DEVICE.format(name="a") + "port = 1\n", "devices.0.port: not known here"),
         (DEVICE.format(name="bad name!"), "devices.0.name"),
         (DEVICE.format(name="a") + DEVICE.format(name="A"), "listed twice"),
         ("[[devices]\n", "is not valid TOML"),

@@ -487,7 +487,7 @@ def test_metric_and_label_names_are_configurable_per_device(api: CannedApi) -> N
         ({"port_label": "if-name"}, "not a Prometheus label name"),
         ({"metrics": {"ifInOctetz": "x"}}, "not a counter or state object"),
         ({"metrics": {"ifInOctets": "in octets"}}, "not a Prometheus metric name"),
-        ({"server": "prom:9090"}, "server: String should match"),
+        ({"server": "prom:9090"}, "server: expected an http:// or https:// URL, got 'prom:9090'"),
     ],
 )
 def test_bad_options_are_refused_before_anything_is_sent(

@@ -11,6 +11,7 @@ drawing to the classes).
     │   ├── CommandError             chat text that is not a command (the hint: how to ask)
     │   ├── ConfigError              settings that cannot be used (every problem listed)
     │   ├── InventoryError           an inventory that cannot be used (what is wrong)
+    │   │   └── DeviceSetupError         one device's entry cannot be read as set up (which, why)
     │   └── UnknownCollectorError    no collector registered under that name (the ones that are)
     ├── PollError                a device could not be read; names the device
     │   └── CollectorError           ... as its collector found
@@ -96,6 +97,17 @@ class ConfigError(InputError):
 
 class InventoryError(InputError):
     """The inventory cannot be used; the message lists what is wrong."""
+
+
+class DeviceSetupError(InventoryError):
+    """One device of the inventory cannot be read as it is set up (no address for a
+    collector that needs one, options its collector does not take); ``problem`` says why
+    without the device's name, for lines that name the device already."""
+
+    def __init__(self, device: str, problem: str) -> None:
+        super().__init__(f"{device}: {problem}")
+        self.device = device
+        self.problem = problem
 
 
 class UnknownCollectorError(InputError, LookupError):

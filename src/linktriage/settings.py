@@ -33,6 +33,7 @@ from pydantic_settings import (
     TomlConfigSettingsSource,
 )
 
+from linktriage import invalid
 from linktriage.errors import ConfigError
 from linktriage.paths import data_dir
 
@@ -213,10 +214,7 @@ def load_settings(path: str | Path | None = None) -> Settings:
     try:
         return FromFile()
     except ValidationError as exc:
-        problems = "; ".join(
-            f"{'.'.join(str(p) for p in e['loc']) or 'config'}: {e['msg']}" for e in exc.errors()
-        )
         where = source or "the environment"
-        raise ConfigError(f"Bad settings in {where}: {problems}") from exc
+        raise ConfigError(f"Bad settings in {where}: {'; '.join(invalid.problems(exc))}") from exc
     except ValueError as exc:  # the TOML itself does not parse
-        raise ConfigError(f"{source} is not valid TOML: {exc}") from exc
+        raise ConfigError(f"{source} is {invalid.not_toml(exc)}") from exc

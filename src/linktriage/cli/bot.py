@@ -9,9 +9,9 @@ from typing import TYPE_CHECKING
 
 import click
 
+from linktriage.cli import words
 from linktriage.cli.options import config_option, model_option
 from linktriage.errors import LinktriageError
-from linktriage.render import words
 
 if TYPE_CHECKING:
     from linktriage.settings import Settings

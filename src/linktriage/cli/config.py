@@ -7,10 +7,10 @@ from pathlib import Path
 
 import click
 
+from linktriage.cli import words
 from linktriage.cli.bot import slack_problems
 from linktriage.cli.options import config_option
 from linktriage.errors import LinktriageError
-from linktriage.render import words
 
 
 @click.group()

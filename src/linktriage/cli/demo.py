@@ -6,8 +6,8 @@ from pathlib import Path
 
 import click
 
+from linktriage.cli import words
 from linktriage.cli.options import model_option
-from linktriage.render import words
 
 #: The port whose history the demo shows: its cable fault began during the morning.
 _HISTORY_OF = ("lark-east-idf2", "port14")

@@ -7,8 +7,9 @@ from pathlib import Path
 
 import click
 
+from linktriage.cli import words
 from linktriage.cli.options import config_option, inventory_option, model_option, read_exit
-from linktriage.render import words
+from linktriage.render.words import port_said
 
 
 @click.group()
@@ -129,7 +130,7 @@ def collect(
                 click.echo(words.device_said(name, gathered.failed[name]), err=True)
                 continue
             for (_, port), problem in gathered.problems.items():
-                click.echo(words.port_said(name, port, problem), err=True)
+                click.echo(port_said(name, port, problem), err=True)
             written += write_snapshots(iter_snapshots(gathered.tables[name]), stream)
     finally:
         if stream is not sys.stdout:

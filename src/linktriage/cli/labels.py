@@ -9,8 +9,8 @@ from pathlib import Path
 
 import click
 
+from linktriage.cli import words
 from linktriage.cli.options import config_option
-from linktriage.render import words
 
 
 @click.group(invoke_without_command=True)

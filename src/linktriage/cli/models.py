@@ -7,8 +7,8 @@ from pathlib import Path
 
 import click
 
+from linktriage.cli import words
 from linktriage.cli.options import config_option, model_option
-from linktriage.render import words
 
 
 @click.command()

@@ -9,8 +9,8 @@ from typing import TYPE_CHECKING, Any, TypeVar
 
 import click
 
+from linktriage.cli import words
 from linktriage.errors import LinktriageError
-from linktriage.render import words
 
 if TYPE_CHECKING:
     from linktriage.render.replies import Reply
@@ -85,7 +85,8 @@ def write_plot(path: Path, reply: Reply) -> None:
 
 
 #: Exit codes of the commands that read devices (sweep, collect, inventory check --reach):
-#: every device read, some not read (the rest were), nothing read. 1 is an error of
+#: every device read, some not read (the rest were), nothing read; diagnose exits with the
+#: last where a file holds no usable line. 1 is an error of
 #: linktriage's own (a bad file or setting), 2 a wrong command line.
 READ_ALL, READ_SOME, READ_NONE = 0, 3, 4
 

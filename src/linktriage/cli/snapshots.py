@@ -9,7 +9,9 @@ from typing import TYPE_CHECKING
 
 import click
 
+from linktriage.cli import words
 from linktriage.cli.options import (
+    READ_NONE,
     config_option,
     inventory_option,
     model_option,
@@ -17,7 +19,6 @@ from linktriage.cli.options import (
     write_plot,
 )
 from linktriage.engine.verdicts import FAULTS
-from linktriage.render import words
 
 if TYPE_CHECKING:
     from linktriage.render.replies import TreeReply
@@ -48,7 +49,8 @@ def diagnose(
     """Diagnose every port in a snapshot file.
 
     Lines that do not parse or fail validation are reported on standard error with their
-    line numbers and skipped; the rest of the file is still diagnosed.
+    line numbers and skipped; the rest of the file is still diagnosed. A file with no
+    usable line exits 4.
     """
     from linktriage.engine.diagnosis.loaded_model import Model
     from linktriage.engine.diagnosis.pipeline import diagnose, diagnose_chunks
@@ -59,6 +61,9 @@ def diagnose(
     result = read_snapshot_file(path)
     for problem in result.problems:
         click.echo(words.line_skipped(path, problem.line, problem.message), err=True)
+    if not len(result.polls):  # nothing to diagnose: no empty table, and say so
+        click.echo(words.no_usable_line(path, len(result.problems)), err=True)
+        sys.exit(READ_NONE)
     # JSON Lines go out a chunk of ports at a time; the text table sizes its columns to
     # every row, so it is drawn whole.
     batches = (

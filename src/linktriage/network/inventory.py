@@ -31,7 +31,8 @@ from typing import Any
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-from linktriage.errors import InventoryError, LinktriageError
+from linktriage import invalid
+from linktriage.errors import DeviceSetupError, InventoryError, LinktriageError
 from linktriage.network.collectors.base import Collector, Target, collector_class
 
 
@@ -101,14 +102,12 @@ def load_inventory(path: str | Path) -> Inventory:
     except OSError as exc:
         raise InventoryError(f"Cannot read the inventory {source}: {exc.strerror}") from exc
     except tomllib.TOMLDecodeError as exc:
-        raise InventoryError(f"{source} is not valid TOML: {exc}") from exc
+        raise InventoryError(f"{source} is {invalid.not_toml(exc)}") from exc
     try:
         return Inventory.model_validate(data)
     except ValidationError as exc:
-        problems = "; ".join(
-            f"{'.'.join(str(p) for p in e['loc']) or 'inventory'}: {e['msg']}" for e in exc.errors()
-        )
-        raise InventoryError(f"Bad inventory {source}: {problems}") from exc
+        said = "; ".join(invalid.problems(exc))
+        raise InventoryError(f"Bad inventory {source}: {said}") from exc
 
 
 def problems(inventory: Inventory) -> dict[str, str]:
@@ -120,6 +119,8 @@ def problems(inventory: Inventory) -> dict[str, str]:
             collector = inventory.collector(device)
             for secret in _secrets(collector.options):
                 secret.reveal()
+        except DeviceSetupError as exc:
+            found[device.name] = exc.problem  # the device's line names it already
         except LinktriageError as exc:
             found[device.name] = exc.render()
     return found

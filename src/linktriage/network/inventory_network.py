@@ -19,7 +19,13 @@ from typing import Any, TypeVar
 
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.format.snapshot import polls_of
-from linktriage.errors import CollectorError, LinktriageError, PollError, UnknownPortError
+from linktriage.errors import (
+    CollectorError,
+    DeviceSetupError,
+    LinktriageError,
+    PollError,
+    UnknownPortError,
+)
 from linktriage.network.collectors.base import Collector, HistoryCollector, Reading
 from linktriage.network.inventory import DeviceEntry, Inventory
 from linktriage.network.watched import Gathered, Network, PortRef
@@ -94,6 +100,13 @@ class InventoryNetwork(Network):
             collector = self._collectors[device.name] = self.inventory.collector(device)
         return collector
 
+    def _built(self, device: DeviceEntry) -> Collector[Any] | None:
+        """The device's collector, or None where its entry cannot make one."""
+        try:
+            return self._collector(device)
+        except DeviceSetupError:
+            return None
+
     def unlisted(self) -> dict[str, str]:
         self.discover()
         return dict(self._unlisted)
@@ -118,7 +131,10 @@ class InventoryNetwork(Network):
         ]
 
         async def list_one(device: DeviceEntry) -> tuple[str, list[str] | str]:
-            collector = self._collector(device)
+            try:
+                collector = self._collector(device)
+            except DeviceSetupError as exc:  # this device alone cannot be read
+                return device.name, exc.problem
             limit = deadline_s(collector.target.timeout_s, collector.target.retries)
             try:
                 return device.name, await asyncio.wait_for(collector.ports(), limit)
@@ -183,7 +199,7 @@ class InventoryNetwork(Network):
         keeping = {
             name: ports
             for name, ports in wanted.items()
-            if isinstance(self._collector(self._entry(name)), HistoryCollector)
+            if isinstance(self._built(self._entry(name)), HistoryCollector)
         }
         now = self.clock()
 
@@ -205,7 +221,11 @@ class InventoryNetwork(Network):
 
         async def read_one(name: str) -> None:
             entry = entries[name]
-            collector = self._collector(entry)
+            try:
+                collector = self._collector(entry)
+            except DeviceSetupError as exc:  # this device alone cannot be read
+                gathered.failed[name] = exc.problem
+                return
             ports = wanted[name] if wanted[name] is not None else entry.ports
             limit = deadline_s(collector.target.timeout_s, collector.target.retries)
             try:

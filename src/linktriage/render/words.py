@@ -1,9 +1,11 @@
-"""Every word the bot and the command line say around a diagnosis, one function or
-constant per idea, so the wording can be read and reviewed as text.
+"""Every word the bot says around a diagnosis (and the command line draws alike), one
+function or constant per idea, so the wording can be read and reviewed as text.
 
-The words inside a diagnosis record (questions, evidence, checks) are the engine's, in
-:mod:`linktriage.engine.model.questions`, :mod:`linktriage.engine.evidence` and
-:mod:`linktriage.engine.verdicts`.
+The words inside a diagnosis record (questions, evidence, checks) are the engine's: the
+tree's questions in :mod:`linktriage.engine.model.questions`, each verdict's in its module
+under :mod:`linktriage.engine.verdicts`. The command line's and the demo's own words are in
+:mod:`linktriage.cli.words`; what was wrong with a file or a setting, in
+:mod:`linktriage.invalid`.
 """
 
 from __future__ import annotations
@@ -15,8 +17,7 @@ from typing import TYPE_CHECKING, Any
 from linktriage.printable import printable
 
 if TYPE_CHECKING:
-    from linktriage.engine.model.labels import Label
-    from linktriage.store import StoreState
+    pass
 
 
 # --- a diagnosis, as drawn
@@ -323,10 +324,6 @@ def cannot_start(why: str) -> str:
     return f"Cannot start: {why}"
 
 
-def cannot_start_missing(missing: list[str]) -> str:
-    return cannot_start("; ".join(missing) + ".")
-
-
 def slack_unreachable(url: str, reason: object) -> str:
     return cannot_start(f"Slack's Web API at {url} did not answer ({reason}).")
 
@@ -344,203 +341,6 @@ def listening(host: str, port: int) -> str:
 
 
 CONNECTING_SOCKET_MODE = "linktriage: connecting to Slack in Socket Mode"
-BOT_TOKEN_UNSET = "SLACK_BOT_TOKEN is not set: the bot cannot post"
-APP_TOKEN_UNSET = "SLACK_APP_TOKEN is not set: Socket Mode needs an app-level token"
-SIGNING_SECRET_MISSING = "SLACK_SIGNING_SECRET is not set: HTTP mode cannot verify requests"
-CHANNEL_UNSET = "[slack] channel is not set: digests have nowhere to go"
-
-
-# --- the command line
-def cli_error(rendered: str) -> str:
-    return f"linktriage: {rendered}"
-
-
-def line_skipped(path: object, line: int, why: str) -> str:
-    return f"{path}:{line}: skipped: {why}"
-
-
-def diagnosed(snapshots: int, ports: int, skipped: int) -> str:
-    return (
-        f"{plural(snapshots, 'snapshot')} of {plural(ports, 'port')} diagnosed; "
-        f"{plural(skipped, 'line')} skipped"
-    )
-
-
-def training_starts(ports: int, seed: int, folds: int) -> str:
-    return (
-        f"simulating {plural(ports, 'port')} (seed {seed}) and choosing the pruning "
-        f"level by {folds}-fold cross-validation..."
-    )
-
-
-def learnt(
-    trained_on: int,
-    older: int,
-    disputed: int,
-    held_out: int,
-    candidate_score: float,
-    current_version: str,
-    current_score: float,
-    promoted: bool,
-) -> str:
-    """What training with labels learnt, and whether the candidate replaced the model."""
-    return (
-        f"learnt from {plural(trained_on, 'label')}"
-        + (f" ({plural(older, 'older one')} left out)" if older else "")
-        + (f" ({plural(disputed, 'answer')} held out: their labels disagree)" if disputed else "")
-        + f"; on {held_out} held out the candidate scores {candidate_score:.2f}, the current "
-        f"model {current_version} {current_score:.2f}: "
-        + ("promoted" if promoted else "kept, not promoted")
-    )
-
-
-def kept_model_source(promoted: bool) -> str:
-    return "the current kept model" if promoted else "kept, not current"
-
-
-def kept_version(version: str, labelled_rows: int, *, current: bool) -> str:
-    return f"  {'*' if current else ' '} kept {version}: {plural(labelled_rows, 'label')}"
-
-
-def device_setup(
-    name: str, site: str, collector: str, address: str | None, ports: int | None, state: str
-) -> str:
-    listed = f"{plural(ports, 'port')} listed" if ports is not None else "all ports"
-    return f"{name} ({site}): {collector} at {address or '-'}, {listed}: {state}"
-
-
-def set_up_wrongly(bad: int, total: int) -> str:
-    return f"{bad:,} of {total:,} devices {'is' if bad == 1 else 'are'} set up wrongly"
-
-
-def devices_ok(total: int) -> str:
-    return f"{plural(total, 'device')} ok"
-
-
-def does_not_answer(device: str, why: str) -> str:
-    return f"{device}: does not answer: {why}"
-
-
-def answers_in(device: str, seconds: float, ports: int) -> str:
-    return f"{device}: answers in {seconds:.2f} s with {plural(ports, 'port')}"
-
-
-def cannot_be_read(unread: int, total: int) -> str:
-    return f"{unread} of {total} devices cannot be read"
-
-
-def device_said(device: str, why: str) -> str:
-    return f"{device}: {why}"
-
-
-def port_said(device: str, port: str, why: str) -> str:
-    return f"{device} {port}: {why}"
-
-
-def wrote_snapshots(written: int, device: str, polls: int) -> str:
-    return f"wrote {plural(written, 'snapshot')} of {device} in {plural(polls, 'poll')}"
-
-
-def settings_from(source: object) -> str:
-    return f"settings from {source or 'built-in defaults'} and the environment"
-
-
-def settings_section(section: str, values: Mapping[str, object]) -> str:
-    return f"[{section}] " + ", ".join(f"{k}={v!r}" for k, v in values.items())
-
-
-def secret_presence(name: str, present: bool) -> str:
-    return f"{name.upper()}: {'set' if present else 'not set'}"
-
-
-def slack_api(url: str) -> str:
-    return f"Slack Web API: {url}"
-
-
-def store_state(state: StoreState, keep_h: float) -> str:
-    """What the store is and holds, for `config check`."""
-    if not state.created:
-        return f"store: {state.url}, not created yet (it is created on first use)"
-    if state.version is None:
-        return f"store: {state.url}, empty (its tables are created on first use)"
-    parts = [f"store: {state.url}, schema version {state.version}"]
-    if state.size_bytes is not None:
-        parts.append(f"{state.size_bytes / 1e6:,.1f} MB")
-    history = state.history
-    if history is not None and history.oldest is not None and history.newest is not None:
-        parts.append(
-            f"{plural(history.ports, 'port poll')} from {_utc(history.oldest)} to "
-            f"{_utc(history.newest)}"
-        )
-    elif history is not None:
-        parts.append("no polls yet")
-    parts.append(f"polls kept {keep_h:g} h")
-    return "; ".join(parts)
-
-
-def _utc(at: float) -> str:
-    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
-
-
-def inventory_missing(path: object) -> str:
-    return f"the inventory file {path} does not exist"
-
-
-def inventory_state(path: object, devices: int) -> str:
-    return f"inventory: {path}, {plural(devices, 'device')}"
-
-
-def settings_warning(warning: str) -> str:
-    return f"warning: {warning} (only `serve` needs it)"
-
-
-def settings_problem(problem: str) -> str:
-    return f"problem: {problem}"
-
-
-SETTINGS_USABLE = "settings are usable"
-
-
-def labels_summary(total: int, kept: int, replaced: int, disputed: int, answers: int) -> str:
-    return (
-        f"{plural(total, 'label')}: {kept:,} counting, {replaced:,} replaced by their author's "
-        f"later one, {disputed:,} on {plural(answers, 'disputed answer')}"
-    )
-
-
-#: Where a label was given, by its source (``{channel}`` is filled in).
-LABEL_GIVEN = {
-    "thread": "in a thread in {channel}",
-    "button": "with a button in {channel}",
-    "console": "at the console",
-}
-
-
-def label_line(label: Label, standing: str) -> str:
-    """One label in the list: when (local time), the port, what was found against what the
-    answer said, which answer, who, where, whether it counts, and the note."""
-    agreed = (
-        "as answered" if label.verdict == label.model_verdict else f"answered {label.model_verdict}"
-    )
-    channel = printable(label.channel or "an unknown channel")
-    where = LABEL_GIVEN.get(label.source, f"by {label.source} in {{channel}}").format(
-        channel=channel
-    )
-    note = f": {printable(label.note)}" if label.note else ""
-    return (
-        f"{label.id:>4}  {_local(label.at)}  {printable(label.device)} {printable(label.port)}: "
-        f"{label.verdict} ({agreed}), on answer {label.diagnosis_id}, by "
-        f"{printable(label.user_id)} {where} [{standing}]{note}"
-    )
-
-
-def _local(at: float) -> str:
-    """A moment in the machine's local time, its zone named."""
-    return datetime.fromtimestamp(at).astimezone().strftime("%Y-%m-%d %H:%M %Z")
-
-
-def wrote_rows(rows: int, path: object) -> str:
-    return f"wrote {plural(rows, 'labelled row')} to {path}"
 
 
 # --- a port's history
@@ -585,6 +385,10 @@ def run_line(verdict: str, start: float, end: float, windows: int) -> str:
     return f"{day_and_time(start)} to {clock_time(end)}: {verdict} ({plural(windows, 'window')})"
 
 
+def port_said(device: str, port: str, why: str) -> str:
+    return f"{device} {port}: {why}"
+
+
 def history_fallback(device: str, port: str, summary: str) -> str:
     return port_said(device, port, summary)
 
@@ -602,8 +406,6 @@ def tree_guarded(verdict: str) -> str:
 
 
 TREE_IN_THREAD = "Picture of the tree with this port's path marked in the thread."
-CHART_TITLE = "Errors, discards and load"
-TREE_PICTURE_TITLE = "The tree's path"
 CHART_BER = "Bit error ratio"
 CHART_FER = "Frame error ratio"
 CHART_OBJECTIVE = "IEEE 802.3 objective"
@@ -615,17 +417,6 @@ CHART_OUT = "out (sent)"
 CHART_TIME = "time (UTC)"
 CHART_PATH = "the path taken"
 CHART_OTHER = "branches not taken"
-
-
-NO_PICTURE = "No picture written: a guard answered before the tree was asked."
-
-
-def wrote_picture(path: object) -> str:
-    return f"wrote {path}"
-
-
-def cannot_write(path: object, why: object) -> str:
-    return f"Cannot write {path}: {why}"
 
 
 def chart_alt(device: str, port: str, summary: str) -> str:
@@ -642,77 +433,6 @@ def tree_alt(device: str, port: str, verdict: str, questions: int) -> str:
         f"The decision tree with the path of {device} {port} marked: {questions} questions "
         f"leading to {verdict}."
     )
-
-
-# --- the demo
-RULE = "=" * 88
-
-
-def demo_intro(organisation: str, ports: int, devices: int, model_version: str) -> str:
-    return (
-        f"{organisation} (an invented organisation; simulated counters)\n"
-        f"{ports} ports on {devices} devices (switches and a printer), two polls five minutes "
-        f"apart, model {model_version}\n"
-    )
-
-
-def demo_needs_a_look(
-    healthy: int, suspects: int, suspect_ports: int, not_judged: Mapping[str, int]
-) -> str:
-    """The demo's count, in the digest's terms: suspect links (a link read from both ends
-    is one link of two ports), and ports not judged."""
-    parts = [plural(suspects, "suspect link")]
-    if suspect_ports != suspects:
-        parts[0] += f" ({suspect_ports} ports: both ends of a link count once)"
-    if any(not_judged.values()):
-        parts.append(ports_not_judged(not_judged))
-    look = suspect_ports + sum(not_judged.values())
-    return f"{plural(healthy, 'port')} healthy; the other {look:,} need a look: {', '.join(parts)}:"
-
-
-def demo_asks(device: str, port: str) -> str:
-    return f"\n{RULE}\n$ linktriage ask {device} {port}"
-
-
-def demo_serves(serves: str) -> str:
-    return f"({serves})\n"
-
-
-def demo_asks_history(device: str, port: str, since_s: float) -> str:
-    return (
-        f"\n{RULE}\nThe poll job polled every port every five minutes all morning.\n"
-        f"$ linktriage history {device} {port} --since {span(since_s).replace(' ', '')}"
-    )
-
-
-def demo_chart(path: object) -> str:
-    return f"  ...\nIts chart (what the bot posts in the answer's thread): {path}"
-
-
-DEMO_DIGEST = f"\n{RULE}\nThe digest, as posted to the team channel on weekday mornings:\n"
-
-
-def demo_reply(port: str) -> str:
-    """What the demo's engineer found on the digest's first link."""
-    return f"1: swapped fibres at the patch panel, {port} was one-way"
-
-
-def demo_engineer_replies(reply: str) -> str:
-    return f"\nAn engineer replies in the digest's thread:\n  > {reply}"
-
-
-def demo_stored(label: Label) -> str:
-    return (
-        f"Stored in SQLite: label {label.id}, {label.device} {label.port} = "
-        f"{label.verdict}, with the feature row the verdict was based on and model "
-        f"{label.model_version}; `linktriage train --with-labels` learns from it."
-    )
-
-
-DEMO_NEXT = (
-    f"\n{RULE}\nAsk about any other port: linktriage ask DEVICE PORT "
-    "(e.g. linktriage ask lark-core1 up3), or talk to the bot: linktriage chat."
-)
 
 
 # --- the drawers' headings and phrases (render/text.py and render/blocks.py)

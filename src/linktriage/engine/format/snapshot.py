@@ -17,6 +17,7 @@ import msgspec
 import numpy as np
 from pydantic import AwareDatetime, BaseModel, ConfigDict, Field, ValidationError
 
+from linktriage import invalid
 from linktriage.engine.format.counters import COLUMN_INDEX, COLUMNS, COUNTER32_MAX, COUNTER64_MAX
 from linktriage.engine.format.poll_table import OPTICS_FIELDS, PollTable
 from linktriage.errors import SnapshotFileError
@@ -144,12 +145,9 @@ class ReadResult:
 
 
 def describe_validation_error(exc: ValidationError) -> str:
-    """One short sentence per failed field, e.g. ``time: Input should be a valid datetime``."""
-    parts = []
-    for err in exc.errors(include_url=False):
-        where = ".".join(str(p) for p in err["loc"])
-        parts.append(f"{where}: {err['msg']}" if where else err["msg"])
-    return "; ".join(parts)
+    """One short sentence per failed field, which field and what was expected, e.g.
+    ``time: expected a time with its zone (Z, or an offset such as +01:00), got '...'``."""
+    return "; ".join(invalid.problems(exc))
 
 
 _DUPLEX = {"half": 1.0, "full": 0.0}

@@ -22,6 +22,7 @@ import numpy as np
 import numpy.typing as npt
 from pydantic import BaseModel, ConfigDict, ValidationError
 
+from linktriage import invalid
 from linktriage.errors import ModelError
 
 DEFAULT_MODEL_RESOURCE = "default.json"
@@ -125,7 +126,7 @@ class TreeArtefact(BaseModel):
                 ) from exc
             raise ModelError(
                 f"{origin} is not a linktriage model artefact "
-                f"({exc.error_count()} problems, first: {exc.errors()[0]['msg']})",
+                f"({exc.error_count()} problems, first: {invalid.problems(exc)[0]})",
                 hint="Rebuild it with `linktriage train`.",
             ) from exc
 

@@ -30,9 +30,11 @@ from typing import Any, ClassVar, Generic, TypeVar, cast, get_args, get_origin
 
 from pydantic import BaseModel, ConfigDict, ValidationError, model_validator
 
+from linktriage import invalid
 from linktriage.engine.format.snapshot import Snapshot
 from linktriage.errors import (
     CollectorError,
+    DeviceSetupError,
     DeviceTimeoutError,
     InputError,
     UnknownCollectorError,
@@ -144,16 +146,14 @@ class Collector(ABC, Generic[OptionsT]):
 
     def __init__(self, target: Target) -> None:
         if self.needs_address and not target.address:
-            raise InputError(f"{target.name}: this collector needs an address.")
+            raise DeviceSetupError(target.name, "this collector needs an address.")
         self.target = target
         try:
             # options_model is the type parameter, set by __init_subclass__
             self.options = cast(OptionsT, self.options_model.model_validate(target.options))
         except ValidationError as exc:
-            details = "; ".join(
-                f"{'.'.join(str(p) for p in e['loc'])}: {e['msg']}" for e in exc.errors()
-            )
-            raise InputError(f"{target.name}: bad collector options: {details}") from exc
+            said = "; ".join(f"options.{p}" for p in invalid.problems(exc))
+            raise DeviceSetupError(target.name, f"bad collector options: {said}") from exc
 
     @abstractmethod
     async def ports(self) -> list[str]:

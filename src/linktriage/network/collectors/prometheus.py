@@ -110,9 +110,13 @@ class QueryAnswer(msgspec.Struct):
 _decode_answer = msgspec.json.Decoder(QueryAnswer).decode
 
 
+#: A Prometheus server's base URL, path prefix included.
+_SERVER = re.compile(r"^https?://[^\s/]+(/\S*)?$")
+
+
 class PrometheusOptions(HttpOptions):
     #: The server's base URL, path prefix included (``http://prom.example:9090``).
-    server: Annotated[str, Field(pattern=r"^https?://[^\s/]+(/\S*)?$")]
+    server: str
     #: The device's value of ``device_label``; default: its address, else its name.
     instance: str | None = None
     device_label: str = "instance"
@@ -126,6 +130,13 @@ class PrometheusOptions(HttpOptions):
     #: How far back a read looks for the newest scrape; default two scrape intervals, so
     #: one scrape is always inside and little more is fetched than is kept.
     lookback_s: Annotated[float | None, Field(gt=0, le=86_400)] = None
+
+    @field_validator("server")
+    @classmethod
+    def _server(cls, url: str) -> str:
+        if not _SERVER.match(url):
+            raise ValueError(f"expected an http:// or https:// URL, got {url!r}")
+        return url
 
     @field_validator("device_label", "port_label")
     @classmethod
