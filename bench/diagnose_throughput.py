@@ -2,8 +2,9 @@
 
     .venv/bin/python bench/diagnose_throughput.py [--ports N] [--rounds R]
 
-Generates a snapshot file of N simulated ports (two polls each, lines shuffled, as a poller
-might write them), then in each round times
+Generates a snapshot file of N simulated ports (two or three polls each, its lines in time
+order, as a poller writes them: every port of one poll, then the next), then in each round
+times
 
 * baseline: ``json.loads`` of every line of the file, nothing kept;
 * linktriage: reading and validating the file, windows, features, guards, the tree, and
@@ -47,7 +48,7 @@ COMMAND = Path(sys.executable).with_name("linktriage")
 
 def make_file(path: Path, ports: int) -> int:
     polls, _ = simulate_prior(ports, np.random.default_rng(20261201))
-    order = np.random.default_rng(7).permutation(len(polls))
+    order = np.argsort(polls.time, kind="stable")
     with open(path, "w", encoding="utf-8") as fp:
         return write_snapshots(iter_snapshots(polls.take(order)), fp)
 

@@ -12,9 +12,9 @@ import pytest
 from click.testing import CliRunner
 
 from linktriage.cli import main
-from linktriage.engine.format.answers import Verdict
 from linktriage.engine.format.counters import COLUMN_INDEX
 from linktriage.engine.format.snapshot import Neighbor
+from linktriage.engine.verdicts import VERDICTS
 from linktriage.errors import CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollector
@@ -335,7 +335,7 @@ def test_collect_records_the_local_agent_and_diagnose_reads_the_recording(
     records = [json.loads(line) for line in diagnosed.stdout.splitlines()]
     assert sorted(r["port"] for r in records) == ports
     assert {r["device"] for r in records} == {"lark-lab-host"}
-    assert all(r["verdict"] in set(Verdict) for r in records)
+    assert all(r["verdict"] in VERDICTS for r in records)
     assert "0 lines skipped" in diagnosed.stderr
 
 

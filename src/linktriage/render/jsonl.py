@@ -1,7 +1,8 @@
 """JSON Lines: one object per port, the fields of SNAPSHOT-FORMAT's ``diagnose --json``.
 
-Records are built a chunk of ports at a time (their evidence worded a verdict at a time)
-and encoded by msgspec, in C: every line is exactly ``dumps(batch.record(i))``.
+The batch words and encodes a chunk of ports at a time
+(:meth:`~linktriage.engine.diagnosis.batch.DiagnosisBatch.lines_many`); every line is
+exactly ``dumps(batch.record(i))``.
 """
 
 from __future__ import annotations
@@ -13,12 +14,11 @@ import msgspec
 
 from linktriage.engine.diagnosis.batch import DiagnosisBatch
 from linktriage.engine.format.answers import DiagnosisRecord
-from linktriage.gc_pause import gc_paused
 
 _encoder = msgspec.json.Encoder()
 _encode = _encoder.encode
 # Ports encoded together: the records of one chunk are alive at once.
-_CHUNK = 4096
+_CHUNK = 1024
 
 
 def dumps(record: DiagnosisRecord) -> str:
@@ -32,12 +32,11 @@ def write_lines(batch: DiagnosisBatch, rows: Sequence[int], out: IO[str]) -> Non
     raw = getattr(out, "buffer", None)  # a text stream over bytes: write the UTF-8 as is
     if raw is not None:
         out.flush()
-    with gc_paused():  # the records are acyclic (see linktriage.gc_pause)
-        for start in range(0, len(ordered), _CHUNK):
-            lines = _encoder.encode_lines(batch.records_many(ordered[start : start + _CHUNK]))
-            if raw is not None:
-                raw.write(lines)
-            else:
-                out.write(lines.decode())
+    for start in range(0, len(ordered), _CHUNK):
+        lines = batch.lines_many(ordered[start : start + _CHUNK])
+        if raw is not None:
+            raw.write(lines)
+        else:
+            out.write(lines.decode())
     if raw is not None:
         raw.flush()

@@ -6,8 +6,9 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from functools import cache, cached_property
+from functools import cache, cached_property, partial
 
+import msgspec
 import numpy as np
 import numpy.typing as npt
 
@@ -19,7 +20,6 @@ from linktriage.engine.format.answers import (
     FarEndRecord,
     LinkRecord,
     NearestOther,
-    QuestionRecord,
     RuledOutRecord,
     Verdict,
 )
@@ -54,12 +54,48 @@ def advice(
 
 
 @cache
-def advice_lists(
+def _advice_json(
     verdict: Verdict, fiber: bool | None, poe: bool | None
-) -> tuple[list[str], list[str]]:
-    """:func:`advice` as the lists a record holds, one pair shared by every record alike."""
+) -> tuple[msgspec.Raw, msgspec.Raw]:
+    """:func:`advice` as the JSON a line holds, encoded once for every line alike."""
     checks, warn = advice(verdict, fiber, poe)
-    return list(checks), list(warn)
+    return msgspec.Raw(_encode(checks)), msgspec.Raw(_encode(warn))
+
+
+_encode = msgspec.json.Encoder().encode
+
+
+class _Line(msgspec.Struct, gc=False):
+    """One line of ``diagnose --json``, its fields in the format's order; the parts that
+    many ports share are JSON already (``Raw``), encoded once."""
+
+    device: str
+    port: str
+    verdict: str
+    title: str
+    confidence: float
+    questions: msgspec.Raw
+    evidence: list[EvidenceRecord]
+    ruled_out: RuledOutRecord | None
+    nearest_other: NearestOther | None
+    next_checks: msgspec.Raw
+    cautions: msgspec.Raw
+    model_version: str
+    window_s: float
+    polls: int
+    bit_errors: BitErrorRecord | None
+    note: str | None
+
+
+class _LinkedLine(_Line, gc=False):
+    """A line whose far end is in the same input: the far end and the link, after."""
+
+    far_end: FarEndRecord
+    link: LinkRecord
+
+
+_encode_lines = msgspec.json.Encoder().encode_lines
+_decode_records = msgspec.json.Decoder(DiagnosisRecord).decode_lines
 
 
 _BER_COLUMNS = ("ber", "ber_lo", "ber_hi", "objective", "rx_errors")
@@ -136,13 +172,18 @@ class DiagnosisBatch:
         return self.records_many([i])[0]
 
     def records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
-        """The diagnoses of ``rows``, worded together: evidence a verdict at a time,
-        questions a node at a time (records are for reading: ports that say the same share
-        the words)."""
-        with gc_paused():  # many small acyclic dicts (see linktriage.gc_pause)
-            return self._records_many(rows)
+        """The diagnoses of ``rows``: their lines of ``diagnose --json``, read back."""
+        return _decode_records(self.lines_many(rows)) if rows else []
 
-    def _records_many(self, rows: list[int]) -> list[DiagnosisRecord]:
+    def lines_many(self, rows: list[int]) -> bytes:
+        """The diagnoses of ``rows`` as lines of ``diagnose --json``, worded together:
+        evidence a verdict at a time, questions a node at a time, and what many ports say
+        alike (a question answered with the same value, a verdict's checks and cautions)
+        encoded once."""
+        with gc_paused():  # many small acyclic objects (see linktriage.gc_pause)
+            return _encode_lines(self._lines(rows))
+
+    def _lines(self, rows: list[int]) -> list[_Line]:
         evidence = self.evidence_many(rows)
         links = self._links(rows, evidence)
         nearest = self.nearest_many(rows)
@@ -150,7 +191,7 @@ class DiagnosisBatch:
         questions = dict(
             zip(
                 asked,
-                self.model.explainer.questions_many(
+                self.model.explainer.questions_json_many(
                     [self.node[i] for i in asked],
                     self.values[asked],
                     self.reported[asked],
@@ -158,21 +199,13 @@ class DiagnosisBatch:
                 strict=True,
             )
         )
-        records = [
-            self._record(
-                i,
-                e,
-                questions[i]
-                if i in questions
-                else [GUARD_KINDS[self.verdict[i]].question(self, i)],
-                n,
-            )
-            for i, e, n in zip(rows, evidence, nearest, strict=True)
-        ]
-        for record, i in zip(records, rows, strict=True):
-            if i in links:
-                record["far_end"], record["link"] = links[i]
-        return records
+        lines = []
+        for i, e, n in zip(rows, evidence, nearest, strict=True):
+            asked_json = questions.get(i)
+            if asked_json is None:  # a guard answered: the question it asked
+                asked_json = _encode([GUARD_KINDS[self.verdict[i]].question(self, i)])
+            lines.append(self._line(i, e, msgspec.Raw(asked_json), n, links.get(i)))
+        return lines
 
     def _links(
         self, rows: list[int], evidence: list[list[EvidenceRecord]]
@@ -227,33 +260,35 @@ class DiagnosisBatch:
         """A port as the link's words name it: ``lark-core1 up3``."""
         return f"{self.device[i]} {self.port[i]}"
 
-    def _record(
+    def _line(
         self,
         i: int,
         evidence: list[EvidenceRecord],
-        questions: list[QuestionRecord],
+        questions: msgspec.Raw,
         nearest: NearestOther | None,
-    ) -> DiagnosisRecord:
+        link: tuple[FarEndRecord, LinkRecord] | None,
+    ) -> _Line:
         verdict = self.verdict[i]
-        checks, warn = advice_lists(*self.advice_key(i))
-        return {
-            "device": self.device[i],
-            "port": self.port[i],
-            "verdict": verdict,
-            "title": kind_of(verdict).title,
-            "confidence": self.confidence[i],
-            "questions": questions,
-            "evidence": evidence,
-            "ruled_out": self.ruled_out_record(i),
-            "nearest_other": nearest,
-            "next_checks": checks,
-            "cautions": warn,
-            "model_version": self.model.version,
-            "window_s": self.window_s[i],
-            "polls": self.polls[i],
-            "bit_errors": self.bit_errors(i),
-            "note": self.note[i],
-        }
+        checks, warn = _advice_json(*self.advice_key(i))
+        kind = _Line if link is None else partial(_LinkedLine, far_end=link[0], link=link[1])
+        return kind(
+            self.device[i],
+            self.port[i],
+            verdict,
+            kind_of(verdict).title,
+            self.confidence[i],
+            questions,
+            evidence,
+            self.ruled_out_record(i),
+            nearest,
+            checks,
+            warn,
+            self.model.version,
+            self.window_s[i],
+            self.polls[i],
+            self.bit_errors(i),
+            self.note[i],
+        )
 
     def evidence(self, i: int) -> list[EvidenceRecord]:
         """The readings the verdict of row ``i`` rests on."""

@@ -155,6 +155,8 @@ class PollTable:
         columns: dict[str, npt.NDArray[Any]] = {}
         rows = capacity = 0
         for chunk in chunks:
+            if not len(chunk):
+                continue  # every line of it was refused
             parts = chunk._numbers()
             end = rows + len(chunk)
             if end > capacity:

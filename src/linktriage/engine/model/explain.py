@@ -11,7 +11,9 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from operator import itemgetter
 
+import msgspec
 import numpy as np
 import numpy.typing as npt
 
@@ -32,7 +34,8 @@ from linktriage.engine.model.questions import (
 
 @dataclass(frozen=True, slots=True)
 class PathQuestion:
-    """A question on the path to a node, with everything that does not depend on the port."""
+    """A question on the path to a node, with everything that does not depend on the port:
+    its words, and its JSON around the two parts that do (the value and how it reads)."""
 
     text: str
     feature: str
@@ -41,6 +44,25 @@ class PathQuestion:
     answer: bool
     reads: Callable[[float], str]  # a measured value as it reads beside this question
     range: tuple[float, float] | None = None
+    head: bytes = b""  # the JSON up to the value ...
+    middle: bytes = b""  # ... from the value to how it reads ...
+    tail: bytes = b""  # ... and after it
+
+    @classmethod
+    def asked(
+        cls, text: str, feature: str, column: int, threshold: float, answer: bool,
+        reads: Callable[[float], str], range: tuple[float, float] | None = None,
+    ) -> PathQuestion:  # fmt: skip
+        """A question with its JSON parts worked out once (the fields in
+        :class:`~linktriage.engine.format.answers.QuestionRecord`'s order)."""
+        head = b'{"question":%s,"answer":%s,"feature":%s,"value":' % (
+            _encode(text),
+            _encode(answer),
+            _encode(feature),
+        )
+        middle = b',"threshold":%s,"said":' % _encode(threshold)
+        tail = b"}" if range is None else b',"range":%s}' % _encode(list(range))
+        return cls(text, feature, column, threshold, answer, reads, range, head, middle, tail)
 
 
 def merge(path: Sequence[Step], features: Sequence[str]) -> list[PathQuestion]:
@@ -64,7 +86,7 @@ def merge(path: Sequence[Step], features: Sequence[str]) -> list[PathQuestion]:
         if lo is not None and hi is not None:
             text = between.format(lo=format_threshold(kind, lo), hi=format_threshold(kind, hi))
             reads = value_reader(kind, lo)
-            out.append(PathQuestion(text, feature, column, lo, True, reads, (lo, hi)))
+            out.append(PathQuestion.asked(text, feature, column, lo, True, reads, (lo, hi)))
         else:
             t = lo if lo is not None else hi
             assert t is not None
@@ -72,7 +94,7 @@ def merge(path: Sequence[Step], features: Sequence[str]) -> list[PathQuestion]:
                 text, reads = ANY_QUESTIONS[feature], value_reader(kind, None)
             else:
                 text, reads = above.format(t=format_threshold(kind, t)), value_reader(kind, t)
-            out.append(PathQuestion(text, feature, column, t, lo is not None, reads))
+            out.append(PathQuestion.asked(text, feature, column, t, lo is not None, reads))
     return out
 
 
@@ -92,41 +114,34 @@ class Explainer:
             return f"{yes_no(question.answer)}: {NOT_REPORTED}"
         return f"{yes_no(question.answer)}: {question.reads(value)}"
 
-    def _answered(self, q: PathQuestion, value: float, known: bool) -> QuestionRecord:
-        record: QuestionRecord = {
-            "question": q.text,
-            "answer": q.answer,
-            "feature": q.feature,
-            "value": rounded(value) if known else None,
-            "threshold": q.threshold,
-            "said": self.said(q, value, known),
-        }
-        if q.range is not None:
-            record["range"] = list(q.range)
-        return record
+    def _answered(self, q: PathQuestion, value: float, known: bool) -> bytes:
+        """One question answered, as its JSON object."""
+        shown = _encode(rounded(value) if known else None)
+        return q.head + shown + q.middle + _encode(self.said(q, value, known)) + q.tail
 
     def questions(
         self, node: int, row: Sequence[float], reported: Sequence[bool] | None = None
     ) -> list[QuestionRecord]:
         """The questions on the way to ``node`` for the port whose features are ``row``."""
-        return [
+        answered = [
             self._answered(
                 q, float(row[q.column]), True if reported is None else bool(reported[q.column])
             )
             for q in self.steps[node]
         ]
+        return _decode_questions(b"[" + b",".join(answered) + b"]")
 
-    def questions_many(
+    def questions_json_many(
         self,
         nodes: Sequence[int],
         rows: npt.NDArray[np.float64],
         reported: npt.NDArray[np.bool_],
-    ) -> list[list[QuestionRecord]]:
-        """The questions of many ports (``nodes[k]``, row ``k`` of ``rows`` and
-        ``reported``), asked a node at a time: only the columns a node asks about are read,
-        and ports that answer a question with the same value share its record (records are
-        for reading)."""
-        out: list[list[QuestionRecord]] = [[] for _ in nodes]
+    ) -> list[bytes]:
+        """The questions of many ports as each one's JSON array (``nodes[k]``, row ``k`` of
+        ``rows`` and ``reported``), asked a node at a time: only the columns a node asks
+        about are read, and a question answered with the same value is worded and encoded
+        once for every port that answers it so."""
+        out: list[bytes] = [b"[]"] * len(nodes)
         groups: dict[int, list[int]] = {}
         for k, node in enumerate(nodes):
             groups.setdefault(node, []).append(k)
@@ -134,16 +149,21 @@ class Explainer:
             at = np.asarray(places, np.intp)
             columns = []
             for q in self.steps[node]:
-                made: dict[tuple[float, bool], QuestionRecord] = {}
-                answers = []
-                values = rows[at, q.column].tolist()
-                known = reported[at, q.column].tolist()
-                for key in zip(values, known, strict=True):
-                    record = made.get(key)
-                    if record is None:
-                        record = made[key] = self._answered(q, *key)
-                    answers.append(record)
-                columns.append(answers)
-            for n, k in enumerate(places):
-                out[k] = [answers[n] for answers in columns]
+                values = rows[at, q.column]
+                known = reported[at, q.column]
+                # Each distinct answer worded and encoded once: an unreported value reads
+                # alike whatever the tree saw, so it is keyed apart from every measured one.
+                keys = np.where(known, values, np.nan)
+                _, first, which = np.unique(keys, return_index=True, return_inverse=True)
+                said = [self._answered(q, float(values[k]), bool(known[k])) for k in first.tolist()]
+                columns.append(itemgetter(*which.tolist())(said) if len(places) > 1 else
+                               (said[int(which[0])],))  # fmt: skip
+            if not columns:
+                continue  # a tree of one leaf asks nothing
+            for k, asked in zip(places, zip(*columns, strict=True), strict=True):
+                out[k] = b"[" + b",".join(asked) + b"]"
         return out
+
+
+_encode = msgspec.json.Encoder().encode
+_decode_questions = msgspec.json.Decoder(list[QuestionRecord]).decode
