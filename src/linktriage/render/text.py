@@ -62,8 +62,8 @@ def table_rows(records: Sequence[DiagnosisRecord]) -> list[str]:
 
 
 def write_table(batch: DiagnosisBatch, rows: Sequence[int], out: IO[str]) -> None:
-    """The table for the ports in ``rows``."""
-    for line in table_rows([batch.record(i) for i in rows]):
+    """The table for the ports in ``rows`` (their records worded together)."""
+    for line in table_rows(batch.records_many(list(rows))):
         out.write(line + "\n")
 
 
