@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 from pydantic import ValidationError
 
+from linktriage.engine.format import snapshot
 from linktriage.engine.format.counters import COLUMN_INDEX
 from linktriage.engine.format.snapshot import (
     Snapshot,
@@ -20,7 +21,7 @@ from linktriage.engine.format.snapshot import (
 )
 from linktriage.errors import SnapshotFileError
 
-from helpers import line, polls
+from helpers import line, named, polls
 
 
 def test_the_format_example_reads_as_two_polls_of_one_port(snapshots: Path) -> None:
@@ -189,3 +190,25 @@ def test_a_neighbor_without_a_name_is_reported_and_its_line_skipped() -> None:
     assert [p.line for p in result.problems] == [1]
     assert "neighbor.device" in result.problems[0].message
     assert result.polls.port.tolist() == ["port2"]
+
+
+@pytest.mark.parametrize("block", [64, 300, 1 << 20])
+def test_a_file_read_a_block_at_a_time_reads_as_its_lines_one_by_one(
+    tmp_path: Path, snapshots: Path, monkeypatch: pytest.MonkeyPatch, block: int
+) -> None:
+    # Bad and blank lines, a byte-order mark, CRLF line ends, lines longer than a block and
+    # no newline at the end: a block is decoded at once only where every line of it is
+    # good, and every line keeps its number.
+    lines = (snapshots / "bad-lines.jsonl").read_bytes().splitlines()
+    lines += (snapshots / "demo-network.jsonl").read_bytes().splitlines()[:40]
+    text = b"\xef\xbb\xbf" + b"\r\n".join(lines)
+    path = tmp_path / "lines.jsonl"
+    path.write_bytes(text)
+    monkeypatch.setattr(snapshot, "_BLOCK", block)
+    by_blocks = read_snapshot_file(path)
+    one_by_one = read_snapshots(text.split(b"\r\n"))
+    assert named(by_blocks.polls) == named(one_by_one.polls)
+    assert by_blocks.polls.line.tolist() == one_by_one.polls.line.tolist()
+    assert by_blocks.problems == one_by_one.problems
+    assert [p.line for p in by_blocks.problems] == [2, 3, 5, 6, 7, 8, 10, 11]
+    assert len(by_blocks.polls) == 3 + 40

@@ -44,21 +44,14 @@ _BER_VERDICTS = frozenset(kind.verdict for kind in TREE if kind.bit_errors)
 
 
 @cache
-def advice(
-    verdict: Verdict, fiber: bool | None, poe: bool | None
-) -> tuple[tuple[str, ...], tuple[str, ...]]:
-    """Next checks and cautions for a verdict on a port of this medium and PoE state."""
-    kind = kind_of(verdict)
-    checks = tuple(c.text for c in kind.checks_for(fiber=fiber))
-    return checks, tuple(c.value for c in kind.cautions_for(poe=poe, fiber=fiber))
-
-
-@cache
 def _advice_json(
     verdict: Verdict, fiber: bool | None, poe: bool | None
 ) -> tuple[msgspec.Raw, msgspec.Raw]:
-    """:func:`advice` as the JSON a line holds, encoded once for every line alike."""
-    checks, warn = advice(verdict, fiber, poe)
+    """The next checks and the cautions for a verdict on a port of this medium and PoE
+    state, as the JSON a line holds: encoded once for every line alike."""
+    kind = kind_of(verdict)
+    checks = [c.text for c in kind.checks_for(fiber=fiber)]
+    warn = [c.value for c in kind.cautions_for(poe=poe, fiber=fiber)]
     return msgspec.Raw(_encode(checks)), msgspec.Raw(_encode(warn))
 
 

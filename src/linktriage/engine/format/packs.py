@@ -27,7 +27,7 @@ import logging
 import struct
 import zlib
 from dataclasses import dataclass
-from functools import cache
+from functools import cache, lru_cache
 from typing import Any
 
 import numpy as np
@@ -147,6 +147,12 @@ class Directory:
         )
 
 
+@lru_cache(maxsize=4096)
+def _directory(heading: bytes) -> Directory:
+    """A pack's directory, read once per distinct one (a device's packs share theirs)."""
+    return Directory.decoded(heading)
+
+
 def _shuffled(array: npt.NDArray[np.generic]) -> bytes:
     a = np.ascontiguousarray(array)
     if a.dtype.itemsize == 1:
@@ -242,7 +248,7 @@ def _opened(blob: bytes) -> tuple[int, Directory, memoryview]:
         if version == FORMAT:
             _, rows, heading = _HEADER.unpack_from(blob)
             body = memoryview(zlib.decompress(blob[_HEADER.size :]))
-            return rows, Directory.decoded(bytes(body[:heading])), body[heading:]
+            return rows, _directory(bytes(body[:heading])), body[heading:]
         if version in LEGACY_FORMATS:
             _, rows, reported, narrow = _LEGACY_HEADER.unpack_from(blob)
             body = memoryview(zlib.decompress(blob[_LEGACY_HEADER.size :]))
@@ -280,8 +286,10 @@ def _tell_unknown(name: str) -> None:
     )
 
 
+@lru_cache(maxsize=4096)
 def _counter_places(names: tuple[str, ...]) -> tuple[list[int], list[int]]:
-    """For counter ``names``: the positions known to today's catalogue, and their columns."""
+    """For counter ``names``: the positions known to today's catalogue, and their columns
+    (worked out once per set of names: a device's packs name the same ones)."""
     kept, columns = [], []
     for k, name in enumerate(names):
         j = COLUMN_INDEX.get(name)
