@@ -1,9 +1,9 @@
 """What a window measured on each port, in an engineer's units: frames, rates, error bounds, light.
 
-One row per port, numbers only; the physics rules (:mod:`linktriage.engine.physics`), the tree's
-inputs (:mod:`linktriage.engine.model.features`) and the answer's evidence
-(:mod:`linktriage.engine.evidence`) are all read off this table, so each speaks of the same
-quantities.
+One row per port, numbers only; the physics rules (:mod:`linktriage.engine.physics`), the
+tree's inputs (:mod:`linktriage.engine.model.features`) and each verdict's evidence (its
+module under :mod:`linktriage.engine.verdicts`) are all read off this table, so each speaks
+of the same quantities.
 
 Denominators follow RFC 3635 section 3.2.5: ``ifInDiscards`` and errored frames are not in
 ``ifIn*Pkts``, so frames seen on receive are packets + discards + errors, while

@@ -1,10 +1,9 @@
 """The tree's questions, as every diagnosis record words them: one per feature, the values
 beside them as they read, and the change of one value that would move a verdict.
 
-Kept in one module so the wording can be read and reviewed as text. Verdict titles, checks
-and cautions live beside the verdict ids in :mod:`linktriage.engine.verdicts`, each verdict's
-evidence in :mod:`linktriage.engine.evidence`; what the bot and the command line say around a
-diagnosis is in :mod:`linktriage.render.words`.
+Kept in one module so the wording can be read and reviewed as text. Each verdict's title,
+checks, cautions and evidence live in its own module under :mod:`linktriage.engine.verdicts`;
+what the bot and the command line say around a diagnosis is in :mod:`linktriage.render.words`.
 """
 
 from __future__ import annotations
