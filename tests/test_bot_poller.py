@@ -115,3 +115,32 @@ def test_stored_polls_read_by_device_or_by_window_are_the_same(
         assert len(a) == 3 * len(triage.network.ports_of(device))
         order_a, order_b = np.lexsort((a.time, a.port)), np.lexsort((b.time, b.port))
         np.testing.assert_array_equal(a.counters[order_a], b.counters[order_b])
+
+
+def test_a_port_that_hears_no_lldp_is_found_by_the_port_that_names_it(triage: Triage) -> None:
+    # The demo's one-way fiber: lark-core1 up3 hears nothing, so names no neighbor; the
+    # sending end, lark-west-idf1 up1, still names it (IEEE 802.1AB lldpRemTable).
+    poller = triage.poller
+    assert poller.naming("lark-core1", "up3") is None  # nothing polled yet
+    poller.poll_round()
+    assert poller.naming("lark-core1", "up3") == ("lark-west-idf1", "up1")
+    # LLDP names systems loosely: a domain name and another case find the same port.
+    assert poller.naming("LARK-CORE1.larkmoor.example", "UP3") == ("lark-west-idf1", "up1")
+    assert poller.naming("lark-west-idf1", "up1") is None  # the deaf end names nobody
+    assert poller.naming("lark-east-idf2", "up1") == ("lark-core1", "up2")  # a sound link
+
+
+def test_a_port_recabled_no_longer_stands_for_its_old_far_end(triage: Triage) -> None:
+    poller = triage.poller
+    polls = triage.network.poll("lark-west-idf1", ["up1"])
+    poller.heard(polls)
+    assert poller.naming("lark-core1", "up3") == ("lark-west-idf1", "up1")
+    polls.neighbor_device[:] = "lark-core1"
+    polls.neighbor_port[:] = "up6"  # re-patched to another core port
+    poller.heard(polls)
+    assert poller.naming("lark-core1", "up3") is None
+    assert poller.naming("lark-core1", "up6") == ("lark-west-idf1", "up1")
+    polls.neighbor_device[:] = None
+    polls.neighbor_port[:] = None  # its LLDP entry aged out: it names nobody now
+    poller.heard(polls)
+    assert poller.naming("lark-core1", "up6") is None

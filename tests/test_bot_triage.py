@@ -62,14 +62,20 @@ class FarEndSilent(DemoNetwork):
 def test_an_answer_reads_its_far_end_and_stands_without_it_when_it_cannot_be_read(
     triage: Triage, store: Store, model: Model, clock: DemoClock
 ) -> None:
-    # lark-core1 up3's LLDP names lark-west-idf1 up1: read, the link is judged from both
-    # ends; not read, the port is answered alone, never with a view of what was not read.
+    # lark-core1 up3 hears nothing of lark-west-idf1 up1, so no LLDP either; the far end
+    # still hears it and names it. After the poll job has read it, the link is judged from
+    # both ends; where it could not be read, the port is answered alone, never with a view
+    # of what was not read.
+    alone_before = triage.handle("lark-core1 up3")
+    assert isinstance(alone_before, DiagnosisReply) and "far_end" not in alone_before.record
+    triage.poller.poll_round()
     both = triage.handle("lark-core1 up3")
     assert isinstance(both, DiagnosisReply)
     assert both.record["far_end"]["device"] == "lark-west-idf1"
     assert both.record["link"]["verdict"] == "unidirectional"
     silent = Triage(FarEndSilent(clock=clock), store, model, Settings(), clock=clock,
                     sleep=clock.sleep)  # fmt: skip
+    silent.poller.poll_round()
     alone = silent.handle("lark-core1 up3")
     assert isinstance(alone, DiagnosisReply)
     assert alone.record["verdict"] == "unidirectional"

@@ -207,6 +207,8 @@ def test_an_earlier_format_is_upgraded_to_the_same_columns_under_their_names() -
 
 
 def _recorded() -> PollTable:
+    """The polls that store holds, from the files as they were recorded then."""
+    then = STORE.with_suffix("")
     files = ["demo-network.jsonl", "counter32-device.jsonl", "format-example.jsonl"]
-    paths = [FIXTURES / f for f in files] + sorted((FIXTURES / "verdicts").glob("*.jsonl"))
+    paths = [then / f for f in files] + sorted((then / "verdicts").glob("*.jsonl"))
     return PollTable.concat([read_snapshot_file(p).polls for p in paths])

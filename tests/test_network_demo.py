@@ -12,7 +12,14 @@ from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.engine.verdicts import VERDICTS
 from linktriage.errors import PollError
-from linktriage.network.demo import ORGANISATION, PLANTED, DemoNetwork, demo_polls, demo_ports
+from linktriage.network.demo import (
+    LINKS,
+    ORGANISATION,
+    PLANTED,
+    DemoNetwork,
+    demo_polls,
+    demo_ports,
+)
 
 
 def test_every_verdict_but_healthy_is_planted_exactly_once() -> None:
@@ -68,3 +75,36 @@ def test_polls_five_minutes_apart_are_the_recorded_demo(model: Model) -> None:
 def test_polling_a_device_outside_the_network_names_it() -> None:
     with pytest.raises(PollError, match="lark-nowhere"):
         DemoNetwork().poll("lark-nowhere")
+
+
+def test_a_long_window_finds_the_same_suspects_as_five_minutes(model: Model) -> None:
+    # A longer stored window (polls six hours apart, as after a day of asking in one data
+    # directory) must not turn healthy ports into suspects: their lines are clean, they do
+    # not flap and they receive no stray frames too long, whatever the window.
+    network = DemoNetwork()
+
+    def suspects(seconds: float) -> list[tuple[str, str, str]]:
+        polls = [network.poll_all(DEFAULT_START - seconds), network.poll_all(DEFAULT_START)]
+        batch = diagnose(PollTable.concat(polls), model)
+        found = zip(batch.device, batch.port, batch.verdict, strict=True)
+        return sorted((d, p, v) for d, p, v in found if v != "healthy")
+
+    short = suspects(300.0)
+    planted = {(p.device, p.port) for p in PLANTED}
+    linked = {end for link in LINKS for end in (link.a, link.b)}
+    assert {(d, p) for d, p, _ in short} <= planted | linked
+    assert suspects(6 * 3600.0) == short
+
+
+def test_an_end_that_hears_nothing_names_no_lldp_neighbor() -> None:
+    # The demo's one-way fiber: lark-core1 up3 receives nothing from lark-west-idf1 up1, so
+    # no LLDP frame either (IEEE 802.1AB: an entry not refreshed is removed); the sending
+    # end still hears the core's LLDP and names it.
+    (deaf,) = [link for link in LINKS if link.deaf is not None]
+    network = DemoNetwork()
+    polls = network.poll_all(DEFAULT_START)
+    rows = {(d, p): i for i, (d, p) in enumerate(zip(polls.device, polls.port, strict=True))}
+    deaf_end = deaf.b if deaf.deaf == deaf.b else deaf.a
+    other = deaf.a if deaf_end == deaf.b else deaf.b
+    assert polls.neighbor_device[rows[deaf_end]] is None
+    assert (polls.neighbor_device[rows[other]], polls.neighbor_port[rows[other]]) == deaf_end

@@ -307,7 +307,8 @@ def test_inspecting_a_store_says_its_size_and_history(database_url: str) -> None
 
 FIXTURES = Path(__file__).parents[1] / "fixtures"
 PREVIOUS_RELEASE = FIXTURES / "store" / "release-0.1.0.sqlite"
-SNAPSHOTS = FIXTURES / "snapshots"
+#: The snapshot files that store holds, as they were recorded then (fixtures/store/README.md).
+SNAPSHOTS = FIXTURES / "store" / "release-0.1.0"
 RECORDED = [
     SNAPSHOTS / name
     for name in ("demo-network.jsonl", "counter32-device.jsonl", "format-example.jsonl")

@@ -5,11 +5,12 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.links import lldp_key
 from linktriage.network.watched import Network, PortRef
 from linktriage.settings import Settings
 from linktriage.store import Store
@@ -44,11 +45,18 @@ class Poller:
     settings: Settings
     clock: Callable[[], float] = time.time
     sleep: Callable[[float], None] = time.sleep
+    #: Which port each polled port's LLDP last named, and the reverse: an end that hears
+    #: nothing of its far end hears no LLDP either and names nobody, so its far end is
+    #: found from the side that still hears it.
+    names: dict[tuple[str, str], tuple[str, str]] = field(default_factory=dict)
+    named_by: dict[tuple[str, str], tuple[str, str]] = field(default_factory=dict)
 
     def poll_round(self) -> PollRound:
         """Poll every device once and keep the answers: the poll job."""
         gathered = self.network.poll_many(dict.fromkeys(self.network.device_names()))
-        stored = self.store.add_polls(PollTable.concat(list(gathered.tables.values())))
+        polled = PollTable.concat(list(gathered.tables.values()))
+        self.heard(polled)
+        stored = self.store.add_polls(polled)
         cutoff = self.clock() - self.settings.store.keep_polls_h * 3600.0
         forgotten = self.store.prune_polls(cutoff, batch=PRUNE_BATCH, batches=PRUNE_BATCHES)
         return PollRound(stored, gathered.failed, forgotten)
@@ -123,9 +131,31 @@ class Poller:
         gathered = self.network.poll_many(wanted)
         answered = list(gathered.tables.values())
         if answered:
-            self.store.add_polls(PollTable.concat(answered))
+            polled = PollTable.concat(answered)
+            self.heard(polled)
+            self.store.add_polls(polled)
             tables += answered
         return dict(gathered.failed)
+
+    def heard(self, polls: PollTable) -> None:
+        """Remember what each port of ``polls`` names as its LLDP neighbor, latest last; a
+        port that now names another far end, or none, no longer stands for the old one."""
+        for device, port, far, far_port in zip(
+            polls.device.tolist(), polls.port.tolist(), polls.neighbor_device.tolist(),
+            polls.neighbor_port.tolist(), strict=True,
+        ):  # fmt: skip
+            me = (device, port)
+            old = self.names.pop(me, None)
+            if old is not None and self.named_by.get(old) == me:
+                del self.named_by[old]
+            if far is not None and far_port is not None:
+                key = lldp_key(far, far_port)
+                self.names[me] = key
+                self.named_by[key] = me
+
+    def naming(self, device: str, port: str) -> tuple[str, str] | None:
+        """The port whose LLDP last named ``device`` ``port`` as its neighbor, if any."""
+        return self.named_by.get(lldp_key(device, port))
 
 
 @dataclass(frozen=True, slots=True)

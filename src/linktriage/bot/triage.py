@@ -208,14 +208,18 @@ class Triage:
 
     def _far_end(self, ref: PortRef, polls: PollTable) -> PortRef | None:
         """The port at the other end of ``ref``'s link, as its latest poll's neighbor names
-        it, where the network reads that port."""
+        it, else the port whose LLDP last named ``ref``, where the network reads that port."""
         mine = np.flatnonzero((polls.device == ref.device) & (polls.port == ref.port))
         if not len(mine):
             return None
         latest = mine[np.argmax(polls.time[mine])]
         far, far_port = polls.neighbor_device[latest], polls.neighbor_port[latest]
         if far is None or far_port is None:
-            return None
+            # It hears no neighbor: a port that still hears it, as last polled, may name it.
+            named = self.poller.naming(ref.device, ref.port)
+            if named is None:
+                return None
+            far, far_port = named
         refs = self.network.ports()
         found = PortMatcher([r.device for r in refs], [r.port for r in refs]).find(far, far_port)
         return None if found < 0 else refs[found]

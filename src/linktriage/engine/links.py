@@ -39,6 +39,12 @@ def _short(name: str) -> str:
     return name.split(".", 1)[0].casefold()
 
 
+def lldp_key(device: str, port: str) -> tuple[str, str]:
+    """A port as a neighbor's LLDP may name it, loosely: the system's first DNS label and
+    the port, ignoring case (as :class:`PortMatcher` matches at its loosest)."""
+    return _short(device), port.casefold()
+
+
 class PortMatcher:
     """Finds the port a neighbor names among known ports (the module docstring says how)."""
 
