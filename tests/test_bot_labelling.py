@@ -190,3 +190,24 @@ def test_a_digest_thread_labels_the_link_named_by_number(triage: Triage) -> None
         "cable_fault", user="U2", channel="C1", thread_ts="200.2", event_key="e"
     )
     assert isinstance(vague, LabelRefused) and "Say which link" in vague.message
+
+
+def test_a_label_on_an_answer_the_link_decided_teaches_the_end_that_shows_it(
+    triage: Triage,
+) -> None:
+    # lark-west-idf1 up1 sends into the broken strand: its own counters look healthy, and
+    # the answer (the link's) is one-way. Confirming it must not teach the tree that clean
+    # counters mean one-way: the row kept is the far end's, which receives nothing.
+    triage.poller.poll_round()
+    reply = _posted(triage, "lark-west-idf1 up1")
+    assert reply.record["verdict"] == "unidirectional"
+    assert reply.record["own_view"]["verdict"] == "healthy"
+    confirmed = triage.labels.button(reply.diagnosis_id, None, user="U2", channel="C1",
+                                     event_key="b1")  # fmt: skip
+    assert isinstance(confirmed, LabelReply)
+    (label,) = triage.store.labels()
+    assert label.verdict == "unidirectional"
+    far = triage.handle("lark-core1 up3")
+    assert isinstance(far, DiagnosisReply) and "own_view" not in far.record
+    silent = next(q for q in far.record["questions"] if q["feature"] == "quiet_fps")
+    assert label.features["quiet_fps"] == pytest.approx(silent["value"])

@@ -12,6 +12,7 @@ from typing import Any
 
 import pytest
 
+from linktriage.bot.digests import ranked_suspects, unjudged
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose, diagnose_chunks
 from linktriage.engine.format.answers import DiagnosisRecord
@@ -58,6 +59,7 @@ def test_a_duplex_mismatch_is_named_once_from_either_end_with_the_half_and_the_f
     near, far = answers["lark-east-idf2 port7"], answers["lark-core1 up3"]
     for record in (near, far):
         assert record["link"]["verdict"] == "duplex_mismatch"
+        assert record["verdict"] == "duplex_mismatch"  # the link decides, at both ends
     assert near["far_end"]["device"] == "lark-core1" and far["far_end"]["port"] == "port7"
     said = near["link"]["said"]
     assert said[0].startswith("lark-east-idf2 port7 runs half duplex (400 late collisions")
@@ -75,6 +77,7 @@ def test_a_one_way_fiber_is_confirmed_by_the_far_ends_transmit_counter(model: Mo
     answers = records(both_ends(deaf, sender, state_a=FIBER_10G, state_b=FIBER_10G), model)
     for record in answers.values():
         assert record["link"]["verdict"] == "unidirectional"
+        assert record["verdict"] == "unidirectional"  # the sending end too
         assert record["link"]["said"][0].endswith(
             "the lark-core1 up3 \u2192 lark-east-idf2 port7 direction is broken"
         )
@@ -93,8 +96,11 @@ def test_a_dirty_connector_on_one_strand_shows_as_that_directions_loss(model: Mo
         TRAFFIC, TRAFFIC, state_a={**FIBER_10G, "optics": optics_a},
         state_b={**FIBER_10G, "optics": optics_b},
     )  # fmt: skip
-    link = records(lines, model)["lark-core1 up3"]["link"]  # the lossy direction first
+    answers = records(lines, model)
+    link = answers["lark-core1 up3"]["link"]  # the lossy direction first
     assert link["verdict"] == "optic_degraded"
+    # Both ends answer the link: the strand port7 transmits into is the one to clean.
+    assert {r["verdict"] for r in answers.values()} == {"optic_degraded"}
     assert link["said"] == [
         "lark-east-idf2 port7 \u2192 lark-core1 up3 loses 7.6 dB (over the 6.2 dB a 10GBASE-LR "
         "channel allows)",
@@ -110,14 +116,38 @@ def test_errors_received_at_one_end_only_point_at_one_direction(model: Model) ->
     gig = {"speed_bps": 10**9, "max_speed_bps": 10**9, "media": "copper", "duplex": "full"}
     errored = {**TRAFFIC, "dot3StatsFCSErrors": 5000}
     answers = records(both_ends(errored, TRAFFIC, state_a=gig, state_b=gig), model)
-    link = answers["lark-core1 up3"]["link"]
+    sender = answers["lark-core1 up3"]
+    link = sender["link"]
     assert answers["lark-east-idf2 port7"]["verdict"] == "cable_fault"
-    assert answers["lark-core1 up3"]["verdict"] == "healthy"
+    assert "own_view" not in answers["lark-east-idf2 port7"]  # its own answer is the link's
     assert link["verdict"] == "cable_fault" and not link["agree"]
     assert link["said"][0].endswith(
         "only the lark-core1 up3 \u2192 lark-east-idf2 port7 direction is damaged"
     )
     assert link["checks"][0].startswith("at lark-east-idf2 port7: its receive connector")
+    # The clean-receiving end answers the link too: its verdict, its headline (the link's
+    # first reason), the checks naming each end; its own clean view kept beside.
+    assert sender["verdict"] == "cable_fault"
+    assert sender["evidence"][0]["said"] == link["said"][0]
+    assert [e["said"] for e in sender["evidence"][1:]] == [
+        f"at lark-east-idf2 port7: {e['said']}" for e in answers["lark-east-idf2 port7"]["evidence"]
+    ]
+    assert sender["next_checks"][: len(link["checks"])] == link["checks"]
+    assert sender["own_view"]["verdict"] == "healthy"
+    assert sender["own_view"]["evidence"][0]["feature"] == "bit_error_ratio"
+    assert sender["nearest_other"] is None  # a change at this end alone moves its own view
+
+
+def test_a_far_end_without_a_window_leaves_the_port_answered_alone(model: Model) -> None:
+    # lark-core1 up3 polled once only (no_data): nothing is measured there, so the link is
+    # not judged over this end's own answer.
+    gig = {"speed_bps": 10**9, "max_speed_bps": 10**9, "media": "copper", "duplex": "full"}
+    errored = {**TRAFFIC, "dot3StatsFCSErrors": 5000}
+    lines = both_ends(TRAFFIC, errored, state_a=gig, state_b=gig)[:3]  # up3's first poll only
+    answers = records(lines, model)
+    assert answers["lark-core1 up3"]["verdict"] == "no_data"
+    near = answers["lark-east-idf2 port7"]
+    assert near["verdict"] == "healthy" and "own_view" not in near
 
 
 @pytest.mark.parametrize(
@@ -168,3 +198,21 @@ def test_both_ends_far_apart_in_a_large_file_are_diagnosed_together(model: Model
         f"{r['device']} {r['port']}": r["far_end"]["port"] for r in answered if "far_end" in r
     }
     assert linked == {"lark-east-idf2 port7": "up3", "lark-core1 up3": "port7"}
+
+
+def test_a_quiet_end_of_a_faulty_link_is_a_suspect_not_left_unjudged(model: Model) -> None:
+    # lark-core1 up3 receives 1,000 frames in five minutes, too few to judge an error ratio
+    # at that end alone; the frames it sends arrive at port7 with 5 in 10,000 errored. The
+    # link is one suspect, and neither end is counted as not judged.
+    gig = {"speed_bps": 10**9, "max_speed_bps": 10**9, "media": "copper", "duplex": "full"}
+    port7 = {"ifHCInUcastPkts": 10**7, "ifHCInOctets": 6 * 10**8, "ifHCOutUcastPkts": 1000,
+             "ifHCOutOctets": 60_000, "dot3StatsFCSErrors": 5000}  # fmt: skip
+    up3 = {"ifHCInUcastPkts": 1000, "ifHCInOctets": 60_000, "ifHCOutUcastPkts": 10**7,
+           "ifHCOutOctets": 6 * 10**8, "dot3StatsFCSErrors": 0}  # fmt: skip
+    batch = diagnose(polls(*both_ends(port7, up3, state_a=gig, state_b=gig)), model)
+    quiet = batch.index_of("lark-core1", "up3")
+    assert quiet is not None
+    assert batch.verdict[quiet] == "insufficient_traffic"  # its own answer
+    assert batch.link_verdict(quiet) == "cable_fault"
+    assert unjudged(batch) == []
+    assert len(ranked_suspects(batch)) == 1

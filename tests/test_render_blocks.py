@@ -235,3 +235,45 @@ def test_a_tree_answer_lists_the_path_or_says_no_tree_was_asked(
     assert said.count("\u2192") == len(cable.record["questions"])
     down = message_for(triage.handle("tree lark-west-idf1 port9"))
     assert "The tree was not asked: link_down is decided by a guard" in json.dumps(down)
+
+
+def test_an_answer_the_link_decided_says_so_and_keeps_what_this_port_says_alone(
+    triage: Triage,
+) -> None:
+    # The demo's one-way fiber, asked at the end that sends (lark-west-idf1 up1): alone its
+    # counters look healthy; the far end, read by the poll job, receives nothing of it.
+    triage.poller.poll_round()
+    reply = triage.handle("lark-west-idf1 up1")
+    assert isinstance(reply, DiagnosisReply)
+    record = reply.record
+    assert record["verdict"] == "unidirectional"
+    assert record["own_view"]["verdict"] == "healthy"
+    message = message_for(reply)
+    within_limits(message)
+    first = json.dumps(message["blocks"])
+    assert "one-way link" in first and "lark-core1 up3 receives 0" in first
+    assert "this port's own counters alone say healthy" in first
+    why, steps = thread_for(reply)
+    for part in (why, steps):
+        within_limits(part)
+    thread = json.dumps(why["blocks"])
+    assert "*This port alone: healthy*" in thread
+    assert "*Questions asked of this port's own counters*" in thread
+    assert "at lark-west-idf1 up1: its transmit side" in json.dumps(steps["blocks"])
+    text = render(reply)
+    assert text.index("Both ends") < text.index("This port alone: healthy")
+    assert text.index("This port alone: healthy") < text.index("Check next")
+
+
+def test_a_strand_losing_light_is_the_answer_at_the_end_that_transmits_into_it(
+    triage: Triage,
+) -> None:
+    # lark-core1 up1 transmits into the strand whose connector at lark-east-idf1 is damaged:
+    # its own counters are clean, the link loses far more than a 10GBASE-LR channel allows.
+    reply = triage.handle("lark-core1 up1")
+    assert isinstance(reply, DiagnosisReply)
+    assert reply.record["verdict"] == "optic_degraded"
+    assert reply.record["evidence"][0]["said"].startswith(
+        "lark-core1 up1 \u2192 lark-east-idf1 up1 loses"
+    )
+    assert reply.record["own_view"]["verdict"] == "healthy"

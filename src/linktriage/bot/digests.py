@@ -161,7 +161,7 @@ def ranked_suspects(batch: DiagnosisBatch) -> list[int]:
         chosen,
         key=lambda i: (
             -SEVERITY[verdicts[i]],
-            -batch.confidence[i],
+            -batch.link_confidence(i),
             batch.device[i],
             batch.port[i],
         ),
@@ -191,4 +191,4 @@ def _listed_end(batch: DiagnosisBatch, i: int) -> tuple[int, int, int, str, str]
 def unjudged(batch: DiagnosisBatch) -> list[int]:
     """The rows of the ports not judged (down, too quiet, without two usable polls): neither
     suspect nor healthy, and counted apart."""
-    return [i for i, v in enumerate(batch.verdict) if v in GUARD_VERDICTS]
+    return [i for i in range(len(batch)) if batch.link_verdict(i) in GUARD_VERDICTS]

@@ -181,8 +181,10 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
         head.append(_context(escape(reply.changed)))
     if r["evidence"]:
         head.append(_section(f"*{words.EVIDENCE}:* {escape(r['evidence'][0]['said'])}"))
-    link = r.get("link")
-    if link is not None and link["said"]:
+    link, own = r.get("link"), r.get("own_view")
+    if own is not None:  # the evidence above is the link's own reason
+        head.append(_context(escape(words.own_view_summary(own["title"]))))
+    elif link is not None and link["said"]:
         both = words.link_summary(link["title"], link["said"][0])
         head.append(_context(escape(both)))
     tail = [_label_actions(reply)]
@@ -209,14 +211,21 @@ def diagnosis_thread(reply: DiagnosisReply) -> list[dict[str, Any]]:
         facts.insert(0, words.window_fact(sig(r["window_s"], 3), r["polls"]))
     why: list[Block] = [_context(" \u00b7 ".join(facts))]
     why += _sections([f"\u2022 {escape(e['said'])}" for e in r["evidence"]], title=words.EVIDENCE)
+    own = r.get("own_view")
+    if own is not None:  # the link decided: both ends, then what this end says alone
+        why += _both_ends(r)
+        alone = [f"\u2022 {escape(e['said'])}" for e in own["evidence"]]
+        why += _sections(alone, title=words.own_view_heading(escape(own["title"])))
     if r["ruled_out"] is not None:
         why.append(_context(escape(ruled_out_line(r["ruled_out"]))))
     questions = [
         f"{n}. {escape(q['question'])}  \u2192  *{escape(q['said'])}*"
         for n, q in enumerate(r["questions"], start=1)
     ]
-    why += _sections(questions, title=words.QUESTIONS_ASKED)
-    nearest = r.get("nearest_other")  # an answer kept by an earlier release has none
+    asked = words.QUESTIONS_ASKED if own is None else words.QUESTIONS_OF_THIS_END
+    why += _sections(questions, title=asked)
+    # An answer kept by an earlier release has no nearest_other.
+    nearest = r.get("nearest_other") if own is None else own["nearest_other"]
     if nearest is not None:
         why.append(_context(escape(nearest_line(nearest))))
     if r["bit_errors"] is not None:
@@ -224,7 +233,8 @@ def diagnosis_thread(reply: DiagnosisReply) -> list[dict[str, Any]]:
     said = {e["said"] for e in r["evidence"]}
     if r["note"] and r["note"] not in said:
         why.append(_context(escape(r["note"])))
-    why += _both_ends(r)
+    if own is None:
+        why += _both_ends(r)
     steps = _sections([f"\u2022 {escape(c)}" for c in r["next_checks"]], title=words.CHECK_NEXT)
     if r["cautions"]:
         steps += _sections([f":warning: {escape(c)}" for c in r["cautions"]], title=words.SAFETY)
@@ -243,6 +253,13 @@ def _both_ends(record: DiagnosisRecord) -> list[Block]:
     if far is None or link is None:
         return []
     title = kind_of(far["verdict"]).title
+    own = record.get("own_view")
+    if own is not None:  # the link's reasons are the evidence, its checks the steps
+        lines = [
+            escape(words.far_end_line(far["device"], far["port"], title)),
+            escape(words.link_line(link["title"], own["title"], title)),
+        ]
+        return _sections(lines, title=words.BOTH_ENDS)
     lines = [
         escape(words.far_end_line(far["device"], far["port"], title)),
         *(f"\u2022 {escape(e['said'])}" for e in far["evidence"]),

@@ -91,19 +91,27 @@ def explanation(record: DiagnosisRecord) -> str:
         lines += ["", words.EVIDENCE]
         for item in record["evidence"]:
             lines += _wrapped(f"{item['said']} [{item['source']}]", "  * ", "    ")
+    own = record.get("own_view")
+    if own is not None:  # the link decided: both ends first, then this end alone
+        lines += _both_ends(record)
+        lines += ["", words.own_view_heading(own["title"])]
+        for item in own["evidence"]:
+            lines += _wrapped(f"{item['said']} [{item['source']}]", "  * ", "    ")
     if record["ruled_out"] is not None:
         lines += ["", *_wrapped(ruled_out_line(record["ruled_out"]), "", "")]
-    lines += ["", words.QUESTIONS_ASKED]
+    lines += ["", words.QUESTIONS_ASKED if own is None else words.QUESTIONS_OF_THIS_END]
     for n, q in enumerate(record["questions"], start=1):
         lines += _wrapped(q["question"], f"  {n}. ", "     ")
         lines += _wrapped(q["said"], "     -> ", "        ")
-    nearest = record.get("nearest_other")  # an answer kept by an earlier release has none
+    # An answer kept by an earlier release has no nearest_other.
+    nearest = record.get("nearest_other") if own is None else own["nearest_other"]
     if nearest is not None:
         lines += ["", *_wrapped(nearest_line(nearest), "", "")]
     ber = record["bit_errors"]
     if ber is not None:
         lines += ["", *_wrapped(ber_line(ber), "", "")]
-    lines += _both_ends(record)
+    if own is None:
+        lines += _both_ends(record)
     lines += ["", words.CHECK_NEXT]
     for check in record["next_checks"]:
         lines += _wrapped(check, "  - ", "    ")
@@ -120,11 +128,15 @@ def _both_ends(record: DiagnosisRecord) -> list[str]:
     if far is None or link is None:
         return []
     title = kind_of(far["verdict"]).title
+    own = record.get("own_view")
+    near = record["title"] if own is None else own["title"]
     lines = ["", words.BOTH_ENDS]
     lines += _wrapped(
         words.far_end_line(printable(far["device"]), printable(far["port"]), title), "  ", "    "
     )
-    lines += _wrapped(words.link_line(link["title"], record["title"], title), "  ", "    ")
+    lines += _wrapped(words.link_line(link["title"], near, title), "  ", "    ")
+    if own is not None:
+        return lines  # its reasons are the evidence above, its checks those to do next
     for said in link["said"]:
         lines += _wrapped(said, "  * ", "    ")
     for check in link["checks"]:

@@ -441,6 +441,18 @@ QUESTIONS_ASKED = "Questions asked"
 CHECK_NEXT = "Check next"
 CHECK_FIRST = "Check first"
 BOTH_ENDS = "Both ends"
+#: Where the link decided the verdict: the tree asked of this port's counters alone.
+QUESTIONS_OF_THIS_END = "Questions asked of this port's own counters"
+
+
+def own_view_heading(title: str) -> str:
+    """Where the link decided the verdict: what this port's counters alone say."""
+    return f"This port alone: {title}"
+
+
+def own_view_summary(title: str) -> str:
+    """The same, in one line, for an answer's first screen."""
+    return f"Decided from both ends of the link; this port's own counters alone say {title}."
 
 
 def far_end_line(device: str, port: str, title: str) -> str:

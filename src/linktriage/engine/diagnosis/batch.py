@@ -20,10 +20,11 @@ from linktriage.engine.format.answers import (
     FarEndRecord,
     LinkRecord,
     NearestOther,
+    OwnViewRecord,
     RuledOutRecord,
     Verdict,
 )
-from linktriage.engine.links import judge_link
+from linktriage.engine.links import UNREAD, judge_link
 from linktriage.engine.measure.columns import Columns
 from linktriage.engine.measure.window import WindowTable
 from linktriage.engine.model.features import FEATURE_KIND, FEATURE_NAMES, FeatureRows
@@ -85,6 +86,16 @@ class _LinkedLine(_Line, gc=False):
 
     far_end: FarEndRecord
     link: LinkRecord
+
+
+class _DecidedLine(_LinkedLine, gc=False):
+    """A line whose verdict the link decided: this end's own answer kept, after."""
+
+    own_view: OwnViewRecord
+
+
+#: Where the link's verdict is an answer of its own, its evidence cites both ends' counters.
+_LINK_SOURCE = "both ends of the link, each counting what it receives (RFC 2863, RFC 3635)"
 
 
 _encode_lines = msgspec.json.Encoder().encode_lines
@@ -192,12 +203,16 @@ class DiagnosisBatch:
                 strict=True,
             )
         )
-        lines = []
+        lines: list[_Line] = []
         for i, e, n in zip(rows, evidence, nearest, strict=True):
             asked_json = questions.get(i)
             if asked_json is None:  # a guard answered: the question it asked
                 asked_json = _encode([GUARD_KINDS[self.verdict[i]].question(self, i)])
-            lines.append(self._line(i, e, msgspec.Raw(asked_json), n, links.get(i)))
+            link = links.get(i)
+            if link is not None and self.decides(i):
+                lines.append(self._decided_line(i, e, msgspec.Raw(asked_json), n, link))
+            else:
+                lines.append(self._line(i, e, msgspec.Raw(asked_json), n, link))
         return lines
 
     def _links(
@@ -243,11 +258,34 @@ class DiagnosisBatch:
             view = self._views[i] = judge_link(i, j, self.verdict, self.column, self.end_name)
         return view
 
-    def link_verdict(self, i: int) -> Verdict:
-        """What row ``i``'s link is, from both ends where both are in the batch, else from
-        the port alone: what lists of suspects rank by."""
+    def decides(self, i: int) -> bool:
+        """Whether the link's view, from both ends, gives row ``i`` another verdict than
+        its own counters do: both ends read and measured, and the link judged otherwise."""
+        j = self.far[i]
+        if j < 0 or self.verdict[i] in UNREAD or self.verdict[j] in UNREAD:
+            return False
         view = self.link(i)
-        return self.verdict[i] if view is None else view.verdict
+        return view is not None and view.verdict != self.verdict[i]
+
+    def link_verdict(self, i: int) -> Verdict:
+        """Row ``i``'s answer: the link's verdict where :meth:`decides`, else the port's
+        own. What records say and lists of suspects rank by."""
+        if self.decides(i):
+            view = self.link(i)
+            assert view is not None
+            return view.verdict
+        return self.verdict[i]
+
+    def link_confidence(self, i: int) -> float:
+        """How sure row ``i``'s answer is. Where the link decided: as sure as the end whose
+        own verdict it is, else (neither end alone says it) no surer than the less sure
+        of the two ends, since it rests on both ends' readings."""
+        if not self.decides(i):
+            return self.confidence[i]
+        j = self.far[i]
+        if self.verdict[j] == self.link_verdict(i):
+            return self.confidence[j]
+        return min(self.confidence[i], self.confidence[j])
 
     def end_name(self, i: int) -> str:
         """A port as the link's words name it: ``lark-core1 up3``."""
@@ -281,6 +319,68 @@ class DiagnosisBatch:
             self.polls[i],
             self.bit_errors(i),
             self.note[i],
+        )
+
+    def _decided_line(
+        self,
+        i: int,
+        evidence: list[EvidenceRecord],
+        questions: msgspec.Raw,
+        nearest: NearestOther | None,
+        link: tuple[FarEndRecord, LinkRecord],
+    ) -> _Line:
+        """The line of a port whose verdict the link decided: the link's verdict, its
+        reasons as evidence (then the far end's readings where they are that verdict's,
+        each naming that end),
+        its checks naming each end, and the cautions for this port; the tree's questions
+        of this end stay, with its own answer beside."""
+        far_end, view = link
+        verdict = Verdict(view["verdict"])
+        kind = kind_of(verdict)
+        said: list[EvidenceRecord] = []
+        if far_end["verdict"] == verdict:  # the far end's readings, said as its own
+            at = self.end_name(self.far[i])
+            said = [{**e, "said": f"at {at}: {e['said']}"} for e in far_end["evidence"]]
+        reasons: list[EvidenceRecord] = [
+            {
+                "feature": "link",
+                "value": None,
+                "unit": "",
+                "reference": None,
+                "source": _LINK_SOURCE,
+                "said": reason,
+            }
+            for reason in view["said"]
+        ]
+        checks = [*view["checks"], *(c.text for c in kind.checks_for(fiber=self.fiber[i]))]
+        _, warn = _advice_json(verdict, self.fiber[i], self.poe[i])
+        own: OwnViewRecord = {
+            "verdict": self.verdict[i],
+            "title": kind_of(self.verdict[i]).title,
+            "confidence": self.confidence[i],
+            "evidence": evidence,
+            "nearest_other": nearest,
+        }
+        return _DecidedLine(
+            self.device[i],
+            self.port[i],
+            verdict,
+            kind.title,
+            self.link_confidence(i),
+            questions,
+            reasons + said,
+            self.ruled_out_record(i),
+            None,  # the tree's nearest change moves this end's own answer, not the link's
+            msgspec.Raw(_encode(checks)),
+            warn,
+            self.model.version,
+            self.window_s[i],
+            self.polls[i],
+            self.bit_errors(i),
+            self.note[i],
+            far_end=far_end,
+            link=view,
+            own_view=own,
         )
 
     def evidence(self, i: int) -> list[EvidenceRecord]:

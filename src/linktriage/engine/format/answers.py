@@ -91,6 +91,17 @@ class LinkRecord(TypedDict):
     agree: bool  # both ends gave this verdict on their own
 
 
+class OwnViewRecord(TypedDict):
+    """The port's answer from its own counters alone, kept where the link's view (from
+    both ends) decided the verdict: what the tree and the guards said of this end."""
+
+    verdict: str
+    title: str
+    confidence: float
+    evidence: list[EvidenceRecord]
+    nearest_other: NearestOther | None
+
+
 class DiagnosisRecord(TypedDict):
     """One port's diagnosis: one line of ``diagnose --json``."""
 
@@ -112,3 +123,4 @@ class DiagnosisRecord(TypedDict):
     note: str | None
     far_end: NotRequired[FarEndRecord]  # only where the far end is in the same input
     link: NotRequired[LinkRecord]
+    own_view: NotRequired[OwnViewRecord]  # only where the link's verdict is not this end's own
