@@ -28,12 +28,14 @@ from linktriage.engine.verdicts.insufficient_traffic import INSUFFICIENT_TRAFFIC
 
 @dataclass(frozen=True, slots=True)
 class Score:
-    """Macro-F1 over the verdicts present, recall per verdict, and false alarms."""
+    """Macro-F1 over the verdicts present, recall per verdict, false alarms, and faults
+    missed (answered healthy)."""
 
     ports: int
     macro_f1: float
     recall: dict[str, float]
     healthy_called_faulty: float
+    faults_called_healthy: float
     wrong: list[tuple[int, str, str]]  # (row, expected, answered)
 
 
@@ -45,12 +47,15 @@ def score(expected: npt.NDArray[np.object_], answered: npt.NDArray[np.object_]) 
     recall = recall_score(expected, answered, labels=labels, average=None, zero_division=0.0)
     healthy = expected == HEALTHY
     alarm = float(np.mean([a in FAULTS for a in answered[healthy]])) if healthy.any() else 0.0
+    fault = np.isin(expected, list(FAULTS))
+    missed = float(np.mean(answered[fault] == HEALTHY)) if fault.any() else 0.0
     wrong = [(int(i), expected[i], answered[i]) for i in np.flatnonzero(expected != answered)]
     return Score(
         ports=len(expected),
         macro_f1=float(f1_score(expected, answered, labels=labels, average="macro")),
         recall={c: float(r) for c, r in zip(labels, recall, strict=True)},
         healthy_called_faulty=alarm,
+        faults_called_healthy=missed,
         wrong=wrong,
     )
 
@@ -76,7 +81,8 @@ def score_labelled(
     batch = diagnose(result.polls, model)
     expect = {(label["device"], label["port"]): label["expect"] for label in labels}
     expected = np.array([expect[key] for key in zip(batch.device, batch.port, strict=True)])
-    return score(expected, np.array(batch.verdict))
+    # The answer as diagnose --json gives it: the link's where both ends were read.
+    return score(expected, np.array([batch.link_verdict(i) for i in range(len(batch))]))
 
 
 def score_simulated(model: Model, ports: int, seed: int, ranges: Ranges) -> Score:
