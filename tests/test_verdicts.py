@@ -13,6 +13,7 @@ import pytest
 from linktriage.engine.diagnosis.batch import DiagnosisBatch
 from linktriage.engine.format.answers import Verdict
 from linktriage.engine.measure.signs import Signs
+from linktriage.engine.model.features import FEATURE_NAMES
 from linktriage.engine.simulate.ports import TRAINING, base
 from linktriage.engine.verdict_kit.declaration import (
     SHORT,
@@ -25,6 +26,7 @@ from linktriage.engine.verdict_kit.readings import PortGroup
 from linktriage.engine.verdicts import (
     GUARD_VERDICTS,
     KINDS,
+    TREE,
     TREE_VERDICTS,
     VERDICTS,
     cautions_for,
@@ -225,7 +227,9 @@ from linktriage.engine.format.answers import Verdict
 from linktriage.engine.simulate.ports import (
     COPPER_1G, Ranges, Rng, at_least, fault_ber, frames, log_uniform,
 )
-from linktriage.engine.verdict_kit.declaration import DemoPlant, Need, Touch, TreeVerdict, check
+from linktriage.engine.verdict_kit.declaration import (
+    DemoPlant, Need, Shows, Touch, TreeVerdict, check,
+)
 from linktriage.engine.verdict_kit.readings import Items, PortGroup, bit_errors, count_and_share
 
 if TYPE_CHECKING:
@@ -269,6 +273,7 @@ KIND = TreeVerdict(
     phrases=(("toy", 3),),
     signature=_signature,
     prior_share=0.10,
+    readings=(Shows("giant_ratio", higher=True), Shows("ber_over_objective", higher=True)),
 )
 '''
 #: In the copy: a model trained with the toy, and the bot asked about the toy's demo port.
@@ -317,3 +322,11 @@ def test_a_verdict_added_as_one_module_is_served_end_to_end(tmp_path: Path) -> N
     drawn = json.dumps(seen["message"])
     assert ':toy_fault"' in drawn and '"toy fault"' in drawn  # offered as what it really was
     assert seen["label"] == "toy_fault"
+
+
+def test_every_fault_names_the_tree_features_that_show_it_and_which_way() -> None:
+    # What would change an answer is said in a reading of the verdict it leads to
+    # (model/nearest.py): each fault must name at least one, each a feature of the tree.
+    for kind in TREE:
+        assert {r.feature for r in kind.readings} <= set(FEATURE_NAMES), kind.verdict
+        assert bool(kind.readings) == (kind.severity is not None), kind.verdict

@@ -17,6 +17,13 @@ measures a feature does not determine (counts, the window, the module's threshol
 is the tree's own counterfactual, and it never names a verdict the port's readings rule
 out. Where the physics leaves one verdict, no change of a single feature moves the answer.
 
+A change is named only where it reads as a cause: the feature moves the way that shows the
+verdict it leads to (each verdict declares its ``readings``, each feature with its way), or
+back from the way that shows the verdict answered now, so that what remains decides. Fewer
+discards make a congested port healthy; more light makes a low-light port with errors a
+cable fault; more frames too long, or fewer bit errors, do not make a duplex mismatch a
+cable fault, whatever branch the tree takes there.
+
 Every threshold lies between two training values, which lie within the clip bounds, so
 every interval holds values a port can take. Ports in the same interval of every feature
 with the same allowed classes share the work: it is done once per such cell.
@@ -31,6 +38,7 @@ import numpy.typing as npt
 
 from linktriage.engine.model.artefact import CompiledTree
 from linktriage.engine.model.features import FEATURE_BY_NAME
+from linktriage.engine.verdicts import TREE
 
 
 @dataclass(frozen=True, slots=True)
@@ -73,6 +81,16 @@ class Counterfactuals:
                 for c in self.columns
             ]
         )
+        # shows[way][f, k]: the f-th feature split on, moving up (way 1) or down (way 0),
+        # shows the k-th class (the module docstring).
+        ways = {(k.verdict, r.feature, r.higher) for k in TREE for r in k.readings}
+        self.shows = [
+            np.array(
+                [[(v, tree.features[c], up) in ways for v in tree.classes] for c in self.columns],
+                np.bool_,
+            ).reshape(len(self.columns), len(tree.classes))
+            for up in (False, True)
+        ]
 
     def answer(
         self, leaf: npt.NDArray[np.intp], allowed: npt.NDArray[np.bool_]
@@ -160,8 +178,8 @@ class Counterfactuals:
             other = (answers != now[:, None]) & ~np.isnan(points)
             j = np.arange(len(points))
             here = cells[:, f].astype(np.intp)[:, None]
-            above = other & (j > here)
-            below = other & (j < here)
+            above = other & (j > here) & self._causes(f, True, answers, now)
+            below = other & (j < here) & self._causes(f, False, answers, now)
             rows_up = np.flatnonzero(above.any(axis=1))
             nearest_up = np.argmax(above[rows_up], axis=1)  # first interval above
             up_t[rows_up, f] = cuts[nearest_up - 1]  # its lower bound
@@ -171,3 +189,12 @@ class Counterfactuals:
             down_t[rows_down, f] = cuts[nearest_down]  # its upper bound
             down_k[rows_down, f] = answers[rows_down, nearest_down]
         return (up_t, up_k), (down_t, down_k)
+
+    def _causes(
+        self, f: int, up: bool, answers: npt.NDArray[np.intp], now: npt.NDArray[np.intp]
+    ) -> npt.NDArray[np.bool_]:
+        """Where moving the ``f``-th feature up (or down) into each interval reads as the
+        cause of the answer there: it shows that answer, or it goes back from what shows
+        the answer now."""
+        toward, back = self.shows[up][f], self.shows[not up][f]
+        return np.asarray(toward[answers] | back[now][:, None], np.bool_)

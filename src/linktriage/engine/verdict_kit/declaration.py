@@ -222,6 +222,15 @@ class VerdictKind:
         return [*chosen, Caution.LOCAL_CODES] if chosen else []
 
 
+@dataclass(frozen=True, slots=True)
+class Shows:
+    """A feature of the tree (model/features.py names them) that shows a verdict, and
+    which way: its higher values, or its lower ones."""
+
+    feature: str
+    higher: bool
+
+
 @dataclass(frozen=True, slots=True, kw_only=True)
 class TreeVerdict(VerdictKind):
     """A verdict the tree answers, among those the port's readings allow."""
@@ -232,6 +241,10 @@ class TreeVerdict(VerdictKind):
     phrases: tuple[tuple[str, int], ...]  # phrases of the trade naming it, each with a weight
     signature: Signature
     prior_share: float  # its share of the simulated ports the tree learns from
+    #: The tree's features that show it, each with the way it shows it: a change that
+    #: leads to it is one of these moving that way, and one from it to healthy, one moving
+    #: back; none for healthy.
+    readings: tuple[Shows, ...]
     link: LinkJudge | None = None  # where both ends of a link show it
     one_end_only: str | None = None  # why one end may see it and the other not
 

@@ -28,6 +28,7 @@ from linktriage.engine.simulate.ports import (
 from linktriage.engine.verdict_kit.declaration import (
     DemoPlant,
     Need,
+    Shows,
     Touch,
     TreeVerdict,
     check,
@@ -139,5 +140,6 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.10,
+    readings=(Shows("discard_ratio", higher=True), Shows("discard_utilisation", higher=True)),
     one_end_only="discards are counted where a queue overflows, on one side of the link",
 )

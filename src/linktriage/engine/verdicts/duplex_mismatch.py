@@ -32,6 +32,7 @@ from linktriage.engine.verdict_kit.declaration import (
     DemoPlant,
     LinkJudge,
     Need,
+    Shows,
     Touch,
     TreeVerdict,
     When,
@@ -207,6 +208,12 @@ KIND = TreeVerdict(
     phrases=(("duplex", 3), ("late collision", 3)),
     signature=_signature,
     prior_share=0.10,
+    readings=(
+        Shows("late_collision_ratio", higher=True),
+        Shows("collision_ratio", higher=True),
+        Shows("runts_vs_collisions", higher=True),
+        Shows("half_duplex", higher=True),
+    ),
     link=LinkJudge(10, _half_and_full),
     one_end_only="a port's duplex is its own setting",
 )

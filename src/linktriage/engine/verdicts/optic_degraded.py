@@ -29,6 +29,7 @@ from linktriage.engine.verdict_kit.declaration import (
     DemoPlant,
     LinkJudge,
     Need,
+    Shows,
     Touch,
     TreeVerdict,
     When,
@@ -210,5 +211,6 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.10,
+    readings=(Shows("light_margin_db", higher=False), Shows("tx_margin_db", higher=False)),
     link=LinkJudge(30, _lossy_strand),
 )

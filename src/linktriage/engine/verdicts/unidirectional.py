@@ -22,6 +22,7 @@ from linktriage.engine.verdict_kit.declaration import (
     DemoPlant,
     LinkJudge,
     Need,
+    Shows,
     Touch,
     TreeVerdict,
     When,
@@ -165,5 +166,6 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.10,
+    readings=(Shows("quiet_fps", higher=False),),
     link=LinkJudge(20, _one_way),
 )
