@@ -137,8 +137,8 @@ def test_no_nearer_change_of_any_feature_changes_scikit_learns_verdict(
 def _reads_as_cause(feature: str, up: bool, now: str, then: str) -> bool:
     """Moving ``feature`` up (or down) shows ``then``, or goes back from what shows
     ``now``."""
-    toward = getattr(kind_of(then), "readings", ())
-    back = getattr(kind_of(now), "readings", ())
+    toward = getattr(kind_of(then), "shown_by", ())
+    back = getattr(kind_of(now), "shown_by", ())
     return any(r.feature == feature and r.higher == up for r in toward) or any(
         r.feature == feature and r.higher != up for r in back
     )

@@ -273,7 +273,7 @@ KIND = TreeVerdict(
     phrases=(("toy", 3),),
     signature=_signature,
     prior_share=0.10,
-    readings=(Shows("giant_ratio", higher=True), Shows("ber_over_objective", higher=True)),
+    shown_by=(Shows("giant_ratio", higher=True), Shows("ber_over_objective", higher=True)),
 )
 '''
 #: In the copy: a model trained with the toy, and the bot asked about the toy's demo port.
@@ -328,5 +328,5 @@ def test_every_fault_names_the_tree_features_that_show_it_and_which_way() -> Non
     # What would change an answer is said in a reading of the verdict it leads to
     # (model/nearest.py): each fault must name at least one, each a feature of the tree.
     for kind in TREE:
-        assert {r.feature for r in kind.readings} <= set(FEATURE_NAMES), kind.verdict
-        assert bool(kind.readings) == (kind.severity is not None), kind.verdict
+        assert {r.feature for r in kind.shown_by} <= set(FEATURE_NAMES), kind.verdict
+        assert bool(kind.shown_by) == (kind.severity is not None), kind.verdict

@@ -32,7 +32,7 @@ from linktriage.engine.model.nearest import Nearest
 from linktriage.engine.model.questions import change_said
 from linktriage.engine.physics import Allowed
 from linktriage.engine.verdict_kit.ends import LinkView
-from linktriage.engine.verdict_kit.readings import PortGroup
+from linktriage.engine.verdict_kit.readings import PortGroup, item
 from linktriage.engine.verdicts import GUARD_KINDS, TREE, kind_of
 from linktriage.gc_pause import gc_paused
 
@@ -331,9 +331,8 @@ class DiagnosisBatch:
     ) -> _Line:
         """The line of a port whose verdict the link decided: the link's verdict, its
         reasons as evidence (then the far end's readings where they are that verdict's,
-        each naming that end),
-        its checks naming each end, and the cautions for this port; the tree's questions
-        of this end stay, with its own answer beside."""
+        each naming that end), its checks naming each end, and the cautions for this port;
+        the tree's questions of this end stay, with its own answer beside."""
         far_end, view = link
         verdict = Verdict(view["verdict"])
         kind = kind_of(verdict)
@@ -341,17 +340,7 @@ class DiagnosisBatch:
         if far_end["verdict"] == verdict:  # the far end's readings, said as its own
             at = self.end_name(self.far[i])
             said = [{**e, "said": f"at {at}: {e['said']}"} for e in far_end["evidence"]]
-        reasons: list[EvidenceRecord] = [
-            {
-                "feature": "link",
-                "value": None,
-                "unit": "",
-                "reference": None,
-                "source": _LINK_SOURCE,
-                "said": reason,
-            }
-            for reason in view["said"]
-        ]
+        reasons = [item("link", None, "", None, _LINK_SOURCE, reason) for reason in view["said"]]
         checks = [*view["checks"], *(c.text for c in kind.checks_for(fiber=self.fiber[i]))]
         _, warn = _advice_json(verdict, self.fiber[i], self.poe[i])
         own: OwnViewRecord = {

@@ -18,8 +18,8 @@ is the tree's own counterfactual, and it never names a verdict the port's readin
 out. Where the physics leaves one verdict, no change of a single feature moves the answer.
 
 A change is named only where it reads as a cause: the feature moves the way that shows the
-verdict it leads to (each verdict declares its ``readings``, each feature with its way), or
-back from the way that shows the verdict answered now, so that what remains decides. Fewer
+verdict it leads to (each verdict declares the features it is ``shown_by``, and which way),
+or back from the way that shows the verdict answered now, so that what remains decides. Fewer
 discards make a congested port healthy; more light makes a low-light port with errors a
 cable fault; more frames too long, or fewer bit errors, do not make a duplex mismatch a
 cable fault, whatever branch the tree takes there.
@@ -83,7 +83,7 @@ class Counterfactuals:
         )
         # shows[way][f, k]: the f-th feature split on, moving up (way 1) or down (way 0),
         # shows the k-th class (the module docstring).
-        ways = {(k.verdict, r.feature, r.higher) for k in TREE for r in k.readings}
+        ways = {(k.verdict, r.feature, r.higher) for k in TREE for r in k.shown_by}
         self.shows = [
             np.array(
                 [[(v, tree.features[c], up) in ways for v in tree.classes] for c in self.columns],

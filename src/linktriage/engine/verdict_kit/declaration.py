@@ -244,7 +244,7 @@ class TreeVerdict(VerdictKind):
     #: The tree's features that show it, each with the way it shows it: a change that
     #: leads to it is one of these moving that way, and one from it to healthy, one moving
     #: back; none for healthy.
-    readings: tuple[Shows, ...]
+    shown_by: tuple[Shows, ...]
     link: LinkJudge | None = None  # where both ends of a link show it
     one_end_only: str | None = None  # why one end may see it and the other not
 

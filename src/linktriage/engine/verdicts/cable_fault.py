@@ -227,6 +227,6 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.10,
-    readings=(Shows("ber_over_objective", higher=True), Shows("flaps_per_hour", higher=True)),
+    shown_by=(Shows("ber_over_objective", higher=True), Shows("flaps_per_hour", higher=True)),
     link=LinkJudge(40, _errors_one_way),
 )

@@ -140,6 +140,6 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.10,
-    readings=(Shows("discard_ratio", higher=True), Shows("discard_utilisation", higher=True)),
+    shown_by=(Shows("discard_ratio", higher=True), Shows("discard_utilisation", higher=True)),
     one_end_only="discards are counted where a queue overflows, on one side of the link",
 )

@@ -88,5 +88,5 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.30,
-    readings=(),
+    shown_by=(),
 )

@@ -107,5 +107,5 @@ KIND = TreeVerdict(
     phrases=(("mtu", 3), ("jumbo", 3), ("frame size", 2), ("giant", 2)),
     signature=_signature,
     prior_share=0.10,
-    readings=(Shows("giant_ratio", higher=True),),
+    shown_by=(Shows("giant_ratio", higher=True),),
 )

@@ -133,6 +133,6 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.10,
-    readings=(Shows("speed_ratio", higher=False), Shows("half_duplex", higher=True)),
+    shown_by=(Shows("speed_ratio", higher=False), Shows("half_duplex", higher=True)),
     one_end_only="a port's speed is what its own negotiation settled on",
 )

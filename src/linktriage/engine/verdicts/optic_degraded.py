@@ -211,6 +211,6 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.10,
-    readings=(Shows("light_margin_db", higher=False), Shows("tx_margin_db", higher=False)),
+    shown_by=(Shows("light_margin_db", higher=False), Shows("tx_margin_db", higher=False)),
     link=LinkJudge(30, _lossy_strand),
 )

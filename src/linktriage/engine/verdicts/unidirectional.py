@@ -166,6 +166,6 @@ KIND = TreeVerdict(
     phrases=_PHRASES,
     signature=_signature,
     prior_share=0.10,
-    readings=(Shows("quiet_fps", higher=False),),
+    shown_by=(Shows("quiet_fps", higher=False),),
     link=LinkJudge(20, _one_way),
 )
