@@ -5,11 +5,11 @@ with the bot) are in :mod:`linktriage.render.words`."""
 from __future__ import annotations
 
 from collections.abc import Mapping
-from datetime import UTC, datetime
+from datetime import datetime
 from typing import TYPE_CHECKING
 
 from linktriage.printable import printable
-from linktriage.render.words import cannot_start, plural, ports_not_judged, span
+from linktriage.render.words import cannot_start, plural, ports_not_judged, span, utc_minute
 
 if TYPE_CHECKING:
     from linktriage.engine.model.labels import Label
@@ -152,17 +152,13 @@ def store_state(state: StoreState, keep_h: float) -> str:
     history = state.history
     if history is not None and history.oldest is not None and history.newest is not None:
         parts.append(
-            f"{plural(history.ports, 'port poll')} from {_utc(history.oldest)} to "
-            f"{_utc(history.newest)}"
+            f"{plural(history.ports, 'port poll')} from {utc_minute(history.oldest)} to "
+            f"{utc_minute(history.newest)}"
         )
     elif history is not None:
         parts.append("no polls yet")
     parts.append(f"polls kept {keep_h:g} h")
     return "; ".join(parts)
-
-
-def _utc(at: float) -> str:
-    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
 
 
 def inventory_missing(path: object) -> str:

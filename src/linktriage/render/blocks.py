@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import json
 import re
-from datetime import UTC, datetime
 from typing import Any, assert_never
 
 from linktriage.engine.format.answers import DiagnosisRecord
@@ -138,7 +137,7 @@ def text_size(blocks: list[Block]) -> int:
 
 def _slack_time(at: float) -> str:
     """A moment in Slack's date formatting: each reader sees it in their own time zone."""
-    fallback = datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
+    fallback = words.utc_minute(at)
     return f"<!date^{int(at)}^{{date_short_pretty}} {{time}}|{fallback}>"
 
 
@@ -360,10 +359,6 @@ def tree_message(reply: TreeReply) -> dict[str, Any]:
     return _message(words.tree_title(r["device"], r["port"], r["verdict"]), blocks)
 
 
-def _when(at: float) -> str:
-    return datetime.fromtimestamp(at, UTC).strftime("%a %d %b %H:%M UTC")
-
-
 def _entry(item: SuspectItem) -> str:
     r = item.record
     mark = "  :new:" if item.new else ""
@@ -403,9 +398,11 @@ def _first_message(reply: SuspectsReply) -> tuple[list[Block], int]:
     counts = [escape(reply.coverage)]
     if reply.since is not None:
         new = sum(1 for i in reply.items if i.new)
-        counts.append(words.new_and_cleared_since(new, len(reply.cleared), _when(reply.since)))
+        counts.append(
+            words.new_and_cleared_since(new, len(reply.cleared), words.day_and_time(reply.since))
+        )
     blocks: list[Block] = [
-        _header(words.list_heading(reply.title, _when(reply.at))),
+        _header(words.list_heading(reply.title, words.day_and_time(reply.at))),
         _context(" \u00b7 ".join(counts)),
     ]
     tail: list[Block] = []

@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-from datetime import UTC, datetime
 from typing import Any
 
 from linktriage.engine.measure.measures import RESOLUTION_CAP, RESOLUTION_TIMES_OBJECTIVE
 from linktriage.engine.measure.numbers import format_ratio, ratio_scale, sig
 from linktriage.engine.model.artefact import TreeArtefact
 from linktriage.engine.model.impurity import feature_importances
+from linktriage.render.words import utc_minute
 
 
 def importances(artefact: TreeArtefact) -> dict[str, float]:
@@ -38,7 +38,7 @@ def model_card_data(
 def _when(at: float | None) -> str:
     if at is None:
         return "before packaging"
-    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
+    return utc_minute(at)
 
 
 def card_text(card: dict[str, Any]) -> str:

@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import textwrap
 from collections.abc import Sequence
-from datetime import UTC, datetime
 from typing import IO, assert_never
 
 from linktriage.engine.diagnosis.batch import DiagnosisBatch, headline
@@ -144,15 +143,13 @@ def _both_ends(record: DiagnosisRecord) -> list[str]:
     return lines
 
 
-def _when(at: float) -> str:
-    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
-
-
 def suspects_text(reply: SuspectsReply) -> str:
-    lines = [words.list_heading(reply.title, _when(reply.at)), printable(reply.coverage)]
+    lines = [words.list_heading(reply.title, words.utc_minute(reply.at)), printable(reply.coverage)]
     if reply.since is not None:
         new = sum(1 for i in reply.items if i.new)
-        lines.append(words.since_the_last_digest(_when(reply.since), new, len(reply.cleared)))
+        lines.append(
+            words.since_the_last_digest(words.utc_minute(reply.since), new, len(reply.cleared))
+        )
     for item in reply.items:
         r = item.record
         mark = "  new" if item.new else ""

@@ -353,6 +353,11 @@ def day_and_time(at: float) -> str:
     return datetime.fromtimestamp(at, UTC).strftime("%a %d %b %H:%M UTC")
 
 
+def utc_minute(at: float) -> str:
+    """A moment to the minute, in UTC: "2026-03-02 08:05 UTC"."""
+    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
+
+
 def history_summary(runs: Sequence[Mapping[str, Any]]) -> str:
     """When the verdict last changed, in one line: "cable_fault since 02:40 UTC, healthy
     before"; a history of one verdict says how long it has held."""
