@@ -70,6 +70,30 @@ def grown(
     ]
 
 
+def stepped(
+    steps: list[dict[str, int]],
+    *,
+    every_s: float = 300.0,
+    port: str = "port1",
+    device: str = "lark-test-sw1",
+    **state: Any,
+) -> list[str]:
+    """Polls of one port ``every_s`` apart, each counter grown by ``steps[k]`` in interval
+    ``k``; a step's ``link_changes`` is how many times the link went down or up within it."""
+    start = datetime.fromisoformat(T0.replace("Z", "+00:00"))
+    names = sorted({name for step in steps for name in step if name != "link_changes"})
+    value = {name: 3_000_000_000 + 7 * k for k, name in enumerate(names)}
+    changes = 0
+    out = [line(T0, dict(value), device=device, port=port, link_changes=0, **state)]
+    for k, step in enumerate(steps, 1):
+        changes += step.get("link_changes", 0)
+        for name in names:
+            value[name] = (value[name] + step.get(name, 0)) % (2**64 if "HC" in name else 2**32)
+        at = (start + timedelta(seconds=every_s * k)).isoformat().replace("+00:00", "Z")
+        out.append(line(at, dict(value), device=device, port=port, link_changes=changes, **state))
+    return out
+
+
 def polls(*lines: str) -> PollTable:
     """Parse lines that must all be valid."""
     result = read_snapshots(lines)

@@ -118,7 +118,7 @@ def test_late_collisions_at_ten_gigabit_are_a_counter_fault() -> None:
 
 
 def test_the_resolution_is_one_in_10000_where_the_objective_allows_it() -> None:
-    # 1000BASE-T: 10^4 x 1e-10 = 1e-6 BER, more than 1e-4 per frame at 1,000 octets, so the
+    # 1000BASE-T: 3 x 10^4 x 1e-10 = 3e-6 BER, more than 1e-4 per frame at 1,000 octets, so the
     # cap holds: 29,956 frames, ln(0.05) / ln(1 - 1e-4) (the rule of three's 3 / 1e-4).
     m = measures({"ifHCInOctets": 10**9, "ifHCInUcastPkts": 10**6, "dot3StatsFCSErrors": 0})
     assert m["resolution"] == RESOLUTION_CAP == 1e-4
@@ -126,14 +126,14 @@ def test_the_resolution_is_one_in_10000_where_the_objective_allows_it() -> None:
 
 
 def test_the_resolution_is_finer_for_small_frames_on_a_1e12_phy() -> None:
-    # 10GBASE-R, 64-octet frames: 10^4 x 1e-12 = 1e-8 BER is an FER of about 5.12e-6 on
+    # 10GBASE-R, 64-octet frames: 3 x 10^4 x 1e-12 = 3e-8 BER is an FER of about 1.536e-5 on
     # 512-bit frames (the reflector's equivalence, BER 1e-12 ~ FER 5.12e-10, scaled).
     m = measures(
         {"ifHCInOctets": 64 * 10**7, "ifHCInUcastPkts": 10**7, "dot3StatsFCSErrors": 0},
         **TEN_G_FIBER,
     )
-    assert m["resolution"] == pytest.approx(5.12e-6, rel=1e-3)
-    assert m["frames_needed"] == pytest.approx(frames_needed(np.array([5.12e-6]))[0], rel=1e-3)
+    assert m["resolution"] == pytest.approx(1.536e-5, rel=1e-3)
+    assert m["frames_needed"] == pytest.approx(frames_needed(np.array([1.536e-5]))[0], rel=1e-3)
 
 
 def test_light_is_held_against_the_warning_else_the_alarm_else_the_sensitivity() -> None:

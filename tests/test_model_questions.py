@@ -62,7 +62,7 @@ def test_every_feature_has_words_for_a_change() -> None:
 def test_a_change_reads_with_the_threshold_and_the_value_now() -> None:
     said = change_said("ber_over_objective", "times", -0.5, False, "healthy")
     assert said(math.log10(180.0)) == (
-        "would be healthy with the bit error ratio, at the low end of its 95% range, below "
+        "would be healthy with the bit error ratio, at the low end of its 99% range, below "
         "0.32 times the PHY's objective; now 180 times"
     )
     said = change_said("light_margin_db", "db", 0.65, True, "cable or connector fault")

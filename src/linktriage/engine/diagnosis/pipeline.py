@@ -22,6 +22,7 @@ from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.guards import apply_guards
 from linktriage.engine.links import pair_ends
 from linktriage.engine.measure.measures import measure, speed_media_pairs
+from linktriage.engine.measure.now import now_and_before
 from linktriage.engine.measure.phy import phy_name
 from linktriage.engine.measure.window import DEFAULT_MAX_WINDOW_S, compute_windows, port_codes
 from linktriage.engine.model.features import feature_rows
@@ -108,7 +109,7 @@ def _chunks_of_ports(
 
 def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisBatch:
     windows = compute_windows(polls, max_window_s=max_window_s)
-    measured = measure(windows)
+    windows, measured = now_and_before(polls, windows, measure(windows), max_window_s)
     m = measured.table
     rows = feature_rows(m)
     ok = allowed(m)

@@ -37,8 +37,9 @@ class QuestionRecord(TypedDict):
 class BitErrorRecord(TypedDict):
     """The bit error ratio implied by the receive errors, against the PHY's objective.
 
-    ``exceeds`` is true only when the ratio is significantly over the objective: its 95%
-    lower bound is above it, from enough errored frames to count.
+    ``exceeds`` is true only when the errors are evidence of a fault: over the objective by
+    an exact one-sided test at 99%, ten times it or more, from enough errored frames to be
+    more than one burst. ``lower`` and ``upper`` are the one-sided 95% bounds.
     """
 
     phy: str

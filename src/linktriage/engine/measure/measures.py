@@ -44,11 +44,28 @@ from linktriage.engine.measure.phy import (
 )
 from linktriage.engine.measure.window import WindowTable
 
-#: One-sided confidence of every bound on a ratio.
+#: One-sided confidence of the bounds an answer shows on a ratio (the rule of three's).
 CONFIDENCE = 0.95
-#: Fewest events (errored frames, runts, frames too long, discards) that make evidence: a
-#: handful is a re-seated cord or one burst of noise, not grounds to send someone to a closet;
-#: a fault shows dozens (common practice).
+#: Level of the significance tests that make a rate evidence: a one-sided exact binomial
+#: test (Clopper-Pearson), at 99%, of the measured ratio against the level that matters.
+TEST_CONFIDENCE = 0.99
+#: Errors are evidence of a fault where the test shows the bit error ratio over the PHY's
+#: IEEE 802.3 objective and it measures at least this many times the objective: a link
+#: meeting its objective shows a few errored frames by chance, and one running a few times
+#: over it is marginal, not a cable to replace (common practice). Three errored frames
+#: among 2.5 million at 1 Gb/s do not pass; 19 among 1.2 million do (20 times 1e-10).
+FAULT_TIMES_OBJECTIVE = 10.0
+#: The test counts errored frames as if each were its own event, but errors come in bursts
+#: (a touched plug, an ESD hit): fewer than this many errored frames may be one or two
+#: events, and never make a rate (common practice).
+MIN_ERROR_FRAMES = 10
+#: Output discards above this share of the frames sent, by the same test, are bursts the
+#: egress buffer cannot absorb at whatever average load (SNAPSHOT-FORMAT 1.2 congestion); a
+#: few per million are the stray microburst of any busy port (common practice: 1 in 10,000).
+BURST_DISCARD_SHARE = 1e-4
+#: Fewest events (runts, frames too long, discards in a direction at high load) that make
+#: evidence where there is no objective to test against: a handful is a re-seated cord or
+#: one burst of noise (common practice).
 MIN_EVENTS = 20
 #: Fewest collisions (late or not) that show a port runs half duplex: the collision counters
 #: do not increment in full duplex (RFC 3635), so a few are enough; three, so that one
@@ -57,7 +74,7 @@ MIN_COLLISIONS = 3
 #: A clean port is judged once its frames bound the error ratio below the ratio at which
 #: the bit error ratio would be this many times the PHY's objective (a fault that loses one
 #: frame in a few hundred thousand or more)...
-RESOLUTION_TIMES_OBJECTIVE = 1e4
+RESOLUTION_TIMES_OBJECTIVE = 3e4
 #: ... or below this frame error ratio, whichever is smaller: one errored frame in 10,000,
 #: the loss at which TCP throughput visibly suffers (common practice).
 RESOLUTION_CAP = 1e-4
@@ -130,6 +147,14 @@ def error_ratio_bounds(
     upper[below] = betaincinv(k[below] + 1.0, n[below] - k[below], confidence)
     lower[some] = betaincinv(k[some], n[some] - k[some] + 1.0, 1.0 - confidence)
     return lower, upper
+
+
+def ratio_floor(events: FloatArray, frames: FloatArray) -> FloatArray:
+    """The least a ratio of ``events`` in ``frames`` can be at :data:`TEST_CONFIDENCE`
+    (its one-sided lower Clopper-Pearson bound): a ratio is significantly over ``r`` exactly
+    where this is over ``r``. NaN where either is unknown."""
+    lower, _ = error_ratio_bounds(events, frames, TEST_CONFIDENCE)
+    return np.where(np.isnan(events) | ~(frames > 0), np.nan, lower)
 
 
 def frames_needed(resolution: FloatArray) -> FloatArray:
@@ -260,11 +285,22 @@ def measure(w: WindowTable) -> Measured:
     ber_lo = np.where(known, estimate_ber(fer_lo, frame_bits), np.nan)
     ber_hi = np.where(known, estimate_ber(fer_hi, frame_bits), np.nan)
     objective = _per_pair(speed, fiber, objective_for)
+    # Fewer errored frames than MIN_ERROR_FRAMES show no rate: their floor is nothing.
+    counted = np.where(rx_errors >= MIN_ERROR_FRAMES, rx_errors, 0.0)
+    ber_floor = np.where(known, estimate_ber(ratio_floor(counted, rx_frames), frame_bits), np.nan)
     resolution = np.minimum(
         frame_error_ratio(RESOLUTION_TIMES_OBJECTIVE * objective, frame_bits), RESOLUTION_CAP
     )
 
     runts = _nansum(d["undersize"], d["fragments"])
+    # What ifInErrors and ifOutErrors count beyond the parts RFC 3635 section 3.2.10 names
+    # and the device reports: errors of the device itself (overruns, its own classes).
+    in_errors_other = np.where(
+        np.isnan(crc), np.nan, np.maximum(d["in_errors"] - crc - _zero(giants), 0.0)
+    )
+    out_errors_other = np.maximum(
+        d["out_errors"] - _zero(d["late_collisions"]) - _zero(d["excessive_collisions"]), 0.0
+    )
     runt_share = _ratio(runts, runts + _zero(rx_errors))
     collisions = _nansum(
         d["single_collisions"], d["multiple_collisions"], d["excessive_collisions"]
@@ -276,10 +312,12 @@ def measure(w: WindowTable) -> Measured:
     tx_fps = _ratio(tx_frames, window_s)
     in_discard_ratio = _ratio(d["in_discards"], rx_frames)
     out_discard_ratio = _ratio(d["out_discards"], tx_frames)
+    in_discard_floor = ratio_floor(d["in_discards"], rx_frames)
+    out_discard_floor = ratio_floor(d["out_discards"], tx_frames)
     # The direction under suspicion: the one with significant discards, the busier one if
     # both have them, else the one discarding the larger share.
     sig_in = d["in_discards"] >= MIN_EVENTS
-    sig_out = d["out_discards"] >= MIN_EVENTS
+    sig_out = (d["out_discards"] >= MIN_EVENTS) | (out_discard_floor > BURST_DISCARD_SHARE)
     busier_out = np.nan_to_num(tx_util, nan=-1.0) >= np.nan_to_num(rx_util, nan=-1.0)
     larger_out = np.nan_to_num(out_discard_ratio, nan=-1.0) > np.nan_to_num(
         in_discard_ratio, nan=-1.0
@@ -330,6 +368,13 @@ def measure(w: WindowTable) -> Measured:
             "rx_errors": rx_errors,
             "error_source": error_source,
             "symbol_errors": d["symbol_errors"],
+            "alignment_share": _ratio(
+                d["alignment_errors"], _nansum(d["fcs_errors"], d["alignment_errors"])
+            ),
+            "in_errors_other": in_errors_other,
+            "in_errors_other_floor": ratio_floor(in_errors_other, rx_frames),
+            "out_errors_other": out_errors_other,
+            "out_errors_other_floor": ratio_floor(out_errors_other, tx_frames),
             "frame_octets": frame_octets,
             "fer": fer,
             "fer_lo": fer_lo,
@@ -337,6 +382,7 @@ def measure(w: WindowTable) -> Measured:
             "ber": ber,
             "ber_lo": ber_lo,
             "ber_hi": ber_hi,
+            "ber_floor": ber_floor,
             "objective": objective,
             "resolution": resolution,
             "frames_needed": frames_needed(resolution),
@@ -358,6 +404,7 @@ def measure(w: WindowTable) -> Measured:
             "discard_outbound": outbound.astype(np.float64),
             "discards": np.where(outbound, d["out_discards"], d["in_discards"]),
             "discard_ratio": np.where(outbound, out_discard_ratio, in_discard_ratio),
+            "discard_floor": np.where(outbound, out_discard_floor, in_discard_floor),
             "discard_util": np.where(outbound, tx_util, rx_util),
             "rx_dbm": rx_dbm,
             "rx_alarm_dbm": alarm,

@@ -1,9 +1,12 @@
 """What a port's readings show, per port: the facts every verdict's needs are written in.
 
 State readings (a speed below capability, half duplex, light under the thresholds, one
-direction silent, flapping) need no traffic. Rate readings (errors, runts, frames too long,
-discards) count only when they are significant in counts
-(:data:`linktriage.engine.measure.measures.MIN_EVENTS`).
+direction silent, flapping) need no traffic. Rates are evidence where a one-sided exact test
+at 99% shows them over the level that matters
+(:func:`linktriage.engine.measure.measures.ratio_floor`): errors over the PHY's objective
+(and measured at ten times it or more), output discards over their tolerated share. Runts,
+frames too long and discards at high load, which have no objective to test against, count
+from :data:`linktriage.engine.measure.measures.MIN_EVENTS`.
 """
 
 from __future__ import annotations
@@ -15,7 +18,12 @@ import numpy.typing as npt
 
 from linktriage.engine.format.poll_table import FloatArray
 from linktriage.engine.measure.columns import Columns
-from linktriage.engine.measure.measures import MIN_COLLISIONS, MIN_EVENTS
+from linktriage.engine.measure.measures import (
+    BURST_DISCARD_SHARE,
+    FAULT_TIMES_OBJECTIVE,
+    MIN_COLLISIONS,
+    MIN_EVENTS,
+)
 from linktriage.engine.measure.phy import half_duplex_exists
 
 BoolArray = npt.NDArray[np.bool_]
@@ -23,19 +31,36 @@ BoolArray = npt.NDArray[np.bool_]
 #: Three down/up cycles in the window: one or two are a reboot or a re-patch, several is
 #: flapping (OpenConfig interface-transitions: one flap counts 2; common practice).
 FLAPPING_CHANGES = 6
-#: A direction that carried no more than SILENT_FRAMES frames in the window, or fewer than
-#: one in 1 / SILENT_FPS seconds, is silent: a broken strand or pair passes nothing, and any
-#: live neighbour sends keepalives far more often (IEEE 802.1D BPDUs every 2 s, IEEE
-#: 802.1AB LLDP every 30 s). The other direction must carry at least ALIVE_FPS for the
-#: link to be one-way rather than idle (common practice).
+#: A direction that carried no more than SILENT_FRAMES frames in the window, or a trickle
+#: of fewer than one frame in 1 / SILENT_FPS seconds and under SILENT_SHARE of what the
+#: other direction carries, is silent: a broken strand or pair passes nothing, and an end
+#: with nothing of its own to send still sends its control frames (IEEE 802.1AB LLDP every
+#: 30 s, 0.033 frames/s), while a live host answers what it receives (a camera sending
+#: video gets a few frames a second back). The other direction must carry at least
+#: ALIVE_FPS for the link to be one-way rather than idle (common practice).
 SILENT_FRAMES = 2
-SILENT_FPS = 0.01
+SILENT_FPS = 0.1
+SILENT_SHARE = 1e-4
 ALIVE_FPS = 3.0
-#: Discards are congestion only where their direction runs at 60% of line rate or more,
-#: averaged over the window; below it they are filtering (ifInDiscards counts VLAN, STP and
-#: unknown-protocol drops, RFC 2863), policing, or a short burst the average hides, not a
-#: capacity problem (common practice: capacity is planned at 50-70% sustained load).
+#: Discards are congestion where their direction runs at 60% of line rate or more, averaged
+#: over the window (common practice: capacity is planned at 50-70% sustained load), or where
+#: output discards exceed BURST_DISCARD_SHARE at a lower average: bursts the egress buffer
+#: cannot absorb (SNAPSHOT-FORMAT 1.2). Input discards at a lower load are filtering
+#: (ifInDiscards counts VLAN, STP and unknown-protocol drops, RFC 2863), not capacity.
 CONGESTED_UTILISATION = 0.6
+#: The full-duplex end of a duplex mismatch, where no runt counter shows it (100 Mb/s only,
+#: where symbol errors mean something): frames the half-duplex far end cuts short on a
+#: collision end cleanly at a nibble boundary, so about half fail alignment as well as the
+#: FCS, and no invalid code group is received (RFC 3635 dot3StatsSymbolErrors "does not
+#: increment if a collision is present"); line noise on 100BASE-TX corrupts 4B/5B code
+#: groups, so it counts symbol errors and leaves frames whole octets. A share of alignment
+#: errors of CUT_ALIGNMENT_SHARE or more with symbol errors under CLEAN_SYMBOL_SHARE of the
+#: errored frames is the cut; with no symbol counter, NO_SYMBOLS_ALIGNMENT_SHARE (common
+#: practice, reasoned from the coding).
+CUT_ALIGNMENT_SHARE = 0.2
+CLEAN_SYMBOL_SHARE = 0.01
+NO_SYMBOLS_ALIGNMENT_SHARE = 0.4
+_CUT_SPEED_BPS = 100e6
 #: Transmit power this close to the module's own low alarm is failing (common practice).
 NEAR_TX_DB = 1.0
 #: Upper case temperature of commercial-grade transceivers, 0 to 70 degrees C (common
@@ -52,10 +77,11 @@ class Signs:
     """What the readings show, per port: the facts every rule is written in."""
 
     enough_frames: BoolArray
-    errors: BoolArray  # significant bit error ratio over the PHY's objective
+    errors: BoolArray  # BER significantly over the objective, and ten times it or more
     flapping: BoolArray
     late: BoolArray
     runts: BoolArray
+    cut_frames: BoolArray  # the full-duplex end of a mismatch, without runt counters
     half: BoolArray
     slow: BoolArray
     half_exists: BoolArray
@@ -67,6 +93,7 @@ class Signs:
     hot: BoolArray
     silent: BoolArray
     congested: BoolArray
+    device_errors: BoolArray  # ifIn/OutErrors beyond their RFC 3635 parts, significant
 
     @classmethod
     def read(cls, m: Columns) -> Signs:
@@ -76,10 +103,12 @@ class Signs:
         fps_known = ~np.isnan(m["rx_fps"]) & ~np.isnan(m["tx_fps"])
         return cls(
             enough_frames=(m["rx_frames"] >= m["frames_needed"]),
-            errors=(rx_errors >= MIN_EVENTS) & (m["ber_lo"] > m["objective"]),
+            errors=(m["ber_floor"] > m["objective"])
+            & (m["ber"] >= FAULT_TIMES_OBJECTIVE * m["objective"]),
             flapping=_ge(m["link_changes"], FLAPPING_CHANGES),
             late=_ge(m["late_collisions"], MIN_COLLISIONS),
             runts=_ge(m["runts"], MIN_EVENTS) & (rx_errors >= MIN_EVENTS),
+            cut_frames=_cut_frames(m),
             half=(m["half_duplex_seen"] == 1.0),
             slow=(m["speed_ratio"] < 1.0),
             half_exists=half_duplex_exists(m["speed_bps"], m["fiber"]) == 1.0,
@@ -89,8 +118,38 @@ class Signs:
             light_under_alarm=(m["floor_margin_db"] < 0.0),
             tx_low=(m["tx_margin_db"] < NEAR_TX_DB),
             hot=(m["temperature_c"] > HOT_C),
-            silent=fps_known
-            & (quiet <= np.fmax(SILENT_FRAMES, SILENT_FPS * m["window_s"]))
-            & (busy >= ALIVE_FPS),
-            congested=_ge(m["discards"], MIN_EVENTS) & (m["discard_util"] >= CONGESTED_UTILISATION),
+            silent=fps_known & one_way(quiet, busy, m["window_s"]),
+            congested=_congested(m),
+            device_errors=(m["in_errors_other_floor"] > BURST_DISCARD_SHARE)
+            | (m["out_errors_other_floor"] > BURST_DISCARD_SHARE),
         )
+
+
+def one_way(quiet: FloatArray, busy_fps: FloatArray, window_s: FloatArray) -> BoolArray:
+    """Whether ``quiet`` frames one way in ``window_s`` are silence against ``busy_fps`` the
+    other way (the rule above SILENT_FRAMES)."""
+    nothing = quiet <= SILENT_FRAMES
+    trickle = (quiet <= SILENT_FPS * window_s) & (quiet <= SILENT_SHARE * busy_fps * window_s)
+    return np.asarray((nothing | trickle) & (busy_fps >= ALIVE_FPS), np.bool_)
+
+
+def _congested(m: Columns) -> BoolArray:
+    """Significant discards at high load, or output discards over the burst share."""
+    floor = m["discard_floor"]
+    full = _ge(m["discards"], MIN_EVENTS) & (m["discard_util"] >= CONGESTED_UTILISATION)
+    bursts = (floor > BURST_DISCARD_SHARE) & (m["discard_outbound"] == 1.0)
+    return np.asarray(full | bursts, np.bool_)
+
+
+def _cut_frames(m: Columns) -> BoolArray:
+    """Errored frames cut short by a half-duplex far end, read where no runts are counted."""
+    crc = m["rx_errors"]
+    share = m["alignment_share"]
+    symbols = m["symbol_errors"]
+    clean = symbols <= CLEAN_SYMBOL_SHARE * crc  # False where symbols are not reported
+    cut = (share >= CUT_ALIGNMENT_SHARE) & clean
+    cut |= np.isnan(symbols) & (share >= NO_SYMBOLS_ALIGNMENT_SHARE)
+    eligible = (
+        np.isnan(m["runts"]) & (m["speed_bps"] == _CUT_SPEED_BPS) & (m["error_source"] == 1.0)
+    )
+    return np.asarray(cut & eligible, np.bool_)

@@ -29,6 +29,10 @@ Rules, applied to every pair of consecutive polls (an *interval*):
   (common practice among pollers).
 * Two polls of one port with the same time keep the later line.
 
+The window also keeps its intervals, so that an answer can tell now from before: what each
+interval carried each way, its receive errors and whether the link went down and up within
+it (:class:`Intervals`, read by :mod:`linktriage.engine.measure.now`).
+
 Everything is vectorised over all ports at once: one sort, then array arithmetic.
 """
 
@@ -62,6 +66,22 @@ class WindowStatus(IntEnum):
     LINK_DOWN = 2
 
 
+@dataclass(frozen=True, slots=True)
+class Intervals:
+    """Every interval of every window, sorted by port then time: what it carried."""
+
+    window: npt.NDArray[np.intp]  # the row of the window (port) it belongs to
+    start: FloatArray
+    end: FloatArray
+    rx_pkts: FloatArray  # packets received (unicast, multicast, broadcast), NaN if unknown
+    tx_pkts: FloatArray
+    rx_errors: FloatArray  # FCS and alignment errors, else ifInErrors; NaN if unknown
+    changed: npt.NDArray[np.bool_]  # the link went down and up within it
+
+    def __len__(self) -> int:
+        return len(self.window)
+
+
 @dataclass(slots=True)
 class WindowTable:
     """One row per port: counter deltas over its window and its state at the latest poll."""
@@ -84,6 +104,7 @@ class WindowTable:
     status_changes: npt.NDArray[np.int64]  # oper-status flips seen between polls
     neighbor_device: npt.NDArray[np.object_]  # the far end at the latest poll, or None
     neighbor_port: npt.NDArray[np.object_]
+    intervals: Intervals
 
     def __len__(self) -> int:
         return len(self.device)
@@ -155,6 +176,9 @@ def _no_windows() -> WindowTable:
         status_changes=whole,
         neighbor_device=np.zeros(0, object),
         neighbor_port=np.zeros(0, object),
+        intervals=Intervals(
+            np.zeros(0, np.intp), none, none, none, none, none, np.zeros(0, np.bool_)
+        ),
     )
 
 
@@ -251,6 +275,19 @@ def _windows_of_sorted(
     lc_rows[1:] = lc[1:] - lc[:-1]
     flips = np.zeros(m)
     flips[1:] = p.oper_status[1:] != p.oper_status[:-1]
+    changed_rows = used & ((lc_rows > 0) | (flips > 0))
+    rows = np.flatnonzero(used)
+    position = {COLUMNS[j].name: k for k, j in enumerate(active.tolist())}
+    interval_of = _IntervalValues(delta_rows[rows], position)
+    intervals = Intervals(
+        window=group_of_row[rows],
+        start=p.time[rows - 1],
+        end=p.time[rows],
+        rx_pkts=interval_of.packets(("in_ucast", "in_mcast", "in_bcast")),
+        tx_pkts=interval_of.packets(("out_ucast", "out_mcast", "out_bcast")),
+        rx_errors=interval_of.rx_errors(),
+        changed=changed_rows[rows],
+    )
 
     kept = np.diff(np.r_[starts, m])
     polls_seen = kept + np.bincount(skipped.code, minlength=len(starts))
@@ -280,7 +317,40 @@ def _windows_of_sorted(
         status_changes=summed(flips).astype(np.int64),
         neighbor_device=p.neighbor_device[last],
         neighbor_port=p.neighbor_port[last],
+        intervals=intervals,
     )
+
+
+_QUANTITY = {q.key: q for q in QUANTITIES}
+
+
+@dataclass(frozen=True, slots=True)
+class _IntervalValues:
+    """The deltas of some intervals (rows) over the active counter columns (by name)."""
+
+    deltas: FloatArray
+    position: dict[str, int]
+
+    def value(self, key: str) -> FloatArray:
+        """A quantity per interval: its 64-bit form where the interval has it, else 32-bit."""
+        q = _QUANTITY[key]
+        out = np.full(len(self.deltas), np.nan)
+        for name in (q.c32, q.hc):  # the 64-bit form, where present, overwrites
+            if name in self.position:
+                column = self.deltas[:, self.position[name]]
+                out = np.where(np.isnan(column), out, column)
+        return out
+
+    def packets(self, keys: tuple[str, ...]) -> FloatArray:
+        """The sum of ``keys``, NaN only where none of them is known."""
+        parts = np.stack([self.value(k) for k in keys])
+        known = ~np.isnan(parts).all(axis=0)
+        return np.where(known, np.nansum(parts, axis=0), np.nan)
+
+    def rx_errors(self) -> FloatArray:
+        """Frames that failed the FCS check, else ifInErrors (as the measures read them)."""
+        crc = self.packets(("fcs_errors", "alignment_errors"))
+        return np.where(np.isnan(crc), self.value("in_errors"), crc)
 
 
 def _pick(sums: FloatArray, hc: str | None, c32: str | None) -> FloatArray:

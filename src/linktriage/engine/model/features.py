@@ -7,8 +7,10 @@ late collisions and frames too long per frame; light against the module's own th
 Raw counts grow with speed, load and window; these do not, so one tree serves 10 Mb/s and 100 Gb/s
 ports.
 
-Evidence must be significant in counts: a ratio built on fewer events than
-:data:`linktriage.engine.measure.measures.MIN_EVENTS` (three late collisions) reads as nothing
+Evidence must be significant: the bit error ratio is read at the low end of its 99% range
+(a one-sided exact test, :func:`linktriage.engine.measure.measures.ratio_floor`), and a ratio
+built on fewer events than :data:`linktriage.engine.measure.measures.MIN_EVENTS` (of
+collisions, :data:`linktriage.engine.measure.measures.MIN_COLLISIONS`) reads as nothing
 counted. A counter the device does not report gives no evidence, and the tree sees exactly that: the
 value of "nothing counted" (no errors, full duplex, light well in range), never a missing value it
 could route on. Which counters a vendor reports says nothing about a link's health, so the tree must
@@ -84,13 +86,11 @@ def _counted(ratio: FloatArray, count: FloatArray, least: float) -> FloatArray:
 
 def feature_rows(m: Columns) -> FeatureRows:
     """Every feature of :data:`FEATURES` from the measures of each port."""
-    errors = m["rx_errors"]
-    ber_lo = _counted(m["ber_lo"], errors, MIN_EVENTS)
     hours = m["window_s"] / 3600.0
     quiet = np.fmin(m["rx_fps"], m["tx_fps"])
     runts = m["runts"]
     raw = {
-        "ber_over_objective": _log10(ber_lo / m["objective"]),
+        "ber_over_objective": _log10(m["ber_floor"] / m["objective"]),
         "runts_vs_collisions": _counted(m["runts_vs_collisions"], runts, MIN_EVENTS),
         "late_collision_ratio": _log10(
             _counted(m["late_ratio"], m["late_collisions"], MIN_COLLISIONS)

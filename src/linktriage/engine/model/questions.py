@@ -23,8 +23,8 @@ from linktriage.engine.measure.numbers import format_ratio, ratio_scale, sig, ti
 #: and the question when the path bounds it on both sides (``{lo}`` < value <= ``{hi}``).
 QUESTIONS: dict[str, tuple[str, str]] = {
     "ber_over_objective": (
-        "Bit error ratio, at the low end of its 95% range, over {t} the PHY's objective?",
-        "Bit error ratio, at the low end of its 95% range, between {lo} and {hi} the PHY's "
+        "Bit error ratio, at the low end of its 99% range, over {t} the PHY's objective?",
+        "Bit error ratio, at the low end of its 99% range, between {lo} and {hi} the PHY's "
         "objective?",
     ),
     "runts_vs_collisions": (
@@ -104,7 +104,7 @@ ANY_QUESTIONS: dict[str, str] = {
 #: ``{dir}`` is "above" or "below" and ``{t}`` the tree's threshold as it reads.
 CHANGES: dict[str, str] = {
     "ber_over_objective": (
-        "the bit error ratio, at the low end of its 95% range, {dir} {t} the PHY's objective"
+        "the bit error ratio, at the low end of its 99% range, {dir} {t} the PHY's objective"
     ),
     "runts_vs_collisions": (
         "runts {dir} {t} the share of receive errors that collisions leave as runts"

@@ -24,7 +24,8 @@ from sklearn.tree import DecisionTreeClassifier
 
 from linktriage.engine.guards import apply_guards
 from linktriage.engine.measure.measures import measure
-from linktriage.engine.measure.window import compute_windows
+from linktriage.engine.measure.now import now_and_before
+from linktriage.engine.measure.window import DEFAULT_MAX_WINDOW_S, compute_windows
 from linktriage.engine.model.artefact import (
     TrainingSummary,
     TreeArrays,
@@ -74,7 +75,8 @@ def prior_rows(n: int, seed: int, ranges: Ranges = TRAINING) -> PriorRows:
     rng = np.random.default_rng(seed)
     polls, labels = simulate_prior(n, rng, ranges)
     windows = compute_windows(polls)
-    m = measure(windows).table
+    windows, measured = now_and_before(polls, windows, measure(windows), DEFAULT_MAX_WINDOW_S)
+    m = measured.table
     ok = allowed(m)
     guarded = apply_guards(windows, ok)
     columns = np.array([TREE_VERDICTS.index(v) for v in labels], np.intp)

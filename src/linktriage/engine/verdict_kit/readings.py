@@ -18,8 +18,13 @@ from collections.abc import Sequence
 from typing import Protocol
 
 from linktriage.engine.format.answers import EvidenceRecord
+from linktriage.engine.measure.measures import (
+    BURST_DISCARD_SHARE,
+    FAULT_TIMES_OBJECTIVE,
+    MIN_ERROR_FRAMES,
+)
 from linktriage.engine.measure.numbers import format_ratio, ratio_scale, sig, times
-from linktriage.engine.measure.signs import FLAPPING_CHANGES
+from linktriage.engine.measure.signs import CONGESTED_UTILISATION, FLAPPING_CHANGES
 
 
 def item(
@@ -113,8 +118,8 @@ MaybeItems = list[EvidenceRecord | None]
 def bit_errors(c: PortGroup) -> Items:
     """The receive errors as a bit error ratio against the PHY's objective."""
     out: Items = []
-    for errors, frames, ber, lo, hi, objective, phy in zip(
-        c["rx_errors"], c["rx_frames"], c["ber"], c["ber_lo"], c["ber_hi"], c["objective"],
+    for errors, frames, ber, floor, hi, objective, phy in zip(
+        c["rx_errors"], c["rx_frames"], c["ber"], c["ber_floor"], c["ber_hi"], c["objective"],
         c.phy, strict=True,
     ):  # fmt: skip
         name = phy or "this PHY"
@@ -128,21 +133,99 @@ def bit_errors(c: PortGroup) -> Items:
                 f"{hi:.0e} (95%); the {name} objective is {objective:.0e}"
             )
             out.append(item("bit_error_ratio", 0.0, "BER", objective, source, said))
-        elif lo > objective:
-            said = (
-                f"bit error ratio {ber:.1e}, at least {lo:.1e} (95%), from {errors:,.0f} "
-                f"errored frames in {frames:,.0f} received: {times(lo / objective)} the "
-                f"{name} objective of {objective:.0e}"
-            )
-            out.append(item("bit_error_ratio", six(ber), "BER", objective, source, said))
         else:
-            said = (
+            measured = (
                 f"bit error ratio {ber:.1e} from {errors:,.0f} errored frames in "
-                f"{frames:,.0f} received; not significantly over the {name} objective of "
-                f"{objective:.0e}"
+                f"{frames:,.0f} received"
             )
-            out.append(item("bit_error_ratio", six(ber), "BER", objective, source, said))
+            out.append(
+                item("bit_error_ratio", six(ber), "BER", objective, f"{source}; {_TEST}",
+                     f"{measured}: {_judged(errors, ber, floor, objective, name)}")
+            )  # fmt: skip
     return out
+
+
+_TEST = "exact one-sided binomial test at 99% (Clopper-Pearson)"
+
+
+def _judged(errors: float, ber: float, floor: float, objective: float, name: str) -> str:
+    """What the significance test says of errors counted against the PHY's objective."""
+    if errors < MIN_ERROR_FRAMES:
+        return (
+            f"fewer than {MIN_ERROR_FRAMES} errored frames may be one burst (a touched plug, "
+            "a re-seat), not a rate"
+        )
+    if not floor > objective:
+        return (
+            f"within what the {name} objective of {objective:.0e} allows by chance "
+            "(exact test at 99%)"
+        )
+    if ber < FAULT_TIMES_OBJECTIVE * objective:
+        return (
+            f"{times(ber / objective)} the {name} objective of {objective:.0e}, significant "
+            f"at 99% but under the {FAULT_TIMES_OBJECTIVE:.0f} times a fault shows: marginal, "
+            "watch it"
+        )
+    return (
+        f"{times(ber / objective)} the {name} objective of {objective:.0e}, at least "
+        f"{floor:.1e} by an exact test at 99%"
+    )
+
+
+def also_seen(c: PortGroup) -> list[Items]:
+    """What a port counted that no verdict rests on, and what could not be read, so that no
+    answer leaves out a significant count: errors of the device itself (RFC 3635 section
+    3.2.10 names the parts of ifInErrors and ifOutErrors; what is beyond them is not the
+    link), discards short of congestion, and a load that could not be measured."""
+    out: list[Items] = []
+    for row in zip(
+        c["in_errors_other"], c["in_errors_other_floor"], c["out_errors_other"],
+        c["out_errors_other_floor"], c["in_discards"], c["in_discard_ratio"],
+        c["out_discards"], c["out_discard_ratio"], c["rx_util"], c["tx_util"], strict=True,
+    ):  # fmt: skip
+        in_other, in_floor, out_other, out_floor, in_d, in_r, out_d, out_r, rx_u, tx_u = row
+        items: Items = []
+        if in_floor > BURST_DISCARD_SHARE:
+            said = (
+                f"ifInErrors grew by {in_other:,.0f} beyond its FCS, alignment and frame-too-long "
+                "parts: errors of the device's own receive path (overruns, its own error "
+                "classes), not the cabling"
+            )
+            items.append(item("in_errors_other", in_other, "frames", None, _PARTS, said))
+        if out_floor > BURST_DISCARD_SHARE:
+            said = (
+                f"ifOutErrors grew by {out_other:,.0f} with no late or excessive collisions: "
+                "the device's own transmit path (line card, ASIC or driver), not the cabling"
+            )
+            items.append(item("out_errors_other", out_other, "frames", None, _PARTS, said))
+        for way, count, share, util, counter in (
+            ("inbound", in_d, in_r, rx_u, "ifInDiscards"),
+            ("outbound", out_d, out_r, tx_u, "ifOutDiscards"),
+        ):
+            if count > 0:
+                load = "an unknown load" if util != util else f"{sig(util * 100)}% load"
+                said = (
+                    f"{way}: {count:,.0f} frames discarded ({ratio_words(share)}) at {load}, "
+                    "short of congestion (under 60% load"
+                    + (", and filtering on arrival" if way == "inbound" else "")
+                    + ")"
+                )
+                items.append(item(f"{way}_discards", count, "frames", CONGESTED_UTILISATION,
+                                  f"RFC 2863 {counter}", said))  # fmt: skip
+        if rx_u != rx_u or tx_u != tx_u:
+            items.append(item("utilisation", None, "share", None, _LOAD, LOAD_UNKNOWN))
+        out.append(items)
+    return out
+
+
+_PARTS = "RFC 3635 section 3.2.10"
+_LOAD = "RFC 2863 section 3.1.6"
+#: Said where the octet counters could not give the load.
+LOAD_UNKNOWN = (
+    "load could not be read: the octet counters are missing, or a Counter32 may have wrapped "
+    "more than once between polls (at 1 Gb/s ifInOctets wraps in 34 s); poll the 64-bit "
+    "counters (SNMPv2c or v3) or more often"
+)
 
 
 def errored_frames(c: PortGroup) -> MaybeItems:

@@ -218,9 +218,16 @@ KIND = TreeVerdict(
     severity=5,
     needs=(
         Need(
-            "a significant bit error ratio over the PHY's objective, or a flapping link",
-            "IEEE 802.3 bit-error-ratio objectives",
+            "a bit error ratio over the PHY's objective by an exact one-sided test at 99%, "
+            "and ten times it or more, or a flapping link",
+            "IEEE 802.3 bit-error-ratio objectives; Clopper-Pearson bound",
             lambda s: s.errors | s.flapping,
+        ),
+        Need(
+            "errors of line noise, not frames cut short by a half-duplex far end (at 100 Mb/s: "
+            "symbol errors, or few alignment errors)",
+            "RFC 3635 dot3StatsSymbolErrors, dot3StatsAlignmentErrors",
+            lambda s: ~s.cut_frames,
         ),
     ),
     bit_errors=True,

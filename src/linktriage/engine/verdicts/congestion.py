@@ -34,6 +34,7 @@ from linktriage.engine.verdict_kit.declaration import (
     check,
 )
 from linktriage.engine.verdict_kit.readings import (
+    LOAD_UNKNOWN,
     Items,
     PortGroup,
     bit_errors,
@@ -57,7 +58,7 @@ def _discards(c: PortGroup) -> list[Items]:
             ("outbound", "ifOutDiscards") if outbound == 1.0 else ("inbound", "ifInDiscards")
         )
         said = f"{way}: {discarded:,.0f} frames discarded ({ratio_words(ratio)})"
-        load = f"{way} load {sig(util * 100)}% of line rate"
+        load = LOAD_UNKNOWN if util != util else f"{way} load {sig(util * 100)}% of line rate"
         out.append([
             item(f"{way}_discards", discarded, "frames", None, f"RFC 2863 {counter}", said),
             item(f"{way}_utilisation", six(util), "share", CONGESTED_UTILISATION,
@@ -92,6 +93,14 @@ def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
     drop_in = at_least(log_uniform(rng, *r.discard_ratio, n), r.min_events, frames(p, "rx"))
     p["out_discard_ratio"] = np.where(inbound, 0.0, drop_out)
     p["in_discard_ratio"] = np.where(inbound, drop_in, 0.0)
+    # Bursts the egress buffer cannot absorb at a lower average load: output discards over
+    # one in 5,000 frames sent (SNAPSHOT-FORMAT 1.2).
+    bursts = ~inbound & chance(rng, 0.3, n)
+    calm = rng.uniform(0.05, 0.55, n)
+    p.loc[bursts, "tx_util"] = calm[bursts]
+    p.loc[bursts, "out_discard_ratio"] = at_least(
+        log_uniform(rng, 5e-4, 5e-2, n), r.min_events, frames(p, "tx")
+    )[bursts]
 
 
 #: Phrases of the trade that name this verdict in a thread reply, each with a weight.

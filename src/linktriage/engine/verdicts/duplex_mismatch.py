@@ -15,6 +15,7 @@ import numpy as np
 from linktriage.engine.format.answers import Verdict
 from linktriage.engine.measure.measures import MIN_COLLISIONS
 from linktriage.engine.measure.numbers import sig
+from linktriage.engine.measure.signs import CUT_ALIGNMENT_SHARE
 from linktriage.engine.simulate.ports import (
     G,
     M,
@@ -41,6 +42,7 @@ from linktriage.engine.verdict_kit.declaration import (
 from linktriage.engine.verdict_kit.ends import Ends, LinkView, counted_words, listed
 from linktriage.engine.verdict_kit.readings import (
     Items,
+    MaybeItems,
     PortGroup,
     collisions,
     count_and_share,
@@ -48,6 +50,7 @@ from linktriage.engine.verdict_kit.readings import (
     errored_frames,
     item,
     present,
+    six,
     speed_words,
 )
 
@@ -79,6 +82,30 @@ def _runts(c: PortGroup) -> Items:
     return out
 
 
+def _cut(c: PortGroup) -> MaybeItems:
+    """Where no runts are counted: alignment errors beside FCS errors with clean symbols,
+    frames a half-duplex far end cut short (see measure.signs.CUT_ALIGNMENT_SHARE)."""
+    source = "RFC 3635 dot3StatsAlignmentErrors, dot3StatsSymbolErrors"
+    out: MaybeItems = []
+    for share, symbols, runts in zip(
+        c["alignment_share"], c["symbol_errors"], c["runts"], strict=True
+    ):
+        if runts == runts or not share > 0:
+            out.append(None)
+            continue
+        clean = (
+            "no symbol errors" if symbols == 0 else
+            "symbol errors not reported" if symbols != symbols else f"{symbols:,.0f} symbol errors"
+        )  # fmt: skip
+        said = (
+            f"{sig(share * 100)}% of the errored frames also fail alignment, with {clean}: "
+            "frames cut short at a nibble boundary by a far end that aborts on collision, "
+            "not line noise (which corrupts code groups)"
+        )
+        out.append(item("alignment_share", six(share), "share", CUT_ALIGNMENT_SHARE, source, said))
+    return out
+
+
 def _medium(c: PortGroup) -> Items:
     source = "IEEE 802.3: half duplex up to 1000 Mb/s only (clause 44.1.1, from memory)"
     out: Items = []
@@ -93,11 +120,12 @@ def _medium(c: PortGroup) -> Items:
 
 def _evidence(c: PortGroup) -> list[Items]:
     out: list[Items] = []
-    for late, state, collided, runts, frames_, medium in zip(
-        _late(c), duplex(c), collisions(c), _runts(c), errored_frames(c), _medium(c), strict=True
-    ):
+    for late, state, collided, runts, frames_, cut, medium in zip(
+        _late(c), duplex(c), collisions(c), _runts(c), errored_frames(c), _cut(c), _medium(c),
+        strict=True,
+    ):  # fmt: skip
         head = [late, state] if late["value"] else [state, late]
-        out.append([*head, collided, runts, *present(frames_), medium])
+        out.append([*head, collided, runts, *present(frames_, cut), medium])
     return out
 
 
@@ -199,9 +227,10 @@ KIND = TreeVerdict(
             lambda s: s.half_exists | s.half,
         ),
         Need(
-            "late collisions, or runts beside FCS errors",
-            "RFC 3635 dot3StatsLateCollisions; RFC 2819 etherStatsFragments",
-            lambda s: s.late | s.runts,
+            "late collisions, or runts beside FCS errors, or (at 100 Mb/s with no runt "
+            "counter) FCS errors with alignment errors and no symbol errors",
+            "RFC 3635 dot3StatsLateCollisions, dot3StatsSymbolErrors; RFC 2819 etherStatsFragments",
+            lambda s: s.late | s.runts | s.cut_frames,
         ),
     ),
     bit_errors=False,  # frames are damaged by collision, not by bit errors on the wire

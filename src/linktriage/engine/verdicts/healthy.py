@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING
 from linktriage.engine.format.answers import Verdict
 from linktriage.engine.simulate.ports import Ranges, Rng
 from linktriage.engine.verdict_kit.declaration import Need, TreeVerdict, check
-from linktriage.engine.verdict_kit.readings import Items, PortGroup, bit_errors
+from linktriage.engine.verdict_kit.readings import Items, PortGroup, also_seen, bit_errors
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -22,7 +22,7 @@ HEALTHY = Verdict("healthy")
 
 
 def _evidence(c: PortGroup) -> list[Items]:
-    return [[e] for e in bit_errors(c)]
+    return [[e, *more] for e, more in zip(bit_errors(c), also_seen(c), strict=True)]
 
 
 def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
@@ -58,9 +58,15 @@ KIND = TreeVerdict(
             lambda s: s.enough_frames,
         ),
         Need(
-            "no significant bit error ratio over the PHY's objective",
-            "IEEE 802.3 bit-error-ratio objectives",
+            "no bit error ratio over the PHY's objective by an exact one-sided test at 99%, "
+            "and ten times it or more",
+            "IEEE 802.3 bit-error-ratio objectives; Clopper-Pearson bound",
             lambda s: ~s.errors,
+        ),
+        Need(
+            "no discards at high load, nor output discards over 1 in 10,000 frames sent",
+            "SNAPSHOT-FORMAT 1.2 congestion; common practice",
+            lambda s: ~s.congested,
         ),
         Need(
             "no late collisions, which are never normal",

@@ -105,7 +105,10 @@ def _one_way(ends: Ends) -> LinkView | None:
 
 
 _FAR_END = check(
-    "Look at the far end: a one-way link usually shows there as receive-only or transmit-only too."
+    "Look at the far end: a one-way link usually shows there as receive-only or transmit-only "
+    "too. Where the quiet direction still carries a trickle, rule out the look-alikes first: a "
+    "spanning-tree alternate (blocking) port, which sends only its control frames, and a "
+    "one-way sender by design (a camera, a multicast source)."
 )
 _OUT_OF_FORWARDING = check(
     "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
