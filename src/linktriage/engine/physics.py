@@ -24,7 +24,8 @@ import numpy.typing as npt
 
 from linktriage.engine.format.answers import Verdict
 from linktriage.engine.measure.columns import Columns
-from linktriage.engine.measure.signs import BoolArray, Signs
+from linktriage.engine.measure.measures import BoolArray
+from linktriage.engine.measure.signs import Signs
 from linktriage.engine.verdicts import TREE, TREE_VERDICTS
 
 

@@ -44,6 +44,8 @@ from linktriage.engine.measure.phy import (
 )
 from linktriage.engine.measure.window import WindowTable
 
+BoolArray = npt.NDArray[np.bool_]
+
 #: One-sided confidence of the bounds an answer shows on a ratio (the rule of three's).
 CONFIDENCE = 0.95
 #: Level of the significance tests that make a rate evidence: a one-sided exact binomial
@@ -63,6 +65,10 @@ MIN_ERROR_FRAMES = 10
 #: egress buffer cannot absorb at whatever average load (SNAPSHOT-FORMAT 1.2 congestion); a
 #: few per million are the stray microburst of any busy port (common practice: 1 in 10,000).
 BURST_DISCARD_SHARE = 1e-4
+#: Errors of the device itself (ifInErrors and ifOutErrors beyond their RFC 3635 parts) are
+#: said from this share of the frames of their direction up, by the same test (common
+#: practice: as for discards, 1 in 10,000).
+DEVICE_ERROR_SHARE = 1e-4
 #: Fewest events (runts, frames too long, discards in a direction at high load) that make
 #: evidence where there is no objective to test against: a handful is a re-seated cord or
 #: one burst of noise (common practice).
@@ -152,9 +158,33 @@ def error_ratio_bounds(
 def ratio_floor(events: FloatArray, frames: FloatArray) -> FloatArray:
     """The least a ratio of ``events`` in ``frames`` can be at :data:`TEST_CONFIDENCE`
     (its one-sided lower Clopper-Pearson bound): a ratio is significantly over ``r`` exactly
-    where this is over ``r``. NaN where either is unknown."""
-    lower, _ = error_ratio_bounds(events, frames, TEST_CONFIDENCE)
-    return np.where(np.isnan(events) | ~(frames > 0), np.nan, lower)
+    where this is over ``r`` (:func:`ratio_over`). NaN where either is unknown."""
+    k = np.asarray(events, np.float64)
+    n = np.asarray(frames, np.float64)
+    floor = np.where(np.isnan(k) | ~(n > 0), np.nan, 0.0)
+    some = (k > 0) & (n > 0)
+    if some.any():  # only ports that counted something need the inverse beta
+        from scipy.special import betaincinv
+
+        kk, nn = np.minimum(k[some], n[some]), n[some]
+        floor[some] = betaincinv(kk, nn - kk + 1.0, 1.0 - TEST_CONFIDENCE)
+    return floor
+
+
+def ratio_over(events: FloatArray, frames: FloatArray, share: float) -> BoolArray:
+    """Where ``events`` in ``frames`` show a ratio over ``share`` by the same test, without
+    solving for the bound: P(X >= k) under ``share`` is the regularised incomplete beta
+    I_share(k, n - k + 1), and the ratio is over ``share`` where that is under 1%."""
+    k = np.asarray(events, np.float64)
+    n = np.asarray(frames, np.float64)
+    over = np.zeros(k.shape, np.bool_)
+    some = (k > share * n) & (n > 0)  # False where either is NaN; at or under: never over
+    if some.any():
+        from scipy.special import betainc
+
+        kk, nn = np.minimum(k[some], n[some]), n[some]
+        over[some] = betainc(kk, nn - kk + 1.0, share) < 1.0 - TEST_CONFIDENCE
+    return over
 
 
 def frames_needed(resolution: FloatArray) -> FloatArray:
@@ -312,12 +342,11 @@ def measure(w: WindowTable) -> Measured:
     tx_fps = _ratio(tx_frames, window_s)
     in_discard_ratio = _ratio(d["in_discards"], rx_frames)
     out_discard_ratio = _ratio(d["out_discards"], tx_frames)
-    in_discard_floor = ratio_floor(d["in_discards"], rx_frames)
-    out_discard_floor = ratio_floor(d["out_discards"], tx_frames)
+    bursts = ratio_over(d["out_discards"], tx_frames, BURST_DISCARD_SHARE)
     # The direction under suspicion: the one with significant discards, the busier one if
     # both have them, else the one discarding the larger share.
     sig_in = d["in_discards"] >= MIN_EVENTS
-    sig_out = (d["out_discards"] >= MIN_EVENTS) | (out_discard_floor > BURST_DISCARD_SHARE)
+    sig_out = (d["out_discards"] >= MIN_EVENTS) | bursts
     busier_out = np.nan_to_num(tx_util, nan=-1.0) >= np.nan_to_num(rx_util, nan=-1.0)
     larger_out = np.nan_to_num(out_discard_ratio, nan=-1.0) > np.nan_to_num(
         in_discard_ratio, nan=-1.0
@@ -372,9 +401,13 @@ def measure(w: WindowTable) -> Measured:
                 d["alignment_errors"], _nansum(d["fcs_errors"], d["alignment_errors"])
             ),
             "in_errors_other": in_errors_other,
-            "in_errors_other_floor": ratio_floor(in_errors_other, rx_frames),
+            "in_errors_other_over": ratio_over(
+                in_errors_other, rx_frames, DEVICE_ERROR_SHARE
+            ).astype(np.float64),
             "out_errors_other": out_errors_other,
-            "out_errors_other_floor": ratio_floor(out_errors_other, tx_frames),
+            "out_errors_other_over": ratio_over(
+                out_errors_other, tx_frames, DEVICE_ERROR_SHARE
+            ).astype(np.float64),
             "frame_octets": frame_octets,
             "fer": fer,
             "fer_lo": fer_lo,
@@ -404,7 +437,8 @@ def measure(w: WindowTable) -> Measured:
             "discard_outbound": outbound.astype(np.float64),
             "discards": np.where(outbound, d["out_discards"], d["in_discards"]),
             "discard_ratio": np.where(outbound, out_discard_ratio, in_discard_ratio),
-            "discard_floor": np.where(outbound, out_discard_floor, in_discard_floor),
+            # Output discards the test shows over the share of a stray microburst.
+            "out_discard_bursts": bursts.astype(np.float64),
             "discard_util": np.where(outbound, tx_util, rx_util),
             "rx_dbm": rx_dbm,
             "rx_alarm_dbm": alarm,

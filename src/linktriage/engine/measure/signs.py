@@ -14,19 +14,16 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import numpy.typing as npt
 
 from linktriage.engine.format.poll_table import FloatArray
 from linktriage.engine.measure.columns import Columns
 from linktriage.engine.measure.measures import (
-    BURST_DISCARD_SHARE,
     FAULT_TIMES_OBJECTIVE,
     MIN_COLLISIONS,
     MIN_EVENTS,
+    BoolArray,
 )
 from linktriage.engine.measure.phy import half_duplex_exists
-
-BoolArray = npt.NDArray[np.bool_]
 
 #: Three down/up cycles in the window: one or two are a reboot or a re-patch, several is
 #: flapping (OpenConfig interface-transitions: one flap counts 2; common practice).
@@ -120,8 +117,7 @@ class Signs:
             hot=(m["temperature_c"] > HOT_C),
             silent=fps_known & one_way(quiet, busy, m["window_s"]),
             congested=_congested(m),
-            device_errors=(m["in_errors_other_floor"] > BURST_DISCARD_SHARE)
-            | (m["out_errors_other_floor"] > BURST_DISCARD_SHARE),
+            device_errors=(m["in_errors_other_over"] == 1.0) | (m["out_errors_other_over"] == 1.0),
         )
 
 
@@ -135,9 +131,8 @@ def one_way(quiet: FloatArray, busy_fps: FloatArray, window_s: FloatArray) -> Bo
 
 def _congested(m: Columns) -> BoolArray:
     """Significant discards at high load, or output discards over the burst share."""
-    floor = m["discard_floor"]
     full = _ge(m["discards"], MIN_EVENTS) & (m["discard_util"] >= CONGESTED_UTILISATION)
-    bursts = (floor > BURST_DISCARD_SHARE) & (m["discard_outbound"] == 1.0)
+    bursts = (m["out_discard_bursts"] == 1.0) & (m["discard_outbound"] == 1.0)
     return np.asarray(full | bursts, np.bool_)
 
 

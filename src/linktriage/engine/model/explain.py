@@ -11,7 +11,6 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from operator import itemgetter
 
 import msgspec
 import numpy as np
@@ -149,15 +148,19 @@ class Explainer:
             at = np.asarray(places, np.intp)
             columns = []
             for q in self.steps[node]:
-                values = rows[at, q.column]
-                known = reported[at, q.column]
                 # Each distinct answer worded and encoded once: an unreported value reads
                 # alike whatever the tree saw, so it is keyed apart from every measured one.
-                keys = np.where(known, values, np.nan)
-                _, first, which = np.unique(keys, return_index=True, return_inverse=True)
-                said = [self._answered(q, float(values[k]), bool(known[k])) for k in first.tolist()]
-                columns.append(itemgetter(*which.tolist())(said) if len(places) > 1 else
-                               (said[int(which[0])],))  # fmt: skip
+                said: dict[float | None, bytes] = {}
+                column = []
+                for value, known in zip(
+                    rows[at, q.column].tolist(), reported[at, q.column].tolist(), strict=True
+                ):
+                    key = value if known else None
+                    answer = said.get(key)
+                    if answer is None:
+                        answer = said[key] = self._answered(q, value, known)
+                    column.append(answer)
+                columns.append(column)
             if not columns:
                 continue  # a tree of one leaf asks nothing
             for k, asked in zip(places, zip(*columns, strict=True), strict=True):

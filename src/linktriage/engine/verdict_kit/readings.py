@@ -19,7 +19,6 @@ from typing import Protocol
 
 from linktriage.engine.format.answers import EvidenceRecord
 from linktriage.engine.measure.measures import (
-    BURST_DISCARD_SHARE,
     FAULT_TIMES_OBJECTIVE,
     MIN_ERROR_FRAMES,
 )
@@ -179,20 +178,20 @@ def also_seen(c: PortGroup) -> list[Items]:
     link), discards short of congestion, and a load that could not be measured."""
     out: list[Items] = []
     for row in zip(
-        c["in_errors_other"], c["in_errors_other_floor"], c["out_errors_other"],
-        c["out_errors_other_floor"], c["in_discards"], c["in_discard_ratio"],
+        c["in_errors_other"], c["in_errors_other_over"], c["out_errors_other"],
+        c["out_errors_other_over"], c["in_discards"], c["in_discard_ratio"],
         c["out_discards"], c["out_discard_ratio"], c["rx_util"], c["tx_util"], strict=True,
     ):  # fmt: skip
-        in_other, in_floor, out_other, out_floor, in_d, in_r, out_d, out_r, rx_u, tx_u = row
+        in_other, in_over, out_other, out_over, in_d, in_r, out_d, out_r, rx_u, tx_u = row
         items: Items = []
-        if in_floor > BURST_DISCARD_SHARE:
+        if in_over == 1.0:
             said = (
                 f"ifInErrors grew by {in_other:,.0f} beyond its FCS, alignment and frame-too-long "
                 "parts: errors of the device's own receive path (overruns, its own error "
                 "classes), not the cabling"
             )
             items.append(item("in_errors_other", in_other, "frames", None, _PARTS, said))
-        if out_floor > BURST_DISCARD_SHARE:
+        if out_over == 1.0:
             said = (
                 f"ifOutErrors grew by {out_other:,.0f} with no late or excessive collisions: "
                 "the device's own transmit path (line card, ASIC or driver), not the cabling"
