@@ -8,6 +8,7 @@ from collections.abc import Sequence
 from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.verdicts import SEVERITY
 from linktriage.errors import PollError
 from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.render.replies import (
@@ -22,7 +23,13 @@ def test_suspects_are_ranked_worst_first(triage: Triage) -> None:
     reply = triage.handle("suspects")
     assert isinstance(reply, SuspectsReply)
     verdicts = [i.record["verdict"] for i in reply.items]
-    assert verdicts[:3] == ["unidirectional", "optic_degraded", "cable_fault"]
+    assert verdicts[0] == "unidirectional"
+    # Worst first: by severity, then the surer answer first (SEVERITY; confidence).
+    order = [
+        (-SEVERITY[v], -(i.record["confidence"] or 0.0))
+        for v, i in zip(verdicts, reply.items, strict=True)
+    ]
+    assert order == sorted(order)
     assert "healthy" not in verdicts and "link_down" not in verdicts
     assert [i.rank for i in reply.items] == list(range(1, len(reply.items) + 1))
     assert reply.ports_judged + sum(reply.not_judged.values()) == len(triage.network.ports())

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import random
+import re
 import shutil
 import subprocess
 import sys
@@ -240,10 +241,11 @@ def test_the_demo_table_lists_suspects_worst_first_then_the_ports_not_judged() -
     _, out, _ = run("demo")
     table = out.split("need a look", 1)[1].split("\n\n", 1)[0].splitlines()[2:]
     verdicts = [row.split()[2] for row in table]
-    assert verdicts == [
-        "unidirectional",
-        "optic_degraded",
-        "cable_fault",
+    assert verdicts[:3] in (  # two of severity 5: the surer answer first
+        ["unidirectional", "optic_degraded", "cable_fault"],
+        ["unidirectional", "cable_fault", "optic_degraded"],
+    )
+    assert verdicts[3:] == [
         "duplex_mismatch",
         "mtu_mismatch",
         "congestion",
@@ -616,7 +618,8 @@ def test_history_answers_from_the_polls_the_poll_job_stored(tmp_path: Path) -> N
     assert lines[1].startswith("cable_fault throughout, 11 windows since ")
     header = lines.index("FROM   TO     VERDICT      CONF  ERROR RATIO  DISC IN/OUT  LOAD IN/OUT")
     assert len(lines) - header - 1 == 11
-    assert all(" cable_fault  1.00  1.3e-05 " in line for line in lines[header + 1 :])
+    # Confidence is cut to two places: never 1.00 from the tree (Laplace's rule).
+    assert all(re.search(r" cable_fault  0\.9\d  1\.3e-05 ", line) for line in lines[header + 1 :])
 
 
 def test_history_json_is_one_object_with_every_window_and_the_changes(tmp_path: Path) -> None:

@@ -17,7 +17,7 @@ from linktriage.engine.diagnosis.pipeline import diagnose, diagnose_chunks
 from linktriage.engine.format.snapshot import read_snapshot_file
 from linktriage.engine.model.features import FEATURE_NAMES
 from linktriage.engine.prior import simulate_prior
-from linktriage.engine.verdicts import VERDICTS
+from linktriage.engine.verdicts import GUARD_VERDICTS, VERDICTS
 from linktriage.network.demo import PLANTED
 from linktriage.render.jsonl import dumps, write_lines
 
@@ -76,7 +76,10 @@ def test_records_carry_the_formats_fields(demo_batch: DiagnosisBatch) -> None:
     for record in demo_batch.records():
         assert set(record) >= RECORD_FIELDS
         assert record["verdict"] in VERDICTS
-        assert 0.0 <= record["confidence"] <= 1.0
+        # A guard's answer is a fact of the window and has no confidence.
+        confidence = record["confidence"]
+        assert (confidence is None) == (record["verdict"] in GUARD_VERDICTS)
+        assert confidence is None or 0.0 <= confidence <= 1.0
         assert record["model_version"] == demo_batch.model.version
         for q in record["questions"]:
             assert set(q) >= QUESTION_FIELDS

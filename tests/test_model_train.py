@@ -109,7 +109,8 @@ def test_a_rebuild_reproduces_the_packaged_model(tmp_path: Path) -> None:
     out = tmp_path / "model.json"
     script = (
         "import sys; from linktriage.engine.model.train import TrainingConfig, train; "
-        "train(TrainingConfig(seed=int(sys.argv[1]))).save(sys.argv[2])"
+        "from linktriage.engine.diagnosis.scoring import with_reliability; "
+        "with_reliability(train(TrainingConfig(seed=int(sys.argv[1])))).save(sys.argv[2])"
     )
     env = {**os.environ, "NPY_DISABLE_CPU_FEATURES": PORTABLE_MATH}
     subprocess.run(

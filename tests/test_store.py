@@ -27,6 +27,7 @@ from linktriage.store import (
     NewAnswer,
     PollHistory,
     Store,
+    diagnoses_table,
     inspect_store,
     masked_url,
     polls_table,
@@ -434,5 +435,43 @@ def test_a_counter_removed_from_the_catalogue_is_named_and_kept_in_the_store(
     try:
         assert store.schema_version() == MIGRATIONS[-1].version
         assert named(store.polls_since(0.0)) == named(_recorded())
+    finally:
+        store.close()
+
+
+def test_a_guard_answer_keeps_no_confidence_in_a_store_of_the_previous_release(
+    database_url: str,
+) -> None:
+    # Release 0.1.0 made diagnoses.confidence NOT NULL; migration 5 lets a guard's answer
+    # (down, no data, too quiet) keep none, and keeps the answers and labels already there.
+    url = _previous_release_store(database_url)
+    engine = sa.create_engine(url)
+    with engine.begin() as conn:
+        conn.exec_driver_sql(
+            "INSERT INTO diagnoses (id, at, device, port, verdict, confidence, model_version, "
+            "features, record, origin) VALUES (7, 1.0, 'sw', 'p1', 'cable_fault', 0.9, 'm0', "
+            "'{}', '{}', 'chat')"
+        )
+        conn.exec_driver_sql(
+            "INSERT INTO labels (at, diagnosis_id, device, port, verdict, model_verdict, "
+            "model_version, features, note, user_id, source, event_key) VALUES (2.0, 7, 'sw', "
+            "'p1', 'cable_fault', 'cable_fault', 'm0', '{}', 'crushed cord', 'U1', 'reply', 'e1')"
+        )
+    engine.dispose()
+    store = Store(url)
+    try:
+        record = {"device": "sw", "port": "p2", "verdict": "link_down", "confidence": None,
+                  "model_version": "m1"}  # fmt: skip
+        (new,) = store.add_diagnoses([NewAnswer(record, {}, at=3.0, origin="chat")])
+        kept = store.diagnosis(7)
+        assert kept is not None and kept.verdict == "cable_fault"
+        assert store.diagnosis(new) is not None
+        assert [label.diagnosis_id for label in store.labels()] == [7]
+        with store.engine.connect() as conn:
+            stored = conn.execute(sa.select(diagnoses_table.c.id, diagnoses_table.c.confidence))
+            assert dict(stored.all()) == {7: 0.9, new: None}
+            if conn.dialect.name == "sqlite":  # the labels' key still names the diagnoses
+                assert conn.exec_driver_sql("PRAGMA foreign_key_check").all() == []
+                assert conn.exec_driver_sql("PRAGMA foreign_keys").scalar() == 1  # enforced
     finally:
         store.close()

@@ -64,7 +64,7 @@ diagnoses_table = sa.Table(
     sa.Column("device", sa.Text, nullable=False),
     sa.Column("port", sa.Text, nullable=False),
     sa.Column("verdict", sa.Text, nullable=False),
-    sa.Column("confidence", sa.Float, nullable=False),
+    sa.Column("confidence", sa.Float),  # null from version 5: a guard answered, not the tree
     sa.Column("model_version", sa.Text, nullable=False),
     sa.Column("features", sa.Text, nullable=False),  # JSON: feature name -> value or null
     sa.Column("record", sa.Text, nullable=False),  # JSON: the diagnosis as answered
@@ -217,12 +217,40 @@ def _named_packs(conn: Connection) -> None:
             )
 
 
+def _confidence_optional(conn: Connection) -> None:
+    """The diagnoses' confidence may be null: an answer a guard gave (down, no data, too
+    quiet) is a fact, not the tree's guess. SQLite cannot drop a NOT NULL, so the table is
+    rebuilt as SQLite's documentation lays out: foreign keys off (before the migration's
+    transaction begins; :meth:`Store.migrate` opens fresh connections after), the rows and
+    ids copied into the new table, the old one dropped and the new one renamed, and the
+    labels' keys checked before the change is kept."""
+    if conn.dialect.name == "postgresql":
+        conn.exec_driver_sql("ALTER TABLE diagnoses ALTER COLUMN confidence DROP NOT NULL")
+        return
+    column = next(c for c in sa.inspect(conn).get_columns("diagnoses") if c["name"] == "confidence")
+    if column["nullable"]:
+        return  # created from today's schema by migration 1
+    conn.exec_driver_sql("PRAGMA foreign_keys=OFF")
+    rebuilt = diagnoses_table.to_metadata(sa.MetaData(), name="diagnoses_new")
+    conn.execute(sa.schema.CreateTable(rebuilt))
+    names = ", ".join(c.name for c in diagnoses_table.columns)
+    conn.exec_driver_sql(f"INSERT INTO diagnoses_new ({names}) SELECT {names} FROM diagnoses")
+    conn.exec_driver_sql("DROP TABLE diagnoses")
+    conn.exec_driver_sql("ALTER TABLE diagnoses_new RENAME TO diagnoses")
+    for index in diagnoses_table.indexes:
+        index.create(conn)
+    broken = conn.exec_driver_sql("PRAGMA foreign_key_check").all()
+    if broken:
+        raise StoreError(f"rebuilding the diagnoses table broke {len(broken)} foreign keys")
+
+
 #: Every schema change, in order. A new change is a new entry; old entries never change.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "polls, diagnoses, labels, digests, audit", _initial_schema),
     Migration(2, "diagnoses keep their site and what the port serves", _answer_context),
     Migration(3, "polls packed, one row per device per poll; 64-bit ids", _packed_polls),
     Migration(4, "poll packs name their columns", _named_packs),
+    Migration(5, "a diagnosis a guard answered keeps no confidence", _confidence_optional),
 )
 
 
@@ -427,6 +455,7 @@ class Store:
                         applied_at=time.time(),
                     )
                 )
+            self.engine.dispose()  # a migration may change a connection's settings
         return self.schema_version()
 
     def schema_version(self) -> int:

@@ -161,7 +161,7 @@ def ranked_suspects(batch: DiagnosisBatch) -> list[int]:
         chosen,
         key=lambda i: (
             -SEVERITY[verdicts[i]],
-            -batch.link_confidence(i),
+            -(batch.link_confidence(i) or 0.0),
             batch.device[i],
             batch.port[i],
         ),

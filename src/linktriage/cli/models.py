@@ -48,6 +48,7 @@ def train(
     from dataclasses import replace
 
     from linktriage.engine.diagnosis.loaded_model import Model
+    from linktriage.engine.diagnosis.scoring import with_reliability
     from linktriage.engine.model.registry import Entry, Registry
     from linktriage.engine.model.train import TrainingConfig
     from linktriage.engine.model.train import train as run_training
@@ -84,6 +85,7 @@ def train(
         click.echo(said, err=True)
     else:
         artefact = run_training(cfg)
+    artefact = with_reliability(artefact)
     trained_at = time.time()
     if out is not None:
         out.parent.mkdir(parents=True, exist_ok=True)

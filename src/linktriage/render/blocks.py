@@ -17,7 +17,7 @@ from typing import Any, assert_never
 from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.engine.measure.numbers import sig
 from linktriage.engine.verdict_kit.declaration import SHORT
-from linktriage.engine.verdicts import GUARD_VERDICTS, TREE_VERDICTS, cautions_for, kind_of
+from linktriage.engine.verdicts import TREE_VERDICTS, cautions_for, kind_of
 from linktriage.render import words
 from linktriage.render.card import card_text
 from linktriage.render.replies import (
@@ -145,8 +145,8 @@ def _facts(reply: DiagnosisReply) -> str:
     """Confidence (for a tree verdict), where, who asked and when, on one line."""
     r = reply.record
     facts = []
-    if r["verdict"] not in GUARD_VERDICTS:  # a guard's answer is a fact, not a guess
-        facts.append(words.confidence_fact(f"*{r['confidence']:.2f}*"))
+    if r["confidence"] is not None:  # a guard's answer is a fact, not a guess
+        facts.append(words.confidence_fact(f"*{words.confidence_cell(r['confidence'])}*"))
     where = ", ".join(escape(part) for part in (reply.serves, reply.site) if part)
     if where:
         facts.append(where)
@@ -364,7 +364,8 @@ def _entry(item: SuspectItem) -> str:
     mark = "  :new:" if item.new else ""
     return (
         f"*{item.rank}.* `{escape(r['device'])} {escape(r['port'])}` {escape(r['title'])} "
-        f"({r['confidence']:.2f}){mark}\n      {escape(_clip(item.reason, 300))}"
+        f"({words.confidence_cell(r['confidence'])}){mark}\n      "
+        f"{escape(_clip(item.reason, 300))}"
     )
 
 

@@ -64,6 +64,23 @@ def card_text(card: dict[str, Any]) -> str:
             f"  guards: a clean port is judged once its frames bound the error ratio at "
             f"{RESOLUTION_TIMES_OBJECTIVE:g} times the PHY's objective, or at "
             f"{format_ratio(RESOLUTION_CAP, ratio_scale(RESOLUTION_CAP))} if that is less",
+            *_reliability(t["reliability"]),
             f"  scikit-learn {t['sklearn_version']}",
         ]
     )
+
+
+def _reliability(bins: list[dict[str, Any]]) -> list[str]:
+    """How often each level of confidence was right, on held-out simulated ports."""
+    if not bins:
+        return ["  confidence: its reliability was not measured for this model"]
+    cells = [
+        f"{b['low']:.2f}-{b['high']:.2f}: {b['answers']:,} answers, "
+        f"{100 * b['right'] / b['answers']:.1f}% right"
+        for b in bins
+        if b["answers"]
+    ]
+    total = sum(b["answers"] for b in bins)
+    return [
+        f"  confidence on {total:,} tree answers of held-out simulated ports: " + "; ".join(cells)
+    ]

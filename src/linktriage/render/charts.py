@@ -330,7 +330,8 @@ def _questions(axes: Axes, reply: TreeReply) -> None:
         lines += textwrap.wrap(f"{n}. {q['question']}", 70)
         lines += textwrap.wrap(f"\u2192 {q['said']}", 70, initial_indent="    ",
                                subsequent_indent="    ")  # fmt: skip
-    lines.append(f"\u2713 {reply.record['verdict']} ({reply.record['confidence']:.2f})")
+    sure = words.confidence_cell(reply.record["confidence"])
+    lines.append(f"\u2713 {reply.record['verdict']} ({sure})")
     axes.text(0, 1, "\n".join(lines), ha="left", va="top", fontsize=15, family="sans-serif",
               transform=axes.transAxes, linespacing=1.3)  # fmt: skip
     axes.set_axis_off()

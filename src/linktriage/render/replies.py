@@ -40,7 +40,7 @@ class HistoryPoint(TypedDict):
     start: float
     end: float
     verdict: str
-    confidence: float
+    confidence: float | None  # None where a guard answered
     polls: int
     error_ratio: float | None  # errored frames / received frames
     bit_error_ratio: float | None  # the estimate behind the error ratio, for the PHY

@@ -46,7 +46,7 @@ def table_rows(records: Sequence[DiagnosisRecord]) -> list[str]:
             printable(r["device"]),
             printable(r["port"]),
             r["verdict"],
-            f"{r['confidence']:.2f}",
+            words.confidence_cell(r["confidence"]),
             f"{sig(r['window_s'], 3)} s",
             headline(r),
         )
@@ -177,7 +177,7 @@ def _history_cells(point: HistoryPoint) -> tuple[str, ...]:
         words.clock_time(point["start"]).removesuffix(" UTC"),
         words.clock_time(point["end"]).removesuffix(" UTC"),
         point["verdict"],
-        f"{point['confidence']:.2f}",
+        words.confidence_cell(point["confidence"]),
         "-" if ratio is None else ("0" if ratio == 0 else f"{ratio:.1e}"),
         f"{_count(point['in_discards'])}/{_count(point['out_discards'])}",
         f"{_share(point['rx_util'])}/{_share(point['tx_util'])}",

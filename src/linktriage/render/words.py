@@ -10,6 +10,7 @@ under :mod:`linktriage.engine.verdicts`. The command line's and the demo's own w
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
 from datetime import UTC, datetime
 from typing import TYPE_CHECKING, Any
@@ -496,13 +497,24 @@ def port_title(device: str, port: str, title: str) -> str:
     return f"{device} {port}: {title}"
 
 
-def verdict_line(device: str, port: str, title: str, verdict: str, confidence: float) -> str:
-    return f"{port_title(device, port, title)} ({verdict}), confidence {confidence:.2f}"
+def confidence_cell(confidence: float | None) -> str:
+    """A confidence in a table or beside a verdict: "-" where a guard answered, not the tree.
+    Cut, not rounded, to two places: 0.9993 reads 0.99, never a certainty it is not."""
+    return "-" if confidence is None else f"{math.floor(confidence * 100) / 100:.2f}"
 
 
-def verdict_fallback(device: str, port: str, title: str, verdict: str, confidence: float) -> str:
+def verdict_line(device: str, port: str, title: str, verdict: str, confidence: float | None) -> str:
+    """An answer's first line; a guard's answer is a fact, with no confidence."""
+    line = f"{port_title(device, port, title)} ({verdict})"
+    return line if confidence is None else f"{line}, confidence {confidence_cell(confidence)}"
+
+
+def verdict_fallback(
+    device: str, port: str, title: str, verdict: str, confidence: float | None
+) -> str:
     """An answer as a notification shows it."""
-    return f"{port_title(device, port, title)} ({verdict}, {confidence:.2f})"
+    sure = "" if confidence is None else f", {confidence_cell(confidence)}"
+    return f"{port_title(device, port, title)} ({verdict}{sure})"
 
 
 def asked_by(person: str) -> str:

@@ -67,7 +67,7 @@ class _Line(msgspec.Struct, gc=False):
     port: str
     verdict: str
     title: str
-    confidence: float
+    confidence: float | None
     questions: msgspec.Raw
     evidence: list[EvidenceRecord]
     ruled_out: RuledOutRecord | None
@@ -120,7 +120,7 @@ class DiagnosisBatch:
     device: list[str]
     port: list[str]
     verdict: list[Verdict]
-    confidence: list[float]  # rounded to 4 places, as reported
+    confidence: list[float | None]  # rounded to 4 places; None where a guard answered
     node: list[int]  # the tree node whose classes decided; -1 where a guard answered
     ruled_out: list[Verdict | None]  # the tree's first choice where the physics ruled it out
     values: npt.NDArray[np.float64]  # the feature columns, as the tree compared them
@@ -276,16 +276,17 @@ class DiagnosisBatch:
             return view.verdict
         return self.verdict[i]
 
-    def link_confidence(self, i: int) -> float:
-        """How sure row ``i``'s answer is. Where the link decided: as sure as the end whose
-        own verdict it is, else (neither end alone says it) no surer than the less sure
-        of the two ends, since it rests on both ends' readings."""
+    def link_confidence(self, i: int) -> float | None:
+        """How sure row ``i``'s answer is (None: a guard answered). Where the link decided:
+        as sure as the end whose own verdict it is, else (neither end alone says it) no
+        surer than the less sure of the two ends, since it rests on both ends' readings."""
         if not self.decides(i):
             return self.confidence[i]
         j = self.far[i]
-        if self.verdict[j] == self.link_verdict(i):
+        if self.verdict[j] == self.link_verdict(i) and self.confidence[j] is not None:
             return self.confidence[j]
-        return min(self.confidence[i], self.confidence[j])
+        known = [c for c in (self.confidence[i], self.confidence[j]) if c is not None]
+        return min(known) if known else None
 
     def end_name(self, i: int) -> str:
         """A port as the link's words name it: ``lark-core1 up3``."""

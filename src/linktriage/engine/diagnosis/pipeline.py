@@ -17,6 +17,7 @@ import numpy as np
 import numpy.typing as npt
 
 from linktriage.engine.diagnosis.batch import NO_FIT_NOTE, DiagnosisBatch
+from linktriage.engine.diagnosis.confidence import RESTARTED, frames_holding, tree_confidence
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.guards import apply_guards
@@ -27,6 +28,7 @@ from linktriage.engine.measure.phy import phy_name
 from linktriage.engine.measure.window import DEFAULT_MAX_WINDOW_S, compute_windows, port_codes
 from linktriage.engine.model.features import feature_rows
 from linktriage.engine.physics import allowed
+from linktriage.engine.verdicts.healthy import HEALTHY
 from linktriage.gc_pause import gc_paused
 
 
@@ -124,18 +126,22 @@ def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisB
     unfit = choice.klass < 0
     klass = np.where(unfit, choice.first, choice.klass)
     node = np.where(unfit, leaf, choice.node)
-    confidence = np.where(unfit, tree.proba[leaf, choice.first], choice.confidence)
+    share = np.where(unfit, tree.proba[leaf, choice.first], choice.confidence)
+    values = rows.values.matrix(np.float64)
+    reported = rows.reported.matrix(np.bool_)
+    confidence = tree_confidence(tree, node, klass, share, mask, values, reported)
     first_ruled_out = ~mask[np.arange(len(leaf)), choice.first] & ~unfit
 
     is_guarded = np.array([g is not None for g in guarded], np.bool_)
-    values = rows.values.matrix(np.float64)
-    reported = rows.reported.matrix(np.bool_)
     # A guard's answer does not come from the tree: no change of a feature moves it.
     nearest = model.counterfactuals.find(values, mask, reported & ~is_guarded[:, None])
     verdict = [
         g if g is not None else c
         for g, c in zip(guarded, tree.classes[klass].tolist(), strict=True)
     ]
+    healthy = np.array([v == HEALTHY for v in verdict], np.bool_)
+    confidence *= np.where(healthy, frames_holding(m["rx_frames"], m["frames_needed"]), 1.0)
+    confidence *= np.where(windows.restarted, RESTARTED, 1.0)
     first = tree.classes[choice.first]
     ruled_out = [
         f if r and not g else None
@@ -162,7 +168,10 @@ def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisB
         device=[str(d) for d in windows.device],
         port=[str(p) for p in windows.port],
         verdict=verdict,
-        confidence=np.where(is_guarded, 1.0, confidence).round(4).tolist(),
+        confidence=[
+            None if g else c
+            for g, c in zip(is_guarded.tolist(), confidence.round(4).tolist(), strict=True)
+        ],
         node=np.where(is_guarded, -1, node).tolist(),
         ruled_out=ruled_out,
         values=values,

@@ -8,6 +8,7 @@ A simulated healthy port too quiet to judge is expected to come back
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Iterable
 from dataclasses import dataclass
 
@@ -19,8 +20,9 @@ from linktriage.engine.diagnosis.batch import DiagnosisBatch
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.snapshot import read_snapshots
+from linktriage.engine.model.artefact import ReliabilityBin, TreeArtefact
 from linktriage.engine.prior import simulate_prior
-from linktriage.engine.simulate.ports import Ranges
+from linktriage.engine.simulate.ports import TRAINING, Ranges
 from linktriage.engine.verdicts import FAULTS
 from linktriage.engine.verdicts.healthy import HEALTHY
 from linktriage.engine.verdicts.insufficient_traffic import INSUFFICIENT_TRAFFIC
@@ -37,10 +39,49 @@ class Score:
     healthy_called_faulty: float
     faults_called_healthy: float
     wrong: list[tuple[int, str, str]]  # (row, expected, answered)
+    reliability: tuple[Reliability, ...] = ()  # by confidence, where confidences were given
 
 
-def score(expected: npt.NDArray[np.object_], answered: npt.NDArray[np.object_]) -> Score:
-    """Compare answers with expected verdicts (both arrays of verdict ids)."""
+#: The edges of the confidence bins a reliability table counts answers in.
+RELIABILITY_EDGES = (0.0, 0.5, 0.8, 0.9, 0.95, 1.0)
+
+
+@dataclass(frozen=True, slots=True)
+class Reliability:
+    """The answers given with a confidence in [low, high) (the last bin includes 1), and
+    how many of them were right: calibrated, the share right is at least ``low``."""
+
+    low: float
+    high: float
+    answers: int
+    right: int
+
+
+def reliability(
+    expected: npt.NDArray[np.object_],
+    answered: npt.NDArray[np.object_],
+    confidence: list[float | None],
+) -> tuple[Reliability, ...]:
+    """A reliability table of the tree's answers (a guard's answer has no confidence)."""
+    given = np.array([c is not None for c in confidence], np.bool_)
+    sure = np.array([c if c is not None else np.nan for c in confidence], np.float64)
+    right = np.asarray(expected == answered, np.bool_)
+    rows = []
+    edges = RELIABILITY_EDGES
+    for k, (low, high) in enumerate(itertools.pairwise(edges)):
+        last = k == len(edges) - 2
+        inside = given & (sure >= low) & ((sure <= high) if last else (sure < high))
+        rows.append(Reliability(low, high, int(inside.sum()), int(right[inside].sum())))
+    return tuple(rows)
+
+
+def score(
+    expected: npt.NDArray[np.object_],
+    answered: npt.NDArray[np.object_],
+    confidence: list[float | None] | None = None,
+) -> Score:
+    """Compare answers with expected verdicts (both arrays of verdict ids), and where their
+    ``confidence`` is given, tabulate how often each level of it was right."""
     expected = expected.astype(str)
     answered = answered.astype(str)
     labels = sorted(set(expected))
@@ -57,6 +98,7 @@ def score(expected: npt.NDArray[np.object_], answered: npt.NDArray[np.object_]) 
         healthy_called_faulty=alarm,
         faults_called_healthy=missed,
         wrong=wrong,
+        reliability=() if confidence is None else reliability(expected, answered, confidence),
     )
 
 
@@ -82,7 +124,25 @@ def score_labelled(
     expect = {(label["device"], label["port"]): label["expect"] for label in labels}
     expected = np.array([expect[key] for key in zip(batch.device, batch.port, strict=True)])
     # The answer as diagnose --json gives it: the link's where both ends were read.
-    return score(expected, np.array([batch.link_verdict(i) for i in range(len(batch))]))
+    answered = np.array([batch.link_verdict(i) for i in range(len(batch))])
+    return score(expected, answered, [batch.link_confidence(i) for i in range(len(batch))])
+
+
+#: Held-out simulated ports the reliability of a new model's confidence is measured on, and
+#: how far from the training seed theirs lies.
+RELIABILITY_PORTS = 10_000
+_RELIABILITY_SEED_OFFSET = 1
+
+
+def with_reliability(artefact: TreeArtefact) -> TreeArtefact:
+    """``artefact`` with the reliability of its confidence measured on held-out simulated
+    ports (a seed apart from training), for the model card."""
+    seed = artefact.training.seed + _RELIABILITY_SEED_OFFSET
+    measured = score_simulated(Model(artefact), RELIABILITY_PORTS, seed, TRAINING).reliability
+    bins = tuple(ReliabilityBin(low=r.low, high=r.high, answers=r.answers, right=r.right)
+                 for r in measured)  # fmt: skip
+    training = artefact.training.model_copy(update={"reliability": bins})
+    return artefact.model_copy(update={"training": training})
 
 
 def score_simulated(model: Model, ports: int, seed: int, ranges: Ranges) -> Score:
@@ -91,4 +151,4 @@ def score_simulated(model: Model, ports: int, seed: int, ranges: Ranges) -> Scor
     batch = diagnose(polls, model)
     # Simulated port names are unique and windows keep the order of first appearance.
     answered = np.array(batch.verdict, dtype=object)
-    return score(expected_verdicts(batch, labels), answered)
+    return score(expected_verdicts(batch, labels), answered, batch.confidence)

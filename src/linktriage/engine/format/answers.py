@@ -98,7 +98,7 @@ class OwnViewRecord(TypedDict):
 
     verdict: str
     title: str
-    confidence: float
+    confidence: float | None  # None: a guard answered, not the tree
     evidence: list[EvidenceRecord]
     nearest_other: NearestOther | None
 
@@ -110,7 +110,7 @@ class DiagnosisRecord(TypedDict):
     port: str
     verdict: str
     title: str
-    confidence: float
+    confidence: float | None  # None: a guard answered (down, no data, too quiet), not the tree
     questions: list[QuestionRecord]
     evidence: list[EvidenceRecord]
     ruled_out: RuledOutRecord | None

@@ -134,6 +134,7 @@ def now_and_before(
     rows, picked = tried[shown], np.flatnonzero(shown)
     notes = _notes(windows, measured.table, rows, past[rows], start[rows])
     restarted = _spliced(windows, rows, later, picked)
+    restarted.restarted[rows] = True
     for row, note in zip(rows.tolist(), notes, strict=True):
         restarted.note[row] = f"{restarted.note[row]}; {note}" if restarted.note[row] else note
     faults = list(measured.counter_faults)

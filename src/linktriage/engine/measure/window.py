@@ -105,6 +105,9 @@ class WindowTable:
     neighbor_device: npt.NDArray[np.object_]  # the far end at the latest poll, or None
     neighbor_port: npt.NDArray[np.object_]
     intervals: Intervals
+    # The window starts where its latest intervals differ from what came before
+    # (linktriage.engine.measure.now), not at the reach of the window.
+    restarted: npt.NDArray[np.bool_]
 
     def __len__(self) -> int:
         return len(self.device)
@@ -179,6 +182,7 @@ def _no_windows() -> WindowTable:
         intervals=Intervals(
             np.zeros(0, np.intp), none, none, none, none, none, np.zeros(0, np.bool_)
         ),
+        restarted=np.zeros(0, np.bool_),
     )
 
 
@@ -318,6 +322,7 @@ def _windows_of_sorted(
         neighbor_device=p.neighbor_device[last],
         neighbor_port=p.neighbor_port[last],
         intervals=intervals,
+        restarted=np.zeros(len(starts), np.bool_),
     )
 
 

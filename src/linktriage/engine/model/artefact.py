@@ -48,6 +48,18 @@ class TreeArrays(BaseModel):
     impurity: list[float]
 
 
+class ReliabilityBin(BaseModel):
+    """Answers given with a confidence in [low, high) (the last bin includes 1) on held-out
+    simulated ports, and how many were right."""
+
+    model_config = ConfigDict(frozen=True)
+
+    low: float
+    high: float
+    answers: int
+    right: int
+
+
 class TrainingSummary(BaseModel):
     """How the tree was trained and how well it scored in cross-validation."""
 
@@ -67,6 +79,9 @@ class TrainingSummary(BaseModel):
     per_class_recall: dict[str, float]
     healthy_false_alarm: float
     sklearn_version: str
+    #: How often each level of confidence was right, measured after training on held-out
+    #: simulated ports through the whole pipeline (empty where it was not measured).
+    reliability: tuple[ReliabilityBin, ...] = ()
 
 
 class TreeArtefact(BaseModel):
@@ -197,6 +212,7 @@ class CompiledTree:
         normalizer = value.sum(axis=1, keepdims=True)
         normalizer[normalizer == 0.0] = 1.0  # as scikit-learn's predict_proba does
         self.proba = value / normalizer
+        self.samples = np.asarray(t.n_node_samples, np.float64)  # training ports per node
         self.is_leaf = self.left == -1
         self.depth = artefact.depth
         self.parent = np.full(len(self.left), -1, np.intp)
