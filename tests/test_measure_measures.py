@@ -13,9 +13,11 @@ from scipy.stats import binomtest
 from linktriage.engine.measure.measures import (
     RESOLUTION_CAP,
     WARN_ABOVE_FLOOR_DB,
-    error_ratio_bounds,
+    error_ratio_upper,
     frames_needed,
     measure,
+    ratio_floor,
+    ratio_over,
 )
 from linktriage.engine.measure.window import compute_windows
 
@@ -37,18 +39,34 @@ def measures(grow: dict[str, int], **fields: Any) -> dict[str, Any]:
 def test_zero_errors_bound_the_ratio_near_three_over_n(n: int) -> None:
     # The rule of three: with no events in n trials the one-sided 95% upper bound is
     # about 3/n (Hanley and Lippman-Hand, JAMA 1983, "If nothing goes wrong...").
-    _, upper = error_ratio_bounds(np.array([0.0]), np.array([float(n)]))
+    upper = error_ratio_upper(np.array([0.0]), np.array([float(n)]))
     assert upper[0] == pytest.approx(3 / n, rel=0.01)
 
 
 @pytest.mark.parametrize(("k", "n"), [(1, 50), (10, 20_000), (250, 10**6), (3, 7)])
 def test_bounds_match_scipys_exact_clopper_pearson_interval(k: int, n: int) -> None:
-    # One-sided 95% bounds are the ends of the two-sided 90% exact (Clopper-Pearson)
-    # interval; scipy.stats.binomtest is the reference implementation.
-    lower, upper = error_ratio_bounds(np.array([float(k)]), np.array([float(n)]))
-    ci = binomtest(k, n).proportion_ci(confidence_level=0.90, method="exact")
-    assert lower[0] == pytest.approx(ci.low, rel=1e-9)
-    assert upper[0] == pytest.approx(ci.high, rel=1e-9)
+    # A one-sided bound at c is an end of the two-sided exact (Clopper-Pearson) interval at
+    # 2c - 1: the upper at 95% of the 90% interval, the test's lower at 99% of the 98%;
+    # scipy.stats.binomtest is the reference implementation.
+    upper = error_ratio_upper(np.array([float(k)]), np.array([float(n)]))
+    assert upper[0] == pytest.approx(
+        binomtest(k, n).proportion_ci(confidence_level=0.90, method="exact").high, rel=1e-9
+    )
+    lower = ratio_floor(np.array([float(k)]), np.array([float(n)]))
+    assert lower[0] == pytest.approx(
+        binomtest(k, n).proportion_ci(confidence_level=0.98, method="exact").low, rel=1e-9
+    )
+
+
+CASES = [(30_000, 15_030_000, 1e-4), (14, 12_500_000, 1e-4), (19, 1_200_019, 1e-6)]
+
+
+@pytest.mark.parametrize(("k", "n", "share"), [*CASES, (3, 2_500_000, 1e-6)])
+def test_the_yes_or_no_test_agrees_with_the_bound(k: int, n: int, share: float) -> None:
+    # ratio_over asks the regularised incomplete beta instead of solving for the bound: the
+    # two must always agree on which side of ``share`` the ratio lies.
+    floor = ratio_floor(np.array([float(k)]), np.array([float(n)]))[0]
+    assert ratio_over(np.array([float(k)]), np.array([float(n)]), share)[0] == (floor > share)
 
 
 def test_received_frames_count_discards_and_errors_beside_packets() -> None:

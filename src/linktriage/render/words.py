@@ -48,12 +48,13 @@ def ber_line(ber: Mapping[str, Any]) -> str:
         )
     if exceeds:
         return (
-            f"Estimated bit error ratio {estimate:.2e} (95%: at least {lower:.2e}), over the "
-            f"{phy} objective of {objective:.0e}."
+            f"Estimated bit error ratio {estimate:.2e} (at least {lower:.2e} by an exact test "
+            f"at 99%): a fault's rate, ten times the {phy} objective of {objective:.0e} or more."
         )
     return (
-        f"Estimated bit error ratio {estimate:.2e} (95%: {lower:.2e} to {upper:.2e}), not "
-        f"significantly over the {phy} objective of {objective:.0e}."
+        f"Estimated bit error ratio {estimate:.2e} (at least {lower:.2e} at 99%, at most "
+        f"{upper:.2e} at 95%): not a fault's rate against the {phy} objective of "
+        f"{objective:.0e}."
     )
 
 

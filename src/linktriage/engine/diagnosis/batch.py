@@ -102,7 +102,7 @@ _encode_lines = msgspec.json.Encoder().encode_lines
 _decode_records = msgspec.json.Decoder(DiagnosisRecord).decode_lines
 
 
-_BER_COLUMNS = ("ber", "ber_lo", "ber_hi", "objective", "rx_errors")
+_BER_COLUMNS = ("ber", "ber_floor", "ber_hi", "objective", "rx_errors")
 
 
 @dataclass

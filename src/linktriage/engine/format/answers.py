@@ -39,7 +39,8 @@ class BitErrorRecord(TypedDict):
 
     ``exceeds`` is true only when the errors are evidence of a fault: over the objective by
     an exact one-sided test at 99%, ten times it or more, from enough errored frames to be
-    more than one burst. ``lower`` and ``upper`` are the one-sided 95% bounds.
+    more than one burst. ``lower`` is the test's one-sided 99% bound, ``upper`` the one-sided
+    95% bound.
     """
 
     phy: str

@@ -127,33 +127,27 @@ class Measured:
     counter_faults: list[str]
 
 
-def error_ratio_bounds(
+def error_ratio_upper(
     errors: FloatArray, frames: FloatArray, confidence: float = CONFIDENCE
-) -> tuple[FloatArray, FloatArray]:
-    """One-sided Clopper-Pearson bounds on an error ratio: ``k`` errors in ``n`` frames.
-
-    Returns (lower, upper): the true ratio is above ``lower`` with ``confidence``, and below
-    ``upper`` with ``confidence``. With ``k = 0`` the upper bound is ``1 - (1-c)^(1/n)``,
-    which the rule of three rounds to ``3/n`` at 95%.
-    """
+) -> FloatArray:
+    """The one-sided upper Clopper-Pearson bound on an error ratio, ``k`` errors in ``n``
+    frames: the true ratio is below it with ``confidence``. With ``k = 0`` it is
+    ``1 - (1-c)^(1/n)``, which the rule of three rounds to ``3/n`` at 95%. (The lower bound
+    an answer shows is the significance test's, :func:`ratio_floor`.)"""
     k = np.asarray(errors, np.float64)
     n = np.asarray(frames, np.float64)
     valid = n > 0
     k = np.clip(np.nan_to_num(k), 0.0, np.where(valid, n, 0.0))
-    lower = np.zeros(k.shape)
     upper = np.ones(k.shape)
-    clean = valid & (k == 0)  # most ports: the closed form, no inverse beta to solve
+    clean = valid & (k == 0)
     with np.errstate(divide="ignore"):
         upper[clean] = -np.expm1(np.log1p(-confidence) / n[clean])
-    some = valid & (k > 0)
-    if not some.any():  # clean ports only: no need of scipy (a tenth of a second to load)
-        return lower, upper
-    from scipy.special import betaincinv
+    below = valid & (k > 0) & (k < n)
+    if below.any():
+        from scipy.special import betaincinv
 
-    below = some & (k < n)
-    upper[below] = betaincinv(k[below] + 1.0, n[below] - k[below], confidence)
-    lower[some] = betaincinv(k[some], n[some] - k[some] + 1.0, 1.0 - confidence)
-    return lower, upper
+        upper[below] = betaincinv(k[below] + 1.0, n[below] - k[below], confidence)
+    return upper
 
 
 def ratio_floor(events: FloatArray, frames: FloatArray) -> FloatArray:
@@ -310,10 +304,9 @@ def measure(w: WindowTable) -> Measured:
     frame_octets = np.clip(np.nan_to_num(octets_per_frame, nan=MAX_UNTAGGED_FRAME_OCTETS), 64, 9216)
     frame_bits = frame_octets * 8.0
     fer = _ratio(rx_errors, rx_frames)
-    fer_lo, fer_hi = error_ratio_bounds(rx_errors, rx_frames)
+    fer_hi = error_ratio_upper(rx_errors, rx_frames)
     known = ~np.isnan(fer)
     ber = estimate_ber(fer, frame_bits)
-    ber_lo = np.where(known, estimate_ber(fer_lo, frame_bits), np.nan)
     ber_hi = np.where(known, estimate_ber(fer_hi, frame_bits), np.nan)
     objective = _per_pair(speed, fiber, objective_for)
     # Fewer errored frames than MIN_ERROR_FRAMES show no rate: their floor is nothing.
@@ -411,10 +404,8 @@ def measure(w: WindowTable) -> Measured:
             ).astype(np.float64),
             "frame_octets": frame_octets,
             "fer": fer,
-            "fer_lo": fer_lo,
             "fer_hi": np.where(known, fer_hi, np.nan),
             "ber": ber,
-            "ber_lo": ber_lo,
             "ber_hi": ber_hi,
             "ber_floor": ber_floor,
             "objective": objective,

@@ -60,7 +60,7 @@ def _evidence(c: PortGroup) -> list[Items]:
     out: list[Items] = []
     rows = zip(
         bit_errors(c), errored_frames(c), flaps(c), symbols(c), speed(c), rx_light(c),
-        c["ber_lo"], c["objective"], c["fiber"], strict=True,
+        c["ber_floor"], c["objective"], c["fiber"], strict=True,
     )  # fmt: skip
     for errors, frames, flapped, invalid, slow, light, lo, target, fiber in rows:
         # Significant errors lead; where there are none, the flapping does.
