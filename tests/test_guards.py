@@ -38,7 +38,7 @@ def test_a_quiet_port_with_many_errors_goes_to_the_tree() -> None:
 
 
 def test_a_handful_of_errors_on_a_quiet_port_is_not_enough() -> None:
-    # Fewer errored frames than MIN_ERROR_FRAMES may be one burst: no rate, whatever the test
+    # Fewer errored frames than MIN_ERROR_FRAMES are an event, not a rate, whatever the test
     # says of them (one in 2,000 at 1 Gb/s is P = 0.16% against the 1e-10 objective).
     assert guard(quiet(2_000, errors=1)) == "insufficient_traffic"
     assert guard(quiet(2_000, errors=MIN_ERROR_FRAMES - 1)) == "insufficient_traffic"

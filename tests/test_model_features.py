@@ -41,11 +41,12 @@ def test_errors_are_held_against_the_phys_objective_by_their_lower_bound() -> No
     assert 10**2 < 10 ** values["ber_over_objective"] < 125
 
 
-def test_a_handful_of_errors_is_no_evidence_however_quiet_the_port() -> None:
-    # Nine errors in 10,000 frames is a large ratio, but a re-seated cord does that.
+def test_an_errored_frame_or_two_is_no_evidence_however_quiet_the_port() -> None:
+    # Two errors in 10,000 frames is a large ratio, but a touched plug does that: an event,
+    # not a rate (measure.measures.MIN_ERROR_FRAMES).
     values, reported = features(
         {"ifHCInOctets": 10**7, "ifHCInUcastPkts": 10**4, "ifHCOutUcastPkts": 10**4,
-         "dot3StatsFCSErrors": 9}
+         "dot3StatsFCSErrors": 2}
     )  # fmt: skip
     assert values["ber_over_objective"] == FEATURE_BY_NAME["ber_over_objective"].low
     assert reported["ber_over_objective"]

@@ -113,9 +113,9 @@ def test_hiding_what_is_not_evidence_moves_no_verdict(
     perturbed = diagnose(PERTURBATIONS[name](held_out), model)
     assert perturbed.device == baseline.device and perturbed.port == baseline.port
     moved = [
-        (baseline.port[i], baseline.verdict[i].value, perturbed.verdict[i].value)
+        (baseline.port[i], baseline.verdict[i], perturbed.verdict[i])
         for i in range(len(baseline))
-        if perturbed.verdict[i] is not baseline.verdict[i]
+        if perturbed.verdict[i] != baseline.verdict[i]
     ]
     assert moved == [], moved[:5]
     assert perturbed.confidence == baseline.confidence

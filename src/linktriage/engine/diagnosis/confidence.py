@@ -89,7 +89,10 @@ def tree_confidence(
             if _SCALES[f] == 0.0:
                 continue
             other = tree.right[step.node] if not step.went_right else tree.left[step.node]
-            elsewhere = np.argmax(tree.proba[other] * mask[rows], axis=1) != klass[rows]
+            # Where the other side holds no allowed verdict, the answer climbs back to this
+            # node's (CompiledTree.choose): a flip there changes nothing either.
+            there = tree.proba[other] * mask[rows]
+            elsewhere = (there.max(axis=1) > 0) & (np.argmax(there, axis=1) != klass[rows])
             distance = (values[rows, f] - step.threshold) / _SCALES[f]
             sure[rows] *= np.where(reported[rows, f] & elsewhere, holds(distance), 1.0)
     return sure

@@ -4,9 +4,9 @@ A window's sums answer for the whole window; an engineer asks what the link does
 the latest intervals differ, the window restarts where they begin, and the port's note says
 so and when:
 
-* **A direction that went silent.** The latest intervals, together at least
-  :data:`SILENT_RUN_S` long, each carry next to nothing one way while the other way is alive
-  (the test of :func:`linktriage.engine.measure.signs.one_way`): the link is one-way now,
+* **A direction that went silent.** The latest intervals each carry next to nothing one way
+  while the other way is alive (the test of :func:`linktriage.engine.measure.signs.one_way`,
+  the same a whole window is held to, whatever its length): the link is one-way now,
   whatever the average says. The window restarts where the silence began.
 * **Errors a down/up left behind.** Errors significant over the window, a link that went down
   and up (a re-seat, a re-patch) without flapping, and the intervals after it clean with
@@ -29,13 +29,8 @@ import numpy.typing as npt
 from linktriage.engine.format.poll_table import FloatArray, PollTable
 from linktriage.engine.measure.columns import Columns
 from linktriage.engine.measure.measures import Measured, measure
-from linktriage.engine.measure.signs import Signs, one_way
+from linktriage.engine.measure.signs import Signs, one_way, unicast_shares
 from linktriage.engine.measure.window import Intervals, WindowTable, compute_windows, port_codes
-
-#: The least time a direction must have been silent, at the end of a window, to be one-way
-#: now: two periods of IEEE 802.1AB LLDP (30 s), in which any live neighbour sends at least
-#: its own keepalives (common practice).
-SILENT_RUN_S = 60.0
 
 
 def _moment(at: float) -> str:
@@ -60,13 +55,17 @@ def _first_per_window(window: npt.NDArray[np.intp], ports: int) -> npt.NDArray[n
     return first
 
 
-def silence_start(iv: Intervals, ports: int) -> FloatArray:
-    """Per window, when the trailing run of one-way intervals began, where it is at least
-    SILENT_RUN_S long and shorter than the window; NaN elsewhere."""
+def silence_start(iv: Intervals, ports: int, m: Columns) -> FloatArray:
+    """Per window, when the trailing run of one-way intervals began, where it is shorter
+    than the window (a whole window one way is read as such); NaN elsewhere."""
     dt = iv.end - iv.start
     with np.errstate(divide="ignore", invalid="ignore"):
         rx_fps, tx_fps = iv.rx_pkts / dt, iv.tx_pkts / dt
-    one_way_now = one_way(iv.rx_pkts, tx_fps, dt) | one_way(iv.tx_pkts, rx_fps, dt)
+    # What share of each direction is unicast, an interval does not keep: the window's.
+    rx_unicast, tx_unicast = (share[iv.window] for share in unicast_shares(m))
+    one_way_now = one_way(iv.rx_pkts, tx_fps, dt, tx_unicast) | one_way(
+        iv.tx_pkts, rx_fps, dt, rx_unicast
+    )
     start = np.full(ports, np.nan)
     if not len(iv):
         return start
@@ -76,9 +75,7 @@ def silence_start(iv: Intervals, ports: int) -> FloatArray:
     run_first = last_break + 1
     inside = (last_break >= 0) & (run_first <= last)  # a run, after an interval that was not
     rows = np.flatnonzero(inside & (first >= 0))
-    began = iv.start[run_first[rows]]
-    long_enough = iv.end[last[rows]] - began >= SILENT_RUN_S
-    start[rows[long_enough]] = began[long_enough]
+    start[rows] = iv.start[run_first[rows]]
     return start
 
 
@@ -115,7 +112,9 @@ def now_and_before(
     """The windows, with those whose latest intervals differ restarted where they begin."""
     ports = len(windows)
     signs = Signs.read(measured.table)
-    quiet_since = np.where(signs.silent, np.nan, silence_start(windows.intervals, ports))
+    quiet_since = np.where(
+        signs.silent, np.nan, silence_start(windows.intervals, ports, measured.table)
+    )
     changed = change_end(windows.intervals, ports)
     past = signs.errors & ~signs.flapping & ~np.isnan(changed) & np.isnan(quiet_since)
     start = np.where(past, changed, quiet_since)
@@ -123,9 +122,12 @@ def now_and_before(
     if len(tried) == 0:
         return _said_since(windows, signs), measured
     codes, _ = port_codes(polls)
-    keep = ~np.isnan(start[codes]) & (polls.time >= np.nan_to_num(start[codes], nan=np.inf))
+    keep = np.flatnonzero(
+        ~np.isnan(start[codes]) & (polls.time >= np.nan_to_num(start[codes], nan=np.inf))
+    )
+    # Ports first appear in the order of their windows, so the later windows come in it too.
+    keep = keep[np.argsort(codes[keep], kind="stable")]
     later = compute_windows(polls.take(keep), max_window_s=max_window_s)
-    assert list(later.port) == list(windows.port[tried])  # the same ports, in the same order
     again = measure(later)
     shows = Signs.read(again.table)
     shown = np.where(past[tried], shows.enough_frames & ~shows.errors, shows.silent)

@@ -29,15 +29,17 @@ from linktriage.engine.measure.phy import half_duplex_exists
 #: flapping (OpenConfig interface-transitions: one flap counts 2; common practice).
 FLAPPING_CHANGES = 6
 #: A direction that carried no more than SILENT_FRAMES frames in the window, or a trickle
-#: of fewer than one frame in 1 / SILENT_FPS seconds and under SILENT_SHARE of what the
-#: other direction carries, is silent: a broken strand or pair passes nothing, and an end
-#: with nothing of its own to send still sends its control frames (IEEE 802.1AB LLDP every
-#: 30 s, 0.033 frames/s), while a live host answers what it receives (a camera sending
-#: video gets a few frames a second back). The other direction must carry at least
-#: ALIVE_FPS for the link to be one-way rather than idle (common practice).
+#: of control frames alone (SILENT_FPS or fewer a second: IEEE 802.1AB LLDP every 30 s,
+#: IEEE 802.1D BPDUs every 2 s, IEEE 802.1AX LACP at most every second; from memory) that is
+#: under SILENT_SHARE of what the other direction carries, is silent: a broken strand or
+#: pair passes nothing but what an end sends of its own accord, while a live host answers
+#: what it receives (a camera sending video gets a few frames a second back). The other
+#: direction must carry at least ALIVE_FPS for the link to be one-way rather than idle, and
+#: for a trickle to count, that many unicast frames: a flood of broadcasts or a multicast
+#: stream asks no answer (common practice).
 SILENT_FRAMES = 2
-SILENT_FPS = 0.1
-SILENT_SHARE = 1e-4
+SILENT_FPS = 2.0
+SILENT_SHARE = 0.02
 ALIVE_FPS = 3.0
 #: Discards are congestion where their direction runs at 60% of line rate or more, averaged
 #: over the window (common practice: capacity is planned at 50-70% sustained load), or where
@@ -115,18 +117,36 @@ class Signs:
             light_under_alarm=(m["floor_margin_db"] < 0.0),
             tx_low=(m["tx_margin_db"] < NEAR_TX_DB),
             hot=(m["temperature_c"] > HOT_C),
-            silent=fps_known & one_way(quiet, busy, m["window_s"]),
+            silent=fps_known & one_way(quiet, busy, m["window_s"], _busy_unicast(m)),
             congested=_congested(m),
             device_errors=(m["in_errors_other_over"] == 1.0) | (m["out_errors_other_over"] == 1.0),
         )
 
 
-def one_way(quiet: FloatArray, busy_fps: FloatArray, window_s: FloatArray) -> BoolArray:
+def one_way(
+    quiet: FloatArray, busy_fps: FloatArray, window_s: FloatArray, unicast: FloatArray
+) -> BoolArray:
     """Whether ``quiet`` frames one way in ``window_s`` are silence against ``busy_fps`` the
-    other way (the rule above SILENT_FRAMES)."""
+    other way, of which ``unicast`` is the share a live end would answer (the rule above
+    SILENT_FRAMES)."""
     nothing = quiet <= SILENT_FRAMES
     trickle = (quiet <= SILENT_FPS * window_s) & (quiet <= SILENT_SHARE * busy_fps * window_s)
+    trickle &= busy_fps * unicast >= ALIVE_FPS
     return np.asarray((nothing | trickle) & (busy_fps >= ALIVE_FPS), np.bool_)
+
+
+def unicast_shares(m: Columns) -> tuple[FloatArray, FloatArray]:
+    """The share of unicast among the frames received and sent (1 where not reported: a
+    device that counts only unicast, or none of the three, hides nothing from the rule)."""
+    rx = 1.0 - np.nan_to_num(m["rx_broadcast_share"], nan=0.0)
+    tx = 1.0 - np.nan_to_num(m["tx_broadcast_share"], nan=0.0)
+    return rx, tx
+
+
+def _busy_unicast(m: Columns) -> FloatArray:
+    """The unicast share of the busier direction."""
+    rx, tx = unicast_shares(m)
+    return np.where(np.nan_to_num(m["rx_fps"]) >= np.nan_to_num(m["tx_fps"]), rx, tx)
 
 
 def _congested(m: Columns) -> BoolArray:
@@ -147,4 +167,5 @@ def _cut_frames(m: Columns) -> BoolArray:
     eligible = (
         np.isnan(m["runts"]) & (m["speed_bps"] == _CUT_SPEED_BPS) & (m["error_source"] == 1.0)
     )
+    eligible &= crc >= MIN_EVENTS  # a share needs errors enough to be one, as runts do
     return np.asarray(cut & eligible, np.bool_)

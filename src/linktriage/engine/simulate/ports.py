@@ -209,8 +209,9 @@ def base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
     # 100 Mb/s, RFC 2863 section 3.1.6), or they could not measure load at all.
     dt = np.where(legacy, np.minimum(dt, 300.0), dt)
     # A healthy link carries frames both ways, a few a second at the least (control
-    # traffic, broadcasts): a silent direction is a one-way link.
-    least = rng.uniform(0.2, 2.0, n)
+    # traffic, broadcasts, a live end's answers): a direction down to control frames alone,
+    # under signs.SILENT_FPS, is a one-way link.
+    least = rng.uniform(3.0, 10.0, n)
     rx_util = np.maximum(rx_util, least * (rx_frame + WIRE_OVERHEAD_OCTETS) * 8 / speed)
     tx_util = np.maximum(tx_util, least * (tx_frame + WIRE_OVERHEAD_OCTETS) * 8 / speed)
     filtering = ~busy & (rx_util < 0.55) & chance(rng, 0.3 * r.nuisance, n)
@@ -242,13 +243,13 @@ def base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
             "tx_frame_octets": tx_frame,
             "rx_bcast_share": np.where(storm, rng.uniform(0.85, 0.99, n), rng.uniform(0.0, 0.1, n)),
             "rx_ber": objective(speed, fiber) * log_uniform(rng, 1e-5, 0.3, n),
-            # A burst after a re-seat, or stray noise: a handful of errors in any window.
+            # A touched plug or an ESD hit: an errored frame or two in a window, fewer than the
+            # three a rate needs (measure.measures.MIN_ERROR_FRAMES); a re-seat's burst with
+            # its down/up is judged by the intervals after it, which two polls do not show.
             "stray_errors": np.where(
-                chance(rng, 0.2 * r.nuisance, n), rng.uniform(0.2, 3.0, n), 0.0
+                chance(rng, 0.2 * r.nuisance, n), rng.uniform(0.05, 0.25, n), 0.0
             ),
-            "burst_errors": np.where(
-                chance(rng, 0.05 * r.nuisance, n), rng.integers(1, 7, n), 0
-            ).astype(float),
+            "burst_errors": np.where(chance(rng, 0.03 * r.nuisance, n), 1.0, 0.0),
             "symbols_per_error": rng.uniform(0.5, 3.0, n),
             # 0: counted, 1: not reported, 2: reported but stuck at zero.
             "symbol_mode": choice(rng, ((0, 70), (1, 15 * r.missing), (2, 15 * r.missing)), n),

@@ -150,10 +150,7 @@ _TEST = "exact one-sided binomial test at 99% (Clopper-Pearson)"
 def _judged(errors: float, ber: float, floor: float, objective: float, name: str) -> str:
     """What the significance test says of errors counted against the PHY's objective."""
     if errors < MIN_ERROR_FRAMES:
-        return (
-            f"fewer than {MIN_ERROR_FRAMES} errored frames may be one burst (a touched plug, "
-            "a re-seat), not a rate"
-        )
+        return "one or two errored frames are an event (a touched plug, an ESD hit), not a rate"
     if not floor > objective:
         return (
             f"within what the {name} objective of {objective:.0e} allows by chance "
