@@ -21,7 +21,6 @@ from then: the note of such a port says since when (:func:`errors_since`).
 from __future__ import annotations
 
 from dataclasses import fields, replace
-from datetime import UTC, datetime
 
 import numpy as np
 import numpy.typing as npt
@@ -30,11 +29,13 @@ from linktriage.engine.format.poll_table import FloatArray, PollTable
 from linktriage.engine.measure.columns import Columns
 from linktriage.engine.measure.measures import Measured, measure
 from linktriage.engine.measure.signs import Signs, one_way, unicast_shares
-from linktriage.engine.measure.window import Intervals, WindowTable, compute_windows, port_codes
-
-
-def _moment(at: float) -> str:
-    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+from linktriage.engine.measure.window import (
+    Intervals,
+    WindowTable,
+    compute_windows,
+    moment,
+    port_codes,
+)
 
 
 def _last_per_window(
@@ -155,7 +156,7 @@ def _said_since(w: WindowTable, signs: Signs) -> WindowTable:
     note = w.note.copy()
     for row in rows.tolist():
         said = (
-            f"errors in every interval since {_moment(float(since[row]))}, none in the "
+            f"errors in every interval since {moment(float(since[row]))}, none in the "
             "intervals before"
         )
         note[row] = f"{note[row]}; {said}" if note[row] else said
@@ -172,17 +173,17 @@ def _notes(
     """Why each restarted window starts where it does, with what came before."""
     notes = []
     for row, was_past, at in zip(rows.tolist(), past.tolist(), start.tolist(), strict=True):
-        began = _moment(float(w.start_time[row]))
+        began = moment(float(w.start_time[row]))
         if was_past:
             notes.append(
-                f"{m['rx_errors'][row]:,.0f} errored frames between {began} and {_moment(at)}, "
+                f"{m['rx_errors'][row]:,.0f} errored frames between {began} and {moment(at)}, "
                 "with the link going down and up (a re-seat or re-patch): a past event, "
-                f"clean since; the answer rests on the polls from {_moment(at)}"
+                f"clean since; the answer rests on the polls from {moment(at)}"
             )
         else:
             notes.append(
-                f"one direction silent since {_moment(at)} (busy before, from {began}): the "
-                f"answer rests on the polls from {_moment(at)}"
+                f"one direction silent since {moment(at)} (busy before, from {began}): the "
+                f"answer rests on the polls from {moment(at)}"
             )
     return notes
 

@@ -92,7 +92,6 @@ class Signs:
     hot: BoolArray
     silent: BoolArray
     congested: BoolArray
-    device_errors: BoolArray  # ifIn/OutErrors beyond their RFC 3635 parts, significant
 
     @classmethod
     def read(cls, m: Columns) -> Signs:
@@ -119,7 +118,6 @@ class Signs:
             hot=(m["temperature_c"] > HOT_C),
             silent=fps_known & one_way(quiet, busy, m["window_s"], _busy_unicast(m)),
             congested=_congested(m),
-            device_errors=(m["in_errors_other_over"] == 1.0) | (m["out_errors_other_over"] == 1.0),
         )
 
 

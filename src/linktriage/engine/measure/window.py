@@ -358,6 +358,11 @@ class _IntervalValues:
         return np.where(np.isnan(crc), self.value("in_errors"), crc)
 
 
+def moment(at: float) -> str:
+    """A poll's time as a note names it: RFC 3339 in UTC, to the second."""
+    return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
 def _pick(sums: FloatArray, hc: str | None, c32: str | None) -> FloatArray:
     """The 64-bit form of a quantity where the whole window has it, else the 32-bit form."""
     nan = np.full(sums.shape[0], np.nan)
@@ -409,8 +414,6 @@ def _name_skipped(
     for code, at in zip(skipped.code[inside].tolist(), skipped.time[inside].tolist(), strict=True):
         times.setdefault(code, []).append(at)
     for code, ats in times.items():
-        when = ", ".join(
-            datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%dT%H:%M:%SZ") for at in ats
-        )
+        when = ", ".join(moment(at) for at in ats)
         polls = "a poll that lacks" if len(ats) == 1 else f"{len(ats)} polls that lack"
         note[code] = f"skipped {polls} counters the latest reports ({when})"
