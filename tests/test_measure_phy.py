@@ -42,6 +42,8 @@ def test_a_ber_of_1e12_gives_a_fer_of_5_12e10_on_64_octet_frames() -> None:
         (10**8, False, "100BASE-TX", 1e-10),
         (10**10, True, "10GBASE-R", 1e-12),  # IEEE 802.3 clause 52 (from memory)
         (10**10, False, "10GBASE-T", 1e-12),  # 802.3an objective (quoted)
+        (2_500_000_000, False, "2.5GBASE-T", 1e-12),  # 802.3bz objective (from memory)
+        (5 * 10**9, False, "5GBASE-T", 1e-12),  # 802.3bz objective (from memory)
         (10**11, True, "100GBASE-R", 1e-12),  # 40/100G objective (quoted)
         (4 * 10**11, True, "400GBASE-R", 1e-13),  # IEEE 802.3bs objective (from memory)
     ],
@@ -62,6 +64,7 @@ def test_half_duplex_exists_only_up_to_a_gigabit_and_at_a_gigabit_only_on_copper
     # IEEE 802.3: CSMA/CD half duplex up to 1000 Mb/s; 10 Gb/s and faster are full duplex
     # only (clause 44.1.1, from memory); 1000BASE-X settles duplex by clause 37
     # autonegotiation (common practice).
-    speed = np.array([1e7, 1e8, 1e9, 1e9, 1e10, 1e10, np.nan])
-    fiber = np.array([0.0, 1.0, 0.0, 1.0, 0.0, 1.0, np.nan])
-    assert half_duplex_exists(speed, fiber).tolist() == [1, 1, 1, 0, 0, 0, 1]
+    # 2.5GBASE-T and 5GBASE-T are full duplex only (IEEE 802.3bz, from memory).
+    speed = np.array([1e7, 1e8, 1e9, 1e9, 2.5e9, 5e9, 1e10, 1e10, np.nan])
+    fiber = np.array([0.0, 1.0, 0.0, 1.0, 0.0, 0.0, 0.0, 1.0, np.nan])
+    assert half_duplex_exists(speed, fiber).tolist() == [1, 1, 1, 0, 0, 0, 0, 0, 1]

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from typing import Any
 
+import pytest
+
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.answers import DiagnosisRecord
@@ -77,6 +79,19 @@ def test_fewer_errored_frames_than_the_burst_allowance_make_no_rate(model: Model
     assert MIN_ERROR_FRAMES > 1
     record = one(model, {**frames(2_000, 2_000), "dot3StatsFCSErrors": 1}, **GIG_COPPER)
     assert record["verdict"] == "insufficient_traffic"
+
+
+@pytest.mark.parametrize("speed", [10**9, 2_500_000_000, 5 * 10**9, 10**10])
+def test_the_same_errors_are_a_fault_at_every_copper_speed_from_1g_to_10g(
+    model: Model, speed: int
+) -> None:
+    # The case: 100 FCS errors in 9,000,100 frames of 1,000 octets, a BER of about
+    # 1.4e-9: over 10 times the 1000BASE-T objective (1e-10, clause 40.6.1.3.1) and the
+    # 2.5GBASE-T, 5GBASE-T and 10GBASE-T ones (1e-12; 802.3bz from memory, 802.3an).
+    copper = {"speed_bps": speed, "max_speed_bps": speed, "duplex": "full", "media": "copper"}
+    record = one(model, {**frames(9_000_000, 9_000_000), "dot3StatsFCSErrors": 100}, **copper)
+    assert record["verdict"] == "cable_fault"
+    assert "the this" not in said(record)
 
 
 # --- a trickle is not traffic (SNAPSHOT-FORMAT 1.2 unidirectional) ------------------------

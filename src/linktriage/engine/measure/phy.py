@@ -11,6 +11,9 @@ hand; the shared standards notes give the quotes):
 * 1000BASE-T: 10^-10; IEEE 802.3 clause 40.6.1.3.1 ("frame error rate of less than 10^-7
   for 125 octet frames ... equivalent to a bit error rate of 10^-10"), as quoted in a PHY
   compliance-test manual.
+* 2.5GBASE-T and 5GBASE-T: 10^-12 at the MAC/PLS service interface (IEEE 802.3bz
+  objectives, clause 126, from memory); 2.5GBASE-X and 5GBASE-R on fiber: 10^-12 (IEEE
+  802.3cb clause 127 and 802.3 clause 49 coding, from memory).
 * 10GBASE-T: 10^-12 (IEEE 802.3an objective, quoted in a trade article); 10GBASE-R: 10^-12
   (IEEE 802.3 clause 52, from memory); 25/40/50/100GBASE-R: 10^-12 at the MAC service
   interface (the 40/100G objective, quoted on the IEEE 802.3 reflector).
@@ -40,6 +43,8 @@ _NAMES: dict[int, tuple[str, str]] = {  # speed -> (copper PHY, fiber PHY)
     10 * _M: ("10BASE-T", "10BASE-FL"),
     100 * _M: ("100BASE-TX", "100BASE-X"),
     _G: ("1000BASE-T", "1000BASE-X"),
+    2_500 * _M: ("2.5GBASE-T", "2.5GBASE-X"),
+    5 * _G: ("5GBASE-T", "5GBASE-R"),
     10 * _G: ("10GBASE-T", "10GBASE-R"),
     25 * _G: ("25GBASE-R", "25GBASE-R"),
     40 * _G: ("40GBASE-R", "40GBASE-R"),
@@ -56,6 +61,10 @@ _OBJECTIVE: dict[str, float] = {
     "100BASE-X": 1e-12,
     "1000BASE-T": 1e-10,
     "1000BASE-X": 1e-12,
+    "2.5GBASE-T": 1e-12,
+    "2.5GBASE-X": 1e-12,
+    "5GBASE-T": 1e-12,
+    "5GBASE-R": 1e-12,
     "10GBASE-T": 1e-12,
     "10GBASE-R": 1e-12,
     "25GBASE-R": 1e-12,
