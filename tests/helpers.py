@@ -14,6 +14,7 @@ from datetime import datetime, timedelta
 from pathlib import Path
 from typing import Any, TypeVar
 
+from linktriage.engine.format.counters import COLUMN_INDEX, COLUMNS
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.format.snapshot import read_snapshots
 from linktriage.network.collectors.base import Collector, Reading
@@ -44,6 +45,13 @@ def line(
     return json.dumps(record)
 
 
+def _modulus(name: str) -> int:
+    """Where a counter wraps: its width in the catalogue (names it does not know: by "HC")."""
+    known = COLUMN_INDEX.get(name)
+    wide = COLUMNS[known].bits == 64 if known is not None else "HC" in name
+    return 2**64 if wide else 2**32
+
+
 def grown(
     grow: dict[str, int],
     *,
@@ -58,10 +66,7 @@ def grown(
     at both polls and ``last`` changing fields at the second."""
     t1 = datetime.fromisoformat(T0.replace("Z", "+00:00")) + timedelta(seconds=window_s)
     first = {name: 3_000_000_000 + 7 * k for k, name in enumerate(grow)}
-    second = {
-        name: (first[name] + value) % (2**64 if "HC" in name else 2**32)
-        for name, value in grow.items()
-    }
+    second = {name: (first[name] + value) % _modulus(name) for name, value in grow.items()}
     fields = {"device": device, "port": port, **state}
     later = {**fields, **(last or {})}
     return [
@@ -88,7 +93,7 @@ def stepped(
     for k, step in enumerate(steps, 1):
         changes += step.get("link_changes", 0)
         for name in names:
-            value[name] = (value[name] + step.get(name, 0)) % (2**64 if "HC" in name else 2**32)
+            value[name] = (value[name] + step.get(name, 0)) % _modulus(name)
         at = (start + timedelta(seconds=every_s * k)).isoformat().replace("+00:00", "Z")
         out.append(line(at, dict(value), device=device, port=port, link_changes=changes, **state))
     return out

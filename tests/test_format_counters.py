@@ -18,10 +18,12 @@ from linktriage.engine.model.questions import QUESTIONS
 
 
 def test_hc_names_are_counter64_and_the_rest_counter32() -> None:
-    # RFC 2863 section 6: ifHC* objects are Counter64; RFC 3635: dot3HCStats* likewise;
-    # every other IF-MIB, EtherLike-MIB and RMON-MIB counter is a Counter32.
+    # RFC 2863 section 6: ifHC* objects are Counter64; RFC 3635: dot3HCStats* and
+    # dot3HC*PauseFrames likewise; every other IF-MIB, EtherLike-MIB, RMON-MIB and
+    # POWER-ETHERNET-MIB counter is a Counter32. SNAPSHOT-FORMAT 1.2: the FEC counters
+    # (IEEE 802.3 clause 30 attributes) are all 64-bit.
     for column in COLUMNS:
-        wide = column.name.startswith(("ifHC", "dot3HC"))
+        wide = column.name.startswith(("ifHC", "dot3HC", "aFEC", "FEC"))
         assert column.bits == (64 if wide else 32), column.name
 
 
@@ -38,6 +40,11 @@ def test_every_counter_name_of_the_snapshot_format_is_known() -> None:
         "dot3StatsFrameTooLongs", "dot3StatsInternalMacReceiveErrors",
         "etherStatsUndersizePkts", "etherStatsFragments", "etherStatsOversizePkts",
         "etherStatsJabbers",
+        # since 1.2: pause frames, FEC, Power over Ethernet
+        "dot3InPauseFrames", "dot3OutPauseFrames", "dot3HCInPauseFrames",
+        "dot3HCOutPauseFrames", "aFECCorrectedBlocks", "aFECUncorrectableBlocks",
+        "FECCorrectedBits", "pethPsePortMPSAbsentCounter", "pethPsePortInvalidSignatureCounter",
+        "pethPsePortPowerDeniedCounter", "pethPsePortOverLoadCounter", "pethPsePortShortCounter",
     }  # fmt: skip
     assert listed <= {c.name for c in COLUMNS}
 

@@ -10,7 +10,7 @@ import numpy as np
 from linktriage.engine.format.snapshot import read_snapshot_file
 from linktriage.engine.measure.window import WindowStatus, compute_windows
 
-from helpers import line, polls
+from helpers import grown, line, polls
 
 GIG = {"speed_bps": 10**9, "max_speed_bps": 10**9}
 FAST = {"speed_bps": 10**8}
@@ -262,3 +262,23 @@ def test_a_discontinuity_time_read_with_other_rounding_is_not_a_reset() -> None:
         line(T5, counters={"ifHCInOctets": 9}, discontinuity_time="2026-01-01T00:00:00.3Z"),
     )
     assert w.status[0] == WindowStatus.OK and w.resets[0] == 0
+
+
+def test_the_counters_of_format_1_2_are_read_and_differenced() -> None:
+    # SNAPSHOT-FORMAT 1.2: pause frames (RFC 3635 dot3PauseTable), FEC (IEEE 802.3 clause 30)
+    # and Power over Ethernet (RFC 3621) counters grow like the others. FEC corrects up to
+    # 7 of 514 ten-bit symbols a codeword at 25 Gb/s (RS(528,514), clause 91, quoted in the
+    # shared notes): millions of corrected bits in a minute are no counter reset.
+    grow = {"ifHCInOctets": 6 * 10**10, "ifHCInUcastPkts": 5 * 10**7,
+            "dot3HCInPauseFrames": 120, "dot3OutPauseFrames": 3,
+            "aFECCorrectedBlocks": 4_000_000, "aFECUncorrectableBlocks": 2,
+            "FECCorrectedBits": 9_000_000_000, "pethPsePortMPSAbsentCounter": 1}  # fmt: skip
+    fast = {"speed_bps": 25 * 10**9, "max_speed_bps": 25 * 10**9, "media": "fiber"}
+    w = compute_windows(polls(*grown(grow, window_s=60.0, **fast)))
+    assert w.resets.tolist() == [0]
+    assert w.deltas["in_pause"][0] == 120 and w.deltas["out_pause"][0] == 3
+    assert w.deltas["fec_corrected_blocks"][0] == 4_000_000
+    assert w.deltas["fec_uncorrectable_blocks"][0] == 2
+    assert w.deltas["fec_corrected_bits"][0] == 9_000_000_000
+    assert w.deltas["poe_mps_absent"][0] == 1
+    assert np.isnan(w.deltas["poe_short"][0])  # not reported: unknown, never zero

@@ -410,7 +410,7 @@ def test_packs_read_exactly_after_a_counter_is_added_in_the_middle_and_the_order
     columns = seen["columns"]
     assert "dot3StatsTestNew" in columns[1:-1]  # really in the middle, and the order changed
     assert columns.index("dot3StatsTestNew") + 1 == columns.index("dot3HCStatsSymbolErrors")
-    assert columns[0] == "etherStatsJabbers"
+    assert columns[0] == "pethPsePortShortCounter"  # the catalogue's last, first when reversed
     today = named(_recorded())
     assert seen["store"] == seen["recorded"] == json.loads(json.dumps(today))
     # The sum that shifted columns once turned from 6,993,073,012,271,955 into 99,373,902,525.

@@ -1,8 +1,10 @@
 """The counter catalogue: every counter name the snapshot format knows, its width, what it counts.
 
-Names are the MIB object names (RFC 2863 IF-MIB, RFC 3635 EtherLike-MIB, RFC 2819 RMON-MIB).
-A name without ``HC`` is a Counter32 and wraps at 2^32; the ``ifHC...`` and ``dot3HCStats...``
-names are Counter64 and wrap at 2^64 (RFC 2578 sections 7.1.6 and 7.1.10).
+Names are the MIB object names (RFC 2863 IF-MIB, RFC 3635 EtherLike-MIB, RFC 2819 RMON-MIB,
+RFC 3621 POWER-ETHERNET-MIB) and, for FEC, the IEEE 802.3 clause 30 attribute names (since
+format 1.2). A name without ``HC`` is a Counter32 and wraps at 2^32; the ``ifHC...``,
+``dot3HC...`` and FEC names are Counter64 and wrap at 2^64 (RFC 2578 sections 7.1.6 and
+7.1.10; SNAPSHOT-FORMAT 1.2 for FEC).
 
 Counters are grouped into *quantities*: one physical count that a device may report as a
 Counter64, a Counter32, or both. The window prefers the 64-bit form where both polls have it.
@@ -37,11 +39,12 @@ class Unit(StrEnum):
     OCTETS = "octets"
     PACKETS = "packets"  # traffic: at most one per minimum-size frame
     EVENTS = "events"  # errors, discards, collisions: also at most one per frame
+    BITS = "bits"  # bits FEC corrected: at most every bit the line carries
 
     @property
     def traffic(self) -> bool:
         """Traffic counters can really run at line rate; exception counters in practice cannot."""
-        return self is not Unit.EVENTS
+        return self in (Unit.OCTETS, Unit.PACKETS)
 
 
 @dataclass(frozen=True, slots=True)
@@ -52,6 +55,7 @@ class Quantity:
     unit: Unit
     hc: str | None
     c32: str | None
+    since: str = "1.0"  # the format version that added it
 
 
 QUANTITIES: tuple[Quantity, ...] = (
@@ -87,6 +91,23 @@ QUANTITIES: tuple[Quantity, ...] = (
     Quantity("fragments", Unit.EVENTS, None, "etherStatsFragments"),
     Quantity("oversize", Unit.EVENTS, None, "etherStatsOversizePkts"),
     Quantity("jabbers", Unit.EVENTS, None, "etherStatsJabbers"),
+    # Since format 1.2: pause frames (RFC 3635 dot3PauseTable).
+    Quantity("in_pause", Unit.EVENTS, "dot3HCInPauseFrames", "dot3InPauseFrames", "1.2"),
+    Quantity("out_pause", Unit.EVENTS, "dot3HCOutPauseFrames", "dot3OutPauseFrames", "1.2"),
+    # FEC (IEEE 802.3 clause 30, 30.5.1.1.17 and 30.5.1.1.18, summed over lanes; corrected
+    # bits are no IEEE attribute, but many devices count them): all 64-bit. A codeword is
+    # far longer than a minimum frame, so blocks are bounded as events are.
+    Quantity("fec_corrected_blocks", Unit.EVENTS, "aFECCorrectedBlocks", None, "1.2"),
+    Quantity("fec_uncorrectable_blocks", Unit.EVENTS, "aFECUncorrectableBlocks", None, "1.2"),
+    Quantity("fec_corrected_bits", Unit.BITS, "FECCorrectedBits", None, "1.2"),
+    # Power over Ethernet (RFC 3621 pethPsePortTable), Counter32.
+    Quantity("poe_mps_absent", Unit.EVENTS, None, "pethPsePortMPSAbsentCounter", "1.2"),
+    Quantity(
+        "poe_invalid_signature", Unit.EVENTS, None, "pethPsePortInvalidSignatureCounter", "1.2"
+    ),
+    Quantity("poe_power_denied", Unit.EVENTS, None, "pethPsePortPowerDeniedCounter", "1.2"),
+    Quantity("poe_overload", Unit.EVENTS, None, "pethPsePortOverLoadCounter", "1.2"),
+    Quantity("poe_short", Unit.EVENTS, None, "pethPsePortShortCounter", "1.2"),
 )
 
 QUANTITY_KEYS: tuple[str, ...] = tuple(q.key for q in QUANTITIES)
@@ -121,9 +142,12 @@ COUNTER64_MAX = 2**64 - 1
 def max_rate_per_second(unit: Unit, speed_bps: float) -> float:
     """The fastest a counter of ``unit`` can grow on a link of ``speed_bps``.
 
-    Octets: line rate over 8. Packets and events: one per minimum-size frame and its overhead,
+    Octets: line rate over 8; bits: line rate. Packets and events: one per minimum-size frame
+    and its overhead,
     1,488,095 per second at 1 Gb/s (64 + 20 octets per frame, IEEE 802.3 clause 4.4.2).
     """
     if unit is Unit.OCTETS:
         return speed_bps / 8.0
+    if unit is Unit.BITS:
+        return speed_bps
     return speed_bps / ((MIN_FRAME_OCTETS + WIRE_OVERHEAD_OCTETS) * 8.0)

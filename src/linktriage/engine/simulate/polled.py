@@ -117,7 +117,7 @@ class PortConstants:
         """The poll table when each quantity has grown by ``steps`` since the start."""
         n = len(p)
         counters = np.zeros((n, len(COLUMNS)), np.uint64)
-        for q in QUANTITIES:
+        for q in SIMULATED:
             step = np.floor(steps[q.key]).astype(np.uint64)
             for name in (q.hc, q.c32):
                 if name is not None:
@@ -155,13 +155,21 @@ class PortConstants:
         )
 
 
+#: The counters the simulator draws: those of format 1.1 (the 1.2 counters, pause, FEC and
+#: Power over Ethernet, wait for the verdicts that read them).
+SIMULATED = tuple(q for q in QUANTITIES if q.since != "1.2")
+
+
 def _reported_columns(
     hc: np.ndarray, dot3: np.ndarray, rmon: np.ndarray, symbol_mode: np.ndarray
 ) -> np.ndarray:
     """Which counter names each simulated device reports."""
     n = len(hc)
     present = np.zeros((n, len(COLUMNS)), np.bool_)
+    simulated = {name for q in SIMULATED for name in (q.hc, q.c32)}
     for j, c in enumerate(COLUMNS):
+        if c.name not in simulated:
+            continue
         if c.name.startswith("dot3HC"):
             continue  # the dot3 HC table is rare in the field
         if c.name == "dot3StatsSymbolErrors":
