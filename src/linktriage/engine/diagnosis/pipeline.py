@@ -110,8 +110,9 @@ def _chunks_of_ports(
 
 
 def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisBatch:
-    windows = compute_windows(polls, max_window_s=max_window_s)
-    windows, measured = now_and_before(polls, windows, measure(windows), max_window_s)
+    codes, _ = port_codes(polls)
+    windows = compute_windows(polls, max_window_s=max_window_s, codes=codes)
+    windows, measured = now_and_before(polls, codes, windows, measure(windows), max_window_s)
     m = measured.table
     rows = feature_rows(m)
     ok = allowed(m)

@@ -34,7 +34,6 @@ from linktriage.engine.measure.window import (
     WindowTable,
     compute_windows,
     moment,
-    port_codes,
 )
 
 
@@ -108,9 +107,15 @@ def errors_since(iv: Intervals, ports: int) -> FloatArray:
 
 
 def now_and_before(
-    polls: PollTable, windows: WindowTable, measured: Measured, max_window_s: float
+    polls: PollTable,
+    codes: npt.NDArray[np.intp],
+    windows: WindowTable,
+    measured: Measured,
+    max_window_s: float,
 ) -> tuple[WindowTable, Measured]:
-    """The windows, with those whose latest intervals differ restarted where they begin."""
+    """The windows, with those whose latest intervals differ restarted where they begin
+    (``codes``: each poll's window, as :func:`linktriage.engine.measure.window.port_codes`
+    numbers them)."""
     ports = len(windows)
     signs = Signs.read(measured.table)
     quiet_since = np.where(
@@ -122,7 +127,6 @@ def now_and_before(
     tried = np.flatnonzero(~np.isnan(start))
     if len(tried) == 0:
         return _said_since(windows, signs), measured
-    codes, _ = port_codes(polls)
     keep = np.flatnonzero(
         ~np.isnan(start[codes]) & (polls.time >= np.nan_to_num(start[codes], nan=np.inf))
     )

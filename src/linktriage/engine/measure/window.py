@@ -123,9 +123,16 @@ def port_codes(polls: PollTable) -> tuple[npt.NDArray[np.intp], int]:
     return np.array(codes, np.intp), len(numbers)
 
 
-def compute_windows(polls: PollTable, *, max_window_s: float = DEFAULT_MAX_WINDOW_S) -> WindowTable:
-    """Group polls by port and compute each port's window (see the module docstring)."""
-    codes, _ = port_codes(polls)
+def compute_windows(
+    polls: PollTable,
+    *,
+    max_window_s: float = DEFAULT_MAX_WINDOW_S,
+    codes: npt.NDArray[np.intp] | None = None,
+) -> WindowTable:
+    """Group polls by port and compute each port's window (see the module docstring);
+    ``codes``, each poll's port as :func:`port_codes` numbers them, where already known."""
+    if codes is None:
+        codes, _ = port_codes(polls)
     order = np.lexsort((polls.time, codes))
     codes_s = codes[order]
     time_s = polls.time[order]

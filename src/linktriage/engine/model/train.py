@@ -25,7 +25,7 @@ from sklearn.tree import DecisionTreeClassifier
 from linktriage.engine.guards import apply_guards
 from linktriage.engine.measure.measures import measure
 from linktriage.engine.measure.now import now_and_before
-from linktriage.engine.measure.window import DEFAULT_MAX_WINDOW_S, compute_windows
+from linktriage.engine.measure.window import DEFAULT_MAX_WINDOW_S, compute_windows, port_codes
 from linktriage.engine.model.artefact import (
     TrainingSummary,
     TreeArrays,
@@ -74,8 +74,11 @@ def prior_rows(n: int, seed: int, ranges: Ranges = TRAINING) -> PriorRows:
     """
     rng = np.random.default_rng(seed)
     polls, labels = simulate_prior(n, rng, ranges)
-    windows = compute_windows(polls)
-    windows, measured = now_and_before(polls, windows, measure(windows), DEFAULT_MAX_WINDOW_S)
+    codes, _ = port_codes(polls)
+    windows = compute_windows(polls, codes=codes)
+    windows, measured = now_and_before(
+        polls, codes, windows, measure(windows), DEFAULT_MAX_WINDOW_S
+    )
     m = measured.table
     ok = allowed(m)
     guarded = apply_guards(windows, ok)
