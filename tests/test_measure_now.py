@@ -120,3 +120,18 @@ def test_ports_restarted_at_different_times_keep_their_own_answers(model: Model)
         record = batch.record(batch.index_of("lark-test-sw1", port))
         assert record["verdict"] == "unidirectional"
         assert f"silent since 2026-03-02T{since}" in (record["note"] or "")
+
+
+def test_a_direction_silent_in_the_last_interval_alone_is_one_way_now(model: Model) -> None:
+    # The restarted window is a single interval: the last poll interval carried nothing in
+    # while 8 million frames went out. Another port of the file, restarted earlier, keeps
+    # its own answer beside it.
+    last_only = stepped([both_ways(9_000_000, 8_000_000)] * 3 + [both_ways(0, 8_000_000)],
+                        port="port1", **TEN_G_FIBER, **LIGHT)  # fmt: skip
+    earlier = stepped([both_ways(9_000_000, 8_000_000)] + [both_ways(0, 8_000_000)] * 3,
+                      port="port2", **TEN_G_FIBER, **LIGHT)  # fmt: skip
+    batch = diagnose(polls(*last_only, *earlier), model)
+    for port, since in (("port1", "08:15:00Z"), ("port2", "08:05:00Z")):
+        record = batch.record(batch.index_of("lark-test-sw1", port))
+        assert record["verdict"] == "unidirectional"
+        assert f"silent since 2026-03-02T{since}" in (record["note"] or "")

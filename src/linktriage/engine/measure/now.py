@@ -213,16 +213,23 @@ def _spliced(
             changes[f.name] = {k: _put(v, rows, new[k][picked]) for k, v in old.items()}
         else:
             changes[f.name] = _put(old, rows, new[picked])
-    changes["intervals"] = _intervals_spliced(w.intervals, rows, later.intervals, picked)
+    changes["intervals"] = _intervals_spliced(
+        w.intervals, rows, later.intervals, picked, len(later)
+    )
     return replace(w, **changes)  # type: ignore[arg-type]
 
 
 def _intervals_spliced(
-    iv: Intervals, rows: npt.NDArray[np.intp], later: Intervals, picked: npt.NDArray[np.intp]
+    iv: Intervals,
+    rows: npt.NDArray[np.intp],
+    later: Intervals,
+    picked: npt.NDArray[np.intp],
+    windows: int,
 ) -> Intervals:
-    """The intervals of ``iv`` with those of windows ``rows`` replaced by ``later``'s."""
+    """The intervals of ``iv`` with those of windows ``rows`` replaced by those of ``later``'s
+    windows ``picked`` (of ``windows``)."""
     old = ~np.isin(iv.window, rows)
-    new_of = np.full(int(later.window.max(initial=-1)) + 1, -1, np.intp)
+    new_of = np.full(windows, -1, np.intp)
     new_of[picked] = rows
     mapped = new_of[later.window] if len(later) else later.window
     new = mapped >= 0

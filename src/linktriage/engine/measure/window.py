@@ -68,7 +68,8 @@ class WindowStatus(IntEnum):
 
 @dataclass(frozen=True, slots=True)
 class Intervals:
-    """Every interval of every window, sorted by port then time: what it carried."""
+    """Every interval of every window of two intervals or more, sorted by port then time:
+    what it carried (a window of one interval is its own latest interval)."""
 
     window: npt.NDArray[np.intp]  # the row of the window (port) it belongs to
     start: FloatArray
@@ -287,7 +288,9 @@ def _windows_of_sorted(
     flips = np.zeros(m)
     flips[1:] = p.oper_status[1:] != p.oper_status[:-1]
     changed_rows = used & ((lc_rows > 0) | (flips > 0))
-    rows = np.flatnonzero(used)
+    # A window of one interval is its own latest interval: only longer ones keep theirs.
+    several = np.bincount(group_of_row[used], minlength=len(starts)) >= 2
+    rows = np.flatnonzero(used & several[group_of_row])
     position = {COLUMNS[j].name: k for k, j in enumerate(active.tolist())}
     interval_of = _IntervalValues(delta_rows[rows], position)
     intervals = Intervals(
