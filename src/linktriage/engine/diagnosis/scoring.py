@@ -39,30 +39,21 @@ class Score:
     healthy_called_faulty: float
     faults_called_healthy: float
     wrong: list[tuple[int, str, str]]  # (row, expected, answered)
-    reliability: tuple[Reliability, ...] = ()  # by confidence, where confidences were given
+    reliability: tuple[ReliabilityBin, ...] = ()  # by confidence, where confidences were given
 
 
 #: The edges of the confidence bins a reliability table counts answers in.
 RELIABILITY_EDGES = (0.0, 0.5, 0.8, 0.9, 0.95, 1.0)
 
 
-@dataclass(frozen=True, slots=True)
-class Reliability:
-    """The answers given with a confidence in [low, high) (the last bin includes 1), and
-    how many of them were right: calibrated, the share right is at least ``low``."""
-
-    low: float
-    high: float
-    answers: int
-    right: int
-
-
 def reliability(
     expected: npt.NDArray[np.object_],
     answered: npt.NDArray[np.object_],
     confidence: list[float | None],
-) -> tuple[Reliability, ...]:
-    """A reliability table of the tree's answers (a guard's answer has no confidence)."""
+) -> tuple[ReliabilityBin, ...]:
+    """A reliability table of the tree's answers (a guard's answer has no confidence): per
+    bin of confidence [low, high) (the last includes 1), the answers and how many were
+    right; calibrated, the share right is at least ``low``."""
     given = np.array([c is not None for c in confidence], np.bool_)
     sure = np.array([c if c is not None else np.nan for c in confidence], np.float64)
     right = np.asarray(expected == answered, np.bool_)
@@ -71,7 +62,8 @@ def reliability(
     for k, (low, high) in enumerate(itertools.pairwise(edges)):
         last = k == len(edges) - 2
         inside = given & (sure >= low) & ((sure <= high) if last else (sure < high))
-        rows.append(Reliability(low, high, int(inside.sum()), int(right[inside].sum())))
+        answers, hits = int(inside.sum()), int(right[inside].sum())
+        rows.append(ReliabilityBin(low=low, high=high, answers=answers, right=hits))
     return tuple(rows)
 
 
@@ -138,9 +130,7 @@ def with_reliability(artefact: TreeArtefact) -> TreeArtefact:
     """``artefact`` with the reliability of its confidence measured on held-out simulated
     ports (a seed apart from training), for the model card."""
     seed = artefact.training.seed + _RELIABILITY_SEED_OFFSET
-    measured = score_simulated(Model(artefact), RELIABILITY_PORTS, seed, TRAINING).reliability
-    bins = tuple(ReliabilityBin(low=r.low, high=r.high, answers=r.answers, right=r.right)
-                 for r in measured)  # fmt: skip
+    bins = score_simulated(Model(artefact), RELIABILITY_PORTS, seed, TRAINING).reliability
     training = artefact.training.model_copy(update={"reliability": bins})
     return artefact.model_copy(update={"training": training})
 

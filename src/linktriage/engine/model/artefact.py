@@ -49,8 +49,8 @@ class TreeArrays(BaseModel):
 
 
 class ReliabilityBin(BaseModel):
-    """Answers given with a confidence in [low, high) (the last bin includes 1) on held-out
-    simulated ports, and how many were right."""
+    """Answers given with a confidence in [low, high) (the last bin includes 1), and how many
+    were right: a row of a reliability table."""
 
     model_config = ConfigDict(frozen=True)
 
