@@ -126,6 +126,7 @@ def named(table: PollTable) -> dict[str, dict[str, Any]]:
             },
             "readings": {k: float(v) for k, v in readings.items() if v == v},  # NaN: absent
             "neighbor": [table.neighbor_device[i], table.neighbor_port[i]],
+            "extra": {k: v[i] for k, v in table.extra.items() if v[i] is not None},
         }
     return out
 

@@ -212,3 +212,16 @@ def _recorded() -> PollTable:
     files = ["demo-network.jsonl", "counter32-device.jsonl", "format-example.jsonl"]
     paths = [then / f for f in files] + sorted((then / "verdicts").glob("*.jsonl"))
     return PollTable.concat([read_snapshot_file(p).polls for p in paths])
+
+
+def test_the_fields_of_format_1_2_come_back_and_a_1_1_pack_is_as_before() -> None:
+    from test_format_snapshot import EVERY_1_2_FIELD
+
+    fields = dict(EVERY_1_2_FIELD)
+    counters = fields.pop("counters")
+    table = polls(line(counters=counters, **fields), line("2026-03-02T08:05:00Z"))
+    back = unpack(pack(table), "lark-test-sw1")
+    assert named(back) == named(table)
+    assert back.extra["lanes"][0] == table.extra["lanes"][0]
+    plain = polls(line(), line("2026-03-02T08:05:00Z"))
+    assert b"extra" not in zlib.decompress(pack(plain)[struct.calcsize("<BII") :])

@@ -16,6 +16,7 @@ from linktriage.engine.format.snapshot import (
     iter_snapshots,
     polls_of,
     read_snapshot_file,
+    read_snapshot_stream,
     read_snapshots,
     write_snapshots,
 )
@@ -212,3 +213,113 @@ def test_a_file_read_a_block_at_a_time_reads_as_its_lines_one_by_one(
     assert by_blocks.problems == one_by_one.problems
     assert [p.line for p in by_blocks.problems] == [2, 3, 5, 6, 7, 8, 10, 11]
     assert len(by_blocks.polls) == 3 + 40
+
+
+#: A line carrying every field format 1.2 adds (SNAPSHOT-FORMAT 1.2, "Fields of one line"):
+#: a 100GBASE-DR4-style module of four lanes on a port with RS-FEC, PoE state, an aggregate.
+EVERY_1_2_FIELD = {
+    "admin_status": "up",
+    "last_change": "2026-03-02T07:58:20Z",
+    "disabled_reason": "bpdu guard",
+    "module_max_speed_bps": 100_000_000_000,
+    "fec_mode": "rs528",
+    "poe_status": {
+        "detection": "deliveringPower",
+        "power_class": 4,
+        "power_w": 12.5,
+        "budget_left_w": 210.0,
+    },
+    "aggregate": "bundle7",
+    "neighbor": {
+        "device": "lark-core1",
+        "port": "up3",
+        "speeds_bps": [25_000_000_000, 100_000_000_000],
+    },
+    "optics": {
+        "rx_power_dbm": -3.1,
+        "rx_power_high_alarm_dbm": 4.0,
+        "rx_power_high_warn_dbm": 3.0,
+        "tx_power_high_alarm_dbm": 5.0,
+        "tx_power_low_warn_dbm": -6.0,
+        "temperature_high_alarm_c": 75.0,
+        "bias_high_alarm_ma": 13.0,
+        "bias_low_alarm_ma": 2.0,
+        "pmd": "100GBASE-DR",
+        "lanes": [
+            {"rx_power_dbm": -1.0, "tx_power_dbm": 0.5, "bias_ma": 7.0},
+            {"rx_power_dbm": -3.1, "tx_power_dbm": 0.2, "bias_ma": 7.9},
+            {"rx_power_dbm": -2.0, "tx_power_dbm": None, "bias_ma": 6.5},
+            {"rx_power_dbm": 0.4, "tx_power_dbm": 0.1, "bias_ma": 7.2},
+        ],
+    },
+    "counters": {
+        "ifHCInOctets": 10,
+        "aFECCorrectedBlocks": 99,
+        "aFECUncorrectableBlocks": 0,
+        "dot3HCInPauseFrames": 5,
+        "pethPsePortOverLoadCounter": 1,
+    },
+}
+
+
+def test_every_field_of_format_1_2_is_read_and_written_back_as_it_came() -> None:
+    fields = dict(EVERY_1_2_FIELD)
+    counters = fields.pop("counters")
+    text = line(counters=counters, **fields)
+    table = polls(text)
+    assert table.state["admin_down"].tolist() == [0.0]
+    assert table.state["neighbor_max_speed_bps"].tolist() == [100e9]
+    assert table.extra["disabled_reason"].tolist() == ["bpdu guard"]
+    assert table.extra["neighbor_speeds"][0] == (25_000_000_000, 100_000_000_000)
+    assert table.extra["lanes"][0][2] == (-2.0, None, 6.5)
+    # The module's own reading is kept; what it leaves out is taken from its lanes as the
+    # format defines them: the highest bias; beside, the strongest light and lowest bias.
+    assert table.optics["rx_power_dbm"].tolist() == [-3.1]
+    assert table.optics["tx_power_dbm"].tolist() == [0.1]
+    assert table.optics["bias_ma"].tolist() == [7.9]
+    assert table.optics["rx_power_max_dbm"].tolist() == [0.4]
+    assert table.optics["bias_min_ma"].tolist() == [6.5]
+    written = io.StringIO()
+    write_snapshots(iter_snapshots(table), written)
+    again = polls(written.getvalue())
+    assert named(again) == named(table)
+    back = Snapshot.model_validate_json(written.getvalue())
+    assert back.poe_status is not None and back.poe_status.detection == "deliveringPower"
+    assert back.fec_mode == "rs528" and back.aggregate == "bundle7"
+    assert back.optics is not None and back.optics.pmd == "100GBASE-DR"
+
+
+def test_the_fast_reader_and_the_model_read_a_1_2_line_alike() -> None:
+    fields = dict(EVERY_1_2_FIELD)
+    counters = fields.pop("counters")
+    text = line(counters=counters, **fields)
+    fast = read_snapshot_stream(io.BytesIO(text.encode()))
+    slow = snapshot.polls_of([Snapshot.model_validate_json(text)])
+    assert fast.problems == [] and named(fast.polls) == named(slow.polls)
+
+
+@pytest.mark.parametrize(
+    ("field", "value", "said"),
+    [
+        ("admin_status", "shut", "admin_status"),
+        ("fec_mode", "rs999", "fec_mode"),
+        ("poe_status", {"detection": "glowing"}, "poe_status.detection"),
+        ("poe_status", {"power_class": 9}, "poe_status.power_class"),
+        ("neighbor", {"device": "a", "port": "b", "speeds_bps": [0]}, "neighbor.speeds_bps"),
+        ("last_change", "2026-03-02T07:58:20", "last_change"),
+    ],
+)
+def test_a_bad_1_2_field_is_reported_by_name_and_its_line_skipped(
+    field: str, value: object, said: str
+) -> None:
+    result = read_snapshots([line(**{field: value}), line(port="port2")])
+    assert [p.line for p in result.problems] == [1]
+    assert said in result.problems[0].message
+    assert result.polls.port.tolist() == ["port2"]
+
+
+def test_a_1_1_line_carries_none_of_the_1_2_fields() -> None:
+    table = polls(line())
+    assert all(v[0] is None for v in table.extra.values())
+    for name in ("admin_down", "last_change", "fec_mode", "poe_detection"):
+        assert np.isnan(table.state[name][0])

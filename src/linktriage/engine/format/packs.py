@@ -2,8 +2,10 @@
 
 A pack holds some rows of one device's poll table (in practice one answer to one poll):
 port names, times, operational status, the counters the rows report, their presence bits,
-the state and optics readings the rows carry, and the far end's names where some row names
-one. Each pack names its columns: counters by their snapshot-format (MIB) names, readings by
+the state and optics readings the rows carry, the far end's names where some row names
+one, and the fields of words or lists of format 1.2 some row carries (a JSON list at the end
+of the body; a pack without them is byte for byte what earlier releases wrote). Each pack
+names its columns: counters by their snapshot-format (MIB) names, readings by
 their poll-table field names. A reader maps every column by its name, so a pack written by
 any release reads exactly after counters are added to the catalogue, removed or reordered;
 a column the reader does not know is skipped and named in the log, never shifted onto
@@ -34,7 +36,12 @@ import numpy as np
 import numpy.typing as npt
 
 from linktriage.engine.format.counters import COLUMN_INDEX, COLUMNS
-from linktriage.engine.format.poll_table import OPTICS_FIELDS, STATE_FIELDS, PollTable
+from linktriage.engine.format.poll_table import (
+    EXTRA_FIELDS,
+    OPTICS_FIELDS,
+    STATE_FIELDS,
+    PollTable,
+)
 
 log = logging.getLogger(__name__)
 
@@ -101,6 +108,9 @@ class Directory:
     present: tuple[str, ...]  # the counters the presence bits are for, in their order
     readings: tuple[str, ...]  # float64 columns: ``state.<field>`` or ``optics.<field>``
     neighbors: bool  # the far end's device and port names follow the port names
+    #: Fields of words or lists (format 1.2's EXTRA_FIELDS) some row carries: one JSON
+    #: object of a list per field ends the body.
+    extra: tuple[str, ...] = ()
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -112,6 +122,8 @@ class Directory:
         if self.present != (*self.wide, *self.narrow):  # else implied (formats 1-2 differ)
             heading["present"] = self.present
         heading.update(readings=self.readings, neighbors=self.neighbors)
+        if self.extra:
+            heading["extra"] = self.extra
         return json.dumps(heading, separators=(",", ":")).encode()
 
     @classmethod
@@ -123,6 +135,7 @@ class Directory:
             readings = tuple(str(n) for n in raw["readings"])
             neighbors = bool(raw["neighbors"])
             present = tuple(str(n) for n in raw.get("present", (*wide, *narrow)))
+            extra = tuple(str(n) for n in raw.get("extra", ()))
         except (ValueError, KeyError, TypeError, AttributeError) as exc:
             raise PackError(f"a pack whose column directory does not read: {exc}") from None
         names = (*wide, *narrow, *readings)
@@ -130,7 +143,7 @@ class Directory:
             raise PackError("a pack that names one column twice")
         if sorted(present) != sorted((*wide, *narrow)):
             raise PackError("a pack whose presence bits are for other counters than it holds")
-        return cls(wide, narrow, present, readings, neighbors)
+        return cls(wide, narrow, present, readings, neighbors, extra)
 
     @classmethod
     def legacy(cls, version: int, reported: int, narrow: int) -> Directory:
@@ -185,6 +198,7 @@ def pack(table: PollTable) -> bytes:
     wide = reported & ~narrow
     readings = {k: v for k, v in _readings(table).items() if not np.isnan(v).all()}
     neighbors = any(d is not None for d in table.neighbor_device)
+    extra = {k: v.tolist() for k, v in table.extra.items() if any(x is not None for x in v)}
     order = np.concatenate([np.flatnonzero(wide), np.flatnonzero(narrow)])
     directory = Directory(
         wide=tuple(COLUMNS[j].name for j in np.flatnonzero(wide)),
@@ -192,6 +206,7 @@ def pack(table: PollTable) -> bytes:
         present=tuple(COLUMNS[j].name for j in order),  # wide, then narrow
         readings=tuple(readings),
         neighbors=neighbors,
+        extra=tuple(extra),
     )
     names = [str(port).encode() for port in table.port]
     try:
@@ -211,6 +226,8 @@ def pack(table: PollTable) -> bytes:
     body = heading + b"".join(_shuffled(a) for a in arrays) + b"".join(names)
     if neighbors:
         body += _strings(table.neighbor_device) + _strings(table.neighbor_port)
+    if extra:
+        body += json.dumps(list(extra.values()), separators=(",", ":")).encode()
     return _HEADER.pack(FORMAT, rows, len(heading)) + zlib.compress(body, 6)
 
 
@@ -353,7 +370,8 @@ def unpack(blob: bytes, device: str) -> PollTable:
         far, at = _read_strings(body, names_end, rows)
         far_port, at = _read_strings(body, at, rows)
         names_end = at
-    if names_end != len(body):
+    extra = _read_extra(directory.extra, bytes(body[names_end:]), rows) if directory.extra else {}
+    if not directory.extra and names_end != len(body):
         raise PackError("a pack longer than its header says")
     ends = np.cumsum(lengths)
     starts = ends - lengths
@@ -374,4 +392,30 @@ def unpack(blob: bytes, device: str) -> PollTable:
         present=present,
         neighbor_device=far,
         neighbor_port=far_port,
+        extra=extra,
     )
+
+
+def _tupled(value: object) -> object:
+    """JSON's lists as the tuples the poll table holds (speeds, lanes)."""
+    return tuple(map(_tupled, value)) if isinstance(value, list) else value
+
+
+def _read_extra(names: tuple[str, ...], data: bytes, rows: int) -> dict[str, list[object]]:
+    """The word and list columns that end a pack, by name; one this release does not know
+    is left out (and logged)."""
+    try:
+        columns = json.loads(data)
+    except ValueError as exc:
+        raise PackError(f"a pack whose last columns do not read: {exc}") from None
+    if not isinstance(columns, list) or len(columns) != len(names):
+        raise PackError("a pack with other last columns than its directory names")
+    out: dict[str, list[object]] = {}
+    for name, values in zip(names, columns, strict=True):
+        if not isinstance(values, list) or len(values) != rows:
+            raise PackError(f"a pack whose column {name!r} has another length than its rows")
+        if name not in EXTRA_FIELDS:
+            _tell_unknown(name)
+            continue
+        out[name] = [_tupled(v) for v in values]
+    return out

@@ -4,12 +4,15 @@ One row per snapshot line. Counters sit in one ``uint64`` matrix (one column per
 :data:`linktriage.engine.format.counters.COLUMNS`) beside a boolean ``present`` matrix, because a
 counter a device does not report is missing, never zero, and because unsigned arithmetic gives
 Counter32 and Counter64 wrap-around for free. Everything else is ``float64`` with NaN for "not
-reported", so numpy and the tree see one representation of "unknown".
+reported", so numpy and the tree see one representation of "unknown", but for the few fields
+that are words or lists (the far end's names, and since format 1.2 the device's reason for
+shutting a port, the aggregate, the module's PMD, the far end's speeds and an optic's lanes):
+object columns, None where a line does not carry them.
 """
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -28,7 +31,30 @@ STATE_FIELDS: tuple[str, ...] = (
     "half_duplex",
     "fiber",
     "poe",
+    # since format 1.2
+    "admin_down",  # ifAdminStatus: 1 down, 0 up, 0.5 testing (RFC 2863)
+    "last_change",  # ifLastChange as a time, seconds since the Unix epoch
+    "module_max_speed_bps",
+    "neighbor_max_speed_bps",  # the highest speed the far end advertises (neighbor.speeds_bps)
+    "fec_mode",  # FEC_MODES code
+    "poe_detection",  # POE_DETECTIONS code (RFC 3621 pethPsePortDetectionStatus)
+    "poe_class",
+    "poe_power_w",
+    "poe_budget_left_w",
 )
+#: ``fec_mode`` of the snapshot format, by code (the codes are stored in packs: append only).
+FEC_MODES: tuple[str, ...] = ("none", "base_r", "rs528", "rs544", "rs")
+#: ``poe_status.detection`` (RFC 3621 pethPsePortDetectionStatus), by code (append only).
+POE_DETECTIONS: tuple[str, ...] = (
+    "disabled",
+    "searching",
+    "deliveringPower",
+    "fault",
+    "test",
+    "otherFault",
+)
+#: ``admin_status`` as the ``admin_down`` column holds it.
+ADMIN_DOWN: dict[str, float] = {"up": 0.0, "down": 1.0, "testing": 0.5}
 #: Transceiver readings of the snapshot format's ``optics`` object, in dBm, degrees C and mA.
 OPTICS_FIELDS: tuple[str, ...] = (
     "rx_power_dbm",
@@ -38,22 +64,51 @@ OPTICS_FIELDS: tuple[str, ...] = (
     "tx_power_low_alarm_dbm",
     "temperature_c",
     "bias_ma",
+    # since format 1.2
+    "rx_power_high_alarm_dbm",
+    "rx_power_high_warn_dbm",
+    "tx_power_high_alarm_dbm",
+    "tx_power_low_warn_dbm",
+    "temperature_high_alarm_c",
+    "bias_high_alarm_ma",
+    "bias_low_alarm_ma",
+    # Over a module's lanes: the strongest light received and the lowest bias (the module's
+    # own readings hold the weakest light and the highest bias, as the format says).
+    "rx_power_max_dbm",
+    "bias_min_ma",
 )
+#: The optics columns worked out from a module's lanes rather than read as such.
+OPTICS_FROM_LANES: tuple[str, ...] = ("rx_power_max_dbm", "bias_min_ma")
+#: The optics columns read as the format's ``optics`` fields of the same name.
+OPTICS_READ: tuple[str, ...] = tuple(k for k in OPTICS_FIELDS if k not in OPTICS_FROM_LANES)
 
 #: The far end's name columns (object arrays, None where a line names no neighbor).
 NEIGHBOR_FIELDS: tuple[str, ...] = ("neighbor_device", "neighbor_port")
+#: Fields of format 1.2 that are words or lists, held as object columns (None: not
+#: carried): the device's reason for shutting the port, the aggregate, the module's PMD,
+#: the far end's advertised speeds (a tuple of bit/s) and an optic's lanes (a tuple of
+#: (rx_power_dbm, tx_power_dbm, bias_ma), each None where not read).
+EXTRA_FIELDS: tuple[str, ...] = (
+    "disabled_reason",
+    "aggregate",
+    "pmd",
+    "neighbor_speeds",
+    "lanes",
+)
 
 FloatArray = npt.NDArray[np.float64]
 
 
 def _names(
-    values: Sequence[str | None] | npt.NDArray[np.object_] | None, n: int
+    values: Sequence[object] | npt.NDArray[np.object_] | None, n: int
 ) -> npt.NDArray[np.object_]:
-    """An object column of ``n`` names, None throughout when none are given."""
-    column = np.empty(n, dtype=object)
-    if values is not None:
-        column[:] = values
-    return column
+    """An object column of ``n`` names (or tuples), None throughout when none are given;
+    filled element by element, so tuples stay whole."""
+    if values is None:
+        return np.full(n, None, dtype=object)
+    if isinstance(values, np.ndarray):
+        return values.astype(object, copy=False)
+    return np.fromiter(values, dtype=object, count=n)
 
 
 @dataclass(slots=True)
@@ -72,6 +127,7 @@ class PollTable:
     # The far end of the link as LLDP reports it (system name, port id), None where unknown.
     neighbor_device: npt.NDArray[np.object_]
     neighbor_port: npt.NDArray[np.object_]
+    extra: dict[str, npt.NDArray[np.object_]]  # keys: EXTRA_FIELDS
 
     def __len__(self) -> int:
         return len(self.time)
@@ -96,6 +152,7 @@ class PollTable:
         line: npt.NDArray[np.int64] | None = None,
         neighbor_device: Sequence[str | None] | npt.NDArray[np.object_] | None = None,
         neighbor_port: Sequence[str | None] | npt.NDArray[np.object_] | None = None,
+        extra: Mapping[str, Sequence[object] | npt.NDArray[np.object_]] | None = None,
     ) -> PollTable:
         """Build a table, filling every column not given with "not reported"."""
         n = len(time)
@@ -114,6 +171,7 @@ class PollTable:
             line=np.zeros(n, np.int64) if line is None else line,
             neighbor_device=_names(neighbor_device, n),
             neighbor_port=_names(neighbor_port, n),
+            extra={k: _names((extra or {}).get(k), n) for k in EXTRA_FIELDS},
         )
 
     def take(self, rows: npt.NDArray[np.intp] | npt.NDArray[np.bool_]) -> PollTable:
@@ -130,6 +188,7 @@ class PollTable:
             line=self.line[rows],
             neighbor_device=self.neighbor_device[rows],
             neighbor_port=self.neighbor_port[rows],
+            extra={k: v[rows] for k, v in self.extra.items()},
         )
 
     def by_device(self) -> list[tuple[str, PollTable]]:
@@ -150,7 +209,7 @@ class PollTable:
         into arrays that grow in place (realloc, not copy): a large file read a chunk at a
         time is held once, never once in chunks and again whole."""
         names: dict[str, list[str | None]] = {
-            name: [] for name in ("device", "port", "oper_status", *NEIGHBOR_FIELDS)
+            name: [] for name in ("device", "port", "oper_status", *NEIGHBOR_FIELDS, *EXTRA_FIELDS)
         }
         columns: dict[str, npt.NDArray[Any]] = {}
         rows = capacity = 0
@@ -169,7 +228,8 @@ class PollTable:
             for name, part in parts.items():
                 columns[name][rows:end] = part
             for name, values in names.items():
-                values.extend(getattr(chunk, name).tolist())
+                column = chunk.extra[name] if name in chunk.extra else getattr(chunk, name)
+                values.extend(column.tolist())
             rows = end
         if not rows:
             return cls.empty()
@@ -187,6 +247,7 @@ class PollTable:
             line=columns["line"],
             neighbor_device=np.array(names["neighbor_device"], object),
             neighbor_port=np.array(names["neighbor_port"], object),
+            extra={k: _names(names[k], rows) for k in EXTRA_FIELDS},
         )
 
     def _numbers(self) -> dict[str, npt.NDArray[Any]]:
@@ -217,4 +278,5 @@ class PollTable:
             line=np.concatenate([t.line for t in tables]),
             neighbor_device=np.concatenate([t.neighbor_device for t in tables]),
             neighbor_port=np.concatenate([t.neighbor_port for t in tables]),
+            extra={k: np.concatenate([t.extra[k] for t in tables]) for k in EXTRA_FIELDS},
         )

@@ -1,4 +1,4 @@
-"""The counter snapshot format, version 1.1: pydantic models and JSON Lines reading and writing.
+"""The counter snapshot format, version 1.2: pydantic models and JSON Lines reading and writing.
 
 One JSON object per port per poll (see SNAPSHOT-FORMAT in the developer docs). A line that
 does not parse or fails validation is reported with its line number and skipped; it never
@@ -7,7 +7,7 @@ stops the rest of the file. Lines may come in any order: the window groups and s
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Iterator, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from itertools import chain
@@ -22,17 +22,38 @@ from pydantic import AwareDatetime, BaseModel, ConfigDict, Field, ValidationErro
 
 from linktriage import invalid
 from linktriage.engine.format.counters import COLUMN_INDEX, COLUMNS, COUNTER32_MAX, COUNTER64_MAX
-from linktriage.engine.format.poll_table import OPTICS_FIELDS, PollTable
+from linktriage.engine.format.poll_table import (
+    ADMIN_DOWN,
+    FEC_MODES,
+    OPTICS_FIELDS,
+    OPTICS_READ,
+    POE_DETECTIONS,
+    PollTable,
+)
 from linktriage.errors import SnapshotFileError
 from linktriage.gc_pause import gc_paused
 
 OperStatus = Literal["up", "down", "testing", "dormant", "notPresent", "lowerLayerDown", "unknown"]
+AdminStatus = Literal["up", "down", "testing"]
+FecMode = Literal["none", "base_r", "rs528", "rs544", "rs"]
+Detection = Literal["disabled", "searching", "deliveringPower", "fault", "test", "otherFault"]
 CounterValue = Annotated[int, Field(ge=0, le=COUNTER64_MAX)]
 Finite = Annotated[float, Field(allow_inf_nan=False)]
 
 
+class Lane(BaseModel):
+    """One lane of a module of several (SFF-8636, CMIS): its light and bias. Since 1.2."""
+
+    model_config = ConfigDict(extra="ignore", frozen=True)
+
+    rx_power_dbm: Finite | None = None
+    tx_power_dbm: Finite | None = None
+    bias_ma: Finite | None = None
+
+
 class Optics(BaseModel):
-    """Transceiver readings (SFF-8472 digital diagnostics, converted to dBm, degrees C, mA)."""
+    """Transceiver readings (SFF-8472 digital diagnostics, converted to dBm, degrees C, mA),
+    the module's own thresholds, and since 1.2 its lanes and PMD."""
 
     model_config = ConfigDict(extra="ignore", frozen=True)
 
@@ -43,6 +64,27 @@ class Optics(BaseModel):
     tx_power_low_alarm_dbm: Finite | None = None
     temperature_c: Finite | None = None
     bias_ma: Finite | None = None
+    rx_power_high_alarm_dbm: Finite | None = None
+    rx_power_high_warn_dbm: Finite | None = None
+    tx_power_high_alarm_dbm: Finite | None = None
+    tx_power_low_warn_dbm: Finite | None = None
+    temperature_high_alarm_c: Finite | None = None
+    bias_high_alarm_ma: Finite | None = None
+    bias_low_alarm_ma: Finite | None = None
+    lanes: list[Lane] | None = None
+    pmd: Annotated[str, Field(min_length=1)] | None = None
+
+
+class PoeStatus(BaseModel):
+    """Power over Ethernet as the switch sources it (RFC 3621 POWER-ETHERNET-MIB). Since
+    1.2."""
+
+    model_config = ConfigDict(extra="ignore", frozen=True)
+
+    detection: Detection | None = None
+    power_class: Annotated[int, Field(ge=0, le=8)] | None = None
+    power_w: Annotated[float, Field(ge=0, allow_inf_nan=False)] | None = None
+    budget_left_w: Finite | None = None
 
 
 class Neighbor(BaseModel):
@@ -54,6 +96,7 @@ class Neighbor(BaseModel):
 
     device: Annotated[str, Field(min_length=1)]
     port: Annotated[str, Field(min_length=1)]
+    speeds_bps: list[Annotated[int, Field(gt=0)]] | None = None  # since 1.2
 
 
 class Snapshot(BaseModel):
@@ -77,6 +120,22 @@ class Snapshot(BaseModel):
     poe: bool | None = None
     optics: Optics | None = None
     neighbor: Neighbor | None = None
+    # since 1.2
+    admin_status: AdminStatus | None = None
+    last_change: AwareDatetime | None = None
+    disabled_reason: Annotated[str, Field(min_length=1)] | None = None
+    module_max_speed_bps: Annotated[int, Field(ge=0)] | None = None
+    fec_mode: FecMode | None = None
+    poe_status: PoeStatus | None = None
+    aggregate: Annotated[str, Field(min_length=1)] | None = None
+
+
+class _FastLane(msgspec.Struct):
+    """:class:`Lane`, for the fast reader."""
+
+    rx_power_dbm: float | None = None
+    tx_power_dbm: float | None = None
+    bias_ma: float | None = None
 
 
 class _FastOptics(msgspec.Struct):
@@ -89,6 +148,24 @@ class _FastOptics(msgspec.Struct):
     tx_power_low_alarm_dbm: float | None = None
     temperature_c: float | None = None
     bias_ma: float | None = None
+    rx_power_high_alarm_dbm: float | None = None
+    rx_power_high_warn_dbm: float | None = None
+    tx_power_high_alarm_dbm: float | None = None
+    tx_power_low_warn_dbm: float | None = None
+    temperature_high_alarm_c: float | None = None
+    bias_high_alarm_ma: float | None = None
+    bias_low_alarm_ma: float | None = None
+    lanes: list[_FastLane] | None = None
+    pmd: Annotated[str, msgspec.Meta(min_length=1)] | None = None
+
+
+class _FastPoeStatus(msgspec.Struct):
+    """:class:`PoeStatus`, for the fast reader."""
+
+    detection: Detection | None = None
+    power_class: Annotated[int, msgspec.Meta(ge=0, le=8)] | None = None
+    power_w: Annotated[float, msgspec.Meta(ge=0)] | None = None
+    budget_left_w: float | None = None
 
 
 class _FastNeighbor(msgspec.Struct):
@@ -96,6 +173,7 @@ class _FastNeighbor(msgspec.Struct):
 
     device: Annotated[str, msgspec.Meta(min_length=1)]
     port: Annotated[str, msgspec.Meta(min_length=1)]
+    speeds_bps: list[Annotated[int, msgspec.Meta(gt=0)]] | None = None
 
 
 _Aware = Annotated[datetime, msgspec.Meta(tz=True)]
@@ -122,6 +200,13 @@ class _FastSnapshot(msgspec.Struct):
     poe: bool | None = None
     optics: _FastOptics | None = None
     neighbor: _FastNeighbor | None = None
+    admin_status: AdminStatus | None = None
+    last_change: _Aware | None = None
+    disabled_reason: Annotated[str, msgspec.Meta(min_length=1)] | None = None
+    module_max_speed_bps: _Whole | None = None
+    fec_mode: FecMode | None = None
+    poe_status: _FastPoeStatus | None = None
+    aggregate: Annotated[str, msgspec.Meta(min_length=1)] | None = None
 
 
 _fast_decoder = msgspec.json.Decoder(_FastSnapshot)
@@ -352,8 +437,17 @@ _SCALARS = attrgetter(
     "device", "port", "time", "oper_status", "counters", "speed_bps", "max_speed_bps", "mtu",
     "link_changes", "discontinuity_time", "duplex", "media", "poe", "optics", "neighbor",
 )  # fmt: skip
-_OPTICS = attrgetter(*OPTICS_FIELDS)
+#: The fields of format 1.2, read only where a chunk has any of them.
+_SINCE_1_2 = attrgetter(
+    "admin_status", "last_change", "disabled_reason", "module_max_speed_bps", "fec_mode",
+    "poe_status", "aggregate",
+)  # fmt: skip
+_OPTICS = attrgetter(*OPTICS_READ)
 _NEIGHBOR = attrgetter("device", "port")
+_FEC_CODE = {mode: float(code) for code, mode in enumerate(FEC_MODES)}
+_DETECTION_CODE = {status: float(code) for code, status in enumerate(POE_DETECTIONS)}
+_LANE = attrgetter("rx_power_dbm", "tx_power_dbm", "bias_ma")
+_Lanes = tuple[tuple[float | None, float | None, float | None], ...]
 
 
 def _table_of(
@@ -372,34 +466,109 @@ def _table_of(
      duplex, media, poe, optics_objects, neighbors) = fields  # fmt: skip
     counters, present = _counter_columns(counter_maps)
     optics = {k: np.full(n, np.nan) for k in OPTICS_FIELDS}
+    extra: dict[str, list[object]] = {}
     with_optics = [i for i, o in enumerate(optics_objects) if o is not None]
     if with_optics:
         read = zip(*(_OPTICS(optics_objects[i]) for i in with_optics), strict=True)
-        for k, column in zip(OPTICS_FIELDS, read, strict=True):
+        for k, column in zip(OPTICS_READ, read, strict=True):
             optics[k][with_optics] = _floats(column)
+        _read_module(optics_objects, with_optics, optics, extra, one)
     far = [None if m is None else _NEIGHBOR(m) for m in neighbors]
+    state = {
+        "speed_bps": _floats(speed),
+        "max_speed_bps": _floats(top),
+        "mtu": _floats(mtu),
+        "link_changes": _floats(changes),
+        "discontinuity": _floats([None if d is None else d.timestamp() for d in discontinuity]),
+        "half_duplex": _floats(list(map(_DUPLEX.get, duplex))),
+        "fiber": _floats(list(map(_MEDIA.get, media))),
+        "poe": _floats(poe),
+    }
+    speeds = [None if m is None else m.speeds_bps for m in neighbors]
+    if any(speeds):
+        extra["neighbor_speeds"] = [tuple(v) if v else None for v in speeds]
+        state["neighbor_max_speed_bps"] = _floats([max(v) if v else None for v in speeds])
+    _read_since_1_2(snaps, state, extra, one)
     return PollTable.from_columns(
         device=list(map(one, device, device)),
         port=list(map(one, port, port)),
         time=list(map(datetime.timestamp, time)),
         oper_status=list(status),
-        state={
-            "speed_bps": _floats(speed),
-            "max_speed_bps": _floats(top),
-            "mtu": _floats(mtu),
-            "link_changes": _floats(changes),
-            "discontinuity": _floats([None if d is None else d.timestamp() for d in discontinuity]),
-            "half_duplex": _floats(list(map(_DUPLEX.get, duplex))),
-            "fiber": _floats(list(map(_MEDIA.get, media))),
-            "poe": _floats(poe),
-        },
+        state=state,
         optics=optics,
         counters=counters,
         present=present,
         line=numbers,
         neighbor_device=[None if f is None else one(f[0], f[0]) for f in far],
         neighbor_port=[None if f is None else one(f[1], f[1]) for f in far],
+        extra=extra,
     )
+
+
+def _read_module(
+    objects: Sequence[Optics | _FastOptics | None],
+    rows: list[int],
+    optics: dict[str, np.ndarray],
+    extra: dict[str, list[object]],
+    one: Callable[[str, str], str],
+) -> None:
+    """An optic's PMD and lanes (format 1.2). Where lanes are given, a module reading the
+    line leaves out is taken from them as the format defines it (the weakest light, the
+    highest bias), and the strongest light and lowest bias are kept beside."""
+    pmd = [objects[i].pmd for i in rows]  # type: ignore[union-attr]
+    if any(pmd):
+        column: list[object] = [None] * len(objects)
+        for i, name in zip(rows, pmd, strict=True):
+            column[i] = None if name is None else one(name, name)
+        extra["pmd"] = column
+    laned = [i for i in rows if objects[i].lanes]  # type: ignore[union-attr]
+    if not laned:
+        return
+    lanes_column: list[object] = [None] * len(objects)
+    for i in laned:
+        lanes: _Lanes = tuple(map(_LANE, objects[i].lanes))  # type: ignore[union-attr, arg-type]
+        lanes_column[i] = lanes
+        rx, tx, bias = (np.array(v, np.float64) for v in zip(*lanes, strict=True))
+        for key, values, pick in (
+            ("rx_power_dbm", rx, np.nanmin),
+            ("tx_power_dbm", tx, np.nanmin),
+            ("bias_ma", bias, np.nanmax),
+            ("rx_power_max_dbm", rx, np.nanmax),
+            ("bias_min_ma", bias, np.nanmin),
+        ):
+            if np.isnan(optics[key][i]) and not np.isnan(values).all():
+                optics[key][i] = pick(values)
+    extra["lanes"] = lanes_column
+
+
+def _read_since_1_2(
+    snaps: Sequence[_Parsed],
+    state: dict[str, np.ndarray],
+    extra: dict[str, list[object]],
+    one: Callable[[str, str], str],
+) -> None:
+    """The scalar fields of format 1.2, into ``state`` and ``extra``; nothing where no line
+    of the chunk carries one (a 1.1 file costs one pass of attribute reads)."""
+    columns = list(zip(*map(_SINCE_1_2, snaps), strict=True))
+    if not any(any(c) for c in columns):
+        return
+    admin, changed, reason, module, fec, poe_status, aggregate = columns
+    state["admin_down"] = _floats([None if a is None else ADMIN_DOWN[a] for a in admin])
+    state["last_change"] = _floats([None if t is None else t.timestamp() for t in changed])
+    state["module_max_speed_bps"] = _floats(module)
+    state["fec_mode"] = _floats(list(map(_FEC_CODE.get, fec)))
+    if any(poe_status):
+        read = [(None,) * 4 if s is None else _POE(s) for s in poe_status]
+        detection, power_class, watts, left = zip(*read, strict=True)
+        state["poe_detection"] = _floats(list(map(_DETECTION_CODE.get, detection)))
+        state["poe_class"] = _floats(power_class)
+        state["poe_power_w"] = _floats(watts)
+        state["poe_budget_left_w"] = _floats(left)
+    extra["disabled_reason"] = [None if r is None else one(r, r) for r in reason]
+    extra["aggregate"] = [None if a is None else one(a, a) for a in aggregate]
+
+
+_POE = attrgetter("detection", "power_class", "power_w", "budget_left_w")
 
 
 def _without_counter32_overflows(table: PollTable, problems: list[LineProblem]) -> PollTable:
@@ -448,13 +617,16 @@ def iter_snapshots(table: PollTable) -> Iterator[Snapshot]:
     """The rows of a poll table as snapshot models, e.g. to record them to a file."""
     duplex: dict[float, Literal["half", "full"]] = {1.0: "half", 0.0: "full"}
     media: dict[float, Literal["fiber", "copper"]] = {1.0: "fiber", 0.0: "copper"}
+    admin = {code: status for status, code in ADMIN_DOWN.items()}
     state = {k: v.tolist() for k, v in table.state.items()}
-    optics = {k: v.tolist() for k, v in table.optics.items()}
+    optics = {k: v.tolist() for k, v in table.optics.items() if k in OPTICS_READ}
+    extra = {k: v.tolist() for k, v in table.extra.items()}
     for i in range(len(table)):
-        readings = {k: v[i] for k, v in optics.items() if v[i] == v[i]}
         far, far_port = table.neighbor_device[i], table.neighbor_port[i]
         disc = state["discontinuity"][i]
         poe = state["poe"][i]
+        changed = state["last_change"][i]
+        speeds = extra["neighbor_speeds"][i]
         yield Snapshot(
             device=str(table.device[i]),
             port=str(table.port[i]),
@@ -473,11 +645,53 @@ def iter_snapshots(table: PollTable) -> Iterator[Snapshot]:
             link_changes=_int_or_none(state["link_changes"][i]),
             discontinuity_time=None if disc != disc else datetime.fromtimestamp(disc, UTC),
             poe=None if poe != poe else bool(poe),
-            optics=Optics(**readings) if readings else None,
+            optics=_optics_of(optics, extra, i),
             neighbor=None
             if far is None or far_port is None
-            else Neighbor(device=far, port=far_port),
+            else Neighbor(device=far, port=far_port, speeds_bps=list(speeds) if speeds else None),
+            admin_status=admin.get(state["admin_down"][i]),
+            last_change=None if changed != changed else datetime.fromtimestamp(changed, UTC),
+            disabled_reason=extra["disabled_reason"][i],
+            module_max_speed_bps=_int_or_none(state["module_max_speed_bps"][i]),
+            fec_mode=_code(FEC_MODES, state["fec_mode"][i]),
+            poe_status=_poe_status_of(state, i),
+            aggregate=extra["aggregate"][i],
         )
+
+
+def _code(names: tuple[str, ...], code: float) -> str | None:
+    return None if code != code else names[int(code)]
+
+
+def _optics_of(
+    optics: dict[str, list[float]], extra: dict[str, list[object]], i: int
+) -> Optics | None:
+    readings = {k: v[i] for k, v in optics.items() if v[i] == v[i]}
+    lanes: _Lanes | None = extra["lanes"][i]  # type: ignore[assignment]
+    pmd = extra["pmd"][i]
+    if not (readings or lanes or pmd):
+        return None
+    return Optics(
+        **readings,
+        lanes=None
+        if lanes is None
+        else [Lane(rx_power_dbm=r, tx_power_dbm=t, bias_ma=b) for r, t, b in lanes],
+        pmd=pmd,
+    )
+
+
+def _poe_status_of(state: dict[str, list[float]], i: int) -> PoeStatus | None:
+    detection = _code(POE_DETECTIONS, state["poe_detection"][i])
+    power_class = _int_or_none(state["poe_class"][i])
+    watts, left = state["poe_power_w"][i], state["poe_budget_left_w"][i]
+    if detection is None and power_class is None and watts != watts and left != left:
+        return None
+    return PoeStatus(
+        detection=detection,
+        power_class=power_class,
+        power_w=None if watts != watts else watts,
+        budget_left_w=None if left != left else left,
+    )
 
 
 def write_snapshots(snapshots: Iterable[Snapshot], fp: IO[str]) -> int:

@@ -46,7 +46,13 @@ import numpy as np
 import numpy.typing as npt
 
 from linktriage.engine.format.counters import COLUMN_INDEX, COLUMNS, QUANTITIES, max_rate_per_second
-from linktriage.engine.format.poll_table import OPTICS_FIELDS, STATE_FIELDS, FloatArray, PollTable
+from linktriage.engine.format.poll_table import (
+    EXTRA_FIELDS,
+    OPTICS_FIELDS,
+    STATE_FIELDS,
+    FloatArray,
+    PollTable,
+)
 
 #: Default reach of a window back from a port's latest poll.
 DEFAULT_MAX_WINDOW_S = 3600.0
@@ -102,9 +108,13 @@ class WindowTable:
     optics: dict[str, FloatArray]  # OPTICS_FIELDS at the latest poll
     deltas: dict[str, FloatArray]  # quantity key -> increase over the window, NaN if unknown
     link_changes: FloatArray  # increase of link_changes, NaN where not reported
+    # How often ifLastChange moved between polls in the window (each move is at least one
+    # change of state), NaN where not reported (format 1.2).
+    last_change_moves: FloatArray
     status_changes: npt.NDArray[np.int64]  # oper-status flips seen between polls
     neighbor_device: npt.NDArray[np.object_]  # the far end at the latest poll, or None
     neighbor_port: npt.NDArray[np.object_]
+    extra: dict[str, npt.NDArray[np.object_]]  # EXTRA_FIELDS at the latest poll
     intervals: Intervals
     # The window starts where its latest intervals differ from what came before
     # (linktriage.engine.measure.now), not at the reach of the window.
@@ -184,9 +194,11 @@ def _no_windows() -> WindowTable:
         optics=dict.fromkeys(OPTICS_FIELDS, none),
         deltas={q.key: none for q in QUANTITIES},
         link_changes=none,
+        last_change_moves=none,
         status_changes=whole,
         neighbor_device=np.zeros(0, object),
         neighbor_port=np.zeros(0, object),
+        extra={k: np.zeros(0, object) for k in EXTRA_FIELDS},
         intervals=Intervals(
             np.zeros(0, np.intp), none, none, none, none, none, np.zeros(0, np.bool_)
         ),
@@ -287,7 +299,14 @@ def _windows_of_sorted(
     lc_rows[1:] = lc[1:] - lc[:-1]
     flips = np.zeros(m)
     flips[1:] = p.oper_status[1:] != p.oper_status[:-1]
-    changed_rows = used & ((lc_rows > 0) | (flips > 0))
+    last_change = st["last_change"]
+    moved_rows = np.zeros(m)
+    moved_rows[1:] = np.where(
+        np.isnan(last_change[1:]) | np.isnan(last_change[:-1]),
+        np.nan,
+        np.abs(last_change[1:] - last_change[:-1]) > _DISCONTINUITY_SLACK_S,
+    )
+    changed_rows = used & ((lc_rows > 0) | (flips > 0) | (moved_rows > 0))
     # A window of one interval is its own latest interval: only longer ones keep theirs.
     several = np.bincount(group_of_row[used], minlength=len(starts)) >= 2
     rows = np.flatnonzero(used & several[group_of_row])
@@ -328,9 +347,11 @@ def _windows_of_sorted(
         optics={k: p.optics[k][last] for k in OPTICS_FIELDS},
         deltas=deltas,
         link_changes=summed(lc_rows),
+        last_change_moves=summed(moved_rows),
         status_changes=summed(flips).astype(np.int64),
         neighbor_device=p.neighbor_device[last],
         neighbor_port=p.neighbor_port[last],
+        extra={k: v[last] for k, v in p.extra.items()},
         intervals=intervals,
         restarted=np.zeros(len(starts), np.bool_),
     )
