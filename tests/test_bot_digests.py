@@ -59,6 +59,7 @@ def test_a_part_of_device_names_lists_the_suspects_of_those_devices(triage: Tria
         ("lark-east-idf1", "up1"),
         ("lark-east-idf2", "port7"),
         ("lark-east-idf2", "port14"),
+        ("lark-east-idf2", "port23"),  # the camera whose PoE port reports a fault
     }
     assert reply.ports_judged + sum(reply.not_judged.values()) == 50
 
@@ -175,7 +176,7 @@ def test_a_link_read_from_both_ends_is_one_suspect_listed_at_the_end_that_sees_i
     # end; the deaf receiver).
     reply = triage.digests.suspects()
     listed_ports = [f"{i.record['device']} {i.record['port']}" for i in reply.items]
-    assert len(listed_ports) == 7
+    assert len(listed_ports) == 9  # with the PoE camera and the port the switch shut
     assert "lark-east-idf2 port7" in listed_ports and "lark-circ-prn1 eth0" not in listed_ports
     assert "lark-core1 up3" in listed_ports and "lark-west-idf1 up1" not in listed_ports
     (one_way,) = [i for i in reply.items if i.record["port"] == "up3"]

@@ -226,15 +226,17 @@ def test_demo_counts_suspects_as_the_digest_and_chat_do() -> None:
     # are not judged, and are counted apart wherever a count is given.
     _, out, _ = run("demo")
     # A link read from both ends is one suspect link of two ports (issue 12): four of the
-    # seven are (the duplex mismatch, the one-way fiber, the lossy strand, the congestion).
+    # nine are (the duplex mismatch, the one-way fiber, the lossy strand, the congestion).
+    # A port the switch shut and a PoE port without power are suspects; one shut on
+    # purpose is not judged (SNAPSHOT-FORMAT 1.2).
     assert (
-        "81 ports healthy; the other 14 need a look: 7 suspect links (11 ports: both ends of "
-        "a link count once), 3 ports not judged (1 down, 1 too quiet to judge, 1 without two "
-        "usable polls):"
+        "78 ports healthy; the other 17 need a look: 9 suspect links (13 ports: both ends of "
+        "a link count once), 4 ports not judged (1 down, 1 too quiet to judge, 1 shut on "
+        "purpose, 1 without two usable polls):"
     ) in out
-    assert "7 suspect links among 92 ports judged; 3 ports not judged" in out
+    assert "9 suspect links among 91 ports judged; 4 ports not judged" in out
     chat = CliRunner().invoke(main, ["chat"], input="suspects\n").stdout
-    assert "7 suspect links among 92 ports judged; 3 ports not judged" in chat
+    assert "9 suspect links among 91 ports judged; 4 ports not judged" in chat
 
 
 def test_the_demo_table_lists_suspects_worst_first_then_the_ports_not_judged() -> None:
@@ -247,11 +249,14 @@ def test_the_demo_table_lists_suspects_worst_first_then_the_ports_not_judged() -
     )
     assert verdicts[3:] == [
         "duplex_mismatch",
+        "poe_fault",
         "mtu_mismatch",
         "congestion",
+        "port_disabled",
         "negotiation_degraded",
         "link_down",
         "insufficient_traffic",
+        "admin_down",
         "no_data",
     ]
 

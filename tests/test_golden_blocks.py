@@ -35,7 +35,8 @@ from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.answers import DiagnosisRecord, Verdict
 from linktriage.engine.format.snapshot import read_snapshot_file
-from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, GUARD_VERDICTS, SEVERITY, VERDICTS
+from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, SEVERITY, VERDICTS
+from linktriage.engine.verdicts import NOT_JUDGED as NOT_JUDGED_VERDICTS
 from linktriage.render.blocks import message_for, thread_for
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
@@ -67,6 +68,7 @@ NOT_JUDGED = {  # as each guard verdict says why a port is not judged
     "too quiet to judge": 4,
     "down": 2,
     "without two usable polls": 1,
+    "shut on purpose": 3,
 }
 PORTS_JUDGED = 91
 
@@ -152,8 +154,8 @@ def test_each_verdicts_answer_draws_as_its_golden_file(
 
 
 def test_the_digest_draws_as_its_golden_file(answers: dict[Verdict, DiagnosisRecord]) -> None:
-    assert set(NOT_JUDGED) == {GUARD_KINDS[v].not_judged for v in GUARD_VERDICTS}, (
-        "one count per guard"
+    assert set(NOT_JUDGED) == {GUARD_KINDS[v].not_judged for v in NOT_JUDGED_VERDICTS}, (
+        "one count per guard that does not judge"
     )
     worst_first = sorted(FAULTS, key=lambda v: (-SEVERITY[v], VERDICTS.index(v)))
     items = [

@@ -1,5 +1,7 @@
 """Guards: nothing to measure is link_down or no_data; too few frames is
-insufficient_traffic only when no state reading or significant count allows a verdict."""
+insufficient_traffic only when no state reading or significant count allows a verdict; a port
+that is not up is, in SNAPSHOT-FORMAT 1.2's order, admin_down, port_disabled, poe_fault, then
+link_down; PoE faults are read from RFC 3621 status and counters, up or not."""
 
 from __future__ import annotations
 
@@ -17,7 +19,8 @@ GIG = {"speed_bps": 10**9, "max_speed_bps": 10**9, "duplex": "full", "media": "c
 
 def guard(grow: dict[str, int], **fields: Any) -> object:
     windows = compute_windows(polls(*grown(grow, **{**GIG, **fields})))
-    return apply_guards(windows, allowed(measure(windows).table))[0]
+    measured = measure(windows).table
+    return apply_guards(windows, allowed(measured), measured)[0]
 
 
 def quiet(frames: int, errors: int = 0) -> dict[str, int]:
@@ -67,4 +70,75 @@ def test_a_port_that_is_not_up_is_link_down_whatever_its_traffic() -> None:
 
 def test_one_poll_is_no_data() -> None:
     windows = compute_windows(polls(line(counters={"ifHCInUcastPkts": 1})))
-    assert apply_guards(windows, allowed(measure(windows).table))[0] == "no_data"
+    measured = measure(windows).table
+    assert apply_guards(windows, allowed(measured), measured)[0] == "no_data"
+
+
+def test_one_poll_that_reads_a_state_answers_by_that_state() -> None:
+    # SNAPSHOT-FORMAT 1.2: no_data only where none of the states before the tree is read.
+    for fields, verdict in (
+        ({"admin_status": "down"}, "admin_down"),
+        ({"disabled_reason": "err-disabled: link flap"}, "port_disabled"),
+        ({"poe_status": {"detection": "fault"}}, "poe_fault"),
+        ({}, "link_down"),
+    ):
+        one = polls(line(counters={"ifHCInUcastPkts": 1}, oper_status="down", **fields))
+        windows = compute_windows(one)
+        measured = measure(windows).table
+        assert apply_guards(windows, allowed(measured), measured)[0] == verdict, fields
+
+
+BUSY = quiet(400_000)
+DOWN = {"oper_status": "down"}
+
+
+def test_a_port_shut_on_purpose_is_admin_down_before_anything_else() -> None:
+    # SNAPSHOT-FORMAT 1.2: admin_down first, even with a reason and a PoE fault read.
+    assert guard(BUSY, admin_status="down", **DOWN) == "admin_down"
+    assert guard(BUSY, admin_status="down", disabled_reason="bpdu guard", **DOWN) == "admin_down"
+    poe = {"detection": "fault"}
+    assert guard(BUSY, admin_status="down", poe_status=poe, **DOWN) == "admin_down"
+
+
+def test_a_port_the_device_shut_is_port_disabled_with_admin_up_or_unknown() -> None:
+    assert guard(BUSY, admin_status="up", disabled_reason="psecure-violation", **DOWN) == (
+        "port_disabled"
+    )
+    assert guard(BUSY, disabled_reason="loop detected", **DOWN) == "port_disabled"
+
+
+def test_a_port_down_with_no_reason_and_no_power_fault_stays_link_down() -> None:
+    assert guard(BUSY, admin_status="up", **DOWN) == "link_down"
+    # RFC 3621 "searching": a PoE port with nothing plugged in is not a fault.
+    assert guard(BUSY, poe_status={"detection": "searching"}, **DOWN) == "link_down"
+    # MPS absent once, then down: a device unplugged (SNAPSHOT-FORMAT 1.2 poe_fault).
+    assert guard({**BUSY, "pethPsePortMPSAbsentCounter": 1}, **DOWN) == "link_down"
+
+
+def test_rfc_3621_fault_status_is_poe_fault_up_or_down() -> None:
+    # pethPsePortDetectionStatus fault(4) and otherFault(6), RFC 3621.
+    assert guard(BUSY, poe_status={"detection": "fault"}, **DOWN) == "poe_fault"
+    assert guard(BUSY, poe_status={"detection": "otherFault"}) == "poe_fault"
+
+
+def test_overloads_shorts_or_denials_counting_in_the_window_are_poe_fault() -> None:
+    for counter in (
+        "pethPsePortOverLoadCounter", "pethPsePortShortCounter", "pethPsePortPowerDeniedCounter",
+    ):  # fmt: skip
+        assert guard({**BUSY, counter: 2}) == "poe_fault", counter
+        assert guard({**BUSY, counter: 0}) is None, counter
+
+
+def test_power_cut_each_time_the_link_comes_back_is_poe_fault() -> None:
+    # MPS absent with every return of the link: the switch cuts a device that draws too
+    # little, and it reboots (SNAPSHOT-FORMAT 1.2).
+    grow = {**BUSY, "pethPsePortMPSAbsentCounter": 3}
+    assert guard(grow, link_changes=10, last={"link_changes": 16}) == "poe_fault"
+    assert guard(grow, link_changes=10) is None
+
+
+def test_invalid_signatures_matter_only_while_the_port_stays_down() -> None:
+    grow = {**BUSY, "pethPsePortInvalidSignatureCounter": 40}
+    assert guard(grow, **DOWN) == "poe_fault"
+    # A device up on its own power that does not present a signature is no fault.
+    assert guard(grow) is None

@@ -17,7 +17,7 @@ from linktriage.engine.format.snapshot import read_snapshots
 from linktriage.engine.measure.measures import measure
 from linktriage.engine.measure.window import compute_windows
 from linktriage.engine.physics import RULES, Rule, allowed
-from linktriage.engine.verdicts import FAULTS, TREE_VERDICTS
+from linktriage.engine.verdicts import TREE_VERDICTS
 
 from helpers import grown, polls
 
@@ -283,7 +283,7 @@ def test_an_impossible_discard_count_is_a_counter_fault_not_congestion(model: Mo
 def test_rules_agree_with_the_verdicts_on_the_demo_network(model: Model, demo_batch) -> None:  # type: ignore[no-untyped-def]
     # Whatever the tree preferred, no answer is one its port's readings rule out.
     for i, verdict in enumerate(demo_batch.verdict):
-        if verdict in FAULTS or verdict == "healthy":
+        if verdict in TREE_VERDICTS:
             assert demo_batch.allowed.rule_against(i, verdict) is None
 
 

@@ -44,17 +44,34 @@ def _format_ids() -> list[str]:
     return re.findall(r"^\| `([a-z_]+)` \|", section, re.MULTILINE)
 
 
+def _still_to_come() -> list[str]:
+    """The ids docs/snapshot-format.md says this release does not answer yet."""
+    said = DOCS.read_text().split("**This release.**", 1)[1].split("\n\n", 1)[0]
+    said = " ".join(said.split())
+    listed = said.split("listed here is never answered):", 1)[1].split(".", 1)[0]
+    return re.findall(r"`([a-z_]+)`", listed)
+
+
 def test_the_registry_holds_the_formats_verdicts_in_its_order() -> None:
-    ids = _format_ids()
-    assert len(ids) >= 11
-    assert list(VERDICTS) == ids
+    # SNAPSHOT-FORMAT 1.2's table, less the verdicts the document says are still to come:
+    # every id is declared by a module or named as not answered, never both.
+    ids, to_come = _format_ids(), _still_to_come()
+    assert len(ids) == 19
+    assert set(to_come) <= set(ids) and not set(to_come) & set(VERDICTS)
+    assert list(VERDICTS) == [i for i in ids if i not in to_come]
     assert [k.listed for k in KINDS] == sorted(k.listed for k in KINDS)
+    assert [ids[k.listed - 1] for k in KINDS] == list(VERDICTS)
 
 
-def test_the_tree_answers_eight_and_three_are_answered_before_it() -> None:
-    # SNAPSHOT-FORMAT: insufficient_traffic, link_down and no_data are answered before the
-    # tree, the rest by it; which is which is each module's declaration, not a position.
-    assert set(GUARD_VERDICTS) == {"insufficient_traffic", "link_down", "no_data"}
+def test_the_states_before_the_tree_are_answered_before_it() -> None:
+    # SNAPSHOT-FORMAT 1.2: insufficient_traffic, link_down, admin_down and no_data are
+    # answered before the tree, and so are port_disabled and poe_fault here (rules of RFC
+    # 3621 and the device's own reason, which a tree could only copy); the rest by it. Which
+    # is which is each module's declaration, not a position.
+    assert set(GUARD_VERDICTS) == {
+        "insufficient_traffic", "link_down", "admin_down", "no_data", "port_disabled",
+        "poe_fault",
+    }  # fmt: skip
     assert set(TREE_VERDICTS) == set(VERDICTS) - set(GUARD_VERDICTS)
     assert all(isinstance(kind_of(v), GuardVerdict) for v in GUARD_VERDICTS)
     assert all(isinstance(kind_of(v), TreeVerdict) for v in TREE_VERDICTS)
@@ -256,7 +273,7 @@ def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
 
 KIND = TreeVerdict(
     verdict=TOY_FAULT,
-    listed=12,
+    listed=20,
     title="toy fault",
     meaning="Frames too long and bit errors together.",
     checks=(check("Look at the toy."), check("Swap the toy's cord.", Touch.UNPLUG)),

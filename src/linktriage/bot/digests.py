@@ -14,7 +14,7 @@ from linktriage.engine.diagnosis.batch import DiagnosisBatch, headline
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.answers import DiagnosisRecord
-from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, GUARD_VERDICTS, SEVERITY
+from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, NOT_JUDGED, SEVERITY
 from linktriage.errors import AmbiguousNameError, CommandError
 from linktriage.network.watched import Network, fitting
 from linktriage.render import words
@@ -191,4 +191,4 @@ def _listed_end(batch: DiagnosisBatch, i: int) -> tuple[int, int, int, str, str]
 def unjudged(batch: DiagnosisBatch) -> list[int]:
     """The rows of the ports not judged (down, too quiet, without two usable polls): neither
     suspect nor healthy, and counted apart."""
-    return [i for i in range(len(batch)) if batch.link_verdict(i) in GUARD_VERDICTS]
+    return [i for i in range(len(batch)) if batch.link_verdict(i) in NOT_JUDGED]

@@ -14,6 +14,7 @@ from __future__ import annotations
 import numpy as np
 import numpy.typing as npt
 
+from linktriage.engine.measure.columns import Columns
 from linktriage.engine.measure.window import WindowTable
 from linktriage.engine.physics import Allowed
 from linktriage.engine.verdict_kit.declaration import GuardInputs
@@ -22,13 +23,17 @@ from linktriage.engine.verdicts import GUARDS
 _BY_PRECEDENCE = sorted(GUARDS, key=lambda kind: kind.precedence)
 
 
-def apply_guards(windows: WindowTable, allowed: Allowed) -> npt.NDArray[np.object_]:
+def apply_guards(
+    windows: WindowTable, allowed: Allowed, measures: Columns
+) -> npt.NDArray[np.object_]:
     """Per port, the verdict a guard answers, or None for the tree."""
     verdict = np.full(len(windows), None, dtype=object)
     inputs = GuardInputs(
         status=windows.status,
         enough_frames=allowed.signs.enough_frames,
         anything_allowed=np.asarray(allowed.mask.any(axis=1), np.bool_),
+        measures=measures,
+        extra=windows.extra,
     )
     for kind in _BY_PRECEDENCE:  # a higher precedence answers over a lower one
         verdict[kind.guard(inputs)] = kind.verdict

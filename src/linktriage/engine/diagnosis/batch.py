@@ -167,6 +167,11 @@ class DiagnosisBatch:
             values = self._columns[name] = self.measures[name].tolist()
         return values
 
+    def words(self, name: str) -> list[object]:
+        """A field of words or lists of format 1.2 at each port's latest poll."""
+        words: list[object] = self.windows.extra[name].tolist()
+        return words
+
     def measured(self, name: str, i: int) -> float:
         """One measure of the port in row ``i``."""
         return self.column(name)[i]

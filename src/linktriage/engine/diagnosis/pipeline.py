@@ -116,7 +116,7 @@ def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisB
     m = measured.table
     rows = feature_rows(m)
     ok = allowed(m)
-    guarded = apply_guards(windows, ok)
+    guarded = apply_guards(windows, ok, m)
 
     tree = model.tree
     leaf = tree.apply(rows.matrix())

@@ -449,6 +449,45 @@ def measure(w: WindowTable) -> Measured:
             "bias_ma": optics["bias_ma"],
             "has_optics": has_optics.astype(np.float64),
             "link_changes": link_changes,
+            **_since_1_2(w, d),
         }
     )
     return Measured(table, faults)
+
+
+def _since_1_2(w: WindowTable, d: dict[str, FloatArray]) -> dict[str, FloatArray]:
+    """The readings format 1.2 adds, as they were read (NaN where not): the port's admin
+    state and last change, what the module and the far end support, FEC, pause frames and
+    Power over Ethernet, and the light thresholds and lane extremes of an optic."""
+    st, optics = w.state, w.optics
+    return {
+        "admin_down": st["admin_down"],
+        "last_change": st["last_change"],
+        "last_change_moves": w.last_change_moves,
+        "module_max_speed_bps": st["module_max_speed_bps"],
+        "neighbor_max_speed_bps": st["neighbor_max_speed_bps"],
+        "fec_mode": st["fec_mode"],
+        "fec_corrected_blocks": d["fec_corrected_blocks"],
+        "fec_uncorrectable_blocks": d["fec_uncorrectable_blocks"],
+        "fec_corrected_bits": d["fec_corrected_bits"],
+        "in_pause": d["in_pause"],
+        "out_pause": d["out_pause"],
+        "poe_detection": st["poe_detection"],
+        "poe_class": st["poe_class"],
+        "poe_power_w": st["poe_power_w"],
+        "poe_budget_left_w": st["poe_budget_left_w"],
+        "poe_mps_absent": d["poe_mps_absent"],
+        "poe_invalid_signature": d["poe_invalid_signature"],
+        "poe_power_denied": d["poe_power_denied"],
+        "poe_overload": d["poe_overload"],
+        "poe_short": d["poe_short"],
+        # The strongest light of any lane (a module of one lane: its own reading).
+        "rx_max_dbm": np.fmax(optics["rx_power_max_dbm"], optics["rx_power_dbm"]),
+        "rx_high_alarm_dbm": optics["rx_power_high_alarm_dbm"],
+        "rx_high_warn_dbm": optics["rx_power_high_warn_dbm"],
+        "tx_high_alarm_dbm": optics["tx_power_high_alarm_dbm"],
+        "tx_warn_dbm": optics["tx_power_low_warn_dbm"],
+        "bias_high_alarm_ma": optics["bias_high_alarm_ma"],
+        "bias_low_alarm_ma": optics["bias_low_alarm_ma"],
+        "bias_min_ma": np.fmin(optics["bias_min_ma"], optics["bias_ma"]),
+    }

@@ -81,7 +81,7 @@ def prior_rows(n: int, seed: int, ranges: Ranges = TRAINING) -> PriorRows:
     )
     m = measured.table
     ok = allowed(m)
-    guarded = apply_guards(windows, ok)
+    guarded = apply_guards(windows, ok, m)
     columns = np.array([TREE_VERDICTS.index(v) for v in labels], np.intp)
     possible = ok.mask[np.arange(len(labels)), columns]
     keep = np.array([v is None for v in guarded]) & possible

@@ -24,7 +24,7 @@ from linktriage.engine.format.counters import (
     WIRE_OVERHEAD_OCTETS,
 )
 from linktriage.engine.format.optics import sff8472_power_dbm, sff8472_power_raw
-from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.format.poll_table import POE_DETECTIONS, PollTable
 from linktriage.engine.simulate.ports import DEFAULT_START, M, Rng
 
 if TYPE_CHECKING:
@@ -65,9 +65,12 @@ def render_polls(
 
 
 def _column(p: pd.DataFrame, key: str, default: float | bool, n: int) -> np.ndarray:
-    """A parameter column, or its default where an older caller's parameters lack it."""
+    """A parameter column, or its default where an older caller's parameters lack it, or
+    a row was never given it (a column planted on some ports only is NaN elsewhere)."""
     if key in p:
-        return p[key].to_numpy()
+        values = p[key].to_numpy()
+        unset = values != values  # NaN
+        return np.where(unset, default, values) if unset.any() else values
     return np.full(n, default)
 
 
@@ -98,6 +101,7 @@ class PortConstants:
             p["dot3"].to_numpy(np.bool_),
             p["rmon"].to_numpy(np.bool_),
             _column(p, "symbol_mode", 0.0, n),
+            _column(p, "poe", 0.0, n) == 1.0,
         )
         return cls(starts, lc0, disc, reported)
 
@@ -130,13 +134,15 @@ class PortConstants:
         stuck = _column(p, "symbol_mode", 0.0, n) == 2
         counters[stuck, COLUMN_INDEX["dot3StatsSymbolErrors"]] = 0
         links = self.link_changes + np.floor(link_changes)
+        admin_down = _column(p, "admin_down", False, n).astype(bool)
+        disabled = _column(p, "disabled", False, n).astype(bool) & down
         media_known = _column(p, "media_reported", True, n).astype(bool)
         duplex_known = _column(p, "duplex_reported", True, n).astype(bool)
         return PollTable.from_columns(
             device=np.asarray(device, dtype=object),
             port=np.asarray(port, dtype=object),
             time=time,
-            oper_status=np.where(down, "down", "up").astype(object),
+            oper_status=np.where(down | admin_down, "down", "up").astype(object),
             state={
                 "speed_bps": p["speed_bps"].to_numpy(np.float64),
                 "max_speed_bps": p["max_speed_bps"].to_numpy(np.float64),
@@ -148,20 +154,46 @@ class PortConstants:
                 ),
                 "fiber": np.where(media_known, p["fiber"].to_numpy(np.float64), np.nan),
                 "poe": p["poe"].to_numpy(np.float64),
+                "admin_down": admin_down.astype(np.float64),
+                **_poe_status(p, down | admin_down),
             },
             optics=_optics_readings(p, rng),
             counters=counters,
             present=self.reported.copy(),
+            extra={"disabled_reason": [DISABLED_REASON if d else None for d in disabled]},
         )
 
 
-#: The counters the simulator draws: those of format 1.1 (the 1.2 counters, pause, FEC and
-#: Power over Ethernet, wait for the verdicts that read them).
-SIMULATED = tuple(q for q in QUANTITIES if q.since != "1.2")
+def _poe_status(p: pd.DataFrame, down: np.ndarray) -> dict[str, np.ndarray]:
+    """RFC 3621 state of PoE ports: delivering power to a class 2 to 4 device while up,
+    searching while down, a fault where the port has one; NaN where the port gives none."""
+    n = len(p)
+    poe = _column(p, "poe", 0.0, n) == 1.0
+    fault = _column(p, "poe_fault", False, n).astype(bool)
+    detection = np.where(
+        fault,
+        POE_DETECTIONS.index("fault"),
+        np.where(down, POE_DETECTIONS.index("searching"), POE_DETECTIONS.index("deliveringPower")),
+    ).astype(np.float64)
+    power_class = np.where(fault, 4.0, 2.0 + (np.arange(n) % 3))
+    delivering = detection == POE_DETECTIONS.index("deliveringPower")
+    watts = np.where(delivering, 2.0 + 3.0 * power_class, 0.0)
+    return {
+        "poe_detection": np.where(poe, detection, np.nan),
+        "poe_class": np.where(poe & (delivering | fault), power_class, np.nan),
+        "poe_power_w": np.where(poe, watts, np.nan),
+    }
+
+
+#: The counters the simulator draws: those of format 1.1, and Power over Ethernet's (RFC
+#: 3621, on PoE ports only); pause and FEC wait for the verdicts that read them.
+SIMULATED = tuple(q for q in QUANTITIES if q.since != "1.2" or q.key.startswith("poe_"))
+#: The device's words for a port it shut itself, in the simulated network (invented).
+DISABLED_REASON = "bpdu guard: spanning-tree frame on an edge port"
 
 
 def _reported_columns(
-    hc: np.ndarray, dot3: np.ndarray, rmon: np.ndarray, symbol_mode: np.ndarray
+    hc: np.ndarray, dot3: np.ndarray, rmon: np.ndarray, symbol_mode: np.ndarray, poe: np.ndarray
 ) -> np.ndarray:
     """Which counter names each simulated device reports."""
     n = len(hc)
@@ -172,7 +204,9 @@ def _reported_columns(
             continue
         if c.name.startswith("dot3HC"):
             continue  # the dot3 HC table is rare in the field
-        if c.name == "dot3StatsSymbolErrors":
+        if c.name.startswith("pethPse"):
+            present[:, j] = poe
+        elif c.name == "dot3StatsSymbolErrors":
             present[:, j] = dot3 & (symbol_mode != 1)
         elif c.name.startswith("dot3"):
             present[:, j] = dot3
@@ -372,6 +406,14 @@ def window_counts(p: pd.DataFrame, draw: Draw | Expect, dt: np.ndarray) -> dict[
         "fragments": fragments,
         "oversize": giants + draw.poisson(rx_pkts * _column(p, "jumbo_share", 0.0, n)),
         "jabbers": np.zeros(n),
+        # RFC 3621 counters, on PoE ports: a port with a power fault trips its short-circuit
+        # protection as it retries, about twice a minute (drawn without the generator, so the
+        # ports of format 1.1 draw as before).
+        "poe_mps_absent": np.zeros(n),
+        "poe_invalid_signature": np.zeros(n),
+        "poe_power_denied": np.zeros(n),
+        "poe_overload": np.zeros(n),
+        "poe_short": _column(p, "poe_fault", False, n).astype(float) * dt / 30.0,
     }
 
 

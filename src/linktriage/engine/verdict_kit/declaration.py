@@ -65,6 +65,12 @@ class Caution(StrEnum):
         "Re-patching, re-seating or re-configuring this port interrupts the link for "
         "everything behind it: tell its users first."
     )
+    LOOP = (
+        "A loop or storm takes down more than one link: shutting or re-enabling the wrong "
+        "port can cut a whole closet off, or bring the loop back. Find the looped path "
+        "first, change one port at a time, and keep a way into the device that does not "
+        "run through the ports you change (a console or another uplink)."
+    )
     LOCAL_CODES = (
         "These are suggestions for a trained technician: local codes, site safety rules and "
         "licensed practice come first."
@@ -85,6 +91,10 @@ SHORT: dict[Caution, str] = {
     Caution.WORK_AT_HEIGHT: "Ceilings and risers: follow the site's rules for ladders; not alone.",
     Caution.MAINS: "Mains power is work for a licensed electrician.",
     Caution.SERVICE_BREAK: "This interrupts the link: tell its users first.",
+    Caution.LOOP: (
+        "A loop: the wrong port shut or re-enabled can cut a closet off. One port at a time, "
+        "with a way in that does not cross it."
+    ),
     Caution.LOCAL_CODES: "Local codes, site rules and licensed practice come first.",
 }
 
@@ -106,6 +116,7 @@ NEEDS: dict[Caution, frozenset[Touch]] = {
     Caution.WORK_AT_HEIGHT: frozenset({Touch.HEIGHT}),
     Caution.MAINS: frozenset({Touch.POWER_NEARBY}),
     Caution.SERVICE_BREAK: frozenset({Touch.UNPLUG, Touch.CONFIGURE}),
+    Caution.LOOP: frozenset({Touch.UNPLUG, Touch.CONFIGURE}),
 }
 
 
@@ -166,11 +177,15 @@ class LinkJudge:
 class GuardInputs:
     """What a guard may look at, per port: the window's status
     (:class:`~linktriage.engine.measure.window.WindowStatus`), whether the frames bound the
-    error ratio, and whether the physics allows any verdict at all."""
+    error ratio, whether the physics allows any verdict at all, the measures (states read
+    at the latest poll, counts over the window) and the words the device said of the port
+    (``disabled_reason``, by :data:`~linktriage.engine.format.poll_table.EXTRA_FIELDS`)."""
 
     status: npt.NDArray[np.int8]
     enough_frames: BoolArray
     anything_allowed: BoolArray
+    measures: Mapping[str, npt.NDArray[np.float64]]
+    extra: Mapping[str, npt.NDArray[np.object_]]
 
 
 def question(
@@ -258,3 +273,6 @@ class GuardVerdict(VerdictKind):
     question: Callable[[PortFacts, int], QuestionRecord]  # the question it answers, for row i
     not_judged: str  # why such a port has no verdict on its health, as a list says it
     measured: bool  # a window was measured (False: nothing to read both ends from)
+    #: A fault found before the tree (a port the switch shut, PoE that cannot power its
+    #: device) is a suspect like a tree's, and this is how urgent; None: not a fault.
+    severity: int | None = None

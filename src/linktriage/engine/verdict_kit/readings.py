@@ -87,6 +87,7 @@ class PortFacts(Protocol):
     @property
     def window_s(self) -> Sequence[float]: ...
     def column(self, name: str) -> Sequence[float]: ...
+    def words(self, name: str) -> Sequence[object]: ...  # an EXTRA_FIELDS column
 
 
 class PortGroup:
@@ -108,6 +109,11 @@ class PortGroup:
 
     def __len__(self) -> int:
         return len(self.rows)
+
+    def words(self, name: str) -> list[object]:
+        """A field of words or lists of format 1.2 (the device's disable reason, ...)."""
+        whole = self.facts.words(name)
+        return [whole[i] for i in self.rows]
 
 
 Items = list[EvidenceRecord]

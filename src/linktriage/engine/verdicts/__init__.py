@@ -110,8 +110,14 @@ TREE_VERDICTS: tuple[Verdict, ...] = tuple(k.verdict for k in TREE)
 GUARD_VERDICTS: tuple[Verdict, ...] = tuple(k.verdict for k in GUARDS)
 #: Verdicts that mean something on the link needs a person's attention, and how urgently
 #: (a link that corrupts or loses traffic ranks above one that is slow or full).
-SEVERITY: dict[Verdict, int] = {k.verdict: k.severity for k in TREE if k.severity is not None}
+SEVERITY: dict[Verdict, int] = {
+    **{k.verdict: k.severity for k in TREE if k.severity is not None},
+    **{k.verdict: k.severity for k in GUARDS if k.severity is not None},
+}
 FAULTS: frozenset[Verdict] = frozenset(SEVERITY)
+#: The verdicts answered before the tree that say nothing of the port's health (down, shut
+#: on purpose, too quiet, unread): counted apart, neither suspect nor healthy.
+NOT_JUDGED: frozenset[Verdict] = frozenset(k.verdict for k in GUARDS if k.severity is None)
 #: The verdicts answered before the tree, by id.
 GUARD_KINDS: dict[Verdict, GuardVerdict] = {k.verdict: k for k in GUARDS}
 _BY_ID: dict[str, VerdictKind] = {k.verdict: k for k in KINDS}

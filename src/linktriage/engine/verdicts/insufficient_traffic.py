@@ -71,7 +71,7 @@ def _question(facts: PortFacts, i: int) -> QuestionRecord:
 
 KIND = GuardVerdict(
     verdict=INSUFFICIENT_TRAFFIC,
-    listed=9,
+    listed=16,
     title="not enough traffic to judge",
     meaning="Too few frames in the window to tell a healthy error rate from a faulty one.",
     checks=(

@@ -51,7 +51,7 @@ _SHUT_BY_THE_SWITCH = check(
 
 KIND = GuardVerdict(
     verdict=LINK_DOWN,
-    listed=10,
+    listed=17,
     title="link down",
     meaning="The port is not up, so there is nothing to measure.",
     checks=(

@@ -43,7 +43,7 @@ def _question(facts: PortFacts, i: int) -> QuestionRecord:
 
 KIND = GuardVerdict(
     verdict=NO_DATA,
-    listed=11,
+    listed=19,
     title="no usable data",
     meaning="Fewer than two usable polls of this port.",
     checks=(
