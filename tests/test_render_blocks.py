@@ -88,7 +88,7 @@ def test_what_would_change_the_verdict_follows_the_questions(
     assert why["blocks"][asked + 1]["type"] == "context"
     assert (
         "What would change the verdict: this port would be cable or connector fault with "
-        "received light above 0.6 dB"
+        "received light above 0.7 dB"
     ) in texts[asked + 1]
     # No one change of a reading moves this answer: nothing is drawn.
     assert cable.record["nearest_other"] is None

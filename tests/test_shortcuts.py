@@ -37,16 +37,6 @@ def _symbols_stuck_at_zero(table: PollTable) -> PollTable:
     return replace(table, counters=counters)
 
 
-def _broadcast_for_multicast(table: PollTable) -> PollTable:
-    counters, present = table.counters.copy(), table.present.copy()
-    for a, b in (("ifHCInMulticastPkts", "ifHCInBroadcastPkts"),
-                 ("ifHCOutMulticastPkts", "ifHCOutBroadcastPkts")):  # fmt: skip
-        i, j = COLUMN_INDEX[a], COLUMN_INDEX[b]
-        counters[:, [i, j]] = counters[:, [j, i]]
-        present[:, [i, j]] = present[:, [j, i]]
-    return replace(table, counters=counters, present=present)
-
-
 def _counter32_beside_counter64(table: PollTable) -> PollTable:
     counters, present = table.counters.copy(), table.present.copy()
     for q in QUANTITIES:
@@ -88,7 +78,8 @@ PERTURBATIONS: dict[str, Callable[[PollTable], PollTable]] = {
     "discontinuity times not reported": lambda t: _state(
         t, "discontinuity", lambda v: np.zeros(len(v), bool)
     ),
-    "multicast counted as broadcast": _broadcast_for_multicast,
+    # (Broadcast and multicast are no longer interchangeable: since format 1.2 broadcasts
+    # are evidence of a storm, and a steady multicast stream its look-alike.)
     "Counter32 forms beside the Counter64 ones": _counter32_beside_counter64,
     "other counter start values": _other_start_values,
     "module temperature and bias not reported": _cool_readings_unreported,

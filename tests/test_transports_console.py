@@ -17,7 +17,7 @@ def test_a_conversation_asks_labels_and_lists(triage: Triage) -> None:
                 "reply cable_fault, crushed patch cord behind the desk",
                 "reply on my way",
                 "suspects annex",
-                "reply 1: mtu was 9000 on the archive server",
+                "reply 2: mtu was 9000 on the archive server",
                 "",
                 "quit",
                 "model",

@@ -48,6 +48,8 @@ def _still_to_come() -> list[str]:
     """The ids docs/snapshot-format.md says this release does not answer yet."""
     said = DOCS.read_text().split("**This release.**", 1)[1].split("\n\n", 1)[0]
     said = " ".join(said.split())
+    if "listed here is never answered):" not in said:
+        return []
     listed = said.split("listed here is never answered):", 1)[1].split(".", 1)[0]
     return re.findall(r"`([a-z_]+)`", listed)
 
@@ -78,8 +80,8 @@ def test_the_states_before_the_tree_are_answered_before_it() -> None:
 
 
 def test_an_id_no_module_declares_is_refused() -> None:
-    with pytest.raises(ValueError, match="'pause_flood' is not a verdict"):
-        kind_of("pause_flood")
+    with pytest.raises(ValueError, match="'tx_fault' is not a verdict"):
+        kind_of("tx_fault")
 
 
 @pytest.mark.parametrize("verdict", VERDICTS)

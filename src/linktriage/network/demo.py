@@ -50,7 +50,7 @@ PLANTED: tuple[DemoPort, ...] = tuple(
     DemoPort(
         kind.demo.site,
         kind.demo.device,
-        kind.demo.port,
+        port,
         kind.demo.serves,
         kind.verdict,
         dict(kind.demo.parameters),
@@ -58,6 +58,7 @@ PLANTED: tuple[DemoPort, ...] = tuple(
     )
     for kind in KINDS
     if kind.demo is not None
+    for port in (kind.demo.port, *kind.demo.also)
 )
 
 #: Ports on devices other than switches, at the far end of a demo link.
@@ -242,7 +243,9 @@ def _parameters(ports: list[DemoPort], rng: np.random.Generator) -> pd.DataFrame
     background = [row for row, p in enumerate(ports) if p.planted is None]
     quiet_line = {
         "half_duplex": 0.0, "mtu": 1500.0, "rx_ber": 1e-13, "burst_errors": 0.0,
-        "link_changes": 0.0, "stray_giants": 0.0,
+        "link_changes": 0.0, "stray_giants": 0.0, "in_discard_ratio": 0.0,
+        "out_discard_ratio": 0.0, "in_pause_fps": 0.0, "media_reported": True,
+        "duplex_reported": True,
     }  # fmt: skip
     for key, value in {**COPPER_1G, **quiet_line}.items():
         params.loc[background, key] = value

@@ -58,7 +58,8 @@ def card_text(card: dict[str, Any]) -> str:
             f"  cross-validated macro-F1 {t['cv_macro_f1']:.3f} +/- {t['cv_macro_f1_se']:.3f} "
             f"({t['folds']} folds; best {t['best_cv_macro_f1']:.3f} "
             f"at ccp_alpha {t['best_ccp_alpha']:.3g})",
-            f"  healthy ports called faulty: {sig(t['healthy_false_alarm'] * 100)}%",
+            f"  healthy ports the tree alone calls faulty (cross-validated, before the physics "
+            f"rules and guards): {sig(t['healthy_false_alarm'] * 100)}%",
             f"  recall per class: {recall}",
             f"  features that matter: {important}",
             f"  guards: a clean port is judged once its frames bound the error ratio at "

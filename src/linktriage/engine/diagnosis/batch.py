@@ -14,6 +14,7 @@ import numpy.typing as npt
 
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.answers import (
+    AggregateRecord,
     BitErrorRecord,
     DiagnosisRecord,
     EvidenceRecord,
@@ -34,6 +35,8 @@ from linktriage.engine.physics import Allowed
 from linktriage.engine.verdict_kit.ends import LinkView
 from linktriage.engine.verdict_kit.readings import PortGroup, item
 from linktriage.engine.verdicts import GUARD_KINDS, TREE, kind_of
+from linktriage.engine.verdicts.admin_down import ADMIN_DOWN
+from linktriage.engine.verdicts.healthy import HEALTHY
 from linktriage.gc_pause import gc_paused
 
 #: Ports whose records are worded together: enough to share the work of a verdict's words,
@@ -79,16 +82,17 @@ class _Line(msgspec.Struct, gc=False):
     polls: int
     bit_errors: BitErrorRecord | None
     note: str | None
+    aggregate: AggregateRecord | msgspec.UnsetType = msgspec.UNSET
 
 
-class _LinkedLine(_Line, gc=False):
+class _LinkedLine(_Line, gc=False, kw_only=True):
     """A line whose far end is in the same input: the far end and the link, after."""
 
     far_end: FarEndRecord
     link: LinkRecord
 
 
-class _DecidedLine(_LinkedLine, gc=False):
+class _DecidedLine(_LinkedLine, gc=False, kw_only=True):
     """A line whose verdict the link decided: this end's own answer kept, after."""
 
     own_view: OwnViewRecord
@@ -209,16 +213,70 @@ class DiagnosisBatch:
             )
         )
         lines: list[_Line] = []
+        aggregates = self._aggregates(rows)
         for i, e, n in zip(rows, evidence, nearest, strict=True):
             asked_json = questions.get(i)
             if asked_json is None:  # a guard answered: the question it asked
                 asked_json = _encode([GUARD_KINDS[self.verdict[i]].question(self, i)])
             link = links.get(i)
             if link is not None and self.decides(i):
-                lines.append(self._decided_line(i, e, msgspec.Raw(asked_json), n, link))
+                line = self._decided_line(i, e, msgspec.Raw(asked_json), n, link)
             else:
-                lines.append(self._line(i, e, msgspec.Raw(asked_json), n, link))
+                line = self._line(i, e, msgspec.Raw(asked_json), n, link)
+            if i in aggregates:
+                line.aggregate = aggregates[i]
+            lines.append(line)
         return lines
+
+    def _aggregates(self, rows: list[int]) -> dict[int, AggregateRecord]:
+        """The aggregate of each row that is a member of one whose other members are in the
+        batch (one pass over the batch's members, only where the input names aggregates)."""
+        names = self.windows.extra["aggregate"].tolist()
+        wanted = [i for i in rows if names[i] is not None]
+        if not wanted:
+            return {}
+        members: dict[tuple[str, str], list[int]] = {}
+        for j, name in enumerate(names):
+            if name is not None:
+                members.setdefault((self.device[j], name), []).append(j)
+        out: dict[int, AggregateRecord] = {}
+        made: dict[tuple[str, str], AggregateRecord] = {}
+        for i in wanted:
+            key = (self.device[i], names[i])
+            group = members[key]
+            if len(group) < 2:
+                continue
+            record = made.get(key)
+            if record is None:
+                record = made[key] = self._aggregate(key[1], group)
+            out[i] = record
+        return out
+
+    def _aggregate(self, name: str, group: list[int]) -> AggregateRecord:
+        """One aggregate's record: a member that is not up, is silent or errs while its
+        siblings are healthy is named, whatever its own verdict (SNAPSHOT-FORMAT 1.2)."""
+        verdicts = [self.link_verdict(j) for j in group]
+        carrying = [j for j, v in zip(group, verdicts, strict=True) if v == HEALTHY]
+        weak = [
+            (j, v) for j, v in zip(group, verdicts, strict=True) if v not in (HEALTHY, ADMIN_DOWN)
+        ]
+        if weak and carrying:
+            named = ", ".join(f"{self.port[j]} ({kind_of(v).title})" for j, v in weak)
+            said = (
+                f"{named}: {len(carrying)} of {len(group)} members carry the load of {name}, "
+                "with less capacity and redundancy than it was built with"
+            )
+        elif weak:
+            said = f"no member of {name} is healthy"
+        else:
+            said = f"every member of {name} read here is healthy"
+        return {
+            "name": name,
+            "members": [
+                {"port": self.port[j], "verdict": v} for j, v in zip(group, verdicts, strict=True)
+            ],
+            "said": said,
+        }
 
     def _links(
         self, rows: list[int], evidence: list[list[EvidenceRecord]]

@@ -70,10 +70,13 @@ def diagnose_chunks(
     max_window_s: float = DEFAULT_MAX_WINDOW_S,
     ports: int = CHUNK_PORTS,
 ) -> Iterator[DiagnosisBatch]:
-    """The diagnoses :func:`diagnose` gives, ``ports`` ports at a time, so that a large file
-    is diagnosed and written in little more memory than its polls. Ports come in the order
-    :func:`diagnose` gives them, except that both ends of a link (LLDP) are diagnosed in
-    the chunk of the end that came first, so that each answer carries its far end."""
+    """The diagnoses :func:`diagnose` gives, ``ports`` ports at a time (more where one
+    device has more), so that a large file is diagnosed and written in little more memory
+    than its polls. Every port of a device is diagnosed in one chunk, so that an answer that
+    looks across ports (a loop seen on several ports of one device) sees them all, and both
+    ends of a link (LLDP) in the chunk of the end that came first, so that each answer
+    carries its far end (that end then leaves its device's chunk). Devices come in the order
+    their first port does, each device's ports in the order :func:`diagnose` gives them."""
     codes, count = port_codes(polls)
     if count <= ports:
         yield diagnose(polls, model, max_window_s=max_window_s)
@@ -90,23 +93,35 @@ def diagnose_chunks(
 def _chunks_of_ports(
     polls: PollTable, codes: npt.NDArray[np.intp], count: int, ports: int
 ) -> npt.NDArray[np.intp]:
-    """Each port's chunk: ``ports`` ports at a time in order of first appearance, a port
-    whose far end is in the file placed next to whichever end came first."""
-    lead = np.arange(count)
-    if not (polls.neighbor_device != None).any():  # noqa: E711 (elementwise, on objects)
-        return lead // ports
+    """Each port's chunk: the ports of a device together, in order of the device's first
+    port, a port whose far end is in the file placed with whichever end came first; groups
+    packed into chunks of about ``ports`` ports, never split."""
     last = np.empty(count, np.intp)
     last[codes] = np.arange(len(codes))  # one row of each port, to read its names from
-    far = pair_ends(
-        polls.device[last].tolist(),
-        polls.port[last].tolist(),
-        polls.neighbor_device[last].tolist(),
-        polls.neighbor_port[last].tolist(),
-    )
-    lead = np.where(far >= 0, np.minimum(lead, far), lead)
-    position = np.empty(count, np.intp)
-    position[np.argsort(lead, kind="stable")] = np.arange(count)
-    return np.asarray(position[lead] // ports, np.intp)
+    _, device_of = np.unique(polls.device[last], return_inverse=True)
+    first = np.full(int(device_of.max()) + 1, count, np.intp)
+    np.minimum.at(first, device_of, np.arange(count))
+    lead = first[device_of]
+    if (polls.neighbor_device != None).any():  # noqa: E711 (elementwise, on objects)
+        far = pair_ends(
+            polls.device[last].tolist(),
+            polls.port[last].tolist(),
+            polls.neighbor_device[last].tolist(),
+            polls.neighbor_port[last].tolist(),
+        )
+        lead = np.where(far >= 0, np.minimum(lead, lead[np.maximum(far, 0)]), lead)
+    order = np.argsort(lead, kind="stable")
+    group_start = np.flatnonzero(np.r_[True, lead[order][1:] != lead[order][:-1]])
+    sizes = np.diff(np.r_[group_start, count]).tolist()
+    chunk_of_group, chunk, filled = [], 0, 0
+    for size in sizes:  # one step per device: greedy packing, a group never split
+        if filled and filled + size > ports:
+            chunk, filled = chunk + 1, 0
+        chunk_of_group.append(chunk)
+        filled += size
+    chunk_of = np.empty(count, np.intp)
+    chunk_of[order] = np.repeat(np.array(chunk_of_group, np.intp), sizes)
+    return chunk_of
 
 
 def _diagnose(polls: PollTable, model: Model, max_window_s: float) -> DiagnosisBatch:

@@ -82,6 +82,23 @@ class FarEndRecord(TypedDict):
     evidence: list[EvidenceRecord]
 
 
+class MemberRecord(TypedDict):
+    """One member of a link aggregate, as diagnosed from the same input."""
+
+    port: str
+    verdict: str
+
+
+class AggregateRecord(TypedDict):
+    """The link aggregate (IEEE 802.1AX) a port is a member of, where other members are in
+    the same input: its name, every member's verdict, and what the members show together (a
+    member down, silent or erroring while its siblings carry the load). Since format 1.2."""
+
+    name: str
+    members: list[MemberRecord]
+    said: str
+
+
 class LinkRecord(TypedDict):
     """The link judged from both ends (:mod:`linktriage.engine.links`): its verdict, why, and the
     checks, each naming the end it applies to."""
@@ -126,3 +143,4 @@ class DiagnosisRecord(TypedDict):
     far_end: NotRequired[FarEndRecord]  # only where the far end is in the same input
     link: NotRequired[LinkRecord]
     own_view: NotRequired[OwnViewRecord]  # only where the link's verdict is not this end's own
+    aggregate: NotRequired[AggregateRecord]  # only where other members are in the same input

@@ -35,11 +35,13 @@ from linktriage.engine.format.counters import (
 )
 from linktriage.engine.format.poll_table import FloatArray
 from linktriage.engine.measure.columns import Columns
+from linktriage.engine.measure.fec import UNCORRECTABLE_SHARE, codewords, high_pre_fec_ber
 from linktriage.engine.measure.phy import (
     HALF_DUPLEX_MAX_BPS,
     RX_SENSITIVITY_DBM,
     estimate_ber,
     frame_error_ratio,
+    max_rx_dbm,
     objective_for,
 )
 from linktriage.engine.measure.window import WindowTable
@@ -363,14 +365,20 @@ def measure(w: WindowTable) -> Measured:
         1.0,
         np.where(~np.isnan(alarm), 2.0, np.where(np.isnan(floor), np.nan, 3.0)),
     )
-    link_changes = np.where(np.isnan(w.link_changes), w.status_changes, w.link_changes)
+    # Where the device counts no changes, each move of ifLastChange between polls that found
+    # the port in the same state is a down and an up (format 1.2), beside the flips seen.
+    moved = np.fmax(2.0 * w.last_change_moves, w.status_changes)
+    link_changes = np.where(np.isnan(w.link_changes), moved, w.link_changes)
 
+    expected, limited_by = _expected_speed(w)
     table = Columns(
         {
             "window_s": window_s,
             "speed_bps": speed,
             "max_speed_bps": st["max_speed_bps"],
-            "speed_ratio": _ratio(speed, st["max_speed_bps"]),
+            "speed_ratio": _ratio(speed, expected),
+            "expected_speed_bps": expected,
+            "speed_limited_by": limited_by,
             "half_duplex": st["half_duplex"],
             # Collisions happen only in half duplex: counted, they show it whatever the
             # duplex state says (or where it says nothing).
@@ -449,18 +457,69 @@ def measure(w: WindowTable) -> Measured:
             "bias_ma": optics["bias_ma"],
             "has_optics": has_optics.astype(np.float64),
             "link_changes": link_changes,
-            **_since_1_2(w, d),
+            **_since_1_2(w, d, speed, rx_pkts),
         }
     )
     return Measured(table, faults)
 
 
-def _since_1_2(w: WindowTable, d: dict[str, FloatArray]) -> dict[str, FloatArray]:
+def _since_1_2(
+    w: WindowTable, d: dict[str, FloatArray], speed: FloatArray, rx_pkts: FloatArray
+) -> dict[str, FloatArray]:
     """The readings format 1.2 adds, as they were read (NaN where not): the port's admin
     state and last change, what the module and the far end support, FEC, pause frames and
-    Power over Ethernet, and the light thresholds and lane extremes of an optic."""
+    Power over Ethernet, and the light thresholds and lane extremes of an optic; and what
+    they measure: the pre-FEC bit error ratio against the code's high level, the share of
+    time received pause frames can hold the transmitter off, broadcasts per second, and the
+    strongest light against the receiver's most."""
     st, optics = w.state, w.optics
+    window_s = w.window_s
+    line_bits = speed * window_s
+    mode = st["fec_mode"]
+    has_fec = np.where(np.isnan(mode), np.nan, (mode > 0).astype(np.float64))
+    # Corrected bits are the pre-FEC errors; corrected blocks, at least one bit each.
+    from_bits = d["fec_corrected_bits"]
+    errored_bits = np.where(np.isnan(from_bits), d["fec_corrected_blocks"], from_bits)
+    limit = high_pre_fec_ber(mode)
+    pre_fec = _ratio(errored_bits, line_bits)
+    carried = codewords(mode, line_bits)
+    lost = d["fec_uncorrectable_blocks"]
+    # A pause frame holds the transmitter off for at most 65,535 quanta of 512 bit times
+    # (IEEE 802.3 annex 31B): the share of the window received pause frames can hold.
+    pause_share = np.minimum(
+        _ratio(d["in_pause"] * PAUSE_QUANTA * PAUSE_QUANTUM_BITS, line_bits), 1.0
+    )
+    rx_max = np.fmax(optics["rx_power_max_dbm"], optics["rx_power_dbm"])
+    high = optics["rx_power_high_warn_dbm"]
+    high = np.where(np.isnan(high), optics["rx_power_high_alarm_dbm"], high)
+    pmd_most = _pmd_max_rx(w.extra["pmd"], speed, ~np.isnan(rx_max))
+    high_kind = np.where(
+        ~np.isnan(optics["rx_power_high_warn_dbm"]),
+        1.0,
+        np.where(~np.isnan(optics["rx_power_high_alarm_dbm"]), 2.0,
+                 np.where(np.isnan(pmd_most), np.nan, 3.0)),
+    )  # fmt: skip
+    high = np.where(np.isnan(high), pmd_most, high)
     return {
+        "has_fec": has_fec,
+        "pre_fec_ber": pre_fec,
+        "pre_fec_from_bits": np.where(np.isnan(from_bits), 0.0, 1.0),
+        "fec_errored_bits": errored_bits,
+        "pre_fec_limit": limit,
+        "pre_fec_ratio": _ratio(pre_fec, limit),
+        "fec_codewords": carried,
+        "fec_lost": lost,
+        "fec_lost_ratio": _ratio(lost, carried),
+        "fec_lost_over": (
+            (lost >= MIN_ERROR_FRAMES) & ratio_over(lost, carried, UNCORRECTABLE_SHARE)
+        ).astype(np.float64),
+        "pause_share": pause_share,
+        "rx_bcast_fps": _ratio(d["in_bcast"], window_s),
+        "rx_mcast_fps": _ratio(d["in_mcast"], window_s),
+        "rx_bcast_share": _ratio(d["in_bcast"], rx_pkts),
+        "rx_high_dbm": high,
+        "rx_high_kind": high_kind,  # 1: the module's high warning, 2: its alarm, 3: the PMD's
+        "overload_margin_db": rx_max - high,
         "admin_down": st["admin_down"],
         "last_change": st["last_change"],
         "last_change_moves": w.last_change_moves,
@@ -491,3 +550,53 @@ def _since_1_2(w: WindowTable, d: dict[str, FloatArray]) -> dict[str, FloatArray
         "bias_low_alarm_ma": optics["bias_low_alarm_ma"],
         "bias_min_ma": np.fmin(optics["bias_min_ma"], optics["bias_ma"]),
     }
+
+
+def _expected_speed(w: WindowTable) -> tuple[FloatArray, FloatArray]:
+    """The speed a port should come up at: the highest its port, its module and the far end
+    all support, where each is known (SNAPSHOT-FORMAT 1.2: a 1 Gb/s module in a 10 Gb/s cage,
+    or a far end that offers only 2.5 Gb/s, is a design), and which of them sets it (0 the
+    port, 1 its module, 2 the far end). An aggregate's own interface (IEEE 802.1AX; the sum
+    of its members) has none: its speed is no speed drop."""
+    st = w.state
+    port, module, far = (
+        st["max_speed_bps"],
+        st["module_max_speed_bps"],
+        st["neighbor_max_speed_bps"],
+    )
+    # Without the port's own top speed there is nothing to fall short of.
+    expected = np.where(np.isnan(port), np.nan, np.fmin(np.fmin(port, module), far))
+    limited_by = np.where(
+        expected == far,
+        2.0,
+        np.where(expected == module, 1.0, np.where(expected == port, 0.0, np.nan)),
+    )
+    limited_by = np.where((expected == port) & (limited_by > 0), 0.0, limited_by)
+    aggregates = w.extra["aggregate"]
+    if any(a is not None for a in aggregates.tolist()):
+        devices = w.device.tolist()
+        named = {(d, a) for d, a in zip(devices, aggregates.tolist(), strict=True) if a}
+        whole = np.array([(d, p) in named for d, p in zip(devices, w.port.tolist(), strict=True)])
+        expected = np.where(whole, np.nan, expected)
+    return expected, limited_by
+
+
+#: IEEE 802.3 annex 31B: pause_time is counted in quanta of 512 bit times, at most 65,535.
+PAUSE_QUANTA = 65_535.0
+PAUSE_QUANTUM_BITS = 512.0
+
+
+def _pmd_max_rx(
+    pmd: npt.NDArray[np.object_], speed: FloatArray, light: npt.NDArray[np.bool_]
+) -> FloatArray:
+    """The most light the receiver of each port with a light reading takes (its PMD's,
+    else its speed's most permissive), worked out once per distinct pair; NaN elsewhere."""
+    out = np.full(len(speed), np.nan)
+    pairs: dict[tuple[str | None, float], float] = {}
+    for i in np.flatnonzero(light).tolist():
+        key = (pmd[i], float(speed[i]))
+        value = pairs.get(key)
+        if value is None:
+            value = pairs[key] = max_rx_dbm(*key)
+        out[i] = value
+    return out

@@ -99,6 +99,54 @@ RX_SENSITIVITY_DBM: dict[int, tuple[str, float]] = {
 }
 
 
+#: The most light a receiver of each PMD takes without overload (maximum average receive
+#: power, dBm, IEEE 802.3 PMD tables; all from memory, M: check against the clause before
+#: relying on one): 1000BASE-SX 0 (clause 38), 1000BASE-LX -3 (clause 38), 10GBASE-SR -1.0,
+#: 10GBASE-LR 0.5, 10GBASE-ER -1.0 (clause 52), 25GBASE-SR 2.4 (clause 112), 25GBASE-LR 2.0,
+#: 40GBASE-SR4 2.4 per lane (clause 86), 40GBASE-LR4 2.3 per lane (clause 87), 100GBASE-SR4
+#: 2.4 per lane (clause 95), 100GBASE-LR4 4.5 per lane (clause 88), 100GBASE-DR 4.0
+#: (clause 140), 400GBASE-DR4 4.0 per lane (clause 124), 400GBASE-FR4 3.5 per lane (clause
+#: 151).
+PMD_MAX_RX_DBM: dict[str, float] = {
+    "1000BASE-SX": 0.0,
+    "1000BASE-LX": -3.0,
+    "10GBASE-SR": -1.0,
+    "10GBASE-LR": 0.5,
+    "10GBASE-ER": -1.0,
+    "25GBASE-SR": 2.4,
+    "25GBASE-LR": 2.0,
+    "40GBASE-SR4": 2.4,
+    "40GBASE-LR4": 2.3,
+    "100GBASE-SR4": 2.4,
+    "100GBASE-LR4": 4.5,
+    "100GBASE-DR": 4.0,
+    "400GBASE-DR4": 4.0,
+    "400GBASE-FR4": 3.5,
+}
+#: Where the PMD is not read: the most permissive PMD of the speed, so that light is called
+#: too strong only where it is too strong for every receiver the port could have.
+MOST_PERMISSIVE_MAX_RX_DBM: dict[int, float] = {
+    _G: 0.0,
+    10 * _G: 0.5,
+    25 * _G: 2.4,
+    40 * _G: 2.4,
+    100 * _G: 4.5,
+    400 * _G: 4.0,
+}
+
+
+def max_rx_dbm(pmd: str | None, speed_bps: float) -> float:
+    """The most light the port's receiver takes: its PMD's, else the most permissive of
+    its speed; NaN where neither is known."""
+    if pmd is not None:
+        known = PMD_MAX_RX_DBM.get(pmd.strip().upper())
+        if known is not None:
+            return known
+    if speed_bps != speed_bps:
+        return float("nan")
+    return MOST_PERMISSIVE_MAX_RX_DBM.get(int(speed_bps), float("nan"))
+
+
 def phy_name(speed_bps: float, fiber: bool | None) -> str | None:
     """The Ethernet PHY family a port most likely runs, from its speed and medium."""
     if not speed_bps > 0:  # also NaN

@@ -67,6 +67,23 @@ NEAR_TX_DB = 1.0
 HOT_C = 70.0
 
 
+#: Received pause frames are a flood where they could hold the transmitter off this share of
+#: the window or more (their upper bound, frames x 65,535 quanta x 512 bit times over the
+#: line's bits: the format carries no pause times, and a pause of time zero, which releases
+#: the transmitter, counts as a frame too), from MIN_EVENTS frames. A port flow-controlled
+#: now and then in bursts stays far below; a tenth of the time off is a far end that cannot
+#: keep up (common practice, a judgement SNAPSHOT-FORMAT 1.2 leaves to the implementer).
+PAUSE_SHARE = 0.1
+#: A broadcast storm: broadcasts arriving at STORM_BCAST_FPS or more and STORM_BCAST_SHARE
+#: or more of the frames received. An office LAN carries a few to a few tens of broadcasts a
+#: second (ARP, DHCP, discovery); a thousand a second is a flood every host on the VLAN must
+#: process, and a loop replicates broadcasts without end (common practice). Multicast is
+#: not counted: a steady multicast stream (video, a market feed) is a look-alike, not a
+#: storm; the answer shows it.
+STORM_BCAST_FPS = 1000.0
+STORM_BCAST_SHARE = 0.2
+
+
 def _ge(values: FloatArray, least: float) -> BoolArray:
     return np.asarray(values >= least, np.bool_)  # NaN: False
 
@@ -92,6 +109,13 @@ class Signs:
     hot: BoolArray
     silent: BoolArray
     congested: BoolArray
+    # since format 1.2
+    real_errors: BoolArray  # errors beyond the frames each change of a flapping link cuts
+    fec: BoolArray  # pre-FEC errors over the code's high level, or uncorrectable codewords
+    overload: BoolArray  # light above the receiver's high warning or alarm, or its PMD's most
+    bias_out: BoolArray  # laser bias outside the module's alarm thresholds
+    pause: BoolArray
+    storm: BoolArray
 
     @classmethod
     def read(cls, m: Columns) -> Signs:
@@ -101,8 +125,7 @@ class Signs:
         fps_known = ~np.isnan(m["rx_fps"]) & ~np.isnan(m["tx_fps"])
         return cls(
             enough_frames=(m["rx_frames"] >= m["frames_needed"]),
-            errors=(m["ber_floor"] > m["objective"])
-            & (m["ber"] >= FAULT_TIMES_OBJECTIVE * m["objective"]),
+            errors=_errors(m),
             flapping=_ge(m["link_changes"], FLAPPING_CHANGES),
             late=_ge(m["late_collisions"], MIN_COLLISIONS),
             runts=_ge(m["runts"], MIN_EVENTS) & (rx_errors >= MIN_EVENTS),
@@ -118,6 +141,14 @@ class Signs:
             hot=(m["temperature_c"] > HOT_C),
             silent=fps_known & one_way(quiet, busy, m["window_s"], _busy_unicast(m)),
             congested=_congested(m),
+            real_errors=_real_errors(m),
+            fec=_fec(m),
+            overload=(m["overload_margin_db"] > 0.0),
+            bias_out=(m["bias_ma"] > m["bias_high_alarm_ma"])
+            | (m["bias_min_ma"] < m["bias_low_alarm_ma"]),
+            pause=_ge(m["in_pause"], MIN_EVENTS) & _ge(m["pause_share"], PAUSE_SHARE),
+            storm=_ge(m["rx_bcast_fps"], STORM_BCAST_FPS)
+            & _ge(m["rx_bcast_share"], STORM_BCAST_SHARE),
         )
 
 
@@ -167,3 +198,27 @@ def _cut_frames(m: Columns) -> BoolArray:
     )
     eligible &= crc >= MIN_EVENTS  # a share needs errors enough to be one, as runts do
     return np.asarray(cut & eligible, np.bool_)
+
+
+def _errors(m: Columns) -> BoolArray:
+    return np.asarray(
+        (m["ber_floor"] > m["objective"]) & (m["ber"] >= FAULT_TIMES_OBJECTIVE * m["objective"]),
+        np.bool_,
+    )
+
+
+def _real_errors(m: Columns) -> BoolArray:
+    """Errors beyond the frames a flapping link's drops cut short: at most one frame in
+    flight per change of state (SNAPSHOT-FORMAT 1.2, link_flapping)."""
+    flapping = _ge(m["link_changes"], FLAPPING_CHANGES)
+    cut_by_drops = flapping & (m["rx_errors"] <= m["link_changes"])
+    return np.asarray(_errors(m) & ~cut_by_drops, np.bool_)
+
+
+def _fec(m: Columns) -> BoolArray:
+    """Pre-FEC errors over the code's high level (from corrected bits, or from MIN_EVENTS
+    corrected blocks or more, a lower bound), or uncorrectable codewords the test shows."""
+    over = _ge(m["pre_fec_ratio"], 1.0) & (
+        (m["pre_fec_from_bits"] == 1.0) | _ge(m["fec_errored_bits"], MIN_EVENTS)
+    )
+    return np.asarray((m["has_fec"] == 1.0) & (over | (m["fec_lost_over"] == 1.0)), np.bool_)

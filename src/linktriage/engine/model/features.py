@@ -26,7 +26,7 @@ import numpy.typing as npt
 
 from linktriage.engine.format.poll_table import FloatArray
 from linktriage.engine.measure.columns import Columns
-from linktriage.engine.measure.measures import MIN_COLLISIONS, MIN_EVENTS
+from linktriage.engine.measure.measures import MIN_COLLISIONS, MIN_ERROR_FRAMES, MIN_EVENTS
 
 
 @dataclass(frozen=True, slots=True)
@@ -55,6 +55,13 @@ FEATURES: tuple[Feature, ...] = (
     Feature("quiet_fps", "log_fps", 9.0, -3.0, 9.0),
     Feature("discard_ratio", "log_ratio", -13.0, -13.0, 0.0),
     Feature("discard_utilisation", "share", 0.0, 0.0, 1.0),
+    # since format 1.2
+    Feature("pre_fec_over_high", "times", -4.0, -4.0, 8.0),
+    Feature("fec_lost_ratio", "log_ratio", -13.0, -13.0, 0.0),
+    Feature("overload_margin_db", "db", -20.0, -20.0, 20.0),
+    Feature("pause_share", "share", 0.0, 0.0, 1.0),
+    Feature("broadcast_fps", "log_fps", -3.0, -3.0, 9.0),
+    Feature("broadcast_share", "share", 0.0, 0.0, 1.0),
 )
 FEATURE_NAMES: tuple[str, ...] = tuple(f.name for f in FEATURES)
 FEATURE_KIND: dict[str, str] = {f.name: f.kind for f in FEATURES}
@@ -107,6 +114,20 @@ def feature_rows(m: Columns) -> FeatureRows:
         "quiet_fps": _log10(quiet),
         "discard_ratio": _log10(_counted(m["discard_ratio"], m["discards"], MIN_EVENTS)),
         "discard_utilisation": m["discard_util"],
+        # Pre-FEC errors against the code's high level: from corrected bits, or from blocks
+        # enough to be more than a few (a lower bound).
+        "pre_fec_over_high": _log10(
+            np.where(
+                m["pre_fec_from_bits"] == 1.0,
+                m["pre_fec_ratio"],
+                _counted(m["pre_fec_ratio"], m["fec_errored_bits"], MIN_EVENTS),
+            )
+        ),
+        "fec_lost_ratio": _log10(_counted(m["fec_lost_ratio"], m["fec_lost"], MIN_ERROR_FRAMES)),
+        "overload_margin_db": m["overload_margin_db"],
+        "pause_share": _counted(m["pause_share"], m["in_pause"], MIN_EVENTS),
+        "broadcast_fps": _log10(m["rx_bcast_fps"]),
+        "broadcast_share": m["rx_bcast_share"],
     }
     values = {}
     reported = {}

@@ -80,6 +80,30 @@ QUESTIONS: dict[str, tuple[str, str]] = {
         "The direction with the most discards running above {t} of line rate?",
         "The direction with the most discards running between {lo} and {hi} of line rate?",
     ),
+    "pre_fec_over_high": (
+        "Pre-FEC bit error ratio over {t} the level its code calls high?",
+        "Pre-FEC bit error ratio between {lo} and {hi} the level its code calls high?",
+    ),
+    "fec_lost_ratio": (
+        "Codewords FEC could not correct, more than {t} of those carried?",
+        "Codewords FEC could not correct, between {lo} and {hi} of those carried?",
+    ),
+    "overload_margin_db": (
+        "Received light more than {t} above the receiver's high threshold?",
+        "Received light between {lo} and {hi} above the receiver's high threshold?",
+    ),
+    "pause_share": (
+        "Received pause frames able to hold the transmitter off more than {t} of the time?",
+        "Received pause frames able to hold the transmitter off between {lo} and {hi} of the time?",
+    ),
+    "broadcast_fps": (
+        "Broadcasts received at more than {t}?",
+        "Broadcasts received at between {lo} and {hi}?",
+    ),
+    "broadcast_share": (
+        "Broadcasts more than {t} of the frames received?",
+        "Broadcasts between {lo} and {hi} of the frames received?",
+    ),
 }
 #: A split this low on a per-frame ratio only asks whether the events were counted at all
 #: (a ratio of fewer events than make evidence reads as none): 1e-9 per frame is ten events
@@ -119,6 +143,12 @@ CHANGES: dict[str, str] = {
     "quiet_fps": "the quieter direction carrying {dir} {t}",
     "discard_ratio": "discards {dir} {t} frames, in the direction with the most",
     "discard_utilisation": "the direction with the most discards running {dir} {t} of line rate",
+    "pre_fec_over_high": "the pre-FEC bit error ratio {dir} {t} its code's high level",
+    "fec_lost_ratio": "uncorrectable codewords {dir} {t} of those carried",
+    "overload_margin_db": "received light {dir} {t} over the receiver's high threshold",
+    "pause_share": "pause frames able to hold the transmitter off {dir} {t} of the time",
+    "broadcast_fps": "broadcasts received {dir} {t}",
+    "broadcast_share": "broadcasts {dir} {t} of the frames received",
 }
 #: Changes that read as a state rather than a threshold, (above, below): a flag, and a
 #: per-frame ratio split below ANY_BELOW (which only asks whether events were counted).

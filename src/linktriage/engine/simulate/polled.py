@@ -102,6 +102,8 @@ class PortConstants:
             p["rmon"].to_numpy(np.bool_),
             _column(p, "symbol_mode", 0.0, n),
             _column(p, "poe", 0.0, n) == 1.0,
+            _column(p, "fec_mode", np.nan, n).astype(float) > 0,
+            _column(p, "fec_bits_reported", False, n).astype(bool),
         )
         return cls(starts, lc0, disc, reported)
 
@@ -155,6 +157,13 @@ class PortConstants:
                 "fiber": np.where(media_known, p["fiber"].to_numpy(np.float64), np.nan),
                 "poe": p["poe"].to_numpy(np.float64),
                 "admin_down": admin_down.astype(np.float64),
+                "fec_mode": _column(p, "fec_mode", np.nan, n).astype(np.float64),
+                "module_max_speed_bps": _column(p, "module_max_speed_bps", np.nan, n).astype(
+                    np.float64
+                ),
+                "neighbor_max_speed_bps": _column(p, "neighbor_max_speed_bps", np.nan, n).astype(
+                    np.float64
+                ),
                 **_poe_status(p, down | admin_down),
             },
             optics=_optics_readings(p, rng),
@@ -185,15 +194,21 @@ def _poe_status(p: pd.DataFrame, down: np.ndarray) -> dict[str, np.ndarray]:
     }
 
 
-#: The counters the simulator draws: those of format 1.1, and Power over Ethernet's (RFC
-#: 3621, on PoE ports only); pause and FEC wait for the verdicts that read them.
-SIMULATED = tuple(q for q in QUANTITIES if q.since != "1.2" or q.key.startswith("poe_"))
+#: The counters the simulator draws: every one of the catalogue (Power over Ethernet's on PoE
+#: ports, pause frames beside the EtherLike table, FEC's on ports that run FEC).
+SIMULATED = QUANTITIES
 #: The device's words for a port it shut itself, in the simulated network (invented).
 DISABLED_REASON = "bpdu guard: spanning-tree frame on an edge port"
 
 
 def _reported_columns(
-    hc: np.ndarray, dot3: np.ndarray, rmon: np.ndarray, symbol_mode: np.ndarray, poe: np.ndarray
+    hc: np.ndarray,
+    dot3: np.ndarray,
+    rmon: np.ndarray,
+    symbol_mode: np.ndarray,
+    poe: np.ndarray,
+    fec: np.ndarray,
+    fec_bits: np.ndarray,
 ) -> np.ndarray:
     """Which counter names each simulated device reports."""
     n = len(hc)
@@ -206,6 +221,12 @@ def _reported_columns(
             continue  # the dot3 HC table is rare in the field
         if c.name.startswith("pethPse"):
             present[:, j] = poe
+        elif c.name in ("dot3InPauseFrames", "dot3OutPauseFrames"):
+            present[:, j] = dot3
+        elif c.name in ("aFECCorrectedBlocks", "aFECUncorrectableBlocks"):
+            present[:, j] = fec
+        elif c.name == "FECCorrectedBits":
+            present[:, j] = fec & fec_bits
         elif c.name == "dot3StatsSymbolErrors":
             present[:, j] = dot3 & (symbol_mode != 1)
         elif c.name.startswith("dot3"):
@@ -377,13 +398,18 @@ def window_counts(p: pd.DataFrame, draw: Draw | Expect, dt: np.ndarray) -> dict[
     excessive = draw.binomial(coll - single, np.full(n, 0.02))
     multiple = coll - single - excessive
     nonunicast_in = np.clip(_column(p, "rx_bcast_share", 0.05, n), 0.0, 1.0)
+    mcast_part = np.clip(_column(p, "rx_mcast_part", 0.5, n).astype(float), 0.0, 1.0)
+    speed_bits = speed * dt
+    corrected = draw.poisson(speed_bits * _column(p, "pre_fec_ber", 0.0, n).astype(float))
+    fec_mode = _column(p, "fec_mode", np.nan, n).astype(float)
+    carried = np.where(fec_mode > 0, speed_bits / 5140.0, 0.0)
     mcast_out = draw.uniform(0.005, 0.05, n)
     return {
         "in_octets": rx_pkts * p["rx_frame_octets"].to_numpy(),
         "out_octets": tx_pkts * p["tx_frame_octets"].to_numpy(),
         "in_ucast": rx_pkts * (1 - nonunicast_in),
-        "in_mcast": rx_pkts * nonunicast_in / 2,
-        "in_bcast": rx_pkts * nonunicast_in / 2,
+        "in_mcast": rx_pkts * nonunicast_in * mcast_part,
+        "in_bcast": rx_pkts * nonunicast_in * (1.0 - mcast_part),
         "out_ucast": tx_pkts * (1 - 2 * mcast_out),
         "out_mcast": tx_pkts * mcast_out,
         "out_bcast": tx_pkts * mcast_out,
@@ -414,6 +440,17 @@ def window_counts(p: pd.DataFrame, draw: Draw | Expect, dt: np.ndarray) -> dict[
         "poe_power_denied": np.zeros(n),
         "poe_overload": np.zeros(n),
         "poe_short": _column(p, "poe_fault", False, n).astype(float) * dt / 30.0,
+        # Pause frames received (IEEE 802.3 annex 31B), and FEC (IEEE 802.3 clause 30):
+        # corrected bits at the port's pre-FEC bit error ratio, each corrected codeword
+        # holding a bit or two, and the codewords lost.
+        "in_pause": np.floor(_column(p, "in_pause_fps", 0.0, n).astype(float) * dt),
+        "out_pause": np.zeros(n),
+        "fec_corrected_bits": corrected,
+        # at most every codeword carried
+        "fec_corrected_blocks": np.minimum(np.floor(corrected / 1.3), np.floor(carried)),
+        "fec_uncorrectable_blocks": draw.poisson(
+            carried * _column(p, "fec_lost_ratio", 0.0, n).astype(float)
+        ),
     }
 
 
@@ -437,6 +474,7 @@ def _optics_readings(p: pd.DataFrame, rng: Rng) -> dict[str, np.ndarray]:
     if "warn_offset_db" not in p:  # parameters written before warnings had their own column
         warn_offset = rng.uniform(1.0, 3.0, n)
     tx_alarm = _column(p, "tx_alarm_dbm", -11.0, n).astype(np.float64)
+    high_alarm = alarm + _column(p, "rx_span_db", 17.0, n).astype(np.float64)
     return {
         "rx_power_dbm": _as_reported(np.where(has, alarm + margin, nan)),
         "rx_power_low_alarm_dbm": np.where(thresholds, alarm, nan),
@@ -445,4 +483,10 @@ def _optics_readings(p: pd.DataFrame, rng: Rng) -> dict[str, np.ndarray]:
         "tx_power_low_alarm_dbm": np.where(thresholds, tx_alarm, nan),
         "temperature_c": np.where(has, _column(p, "temperature_c", 40.0, n), nan),
         "bias_ma": np.where(has, _column(p, "bias_ma", 20.0, n), nan),
+        "rx_power_high_alarm_dbm": np.where(thresholds, high_alarm, nan),
+        "rx_power_high_warn_dbm": np.where(
+            thresholds, high_alarm - _column(p, "high_warn_gap_db", 2.0, n).astype(float), nan
+        ),
+        "bias_high_alarm_ma": np.where(thresholds, _column(p, "bias_high_alarm_ma", 50.0, n), nan),
+        "bias_low_alarm_ma": np.where(thresholds, _column(p, "bias_low_alarm_ma", 2.0, n), nan),
     }

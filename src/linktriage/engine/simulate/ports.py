@@ -17,7 +17,11 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from linktriage.engine.format.counters import WIRE_OVERHEAD_OCTETS
-from linktriage.engine.measure.phy import RX_SENSITIVITY_DBM, objective_for
+from linktriage.engine.measure.phy import (
+    MOST_PERMISSIVE_MAX_RX_DBM,
+    RX_SENSITIVITY_DBM,
+    objective_for,
+)
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -143,6 +147,10 @@ def _sensitivity(speed: np.ndarray) -> np.ndarray:
     return np.array([known.get(int(x), np.nan) for x in speed])
 
 
+def _most_rx(speed: np.ndarray) -> np.ndarray:
+    return np.array([MOST_PERMISSIVE_MAX_RX_DBM.get(int(x), 10.0) for x in speed])
+
+
 def optics(
     p: pd.DataFrame,
     rng: Rng,
@@ -179,6 +187,23 @@ def optics(
     p["tx_alarm_dbm"] = tx - rng.uniform(3.0, 8.0, n)
     p["temperature_c"] = rng.uniform(15.0, 62.0, n)
     p["bias_ma"] = rng.uniform(4.0, 45.0, n)
+    # The module's high thresholds: its high alarm this far above its low alarm, its high
+    # warning this far under the high alarm (typical of the classes; SFF-8472 page A2h).
+    # (SFF-8472 reports at most 6.5535 mW, +8.2 dBm: a high alarm sits under it.)
+    p["rx_span_db"] = np.minimum(rng.uniform(15.0, 19.0, n), 7.0 - alarm)
+    p["high_warn_gap_db"] = rng.uniform(1.0, 3.0, n)
+    # Light in range stays a decibel or more under the receiver's high warning (with no
+    # thresholds, under the most its speed's most permissive PMD takes): over it is
+    # optic_overload, which its own signature draws.
+    most = (
+        np.where(
+            thresholds,
+            p["rx_span_db"] - p["high_warn_gap_db"],
+            _most_rx(p["speed_bps"].to_numpy()) - alarm,
+        )
+        - 1.0
+    )
+    p["rx_margin_db"] = np.minimum(p["rx_margin_db"], most)
 
 
 def base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
@@ -201,9 +226,11 @@ def base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
     ratio = np.clip(ratio, 1e-3, 1e3)
     rx_fps = rx_util * speed / ((rx_frame + WIRE_OVERHEAD_OCTETS) * 8)
     tx_util = np.minimum(rx_fps * ratio * (tx_frame + WIRE_OVERHEAD_OCTETS) * 8 / speed, 0.97)
-    storm = chance(rng, 0.03 * r.nuisance, n)
-    rx_util = np.where(storm, rng.uniform(0.3, 0.95, n), rx_util)
-    rx_frame = np.where(storm, rng.uniform(64, 120, n), rx_frame)
+    # A steady multicast stream (video, a market feed) filling most of what a port receives:
+    # the look-alike of a broadcast storm.
+    stream = chance(rng, 0.03 * r.nuisance, n)
+    rx_util = np.where(stream, rng.uniform(0.3, 0.95, n), rx_util)
+    rx_frame = np.where(stream, rng.uniform(64, 1400, n), rx_frame)
     dt = np.round(log_uniform(rng, *r.windows, n))
     # Their pollers read them within the 32-bit octet counter's wrap time (5.7 minutes at
     # 100 Mb/s, RFC 2863 section 3.1.6), or they could not measure load at all.
@@ -241,7 +268,12 @@ def base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
             "tx_util": tx_util,
             "rx_frame_octets": rx_frame,
             "tx_frame_octets": tx_frame,
-            "rx_bcast_share": np.where(storm, rng.uniform(0.85, 0.99, n), rng.uniform(0.0, 0.1, n)),
+            "rx_bcast_share": np.where(
+                stream, rng.uniform(0.85, 0.99, n), rng.uniform(0.0, 0.1, n)
+            ),
+            # Of the frames that are not unicast, the share that is multicast (the rest is
+            # broadcast).
+            "rx_mcast_part": np.where(stream, 1.0, rng.uniform(0.3, 0.9, n)),
             "rx_ber": objective(speed, fiber) * log_uniform(rng, 1e-5, 0.3, n),
             # A touched plug or an ESD hit: an errored frame or two in a window, fewer than the
             # three a rate needs (measure.measures.MIN_ERROR_FRAMES); a re-seat's burst with
@@ -293,10 +325,58 @@ def base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
             "dot3": dot3,
             "rmon": chance(rng, 0.5, n),
             "down": False,
+            # A few pause frames now and then: flow control doing its job in a burst, holding
+            # the transmitter off 2% of the time at most (a pause frame is at most 65,535
+            # quanta of 512 bit times, IEEE 802.3 annex 31B).
+            "in_pause_fps": np.where(
+                chance(rng, 0.1 * r.nuisance, n),
+                log_uniform(rng, 1e-5, 0.02, n) * speed / (65_535.0 * 512.0),
+                0.0,
+            ),
+            "module_max_speed_bps": np.nan,
+            "neighbor_max_speed_bps": np.nan,
         }
     )
     optics(p, rng, r, rng.uniform(1.5, 14.0, n))
+    fec(p, rng)
     return p
+
+
+#: The FEC each fiber speed runs, as a format 1.2 ``fec_mode`` code (FEC_MODES order): RS(528,
+#: 514) at 25G and 100G NRZ (clauses 108 and 91), RS(544,514) at 400G PAM4 (clause 119), no
+#: FEC at 40G (clause 82 runs without one); slower speeds report none where they report.
+FEC_BY_SPEED = {25 * G: 2.0, 100 * G: 2.0, 400 * G: 3.0, 40 * G: 0.0, 10 * G: 0.0}
+
+
+def fec(p: pd.DataFrame, rng: Rng) -> None:
+    """FEC mode and a low, steady corrected rate (a pre-FEC BER of 1e-10 to 2e-6, well
+    under the high levels of measure.fec): the code doing the work it is there for."""
+    n = len(p)
+    speed = p["speed_bps"].to_numpy()
+    fiber = p["fiber"].to_numpy() == 1.0
+    mode = np.array([FEC_BY_SPEED.get(int(x), np.nan) for x in speed])
+    p["fec_mode"] = np.where(fiber, mode, np.nan)
+    p["pre_fec_ber"] = np.where(p["fec_mode"] > 0, log_uniform(rng, 1e-10, 2e-6, n), 0.0)
+    p["fec_bits_reported"] = chance(rng, 0.6, n)
+    p["fec_lost_ratio"] = 0.0
+
+
+def by_design(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
+    """Speeds below the port's that are designs, not faults (SNAPSHOT-FORMAT 1.2): a 1 Gb/s
+    module in a 10 Gb/s cage, and a 10 Gb/s copper port whose far end (a multigig access
+    point) offers only 2.5 or 5 Gb/s."""
+    n = len(p)
+    speed = p["speed_bps"].to_numpy()
+    fiber = p["fiber"].to_numpy() == 1.0
+    module = fiber & (speed == 10 * G) & chance(rng, 0.06 * r.nuisance, n)
+    p.loc[module, "speed_bps"] = float(G)
+    p.loc[module, "max_speed_bps"] = 10.0 * G
+    p.loc[module, "module_max_speed_bps"] = float(G)
+    multigig = ~fiber & (speed == 10 * G) & chance(rng, 0.2 * r.nuisance, n)
+    offered = rng.choice([2.5 * G, 5.0 * G], n)
+    p.loc[multigig, "speed_bps"] = offered[multigig]
+    p.loc[multigig, "max_speed_bps"] = 10.0 * G
+    p.loc[multigig, "neighbor_max_speed_bps"] = offered[multigig]
 
 
 def copper(p: pd.DataFrame, rng: Rng, speeds: Sequence[tuple[float, float]]) -> None:
@@ -345,6 +425,10 @@ COPPER_1G: dict[str, float | bool] = {
     "max_speed_bps": G,
     "hc": True,
     "dot3": True,
+    "media_reported": True,
+    "duplex_reported": True,
+    "fec_mode": np.nan,  # no FEC on copper at 1 Gb/s
+    "pre_fec_ber": 0.0,
 }
 FIBER_10G: dict[str, float | bool] = {
     "fiber": 1.0,
@@ -353,5 +437,9 @@ FIBER_10G: dict[str, float | bool] = {
     "poe": 0.0,
     "hc": True,
     "dot3": True,
+    "media_reported": True,
+    "duplex_reported": True,
+    "fec_mode": 0.0,  # 10GBASE-R runs without FEC
+    "pre_fec_ber": 0.0,
     "rx_alarm_dbm": -14.4,
 }

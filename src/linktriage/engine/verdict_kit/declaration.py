@@ -162,6 +162,9 @@ class DemoPlant:
     serves: str
     parameters: Mapping[str, float | bool]
     since_s: float | None = None
+    #: More ports of the same device planted alike, for a verdict that shows on several
+    #: ports at once (a loop).
+    also: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True, slots=True)

@@ -86,6 +86,14 @@ class PortFacts(Protocol):
     def polls(self) -> Sequence[int]: ...
     @property
     def window_s(self) -> Sequence[float]: ...
+    @property
+    def device(self) -> Sequence[str]: ...
+    @property
+    def port(self) -> Sequence[str]: ...
+    @property
+    def verdict(self) -> Sequence[str]: ...
+    @property
+    def far(self) -> Sequence[int]: ...  # the row at the link's other end, -1 where none
     def column(self, name: str) -> Sequence[float]: ...
     def words(self, name: str) -> Sequence[object]: ...  # an EXTRA_FIELDS column
 
@@ -266,13 +274,24 @@ def flaps(c: PortGroup) -> MaybeItems:
 
 
 def speed(c: PortGroup) -> MaybeItems:
+    """A speed below what the port, its module and the far end all support (SNAPSHOT-FORMAT
+    1.2), said against whichever of them sets it."""
     source = "IEEE 802.3 clause 28 (autonegotiation)"
-    return [
-        item("speed", speed, "b/s", top, source,
-              f"{speed_words(speed)} on a {speed_words(top)} port")
-        if speed < top else None  # False where either is NaN
-        for speed, top in zip(c["speed_bps"], c["max_speed_bps"], strict=True)
-    ]  # fmt: skip
+    out: MaybeItems = []
+    for speed, top, expected, by in zip(
+        c["speed_bps"], c["max_speed_bps"], c["expected_speed_bps"], c["speed_limited_by"],
+        strict=True,
+    ):  # fmt: skip
+        if not speed < expected:  # also NaN
+            out.append(None)
+            continue
+        said = f"{speed_words(speed)} on a {speed_words(top if top == top else expected)} port"
+        if by == 1.0:
+            said += f" whose module supports {speed_words(expected)}"
+        elif by == 2.0:
+            said += f" whose far end offers up to {speed_words(expected)}"
+        out.append(item("speed", speed, "b/s", expected, source, said))
+    return out
 
 
 def duplex(c: PortGroup) -> Items:

@@ -1,8 +1,9 @@
 """cable_fault: physical-layer trouble in the cabling or its connectors, copper or fiber.
 
 FCS, alignment and symbol errors at ordinary load, a bit error ratio significantly over the
-PHY's IEEE 802.3 objective, or a link that flaps; on fiber with the received light in range
-(a dirty or damaged connector or patch cord). From both ends of a link: errored frames
+PHY's IEEE 802.3 objective, with or without flaps (flaps alone are link_flapping since
+SNAPSHOT-FORMAT 1.2); on fiber with the received light in range and no FEC evidence (a dirty
+or damaged connector or patch cord). From both ends of a link: errored frames
 received at one end only point at one direction's pair or strand.
 """
 
@@ -24,7 +25,6 @@ from linktriage.engine.simulate.ports import (
     chance,
     fault_ber,
     log_uniform,
-    objective,
 )
 from linktriage.engine.verdict_kit.declaration import (
     Caution,
@@ -60,16 +60,11 @@ def _evidence(c: PortGroup) -> list[Items]:
     out: list[Items] = []
     rows = zip(
         bit_errors(c), errored_frames(c), flaps(c), symbols(c), speed(c), rx_light(c),
-        c["ber_floor"], c["objective"], c["fiber"], strict=True,
+        c["fiber"], strict=True,
     )  # fmt: skip
-    for errors, frames, flapped, invalid, slow, light, lo, target, fiber in rows:
-        # Significant errors lead; where there are none, the flapping does.
-        if lo > target or flapped is None:
-            head, later = [errors], flapped
-        else:
-            head, later = [flapped, errors], None
+    for errors, frames, flapped, invalid, slow, light, fiber in rows:
         seen = light if fiber == 1.0 else None
-        out.append([*head, *present(frames, invalid, later, slow, seen)])
+        out.append([errors, *present(frames, invalid, flapped, slow, seen)])
     return out
 
 
@@ -89,10 +84,7 @@ def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
     p["runt_ratio"] = p["rx_ber"] * p["rx_frame_octets"] * 8 * rng.uniform(0.0, 0.005, n)
     flapping = chance(rng, 0.35, n)
     p["link_changes"] = np.where(flapping, 2 * rng.integers(3, 15, n), 0).astype(float)
-    # A link that flaps with clean counters between flaps is a cable fault too.
-    clean = flapping & chance(rng, 0.25, n)
-    objectives = objective(p["speed_bps"].to_numpy(), p["fiber"].to_numpy())
-    p.loc[clean, "rx_ber"] = objectives[clean] * 1e-4
+    # Flaps with errors between them (flaps alone are link_flapping, SNAPSHOT-FORMAT 1.2).
     p.loc[flapping, "reports_link_changes"] = True
 
 
@@ -219,9 +211,16 @@ KIND = TreeVerdict(
     needs=(
         Need(
             "a bit error ratio over the PHY's objective by an exact one-sided test at 99%, "
-            "and ten times it or more, or a flapping link",
-            "IEEE 802.3 bit-error-ratio objectives; Clopper-Pearson bound",
-            lambda s: s.errors | s.flapping,
+            "and ten times it or more, beyond the frames a flapping link's drops cut short",
+            "IEEE 802.3 bit-error-ratio objectives; Clopper-Pearson bound; SNAPSHOT-FORMAT 1.2",
+            lambda s: s.real_errors,
+        ),
+        Need(
+            "no FEC evidence (on a link with FEC and the light in range, that is fec_degraded) "
+            "and no light above the receiver's most (optic_overload: an attenuator, not "
+            "cleaning)",
+            "SNAPSHOT-FORMAT 1.2",
+            lambda s: ~(s.fec | s.overload),
         ),
         Need(
             "errors of line noise, not frames cut short by a half-duplex far end (at 100 Mb/s: "

@@ -144,6 +144,12 @@ KIND = TreeVerdict(
             "RFC 2863 ifInDiscards/ifOutDiscards; common practice",
             lambda s: s.congested,
         ),
+        Need(
+            "no flood of pause frames holding the transmitter off (that is pause_flood, which "
+            "explains the port's own output discards)",
+            "SNAPSHOT-FORMAT 1.2; IEEE 802.3 annex 31B",
+            lambda s: ~s.pause,
+        ),
     ),
     bit_errors=False,
     phrases=_PHRASES,

@@ -217,7 +217,20 @@ KIND = TreeVerdict(
         "lark-east-idf2",
         "port7",
         "label printer, circulation desk",
-        {"speed_bps": 100 * M, "max_speed_bps": G, "rx_util": 0.08, "tx_util": 0.05},
+        # The switch's end fell back to half duplex (parallel detection): late collisions.
+        {
+            "speed_bps": 100 * M,
+            "max_speed_bps": G,
+            "rx_util": 0.08,
+            "tx_util": 0.05,
+            "half_duplex": 1.0,
+            "dot3": True,
+            "late_ratio": 0.05,
+            "collision_ratio": 0.12,
+            "runt_ratio": 0.0,
+            "extra_crc_ratio": 0.0,
+            "duplex_reported": True,
+        },
     ),
     severity=4,
     needs=(

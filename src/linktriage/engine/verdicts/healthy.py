@@ -11,7 +11,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from linktriage.engine.format.answers import Verdict
-from linktriage.engine.simulate.ports import Ranges, Rng
+from linktriage.engine.simulate.ports import Ranges, Rng, by_design
 from linktriage.engine.verdict_kit.declaration import Need, TreeVerdict, check
 from linktriage.engine.verdict_kit.readings import Items, PortGroup, also_seen, bit_errors
 
@@ -26,7 +26,9 @@ def _evidence(c: PortGroup) -> list[Items]:
 
 
 def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
-    """A healthy port is the simulator's base port as drawn: nothing to add."""
+    """A healthy port is the simulator's base port as drawn, and speeds below the port's
+    that are designs (a module or a far end that does less)."""
+    by_design(p, rng, r)
 
 
 #: Phrases of the trade that name this verdict in a thread reply, each with a weight.
@@ -79,9 +81,10 @@ KIND = TreeVerdict(
             lambda s: ~(s.half | s.slow),
         ),
         Need(
-            "received and transmitted light above the module's low alarm",
+            "received and transmitted light above the module's low alarm and under its high "
+            "one, and the laser bias within its alarm thresholds",
             "SFF-8472 alarm thresholds",
-            lambda s: ~(s.light_under_alarm | (s.tx_low & s.optics)),
+            lambda s: ~(s.light_under_alarm | (s.tx_low & s.optics) | s.bias_out | s.overload),
         ),
         Need(
             "a link that stays up (fewer than two down/up cycles in the window)",
@@ -89,6 +92,16 @@ KIND = TreeVerdict(
             lambda s: ~s.flapping,
         ),
         Need("frames in both directions", "common practice", lambda s: ~s.silent),
+        Need(
+            "FEC correcting under its code's high level, and no codeword lost",
+            "IEEE 802.3 clauses 74, 91 and 119; SNAPSHOT-FORMAT 1.2",
+            lambda s: ~s.fec,
+        ),
+        Need(
+            "no flood of pause frames and no broadcast storm",
+            "IEEE 802.3 annex 31B; common practice",
+            lambda s: ~(s.pause | s.storm),
+        ),
     ),
     bit_errors=True,
     phrases=_PHRASES,

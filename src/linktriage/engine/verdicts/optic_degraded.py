@@ -83,20 +83,44 @@ def _temperature(c: PortGroup) -> MaybeItems:
 
 
 def _bias(c: PortGroup) -> MaybeItems:
-    source = "SFF-8472 digital diagnostics"
-    return [
-        item("bias", b, "mA", None, source, f"laser bias {b:.1f} mA") if b == b else None
-        for b in c["bias_ma"]
-    ]
+    """The laser's bias current, against the module's alarm thresholds where it has them: a
+    bias past either is this end's own transmitter failing (SNAPSHOT-FORMAT 1.2), whichever
+    way it drifts (a laser ageing draws more, one failing open draws less)."""
+    out: MaybeItems = []
+    for high, low, most, least in zip(
+        c["bias_ma"], c["bias_min_ma"], c["bias_high_alarm_ma"], c["bias_low_alarm_ma"],
+        strict=True,
+    ):  # fmt: skip
+        if high != high:
+            out.append(None)
+        elif high > most:
+            said = (
+                f"laser bias {high:.1f} mA, over the module's high alarm ({most:.1f} mA): this "
+                "end's transmitter is failing"
+            )
+            out.append(item("bias", high, "mA", most, "SFF-8472 thresholds", said))
+        elif low < least:
+            said = (
+                f"laser bias {low:.1f} mA, under the module's low alarm ({least:.1f} mA): this "
+                "end's transmitter is failing"
+            )
+            out.append(item("bias", low, "mA", least, "SFF-8472 thresholds", said))
+        else:
+            out.append(item("bias", high, "mA", None, "SFF-8472 digital diagnostics",
+                            f"laser bias {high:.1f} mA"))  # fmt: skip
+    return out
 
 
 def _evidence(c: PortGroup) -> list[Items]:
-    return [
-        [*present(rx, tx, hot, bias), errors]
-        for rx, tx, hot, bias, errors in zip(
-            rx_light(c), _tx_light(c), _temperature(c), _bias(c), bit_errors(c), strict=True
-        )
-    ]
+    out: list[Items] = []
+    for rx, tx, hot, bias, errors in zip(
+        rx_light(c), _tx_light(c), _temperature(c), _bias(c), bit_errors(c), strict=True
+    ):
+        # What fails at this end's own module leads: its light sent, its laser.
+        own = bias is not None and bias["reference"] is not None
+        head = [bias, rx, tx] if own else [rx, tx, bias]
+        out.append([*present(*head, hot), errors])
+    return out
 
 
 def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
@@ -202,9 +226,9 @@ KIND = TreeVerdict(
         ),
         Need(
             "received light under the module's low warning (near its alarm), low transmit "
-            "power, or a module running hot",
+            "power, laser bias outside its alarm thresholds, or a module running hot",
             "SFF-8472 alarm and warning thresholds",
-            lambda s: s.light_low | s.tx_low | s.hot,
+            lambda s: s.light_low | s.tx_low | s.bias_out | s.hot,
         ),
     ),
     bit_errors=True,
