@@ -1,13 +1,15 @@
 """The Prometheus collector against Debian's Prometheus on loopback, scraping an exporter of
 the simulated fleet in the SNMP exporter's naming: what the collector reads back is what
-was scraped, to the octet, at the time Prometheus stamped the scrape; and the far ends one
-switch publishes from LLDP-MIB."""
+was scraped, to the octet, at the time Prometheus stamped the scrape; the far ends one
+switch publishes from LLDP-MIB; and the objects of format 1.2 another publishes (admin
+status, last change, Power over Ethernet, aggregates, the far end's advertised speeds)."""
 
 from __future__ import annotations
 
 import itertools
 import time
 from collections.abc import Iterator
+from datetime import timedelta
 from pathlib import Path
 from typing import Any
 
@@ -16,7 +18,7 @@ import pytest
 from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.counters import COLUMNS
-from linktriage.engine.format.snapshot import Neighbor, Snapshot, iter_snapshots
+from linktriage.engine.format.snapshot import Neighbor, PoeStatus, Snapshot, iter_snapshots
 from linktriage.errors import BadAnswerError, CollectorError, InputError
 from linktriage.network.collectors.base import Reading, Target
 from linktriage.network.collectors.prometheus import PrometheusCollector, promql_string
@@ -27,10 +29,11 @@ from linktriage.settings import ChatSettings, Settings
 from linktriage.store import Store
 
 from agents.fleet import Fleet
-from agents.prometheus import CannedApi, Exporter, Prometheus, Served
+from agents.prometheus import UPTIME_TICKS_AT_START, CannedApi, Exporter, Prometheus, Served
 from helpers import ask_once, read_once
 
 DEVICES = ["sw0001", "sw0002", "sw0003"]
+V12 = "sw0004"  # the switch that publishes the tables of format 1.2
 
 
 def lldp_row(port_number: int, **labels: str) -> str:
@@ -67,9 +70,73 @@ lldpRemPortDesc{lldp_row(102, lldpRemPortDesc="eth0")} 1
 """
 
 
+def v12_series() -> str:
+    """What sw0004 publishes through SNMP exporter modules walking the tables of format
+    1.2, each series named as its MIB object with the object's indexes as labels (the
+    exporter's naming; snmp_exporter collector/collector.go: TimeTicks as the raw ticks, an
+    OCTET STRING as 0x and hex, an EnumAsInfo override as a _info series)."""
+
+    def port(n: int, name: str | None = None) -> str:
+        name = name or f"port{n}"
+        return f'{{ifDescr="{name}",ifIndex="{n}",ifName="{name}"}}'
+
+    def pse(n: int) -> str:
+        return f'{{pethPsePortGroupIndex="1",pethPsePortIndex="{n}"}}'
+
+    cap = "0x2401"  # RFC 3636 bits 2, 5, 15: 10BASE-T, 100BASE-TX, 1000BASE-T full duplex
+    return f"""\
+# TYPE ifAdminStatus gauge
+ifAdminStatus{port(1)} 1
+ifAdminStatus{port(2)} 2
+# TYPE ifLastChange gauge
+ifLastChange{port(1)} {UPTIME_TICKS_AT_START - 6000}
+ifLastChange{port(2)} 0
+# TYPE ifOperStatus gauge
+ifOperStatus{port(100, "ae1")} 1
+# TYPE dot3HCInPauseFrames counter
+dot3HCInPauseFrames{port(1)} 12000000000
+# TYPE dot3InPauseFrames counter
+dot3InPauseFrames{port(1)} {12_000_000_000 % 2**32}
+# TYPE ifType_info gauge
+ifType_info{{ifDescr="ae1",ifIndex="100",ifName="ae1",ifType="ieee8023adLag"}} 1
+# TYPE ifStackStatus gauge
+ifStackStatus{{ifStackHigherLayer="100",ifStackLowerLayer="7"}} 1
+ifStackStatus{{ifStackHigherLayer="100",ifStackLowerLayer="8"}} 1
+# TYPE dot3adAggPortAttachedAggID gauge
+dot3adAggPortAttachedAggID{{dot3adAggPortIndex="6"}} 100
+# TYPE pethPsePortDetectionStatus gauge
+pethPsePortDetectionStatus{pse(1)} 3
+pethPsePortDetectionStatus{pse(2)} 4
+# TYPE pethPsePortPowerClassifications gauge
+pethPsePortPowerClassifications{pse(1)} 5
+# TYPE pethPsePortOverLoadCounter counter
+pethPsePortOverLoadCounter{pse(1)} 0
+pethPsePortOverLoadCounter{pse(2)} 17
+# TYPE pethMainPsePower gauge
+pethMainPsePower{{pethMainPseGroupIndex="1"}} 370
+# TYPE pethMainPseConsumptionPower gauge
+pethMainPseConsumptionPower{{pethMainPseGroupIndex="1"}} 61
+# TYPE lldpRemSysName gauge
+lldpRemSysName{lldp_row(3, lldpRemSysName="lark-east-ap7")} 1
+# TYPE lldpRemPortIdSubtype gauge
+lldpRemPortIdSubtype{lldp_row(3)} 5
+# TYPE lldpRemPortId gauge
+lldpRemPortId{lldp_row(3, lldpRemPortId="eth0")} 1
+# TYPE lldpXdot3RemPortAutoNegAdvertisedCap gauge
+lldpXdot3RemPortAutoNegAdvertisedCap{lldp_row(3, lldpXdot3RemPortAutoNegAdvertisedCap=cap)} 1
+"""
+
+
 @pytest.fixture(scope="module")
 def exporter() -> Iterator[Exporter]:
-    served = Exporter(Fleet(len(DEVICES), 8, seed=23), lldp={"sw0002": LLDP_SERIES})
+    served = Exporter(
+        Fleet(len(DEVICES) + 1, 8, seed=23),
+        lldp={"sw0002": LLDP_SERIES},
+        more={V12: v12_series()},
+        # Its PSE counters carry their own indexes, not ifName; its pause counters are the
+        # ones its own series give.
+        skip={V12: ("peth", "dot3InPause", "dot3OutPause", "dot3HCInPause", "dot3HCOutPause")},
+    )
     yield served
     served.close()
 
@@ -78,8 +145,8 @@ def exporter() -> Iterator[Exporter]:
 def prometheus(
     tmp_path_factory: pytest.TempPathFactory, exporter: Exporter
 ) -> Iterator[Prometheus]:
-    server = Prometheus(tmp_path_factory.mktemp("prometheus"), exporter, DEVICES)
-    for device in DEVICES:
+    server = Prometheus(tmp_path_factory.mktemp("prometheus"), exporter, [*DEVICES, V12])
+    for device in [*DEVICES, V12]:
         server.wait_for_scrapes(device, 4)
     yield server
     server.stop()
@@ -147,6 +214,85 @@ def test_the_far_ends_a_switch_publishes_from_lldp_mib_land_on_its_ports(
         "port2": Neighbor(device="lark-lab-ap3", port="eth0"),
         "port4": Neighbor(device="lark-lab-printer2", port="lan0"),
     }
+
+
+def test_the_tables_of_format_1_2_a_switch_publishes_land_on_its_ports(
+    prometheus: Prometheus, exporter: Exporter
+) -> None:
+    reading = read_once(collector(prometheus.url, V12))
+    assert reading.problems == {}
+    ports = {s.port: s for s in reading.snapshots}
+    assert sorted(ports) == sorted([*exporter.fleet.ports, "ae1"])
+    # ifAdminStatus (RFC 2863): up(1), down(2); unpublished: unknown.
+    assert [ports[p].admin_status for p in ("port1", "port2", "port3")] == ["up", "down", None]
+    # ifLastChange is the sysUpTime of the change: placed with the sysUpTime sample of the
+    # same scrape, so the change is (uptime - ifLastChange) ticks before the scrape.
+    one = ports["port1"]
+    scrape = exporter.scrape_near(V12, one.time.timestamp())
+    age = timedelta(seconds=(scrape.uptime_ticks - (UPTIME_TICKS_AT_START - 6000)) / 100)
+    assert one.last_change == one.time - age
+    assert ports["port2"].last_change is None  # 0: before the agent started (RFC 2863)
+    # ifStackTable under ae1 (ieee8023adLag, published as ifType_info by an EnumAsInfo
+    # override), and dot3adAggPortAttachedAggID (IEEE8023-LAG-MIB) for port6.
+    assert {p: s.aggregate for p, s in ports.items() if s.aggregate} == {
+        "port6": "ae1", "port7": "ae1", "port8": "ae1"}  # fmt: skip
+    # One PSE group whose port numbers are ifIndexes the names end with (common practice
+    # for RFC 3621's implementation-specific numbering); class4(5) is class 4, valid only
+    # while delivering power; the budget left is pethMainPsePower less consumption.
+    assert ports["port1"].poe_status == PoeStatus(
+        detection="deliveringPower", power_class=4, budget_left_w=309.0
+    )
+    assert ports["port2"].poe_status == PoeStatus(detection="fault", budget_left_w=309.0)
+    assert [ports[p].poe for p in ("port1", "port2", "port3")] == [True, False, None]
+    assert ports["port2"].counters["pethPsePortOverLoadCounter"] == 17
+    assert not any(name.startswith("peth") for name in ports["port3"].counters)
+    # LLDP-EXT-DOT3-MIB's advertised capability, 0x2401 (RFC 3636 bits 2, 5 and 15).
+    assert ports["port3"].neighbor == Neighbor(
+        device="lark-east-ap7", port="eth0", speeds_bps=[10**7, 10**8, 10**9]
+    )
+    # dot3PauseTable's counters, named as RFC 3635 names them, by the port's ifName (a
+    # module looking ifName up by dot3StatsIndex, which is the ifIndex): the Counter32 form
+    # holds the low 32 bits of the Counter64 one (RFC 2863 section 3.1.6).
+    pause = {k: v for k, v in one.counters.items() if "Pause" in k}
+    assert pause == {"dot3HCInPauseFrames": 12 * 10**9, "dot3InPauseFrames": 12 * 10**9 % 2**32}
+    assert not any("Pause" in name for name in ports["port2"].counters)
+
+
+def test_a_stacked_switchs_pse_ports_are_matched_by_name_and_an_iftype_gauge_counts(
+    api: CannedApi,
+) -> None:
+    # Two PSE groups (boxes of a stack, RFC 3621): a port index is the number a name ends
+    # with, the group the number it begins with (common practice). Without an EnumAsInfo
+    # override, ifType is a plain gauge of its IANAifType number, ieee8023adLag(161).
+    def port(name: str, index: int, metric: str, value: str) -> dict[str, Any]:
+        labels = {"__name__": metric, "instance": "sw0001", "job": "snmp", "ifName": name,
+                  "ifIndex": str(index)}  # fmt: skip
+        return {"metric": labels, "values": [[100.0, value]]}
+
+    def table(metric: str, value: str, **labels: str) -> dict[str, Any]:
+        own = {"__name__": metric, "instance": "sw0001", "job": "snmp", **labels}
+        return {"metric": own, "values": [[100.0, value]]}
+
+    api.body = matrix(
+        port("Gi1/0/3", 1003, "ifOperStatus", "1"),
+        port("Gi2/0/3", 2003, "ifOperStatus", "1"),
+        port("Po1", 5001, "ifType", "161"),
+        port("Po1", 5001, "ifOperStatus", "1"),
+        table("pethPsePortDetectionStatus", "3", pethPsePortGroupIndex="2",
+              pethPsePortIndex="3"),
+        table("pethPsePortDetectionStatus", "2", pethPsePortGroupIndex="1",
+              pethPsePortIndex="3"),
+        table("ifStackStatus", "1", ifStackHigherLayer="5001", ifStackLowerLayer="2003"),
+        table("ifStackStatus", "NaN", ifStackHigherLayer="5001", ifStackLowerLayer="1003"),
+    )  # fmt: skip
+    reading = read_once(collector(api.url))
+    assert reading.problems == {}
+    ports = {s.port: s for s in reading.snapshots}
+    assert ports["Gi2/0/3"].poe_status == PoeStatus(detection="deliveringPower")
+    assert ports["Gi1/0/3"].poe_status == PoeStatus(detection="searching")
+    # A stack row whose status is not a number names no member; the other does.
+    assert {p: s.aggregate for p, s in ports.items()} == {
+        "Gi1/0/3": None, "Gi2/0/3": "Po1", "Po1": None}  # fmt: skip
 
 
 def inventory_of(server: str, devices: list[str], **options: Any) -> InventoryNetwork:

@@ -1,17 +1,21 @@
 """The RESTCONF collector against a real HTTP(S) server on loopback serving RFC 8343 JSON,
-and ieee802-dot1ab-lldp (IEEE 802.1ABcu) where a device has it."""
+and ieee802-dot1ab-lldp (IEEE 802.1ABcu) where a device has it; for format 1.2 the same
+document's admin-status, last-change and higher-layer-if, and IEEE 802.3.2's augmentations
+(ieee802-ethernet-interface, ieee802-ethernet-pse, ieee802-ethernet-lldp)."""
 
 from __future__ import annotations
 
+import base64
 import ssl
 import subprocess
 from collections.abc import Iterator
+from datetime import UTC, datetime
 from pathlib import Path
 
 import pytest
 
 from linktriage.engine.format.counters import COLUMN_INDEX
-from linktriage.engine.format.snapshot import Neighbor
+from linktriage.engine.format.snapshot import Neighbor, PoeStatus
 from linktriage.errors import BadAnswerError, CollectorError, DeviceRefusedError, DeviceTimeoutError
 from linktriage.network.collectors.base import Target
 from linktriage.network.collectors.restconf import RestconfCollector, interfaces_to_snapshots
@@ -74,8 +78,6 @@ def test_64_bit_counters_arrive_as_strings_and_keep_every_bit() -> None:
             ]
         }
     }
-    from datetime import UTC, datetime
-
     (snap,), problems_found = interfaces_to_snapshots(document, "sw", datetime.now(UTC))
     assert problems_found == {}
     assert snap.counters == {"ifHCInOctets": 2**64 - 1, "ifInErrors": 2**32 - 1}
@@ -230,3 +232,70 @@ def test_tls_certificates_are_verified_unless_told_otherwise(
         read_once(collector(agent, "sw0001", **https))
     assert len(read_once(collector(agent, "sw0001", **https, ca_file=str(cert))).snapshots) == 2
     assert len(read_once(collector(agent, "sw0001", **https, verify_tls=False)).snapshots) == 2
+
+
+ETHERNET = "ieee802-ethernet-interface:ethernet"  # IEEE 802.3.2 augments ietf-interfaces
+PSE = "ieee802-ethernet-pse:pse"  # and augments that container in turn
+
+
+def test_the_leaves_of_format_1_2_come_from_ietf_interfaces_and_ieee_802_3_2() -> None:
+    running = RestconfAgent(Fleet(devices=1, ports=8)).start()
+    running.more["sw0001"] = {
+        "port1": {
+            "admin-status": "up",  # RFC 8343, ifAdminStatus
+            "last-change": "2026-03-02T07:58:30+01:00",  # RFC 8343, ifLastChange
+            "higher-layer-if": ["ae1"],  # RFC 8343, ifStackTable
+            ETHERNET: {
+                "duplex": "full",  # IEEE 802.3 30.3.1.1.32 aDuplexStatus
+                # counter64 as JSON strings (RFC 7951 section 6.1); member names qualified
+                # where the module changes (section 4).
+                "flow-control": {"pause": {"statistics": {
+                    "in-frames-pause": "9000000000", "out-frames-pause": "12"}}},
+                PSE: {"multi-pair": {
+                    "detection-status": "deliveringPower",
+                    "classifications": "class3",
+                    "actual-power": "6480.5000",  # decimal64 milliwatts: a JSON string
+                    "statistics": {"mps-absent": "3", "overload": str(2**32 + 5)},
+                }},
+            },
+        },
+        "port2": {"admin-status": "down", "higher-layer-if": ["ae1", "port2.10"]},
+        "port3": {"admin-status": "testing", ETHERNET: {PSE: {"multi-pair": {
+            "detection-status": "fault", "classifications": "class2"}}}},
+        "ae1": {"type": "iana-if-type:ieee8023adLag", "oper-status": "up", "admin-status": "up"},
+    }  # fmt: skip
+    cap = base64.b64encode(bytes([0x24, 0x01])).decode()  # RFC 3636 bits 2, 5 and 15
+    running.lldp["sw0001"] = {"ieee802-dot1ab-lldp:lldp": {"port": [{
+        "name": "port4", "dest-mac-address": NEAREST_BRIDGE, "remote-systems-data": [
+            remote("lark-east-ap7", "interface-name", "eth0")
+            | {"ieee802-ethernet-lldp:auto-negotiation-cap": cap}]}]}}  # fmt: skip
+    try:
+        reading = read_once(collector(running, "sw0001"))
+    finally:
+        running.stop()
+    assert reading.problems == {}
+    ports = {s.port: s for s in reading.snapshots}
+    assert [ports[p].admin_status for p in ("port1", "port2", "port3", "port4")] == [
+        "up", "down", "testing", None]  # fmt: skip
+    assert ports["port1"].last_change == datetime(2026, 3, 2, 6, 58, 30, tzinfo=UTC)
+    # An ieee8023adLag interface above a port is its aggregate; port2.10 is not one.
+    assert {p: s.aggregate for p, s in ports.items() if s.aggregate} == {
+        "port1": "ae1", "port2": "ae1"}  # fmt: skip
+    one = ports["port1"]
+    # in-frames-pause is aPAUSEMACCtrlFramesReceived (IEEE 802.3 30.3.4.3), which RFC 3635's
+    # dot3HCInPauseFrames counts too.
+    assert one.counters["dot3HCInPauseFrames"] == 9_000_000_000
+    assert one.counters["dot3HCOutPauseFrames"] == 12
+    # The PSE counters mirror RFC 3621's Counter32 objects: their low 32 bits.
+    assert one.counters["pethPsePortMPSAbsentCounter"] == 3
+    assert one.counters["pethPsePortOverLoadCounter"] == 5
+    assert one.duplex == "full"
+    assert one.poe_status == PoeStatus(detection="deliveringPower", power_class=3, power_w=6.4805)
+    assert one.poe is True
+    # The class applies only while delivering power (the module's `when`, as RFC 3621).
+    assert ports["port3"].poe_status == PoeStatus(detection="fault")
+    assert ports["port2"].poe_status is None and ports["port2"].poe is None
+    assert ports["port4"].neighbor == Neighbor(
+        device="lark-east-ap7", port="eth0", speeds_bps=[10**7, 10**8, 10**9]
+    )
+    assert not any("Pause" in k or k.startswith("peth") for k in ports["port5"].counters)

@@ -1,11 +1,14 @@
 """The SNMP collector against real agents on loopback: net-snmp's snmpd (v2c and v3) for
 the machine's own interfaces, and snmpsim serving a recorded 48-port switch, with and
-without LLDP's tables."""
+without LLDP's tables; and the objects of format 1.2 (admin status, last change, pause
+frames, Power over Ethernet, aggregates, the far end's advertised speeds) from snmpd's own
+IF-MIB, tables it serves through pass_persist, and a recording with all of them."""
 
 from __future__ import annotations
 
 import json
 from collections.abc import Iterator
+from datetime import timedelta
 from pathlib import Path
 
 import pytest
@@ -13,7 +16,7 @@ from click.testing import CliRunner
 
 from linktriage.cli import main
 from linktriage.engine.format.counters import COLUMN_INDEX
-from linktriage.engine.format.snapshot import Neighbor
+from linktriage.engine.format.snapshot import Neighbor, PoeStatus, Snapshot
 from linktriage.engine.verdicts import VERDICTS
 from linktriage.errors import CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Reading, Target
@@ -22,16 +25,25 @@ from linktriage.network.collectors.snmp import IF_ENTRY, IFX_ENTRY, SnmpCollecto
 from agents.fleet import Fleet
 from agents.snmp import (
     COMMUNITY,
+    IF_STACK_ENTRY,
+    LAG_PORT_ENTRY,
+    LLDP_XDOT3_REM_ENTRY,
+    PAUSE_ENTRY,
+    PETH_MAIN_ENTRY,
+    PETH_PORT_ENTRY,
     SHIPPED,
     V3_AUTH,
     V3_PRIV,
     V3_USER,
+    PsePort,
     Remote,
     Snmpd,
     Snmpsim,
     by_oid,
     lldp_v2_walk,
     lldp_walk,
+    pause_walk,
+    peth_walk,
     recorded_walk,
 )
 from helpers import ask_once, read_once
@@ -164,6 +176,11 @@ def test_a_recorded_48_port_switch_reads_back_exactly(
             )
         assert snap.duplex == "full" and snap.mtu == 1500
         assert snap.neighbor is None  # the recording has no LLDP tables
+        # A device without the tables of format 1.2 reads as before: nothing of them, no
+        # zeros (SNAPSHOT-FORMAT: a missing counter means "not supported", never zero).
+        assert (snap.admin_status, snap.last_change, snap.aggregate, snap.poe_status) == (
+            None, None, None, None)  # fmt: skip
+        assert not any("Pause" in name or name.startswith("peth") for name in snap.counters)
 
 
 def test_only_the_ports_asked_for(switch48: Snmpsim, monkeypatch: pytest.MonkeyPatch) -> None:
@@ -377,6 +394,10 @@ def test_a_recorded_linux_host_reads_as_recorded(
     expected = int(_recorded("linux-full-walk", f"{IF_ENTRY}.10.2"))  # ifInOctets of eth0
     assert ports["eth0"].counters["ifInOctets"] == expected
     assert ports["eth0"].discontinuity_time is not None  # placed by the recorded sysUpTime
+    # Recorded ifAdminStatus up(1) and ifLastChange 0: "entered prior to the last
+    # re-initialization" (RFC 2863), so no moment is made up for it.
+    assert {p: (s.admin_status, s.last_change) for p, s in ports.items()} == {
+        "lo": ("up", None), "eth0": ("up", None)}  # fmt: skip
 
 
 def test_a_recorded_windows_host_reads_with_clean_names(
@@ -397,6 +418,10 @@ def test_an_agent_without_sysuptime_still_reads(
     reading = read_shipped(shipped, "multiplex-00000", monkeypatch)
     assert [s.port for s in reading.snapshots] == ["lo0", "gif0", "stf0", "en0", "p2p0"]
     assert all(s.discontinuity_time is None for s in reading.snapshots)
+    # Its ifAdminStatus as recorded (RFC 2863: up(1), down(2)); no last change without
+    # the agent's clock.
+    assert [s.admin_status for s in reading.snapshots] == ["up", "down", "down", "up", "up"]
+    assert all(s.last_change is None for s in reading.snapshots)
 
 
 def test_a_sweep_over_recorded_hosts_and_a_dead_device_names_the_dead_one(
@@ -431,3 +456,212 @@ def test_a_sweep_over_recorded_hosts_and_a_dead_device_names_the_dead_one(
     assert reached.exit_code == 3, reached.output
     for name in SHIPPED:
         assert f"lark-lab-{name}: answers" in reached.stdout
+
+
+# --- format 1.2: admin state, last change, pause frames, PoE, aggregates, far-end speeds
+
+
+def test_snmpd_serving_the_tables_of_format_1_2_gives_the_loopback_all_of_them(
+    snmpd: Snmpd, community: dict[str, object], tmp_path: Path
+) -> None:
+    # net-snmp implements IF-MIB itself (ifAdminStatus, ifLastChange of this machine's own
+    # interfaces) but none of dot3PauseTable, POWER-ETHERNET-MIB, IEEE8023-LAG-MIB or
+    # LLDP-EXT-DOT3-MIB: pass_persist programs serve them (snmpd.conf(5)).
+    names = snmpd.walk(f"{IFX_ENTRY}.1")
+    lo = next(index for index, name in names.items() if name == "lo")
+    other = max(index for index in names if index != lo)
+    rem, loc, row = "1.0.8802.1.1.2.1.4.1.1", "1.0.8802.1.1.2.1.3.7.1", "0.1001.1"
+    lldp = {
+        f"{loc}.2.1001": ("integer", "5"),  # lldpLocPortIdSubtype interfaceName(5): lo
+        f"{loc}.3.1001": ("string", "lo"),
+        f"{rem}.6.{row}": ("integer", "5"),  # lldpRemPortIdSubtype interfaceName(5)
+        f"{rem}.7.{row}": ("string", "ge-0/0/9"),
+        f"{rem}.9.{row}": ("string", "lark-east-idf2"),
+        # RFC 3636 bits 2 b10baseTFD, 5 b100baseTXFD, 15 b1000baseTFD; bit 0 is the first
+        # octet's most significant bit (RFC 2578 section 7.1.4): 0x24 0x01.
+        f"{LLDP_XDOT3_REM_ENTRY}.3.{row}": ("octet", "24 01"),
+    }
+    tables = {
+        PAUSE_ENTRY: {
+            f"{PAUSE_ENTRY}.3.{lo}": ("counter", "1200"),  # dot3InPauseFrames, Counter32
+            f"{PAUSE_ENTRY}.4.{lo}": ("counter", "30"),
+            f"{PAUSE_ENTRY}.5.{lo}": ("counter64", "5000000000"),  # past what 32 bits hold
+            f"{PAUSE_ENTRY}.6.{lo}": ("counter64", "30"),
+        },
+        # One PSE group (RFC 3621: 1 on a non-modular device), its port numbered as lo's
+        # ifIndex: read with poe_ports = "ifindex".
+        "1.3.6.1.2.1.105": {
+            f"{PETH_PORT_ENTRY}.6.1.{lo}": ("integer", "3"),  # deliveringPower(3)
+            f"{PETH_PORT_ENTRY}.8.1.{lo}": ("counter", "2"),  # pethPsePortMPSAbsentCounter
+            f"{PETH_PORT_ENTRY}.10.1.{lo}": ("integer", "5"),  # class4(5)
+            f"{PETH_PORT_ENTRY}.12.1.{lo}": ("counter", "1"),  # pethPsePortPowerDeniedCounter
+            f"{PETH_MAIN_ENTRY}.2.1": ("gauge", "370"),  # pethMainPsePower, W
+            f"{PETH_MAIN_ENTRY}.4.1": ("gauge", "122"),  # pethMainPseConsumptionPower, W
+        },
+        # lo attached to the aggregator whose ifIndex is `other` (IEEE 802.1AX).
+        LAG_PORT_ENTRY: {f"{LAG_PORT_ENTRY}.13.{lo}": ("integer", str(other))},
+    }
+    agent = Snmpd(tmp_path, lldp=lldp, tables=tables)
+    try:
+        reading = read_once(collector(agent.port, {**community, "poe_ports": "ifindex"}))
+    finally:
+        agent.stop()
+    admin = snmpd.walk(f"{IF_ENTRY}.7")
+    changed = snmpd.walk(f"{IF_ENTRY}.9")
+    ports = {s.port: s for s in reading.snapshots}
+    for index, name in names.items():
+        snap = ports[name]
+        # ifAdminStatus up(1), down(2), testing(3) (RFC 2863), as snmpbulkwalk reads it.
+        assert snap.admin_status == {"1": "up", "2": "down", "3": "testing"}[admin[index]]
+        # ifLastChange 0: the change came before the agent started (RFC 2863): unknown.
+        assert (snap.last_change is None) == (changed[index] == "0")
+    loopback = ports.pop("lo")
+    assert {k: v for k, v in loopback.counters.items() if "Pause" in k} == {
+        "dot3InPauseFrames": 1200, "dot3OutPauseFrames": 30,
+        "dot3HCInPauseFrames": 5_000_000_000, "dot3HCOutPauseFrames": 30}  # fmt: skip
+    assert loopback.counters["pethPsePortMPSAbsentCounter"] == 2
+    assert loopback.counters["pethPsePortPowerDeniedCounter"] == 1
+    # class4(5) is class 4; the budget left is pethMainPsePower less the consumption.
+    assert loopback.poe_status == PoeStatus(
+        detection="deliveringPower", power_class=4, budget_left_w=248.0
+    )
+    assert loopback.poe is True
+    assert loopback.aggregate == names[other]  # the aggregator's own ifName
+    assert loopback.neighbor == Neighbor(
+        device="lark-east-idf2", port="ge-0/0/9", speeds_bps=[10**7, 10**8, 10**9]
+    )
+    for snap in ports.values():  # every other interface: none of the tables has its row
+        assert not any("Pause" in k or k.startswith("peth") for k in snap.counters)
+        assert (snap.poe_status, snap.poe, snap.aggregate, snap.neighbor) == (
+            None, None, None, None)  # fmt: skip
+
+
+UPTIME = 8_640_000  # sysUpTime of the recordings: one day, in TimeTicks (1/100 s)
+AE1 = 100  # the ifIndex of the recorded aggregate
+
+
+def v12_walk(fleet: Fleet) -> list[str]:
+    """The 48-port switch with the tables of format 1.2, as snmprec lines (tags: 2 INTEGER,
+    4x OCTET STRING in hex, 65 Counter32, 66 Gauge32, 67 TimeTicks, 70 Counter64)."""
+    walk = recorded_walk(fleet, "sw0001", RECORDED_AT, uptime_ticks=UPTIME)
+    lines = [f"{IF_ENTRY}.3.{i}|2|6" for i in range(1, 49)]  # ethernetCsmacd(6)
+    admin = dict.fromkeys(range(1, 49), 1) | {5: 2, 6: 3}  # port5 down, port6 testing
+    lines += [f"{IF_ENTRY}.7.{i}|2|{value}" for i, value in admin.items()]
+    changed = {1: UPTIME - 6000, 2: 0, 3: UPTIME + 50}  # a minute ago; before boot; later
+    lines += [f"{IF_ENTRY}.9.{i}|67|{value}" for i, value in changed.items()]
+    # ae1: an IEEE 802.1AX aggregate, ifType ieee8023adLag(161) (IANAifType-MIB).
+    lines += [f"{IF_ENTRY}.2.{AE1}|4|ae1", f"{IFX_ENTRY}.1.{AE1}|4|ae1",
+              f"{IF_ENTRY}.3.{AE1}|2|161", f"{IF_ENTRY}.7.{AE1}|2|1",
+              f"{IF_ENTRY}.8.{AE1}|2|1"]  # fmt: skip
+    # ifStackTable: ae1 above port47 and port48, active(1); rows with 0 name no layer.
+    lines += [f"{IF_STACK_ENTRY}.3.{AE1}.47|2|1", f"{IF_STACK_ENTRY}.3.{AE1}.48|2|1",
+              f"{IF_STACK_ENTRY}.3.0.{AE1}|2|1", f"{IF_STACK_ENTRY}.3.47.0|2|1",
+              f"{IF_STACK_ENTRY}.3.{AE1}.44|2|2"]  # notInService(2): not a member  # fmt: skip
+    # IEEE8023-LAG-MIB: port46 attached to ae1, port45 attached to none (0).
+    lines += [f"{LAG_PORT_ENTRY}.13.46|2|{AE1}", f"{LAG_PORT_ENTRY}.13.45|2|0"]
+    lines += pause_walk({
+        1: {"dot3InPauseFrames": 4_000_000_000, "dot3OutPauseFrames": 7,
+            "dot3HCInPauseFrames": 12_000_000_000, "dot3HCOutPauseFrames": 7},
+        2: {"dot3InPauseFrames": 0, "dot3OutPauseFrames": 0},
+    })  # fmt: skip
+    lines += peth_walk(
+        [
+            PsePort(1, 1, 3, 4, {"pethPsePortMPSAbsentCounter": 0, "pethPsePortShortCounter": 0}),
+            PsePort(1, 2, 2, 4),  # searching: the class is not valid (RFC 3621)
+            PsePort(1, 3, 4, counters={"pethPsePortOverLoadCounter": 9}),  # fault(4)
+            PsePort(1, 4, 6),  # otherFault(6)
+            PsePort(1, 5, 1),  # disabled(1)
+        ],
+        {1: (740, 125)},
+    )
+    # LLDP: port10's far end (no lldpLocPortTable: its port number is the ifIndex) offers
+    # 100BASE-TX full duplex only: bit 5 b100baseTXFD, 0x04 0x00 (RFC 3636).
+    lines += lldp_walk([Remote(10, "lark-east-cam4", 5, "eth0")], {})
+    lines.append(f"{LLDP_XDOT3_REM_ENTRY}.3.0.10.1|4x|0400")
+    return by_oid(walk + lines)
+
+
+@pytest.fixture(scope="module")
+def v12_switch(tmp_path_factory: pytest.TempPathFactory, fleet: Fleet) -> Iterator[Snmpsim]:
+    agent = Snmpsim(tmp_path_factory.mktemp("v12"), v12_walk(fleet), community="lark-v12")
+    yield agent
+    agent.stop()
+
+
+def read_v12(agent: Snmpsim, monkeypatch: pytest.MonkeyPatch) -> dict[str, Snapshot]:
+    monkeypatch.setenv("LARK_V12_COMMUNITY", agent.community)
+    reading = read_once(collector(agent.port, {"community": {"env": "LARK_V12_COMMUNITY"}}))
+    assert reading.problems == {}
+    return {s.port: s for s in reading.snapshots}
+
+
+def test_admin_status_and_last_change_read_as_rfc_2863_defines_them(
+    v12_switch: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    ports = read_v12(v12_switch, monkeypatch)
+    assert [ports[f"port{i}"].admin_status for i in (4, 5, 6)] == ["up", "down", "testing"]
+    # ifLastChange is the sysUpTime of the change: 6000 ticks (60 s) before the sysUpTime
+    # read at the poll's time.
+    assert ports["port1"].time - ports["port1"].last_change == timedelta(seconds=60)
+    assert ports["port2"].last_change is None  # 0: before the agent started (RFC 2863)
+    # Later than the sysUpTime read first: the state changed while the poll walked.
+    assert ports["port3"].last_change == ports["port3"].time
+    assert ports["port4"].last_change is None  # no ifLastChange recorded
+
+
+def test_pause_frames_come_from_dot3_pause_table_in_both_widths(
+    v12_switch: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    ports = read_v12(v12_switch, monkeypatch)
+    pause = {
+        port: {k: v for k, v in s.counters.items() if "Pause" in k} for port, s in ports.items()
+    }
+    # RFC 3635: dot3In/OutPauseFrames are Counter32, the HC forms Counter64.
+    assert pause["port1"] == {
+        "dot3InPauseFrames": 4_000_000_000, "dot3OutPauseFrames": 7,
+        "dot3HCInPauseFrames": 12_000_000_000, "dot3HCOutPauseFrames": 7}  # fmt: skip
+    assert pause["port2"] == {"dot3InPauseFrames": 0, "dot3OutPauseFrames": 0}  # zero, reported
+    assert pause["port3"] == {}  # no row: not reported, never zero
+
+
+def test_pse_ports_are_matched_to_interfaces_and_the_budget_left_is_shared(
+    v12_switch: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    ports = read_v12(v12_switch, monkeypatch)
+    # One group whose port numbers are ifIndexes that the names end with: both readings
+    # of RFC 3621's implementation-specific numbering agree (common practice).
+    left = 740.0 - 125.0  # pethMainPsePower less pethMainPseConsumptionPower, group 1
+    assert {p: ports[p].poe_status for p in ("port1", "port2", "port3", "port4", "port5")} == {
+        "port1": PoeStatus(detection="deliveringPower", power_class=3, budget_left_w=left),
+        "port2": PoeStatus(detection="searching", budget_left_w=left),  # class not valid
+        "port3": PoeStatus(detection="fault", budget_left_w=left),
+        "port4": PoeStatus(detection="otherFault", budget_left_w=left),
+        "port5": PoeStatus(detection="disabled", budget_left_w=left),
+    }
+    assert [ports[f"port{i}"].poe for i in range(1, 7)] == [True, False, False, False, False, None]
+    assert ports["port3"].counters["pethPsePortOverLoadCounter"] == 9
+    assert ports["port1"].counters["pethPsePortShortCounter"] == 0  # reported as zero
+    assert not any(k.startswith("peth") for k in ports["port2"].counters)
+    assert ports["port6"].poe_status is None  # no PSE row
+
+
+def test_aggregates_come_from_the_stack_table_and_the_lag_mib(
+    v12_switch: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    ports = read_v12(v12_switch, monkeypatch)
+    members = {port: s.aggregate for port, s in ports.items() if s.aggregate}
+    # ifStackTable (RFC 2863): ae1, an ieee8023adLag(161) interface, above port47 and
+    # port48; dot3adAggPortAttachedAggID (IEEE8023-LAG-MIB): port46 attached to ae1.
+    # notInService rows and rows with a 0 layer name no member.
+    assert members == {"port46": "ae1", "port47": "ae1", "port48": "ae1"}
+    assert ports["ae1"].aggregate is None
+
+
+def test_the_far_ends_advertised_speeds_come_from_lldp_ext_dot3(
+    v12_switch: Snmpsim, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    ports = read_v12(v12_switch, monkeypatch)
+    # lldpXdot3RemPortAutoNegAdvertisedCap 0x0400: b100baseTXFD alone (RFC 3636).
+    assert ports["port10"].neighbor == Neighbor(
+        device="lark-east-cam4", port="eth0", speeds_bps=[100_000_000]
+    )

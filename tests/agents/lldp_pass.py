@@ -1,6 +1,8 @@
-"""An snmpd pass_persist program serving fixed LLDP tables (net-snmp does not implement
-LLDP-MIB itself): ``lldp_pass.py TABLE.json``, the table an object of OID -> [type, value]
-with the types snmpd.conf(5) names for pass (``octet`` values as space-separated hex).
+"""An snmpd pass_persist program serving fixed tables net-snmp does not implement itself
+(LLDP-MIB, and for format 1.2 dot3PauseTable, POWER-ETHERNET-MIB, IEEE8023-LAG-MIB,
+ifStackTable): ``lldp_pass.py TABLE.json``, the table an object of OID -> [type, value]
+with the types snmpd.conf(5) names for pass (``octet`` values as space-separated hex), and
+``counter64``, which net-snmp 5.9 accepts though its manual says otherwise.
 
 It speaks the pass_persist protocol of snmpd.conf(5): PING is answered PONG; ``get`` and
 ``getnext`` with an OID are answered with the OID, type and value, or NONE.

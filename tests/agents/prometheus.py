@@ -4,8 +4,10 @@ The exporter answers ``/snmp?target=DEVICE`` the way an SNMP exporter with the I
 EtherLike-MIB modules does: one metric per MIB object, named as the object, with ifIndex,
 ifName and ifDescr labels, and sysUpTime. It keeps what it served, so a test can compare
 what the collector reads back through Prometheus with what was scraped. A device can be
-told to fail (its scrape answers 500, as the exporter does when the device is silent), and
-given more series to publish (``lldp``: the exposition of its LLDP tables).
+told to fail (its scrape answers 500, as the exporter does when the device is silent),
+given more series to publish (``lldp``: the exposition of its LLDP tables; ``more``: any
+other tables, such as those of format 1.2), and told to leave counters out (``skip``: a
+device whose exporter module does not look ifName up onto them).
 
 :class:`Prometheus` runs Debian's ``prometheus`` binary with a configuration of our own:
 the exporter's targets relabelled into ``instance`` as SNMP exporter setups do.
@@ -70,8 +72,9 @@ class Served:
     uptime_ticks: int
 
 
-def exposition(table: PollTable, uptime_ticks: int) -> str:
-    """Prometheus text exposition of one device, in the SNMP exporter's naming."""
+def exposition(table: PollTable, uptime_ticks: int, skip: tuple[str, ...] = ()) -> str:
+    """Prometheus text exposition of one device, in the SNMP exporter's naming; counters
+    whose names start with one of ``skip`` are left out."""
     lines = ["# TYPE sysUpTime gauge", f"sysUpTime {uptime_ticks}"]
 
     def labels(row: int) -> str:
@@ -80,7 +83,7 @@ def exposition(table: PollTable, uptime_ticks: int) -> str:
 
     for column_index, column in enumerate(COLUMNS):
         rows = np.flatnonzero(table.present[:, column_index])
-        if not len(rows):
+        if not len(rows) or column.name.startswith(skip):
             continue
         lines.append(f"# TYPE {column.name} counter")
         for row in rows:
@@ -109,6 +112,8 @@ class Exporter:
     failing: set[str] = field(default_factory=set)
     served: dict[str, list[Served]] = field(default_factory=dict)
     lldp: dict[str, str] = field(default_factory=dict)  # device -> exposition lines
+    more: dict[str, str] = field(default_factory=dict)  # device -> exposition lines
+    skip: dict[str, tuple[str, ...]] = field(default_factory=dict)  # device -> name prefixes
 
     def __post_init__(self) -> None:
         self.started = time.time()
@@ -128,7 +133,8 @@ class Exporter:
         ticks = UPTIME_TICKS_AT_START + int((now - self.started) * 100)
         with self._lock:
             self.served.setdefault(device, []).append(Served(now, table, ticks))
-        text = exposition(table, ticks) + self.lldp.get(device, "")
+        text = exposition(table, ticks, self.skip.get(device, ()))
+        text += self.lldp.get(device, "") + self.more.get(device, "")
         return 200, "text/plain; version=0.0.4", text.encode()
 
     def scrape_near(self, device: str, at: float) -> Served:

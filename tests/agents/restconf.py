@@ -5,7 +5,10 @@ document (``lldp``) serves it as ``ieee802-dot1ab-lldp:lldp``, the others answer
 it, as a server without that module does. Devices can be told to
 misbehave: ``auth`` (basic credentials required), ``error`` (500), ``slow`` (answers after
 ``slow_s``), ``garbage`` (not JSON), ``bad-types`` (a counter that is not a number).
-Every answer can be delayed by ``latency_s``, as a busy switch's agent would be.
+Every answer can be delayed by ``latency_s``, as a busy switch's agent would be. A device
+given ``more`` (port -> members) answers those members beside each port's own (the leaves
+of format 1.2, and the augmentations of IEEE 802.3.2), and a port named there that the
+device lacks is added as an interface of its own (an aggregate).
 """
 
 from __future__ import annotations
@@ -86,6 +89,7 @@ class RestconfAgent:
         self._documents: dict[str, bytes] = {}
         self.behaviour: dict[str, str] = {}
         self.lldp: dict[str, dict[str, Any]] = {}  # device -> its ieee802-dot1ab-lldp document
+        self.more: dict[str, dict[str, dict[str, Any]]] = {}  # device -> port -> members
         self.credentials = ("netops", "s3cret")
         self.requests: list[str] = []
         self._server: ThreadingHTTPServer | None = None
@@ -155,8 +159,15 @@ class RestconfAgent:
         return self
 
     def answer(self, device: str, mode: str) -> bytes:
-        if not self.cache_s or mode != "normal":
+        if not self.cache_s or mode != "normal" or device in self.more:
             body = document(self.fleet.read(device))
+            interfaces = body["ietf-interfaces:interfaces"]["interface"]
+            by_name = {entry["name"]: entry for entry in interfaces}
+            for port, members in self.more.get(device, {}).items():
+                if port in by_name:
+                    by_name[port].update(members)
+                else:
+                    interfaces.append({"name": port, **members})
             if mode == "bad-types":
                 body["ietf-interfaces:interfaces"]["interface"][1]["statistics"]["in-octets"] = (
                     "lots"

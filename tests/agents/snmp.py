@@ -11,7 +11,7 @@ import socket
 import subprocess
 import sys
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import pytest
@@ -102,22 +102,35 @@ def start_agent(
     return process
 
 
+#: LLDP-MIB's subtree, lldpMIB (IEEE 802.1AB-2005 12.1); LLDP-EXT-DOT3-MIB lies within it.
+LLDP_SUBTREE = "1.0.8802.1.1.2"
+
+
 class Snmpd:
     """net-snmp's snmpd in the foreground, our own config, v2c and a v3 user; with
-    ``lldp`` (OID -> pass type and value), LLDP's tables served by a pass_persist program."""
+    ``lldp`` (OID -> pass type and value), LLDP's tables served by a pass_persist program,
+    and with ``tables`` (subtree -> such a table) any other tables net-snmp does not
+    implement itself (dot3PauseTable, POWER-ETHERNET-MIB, IEEE8023-LAG-MIB, ifStackTable),
+    one pass_persist program per subtree."""
 
-    def __init__(self, folder: Path, lldp: dict[str, tuple[str, str]] | None = None) -> None:
+    def __init__(
+        self,
+        folder: Path,
+        lldp: dict[str, tuple[str, str]] | None = None,
+        tables: dict[str, dict[str, tuple[str, str]]] | None = None,
+    ) -> None:
         binary = require("snmpd")
         self.port = free_udp_port()
         config = folder / "snmpd.conf"
         served = ""
+        subtrees = dict(tables or {})
         if lldp is not None:
-            (folder / "lldp.json").write_text(json.dumps(lldp))
-            program = Path(__file__).with_name("lldp_pass.py")
-            # LLDP-MIB's subtree, lldpMIB (IEEE 802.1AB-2005 12.1).
-            served = (
-                f"pass_persist .1.0.8802.1.1.2 {sys.executable} {program} {folder / 'lldp.json'}\n"
-            )
+            subtrees[LLDP_SUBTREE] = lldp
+        program = Path(__file__).with_name("lldp_pass.py")
+        for number, (subtree, table) in enumerate(sorted(subtrees.items())):
+            data = folder / f"pass{number}.json"
+            data.write_text(json.dumps(table))
+            served += f"pass_persist .{subtree.strip('.')} {sys.executable} {program} {data}\n"
         config.write_text(
             f"rocommunity {COMMUNITY} 127.0.0.1\n"
             f'createUser {V3_USER} SHA "{V3_AUTH}" AES "{V3_PRIV}"\n'
@@ -133,9 +146,10 @@ class Snmpd:
         )  # fmt: skip
 
     def walk(self, oid: str) -> dict[int, str]:
-        """snmpbulkwalk's answer for one column: ifIndex -> value as text."""
+        """snmpbulkwalk's answer for one column: ifIndex -> value as text (enumerations and
+        TimeTicks as numbers)."""
         numbered = subprocess.run(
-            [require("snmpbulkwalk"), "-v2c", "-c", COMMUNITY, "-On", "-Oq", "-Oe",
+            [require("snmpbulkwalk"), "-v2c", "-c", COMMUNITY, "-On", "-Oq", "-Oe", "-Ot",
              f"127.0.0.1:{self.port}", oid],
             capture_output=True, text=True, check=True,
         ).stdout  # fmt: skip
@@ -284,3 +298,74 @@ SHIPPED = {
     "winxp-full-walk": SNMPSIM_DATA / "recorded" / "winxp-full-walk.snmprec",
     "multiplex-00000": SNMPSIM_DATA / "variation" / "multiplex" / "00000.snmprec",
 }
+
+
+#: The tables of format 1.2, numbered from the MIB texts (not taken from the collector):
+#: IF-MIB (RFC 2863) ifEntry 3 ifType, 7 ifAdminStatus, 9 ifLastChange, and ifStackEntry
+#: (1.3.6.1.2.1.31.1.2.1, column 3 ifStackStatus, indexed by higher then lower layer);
+#: EtherLike-MIB (RFC 3635) dot3PauseEntry 1.3.6.1.2.1.10.7.10.1, columns 3 dot3InPauseFrames,
+#: 4 dot3OutPauseFrames, 5 dot3HCInPauseFrames, 6 dot3HCOutPauseFrames;
+#: POWER-ETHERNET-MIB (RFC 3621) pethPsePortEntry 1.3.6.1.2.1.105.1.1.1, indexed by group and
+#: port: 6 DetectionStatus, 8 MPSAbsentCounter, 10 PowerClassifications,
+#: 11 InvalidSignatureCounter, 12 PowerDeniedCounter, 13 OverLoadCounter, 14 ShortCounter;
+#: pethMainPseEntry 1.3.6.1.2.1.105.1.3.1.1: 2 pethMainPsePower, 4 pethMainPseConsumptionPower;
+#: IEEE8023-LAG-MIB (IEEE 802.1AX) dot3adAggPortEntry 1.2.840.10006.300.43.1.2.1.1, column 13
+#: dot3adAggPortAttachedAggID; LLDP-EXT-DOT3-MIB (IEEE 802.1AB-2005 annex G)
+#: lldpXdot3RemPortEntry 1.0.8802.1.1.2.1.5.4623.1.3.1.1, column 3
+#: lldpXdot3RemPortAutoNegAdvertisedCap, indexed as lldpRemEntry.
+IF_STACK_ENTRY = "1.3.6.1.2.1.31.1.2.1"
+PAUSE_ENTRY = "1.3.6.1.2.1.10.7.10.1"
+PETH_PORT_ENTRY = "1.3.6.1.2.1.105.1.1.1"
+PETH_MAIN_ENTRY = "1.3.6.1.2.1.105.1.3.1.1"
+LAG_PORT_ENTRY = "1.2.840.10006.300.43.1.2.1.1"
+LLDP_XDOT3_REM_ENTRY = "1.0.8802.1.1.2.1.5.4623.1.3.1.1"
+PETH_COUNTER_COLUMNS = {
+    "pethPsePortMPSAbsentCounter": 8,
+    "pethPsePortInvalidSignatureCounter": 11,
+    "pethPsePortPowerDeniedCounter": 12,
+    "pethPsePortOverLoadCounter": 13,
+    "pethPsePortShortCounter": 14,
+}
+
+
+@dataclass(frozen=True)
+class PsePort:
+    """One row of pethPsePortTable: detection status and class as the MIB numbers them
+    (1 disabled ... 6 otherFault; class0(1) ... class4(5)), and its counters by name."""
+
+    group: int
+    port: int
+    detection: int
+    classification: int | None = None
+    counters: dict[str, int] = field(default_factory=dict)
+
+
+def peth_walk(ports: list[PsePort], main: dict[int, tuple[int, int]]) -> list[str]:
+    """POWER-ETHERNET-MIB's port table, and its main table (group -> power, consumption in
+    watts, both Gauge32), as snmprec lines."""
+    lines = []
+    for pse in ports:
+        row = f"{pse.group}.{pse.port}"
+        lines.append(f"{PETH_PORT_ENTRY}.6.{row}|2|{pse.detection}")
+        if pse.classification is not None:
+            lines.append(f"{PETH_PORT_ENTRY}.10.{row}|2|{pse.classification}")
+        for name, value in pse.counters.items():
+            lines.append(f"{PETH_PORT_ENTRY}.{PETH_COUNTER_COLUMNS[name]}.{row}|65|{value}")
+    for group, (power, used) in main.items():
+        lines += [
+            f"{PETH_MAIN_ENTRY}.2.{group}|66|{power}",
+            f"{PETH_MAIN_ENTRY}.4.{group}|66|{used}",
+        ]
+    return lines
+
+
+def pause_walk(counters: dict[int, dict[str, int]]) -> list[str]:
+    """dot3PauseTable (ifIndex -> counter name -> value) as snmprec lines: Counter32 for the
+    dot3In/OutPauseFrames columns, Counter64 for the HC ones."""
+    columns = {"dot3InPauseFrames": 3, "dot3OutPauseFrames": 4, "dot3HCInPauseFrames": 5,
+               "dot3HCOutPauseFrames": 6}  # fmt: skip
+    return [
+        f"{PAUSE_ENTRY}.{columns[name]}.{index}|{70 if 'HC' in name else 65}|{value}"
+        for index, named in counters.items()
+        for name, value in named.items()
+    ]

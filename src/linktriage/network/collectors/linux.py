@@ -15,6 +15,18 @@ which is harmless because the engine uses only the sum of the three kinds. The E
 error counters are read only from NICs on a hardware bus: a virtual NIC (virtio, Xen,
 Hyper-V) or a software interface (loopback, bridge, bond, veth) cannot see a bad frame,
 so its zeros would be claims it cannot make.
+
+Format 1.2 adds, for every interface, its administrative state: IFF_UP in ``flags``
+(include/uapi/linux/if.h; the flag ``ip link set DEV up`` sets), up or down, as
+ifAdminStatus has it. And, for NICs on a hardware bus, what ``ethtool --json`` tells (see
+:mod:`~linktriage.network.collectors.ethtool`, also for which release prints which): the
+FEC mode and its counters, the pause frames, the module's light, thresholds, lanes and
+PMD, the port's highest speed and medium. The partner's advertised speeds are read too,
+but the format carries them only inside ``neighbor``, which needs the far end's name and
+port, and this collector has no LLDP: they are not reported. ethtool is run through a runner that
+can be injected (``LinuxCollector(target, runner=...)``): tests replay recorded outputs.
+A command that fails (an older ethtool, a driver without the statistics, no module) adds
+nothing.
 """
 
 from __future__ import annotations
@@ -24,16 +36,25 @@ import os
 import shutil
 import socket
 import time
-from collections.abc import Sequence
+from collections.abc import Awaitable, Callable, Sequence
+from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import Literal
 
 from pydantic import Field, ValidationError, field_validator
 
 from linktriage.engine.format.counters import COLUMN_INDEX
-from linktriage.engine.format.snapshot import Snapshot
+from linktriage.engine.format.snapshot import FecMode, Optics, Snapshot
 from linktriage.errors import BadAnswerError, InputError
+from linktriage.network.collectors import ethtool as ethtool_json
 from linktriage.network.collectors.base import Collector, Options, Reading, Target
+
+#: Runs ethtool with these arguments (the binary left out); its standard output, or None
+#: where it failed.
+Runner = Callable[[Sequence[str]], Awaitable[str | None]]
+#: IFF_UP (include/uapi/linux/if.h): the interface is administratively up.
+IFF_UP = 0x1
 
 #: sysfs statistics of every interface -> the snapshot counter (RFC 2863 IF-MIB names).
 TRAFFIC = {
@@ -87,6 +108,8 @@ class LinuxOptions(Options):
     sysfs: Path = Path("/sys/class/net")
     ethtool: bool = True
     ethtool_path: str = "ethtool"
+    #: Ask ``ethtool --json`` for FEC, pause, module and link-mode state (format 1.2).
+    ethtool_json: bool = True
     #: More ``ethtool -S`` names per counter, tried before the built-in ones.
     ethtool_names: dict[str, list[str]] = Field(default_factory=dict)
 
@@ -133,10 +156,60 @@ def parse_ethtool_stats(text: str) -> dict[str, int]:
     return stats
 
 
+@dataclass(frozen=True, slots=True)
+class Ethtool:
+    """What ``ethtool --json`` says of one NIC (format 1.2); nothing where it said nothing."""
+
+    counters: dict[str, int] = field(default_factory=dict)
+    fec_mode: FecMode | None = None
+    optics: Optics | None = None
+    module_max_speed_bps: int | None = None
+    max_speed_bps: int | None = None
+    media: Literal["copper", "fiber"] | None = None
+    partner_speeds_bps: list[int] | None = None
+
+
+def ethtool_reading(
+    settings: str | None, fec: str | None, pause: str | None, module: str | None
+) -> Ethtool:
+    """The four outputs of ``ethtool --json`` (None: the command failed) read together: the
+    FEC mode needs the link's speed and lanes."""
+    modes = ethtool_json.link_modes(settings or "")
+    coded = ethtool_json.fec(fec or "", modes.speed_mbps, modes.lanes)
+    plugged = ethtool_json.module(module or "")
+    return Ethtool(
+        counters={**coded.counters, **ethtool_json.pause_counters(pause or "")},
+        fec_mode=coded.mode,
+        optics=plugged.optics,
+        module_max_speed_bps=plugged.max_speed_bps,
+        max_speed_bps=modes.max_speed_bps,
+        media=modes.media,
+        partner_speeds_bps=modes.partner_speeds_bps,
+    )
+
+
+def admin_status(folder: Path) -> Literal["up", "down"] | None:
+    """up or down from IFF_UP in the interface's ``flags`` (hex); None where unreadable."""
+    text = _read(folder / "flags")
+    try:
+        flags = int(text, 16) if text else None
+    except ValueError:
+        return None
+    if flags is None:
+        return None
+    return "up" if flags & IFF_UP else "down"
+
+
 def interface_snapshot(
-    device: str, folder: Path, at: float, ethtool: dict[str, int], names: dict[str, list[str]]
+    device: str,
+    folder: Path,
+    at: float,
+    ethtool: dict[str, int],
+    names: dict[str, list[str]],
+    more: Ethtool | None = None,
 ) -> Snapshot:
     """One interface's sysfs folder (and its ethtool statistics) as a snapshot."""
+    more = more or Ethtool()
     stats = folder / "statistics"
     counters: dict[str, int] = {}
     for leaf, counter in TRAFFIC.items():
@@ -156,6 +229,7 @@ def interface_snapshot(
                 if name in ethtool:
                     counters[counter] = ethtool[name]
                     break
+    counters.update(more.counters)
     state = _read(folder / "operstate") or "unknown"
     carrier = _read(folder / "carrier")
     # "unknown": the driver does not track operational state (loopback, many tunnels);
@@ -173,6 +247,12 @@ def interface_snapshot(
         duplex=duplex if duplex in ("full", "half", "unknown") else None,
         mtu=_number(folder / "mtu"),
         link_changes=_number(folder / "carrier_changes"),
+        admin_status=admin_status(folder),
+        fec_mode=more.fec_mode,
+        optics=more.optics,
+        module_max_speed_bps=more.module_max_speed_bps,
+        max_speed_bps=more.max_speed_bps,
+        media=more.media,
     )
 
 
@@ -181,8 +261,9 @@ class LinuxCollector(Collector[LinuxOptions]):
 
     needs_address = False
 
-    def __init__(self, target: Target) -> None:
+    def __init__(self, target: Target, *, runner: Runner | None = None) -> None:
         super().__init__(target)
+        self.runner = runner
         if target.address and target.address not in LOCAL_NAMES | {socket.gethostname()}:
             raise InputError(
                 f"{target.name}: the linux collector reads only the host linktriage runs on, "
@@ -197,23 +278,45 @@ class LinuxCollector(Collector[LinuxOptions]):
         except OSError as exc:
             raise self.error(BadAnswerError, f"cannot list {self.root}: {exc.strerror}") from exc
 
-    async def _ethtool(self, interface: str) -> dict[str, int]:
-        """The driver's statistics, or nothing where ethtool or the driver has none."""
+    async def _run(self, args: Sequence[str]) -> str | None:
+        """ethtool's output for these arguments, by the injected runner or the binary;
+        None where ethtool is off, missing, slow or failing."""
         o = self.options
-        binary = shutil.which(o.ethtool_path) if o.ethtool else None
+        if not o.ethtool:
+            return None
+        if self.runner is not None:
+            return await self.runner(args)
+        binary = shutil.which(o.ethtool_path)
         if binary is None:
-            return {}
+            return None
         process = await asyncio.create_subprocess_exec(
-            binary, "-S", interface,
-            stdout=asyncio.subprocess.PIPE, stderr=asyncio.subprocess.DEVNULL,
+            binary, *args, stdout=asyncio.subprocess.PIPE, stderr=asyncio.subprocess.DEVNULL,
         )  # fmt: skip
         try:
             out, _ = await asyncio.wait_for(process.communicate(), self.target.timeout_s)
         except TimeoutError:
             process.kill()
             await process.wait()
-            return {}
-        return parse_ethtool_stats(out.decode(errors="replace")) if process.returncode == 0 else {}
+            return None
+        return out.decode(errors="replace") if process.returncode == 0 else None
+
+    async def _ethtool(self, interface: str) -> dict[str, int]:
+        """The driver's statistics, or nothing where ethtool or the driver has none."""
+        text = await self._run(["-S", interface])
+        return parse_ethtool_stats(text) if text is not None else {}
+
+    async def _ethtool_json(self, interface: str) -> Ethtool:
+        """What ``ethtool --json`` says of a NIC: link modes, FEC, pause, module."""
+        if not self.options.ethtool_json:
+            return Ethtool()
+        asked = (
+            ["--json", interface],
+            ["--json", "-I", "--show-fec", interface],
+            ["--json", "-I", "-a", interface],
+            ["--json", "-m", interface],
+        )
+        settings, fec, pause, module = await asyncio.gather(*(self._run(a) for a in asked))
+        return ethtool_reading(settings, fec, pause, module)
 
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
         names = await self.ports() if ports is None else list(ports)
@@ -221,6 +324,8 @@ class LinuxCollector(Collector[LinuxOptions]):
         hardware = [name for name, folder in folders.items() if on_hardware_bus(folder)]
         found = await asyncio.gather(*(self._ethtool(name) for name in hardware))
         by_name = dict(zip(hardware, found, strict=True))
+        told = await asyncio.gather(*(self._ethtool_json(name) for name in hardware))
+        more = dict(zip(hardware, told, strict=True))
         o = self.options
 
         def read_all() -> Reading:
@@ -234,7 +339,12 @@ class LinuxCollector(Collector[LinuxOptions]):
                 try:
                     snapshots.append(
                         interface_snapshot(
-                            self.target.name, folder, at, by_name.get(name, {}), o.ethtool_names
+                            self.target.name,
+                            folder,
+                            at,
+                            by_name.get(name, {}),
+                            o.ethtool_names,
+                            more.get(name),
                         )
                     )
                 except ValidationError as exc:

@@ -7,6 +7,9 @@ remote-systems-data, or the SNMP exporter's series of them) gives the far end's 
 a port id with the subtype that says what the id is, and a port description. The snapshot
 format names the far port by the id where the id is a name, and by the description where
 the id is a MAC address; an id of any other kind falls back to the description too.
+Where the remote entry also carries LLDP's IEEE 802.3 MAC/PHY TLV (IEEE 802.1AB-2005
+annex G, IEEE 802.3 clause 79; LLDP-EXT-DOT3-MIB), the speeds the far end advertises for
+autonegotiation come with it.
 """
 
 from __future__ import annotations
@@ -73,6 +76,7 @@ class FarEnd:
     subtype: int | None
     port_desc: str
     id_is_name: bool
+    speeds: tuple[int, ...] | None = None  # advertised for autonegotiation, b/s
 
     @property
     def port(self) -> str | None:
@@ -85,6 +89,7 @@ def far_end(
     subtype: int | str | None,
     port_id: bytes | str | None,
     port_desc: bytes | str | None,
+    speeds: Iterable[int] | None = None,
 ) -> FarEnd:
     """A remote entry from its four values, however the protocol carried them: octets
     (SNMP) or text (YANG strings, exporter labels), the subtype as a number or a YANG enum
@@ -100,7 +105,10 @@ def far_end(
     else:
         shown = text if text is not None else (raw.hex() if isinstance(raw, bytes) else raw)
         named = text is not None and (kind is None or kind in NAMED_BY)
-    return FarEnd(_text(system_name or "") or "", shown, kind, _text(port_desc or "") or "", named)
+    advertised = tuple(sorted(set(speeds))) if speeds else None
+    return FarEnd(
+        _text(system_name or "") or "", shown, kind, _text(port_desc or "") or "", named, advertised
+    )
 
 
 def _mac(raw: bytes | str, text: str | None) -> str:
@@ -117,13 +125,17 @@ def neighbor(ends: Iterable[FarEnd]) -> Neighbor | None:
     """The one neighbor a local port hears: None where no entry names both a system and a
     port, or where entries name different ones (a hub, or a phone with a computer behind
     it: no single far end to pair this port with). Repeats of one far end (one per time
-    mark, or per destination address in LLDP-V2-MIB) are one neighbor."""
+    mark, or per destination address in LLDP-V2-MIB) are one neighbor; the speeds it
+    advertises are given where its entries that carry them agree."""
+    ends = list(ends)
     named = {(end.system_name, end.port) for end in ends if end.system_name and end.port}
     if len(named) != 1:
         return None
     ((device, port),) = named
     assert port is not None
-    return Neighbor(device=device, port=port)
+    offered = {end.speeds for end in ends if end.speeds}
+    speeds = list(offered.pop()) if len(offered) == 1 else None
+    return Neighbor(device=device, port=port, speeds_bps=speeds)
 
 
 def local_ports(

@@ -34,6 +34,18 @@ already decoded by its subtype (a MAC address as 04:05:06:07:08:09, text for nam
 The local port number is matched to a port as :func:`~linktriage.network.collectors.lldp.
 local_ports` says, from the lldpLocPortId and lldpLocPortDesc series or from the same
 labels where the module looks them up onto the remote series.
+
+Format 1.2 adds, read from the same query where the exporter's modules publish them:
+ifAdminStatus and ifLastChange (a gauge of TimeTicks, placed in time with the sysUpTime
+sample of the same scrape; 0, a change before the agent started, is left out, RFC 2863);
+the dot3PauseTable counters (RFC 3635), read as any other counter; POWER-ETHERNET-MIB's
+pethPsePortTable and pethMainPseTable (RFC 3621), whose series carry their own indexes
+(pethPsePortGroupIndex and pethPsePortIndex, pethMainPseGroupIndex) rather than a port's
+name, matched to ports as the SNMP collector matches them (``poe_ports``); ifStackStatus,
+with ifType (a gauge, or the ``ifType_info`` series of an EnumAsInfo override) and
+dot3adAggPortAttachedAggID for each port's aggregate; and LLDP-EXT-DOT3-MIB's
+lldpXdot3RemPortAutoNegAdvertisedCap for the speeds the far end advertises (an OCTET STRING
+the exporter writes as ``0x`` and hex).
 """
 
 from __future__ import annotations
@@ -51,11 +63,26 @@ import msgspec
 from pydantic import Field, ValidationError, field_validator
 
 from linktriage.engine.format.counters import COLUMN_INDEX, COUNTER64_MAX
-from linktriage.engine.format.snapshot import Neighbor, Snapshot
+from linktriage.engine.format.snapshot import Neighbor, PoeStatus, Snapshot
 from linktriage.errors import BadAnswerError, CollectorError
 from linktriage.network.collectors.base import HistoryCollector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
 from linktriage.network.collectors.lldp import FarEnd, far_end, local_ports, neighbor
+from linktriage.network.collectors.mibs import (
+    DELIVERING,
+    DETECTION,
+    LAG_IFTYPE,
+    PoeMapping,
+    PoePort,
+    admin_status,
+    advertised_speeds,
+    aggregates,
+    budget_left,
+    last_change,
+    poe_interfaces,
+    poe_status,
+    power_class,
+)
 
 #: Port state the collector reads, by the IF-MIB / EtherLike-MIB object (RFC 2863, RFC 3635)
 #: whose value the metric carries.
@@ -66,6 +93,9 @@ STATE_OBJECTS = (
     "ifMtu",
     "dot3StatsDuplexStatus",
     "ifCounterDiscontinuityTime",
+    "ifAdminStatus",  # since format 1.2
+    "ifLastChange",
+    "ifType",
 )
 #: Series of the device rather than a port: its agent's sysUpTime (RFC 3418), to place
 #: ifCounterDiscontinuityTime in time, and ``up``, Prometheus's own record of whether the
@@ -77,6 +107,26 @@ DEVICE_OBJECTS = ("sysUpTime", "up")
 LLDP_REMOTE = ("lldpRemSysName", "lldpRemPortIdSubtype", "lldpRemPortId", "lldpRemPortDesc")
 LLDP_LOCAL = ("lldpLocPortId", "lldpLocPortDesc")
 LLDP_ROW = ("lldpRemTimeMark", "lldpRemLocalPortNum", "lldpRemIndex")
+#: LLDP-EXT-DOT3-MIB (IEEE 802.1AB-2005 annex G), indexed as lldpRemTable.
+LLDP_REMOTE_DOT3 = ("lldpXdot3RemPortAutoNegAdvertisedCap",)
+#: POWER-ETHERNET-MIB (RFC 3621): the PSE port objects that are not counters, indexed by
+#: pethPsePortGroupIndex and pethPsePortIndex, and the main PSE objects, by
+#: pethMainPseGroupIndex.
+POE_PORT_STATE = ("pethPsePortDetectionStatus", "pethPsePortPowerClassifications")
+POE_MAIN = ("pethMainPsePower", "pethMainPseConsumptionPower")
+POE_PORT_LABELS = ("pethPsePortGroupIndex", "pethPsePortIndex")
+POE_PORT_OBJECTS = frozenset(
+    {*POE_PORT_STATE, *(name for name in COLUMN_INDEX if name.startswith("pethPsePort"))}
+)
+#: Aggregation: IF-MIB ifStackStatus (labels ifStackHigherLayer, ifStackLowerLayer) and
+#: IEEE8023-LAG-MIB dot3adAggPortAttachedAggID (label dot3adAggPortIndex), and ifType as the
+#: SNMP exporter's EnumAsInfo override publishes it (its enum name in the ifType label).
+STACK_OBJECTS = ("ifStackStatus", "dot3adAggPortAttachedAggID")
+IFTYPE_INFO = "ifType_info"
+TABLE_OBJECTS = (*POE_MAIN, *STACK_OBJECTS, IFTYPE_INFO)
+#: Objects whose series the collector reads, beyond the counters.
+READ_OBJECTS = (*STATE_OBJECTS, *DEVICE_OBJECTS, *LLDP_REMOTE, *LLDP_LOCAL, *LLDP_REMOTE_DOT3,
+                *POE_PORT_STATE, *TABLE_OBJECTS)  # fmt: skip
 OPER_STATUS = {1: "up", 2: "down", 3: "testing", 4: "unknown", 5: "dormant", 6: "notPresent",
                7: "lowerLayerDown"}  # fmt: skip
 DUPLEX = {1: "unknown", 2: "half", 3: "full"}
@@ -130,6 +180,8 @@ class PrometheusOptions(HttpOptions):
     #: How far back a read looks for the newest scrape; default two scrape intervals, so
     #: one scrape is always inside and little more is fetched than is kept.
     lookback_s: Annotated[float | None, Field(gt=0, le=86_400)] = None
+    #: How POWER-ETHERNET-MIB's PSE ports are matched to ports (see mibs.poe_interfaces).
+    poe_ports: PoeMapping = "auto"
 
     @field_validator("server")
     @classmethod
@@ -155,7 +207,7 @@ class PrometheusOptions(HttpOptions):
     @field_validator("metrics")
     @classmethod
     def _metric_names(cls, metrics: dict[str, str]) -> dict[str, str]:
-        known = {*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS, *LLDP_REMOTE, *LLDP_LOCAL}
+        known = {*COLUMN_INDEX, *READ_OBJECTS}
         for obj, metric in metrics.items():
             if obj not in known:
                 raise ValueError(f"{obj!r} is not a counter or state object linktriage reads")
@@ -186,6 +238,14 @@ def selector(
     return "{" + ",".join(parts) + "}"
 
 
+def _maybe_integer(text: Any) -> int | None:
+    """A sample value as an integer; None where it is absent or not one."""
+    try:
+        return None if text is None else _integer(text)
+    except ValueError:
+        return None
+
+
 def _integer(text: Any) -> int:
     """A sample value (a JSON string such as ``"1234"`` or ``"1.5e+15"``) as an integer."""
     value = float(text)
@@ -202,8 +262,13 @@ class Samples:
             raise ValueError("the answer holds no matrix of samples")
         self.ports: dict[str, dict[float, dict[str, Any]]] = defaultdict(dict)
         self.device: dict[str, list[tuple[float, Any]]] = {o: [] for o in DEVICE_OBJECTS}
-        self.lldp: dict[str, list[Series]] = {o: [] for o in (*LLDP_REMOTE, *LLDP_LOCAL)}
+        self.lldp: dict[str, list[Series]] = {
+            o: [] for o in (*LLDP_REMOTE, *LLDP_LOCAL, *LLDP_REMOTE_DOT3)
+        }
+        self.tables: dict[str, list[Series]] = defaultdict(list)  # indexed by their own labels
         self.interfaces: dict[str, dict[str, str]] = {}  # port -> its series' labels
+        self.port_label = port_label
+        self.aggregates: dict[str, str] = {}  # port -> its aggregate's name
         self.problems: dict[str, str] = {}
         unlabelled = 0
         seen: dict[tuple[str, str], int] = defaultdict(int)
@@ -219,6 +284,12 @@ class Samples:
                 self.lldp[obj].append(series)
                 continue
             port = labels.get(port_label)
+            if obj in TABLE_OBJECTS or (
+                obj in POE_PORT_OBJECTS
+                and (not port or all(name in labels for name in POE_PORT_LABELS))
+            ):
+                self.tables[obj].append(series)  # placed on ports by attach_tables
+                continue
             if not port:
                 unlabelled += 1
                 continue
@@ -247,11 +318,92 @@ class Samples:
 
     def booted(self, at: float) -> float | None:
         """When the device's agent started, from the sysUpTime sample nearest ``at``."""
+        nearest = self._uptime(at)
+        return None if nearest is None else nearest[0] - nearest[1] / 100.0
+
+    def uptime_at(self, at: float) -> int | None:
+        """The agent's sysUpTime (TimeTicks) at ``at``, from the sample nearest it (the one
+        of the same scrape), counted on to ``at``."""
+        nearest = self._uptime(at)
+        return None if nearest is None else nearest[1] + round((at - nearest[0]) * 100)
+
+    def _uptime(self, at: float) -> tuple[float, int] | None:
         uptime = self.device["sysUpTime"]
         if not uptime:
             return None
         t, ticks = min(uptime, key=lambda sample: abs(sample[0] - at))
-        return t - _integer(ticks) / 100.0
+        return t, _integer(ticks)
+
+    def _by_index(self) -> dict[int, str]:
+        """Each port by the ifIndex label of its series, as the exporter sets it."""
+        return {
+            int(labels["ifIndex"]): port
+            for port, labels in self.interfaces.items()
+            if labels.get("ifIndex", "").isdigit()
+        }
+
+    def attach_tables(self, how: PoeMapping) -> None:
+        """Place on the ports what tables of their own indexes say: PSE ports (RFC 3621,
+        by their own port label where a module looks it up, else matched as ``how``
+        says) with their group's power budget, and each port's aggregate."""
+        by_index = self._by_index()
+        poe: dict[PoePort, dict[float, dict[str, Any]]] = defaultdict(lambda: defaultdict(dict))
+        named: dict[PoePort, str] = {}
+        main: dict[str, dict[float, dict[str, Any]]] = defaultdict(lambda: defaultdict(dict))
+        for obj, all_series in self.tables.items():
+            for series in all_series:
+                labels = series.metric
+                if obj in POE_MAIN:
+                    for t, v in series.values:
+                        main[labels.get("pethMainPseGroupIndex", "")][t][obj] = v
+                    continue
+                if obj not in POE_PORT_OBJECTS:
+                    continue
+                key = tuple(labels.get(name, "") for name in POE_PORT_LABELS)
+                if not all(part.isdigit() for part in key):
+                    continue
+                row = (int(key[0]), int(key[1]))
+                if labels.get(self.port_label):
+                    named[row] = labels[self.port_label]
+                for t, v in series.values:
+                    poe[row][t][obj] = v
+        mapped = poe_interfaces([r for r in poe if r not in named], by_index, how)
+        ports = named | {row: by_index[index] for row, index in mapped.items()}
+        for row, port in ports.items():
+            times = self.ports.get(port, {})
+            for t, objects in poe[row].items():
+                if t in times:  # a scrape of the port's own series
+                    times[t].update(objects)
+                    times[t].update(main.get(str(row[0]), {}).get(t, {}))
+        self.aggregates = self._aggregates(by_index)
+
+    def _aggregates(self, by_index: dict[int, str]) -> dict[str, str]:
+        """Each port's aggregate (port -> the aggregate's port name), from the newest
+        samples of ifStackStatus, dot3adAggPortAttachedAggID and ifType."""
+        types: dict[int, int] = {}
+        for index, port in by_index.items():
+            newest = self.ports[port][max(self.ports[port])] if self.ports.get(port) else {}
+            if (kind := _maybe_integer(newest.get("ifType"))) is not None:
+                types[index] = kind
+        stack: list[tuple[int, int]] = []
+        attached: dict[int, int] = {}
+        for series in self.tables.get(IFTYPE_INFO, []):
+            label = series.metric.get("ifIndex", "")
+            if label.isdigit() and series.metric.get("ifType") == "ieee8023adLag":
+                types[int(label)] = LAG_IFTYPE
+        for series in self.tables.get("ifStackStatus", []):
+            layers = (series.metric.get("ifStackHigherLayer", ""),
+                      series.metric.get("ifStackLowerLayer", ""))  # fmt: skip
+            status = _maybe_integer(max(series.values)[1]) if series.values else None
+            if all(x.isdigit() for x in layers) and status == 1:  # RowStatus active(1)
+                stack.append((int(layers[0]), int(layers[1])))
+        for series in self.tables.get("dot3adAggPortAttachedAggID", []):
+            member = series.metric.get("dot3adAggPortIndex", "")
+            aggregator = _maybe_integer(max(series.values)[1]) if series.values else None
+            if member.isdigit() and aggregator is not None:
+                attached[int(member)] = aggregator
+        found = aggregates(stack, types, attached, by_index)
+        return {by_index[member]: name for member, name in found.items() if member in by_index}
 
     def neighbors(self) -> dict[str, Neighbor]:
         """Each port's neighbor from the LLDP-MIB series (port -> neighbor); a port is
@@ -270,16 +422,17 @@ class Samples:
             for series in self.lldp[obj]:
                 number = series.metric.get("lldpLocPortNum", "")
                 local[number].setdefault(obj, _lldp_value(series, obj))
+        speeds: dict[tuple[str, ...], list[int] | None] = {}
+        for series in self.lldp[LLDP_REMOTE_DOT3[0]]:
+            octets = _lldp_value(series, LLDP_REMOTE_DOT3[0])
+            row = tuple(series.metric.get(name, "") for name in LLDP_ROW)
+            speeds[row] = advertised_speeds(octets) if isinstance(octets, bytes) else None
         ends = {
             row: far_end(v.get("lldpRemSysName"), v.get("lldpRemPortIdSubtype"),
-                         v.get("lldpRemPortId"), v.get("lldpRemPortDesc"))
+                         v.get("lldpRemPortId"), v.get("lldpRemPortDesc"), speeds.get(row))
             for row, v in remote.items()
         }  # fmt: skip
-        by_index = {
-            int(labels["ifIndex"]): port
-            for port, labels in self.interfaces.items()
-            if labels.get("ifIndex", "").isdigit()
-        }
+        by_index = self._by_index()
         descriptions = {
             index: self.interfaces[port].get("ifDescr", "") for index, port in by_index.items()
         }
@@ -338,6 +491,8 @@ def _snapshot(
     values: dict[str, Any],
     booted: float | None,
     far: Neighbor | None,
+    uptime_ticks: int | None = None,
+    aggregate: str | None = None,
 ) -> Snapshot:
     # float64 rounds the top 1,024 Counter64 values up to 2^64: read them as the largest.
     counters = {
@@ -354,10 +509,12 @@ def _snapshot(
         moment = booted + state["ifCounterDiscontinuityTime"] / 100.0
         discontinuity = datetime.fromtimestamp(moment, UTC)
     duplex = state.get("dot3StatsDuplexStatus")
+    when = datetime.fromtimestamp(at, UTC)
+    powered = _poe(values)
     return Snapshot(
         device=device,
         port=port,
-        time=datetime.fromtimestamp(at, UTC),
+        time=when,
         oper_status=OPER_STATUS.get(state.get("ifOperStatus", 4), "unknown"),
         counters=counters,
         speed_bps=speed,
@@ -365,7 +522,26 @@ def _snapshot(
         mtu=state.get("ifMtu"),
         discontinuity_time=discontinuity,
         neighbor=far,
+        admin_status=admin_status(state.get("ifAdminStatus")),
+        last_change=last_change(when, uptime_ticks, state.get("ifLastChange")),
+        aggregate=aggregate,
+        poe_status=powered,
+        poe=None if powered is None else powered.detection == DELIVERING,
     )
+
+
+def _poe(values: dict[str, Any]) -> PoeStatus | None:
+    """A PSE port's state (RFC 3621) from its samples and its group's power budget."""
+    detection = None
+    if "pethPsePortDetectionStatus" in values:
+        detection = DETECTION.get(_integer(values["pethPsePortDetectionStatus"]))
+    number = values.get("pethPsePortPowerClassifications")
+    main = [values.get(obj) for obj in POE_MAIN]
+    left = budget_left(*(None if v is None else float(v) for v in main))
+    return poe_status(
+        detection, power_class(None if number is None else _integer(number), detection), None,
+        left if left is None or math.isfinite(left) else None,
+    )  # fmt: skip
 
 
 #: Reads of devices on one server asked for within this long are made one query...
@@ -468,7 +644,7 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
         super().__init__(target)
         o = self.options
         self.url = o.server.rstrip("/") + "/api/v1/query"
-        names = [*COLUMN_INDEX, *STATE_OBJECTS, *DEVICE_OBJECTS, *LLDP_REMOTE, *LLDP_LOCAL]
+        names = [*COLUMN_INDEX, *READ_OBJECTS]
         self.objects = {o.metrics.get(name, name): name for name in names}  # metric -> object
         instance = o.instance or target.address or target.name
         self.labels = {o.device_label: instance, **o.matchers}
@@ -528,6 +704,7 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
         snapshots: list[Snapshot] = []
         problems = {p: why for p, why in samples.problems.items() if wanted is None or p in wanted}
         neighbors = samples.neighbors()
+        samples.attach_tables(self.options.poe_ports)
         for port, times in samples.ports.items():
             if wanted is not None and port not in wanted:
                 continue
@@ -541,6 +718,8 @@ class PrometheusCollector(HistoryCollector[PrometheusOptions]):
                         times[at],
                         samples.booted(at),
                         neighbors.get(port),
+                        samples.uptime_at(at),
+                        samples.aggregates.get(port),
                     )
                     for at in moments
                 ]

@@ -21,19 +21,35 @@ remote-systems-data``), asked for at the same time::
 Its ports are named by ``if:interface-ref``, so they are the ietf-interfaces names
 themselves. A device without the module (404), or one whose answer cannot be read, still
 gives its counters, with no neighbors. Neighbors are asked for again only every
-``neighbors_every_s`` (300 s unless set), and kept in between.
+``neighbors_every_s`` (300 s unless set), and kept in between. Where a remote entry carries
+ieee802-ethernet-lldp's ``auto-negotiation-cap`` (IEEE 802.3.2; two octets of RFC 3636's
+ifMauAutoNegCapAdvertisedBits, base64 in JSON, RFC 7951 section 6.6), the speeds the far
+end advertises come with it.
+
+Format 1.2 adds, from the same ietf-interfaces document: ``admin-status`` and
+``last-change`` (RFC 8343, ifAdminStatus and ifLastChange); each port's aggregate, the
+interface among its ``higher-layer-if`` (RFC 8343, ifStackTable) whose ``type`` is
+ieee8023adLag; and where the device implements IEEE 802.3.2's augmentations of it
+(ieee802-ethernet-interface, ieee802-ethernet-pse), the PAUSE frame counters
+(``ethernet/flow-control/pause/statistics``, IEEE 802.3 30.3.4.2 and 30.3.4.3, read as
+dot3HCOut/InPauseFrames), the duplex (``ethernet/duplex``, 30.3.1.1.32) and the PSE port
+(``ethernet/pse/multi-pair``: detection status, class, actual power, and its counters as the
+POWER-ETHERNET-MIB objects they mirror; being counter64, their low 32 bits, as a Counter32
+reports them, RFC 2863 section 3.1.6). OpenConfig paths are not read: the collector asks
+for the IETF and IEEE modules only.
 """
 
 from __future__ import annotations
 
 import asyncio
+import base64
 from collections.abc import Sequence
 from datetime import UTC, datetime
 from typing import Annotated, Any, Literal
 
 from pydantic import Field, ValidationError
 
-from linktriage.engine.format.snapshot import Neighbor, Snapshot
+from linktriage.engine.format.snapshot import Neighbor, PoeStatus, Snapshot
 from linktriage.errors import BadAnswerError, CollectorError
 from linktriage.network.collectors.base import Collector, Reading, Target
 from linktriage.network.collectors.http import HttpOptions, HttpSession
@@ -44,6 +60,7 @@ from linktriage.network.collectors.lldp import (
     far_end,
     neighbor,
 )
+from linktriage.network.collectors.mibs import DELIVERING, advertised_speeds, poe_status
 
 #: RFC 8343 statistics leaves and the IF-MIB counters they are (RFC 8343 section 4).
 STATISTICS = {
@@ -71,6 +88,26 @@ OPER_STATUS = {
     "lower-layer-down": "lowerLayerDown",
 }
 MEDIA_TYPE = "application/yang-data+json"
+#: RFC 8343 admin-status: the same names as the format's.
+ADMIN_STATUS = ("up", "down", "testing")
+#: ieee802-ethernet-interface (IEEE 802.3.2) PAUSE statistics -> the EtherLike-MIB objects
+#: counting the same IEEE 802.3 attributes (RFC 3635; both 64-bit). The module's text calls
+#: in-frames-pause "transmitted" too, but its reference, 30.3.4.3
+#: aPAUSEMACCtrlFramesReceived, says which it is.
+PAUSE = {"in-frames-pause": "dot3HCInPauseFrames", "out-frames-pause": "dot3HCOutPauseFrames"}
+#: ieee802-ethernet-pse multi-pair statistics -> POWER-ETHERNET-MIB (RFC 3621) counters.
+PSE_COUNTERS = {
+    "mps-absent": "pethPsePortMPSAbsentCounter",
+    "invalid-signature": "pethPsePortInvalidSignatureCounter",
+    "power-denied": "pethPsePortPowerDeniedCounter",
+    "overload": "pethPsePortOverLoadCounter",
+    "short": "pethPsePortShortCounter",
+}
+#: ieee802-ethernet-pse detection-status: the POWER-ETHERNET-MIB names the format uses.
+DETECTION = ("disabled", "searching", "deliveringPower", "fault", "test", "otherFault")
+#: iana-if-type's identity of an IEEE 802.1AX link aggregate.
+LAG_TYPE = "ieee8023adLag"
+DUPLEX = ("full", "half", "unknown")
 
 
 class RestconfOptions(HttpOptions):
@@ -117,13 +154,71 @@ def lldp_neighbors(document: Any) -> dict[str, Neighbor]:
         if not isinstance(name, str) or not isinstance(remote, list):
             continue
         for far in map(_members, remote):
-            values = [
+            system, subtype, port_id, desc = values = [
                 far.get(leaf) for leaf in ("system-name", "port-id-subtype", "port-id", "port-desc")
             ]
             if all(value is None or isinstance(value, str) for value in values):
-                heard.setdefault(name, []).append(far_end(*values))
+                speeds = _speeds(far.get("auto-negotiation-cap"))
+                heard.setdefault(name, []).append(far_end(system, subtype, port_id, desc, speeds))
     found = {name: neighbor(ends) for name, ends in heard.items()}
     return {name: far for name, far in found.items() if far is not None}
+
+
+def _speeds(value: Any) -> list[int] | None:
+    """The speeds a base64 ``auto-negotiation-cap`` (RFC 7951 binary) advertises."""
+    if not isinstance(value, str):
+        return None
+    try:
+        return advertised_speeds(base64.b64decode(value, validate=True))
+    except ValueError:
+        return None
+
+
+def _aggregates(interfaces: list[Any]) -> dict[str, str]:
+    """Each port's aggregate: the one interface among its ``higher-layer-if`` (RFC 8343)
+    whose type is iana-if-type's ieee8023adLag."""
+    entries = [_members(raw) for raw in interfaces]
+    lags = {e.get("name") for e in entries if _local(str(e.get("type", ""))) == LAG_TYPE}
+    found: dict[str, str] = {}
+    for entry in entries:
+        higher = entry.get("higher-layer-if")
+        above = {h for h in higher if h in lags} if isinstance(higher, list) else set()
+        if isinstance(entry.get("name"), str) and len(above) == 1:
+            found[entry["name"]] = str(above.pop())
+    return found
+
+
+def _ethernet(entry: dict[str, Any]) -> tuple[dict[str, int], PoeStatus | None, str | None]:
+    """What IEEE 802.3.2's ieee802-ethernet-interface and ieee802-ethernet-pse say of an
+    interface: PAUSE and PSE counters, the PSE port's state, and the duplex."""
+    ethernet = _members(entry.get("ethernet"))
+    if not ethernet:
+        return {}, None, None
+    pause = _members(
+        _members(_members(_members(ethernet.get("flow-control")).get("pause")).get("statistics"))
+    )
+    counters = {name: _counter(pause[leaf]) for leaf, name in PAUSE.items() if leaf in pause}
+    pse = _members(_members(ethernet.get("pse")).get("multi-pair"))
+    statistics = _members(pse.get("statistics"))
+    counters |= {
+        name: _counter(statistics[leaf]) % 2**32
+        for leaf, name in PSE_COUNTERS.items()
+        if leaf in statistics
+    }
+    detection = pse.get("detection-status")
+    found = detection if detection in DETECTION else None
+    power_class = None
+    named = pse.get("classifications")  # class0 .. class4; present only while powering
+    if found == DELIVERING and isinstance(named, str) and named in {f"class{n}" for n in range(5)}:
+        power_class = int(named[5:])
+    actual = pse.get("actual-power")  # decimal64 milliwatts: a JSON string (RFC 7951)
+    watts = float(actual) / 1000 if isinstance(actual, str | int) else None
+    duplex = ethernet.get("duplex")
+    return (
+        counters,
+        poe_status(found, power_class, watts),
+        duplex if duplex in DUPLEX else None,
+    )
 
 
 def interfaces_to_snapshots(
@@ -136,6 +231,7 @@ def interfaces_to_snapshots(
     interfaces = _members(top).get("interface")
     if not isinstance(interfaces, list):
         raise ValueError("no ietf-interfaces:interfaces/interface list")
+    aggregates = _aggregates(interfaces)
     snapshots: list[Snapshot] = []
     problems: dict[str, str] = {}
     for raw in interfaces:
@@ -152,6 +248,9 @@ def interfaces_to_snapshots(
                 if leaf in statistics
             }
             speed = entry.get("speed")
+            more, powered, duplex = _ethernet(entry)
+            counters |= more
+            admin = entry.get("admin-status")
             snapshots.append(
                 Snapshot(
                     device=device,
@@ -162,6 +261,12 @@ def interfaces_to_snapshots(
                     speed_bps=None if speed is None else _counter(speed),
                     discontinuity_time=statistics.get("discontinuity-time"),
                     neighbor=neighbors.get(name),
+                    admin_status=admin if admin in ADMIN_STATUS else None,
+                    last_change=entry.get("last-change"),
+                    aggregate=aggregates.get(name),
+                    duplex=duplex,
+                    poe_status=powered,
+                    poe=None if powered is None else powered.detection == DELIVERING,
                 )
             )
         except (ValueError, ValidationError) as exc:

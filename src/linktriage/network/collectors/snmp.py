@@ -14,7 +14,20 @@ where the device answers it, indexed by the local ifIndex itself, else LLDP-MIB'
 lldpLocPortTable (:func:`~linktriage.network.collectors.lldp.local_ports`). The system
 names are walked with the counters, the rest of the table only where a device has some:
 a device without LLDP costs two short walks. Neighbors are read again only every
-``neighbors_every_s`` (300 s unless set), and kept in between.
+``neighbors_every_s`` (300 s unless set), and kept in between. Where the device has
+LLDP-EXT-DOT3-MIB's remote port table (IEEE 802.1AB-2005 annex G), the speeds each far end
+advertises (lldpXdot3RemPortAutoNegAdvertisedCap, RFC 3636 bits: up to 1 Gb/s) come too.
+
+Format 1.2 adds, from the same walk: ifAdminStatus, and ifLastChange placed in time with
+the sysUpTime read at the start of the poll (0, a change before the agent started, is left
+out); the pause frames of EtherLike-MIB's dot3PauseTable (RFC 3635, indexed by ifIndex);
+POWER-ETHERNET-MIB's PSE ports and power budget (RFC 3621; the table is indexed by group
+and port, matched to interfaces as ``poe_ports`` says, see
+:func:`~linktriage.network.collectors.mibs.poe_interfaces`); and each port's aggregate,
+from IF-MIB's ifStackTable (an ieee8023adLag interface stacked above it) or
+IEEE8023-LAG-MIB's dot3adAggPortAttachedAggID. A table is probed by one column and walked
+in full only where the device has rows in it: a device without it costs one short walk,
+and reads as before.
 """
 
 from __future__ import annotations
@@ -22,12 +35,13 @@ from __future__ import annotations
 import asyncio
 import time
 from collections.abc import Awaitable, Callable, Sequence
+from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from typing import Annotated, Any, Literal
 
 from pydantic import Field
 
-from linktriage.engine.format.snapshot import Neighbor, Snapshot
+from linktriage.engine.format.snapshot import Neighbor, PoeStatus, Snapshot
 from linktriage.errors import BadAnswerError, CollectorError, DeviceTimeoutError
 from linktriage.network.collectors.base import Collector, Options, Reading, SecretRef, Target
 from linktriage.network.collectors.lldp import (
@@ -37,6 +51,19 @@ from linktriage.network.collectors.lldp import (
     far_end,
     local_ports,
     neighbor,
+)
+from linktriage.network.collectors.mibs import (
+    DELIVERING,
+    DETECTION,
+    PoeMapping,
+    admin_status,
+    advertised_speeds,
+    aggregates,
+    budget_left,
+    last_change,
+    poe_interfaces,
+    poe_status,
+    power_class,
 )
 
 IF_ENTRY = "1.3.6.1.2.1.2.2.1"
@@ -74,14 +101,47 @@ COUNTER_COLUMNS: dict[str, str] = {
 }
 STATE_COLUMNS: dict[str, str] = {
     f"{IF_ENTRY}.2": "ifDescr",
+    f"{IF_ENTRY}.3": "ifType",
     f"{IF_ENTRY}.4": "ifMtu",
     f"{IF_ENTRY}.5": "ifSpeed",
+    f"{IF_ENTRY}.7": "ifAdminStatus",
     f"{IF_ENTRY}.8": "ifOperStatus",
+    f"{IF_ENTRY}.9": "ifLastChange",
     f"{IFX_ENTRY}.1": "ifName",
     f"{IFX_ENTRY}.15": "ifHighSpeed",
     f"{IFX_ENTRY}.19": "ifCounterDiscontinuityTime",
     f"{DOT3_ENTRY}.19": "dot3StatsDuplexStatus",
 }
+#: EtherLike-MIB dot3PauseTable (RFC 3635): dot3PauseEntry, indexed by dot3StatsIndex (the
+#: ifIndex). dot3InPauseFrames probes for the table; the rest is walked where it has rows.
+PAUSE_ENTRY = "1.3.6.1.2.1.10.7.10.1"
+PAUSE_COLUMNS: dict[str, str] = {
+    f"{PAUSE_ENTRY}.3": "dot3InPauseFrames",
+    f"{PAUSE_ENTRY}.4": "dot3OutPauseFrames",
+    f"{PAUSE_ENTRY}.5": "dot3HCInPauseFrames",
+    f"{PAUSE_ENTRY}.6": "dot3HCOutPauseFrames",
+}
+PAUSE_PROBE = f"{PAUSE_ENTRY}.3"
+#: POWER-ETHERNET-MIB (RFC 3621): pethPsePortEntry, indexed by pethPsePortGroupIndex and
+#: pethPsePortIndex, and pethMainPseEntry, indexed by pethMainPseGroupIndex (the same
+#: group numbers). pethPsePortDetectionStatus probes for the tables.
+PETH_PORT_ENTRY = "1.3.6.1.2.1.105.1.1.1"
+PETH_DETECTION = f"{PETH_PORT_ENTRY}.6"  # pethPsePortDetectionStatus
+PETH_CLASS = f"{PETH_PORT_ENTRY}.10"  # pethPsePortPowerClassifications
+PETH_COUNTERS: dict[str, str] = {
+    f"{PETH_PORT_ENTRY}.8": "pethPsePortMPSAbsentCounter",
+    f"{PETH_PORT_ENTRY}.11": "pethPsePortInvalidSignatureCounter",
+    f"{PETH_PORT_ENTRY}.12": "pethPsePortPowerDeniedCounter",
+    f"{PETH_PORT_ENTRY}.13": "pethPsePortOverLoadCounter",
+    f"{PETH_PORT_ENTRY}.14": "pethPsePortShortCounter",
+}
+PETH_MAIN_ENTRY = "1.3.6.1.2.1.105.1.3.1.1"
+PETH_MAIN_POWER = f"{PETH_MAIN_ENTRY}.2"  # pethMainPsePower, watts
+PETH_MAIN_CONSUMPTION = f"{PETH_MAIN_ENTRY}.4"  # pethMainPseConsumptionPower, watts
+#: IF-MIB ifStackStatus (RFC 2863), indexed by ifStackHigherLayer and ifStackLowerLayer;
+#: IEEE8023-LAG-MIB dot3adAggPortAttachedAggID (IEEE 802.1AX), indexed by the member's ifIndex.
+IF_STACK_STATUS = "1.3.6.1.2.1.31.1.2.1.3"
+LAG_ATTACHED = "1.2.840.10006.300.43.1.2.1.1.13"
 #: LLDP-MIB (IEEE 802.1AB-2005 12.1): lldpRemEntry, indexed by lldpRemTimeMark,
 #: lldpRemLocalPortNum, lldpRemIndex; lldpLocPortEntry, indexed by lldpLocPortNum.
 LLDP_REM_ENTRY = "1.0.8802.1.1.2.1.4.1.1"
@@ -92,6 +152,10 @@ LLDP_REM = {
     "port_desc": f"{LLDP_REM_ENTRY}.8",  # lldpRemPortDesc
 }
 LLDP_REM_SYS_NAME = f"{LLDP_REM_ENTRY}.9"
+#: LLDP-EXT-DOT3-MIB (IEEE 802.1AB-2005 annex G): lldpXdot3RemPortEntry, indexed as
+#: lldpRemEntry; column 3 is lldpXdot3RemPortAutoNegAdvertisedCap, two octets of RFC 3636
+#: ifMauAutoNegCapAdvertisedBits.
+LLDP_XDOT3_REM_CAP = "1.0.8802.1.1.2.1.5.4623.1.3.1.1.3"
 LLDP_LOC = {
     "subtype": f"{LLDP_LOC_PORT_ENTRY}.2",  # lldpLocPortIdSubtype
     "port_id": f"{LLDP_LOC_PORT_ENTRY}.3",  # lldpLocPortId
@@ -127,6 +191,21 @@ class SnmpOptions(Options):
     #: Walks in flight at once to one device: a switch's agent is a small, busy process.
     parallel_walks: Annotated[int, Field(ge=1, le=32)] = 4
     neighbors_every_s: Annotated[float, Field(ge=0)] = NEIGHBORS_EVERY_S
+    #: How POWER-ETHERNET-MIB's PSE ports are matched to interfaces (see mibs.poe_interfaces).
+    poe_ports: PoeMapping = "auto"
+
+
+@dataclass(frozen=True, slots=True)
+class PortExtras:
+    """What other tables than the interface tables say of each port (by ifIndex)."""
+
+    aggregates: dict[int, str] = field(default_factory=dict)
+    poe_counters: dict[int, dict[str, int]] = field(default_factory=dict)
+    poe_status: dict[int, PoeStatus] = field(default_factory=dict)
+
+
+#: The counters of a snapshot that come from columns indexed by ifIndex.
+IFINDEX_COUNTERS = (*COUNTER_COLUMNS.values(), *PAUSE_COLUMNS.values())
 
 
 def _engine() -> Any:
@@ -147,10 +226,13 @@ def snapshots_from_columns(
     uptime_s: float | None,
     now: float,
     neighbors: dict[int, Neighbor] | None = None,
+    extras: PortExtras | None = None,
 ) -> tuple[list[Snapshot], dict[str, str]]:
     """Snapshots from walked columns (column name -> ifIndex -> value), with the far end
-    of each port LLDP names (ifIndex -> neighbor)."""
+    of each port LLDP names (ifIndex -> neighbor) and what other tables say of it."""
     neighbors = neighbors or {}
+    extras = extras or PortExtras()
+    uptime_ticks = None if uptime_s is None else round(uptime_s * 100)
     names = columns.get("ifName", {})
     descriptions = columns.get("ifDescr", {})
     at = datetime.fromtimestamp(now, UTC)
@@ -166,10 +248,12 @@ def snapshots_from_columns(
         try:
             counters = {
                 snapshot_name: int(columns[snapshot_name][index])
-                for snapshot_name in COUNTER_COLUMNS.values()
+                for snapshot_name in IFINDEX_COUNTERS
                 if index in columns.get(snapshot_name, {})
             }
+            counters.update(extras.poe_counters.get(index, {}))
             state = {k: columns.get(k, {}).get(index) for k in STATE_COLUMNS.values()}
+            powered = extras.poe_status.get(index)
             snapshots.append(
                 Snapshot(
                     device=device,
@@ -182,6 +266,11 @@ def snapshots_from_columns(
                     mtu=None if state["ifMtu"] is None else int(state["ifMtu"]),
                     discontinuity_time=_moment(booted, state["ifCounterDiscontinuityTime"]),
                     neighbor=neighbors.get(index),
+                    admin_status=admin_status(_int(state["ifAdminStatus"])),
+                    last_change=last_change(at, uptime_ticks, _int(state["ifLastChange"])),
+                    aggregate=extras.aggregates.get(index),
+                    poe_status=powered,
+                    poe=None if powered is None else powered.detection == DELIVERING,
                 )
             )
         except (TypeError, ValueError) as exc:
@@ -211,6 +300,11 @@ def _speed(high: Any, low: Any) -> int | None:
     if low is not None and int(low) < IFSPEED_MAX:
         return int(low)
     return None
+
+
+def _int(value: Any) -> int | None:
+    """An integer object's value; ValueError (a malformed answer) where it is text."""
+    return None if value is None else int(value)
 
 
 def _lookup(table: dict[int, Any], value: Any) -> Any:
@@ -342,22 +436,74 @@ class SnmpCollector(Collector[SnmpOptions]):
             return list(await asyncio.gather(*(gated(oid) for oid in oids)))
 
         all_columns = {**COUNTER_COLUMNS, **STATE_COLUMNS}
+        probes = [PAUSE_PROBE, PETH_DETECTION, IF_STACK_STATUS, LAG_ATTACHED]
         asking = self.lldp.due()
         lldp = [LLDP_V2_REM_SYS_NAME, LLDP_REM_SYS_NAME] if asking else []
-        walked = await walk([*all_columns, *lldp])
+        walked = await walk([*all_columns, *probes, *lldp])
         columns = {
-            name: {
-                row[0]: plain for row, value in rows.items() if (plain := _plain(value)) is not None
-            }
+            name: _by_index(rows)
             for name, rows in zip(all_columns.values(), walked[: len(all_columns)], strict=True)
         }
+        pause, detection, stack, attached = walked[len(all_columns) : len(all_columns) + 4]
+        if pause:  # the rest of dot3PauseTable, only where the device has it
+            rest = [oid for oid in PAUSE_COLUMNS if oid != PAUSE_PROBE]
+            for oid, rows in zip(rest, await walk(rest), strict=True):
+                columns[PAUSE_COLUMNS[oid]] = _by_index(rows)
+            columns[PAUSE_COLUMNS[PAUSE_PROBE]] = _by_index(pause)
+        extras = PortExtras(
+            aggregates=aggregates(
+                [row for row, value in stack.items() if len(row) == 2 and _plain(value) == 1],
+                columns.get("ifType", {}),
+                {i: v for i, v in _by_index(attached).items() if isinstance(v, int)},
+                _names(columns),
+            )
+        )
+        if detection:
+            extras = await self._poe(walk, detection, columns, extras)
         if asking:
-            v2_names, v1_names = walked[len(all_columns) :]
+            v2_names, v1_names = walked[len(all_columns) + 4 :]
             self.lldp.keep(await self._neighbors(walk, columns, v2_names, v1_names))
         snapshots, problems = snapshots_from_columns(
-            self.target.name, columns, uptime_s, now, self.lldp.neighbors
+            self.target.name, columns, uptime_s, now, self.lldp.neighbors, extras
         )
         return Reading(snapshots, problems).only(ports)
+
+    async def _poe(
+        self,
+        walk: Callable[[list[str]], Awaitable[list[dict[Row, Any]]]],
+        detection: dict[Row, Any],
+        columns: dict[str, dict[int, Any]],
+        extras: PortExtras,
+    ) -> PortExtras:
+        """The PSE ports' state, counters and power budget (RFC 3621), by the ifIndex each
+        PSE port is matched to; a value of another type than the MIB's is left out."""
+        oids = [PETH_CLASS, *PETH_COUNTERS, PETH_MAIN_POWER, PETH_MAIN_CONSUMPTION]
+        walked = await walk(oids)
+        classes, *counter_rows, power, consumption = walked
+        rows = [row for row in detection if len(row) == 2]
+        matched = poe_interfaces(rows, _names(columns), self.options.poe_ports)
+        main_power, main_used = _by_index(power), _by_index(consumption)
+        counters: dict[int, dict[str, int]] = {}
+        status: dict[int, PoeStatus] = {}
+        for (group, port), index in matched.items():
+            row = (group, port)
+            state = _plain(detection[row])
+            found = DETECTION.get(state) if isinstance(state, int) else None
+            number = _plain(classes[row]) if row in classes else None
+            left = budget_left(_number(main_power.get(group)), _number(main_used.get(group)))
+            made = poe_status(
+                found, power_class(number if isinstance(number, int) else None, found), None, left
+            )
+            if made is not None:
+                status[index] = made
+            own = {
+                name: value
+                for name, table in zip(PETH_COUNTERS.values(), counter_rows, strict=True)
+                if row in table and isinstance(value := _plain(table[row]), int)
+            }
+            if own:
+                counters[index] = own
+        return PortExtras(extras.aggregates, counters, status)
 
     async def _neighbors(
         self,
@@ -373,8 +519,10 @@ class SnmpCollector(Collector[SnmpOptions]):
             return lldp_neighbors(remote, {row[1]: row[1] for row in remote})
         if not v1_names:
             return {}
-        *rem, loc_subtype, loc_id, loc_desc = await walk([*LLDP_REM.values(), *LLDP_LOC.values()])
-        remote = _far_ends(v1_names, rem)
+        *rem, caps, loc_subtype, loc_id, loc_desc = await walk(
+            [*LLDP_REM.values(), LLDP_XDOT3_REM_CAP, *LLDP_LOC.values()]
+        )
+        remote = _far_ends(v1_names, rem, caps)
         local = {
             row[0]: far_end(None, _lldp_value(loc_subtype.get(row)), _lldp_value(port_id),
                             _lldp_value(loc_desc.get(row)))
@@ -401,15 +549,46 @@ class SnmpCollector(Collector[SnmpOptions]):
 _EXCEPTIONS = frozenset({"NoSuchObject", "NoSuchInstance", "EndOfMibView"})
 
 
-def _far_ends(names: dict[Row, Any], columns: list[dict[Row, Any]]) -> dict[Row, FarEnd]:
+def _far_ends(
+    names: dict[Row, Any], columns: list[dict[Row, Any]], caps: dict[Row, Any] | None = None
+) -> dict[Row, FarEnd]:
     """Remote entries from the system name column and the subtype, id and description
-    columns, by row."""
+    columns, by row, with the speeds each advertises where ``caps`` (LLDP-EXT-DOT3-MIB's
+    lldpXdot3RemPortAutoNegAdvertisedCap, indexed as the remote table) has its row."""
     subtype, port_id, desc = columns
+    caps = caps or {}
     return {
         row: far_end(_lldp_value(name), _lldp_value(subtype.get(row)),
-                     _lldp_value(port_id.get(row)), _lldp_value(desc.get(row)))
+                     _lldp_value(port_id.get(row)), _lldp_value(desc.get(row)),
+                     _speeds(caps.get(row)))
         for row, name in names.items()
     }  # fmt: skip
+
+
+def _speeds(value: Any) -> list[int] | None:
+    """The speeds an lldpXdot3RemPortAutoNegAdvertisedCap value advertises (octets)."""
+    octets = _lldp_value(value)
+    return advertised_speeds(octets) if isinstance(octets, bytes) else None
+
+
+def _by_index(rows: dict[Row, Any]) -> dict[int, Any]:
+    """A column indexed by an ifIndex as plain values; exception values left out."""
+    return {row[0]: plain for row, value in rows.items() if (plain := _plain(value)) is not None}
+
+
+def _names(columns: dict[str, dict[int, Any]]) -> dict[int, str]:
+    """Each interface's name as the snapshots name it: ifName, else ifDescr."""
+    names = columns.get("ifName", {})
+    descriptions = columns.get("ifDescr", {})
+    return {
+        index: name
+        for index in set(names) | set(descriptions)
+        if (name := str(names.get(index) or descriptions.get(index) or ""))
+    }
+
+
+def _number(value: Any) -> float | None:
+    return float(value) if isinstance(value, int) else None
 
 
 def _lldp_value(value: Any) -> Any:
