@@ -58,6 +58,12 @@ def links_score(model: Model) -> Score:
     return score_labelled(model, lines, map(json.loads, labels))
 
 
+def set_1_2_score(model: Model) -> Score:
+    lines = (FIXTURES / "expert" / "snapshots-1.2.jsonl").read_bytes().splitlines()
+    labels = (FIXTURES / "expert" / "labels-1.2.jsonl").read_text().splitlines()
+    return score_labelled(model, lines, map(json.loads, labels))
+
+
 def generator_score(model: Model, ports: int) -> Score:
     sys.path.insert(0, str(FIXTURES / "generator"))
     from generate import generate  # written apart from the engine, see its README
@@ -119,6 +125,7 @@ def main() -> int:
         "shifted (simulate.SHIFTED)": score_simulated(model, args.ports, HELD_OUT_SEED, SHIFTED),
         "expert (fixtures/expert)": expert_score(model),
         "expert links and intervals": links_score(model),
+        "expert format 1.2 (cases-1.2.toml)": set_1_2_score(model),
         "independent generator": generator_score(model, args.ports // 3),
     }
     for name, s in scores.items():
@@ -126,7 +133,17 @@ def main() -> int:
             f"{name:<34} {s.ports:>7,} {s.macro_f1:>9.4f} {s.healthy_called_faulty:>21.2%}"
             f" {s.faults_called_healthy:>21.2%}"
         )
-    inside, shifted, expert, _, _ = scores.values()
+    inside, shifted, expert, *_ = scores.values()
+
+    print("\nrecall / precision per verdict (- where a set has none of it):")
+    verdicts = sorted({v for s in scores.values() for v in s.recall})
+    print(f"{'verdict':<22} " + " ".join(f"{name[:16]:>16}" for name in scores))
+    for v in verdicts:
+        cells = [
+            f"{s.recall[v]:>7.3f}/{s.precision[v]:<7.3f} " if v in s.recall else f"{'-':>16}"
+            for s in scores.values()
+        ]
+        print(f"{v:<22} " + " ".join(cells))
 
     print("\nconfidence against answers right (reliability), tree answers only:")
     print(

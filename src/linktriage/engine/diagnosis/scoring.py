@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-from sklearn.metrics import f1_score, recall_score
+from sklearn.metrics import f1_score, precision_score, recall_score
 
 from linktriage.engine.diagnosis.batch import DiagnosisBatch
 from linktriage.engine.diagnosis.loaded_model import Model
@@ -30,12 +30,13 @@ from linktriage.engine.verdicts.insufficient_traffic import INSUFFICIENT_TRAFFIC
 
 @dataclass(frozen=True, slots=True)
 class Score:
-    """Macro-F1 over the verdicts present, recall per verdict, false alarms, and faults
-    missed (answered healthy)."""
+    """Macro-F1 over the verdicts present, recall and precision per verdict, false alarms,
+    and faults missed (answered healthy)."""
 
     ports: int
     macro_f1: float
     recall: dict[str, float]
+    precision: dict[str, float]
     healthy_called_faulty: float
     faults_called_healthy: float
     wrong: list[tuple[int, str, str]]  # (row, expected, answered)
@@ -78,6 +79,7 @@ def score(
     answered = answered.astype(str)
     labels = sorted(set(expected))
     recall = recall_score(expected, answered, labels=labels, average=None, zero_division=0.0)
+    precision = precision_score(expected, answered, labels=labels, average=None, zero_division=0.0)
     healthy = expected == HEALTHY
     alarm = float(np.mean([a in FAULTS for a in answered[healthy]])) if healthy.any() else 0.0
     fault = np.isin(expected, list(FAULTS))
@@ -87,6 +89,7 @@ def score(
         ports=len(expected),
         macro_f1=float(f1_score(expected, answered, labels=labels, average="macro")),
         recall={c: float(r) for c, r in zip(labels, recall, strict=True)},
+        precision={c: float(r) for c, r in zip(labels, precision, strict=True)},
         healthy_called_faulty=alarm,
         faults_called_healthy=missed,
         wrong=wrong,

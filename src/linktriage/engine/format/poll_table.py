@@ -99,6 +99,14 @@ EXTRA_FIELDS: tuple[str, ...] = (
 FloatArray = npt.NDArray[np.float64]
 
 
+_READINGS = ("state.", "optics.")
+
+
+def _unread(name: str, part: npt.NDArray[Any]) -> bool:
+    """Whether a reading column of a chunk holds nothing but "not reported"."""
+    return name.startswith(_READINGS) and bool(np.isnan(part).all())
+
+
 def _names(
     values: Sequence[object] | npt.NDArray[np.object_] | None, n: int
 ) -> npt.NDArray[np.object_]:
@@ -207,10 +215,13 @@ class PollTable:
     def grown(cls, chunks: Iterable[PollTable]) -> PollTable:
         """All rows of ``chunks`` in order, like :meth:`concat`, copied as each chunk comes
         into arrays that grow in place (realloc, not copy): a large file read a chunk at a
-        time is held once, never once in chunks and again whole."""
-        names: dict[str, list[str | None]] = {
-            name: [] for name in ("device", "port", "oper_status", *NEIGHBOR_FIELDS, *EXTRA_FIELDS)
+        time is held once, never once in chunks and again whole. A reading or a word column
+        no row carries is never grown: every such column of the result shares one read-only
+        column of "not reported"."""
+        names: dict[str, list[object]] = {
+            name: [] for name in ("device", "port", "oper_status", *NEIGHBOR_FIELDS)
         }
+        extras: dict[str, list[object]] = {}
         columns: dict[str, npt.NDArray[Any]] = {}
         rows = capacity = 0
         for chunk in chunks:
@@ -222,32 +233,50 @@ class PollTable:
                 # numpy zero-fills what a resize adds: grow by a quarter, not double, so at
                 # most a quarter more than the rows is ever touched.
                 capacity = max(capacity + capacity // 4, end)
-                for name, part in parts.items():
-                    column = columns.setdefault(name, np.empty((0, *part.shape[1:]), part.dtype))
-                    column.resize((capacity, *part.shape[1:]), refcheck=False)
+                for column in columns.values():
+                    column.resize((capacity, *column.shape[1:]), refcheck=False)
             for name, part in parts.items():
-                columns[name][rows:end] = part
+                grown = columns.get(name)
+                if grown is None:
+                    if _unread(name, part):
+                        continue  # nothing read yet, and none in this chunk: not grown
+                    grown = columns[name] = np.empty((capacity, *part.shape[1:]), part.dtype)
+                    if name.startswith(_READINGS):
+                        grown[:rows] = np.nan  # the rows before read nothing of it
+                grown[rows:end] = part
             for name, values in names.items():
-                column = chunk.extra[name] if name in chunk.extra else getattr(chunk, name)
-                values.extend(column.tolist())
+                values.extend(getattr(chunk, name).tolist())
+            for name, words in chunk.extra.items():
+                carried = words.tolist()
+                got = extras.get(name)
+                if got is None:
+                    if all(w is None for w in carried):
+                        continue
+                    got = extras[name] = [None] * rows
+                got.extend(carried)
+            for got in extras.values():
+                if len(got) < end:  # this chunk carried none of it
+                    got.extend([None] * (end - len(got)))
             rows = end
         if not rows:
             return cls.empty()
         for column in columns.values():
             column.resize((rows, *column.shape[1:]), refcheck=False)
+        unread = np.full(rows, np.nan)
+        unread.setflags(write=False)
         return cls(
             device=np.array(names["device"], object),
             port=np.array(names["port"], object),
             time=columns["time"],
             oper_status=np.array(names["oper_status"], object),
-            state={k: columns[f"state.{k}"] for k in STATE_FIELDS},
-            optics={k: columns[f"optics.{k}"] for k in OPTICS_FIELDS},
+            state={k: columns.get(f"state.{k}", unread) for k in STATE_FIELDS},
+            optics={k: columns.get(f"optics.{k}", unread) for k in OPTICS_FIELDS},
             counters=columns["counters"],
             present=columns["present"],
             line=columns["line"],
             neighbor_device=np.array(names["neighbor_device"], object),
             neighbor_port=np.array(names["neighbor_port"], object),
-            extra={k: _names(names[k], rows) for k in EXTRA_FIELDS},
+            extra={k: _names(extras.get(k), rows) for k in EXTRA_FIELDS},
         )
 
     def _numbers(self) -> dict[str, npt.NDArray[Any]]:

@@ -553,10 +553,15 @@ def _read_since_1_2(
     if not any(any(c) for c in columns):
         return
     admin, changed, reason, module, fec, poe_status, aggregate = columns
-    state["admin_down"] = _floats([None if a is None else ADMIN_DOWN[a] for a in admin])
-    state["last_change"] = _floats([None if t is None else t.timestamp() for t in changed])
-    state["module_max_speed_bps"] = _floats(module)
-    state["fec_mode"] = _floats(list(map(_FEC_CODE.get, fec)))
+    # Each field only where some line of the chunk carries it: the rest stay "not reported".
+    if any(admin):
+        state["admin_down"] = _floats([None if a is None else ADMIN_DOWN[a] for a in admin])
+    if any(changed):
+        state["last_change"] = _floats([None if t is None else t.timestamp() for t in changed])
+    if any(module):
+        state["module_max_speed_bps"] = _floats(module)
+    if any(fec):
+        state["fec_mode"] = _floats(list(map(_FEC_CODE.get, fec)))
     if any(poe_status):
         read = [(None,) * 4 if s is None else _POE(s) for s in poe_status]
         detection, power_class, watts, left = zip(*read, strict=True)
@@ -564,8 +569,10 @@ def _read_since_1_2(
         state["poe_class"] = _floats(power_class)
         state["poe_power_w"] = _floats(watts)
         state["poe_budget_left_w"] = _floats(left)
-    extra["disabled_reason"] = [None if r is None else one(r, r) for r in reason]
-    extra["aggregate"] = [None if a is None else one(a, a) for a in aggregate]
+    if any(reason):
+        extra["disabled_reason"] = [None if r is None else one(r, r) for r in reason]
+    if any(aggregate):
+        extra["aggregate"] = [None if a is None else one(a, a) for a in aggregate]
 
 
 _POE = attrgetter("detection", "power_class", "power_w", "budget_left_w")

@@ -224,16 +224,18 @@ class CompiledTree:
     def apply(self, x: npt.NDArray[np.float32]) -> npt.NDArray[np.intp]:
         """The leaf each row of ``x`` (float32, features in artefact order) lands in."""
         x = np.asarray(x, np.float32)
-        rows = np.arange(len(x))
         node = np.zeros(len(x), np.intp)
+        rows = np.arange(len(x))  # the rows not yet at a leaf: most reach one in a few steps
         for _ in range(self.depth):
-            inner = ~self.is_leaf[node]
-            if not inner.any():
-                break
-            f = self.feature[node]
-            v = x[rows, np.where(inner, f, 0)]
-            go_left = np.where(np.isnan(v), self.missing_left[node], v <= self.threshold[node])
-            node = np.where(inner, np.where(go_left, self.left[node], self.right[node]), node)
+            at = node[rows]
+            inner = ~self.is_leaf[at]
+            if not inner.all():
+                rows, at = rows[inner], at[inner]
+                if not len(rows):
+                    break
+            v = x[rows, self.feature[at]]
+            go_left = np.where(np.isnan(v), self.missing_left[at], v <= self.threshold[at])
+            node[rows] = np.where(go_left, self.left[at], self.right[at])
         return node
 
     def predict_proba(self, x: npt.NDArray[np.float32]) -> npt.NDArray[np.float64]:

@@ -37,25 +37,37 @@ BROADCAST_STORM = Verdict("broadcast_storm")
 _SOURCE = "RFC 2863 ifHCInBroadcastPkts; common practice"
 
 
-def storm_peers(facts: PortFacts, i: int) -> list[str]:
-    """The other ports answered broadcast_storm on the same device as row ``i``, or on a
-    device an LLDP link joins to it (device and port, as an answer names them)."""
-    devices = {facts.device[i]}
-    far = facts.far
-    for j in range(len(far)):
-        if facts.device[j] == facts.device[i] and far[j] >= 0:
-            devices.add(facts.device[far[j]])
-    return [
-        f"{facts.device[j]} {facts.port[j]}"
-        for j, v in enumerate(facts.verdict)
-        if j != i and v == BROADCAST_STORM and facts.device[j] in devices
-    ]
+def storm_peers(facts: PortFacts, rows: list[int]) -> list[list[str]]:
+    """For each of ``rows``, the other ports answered broadcast_storm on its device, or on
+    a device an LLDP link joins to it (device and port, as an answer names them): the
+    batch is read once, whatever the number of rows."""
+    devices, verdicts, far = facts.device, facts.verdict, facts.far
+    storms: dict[str, list[int]] = {}
+    joined: dict[str, set[str]] = {}
+    for j, v in enumerate(verdicts):
+        if v == BROADCAST_STORM:
+            storms.setdefault(devices[j], []).append(j)
+        if far[j] >= 0:
+            joined.setdefault(devices[j], set()).add(devices[far[j]])
+    out = []
+    for i in rows:
+        near = {devices[i], *joined.get(devices[i], ())}
+        out.append(
+            [
+                f"{devices[j]} {facts.port[j]}"
+                for d in sorted(near)
+                for j in storms.get(d, ())
+                if j != i
+            ]
+        )
+    return out
 
 
 def _evidence(c: PortGroup) -> list[Items]:
     out: list[Items] = []
-    for k, (fps, share, mcast) in enumerate(
-        zip(c["rx_bcast_fps"], c["rx_bcast_share"], c["rx_mcast_fps"], strict=True)
+    all_peers = storm_peers(c.facts, c.rows)
+    for fps, share, mcast, peers in zip(
+        c["rx_bcast_fps"], c["rx_bcast_share"], c["rx_mcast_fps"], all_peers, strict=True
     ):
         if fps != fps:
             out.append([item("broadcast_fps", None, "frames/s", None, _SOURCE,
@@ -71,7 +83,6 @@ def _evidence(c: PortGroup) -> list[Items]:
             items.append(item("multicast_fps", float(f"{mcast:.6g}"), "frames/s", None,
                               "RFC 2863 ifHCInMulticastPkts",
                               f"and {sig(mcast)} multicast frames a second"))  # fmt: skip
-        peers = storm_peers(c.facts, c.rows[k])
         if peers:
             said = (
                 f"the same surge in the same window on {', '.join(peers)}: a forwarding loop is "
