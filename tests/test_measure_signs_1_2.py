@@ -92,7 +92,7 @@ def test_light_over_the_pmd_maximum_is_optic_overload_not_cable_fault(model: Mod
     grow = {**BUSY, "dot3StatsFCSErrors": 400, "ifInErrors": 400}
     record = one(model, grow, **TEN_G, optics=optics)
     assert record["verdict"] == "optic_overload"
-    assert "above the most its receiver takes (+0.5 dBm)" in record["evidence"][0]["said"]
+    assert "above the most a 10GBASE-LR receiver takes (+0.5 dBm)" in record["evidence"][0]["said"]
     # The module's own high warning, where it has one, is the reference.
     warned = {**optics, "rx_power_high_warn_dbm": 2.0, "rx_power_high_alarm_dbm": 3.0}
     assert one(model, BUSY, **TEN_G, optics=warned)["verdict"] == "healthy"

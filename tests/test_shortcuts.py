@@ -61,7 +61,12 @@ def _cool_readings_unreported(table: PollTable) -> PollTable:
     optics = dict(table.optics)
     cool = ~(optics["temperature_c"] > 70.0)
     optics["temperature_c"] = np.where(cool, np.nan, optics["temperature_c"])
-    optics["bias_ma"] = np.full(len(table), np.nan)
+    # Bias is evidence only past its alarm thresholds (SNAPSHOT-FORMAT 1.2): within them, or
+    # with no thresholds, it may go unreported.
+    inside = ~(optics["bias_ma"] > optics["bias_high_alarm_ma"]) & ~(
+        optics["bias_ma"] < optics["bias_low_alarm_ma"]
+    )
+    optics["bias_ma"] = np.where(inside, np.nan, optics["bias_ma"])
     return replace(table, optics=optics)
 
 
@@ -82,7 +87,7 @@ PERTURBATIONS: dict[str, Callable[[PollTable], PollTable]] = {
     # are evidence of a storm, and a steady multicast stream its look-alike.)
     "Counter32 forms beside the Counter64 ones": _counter32_beside_counter64,
     "other counter start values": _other_start_values,
-    "module temperature and bias not reported": _cool_readings_unreported,
+    "module temperature and bias within their alarms not reported": _cool_readings_unreported,
 }
 
 

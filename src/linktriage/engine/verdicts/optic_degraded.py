@@ -1,8 +1,10 @@
 """optic_degraded: received light near or under the module's low thresholds.
 
-Received power under the module's low warning (near its alarm), low transmit power, or a
-module running hot (SFF-8472 digital diagnostics), usually with FCS errors: a dirty or
-damaged connector, a failing transceiver, excess loss. From both ends of a fiber link: a
+Received power under the module's low warning (near its alarm); at this end's own module,
+transmit power under its low alarm or a laser bias outside its alarm thresholds (SNAPSHOT-
+FORMAT 1.2: a failing transmitter, named as this end's); or a module running hot (SFF-8472
+digital diagnostics); usually with FCS errors: a dirty or damaged connector, a failing
+transceiver, excess loss. From both ends of a fiber link: a
 direction losing more light than any PMD of its speed allows (far end's transmit power less
 near end's received power) points at that strand.
 """
@@ -143,8 +145,11 @@ def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
     # transmit power. Some modules run hot.
     weak_tx = chance(rng, 0.12, n)
     p["tx_power_dbm"] = np.where(
-        weak_tx, p["tx_alarm_dbm"] + rng.uniform(-2.0, 0.5, n), p["tx_power_dbm"]
+        weak_tx, p["tx_alarm_dbm"] + rng.uniform(-2.0, -0.1, n), p["tx_power_dbm"]
     )
+    # ... or a laser whose bias drifted past its alarm thresholds, either way.
+    drift = chance(rng, 0.06, n)
+    p["bias_ma"] = np.where(drift, rng.choice([1.0, 60.0], n), p["bias_ma"])
     p["temperature_c"] = np.where(
         chance(rng, 0.05, n), rng.uniform(72.0, 90.0, n), p["temperature_c"]
     )
@@ -225,8 +230,9 @@ KIND = TreeVerdict(
             lambda s: s.optics,
         ),
         Need(
-            "received light under the module's low warning (near its alarm), low transmit "
-            "power, laser bias outside its alarm thresholds, or a module running hot",
+            "received light under the module's low warning (near its alarm), transmit power "
+            "under its low alarm, laser bias outside its alarm thresholds, or a module "
+            "running hot",
             "SFF-8472 alarm and warning thresholds",
             lambda s: s.light_low | s.tx_low | s.bias_out | s.hot,
         ),

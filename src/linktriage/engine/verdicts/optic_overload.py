@@ -36,10 +36,13 @@ _AGAINST = {
 
 def _light(c: PortGroup) -> Items:
     out: Items = []
-    for strongest, high, kind, lanes in zip(
-        c["rx_max_dbm"], c["rx_high_dbm"], c["rx_high_kind"], c.words("lanes"), strict=True
-    ):
+    for strongest, high, kind, lanes, pmd in zip(
+        c["rx_max_dbm"], c["rx_high_dbm"], c["rx_high_kind"], c.words("lanes"), c.words("pmd"),
+        strict=True,
+    ):  # fmt: skip
         against, source = _AGAINST.get(kind, ("its high threshold", "SFF-8472"))
+        if kind == 3.0 and pmd:
+            against = f"the most a {pmd} receiver takes"
         if strongest != strongest or high != high:  # NaN: no reading, or nothing to hold it to
             out.append(item("rx_power", None, "dBm", None, source, "received light not judged "
                             "against a high threshold: no reading or no threshold"))  # fmt: skip
