@@ -176,3 +176,15 @@ def test_an_aggregates_own_interface_is_no_speed_drop(model: Model) -> None:
              *grown(BUSY, port="bundle1", **whole)]  # fmt: skip
     batch = diagnose(polls(*lines), model)
     assert batch.record(2)["verdict"] == "healthy"
+
+
+def test_a_module_is_hot_against_its_own_high_alarm_where_it_reports_one(model: Model) -> None:
+    # SFF-8472 thresholds (format 1.2 temperature_high_alarm_c): an industrial module rated
+    # to 85 degrees C at 72 is in range; a module whose alarm is 65 is hot at 68.
+    light = {"rx_power_dbm": -5.0, "rx_power_low_warn_dbm": -14.0, "tx_power_dbm": -2.0}
+    rated = {**light, "temperature_c": 72.0, "temperature_high_alarm_c": 85.0}
+    assert one(model, BUSY, **TEN_G, optics=rated)["verdict"] == "healthy"
+    low_rated = {**light, "temperature_c": 68.0, "temperature_high_alarm_c": 65.0}
+    hot = one(model, BUSY, **TEN_G, optics=low_rated)
+    assert hot["verdict"] == "optic_degraded"
+    assert any("its own high alarm" in e["said"] for e in hot["evidence"])

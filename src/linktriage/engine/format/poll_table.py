@@ -102,6 +102,14 @@ FloatArray = npt.NDArray[np.float64]
 _READINGS = ("state.", "optics.")
 
 
+def _unread_column(n: int) -> FloatArray:
+    """A read-only column of ``n`` readings "not reported", shared by every column that
+    holds nothing else (its memory is one column's, however many share it)."""
+    column = np.full(n, np.nan)
+    column.setflags(write=False)
+    return column
+
+
 def _unread(name: str, part: npt.NDArray[Any]) -> bool:
     """Whether a reading column of a chunk holds nothing but "not reported"."""
     return name.startswith(_READINGS) and bool(np.isnan(part).all())
@@ -250,7 +258,7 @@ class PollTable:
                 carried = words.tolist()
                 got = extras.get(name)
                 if got is None:
-                    if all(w is None for w in carried):
+                    if carried.count(None) == len(carried):
                         continue
                     got = extras[name] = [None] * rows
                 got.extend(carried)
@@ -262,8 +270,7 @@ class PollTable:
             return cls.empty()
         for column in columns.values():
             column.resize((rows, *column.shape[1:]), refcheck=False)
-        unread = np.full(rows, np.nan)
-        unread.setflags(write=False)
+        unread = _unread_column(rows)
         return cls(
             device=np.array(names["device"], object),
             port=np.array(names["port"], object),

@@ -46,6 +46,11 @@ from linktriage.engine.measure.phy import (
 )
 from linktriage.engine.measure.window import WindowTable
 
+#: Upper case temperature of commercial-grade transceivers, 0 to 70 degrees C (common
+#: practice, from memory: SFF-8472 reports the temperature, the module's data sheet sets it);
+#: where a module reports its own high alarm (format 1.2), that is the line.
+HOT_C = 70.0
+
 BoolArray = npt.NDArray[np.bool_]
 
 #: One-sided confidence of the bounds an answer shows on a ratio (the rule of three's).
@@ -454,6 +459,13 @@ def measure(w: WindowTable) -> Measured:
             "tx_alarm_dbm": optics["tx_power_low_alarm_dbm"],
             "tx_margin_db": optics["tx_power_dbm"] - optics["tx_power_low_alarm_dbm"],
             "temperature_c": optics["temperature_c"],
+            # The module's own high alarm where it reports one (format 1.2), else the top of
+            # the commercial range.
+            "hot_c": np.where(
+                np.isnan(optics["temperature_high_alarm_c"]),
+                HOT_C,
+                optics["temperature_high_alarm_c"],
+            ),
             "bias_ma": optics["bias_ma"],
             "has_optics": has_optics.astype(np.float64),
             "link_changes": link_changes,
@@ -546,6 +558,7 @@ def _since_1_2(
         "rx_high_warn_dbm": optics["rx_power_high_warn_dbm"],
         "tx_high_alarm_dbm": optics["tx_power_high_alarm_dbm"],
         "tx_warn_dbm": optics["tx_power_low_warn_dbm"],
+        "temperature_high_alarm_c": optics["temperature_high_alarm_c"],
         "bias_high_alarm_ma": optics["bias_high_alarm_ma"],
         "bias_low_alarm_ma": optics["bias_low_alarm_ma"],
         "bias_min_ma": np.fmin(optics["bias_min_ma"], optics["bias_ma"]),

@@ -60,9 +60,6 @@ CUT_ALIGNMENT_SHARE = 0.2
 CLEAN_SYMBOL_SHARE = 0.01
 NO_SYMBOLS_ALIGNMENT_SHARE = 0.4
 _CUT_SPEED_BPS = 100e6
-#: Upper case temperature of commercial-grade transceivers, 0 to 70 degrees C (common
-#: practice, from memory: SFF-8472 reports the temperature, the module's data sheet sets it).
-HOT_C = 70.0
 
 
 #: Received pause frames are a flood where they could hold the transmitter off this share of
@@ -138,7 +135,7 @@ class Signs:
             # A failing transmitter at this end: its light under its own low alarm
             # (SNAPSHOT-FORMAT 1.2 optic_degraded; just above the alarm is still in range).
             tx_low=(m["tx_margin_db"] < 0.0),
-            hot=(m["temperature_c"] > HOT_C),
+            hot=(m["temperature_c"] > m["hot_c"]),
             silent=fps_known & one_way(quiet, busy, m["window_s"], _busy_unicast(m)),
             congested=_congested(m),
             real_errors=_real_errors(m),

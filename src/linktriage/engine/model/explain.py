@@ -144,18 +144,19 @@ class Explainer:
         groups: dict[int, list[int]] = {}
         for k, node in enumerate(nodes):
             groups.setdefault(node, []).append(k)
+        # Each distinct answer worded and encoded once, whichever node asks it (paths share
+        # their first questions): an unreported value reads alike whatever the tree saw, so
+        # it is keyed apart from every measured one.
+        said: dict[tuple[bytes, bytes, bytes, float | None], bytes] = {}
         for node, places in groups.items():
             at = np.asarray(places, np.intp)
             columns = []
             for q in self.steps[node]:
-                # Each distinct answer worded and encoded once: an unreported value reads
-                # alike whatever the tree saw, so it is keyed apart from every measured one.
-                said: dict[float | None, bytes] = {}
                 column = []
                 for value, known in zip(
                     rows[at, q.column].tolist(), reported[at, q.column].tolist(), strict=True
                 ):
-                    key = value if known else None
+                    key = (q.head, q.middle, q.tail, value if known else None)
                     answer = said.get(key)
                     if answer is None:
                         answer = said[key] = self._answered(q, value, known)

@@ -82,9 +82,11 @@ KIND = TreeVerdict(
         ),
         Need(
             "received and transmitted light above the module's low alarm and under its high "
-            "one, and the laser bias within its alarm thresholds",
+            "one, the laser bias within its alarm thresholds, and the module not running hot",
             "SFF-8472 alarm thresholds",
-            lambda s: ~(s.light_under_alarm | (s.tx_low & s.optics) | s.bias_out | s.overload),
+            lambda s: (
+                ~(s.light_under_alarm | (s.tx_low & s.optics) | s.bias_out | s.overload | s.hot)
+            ),
         ),
         Need(
             "a link that stays up (fewer than two down/up cycles in the window)",

@@ -16,7 +16,6 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from linktriage.engine.format.answers import Verdict
-from linktriage.engine.measure.signs import HOT_C
 from linktriage.engine.simulate.ports import (
     FIBER_10G,
     Ranges,
@@ -73,14 +72,18 @@ def _tx_light(c: PortGroup) -> MaybeItems:
 
 def _temperature(c: PortGroup) -> MaybeItems:
     out: MaybeItems = []
-    for t in c["temperature_c"]:
+    for t, hot, own in zip(
+        c["temperature_c"], c["hot_c"], c["temperature_high_alarm_c"], strict=True
+    ):
         if t != t:
             out.append(None)
             continue
+        line = "its own high alarm" if own == own else "commercial-grade modules"
         said = f"module at {t:.0f} \u00b0C" + (
-            f", over the {HOT_C:.0f} \u00b0C of commercial-grade modules" if t > HOT_C else ""
+            f", over the {hot:.0f} \u00b0C of {line}" if t > hot else ""
         )
-        out.append(item("temperature", t, "\u00b0C", HOT_C, "common practice", said))
+        source = "SFF-8472 thresholds" if own == own else "common practice"
+        out.append(item("temperature", t, "\u00b0C", hot, source, said))
     return out
 
 
