@@ -82,8 +82,11 @@ def tree_confidence(
     leads elsewhere holds its side."""
     n = tree.samples[node]
     sure: FloatArray = (share * n + 1.0) / (n + len(tree.classes))
-    for at in np.unique(node).tolist():
-        rows = np.flatnonzero(node == at)
+    order = np.argsort(node, kind="stable")  # the rows of each node together, found once
+    nodes, starts = np.unique(node[order], return_index=True)
+    ends = [*starts[1:].tolist(), len(order)][: len(starts)]
+    for at, start, end in zip(nodes.tolist(), starts.tolist(), ends, strict=True):
+        rows = order[start:end]
         for step in tree.paths[at]:
             f = step.feature
             if _SCALES[f] == 0.0:

@@ -102,12 +102,23 @@ FloatArray = npt.NDArray[np.float64]
 _READINGS = ("state.", "optics.")
 
 
+_NOT_REPORTED = np.full(1, np.nan)
+
+
 def _unread_column(n: int) -> FloatArray:
-    """A read-only column of ``n`` readings "not reported", shared by every column that
-    holds nothing else (its memory is one column's, however many share it)."""
-    column = np.full(n, np.nan)
-    column.setflags(write=False)
+    """A read-only column of ``n`` readings "not reported" that takes no memory: one value
+    seen ``n`` times (a stride of zero), for a column no row carries."""
+    column: FloatArray = np.broadcast_to(_NOT_REPORTED, (n,))
     return column
+
+
+def picked(column: FloatArray, rows: npt.NDArray[np.intp] | npt.NDArray[np.bool_]) -> FloatArray:
+    """``column[rows]``; a column of "not reported" throughout stays one, at no cost."""
+    if column.strides == (0,):
+        n = int(np.count_nonzero(rows)) if rows.dtype == np.bool_ else len(rows)
+        return _unread_column(n)
+    taken: FloatArray = column[rows]
+    return taken
 
 
 def _unread(name: str, part: npt.NDArray[Any]) -> bool:
@@ -192,13 +203,14 @@ class PollTable:
 
     def take(self, rows: npt.NDArray[np.intp] | npt.NDArray[np.bool_]) -> PollTable:
         """The rows selected by an index or mask array, as a new table."""
+        rows = np.asarray(rows)  # type: ignore[assignment]  # (a list of rows too)
         return PollTable(
             device=self.device[rows],
             port=self.port[rows],
             time=self.time[rows],
             oper_status=self.oper_status[rows],
-            state={k: v[rows] for k, v in self.state.items()},
-            optics={k: v[rows] for k, v in self.optics.items()},
+            state={k: picked(v, rows) for k, v in self.state.items()},
+            optics={k: picked(v, rows) for k, v in self.optics.items()},
             counters=self.counters[rows],
             present=self.present[rows],
             line=self.line[rows],

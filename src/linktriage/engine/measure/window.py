@@ -52,6 +52,7 @@ from linktriage.engine.format.poll_table import (
     STATE_FIELDS,
     FloatArray,
     PollTable,
+    picked,
 )
 
 #: Default reach of a window back from a port's latest poll.
@@ -343,8 +344,8 @@ def _windows_of_sorted(
         end_time=p.time[last],
         window_s=p.time[last] - p.time[win_start],
         oper_status=oper,
-        state={k: st[k][last] for k in STATE_FIELDS},
-        optics={k: p.optics[k][last] for k in OPTICS_FIELDS},
+        state={k: picked(st[k], last) for k in STATE_FIELDS},
+        optics={k: picked(p.optics[k], last) for k in OPTICS_FIELDS},
         deltas=deltas,
         link_changes=summed(lc_rows),
         last_change_moves=summed(moved_rows),

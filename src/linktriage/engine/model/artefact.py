@@ -258,13 +258,19 @@ class CompiledTree:
         node = leaf.copy()
         masked = self.proba[node] * allowed
         total = masked.sum(axis=1)
+        # Only the rows still without an allowed class walk up, a level at a time.
+        stuck = np.flatnonzero((total <= 0) & allowed.any(axis=1))
         for _ in range(self.depth):
-            stuck = (total <= 0) & (self.parent[node] >= 0) & allowed.any(axis=1)
-            if not stuck.any():
+            up = self.parent[node[stuck]]
+            stuck, up = stuck[up >= 0], up[up >= 0]
+            if not len(stuck):
                 break
-            node[stuck] = self.parent[node[stuck]]
-            masked[stuck] = self.proba[node[stuck]] * allowed[stuck]
-            total[stuck] = masked[stuck].sum(axis=1)
+            node[stuck] = up
+            walked = self.proba[up] * allowed[stuck]
+            masked[stuck] = walked
+            found = walked.sum(axis=1)
+            total[stuck] = found
+            stuck = stuck[found <= 0]
         best = np.argmax(masked, axis=1)
         chosen = total > 0
         with np.errstate(divide="ignore", invalid="ignore"):

@@ -114,9 +114,13 @@ class Explainer:
         return f"{yes_no(question.answer)}: {question.reads(value)}"
 
     def _answered(self, q: PathQuestion, value: float, known: bool) -> bytes:
-        """One question answered, as its JSON object."""
-        shown = _encode(rounded(value) if known else None)
-        return q.head + shown + q.middle + _encode(self.said(q, value, known)) + q.tail
+        """One question answered, as its JSON object (what :meth:`said` says, worded in
+        line: this runs once for every distinct value a batch's ports answer with)."""
+        if not known:
+            said = f"{yes_no(q.answer)}: {NOT_REPORTED}"
+            return q.head + b"null" + q.middle + _encode(said) + q.tail
+        said = f"{'yes' if q.answer else 'no'}: {q.reads(value)}"
+        return q.head + _encode(rounded(value)) + q.middle + _encode(said) + q.tail
 
     def questions(
         self, node: int, row: Sequence[float], reported: Sequence[bool] | None = None
@@ -152,9 +156,17 @@ class Explainer:
             at = np.asarray(places, np.intp)
             columns = []
             for q in self.steps[node]:
+                measured = reported[at, q.column]
+                if not measured.any():  # not reported by any of them: one answer for all
+                    key = (q.head, q.middle, q.tail, None)
+                    answer = said.get(key)
+                    if answer is None:
+                        answer = said[key] = self._answered(q, 0.0, False)
+                    columns.append([answer] * len(places))
+                    continue
                 column = []
                 for value, known in zip(
-                    rows[at, q.column].tolist(), reported[at, q.column].tolist(), strict=True
+                    rows[at, q.column].tolist(), measured.tolist(), strict=True
                 ):
                     key = (q.head, q.middle, q.tail, value if known else None)
                     answer = said.get(key)
