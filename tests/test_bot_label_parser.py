@@ -95,3 +95,30 @@ def test_a_reply_that_negates_one_verdict_and_names_another_is_the_other() -> No
     assert parse_label("it wasn't the cable_fault, optic_degraded") == LabelIntent(
         "optic_degraded", "it wasn't the cable_fault"
     )
+
+
+@pytest.mark.parametrize(
+    "reply",
+    [
+        "can't confirm",
+        "cannot confirm",
+        "can\u2019t confirm that",
+        "cant confirm, still looking",
+        "couldn't confirm it",
+        "I don't agree",
+        "won't confirm yet",
+        "unable to confirm",
+        "not confirmed",
+        "never confirmed",
+        "incorrect",
+    ],
+)
+def test_a_negated_confirmation_is_not_stored_as_one(reply: str) -> None:
+    # Issue 21: "can't confirm" and "cannot confirm" were stored as confirmations. Any
+    # negation keeps a reply from confirming the bot's verdict (common usage).
+    assert parse_label(reply) is None
+
+
+@pytest.mark.parametrize("reply", ["confirmed", "+1", "correct, confirmed", "agreed"])
+def test_a_plain_confirmation_still_confirms(reply: str) -> None:
+    assert parse_label(reply) == LabelIntent(None, reply)

@@ -89,3 +89,15 @@ def test_an_invisible_character_in_a_name_is_shown_where_it_sits(triage: Triage)
     assert answer is not None
     assert answer.startswith("'port<U+200B>14' is not a device or port name.")
     assert "\u200b" not in answer and "\\u200b" not in answer
+
+
+def test_a_reply_lands_on_the_answer_it_follows_across_sessions(triage: Triage) -> None:
+    # Issue 21: thread ids restarted in every session, so a reply in the second session
+    # was stored on the first session's answer. One store, two consoles, one after another.
+    first = Console(triage)
+    first.say("lark-east-idf2 port14")
+    second = Console(triage)
+    second.say("lark-core1 up5")
+    second.say("reply congestion, the annex link is full")
+    (label,) = triage.store.labels()
+    assert (label.device, label.port, label.verdict) == ("lark-core1", "up5", "congestion")

@@ -222,3 +222,23 @@ def test_the_gate_checks_the_worked_example_from_slacks_documentation() -> None:
     assert late.refuse(timestamp, signature, body) is not None
     # Digits of other scripts pass str.isdigit and int(); Slack never sends them.
     assert gate.refuse("\u0661\u0665\u0663", signature, body) is not None
+
+
+def test_a_burst_of_connections_waits_in_the_backlog_rather_than_being_refused(
+    emulator: SlackEmulator, ran: list[str]
+) -> None:
+    # Issue 21: with socketserver's backlog of 5, 60 connections at once were reset. The
+    # listener is bound but not yet accepting: every one of 60 connections must still be
+    # taken by the kernel's queue (a full queue leaves a connect waiting or refused).
+    server = http_server(_app(emulator, ran), secret=SECRET, port=0)
+    clients: list[socket.socket] = []
+    try:
+        address = server.server_address[:2]
+        for _ in range(60):
+            client = socket.create_connection(address, timeout=2.0)
+            clients.append(client)
+        assert len(clients) == 60
+    finally:
+        for client in clients:
+            client.close()
+        server.server_close()

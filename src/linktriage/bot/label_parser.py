@@ -21,7 +21,12 @@ from linktriage.engine.verdicts.healthy import HEALTHY
 # ("sfp") outweighs a general one ("connector") when a reply has both.
 PHRASES: dict[Verdict, tuple[tuple[str, int], ...]] = {k.verdict: k.phrases for k in TREE}
 _CONFIRM = re.compile(r"\b(confirmed|confirm|correct|agreed|right call|spot on)\b|\+1")
-_NEGATION = re.compile(r"\b(not|no|wrong|isn't|wasn't|nope)\b")
+# Any negation in a reply keeps it from confirming: "can't confirm", "cannot confirm", "not
+# confirmed", "don't agree", with or without the apostrophe chat often drops.
+_NEGATION = re.compile(
+    r"\b(not|no|never|nope|wrong|cannot|unable|incorrect|disagree"
+    r"|(is|was|are|were|ca|do|does|did|could|would|wo|have|has|had|should)n'?t)\b"
+)
 # A verdict is negated by a negation just before it ("not a cable fault", "wasn't duplex",
 # "no congestion") or an answer of no just after it ("cable fault? no.").
 _NEGATED_BEFORE = re.compile(
@@ -100,6 +105,7 @@ def parse_label(
     label: the reply's label is what it says instead, or it is asked back.
     """
     rest = re.sub(r"<[@#!][^>]*>", " ", text).strip()  # mentions are not part of it
+    rest = rest.replace("\u2019", "'")  # a typographic apostrophe, as phones write it
     item = None
     device = port = None
     numbered = _ITEM.match(rest)

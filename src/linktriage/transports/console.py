@@ -27,7 +27,6 @@ class Console:
         self.triage = triage
         self.user = user
         self.thread: str | None = None  # message id of the latest answer
-        self._posted = 0
 
     def say(self, line: str) -> str | None:
         """The bot's answer to one line typed at the prompt (None: nothing to say)."""
@@ -45,9 +44,10 @@ class Console:
         return shown
 
     def _post(self, reply: Reply) -> bool:
-        """Give a channel answer its message id, as Slack would; True if it has a thread."""
-        self._posted += 1
-        ts = f"console-{self._posted}"
+        """Give a channel answer its message id, as Slack would; True if it has a thread.
+        The id is unique in the store for ever (not counted per session), so a reply in a
+        later session never lands on an earlier session's answer."""
+        ts = f"console-{uuid.uuid4().hex}"
         if not self.triage.posted(reply, channel=CHANNEL, ts=ts):
             return False
         self.thread = ts

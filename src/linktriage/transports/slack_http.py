@@ -36,6 +36,7 @@ READ_TIMEOUT_S = 10.0  # a request not wholly received by then is dropped
 MAX_BODY = 1 << 20  # Slack's payloads are a few kilobytes
 WORKERS = 16
 QUEUED = 64  # accepted connections waiting for a worker, beyond which 503
+LISTEN_BACKLOG = 256  # connections not yet accepted (see BoundedServer)
 BUSY = b"HTTP/1.1 503 Service Unavailable\r\nContent-Length: 4\r\nConnection: close\r\n\r\nbusy"
 
 
@@ -137,6 +138,11 @@ class _Handler(BaseHTTPRequestHandler):
 
 class BoundedServer(HTTPServer):
     """An HTTP server whose requests run on a fixed pool with a bounded queue."""
+
+    #: Connections the kernel holds for the listener before it accepts them: a burst of
+    #: Slack's deliveries (ten commands and their retries at once) must wait there, not be
+    #: refused (socketserver's default is 5; the kernel caps it at net.core.somaxconn).
+    request_queue_size = LISTEN_BACKLOG
 
     def __init__(
         self,
