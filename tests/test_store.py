@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import json
+import multiprocessing
 import shutil
 import sqlite3
 import sys
 from collections.abc import Iterator
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pytest
@@ -473,5 +475,40 @@ def test_a_guard_answer_keeps_no_confidence_in_a_store_of_the_previous_release(
             if conn.dialect.name == "sqlite":  # the labels' key still names the diagnoses
                 assert conn.exec_driver_sql("PRAGMA foreign_key_check").all() == []
                 assert conn.exec_driver_sql("PRAGMA foreign_keys").scalar() == 1  # enforced
+    finally:
+        store.close()
+
+
+def _open_at_once(url: str, barrier: Any, said: Any) -> None:
+    """One replica starting: open the store (and so migrate it) once all are ready."""
+    barrier.wait()
+    try:
+        Store(url).close()
+        said.put("up")
+    except Exception as exc:  # what the replica would have died of
+        said.put(repr(exc))
+
+
+def test_replicas_started_together_on_an_empty_store_all_come_up(database_url: str) -> None:
+    # Issue 21: two replicas started at once on a new store, and one exited ("relation polls
+    # already exists"). Four fresh interpreters open the same empty store at one moment:
+    # migrations run under a lock, and the later ones find the work done.
+    context = multiprocessing.get_context("spawn")
+    barrier, said = context.Barrier(4), context.Queue()
+    replicas = [
+        context.Process(target=_open_at_once, args=(database_url, barrier, said)) for _ in range(4)
+    ]
+    for replica in replicas:
+        replica.start()
+    outcomes = [said.get(timeout=120) for _ in replicas]
+    for replica in replicas:
+        replica.join(timeout=60)
+    assert outcomes == ["up"] * 4
+    store = Store(database_url)
+    try:
+        assert store.schema_version() == MIGRATIONS[-1].version
+        with store.engine.connect() as conn:
+            versions = conn.execute(sa.select(schema_version_table.c.version)).scalars().all()
+        assert sorted(versions) == [m.version for m in MIGRATIONS]  # each applied once
     finally:
         store.close()

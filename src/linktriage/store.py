@@ -414,6 +414,11 @@ def _history(conn: Connection) -> PollHistory:
     return PollHistory(int(row[0]), int(row[1]), row[2], row[3])
 
 
+#: The PostgreSQL advisory lock migrations hold (any fixed 64-bit number the application
+#: owns: "lt" "migr" in ASCII).
+MIGRATION_LOCK = 0x6C74_6D69_6772
+
+
 class Store:
     """The store behind one SQLAlchemy URL, migrated to the current schema on opening."""
 
@@ -439,7 +444,47 @@ class Store:
             Path(database).parent.mkdir(parents=True, exist_ok=True)
 
     def migrate(self) -> int:
-        """Apply every migration not yet applied; returns the schema version."""
+        """Apply every migration not yet applied; returns the schema version. Replicas
+        that open one store at once migrate it one after another (:meth:`_migrating`):
+        the second finds the work done."""
+        with self._migrating():
+            return self._migrate()
+
+    @contextmanager
+    def _migrating(self) -> Iterator[None]:
+        """Held while migrating, across processes: PostgreSQL's session advisory lock on a
+        connection of its own; on SQLite an exclusive lock on a file beside the database
+        (one host, as a SQLite file is)."""
+        if self.engine.dialect.name == "postgresql":
+            # A connection outside the store's pool, which migrations dispose of.
+            holder = sa.create_engine(self.url, poolclass=sa.pool.NullPool)
+            try:
+                with holder.connect() as conn:
+                    key = {"key": MIGRATION_LOCK}
+                    conn.execute(sa.text("SELECT pg_advisory_lock(:key)"), key)
+                    conn.commit()
+                    try:
+                        yield
+                    finally:
+                        conn.execute(sa.text("SELECT pg_advisory_unlock(:key)"), key)
+                        conn.commit()
+            finally:
+                holder.dispose()
+            return
+        database = sa.make_url(self.url).database
+        if self.engine.dialect.name != "sqlite" or not database or database == ":memory:":
+            yield
+            return
+        import fcntl  # POSIX: where the store runs
+
+        with open(f"{database}.migrating", "a") as lock:
+            fcntl.flock(lock, fcntl.LOCK_EX)
+            try:
+                yield
+            finally:
+                fcntl.flock(lock, fcntl.LOCK_UN)
+
+    def _migrate(self) -> int:
         with self.engine.begin() as conn:
             schema_version_table.create(conn, checkfirst=True)
         done = self.schema_version()
