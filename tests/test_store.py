@@ -512,3 +512,20 @@ def test_replicas_started_together_on_an_empty_store_all_come_up(database_url: s
         assert sorted(versions) == [m.version for m in MIGRATIONS]  # each applied once
     finally:
         store.close()
+
+
+def test_a_signed_request_is_let_in_once_by_every_replica_until_it_expires(
+    database_url: str,
+) -> None:
+    # Issue 21: replay protection shared through the store, not process memory; a
+    # signature's record ends with its lifetime (Slack's five minutes).
+    one, other = Store(database_url), Store(database_url)
+    try:
+        assert one.first_sight("v0=abc", expires_at=1300.0, now=1000.0)
+        assert not other.first_sight("v0=abc", expires_at=1300.0, now=1001.0)
+        assert not one.first_sight("v0=abc", expires_at=1300.0, now=1299.0)
+        assert other.first_sight("v0=def", expires_at=1400.0, now=1100.0)
+        assert one.first_sight("v0=abc", expires_at=1700.0, now=1400.0)  # its record ended
+    finally:
+        one.close()
+        other.close()

@@ -15,6 +15,7 @@ import time
 import urllib.error
 import urllib.request
 from collections.abc import Iterator
+from pathlib import Path
 from urllib.parse import urlencode
 
 import pytest
@@ -22,6 +23,7 @@ from slack_bolt import Ack, App
 from slack_sdk import WebClient
 from slack_sdk.signature import SignatureVerifier
 
+from linktriage.store import Store
 from linktriage.transports.slack_http import BoundedServer, SignatureGate, http_server
 
 from slack_emulator import SlackEmulator
@@ -242,3 +244,42 @@ def test_a_burst_of_connections_waits_in_the_backlog_rather_than_being_refused(
         for client in clients:
             client.close()
         server.server_close()
+
+
+@pytest.mark.parametrize("database", ["sqlite", "postgresql"])
+def test_a_replay_refused_by_one_replica_runs_nothing_on_the_other(
+    emulator: SlackEmulator,
+    tmp_path: Path,
+    request: pytest.FixtureRequest,
+    database: str,
+) -> None:
+    # Issue 21: replay protection lived in each process, so a signed request refused as a
+    # replay by replica A ran again on replica B. Two listeners, one store: the database's
+    # key lets a signature in once.
+    url = (
+        f"sqlite:///{tmp_path / 'store.sqlite'}"
+        if database == "sqlite"
+        else str(request.getfixturevalue("postgres_url"))
+    )
+    ran_a: list[str] = []
+    ran_b: list[str] = []
+    store_a, store_b = Store(url), Store(url)
+    a = _serve(http_server(_app(emulator, ran_a), secret=SECRET, port=0,
+                           first_sight=store_a.first_sight))  # fmt: skip
+    b = _serve(http_server(_app(emulator, ran_b), secret=SECRET, port=0,
+                           first_sight=store_b.first_sight))  # fmt: skip
+    try:
+        url_a, url_b = next(a), next(b)
+        body = slash_body("lark-east-idf2 port14")
+        headers = signed(body)
+        assert post(url_a, body, headers) == 200
+        assert post(url_b, body, headers) == 401  # the same signature, at the other replica
+        assert post(url_a, body, headers) == 401
+        other = slash_body("lark-core1 up3")
+        assert post(url_b, other, signed(other)) == 200
+        assert ran_a == ["lark-east-idf2 port14"] and ran_b == ["lark-core1 up3"]
+    finally:
+        next(a, None)
+        next(b, None)
+        store_a.close()
+        store_b.close()

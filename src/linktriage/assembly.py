@@ -179,7 +179,11 @@ def serve_slack(
             listen_port = port or settings.slack.http_port
             try:
                 server = http_server(
-                    app, secret=secret.get_secret_value(), port=listen_port, host=listen_host
+                    app,
+                    secret=secret.get_secret_value(),
+                    port=listen_port,
+                    host=listen_host,
+                    first_sight=triage.store.first_sight,  # a replay refused by every replica
                 )
             except OSError as exc:
                 why = exc.strerror or exc

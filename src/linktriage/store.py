@@ -116,6 +116,16 @@ audit_table = sa.Table(
     sa.Column("outcome", sa.Text, nullable=False),
 )
 
+#: The signed requests every replica has let in, until each signature's lifetime ends: a
+#: replay refused by one replica is refused by all (since schema version 6).
+seen_requests_table = sa.Table(
+    "seen_requests",
+    metadata,
+    sa.Column("signature", sa.Text, primary_key=True),
+    sa.Column("expires_at", sa.Float, nullable=False),
+    sa.Index("seen_requests_by_expiry", "expires_at"),
+)
+
 
 @dataclass(frozen=True, slots=True)
 class Migration:
@@ -217,6 +227,10 @@ def _named_packs(conn: Connection) -> None:
             )
 
 
+def _seen_requests(conn: Connection) -> None:
+    metadata.create_all(conn, tables=[seen_requests_table])
+
+
 def _confidence_optional(conn: Connection) -> None:
     """The diagnoses' confidence may be null: an answer a guard gave (down, no data, too
     quiet) is a fact, not the tree's guess. SQLite cannot drop a NOT NULL, so the table is
@@ -251,6 +265,7 @@ MIGRATIONS: tuple[Migration, ...] = (
     Migration(3, "polls packed, one row per device per poll; 64-bit ids", _packed_polls),
     Migration(4, "poll packs name their columns", _named_packs),
     Migration(5, "a diagnosis a guard answered keeps no confidence", _confidence_optional),
+    Migration(6, "signed requests seen, shared by every replica", _seen_requests),
 )
 
 
@@ -773,6 +788,22 @@ class Store:
     def _reading(self, what: str) -> AbstractContextManager[Connection]:
         """A read whose database errors become :class:`StoreError`."""
         return self._guarded(what, self.engine.connect)
+
+    # --- signed requests
+    def first_sight(self, signature: str, expires_at: float, now: float) -> bool:
+        """Whether a signed request is seen for the first time by any replica of this store
+        (its signature recorded until ``expires_at``); False for a replay. The database's
+        key decides, so two replicas that see it at once cannot both let it in."""
+        seen = seen_requests_table
+        try:
+            with self.engine.begin() as conn:
+                conn.execute(seen.delete().where(seen.c.expires_at < now))
+                conn.execute(seen.insert().values(signature=signature, expires_at=expires_at))
+        except sa.exc.IntegrityError:
+            return False
+        except sa.exc.SQLAlchemyError as exc:
+            raise StoreError(f"Could not record a signed request: {exc}") from exc
+        return True
 
     def _writing(self, what: str) -> AbstractContextManager[Connection]:
         """A write transaction whose database errors become :class:`StoreError`."""

@@ -40,14 +40,27 @@ LISTEN_BACKLOG = 256  # connections not yet accepted (see BoundedServer)
 BUSY = b"HTTP/1.1 503 Service Unavailable\r\nContent-Length: 4\r\nConnection: close\r\n\r\nbusy"
 
 
-class SignatureGate:
-    """Slack's request signatures checked, each accepted only once within its lifetime."""
+#: Where a gate records the signatures it let in: ``first_sight(signature, expires_at, now)``
+#: is True the first time, False for a replay (the store's, shared by every replica).
+FirstSight = Callable[[str, float, float], bool]
 
-    def __init__(self, secret: str, *, clock: Callable[[], float] = time.time) -> None:
+
+class SignatureGate:
+    """Slack's request signatures checked, each accepted only once within its lifetime:
+    by every replica that shares ``first_sight`` (the store), else by this process."""
+
+    def __init__(
+        self,
+        secret: str,
+        *,
+        clock: Callable[[], float] = time.time,
+        first_sight: FirstSight | None = None,
+    ) -> None:
         self._key = secret.encode()
         self._clock = clock
         self._seen: dict[str, float] = {}  # signature -> when it expires
         self._lock = threading.Lock()
+        self._first_sight = first_sight or self._first_here
 
     def refuse(self, timestamp: str, signature: str, body: bytes) -> str | None:
         """Why the request is refused ("repeated" for a replay), or None to let it in."""
@@ -60,12 +73,18 @@ class SignatureGate:
         expected = "v0=" + hmac.new(self._key, base, hashlib.sha256).hexdigest()
         if not hmac.compare_digest(expected, signature):
             return "signature does not match"
+        if not self._first_sight(signature, int(timestamp) + MAX_AGE_S, now):
+            return "repeated"
+        return None
+
+    def _first_here(self, signature: str, expires_at: float, now: float) -> bool:
+        """Seen by this process before? (One process, no store shared.)"""
         with self._lock:
             self._seen = {s: until for s, until in self._seen.items() if until >= now}
             if signature in self._seen:
-                return "repeated"
-            self._seen[signature] = int(timestamp) + MAX_AGE_S
-        return None
+                return False
+            self._seen[signature] = expires_at
+        return True
 
 
 class _Handler(BaseHTTPRequestHandler):
@@ -191,12 +210,17 @@ def http_server(
     workers: int = WORKERS,
     queued: int = QUEUED,
     read_timeout_s: float = READ_TIMEOUT_S,
+    first_sight: FirstSight | None = None,
 ) -> BoundedServer:
     """The listener for ``/slack/events`` (and ``/healthz``), not yet serving. It binds
     loopback unless told otherwise: put a TLS-terminating proxy in front."""
     handler = type(
         "Handler",
         (_Handler,),
-        {"app": app, "gate": SignatureGate(secret), "timeout": read_timeout_s},
+        {
+            "app": app,
+            "gate": SignatureGate(secret, first_sight=first_sight),
+            "timeout": read_timeout_s,
+        },
     )
     return BoundedServer((host, port), handler, workers=workers, queued=queued)
