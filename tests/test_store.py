@@ -494,15 +494,20 @@ def test_replicas_started_together_on_an_empty_store_all_come_up(database_url: s
     # already exists"). Four fresh interpreters open the same empty store at one moment:
     # migrations run under a lock, and the later ones find the work done.
     context = multiprocessing.get_context("spawn")
-    barrier, said = context.Barrier(4), context.Queue()
+    barrier, said = context.Barrier(4, timeout=120), context.Queue()
     replicas = [
-        context.Process(target=_open_at_once, args=(database_url, barrier, said)) for _ in range(4)
+        context.Process(target=_open_at_once, args=(database_url, barrier, said), daemon=True)
+        for _ in range(4)
     ]
-    for replica in replicas:
-        replica.start()
-    outcomes = [said.get(timeout=120) for _ in replicas]
-    for replica in replicas:
-        replica.join(timeout=60)
+    try:
+        for replica in replicas:
+            replica.start()
+        outcomes = [said.get(timeout=180) for _ in replicas]
+    finally:  # a replica that never came up is not left behind
+        for replica in replicas:
+            replica.join(timeout=60)
+            if replica.is_alive():
+                replica.kill()
     assert outcomes == ["up"] * 4
     store = Store(database_url)
     try:
