@@ -38,6 +38,7 @@ from linktriage.engine.measure.columns import Columns
 from linktriage.engine.measure.fec import UNCORRECTABLE_SHARE, codewords, high_pre_fec_ber
 from linktriage.engine.measure.phy import (
     HALF_DUPLEX_MAX_BPS,
+    MAX_PAUSE_BITS,
     RX_SENSITIVITY_DBM,
     estimate_ber,
     frame_error_ratio,
@@ -498,9 +499,7 @@ def _since_1_2(
     lost = d["fec_uncorrectable_blocks"]
     # A pause frame holds the transmitter off for at most 65,535 quanta of 512 bit times
     # (IEEE 802.3 annex 31B): the share of the window received pause frames can hold.
-    pause_share = np.minimum(
-        _ratio(d["in_pause"] * PAUSE_QUANTA * PAUSE_QUANTUM_BITS, line_bits), 1.0
-    )
+    pause_share = np.minimum(_ratio(d["in_pause"] * MAX_PAUSE_BITS, line_bits), 1.0)
     rx_max = np.fmax(optics["rx_power_max_dbm"], optics["rx_power_dbm"])
     high = optics["rx_power_high_warn_dbm"]
     high = np.where(np.isnan(high), optics["rx_power_high_alarm_dbm"], high)
@@ -592,11 +591,6 @@ def _expected_speed(w: WindowTable) -> tuple[FloatArray, FloatArray]:
         whole = np.array([(d, p) in named for d, p in zip(devices, w.port.tolist(), strict=True)])
         expected = np.where(whole, np.nan, expected)
     return expected, limited_by
-
-
-#: IEEE 802.3 annex 31B: pause_time is counted in quanta of 512 bit times, at most 65,535.
-PAUSE_QUANTA = 65_535.0
-PAUSE_QUANTUM_BITS = 512.0
 
 
 def _pmd_max_rx(

@@ -99,6 +99,10 @@ RX_SENSITIVITY_DBM: dict[int, tuple[str, float]] = {
 }
 
 
+#: The longest a pause frame holds a transmitter off, in bit times: 65,535 quanta of 512 bit
+#: times (IEEE 802.3 annex 31B, pause_time).
+MAX_PAUSE_BITS = 65_535.0 * 512.0
+
 #: The most light a receiver of each PMD takes without overload (maximum average receive
 #: power, dBm, IEEE 802.3 PMD tables; all from memory, M: check against the clause before
 #: relying on one): 1000BASE-SX 0 (clause 38), 1000BASE-LX -3 (clause 38), 10GBASE-SR -1.0,

@@ -114,13 +114,9 @@ class Explainer:
         return f"{yes_no(question.answer)}: {question.reads(value)}"
 
     def _answered(self, q: PathQuestion, value: float, known: bool) -> bytes:
-        """One question answered, as its JSON object (what :meth:`said` says, worded in
-        line: this runs once for every distinct value a batch's ports answer with)."""
-        if not known:
-            said = f"{yes_no(q.answer)}: {NOT_REPORTED}"
-            return q.head + b"null" + q.middle + _encode(said) + q.tail
-        said = f"{'yes' if q.answer else 'no'}: {q.reads(value)}"
-        return q.head + _encode(rounded(value)) + q.middle + _encode(said) + q.tail
+        """One question answered, as its JSON object."""
+        shown = _encode(rounded(value) if known else None)
+        return q.head + shown + q.middle + _encode(self.said(q, value, known)) + q.tail
 
     def questions(
         self, node: int, row: Sequence[float], reported: Sequence[bool] | None = None

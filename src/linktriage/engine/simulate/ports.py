@@ -18,6 +18,7 @@ import numpy as np
 
 from linktriage.engine.format.counters import WIRE_OVERHEAD_OCTETS
 from linktriage.engine.measure.phy import (
+    MAX_PAUSE_BITS,
     MOST_PERMISSIVE_MAX_RX_DBM,
     RX_SENSITIVITY_DBM,
     objective_for,
@@ -330,7 +331,7 @@ def base(n: int, rng: Rng, r: Ranges) -> pd.DataFrame:
             # quanta of 512 bit times, IEEE 802.3 annex 31B).
             "in_pause_fps": np.where(
                 chance(rng, 0.1 * r.nuisance, n),
-                log_uniform(rng, 1e-5, 0.02, n) * speed / (65_535.0 * 512.0),
+                log_uniform(rng, 1e-5, 0.02, n) * speed / MAX_PAUSE_BITS,
                 0.0,
             ),
             "module_max_speed_bps": np.nan,

@@ -13,6 +13,7 @@ import numpy as np
 
 from linktriage.engine.format.answers import Verdict
 from linktriage.engine.measure.numbers import sig
+from linktriage.engine.measure.phy import MAX_PAUSE_BITS
 from linktriage.engine.measure.signs import PAUSE_SHARE
 from linktriage.engine.simulate.ports import FIBER_10G, Ranges, Rng, log_uniform
 from linktriage.engine.verdict_kit.declaration import (
@@ -67,7 +68,7 @@ def _signature(p: pd.DataFrame, rng: Rng, r: Ranges) -> None:
     n = len(p)
     p["dot3"] = True
     share = rng.uniform(0.15, 1.0, n)
-    p["in_pause_fps"] = share * p["speed_bps"].to_numpy() / (65_535.0 * 512.0)
+    p["in_pause_fps"] = share * p["speed_bps"].to_numpy() / MAX_PAUSE_BITS
     # Held off, the port's queue overflows in half of the cases.
     held = rng.random(n) < 0.5
     p["out_discard_ratio"] = np.where(held, log_uniform(rng, 1e-4, 1e-2, n), 0.0)
