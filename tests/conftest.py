@@ -80,6 +80,14 @@ def postgres_url(postgres_server_url: str, request: pytest.FixtureRequest) -> st
     return fresh_database(postgres_server_url, name)
 
 
+@pytest.fixture(params=["sqlite", "postgresql"])
+def database_url(request: pytest.FixtureRequest, tmp_path: Path) -> str:
+    """An empty database: a SQLite file, or one on a real PostgreSQL server on loopback."""
+    if request.param == "sqlite":
+        return f"sqlite:///{tmp_path / 'store.sqlite'}"
+    return str(request.getfixturevalue("postgres_url"))
+
+
 @pytest.fixture
 def store(tmp_path: Path) -> Iterator[Store]:
     """A real SQLite store in a file of its own."""

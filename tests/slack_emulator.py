@@ -4,14 +4,18 @@ It answers the methods the bot calls (auth.test, chat.postMessage, usergroups.us
 the external file upload: files.getUploadURLExternal, the upload URL it hands out, and
 files.completeUploadExternal) and response_url webhooks, and records every call for tests
 to assert on (an upload's bytes as they arrived). Runs on an ephemeral loopback port in a
-thread of its own.
+thread of its own. A method can be rate-limited until a moment on the emulator's clock:
+it answers HTTP 429 with ``Retry-After``, as Slack's Web API does ("Rate limits",
+api.slack.com/apis/rate-limits), and records the refused call apart.
 """
 
 from __future__ import annotations
 
 import json
+import math
 import threading
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from typing import Any
@@ -32,8 +36,12 @@ class SlackEmulator:
     usergroups: dict[str, list[str]] = field(default_factory=dict)
     failures: dict[str, str] = field(default_factory=dict)  # method -> Slack error code
     calls: list[Call] = field(default_factory=list)
+    limited_until: dict[str, float] = field(default_factory=dict)  # method -> clock time
+    refused: list[Call] = field(default_factory=list)  # calls answered 429
+    clock: Callable[[], float] = time.time
     _server: ThreadingHTTPServer | None = None
     _ts: int = 0
+    _lock: threading.Lock = field(default_factory=threading.Lock)
 
     def start(self) -> SlackEmulator:
         emulator = self
@@ -52,11 +60,20 @@ class SlackEmulator:
                     params = {k: v[0] for k, v in parse_qs(raw).items()}
                 auth = self.headers.get("Authorization", "")
                 token = auth.removeprefix("Bearer ") if auth else params.get("token")
+                method = self.path.removeprefix("/api/")
+                wait = emulator.limited_until.get(method, 0.0) - emulator.clock()
+                if wait > 0:
+                    emulator.refused.append(Call(method, params, token))
+                    body = json.dumps({"ok": False, "error": "ratelimited"}).encode()
+                    self._reply(body, status=429, retry_after=math.ceil(wait))
+                    return
                 answer = emulator._answer(self.path, params, token)
                 self._reply((answer if isinstance(answer, str) else json.dumps(answer)).encode())
 
-            def _reply(self, body: bytes) -> None:
-                self.send_response(200)
+            def _reply(self, body: bytes, *, status: int = 200, retry_after: int = 0) -> None:
+                self.send_response(status)
+                if retry_after:
+                    self.send_header("Retry-After", str(retry_after))
                 self.send_header("Content-Type", "application/json")
                 self.send_header("Content-Length", str(len(body)))
                 self.end_headers()
@@ -98,8 +115,9 @@ class SlackEmulator:
             return {"ok": True, "team_id": "T0LARK", "user_id": BOT_USER, "bot_id": "B0LTBOT",
                     "team": "Larkmoor Civic Library", "user": "linktriage"}  # fmt: skip
         if method == "chat.postMessage":
-            self._ts += 1
-            ts = f"{1772438400 + self._ts}.000100"
+            with self._lock:
+                self._ts += 1
+                ts = f"{1772438400 + self._ts}.000100"
             return {"ok": True, "channel": params.get("channel"), "ts": ts, "message": params}
         if method == "chat.update":
             return {"ok": True, "channel": params.get("channel"), "ts": params.get("ts")}

@@ -25,7 +25,7 @@ FIVE_MIN = 300.0
 
 def poll_job_runs(triage: Triage, clock: DemoClock, rounds: int) -> None:
     """The poll job, every five minutes of simulated time."""
-    jobs = Jobs(triage, post=lambda reply: None, channel=None)
+    jobs = Jobs(triage, post=lambda reply: None, channel=None, holding=True)  # the only replica
     for _ in range(rounds):
         jobs.poll()
         clock.sleep(FIVE_MIN)

@@ -1,14 +1,12 @@
-"""The poll and digest jobs, driven on a fixed clock; a missed digest is caught up once."""
+"""The jobs, driven on a fixed clock: run once across replicas, handed over when the one
+running them stops, a missed digest caught up once, old answers forgotten."""
 
 from __future__ import annotations
 
-import logging
+import math
 from collections.abc import Callable
 from datetime import datetime
 from zoneinfo import ZoneInfo
-
-import pytest
-from slack_sdk.errors import SlackApiError
 
 from linktriage.bot.jobs import Jobs, digest_trigger, missed_digest, start_scheduler
 from linktriage.bot.triage import Triage
@@ -50,76 +48,104 @@ def channel_of(triage: Triage, posted: list[SuspectsReply]) -> Callable[[Suspect
     return post
 
 
+def replica(triage: Triage, name: str, posted: list[SuspectsReply]) -> Jobs:
+    """One replica's jobs over the shared store."""
+    return Jobs(triage, channel_of(triage, posted), "C0NETOPS", SCHEDULE, holder=name)
+
+
 def test_being_down_two_days_gives_one_digest_not_two(triage: Triage, clock: DemoClock) -> None:
     posted: list[SuspectsReply] = []
-    jobs = Jobs(triage, channel_of(triage, posted), "C0NETOPS")
-    trigger = digest_trigger(SCHEDULE)
+    jobs = replica(triage, "replica-a", posted)
     clock.now = at(2, 7, 30)
-    jobs.digest()
-    clock.now = at(4, 9, 0)  # back up on Wednesday morning
-    assert jobs.catch_up(trigger, OSLO) is not None
-    assert jobs.catch_up(trigger, OSLO) is None  # caught up: nothing more until Thursday
+    assert jobs.heartbeat()
+    jobs.scheduled_digest()
+    clock.now = at(4, 9, 0)  # started again on Wednesday morning
+    restarted = replica(triage, "replica-a, restarted", posted)
+    assert restarted.heartbeat()  # the old lease lapsed while down: taken, and caught up
+    assert restarted.catch_up(digest_trigger(SCHEDULE), OSLO) is None  # nothing till Thursday
     assert len(posted) == 2
     assert posted[1].since == posted[0].at
 
 
-def test_a_digest_the_channel_refuses_is_tried_again_and_is_not_done_until_posted(
-    triage: Triage, clock: DemoClock, caplog: pytest.LogCaptureFixture
-) -> None:
-    refusals = ["not_in_channel", "not_in_channel"]
-    posted: list[SuspectsReply] = []
-    waits: list[float] = []
-
-    def refusing(reply: SuspectsReply) -> None:
-        if refusals:
-            raise SlackApiError("refused", {"ok": False, "error": refusals.pop()})
-        channel_of(triage, posted)(reply)
-
-    clock.now = at(2, 7, 30)
-    jobs = Jobs(triage, refusing, "C0NETOPS", sleep=waits.append, retries_s=(60.0, 300.0))
-    with caplog.at_level(logging.WARNING, logger="linktriage.bot.jobs"):
-        jobs.digest()
-    assert waits == [60.0, 300.0] and len(posted) == 1
-    assert triage.store.last_digest() is not None
-    lines = [r.getMessage() for r in caplog.records]
-    assert lines[0] == (
-        "digest: could not post to C0NETOPS (not_in_channel), try 1 of 3; again in 60 s"
-    )
-
-
-def test_a_digest_never_posted_is_caught_up_at_the_next_start(
+def test_only_the_replica_holding_the_jobs_runs_them_and_each_run_once(
     triage: Triage, clock: DemoClock
 ) -> None:
-    clock.now = at(2, 7, 30)
     posted: list[SuspectsReply] = []
-    monday = triage.digests.digest(channel="C0NETOPS")
-    channel_of(triage, posted)(monday)  # Monday's, posted
+    a, b = replica(triage, "replica-a", posted), replica(triage, "replica-b", posted)
+    clock.now = at(2, 7, 30)
+    assert a.heartbeat() and not b.heartbeat()
+    assert a.scheduled_digest() is not None
+    assert b.scheduled_digest() is None  # b does not hold the jobs
+    assert a.scheduled_digest() is None  # Monday's is done: the store says so
+    assert b.poll() is None
+    assert len(posted) == 1
 
-    def refusing(reply: SuspectsReply) -> None:
-        raise SlackApiError("refused", {"ok": False, "error": "channel_not_found"})
 
-    clock.now = at(3, 7, 30)
-    Jobs(triage, refusing, "C0NETOPS", sleep=lambda s: None).digest()  # Tuesday's, refused
-    last = triage.store.last_digest()
-    assert last is not None and last.at == monday.at  # Tuesday's is not done
-    clock.now = at(3, 9, 0)
-    jobs = Jobs(triage, channel_of(triage, posted), "C0NETOPS")
-    assert jobs.catch_up(digest_trigger(SCHEDULE), OSLO) is not None
+def test_a_replica_that_stops_hands_the_jobs_over_within_one_poll_interval(
+    triage: Triage, clock: DemoClock
+) -> None:
+    posted: list[SuspectsReply] = []
+    a, b = replica(triage, "replica-a", posted), replica(triage, "replica-b", posted)
+    poll_s = SCHEDULE.poll_minutes * 60.0
+    clock.now = math.floor(at(2, 10) / poll_s) * poll_s  # a poll round is due
+    assert a.heartbeat()  # took the jobs: polled this interval's round
+    rounds = triage.store.poll_history().packs
+    assert rounds > 0
+    assert not b.heartbeat()
+    # a dies now, without a word. b's heartbeat runs every quarter interval.
+    taken_at = None
+    for quarter in range(1, 5):
+        clock.now += poll_s / 4
+        if b.heartbeat():
+            taken_at = quarter * poll_s / 4
+            break
+    assert taken_at is not None and taken_at < poll_s
+    assert triage.store.poll_history().packs == rounds  # this interval's round: a ran it
+    clock.now = math.ceil(clock.now / poll_s) * poll_s  # the next round falls due
+    assert b.poll() is not None and a.poll() is None
+    assert b.poll() is None  # once
+    assert triage.store.poll_history().packs == 2 * rounds
+
+
+def test_a_clean_stop_hands_the_jobs_over_at_the_next_heartbeat(
+    triage: Triage, clock: DemoClock
+) -> None:
+    posted: list[SuspectsReply] = []
+    a, b = replica(triage, "replica-a", posted), replica(triage, "replica-b", posted)
+    clock.now = at(2, 10)
+    assert a.heartbeat()
+    a.release()
+    assert b.heartbeat()
 
 
 def test_the_poll_job_keeps_the_whole_network(triage: Triage) -> None:
-    jobs = Jobs(triage, lambda reply: None, None)
-    assert jobs.poll().stored == len(triage.network.ports())
+    jobs = Jobs(triage, lambda reply: None, None, holder="replica-a")
+    assert jobs.heartbeat()  # taking the jobs polls this interval's round at once
+    assert triage.store.poll_history().ports == len(triage.network.ports())
 
 
-def test_the_scheduler_holds_two_coalescing_jobs(triage: Triage) -> None:
-    scheduler = start_scheduler(Jobs(triage, lambda reply: None, None), SCHEDULE, paused=True)
+def test_tidying_forgets_answers_past_their_keep(triage: Triage, clock: DemoClock) -> None:
+    jobs = Jobs(triage, lambda reply: None, None, holder="replica-a")
+    triage.handle("lark-east-idf2 port14")
+    assert jobs.heartbeat()
+    clock.now += triage.settings.store.keep_answers_days * 86400.0 + 3600.0
+    assert jobs.heartbeat()
+    jobs.tidy()
+    assert triage.store.diagnosis(1) is None
+    assert triage.store.audit_log() == []
+
+
+def test_the_scheduler_holds_the_lease_poll_digest_and_tidy_jobs(triage: Triage) -> None:
+    jobs = Jobs(triage, lambda reply: None, None, SCHEDULE)
+    scheduler = start_scheduler(jobs, SCHEDULE, paused=True)
     try:
-        jobs = {job.id: job for job in scheduler.get_jobs()}
-        assert set(jobs) == {"poll", "digest"}
-        for job in jobs.values():
+        scheduled = {job.id: job for job in scheduler.get_jobs()}
+        assert set(scheduled) == {"lease", "poll", "digest", "tidy"}
+        for job in scheduled.values():
             assert job.coalesce is True and job.max_instances == 1
-        digest_at = jobs["digest"].next_run_time.astimezone(OSLO)
+        digest_at = scheduled["digest"].next_run_time.astimezone(OSLO)
         assert (digest_at.hour, digest_at.minute) == (7, 30) and digest_at.weekday() < 5
+        poll_at = scheduled["poll"].next_run_time.timestamp()
+        assert poll_at % (SCHEDULE.poll_minutes * 60.0) == 0  # the same moments everywhere
     finally:
         scheduler.shutdown(wait=False)

@@ -15,6 +15,8 @@ from linktriage.render.replies import (
     DiagnosisReply,
 )
 
+from helpers import line, polls
+
 
 def test_a_port_with_no_history_gets_two_polls_a_quick_window_apart(triage: Triage) -> None:
     waited: list[float] = []
@@ -144,3 +146,18 @@ def test_a_port_recabled_no_longer_stands_for_its_old_far_end(triage: Triage) ->
     polls.neighbor_port[:] = None  # its LLDP entry aged out: it names nobody now
     poller.heard(polls)
     assert poller.naming("lark-core1", "up6") is None
+
+
+def test_the_poll_job_forgets_a_backlog_larger_than_any_batch_in_one_round(
+    triage: Triage, clock: DemoClock
+) -> None:
+    # Issue 21: pruning forgot at most 20,000 packs a round, so with 21,000 devices the
+    # store grew by 1,000 packs every round without end. Old polls of 21,000 devices (one
+    # pack each), then one round of the poll job past their keep.
+    old = polls(*(line(device=f"lark-far-sw{i}") for i in range(21_000)))
+    assert triage.store.add_polls(old) == 21_000
+    clock.sleep(triage.settings.store.keep_polls_h * 3600.0 + float(old.time.max()) - clock())
+    clock.sleep(60.0)
+    result = triage.poller.poll_round()
+    assert result.forgotten == 21_000
+    assert triage.store.poll_history().ports == result.stored  # this round's polls alone

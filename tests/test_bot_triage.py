@@ -80,3 +80,21 @@ def test_an_answer_reads_its_far_end_and_stands_without_it_when_it_cannot_be_rea
     assert isinstance(alone, DiagnosisReply)
     assert alone.record["verdict"] == "unidirectional"
     assert "far_end" not in alone.record and "link" not in alone.record
+
+
+def test_both_ends_of_a_link_are_polled_together_with_one_wait(
+    triage: Triage, clock: DemoClock
+) -> None:
+    # Issue 21: a port whose far end had no recent poll waited the quick window for one
+    # end, then again for the other (60.3 s). The last stored poll of lark-east-idf2 port7
+    # names its far end (lark-circ-prn1 eth0), so both are polled at once and wait once.
+    triage.poller.poll_round()
+    clock.sleep(triage.settings.chat.recent_poll_s - 1.0)  # its poll is still on record
+    stale = Triage(triage.network, triage.store, triage.model, triage.settings, clock=clock,
+                   sleep=clock.sleep)  # a fresh process: nothing heard yet  # fmt: skip
+    clock.sleep(2.0)  # now no poll of either end is recent enough to start a window
+    started = clock()
+    answer = stale.handle("lark-east-idf2 port7")
+    assert isinstance(answer, DiagnosisReply)
+    assert answer.record["far_end"]["device"] == "lark-circ-prn1"
+    assert clock() - started == triage.settings.chat.quick_window_s  # one wait, not two

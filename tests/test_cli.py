@@ -603,7 +603,7 @@ def _polled_for_an_hour(tmp_path: Path) -> Path:
     clock = DemoClock(time.time() - 3600.0)
     store = Store(f"sqlite:///{store_path}")
     triage = Triage(DemoNetwork(clock=clock), store, Model.load(), Settings(), clock=clock)
-    jobs = Jobs(triage, post=lambda reply: None, channel=None)
+    jobs = Jobs(triage, post=lambda reply: None, channel=None, holding=True)  # the only replica
     for _ in range(12):
         jobs.poll()
         clock.sleep(300.0)

@@ -31,7 +31,7 @@ def label_ports(triage: Triage, found: dict[str, str], times: int = 1) -> list[L
             key = f"{spec}:{n}"
             triage.store.add_label(
                 diagnosis, verdict, note="", user_id="U1", channel="C1", source="thread",
-                event_key=key, at=float(n),
+                event_key=key, at=float(n), turn=1,
             )  # fmt: skip
             triage.sleep(600.0)  # a fresh window next time
     return triage.store.labels()
@@ -74,13 +74,13 @@ def test_answers_whose_labels_disagree_teach_nothing_until_they_agree(triage: Tr
         assert diagnosis is not None
         triage.store.add_label(
             diagnosis, "congestion", note="", user_id="U9", channel="C1", source="button",
-            event_key=f"other:{n}", at=100.0 + n,
+            event_key=f"other:{n}", at=100.0 + n, turn=1,
         )  # fmt: skip
     diagnosis = triage.store.diagnosis(labels[2].diagnosis_id)
     assert diagnosis is not None
     triage.store.add_label(
         diagnosis, "healthy", note="said again", user_id="U1", channel="C1", source="thread",
-        event_key="again", at=200.0,
+        event_key="again", at=200.0, turn=2,
     )  # fmt: skip
     outcome = learn(triage.store.labels(), TreeArtefact.default(), SMALL)
     assert outcome.disputed == 2

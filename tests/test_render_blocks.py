@@ -19,7 +19,15 @@ from linktriage.bot.history import verdict_runs
 from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.answers import DiagnosisRecord
-from linktriage.render.blocks import MAX_BLOCKS, MAX_RUNS, escape, message_for, thread_for
+from linktriage.render.blocks import (
+    FIRST_SCREEN,
+    MAX_BLOCKS,
+    MAX_RUNS,
+    escape,
+    message_for,
+    text_size,
+    thread_for,
+)
 from linktriage.render.card import model_card_data
 from linktriage.render.replies import (
     DiagnosisReply,
@@ -153,7 +161,10 @@ def test_a_long_digest_lists_the_worst_first_and_the_rest_in_its_thread(
         assert len(json.dumps(message["blocks"], ensure_ascii=False)) <= 13_000
     ranks = [rank for message in (first, *rest) for rank in _ranks(message)]
     assert ranks == list(range(1, count + 1))  # every link once, worst first
+    # Issue 21: a 400-link list's first message held 12,000 characters, 14 phone screens.
+    assert text_size(first["blocks"]) <= FIRST_SCREEN
     shown = _ranks(first)
+    assert shown  # the worst links are on the first screen
     if count > len(shown):
         assert f"\u2026 and {count - len(shown)} more in this message's thread." in json.dumps(
             first["blocks"], ensure_ascii=False

@@ -7,7 +7,9 @@ import multiprocessing
 import shutil
 import sqlite3
 import sys
+import threading
 from collections.abc import Iterator
+from functools import partial
 from pathlib import Path
 from typing import Any
 
@@ -39,14 +41,6 @@ from linktriage.store import (
 from helpers import line, named, package_copy, polls, run_in_copy
 
 T5 = "2026-03-02T08:05:00Z"
-
-
-@pytest.fixture(params=["sqlite", "postgresql"])
-def database_url(request: pytest.FixtureRequest, tmp_path: Path) -> str:
-    """An empty database: a SQLite file, or one on a real PostgreSQL server on loopback."""
-    if request.param == "sqlite":
-        return f"sqlite:///{tmp_path / 'store.sqlite'}"
-    return str(request.getfixturevalue("postgres_url"))
 
 
 @pytest.fixture
@@ -102,11 +96,10 @@ def _diagnosis(store: Store) -> int:
 def test_the_same_event_stores_one_label(store: Store) -> None:
     stored = store.diagnosis(_diagnosis(store))
     assert stored is not None
-    first = store.add_label(stored, "cable_fault", note="crushed cord", user_id="U1",
-                            channel="C1", source="thread", event_key="Ev1", at=2.0)  # fmt: skip
-    again = store.add_label(stored, "cable_fault", note="crushed cord", user_id="U1",
-                            channel="C1", source="thread", event_key="Ev1", at=3.0)  # fmt: skip
-    assert (first, again) == (True, False)
+    keep = partial(store.add_label, stored, "cable_fault", note="crushed cord", user_id="U1",
+                   channel="C1", source="thread", event_key="Ev1", turn=1)  # fmt: skip
+    first, again = keep(at=2.0), keep(at=3.0)
+    assert (first, again) == ("stored", "repeat")
     (label,) = store.labels()
     assert label.features == {"rx_crc_ratio": 1e-4}
     assert label.model_version == "m1" and label.model_verdict == "cable_fault"
@@ -143,7 +136,7 @@ def test_a_write_that_fails_raises_a_store_error(tmp_path: Path) -> None:
     assert stored is not None
     with pytest.raises(StoreError, match="Could not keep the label"):
         store.add_label(stored, "healthy", note="", user_id="U1", channel=None,
-                        source="thread", event_key="Ev2", at=1.0)  # fmt: skip
+                        source="thread", event_key="Ev2", at=1.0, turn=1)  # fmt: skip
 
 
 def test_the_audit_log_keeps_commands_in_order(store: Store) -> None:
@@ -245,9 +238,7 @@ def test_old_polls_are_forgotten_in_small_batches(store: Store) -> None:
         table.time[:] += 60.0 * minute
         store.add_polls(table)
     start = float(polls(line()).time[0])
-    assert store.prune_polls(start + 60 * 6, batch=2, batches=1) == 2  # one small batch
-    assert store.poll_history().packs == 8
-    assert store.prune_polls(start + 60 * 6, batch=2) == 4  # the rest, batch by batch
+    assert store.prune_polls(start + 60 * 6, batch=2) == 6  # three small batches, all of it
     history = store.poll_history()
     assert (history.packs, history.ports) == (4, 4)
     assert history.oldest == start + 60 * 6 and history.newest == start + 60 * 9
@@ -534,3 +525,140 @@ def test_a_signed_request_is_let_in_once_by_every_replica_until_it_expires(
     finally:
         one.close()
         other.close()
+
+
+# --- issue 21: a store that lasts, shared by replicas
+
+
+def _answer(store: Store, at: float = 1772438400.0) -> int:
+    record = {"device": "lark-east-idf2", "port": "port14", "verdict": "cable_fault",
+              "confidence": 0.9, "model_version": "test"}  # fmt: skip
+    (answer_id,) = store.add_diagnoses([NewAnswer(record, {}, at, "chat")])
+    return answer_id
+
+
+def test_each_persons_labels_of_an_answer_take_turns_and_a_turn_is_stored_once(
+    store: Store,
+) -> None:
+    answer = store.diagnosis(_answer(store))
+    assert answer is not None
+    common = {"note": "", "user_id": "U0ENG", "channel": "C0NET", "source": "button"}
+    keep = partial(store.add_label, answer, **common)
+    assert keep("cable_fault", event_key="press-1", at=1.0, turn=1) == "stored"
+    assert keep("cable_fault", event_key="press-1", at=2.0, turn=1) == "repeat"  # delivered again
+    # A second press decided on what it read before the first was stored (another replica,
+    # the same moment): its turn is taken, and it is told to read again.
+    assert keep("cable_fault", event_key="press-2", at=2.0, turn=1) == "raced"
+    assert keep("duplex_mismatch", event_key="press-3", at=3.0, turn=2) == "stored"
+    with store.engine.connect() as conn:
+        turns = conn.exec_driver_sql("SELECT turn FROM labels ORDER BY id").scalars().all()
+    assert turns == [1, 2]
+
+
+def test_one_replica_holds_a_lease_until_it_lapses_then_another_takes_it(store: Store) -> None:
+    assert store.take_lease("jobs", "replica-a", now=100.0, hold_s=60.0)
+    assert not store.take_lease("jobs", "replica-b", now=120.0, hold_s=60.0)
+    assert store.take_lease("jobs", "replica-a", now=150.0, hold_s=60.0)  # renewed to 210
+    assert not store.take_lease("jobs", "replica-b", now=200.0, hold_s=60.0)
+    assert store.lease_holder("jobs", now=200.0) == "replica-a"
+    assert store.take_lease("jobs", "replica-b", now=211.0, hold_s=60.0)  # a lapsed
+    assert not store.take_lease("jobs", "replica-a", now=212.0, hold_s=60.0)
+    store.release_lease("jobs", "replica-b")  # a clean stop gives it up at once
+    assert store.lease_holder("jobs", now=213.0) is None
+    assert store.take_lease("jobs", "replica-a", now=213.0, hold_s=60.0)
+
+
+def test_a_run_of_a_job_is_claimed_once_across_replicas(store: Store) -> None:
+    assert store.claim_run("digest", 1772440200.0, "replica-a", now=1772440201.0)
+    assert not store.claim_run("digest", 1772440200.0, "replica-b", now=1772440202.0)
+    assert store.claim_run("digest", 1772526600.0, "replica-b", now=1772526601.0)
+
+
+def test_replicas_racing_for_a_lease_leave_exactly_one_holder(database_url: str) -> None:
+    Store(database_url).close()  # migrated once
+    stores = [Store(database_url) for _ in range(4)]
+    won: list[bool] = []
+    barrier = threading.Barrier(len(stores))
+
+    def race(store: Store, name: str) -> None:
+        barrier.wait(timeout=60)
+        won.append(store.take_lease("jobs", name, now=100.0, hold_s=60.0))
+
+    threads = [
+        threading.Thread(target=race, args=(store, f"replica-{i}"))
+        for i, store in enumerate(stores)
+    ]
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join(timeout=120)
+    for store in stores:
+        store.close()
+    assert sorted(won) == [False, False, False, True]
+
+
+def test_retention_forgets_old_answers_lists_and_audit_but_keeps_labelled_answers(
+    store: Store,
+) -> None:
+    old, new = 1_000_000.0, 2_000_000.0
+    labelled, forgotten, recent = _answer(store, old), _answer(store, old), _answer(store, new)
+    answer = store.diagnosis(labelled)
+    assert answer is not None
+    store.add_label(answer, "cable_fault", note="", user_id="U0ENG", channel="C0NET",
+                    source="thread", event_key="ev-1", at=old, turn=1)  # fmt: skip
+    store.add_digest([], at=old, kind="digest", channel="C0NET")
+    store.add_digest([], at=new, kind="digest", channel="C0NET")
+    store.audit("lark-east-idf2 port14", "DiagnosisReply", at=old, user_id=None, channel=None)
+    store.audit("lark-east-idf2 port14", "DiagnosisReply", at=new, user_id=None, channel=None)
+    gone = store.forget_answers(1_500_000.0, batch=1)
+    assert (gone.answers, gone.lists, gone.audit) == (1, 1, 1)
+    assert store.diagnosis(forgotten) is None
+    assert store.diagnosis(labelled) is not None  # its label still trains the model
+    assert store.diagnosis(recent) is not None
+    assert [row["at"] for row in store.audit_log()] == [new]
+    assert len(store.labels()) == 1
+
+
+def test_a_sqlite_write_ahead_log_is_given_back_after_a_checkpoint(tmp_path: Path) -> None:
+    path = tmp_path / "store.sqlite"
+    store = Store(f"sqlite:///{path}")
+    table = polls(*(line(device=f"lark-sw{i}", port=f"port{p}") for i in range(40)
+                    for p in range(48)))  # fmt: skip
+    for _ in range(5):
+        store.add_polls(table)
+    wal = Path(f"{path}-wal")
+    assert wal.stat().st_size > 0
+    store.compact()
+    assert wal.stat().st_size == 0
+    store.close()
+
+
+def test_a_postgresql_store_from_schema_version_2_counts_its_ids_in_64_bits(
+    postgres_url: str,
+) -> None:
+    # Issue 21: a store made with 32-bit serial ids (schema version 2, commit 063dd8a) and
+    # upgraded by migration 3 kept its sequences "AS integer": nextval stopped at 2**31 - 1.
+    # fixtures/store/schema-2-postgresql.sql is that store as pg_dump wrote it.
+    dump = (FIXTURES / "store" / "schema-2-postgresql.sql").read_text()
+    engine = sa.create_engine(postgres_url)
+    with engine.begin() as conn:
+        conn.exec_driver_sql(dump)
+    engine.dispose()
+    store = Store(postgres_url)
+    assert store.schema_version() == MIGRATIONS[-1].version
+    with store.engine.begin() as conn:
+        kinds = dict(
+            conn.exec_driver_sql("SELECT sequencename, data_type::text FROM pg_sequences").all()
+        )
+        ids = ("audit", "diagnoses", "digests", "labels", "outbox", "poll_packs")
+        assert {name: kinds[name] for name in kinds if name.endswith("_id_seq")} == {
+            f"{table}_id_seq": "bigint" for table in ids
+        }
+        conn.exec_driver_sql("SELECT setval('audit_id_seq', 2147483647)")
+    store.audit("lark-east-idf2 port14", "DiagnosisReply", at=1.0, user_id=None, channel=None)
+    assert store.audit_log()[-1]["id"] == 2**31  # past 32 bits
+    stored = store.diagnosis(1)
+    assert stored is not None and stored.port == "port14"
+    assert [label.note for label in store.labels()] == ["reseated the patch lead"]
+    assert store.poll_history().ports == 2  # its JSON lines packed by migration 3
+    store.close()

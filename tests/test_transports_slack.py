@@ -10,7 +10,8 @@ import time
 import urllib.error
 import urllib.request
 from collections.abc import Callable, Iterator
-from concurrent.futures import Executor, Future
+from concurrent.futures import Executor, Future, ThreadPoolExecutor
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 from urllib.parse import quote, urlencode
@@ -21,9 +22,11 @@ from pydantic import SecretStr
 from slack_sdk.signature import SignatureVerifier
 
 from linktriage.bot.triage import Triage
+from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.engine.verdict_kit.declaration import SHORT, Caution
-from linktriage.network.demo import PLANTED, DemoClock, DemoPort
+from linktriage.network.demo import PLANTED, DemoClock, DemoNetwork, DemoPort
+from linktriage.network.watched import Gathered
 from linktriage.render.blocks import (
     CONFIRM_ACTION,
     CORRECT_ACTION,
@@ -31,9 +34,12 @@ from linktriage.render.blocks import (
     escape,
     text_size,
 )
+from linktriage.render.words import WORKING
 from linktriage.settings import LabelSettings, Settings
-from linktriage.transports.slack import build_app
+from linktriage.store import Store
+from linktriage.transports.slack import build_app, web_client
 from linktriage.transports.slack_http import http_server
+from linktriage.transports.slack_sender import SlackSender
 
 from slack_emulator import BOT_USER, SlackEmulator
 
@@ -43,7 +49,8 @@ CHANNEL = "C0NETOPS"
 
 
 class Inline(Executor):
-    """Runs listeners, lazy ones included, before dispatch returns: deterministic tests."""
+    """Runs listeners and the work after them before dispatch returns: deterministic
+    tests (the sender, never started, sends as each message is said)."""
 
     def submit(self, fn: Callable[..., Any], /, *args: Any, **kwargs: Any) -> Future[Any]:
         future: Future[Any] = Future()
@@ -61,20 +68,37 @@ def emulator() -> Iterator[SlackEmulator]:
     running.stop()
 
 
-@pytest.fixture
-def bot(triage: Triage, emulator: SlackEmulator) -> Iterator[str]:
-    """The bot's HTTP endpoint on loopback; yields its URL."""
+@contextmanager
+def listening(
+    triage: Triage, emulator: SlackEmulator, *, inline: bool = True
+) -> Iterator[tuple[str, SlackSender]]:
+    """The bot's HTTP endpoint on loopback, with its sender: its URL. ``inline``: bolt's
+    listeners and the work after them run before dispatch returns (deterministic tests);
+    otherwise on their pools, as served."""
     settings = Settings(
         slack_bot_token=SecretStr(TOKEN),
         slack_signing_secret=SecretStr(SECRET),
         slack_api_url_override=emulator.api_url,
     )
-    app = build_app(triage, settings, listener_executor=Inline())
-    server = http_server(app, secret=SECRET, port=0)
+    sender = SlackSender(web_client(settings, wait_out_limits=False), triage.store,
+                         give_up_s=1800.0)  # fmt: skip
+    pools: dict[str, Any] = {"work": Inline(), "listener_executor": Inline()} if inline else {}
+    server = http_server(build_app(triage, settings, sender=sender, **pools), secret=SECRET,
+                         port=0)  # fmt: skip
     threading.Thread(target=server.serve_forever, daemon=True).start()
-    yield f"http://127.0.0.1:{server.server_address[1]}/slack/events"
-    server.shutdown()
-    server.server_close()
+    try:
+        yield f"http://127.0.0.1:{server.server_address[1]}/slack/events", sender
+    finally:
+        sender.stop()
+        server.shutdown()
+        server.server_close()
+
+
+@pytest.fixture
+def bot(triage: Triage, emulator: SlackEmulator) -> Iterator[str]:
+    """The bot's HTTP endpoint on loopback; yields its URL."""
+    with listening(triage, emulator) as (url, _):
+        yield url
 
 
 def signed(body: str, *, secret: str = SECRET, age_s: float = 0.0) -> dict[str, str]:
@@ -98,7 +122,9 @@ def post(url: str, body: str, headers: dict[str, str], content_type: str) -> tup
 FORM = "application/x-www-form-urlencoded"
 
 
-def slash(url: str, emulator: SlackEmulator, text: str, **kwargs: Any) -> tuple[int, str]:
+def slash(
+    url: str, emulator: SlackEmulator, text: str, *, trigger: str = "1.2.3", **kwargs: Any
+) -> tuple[int, str]:
     body = urlencode(
         {
             "command": "/triage",
@@ -107,7 +133,7 @@ def slash(url: str, emulator: SlackEmulator, text: str, **kwargs: Any) -> tuple[
             "channel_id": CHANNEL,
             "user_id": "U0ENGINEER",
             "response_url": emulator.response_url,
-            "trigger_id": "1.2.3",
+            "trigger_id": trigger,  # Slack's own per request: no two requests sign alike
         }
     )
     return post(url, body, kwargs.pop("headers", None) or signed(body, **kwargs), FORM)
@@ -477,9 +503,11 @@ def test_a_channel_the_bot_is_not_in_gets_the_answer_privately(
 ) -> None:
     emulator.failures["chat.postMessage"] = "not_in_channel"
     slash(bot, emulator, "lark-core1 up3")
-    (hook,) = emulator.wait_for("response_url")
-    assert "invite me" in hook.params["text"]
-    assert hook.params["blocks"][0]["text"]["text"].startswith("lark-core1 up3")
+    (told,) = emulator.wait_for("chat.postEphemeral")
+    assert told.params["user"] == "U0ENGINEER"
+    assert "invite me" in told.params["text"]  # and it is posted once invited (test_slack_sender)
+    blocks = told.params["blocks"]
+    assert blocks[0]["text"]["text"].startswith("lark-core1 up3")
 
 
 def test_a_list_for_a_site_that_does_not_exist_is_refused_in_the_acknowledgement(
@@ -606,3 +634,57 @@ def test_an_answer_shows_the_far_ends_view_in_its_thread_with_checks_naming_thei
     assert "far end lark-circ-prn1 eth0: " in both
     assert "\u2192 at lark-east-idf2 port7: it is the auto-negotiating end left at half" in both
     assert "\u2192 at lark-circ-prn1 eth0: if it is fixed at full duplex" in both
+
+
+class GatedNetwork(DemoNetwork):
+    """The demo network whose polls wait at a gate: its answers are as slow as a test says."""
+
+    def __init__(self, gate: threading.Event, *, clock: DemoClock) -> None:
+        super().__init__(clock=clock)
+        self.gate = gate
+
+    def poll_many(self, wanted: dict[str, list[str] | None]) -> Gathered:
+        self.gate.wait(timeout=300)
+        return super().poll_many(wanted)
+
+
+def test_fifty_slow_commands_at_once_are_all_acknowledged_while_every_answer_still_works(
+    emulator: SlackEmulator, store: Store, model: Model, clock: DemoClock
+) -> None:
+    # Issue 21: 3 of 8 simultaneous /triage got Slack's failure (no acknowledgement within
+    # 3 s): bolt's pool of 5 threads ran both the acknowledgements and the slow answers.
+    # Here fifty commands arrive at once and no answer can finish (the polls wait at a
+    # gate): each must still be acknowledged, which is only possible if no
+    # acknowledgement waits behind an answer.
+    gate = threading.Event()
+    triage = Triage(GatedNetwork(gate, clock=clock), store, model, Settings(), clock=clock,
+                    sleep=clock.sleep)  # fmt: skip
+    with listening(triage, emulator, inline=False) as (url, _):
+        try:
+            with ThreadPoolExecutor(50) as asking:
+                acks = list(asking.map(
+                    lambda i: slash(url, emulator, "lark-core1 up5", trigger=f"1.2.{i}"),
+                    range(50),
+                ))  # fmt: skip
+            assert [status for status, _ in acks] == [200] * 50
+            assert all(json.loads(body)["text"] == WORKING for _, body in acks)
+            assert emulator.called("chat.postMessage") == []  # every answer is still polling
+        finally:
+            gate.set()
+
+
+def test_a_reply_arriving_while_its_answer_is_still_being_sent_lands_on_it(
+    triage: Triage, emulator: SlackEmulator
+) -> None:
+    # Issue 21: a thread reply that arrived between the answer's posting and the bot
+    # noting where it landed was dropped, and so was Slack's retry of it. Here the answer
+    # is held back by a rate limit when the reply comes; the reply waits for it.
+    with listening(triage, emulator) as (url, sender):
+        emulator.limited_until["chat.postMessage"] = time.time() + 1.0
+        slash(url, emulator, "lark-east-idf2 port14")
+        assert emulator.called("chat.postMessage") == []  # held back: Retry-After 1 s
+        sender.start()  # sends it once Slack allows
+        reply = event_body("confirmed, crushed patch cord", "1772438401.000100")
+        assert post(url, reply, signed(reply), "application/json")[0] == 200
+        (label,) = triage.store.labels()
+        assert label.verdict == "cable_fault" and "crushed patch cord" in label.note

@@ -140,17 +140,25 @@ def serve_slack(
     from linktriage.transports.slack import (
         build_app,
         group_members,
-        post_reply,
         run_socket_mode,
+        say_reply,
         web_client,
     )
     from linktriage.transports.slack_http import http_server
+    from linktriage.transports.slack_sender import SlackSender, holder_name
 
     settings = parts.settings
     client = web_client(settings)
     triage = parts.triage(members_of=group_members(client))
+    holder = holder_name()
+    sender = SlackSender(
+        web_client(settings, wait_out_limits=False),
+        triage.store,
+        give_up_s=settings.slack.give_up_after_min * 60.0,
+        holder=holder,
+    )
     try:
-        app = build_app(triage, settings, client=client)
+        app = build_app(triage, settings, client=client, sender=sender)
     except BoltError as exc:  # e.g. Slack refused the token at its first check
         raise LinktriageError(words.cannot_start(str(exc))) from exc
     except (OSError, SlackClientError) as exc:  # URLError is an OSError: no answer at all
@@ -162,13 +170,12 @@ def serve_slack(
     channel = settings.slack.channel
 
     def post_digest(reply: SuspectsReply) -> None:
-        if channel is None:
-            return
-        triage.posted(reply, channel=channel, ts=post_reply(client, channel, reply))
+        if channel is not None:
+            say_reply(sender, triage, reply, channel)
 
-    scheduler = (
-        start_scheduler(Jobs(triage, post_digest, channel), settings.schedule) if jobs else None
-    )
+    sender.start()
+    jobs_run = Jobs(triage, post_digest, channel, settings.schedule, holder=holder)
+    scheduler = start_scheduler(jobs_run, settings.schedule) if jobs else None
     signal.signal(signal.SIGTERM, lambda *_: sys.exit(0))  # systemd stops it: shut down cleanly
     try:
         if settings.slack.mode == "http":
@@ -197,3 +204,5 @@ def serve_slack(
     finally:
         if scheduler is not None:
             scheduler.shutdown(wait=False)
+            jobs_run.release()
+        sender.stop()

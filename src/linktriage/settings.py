@@ -56,6 +56,12 @@ class SlackSettings(_Section):
         default="127.0.0.1", description="address HTTP mode listens on; a TLS proxy goes in front"
     )
     api_url: str = DEFAULT_SLACK_API
+    give_up_after_min: float = Field(
+        default=30.0,
+        gt=0,
+        description="a message Slack keeps refusing (rate limits, outages) is dropped after "
+        "this long, and whoever asked is told (minutes)",
+    )
 
 
 class StoreSettings(_Section):
@@ -65,8 +71,13 @@ class StoreSettings(_Section):
     keep_polls_h: float = Field(
         default=72.0,
         ge=2.0,
-        description="polls older than this are forgotten by the poll job (hours); answers, "
-        "labels and digests are kept",
+        description="polls older than this are forgotten by the poll job (hours)",
+    )
+    keep_answers_days: float = Field(
+        default=180.0,
+        ge=1.0,
+        description="answers, lists of suspects, the audit log and sent messages older than "
+        "this are forgotten (days); a labelled answer is kept with its label",
     )
 
     def resolved_url(self) -> str:

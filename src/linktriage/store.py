@@ -20,7 +20,7 @@ from collections.abc import Callable, Iterator, Sequence
 from contextlib import AbstractContextManager, contextmanager
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, Literal
 
 import numpy as np
 import sqlalchemy as sa
@@ -75,6 +75,7 @@ diagnoses_table = sa.Table(
     sa.Column("site", sa.Text),  # from version 2: to redraw the answer as it was
     sa.Column("serves", sa.Text),
     sa.Index("diagnoses_by_message", "channel", "message_ts"),
+    sa.Index("diagnoses_by_time", "at"),  # what retention forgets (since schema version 11)
 )
 labels_table = sa.Table(
     "labels",
@@ -93,6 +94,10 @@ labels_table = sa.Table(
     sa.Column("channel", sa.Text),
     sa.Column("source", sa.Text, nullable=False),  # thread, button, console
     sa.Column("event_key", sa.Text, nullable=False, unique=True),
+    # Each person's labels of one answer numbered 1, 2, ... (since schema version 9): two
+    # presses at once on two replicas both take the same number, and the database keeps one.
+    sa.Column("turn", sa.Integer),
+    sa.Index("labels_one_per_turn", "diagnosis_id", "user_id", "turn", unique=True),
 )
 digests_table = sa.Table(
     "digests",
@@ -104,6 +109,7 @@ digests_table = sa.Table(
     sa.Column("message_ts", sa.Text),
     sa.Column("items", sa.Text, nullable=False),  # JSON: [{device, port, verdict, diagnosis_id}]
     sa.Index("digests_by_message", "channel", "message_ts"),
+    sa.Index("digests_by_time", "at"),
 )
 audit_table = sa.Table(
     "audit",
@@ -114,6 +120,7 @@ audit_table = sa.Table(
     sa.Column("channel", sa.Text),
     sa.Column("command", sa.Text, nullable=False),
     sa.Column("outcome", sa.Text, nullable=False),
+    sa.Index("audit_by_time", "at"),
 )
 
 #: The signed requests every replica has let in, until each signature's lifetime ends: a
@@ -124,6 +131,52 @@ seen_requests_table = sa.Table(
     sa.Column("signature", sa.Text, primary_key=True),
     sa.Column("expires_at", sa.Float, nullable=False),
     sa.Index("seen_requests_by_expiry", "expires_at"),
+)
+
+#: Who runs the jobs (and who sends to each channel) for every replica of the store: a
+#: lease held until ``expires_at``, renewed by its holder, taken over once it lapses
+#: (since schema version 8).
+leases_table = sa.Table(
+    "leases",
+    metadata,
+    sa.Column("name", sa.Text, primary_key=True),
+    sa.Column("holder", sa.Text, nullable=False),
+    sa.Column("expires_at", sa.Float, nullable=False),
+)
+#: Each run of a job by the time it fell due: a digest due at 07:30 is run (and posted) by
+#: one replica once, whatever the others' clocks say (since schema version 8).
+job_runs_table = sa.Table(
+    "job_runs",
+    metadata,
+    sa.Column("job", sa.Text, primary_key=True),
+    sa.Column("due", sa.Float, primary_key=True),
+    sa.Column("holder", sa.Text, nullable=False),
+    sa.Column("at", sa.Float, nullable=False),
+)
+#: Every message to Slack, kept until sent (since schema version 10): sent in order per
+#: channel by whichever replica holds that channel's lease, waiting out Slack's
+#: Retry-After, across restarts. ``linktriage.outbox`` reads and writes it.
+outbox_table = sa.Table(
+    "outbox",
+    metadata,
+    sa.Column("id", BigId, primary_key=True, autoincrement=True),
+    sa.Column("at", sa.Float, nullable=False),  # when it was said
+    sa.Column("channel", sa.Text, nullable=False),
+    sa.Column("method", sa.Text, nullable=False),  # chat.postMessage, chat.update, ...
+    sa.Column("body", sa.Text, nullable=False),  # JSON: the method's arguments
+    sa.Column("thread_ts", sa.Text),  # in this thread
+    sa.Column("thread_of", sa.BigInteger),  # in the thread of this message, once sent
+    sa.Column("diagnosis_id", sa.BigInteger),  # this message carries this answer
+    sa.Column("digest_id", sa.BigInteger),  # ... or this list of suspects
+    sa.Column("asker", sa.Text),  # told if it cannot be sent
+    sa.Column("give_up_at", sa.Float, nullable=False),
+    sa.Column("not_before", sa.Float, nullable=False),
+    sa.Column("tries", sa.Integer, nullable=False),
+    sa.Column("state", sa.Text, nullable=False),  # waiting, sent, dropped
+    sa.Column("ts", sa.Text),  # Slack's id of the message, once sent
+    sa.Column("outcome", sa.Text),  # why it waits or was dropped
+    sa.Index("outbox_waiting", "state", "channel", "id"),
+    sa.Index("outbox_by_time", "at"),
 )
 
 
@@ -258,6 +311,54 @@ def _confidence_optional(conn: Connection) -> None:
         raise StoreError(f"rebuilding the diagnoses table broke {len(broken)} foreign keys")
 
 
+def _long_sequences(conn: Connection) -> None:
+    """PostgreSQL: the id sequences of tables first made with 32-bit ids (before schema
+    version 3) counted 64-bit. Migration 3 widened the columns but ALTER COLUMN leaves a
+    serial's sequence ``AS integer``, whose nextval stops at 2,147,483,647."""
+    if conn.dialect.name != "postgresql":
+        return
+    for table in ("diagnoses", "labels", "digests", "audit", "poll_packs"):
+        sequence = conn.execute(
+            sa.text("SELECT pg_get_serial_sequence(:table, 'id')"), {"table": table}
+        ).scalar()
+        if sequence is not None:
+            conn.exec_driver_sql(f"ALTER SEQUENCE {sequence} AS bigint")
+
+
+def _shared_jobs(conn: Connection) -> None:
+    metadata.create_all(conn, tables=[leases_table, job_runs_table])
+
+
+def _label_turns(conn: Connection) -> None:
+    """Labels numbered per person per answer, oldest first, under a unique index."""
+    if "turn" not in {c["name"] for c in sa.inspect(conn).get_columns("labels")}:
+        conn.exec_driver_sql("ALTER TABLE labels ADD COLUMN turn INTEGER")
+    conn.exec_driver_sql(
+        "UPDATE labels SET turn = (SELECT count(*) FROM labels AS earlier "
+        "WHERE earlier.diagnosis_id = labels.diagnosis_id "
+        "AND earlier.user_id = labels.user_id AND earlier.id <= labels.id)"
+    )
+    _create_missing_indexes(conn, labels_table)
+
+
+def _outbox(conn: Connection) -> None:
+    metadata.create_all(conn, tables=[outbox_table])
+
+
+def _retention_indexes(conn: Connection) -> None:
+    for table in (diagnoses_table, digests_table, audit_table):
+        _create_missing_indexes(conn, table)
+
+
+def _create_missing_indexes(conn: Connection, table: sa.Table) -> None:
+    """The table's indexes the database lacks (a store made from today's metadata has
+    them all already)."""
+    have = {index["name"] for index in sa.inspect(conn).get_indexes(table.name)}
+    for index in table.indexes:
+        if index.name not in have:
+            index.create(conn)
+
+
 #: Every schema change, in order. A new change is a new entry; old entries never change.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "polls, diagnoses, labels, digests, audit", _initial_schema),
@@ -266,6 +367,11 @@ MIGRATIONS: tuple[Migration, ...] = (
     Migration(4, "poll packs name their columns", _named_packs),
     Migration(5, "a diagnosis a guard answered keeps no confidence", _confidence_optional),
     Migration(6, "signed requests seen, shared by every replica", _seen_requests),
+    Migration(7, "64-bit id sequences on PostgreSQL after any upgrade", _long_sequences),
+    Migration(8, "jobs run once across replicas: leases and runs", _shared_jobs),
+    Migration(9, "each person's labels of an answer numbered, each number once", _label_turns),
+    Migration(10, "every message to Slack kept in an outbox until sent", _outbox),
+    Migration(11, "answers, lists and the audit log found by time, to forget", _retention_indexes),
 )
 
 
@@ -277,6 +383,16 @@ class PollHistory:
     ports: int  # rows: one port's answer to one poll
     oldest: float | None
     newest: float | None
+
+
+@dataclass(frozen=True, slots=True)
+class Forgotten:
+    """What one pass of retention forgot, in rows."""
+
+    answers: int
+    lists: int
+    audit: int
+    messages: int
 
 
 @dataclass(frozen=True, slots=True)
@@ -324,6 +440,10 @@ class Digest:
     items: list[dict[str, Any]]
 
 
+#: How keeping a label went (:meth:`Store.add_label`).
+LabelKept = Literal["stored", "repeat", "raced"]
+
+
 def _new_id(result: sa.CursorResult[Any]) -> int:
     key = result.inserted_primary_key
     if key is None:
@@ -336,6 +456,9 @@ def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
     cursor.execute("PRAGMA journal_mode=WAL")  # readers do not wait for the writer
     cursor.execute("PRAGMA foreign_keys=ON")
     cursor.execute("PRAGMA busy_timeout=5000")
+    # After each checkpoint the log is cut back to this (64 MiB) instead of staying as
+    # large as it ever grew.
+    cursor.execute("PRAGMA journal_size_limit=67108864")
     cursor.close()
 
 
@@ -561,12 +684,26 @@ class Store:
             tables.append(table.take(np.flatnonzero(keep)))
         return PollTable.concat(tables)
 
-    def prune_polls(self, before: float, *, batch: int = 1000, batches: int | None = None) -> int:
+    def latest_poll(self, device: str) -> PollTable:
+        """The newest stored poll of a device, however old (found by its index): what it
+        last said, e.g. which far end each port's LLDP named."""
+        query = (
+            sa.select(polls_table.c.body)
+            .where(polls_table.c.device == device)
+            .order_by(polls_table.c.time.desc())
+            .limit(1)
+        )
+        with self._reading("read the latest poll") as conn:
+            body = conn.execute(query).scalar()
+        return PollTable.empty() if body is None else unpack(body, device)
+
+    def prune_polls(self, before: float, *, batch: int = 1000) -> int:
         """Forget polls older than ``before``, ``batch`` packs per transaction so that
-        readers and the bot's writes are never held up for long, at most ``batches``
-        transactions (None: until none is left); returns how many rows were forgotten."""
-        forgotten, done = 0, 0
-        while batches is None or done < batches:
+        readers and the bot's writes are never held up for long, until none is left however
+        far behind (a first run after a long stop, more devices than ever); returns how
+        many rows were forgotten."""
+        forgotten = 0
+        while True:
             with self._writing("forget old polls") as conn:
                 old = conn.execute(
                     sa.select(polls_table.c.id, polls_table.c.ports)
@@ -575,11 +712,45 @@ class Store:
                     .limit(batch)
                 ).all()
                 if not old:
-                    break
+                    return forgotten
                 conn.execute(polls_table.delete().where(polls_table.c.id.in_([r.id for r in old])))
             forgotten += sum(r.ports for r in old)
-            done += 1
-        return forgotten
+
+    def forget_answers(self, before: float, *, batch: int = 1000) -> Forgotten:
+        """Forget answers, lists of suspects, audit entries, sent messages and job runs
+        older than ``before``, ``batch`` rows per transaction. A labelled answer is kept:
+        its label trains the model, and the label needs it."""
+        labelled = sa.select(labels_table.c.diagnosis_id)
+        counts = {}
+        for name, table, where in (
+            ("answers", diagnoses_table,
+             (diagnoses_table.c.at < before) & diagnoses_table.c.id.not_in(labelled)),
+            ("lists", digests_table, digests_table.c.at < before),
+            ("audit", audit_table, audit_table.c.at < before),
+            ("messages", outbox_table,
+             (outbox_table.c.at < before) & (outbox_table.c.state != "waiting")),
+        ):  # fmt: skip
+            counts[name] = self._forget(table, where, batch)
+        with self._writing("forget old job runs") as conn:
+            conn.execute(job_runs_table.delete().where(job_runs_table.c.due < before))
+        return Forgotten(**counts)
+
+    def _forget(self, table: sa.Table, where: sa.ColumnElement[bool], batch: int) -> int:
+        forgotten = 0
+        while True:
+            with self._writing(f"forget old {table.name}") as conn:
+                ids = conn.execute(sa.select(table.c.id).where(where).limit(batch)).scalars().all()
+                if not ids:
+                    return forgotten
+                conn.execute(table.delete().where(table.c.id.in_(ids)))
+            forgotten += len(ids)
+
+    def compact(self) -> None:
+        """Give back the space a SQLite write-ahead log grew to (its pages are in the
+        database by then): the log is bounded by its peak otherwise. Nothing elsewhere."""
+        if self.engine.dialect.name == "sqlite":
+            with self.engine.connect() as conn:
+                conn.exec_driver_sql("PRAGMA wal_checkpoint(TRUNCATE)")
 
     def poll_history(self) -> PollHistory:
         with self._reading("read the poll history") as conn:
@@ -667,8 +838,12 @@ class Store:
         source: str,
         event_key: str,
         at: float,
-    ) -> bool:
-        """Keep a label; False when the same event was already stored (a retry)."""
+        turn: int,
+    ) -> LabelKept:
+        """Keep a label as its author's ``turn``-th on the answer (one more than the labels
+        of theirs the caller decided on). ``repeat``: the same event was stored already (a
+        retry); ``raced``: another label of theirs took that turn since the caller read
+        them (a second press, on another replica): read again and decide again."""
         try:
             with self._writing("keep the label") as conn:
                 conn.execute(
@@ -686,13 +861,14 @@ class Store:
                         channel=channel,
                         source=source,
                         event_key=event_key,
+                        turn=turn,
                     )
                 )
         except StoreError as exc:
-            if isinstance(exc.__cause__, sa.exc.IntegrityError) and self.has_event(event_key):
-                return False
-            raise
-        return True
+            if not isinstance(exc.__cause__, sa.exc.IntegrityError):
+                raise
+            return "repeat" if self.has_event(event_key) else "raced"
+        return "stored"
 
     def has_event(self, event_key: str) -> bool:
         """Whether a label from this event is stored (a retried delivery is not new)."""
@@ -788,6 +964,67 @@ class Store:
     def _reading(self, what: str) -> AbstractContextManager[Connection]:
         """A read whose database errors become :class:`StoreError`."""
         return self._guarded(what, self.engine.connect)
+
+    # --- leases and job runs, shared by every replica
+    def take_lease(self, name: str, holder: str, *, now: float, hold_s: float) -> bool:
+        """Take or renew the lease ``name`` for ``holder`` until ``now + hold_s``: True if
+        it is theirs, False while another holder's has not lapsed. One statement decides
+        (the row's lock orders two replicas trying at once)."""
+        leases = leases_table
+        until = now + hold_s
+        try:
+            with self.engine.begin() as conn:
+                renewed = conn.execute(
+                    leases.update()
+                    .where(
+                        (leases.c.name == name)
+                        & ((leases.c.holder == holder) | (leases.c.expires_at < now))
+                    )
+                    .values(holder=holder, expires_at=until)
+                ).rowcount
+                if renewed:
+                    return True
+                if conn.execute(sa.select(leases.c.name).where(leases.c.name == name)).first():
+                    return False
+                conn.execute(leases.insert().values(name=name, holder=holder, expires_at=until))
+            return True
+        except sa.exc.IntegrityError:
+            return False  # another replica took it first
+        except sa.exc.SQLAlchemyError as exc:
+            raise StoreError(f"Could not take the lease {name!r}: {exc}") from exc
+
+    def release_lease(self, name: str, holder: str) -> None:
+        """Give a lease up at once (a clean stop), so another replica need not wait."""
+        with self._writing("give up a lease") as conn:
+            conn.execute(
+                leases_table.delete().where(
+                    (leases_table.c.name == name) & (leases_table.c.holder == holder)
+                )
+            )
+
+    def lease_holder(self, name: str, *, now: float) -> str | None:
+        """Who holds a lease now, if anyone."""
+        with self._reading("read a lease") as conn:
+            row = conn.execute(
+                sa.select(leases_table.c.holder).where(
+                    (leases_table.c.name == name) & (leases_table.c.expires_at >= now)
+                )
+            ).first()
+        return None if row is None else str(row.holder)
+
+    def claim_run(self, job: str, due: float, holder: str, *, now: float) -> bool:
+        """Whether this run of ``job`` (the one due at ``due``) is ``holder``'s to do:
+        False when any replica claimed it before. The primary key decides."""
+        try:
+            with self.engine.begin() as conn:
+                conn.execute(
+                    job_runs_table.insert().values(job=job, due=due, holder=holder, at=now)
+                )
+        except sa.exc.IntegrityError:
+            return False
+        except sa.exc.SQLAlchemyError as exc:
+            raise StoreError(f"Could not claim the {job} run: {exc}") from exc
+        return True
 
     # --- signed requests
     def first_sight(self, signature: str, expires_at: float, now: float) -> bool:

@@ -17,6 +17,7 @@ from linktriage.errors import StoreError
 from linktriage.render.replies import DiagnosisReply, LabelRefused, LabelReply
 from linktriage.render.words import (
     LABEL_ALREADY,
+    LABEL_BUSY,
     LABEL_GONE,
     LABEL_NOT_A_FAULT,
     LABEL_NOT_ALLOWED,
@@ -29,6 +30,11 @@ from linktriage.render.words import (
 )
 from linktriage.settings import Settings
 from linktriage.store import Store, StoredDiagnosis
+
+#: Times a label is read again and retried when another of its author's labels of the
+#: same answer was stored at the same moment (a second press on another replica): the
+#: second reading sees the first and answers from it.
+RACED_TRIES = 3
 
 #: Members of a chat user group, by group id (Slack: usergroups.users.list).
 GroupMembers = Callable[[str], set[str]]
@@ -60,6 +66,13 @@ class Labelling:
         members = self.members_of(group) if self.members_of is not None else set()
         self._groups_cache[group] = (self.clock(), members)
         return members
+
+    def knows(self, channel: str, thread_ts: str) -> bool:
+        """Whether a thread is one of ours: an answer's or a list's."""
+        return (
+            self.store.diagnosis_for_message(channel, thread_ts) is not None
+            or self.store.digest_for_message(channel, thread_ts) is not None
+        )
 
     def reply(
         self,
@@ -154,30 +167,39 @@ class Labelling:
     ) -> LabelReply | LabelRefused | None:
         """Store a label, then say so. One label per person per answer counts: a new one
         replaces theirs (the earlier stays for the audit), the same one again is not
-        stored twice, and a retry of a stored event says nothing."""
+        stored twice, even pressed twice at once on two replicas (the store numbers each
+        person's labels of an answer, each number once), and a retry of a stored event
+        says nothing."""
         found = verdict if verdict is not None else known(diagnosis.verdict)
         if found not in TREE_VERDICTS:
             return LabelRefused(LABEL_NOT_A_FAULT.format(verdict=found))
         try:
             if self.store.has_event(event_key):
                 return None
-            before, _ = current(self.store.labels(diagnosis.id))
-            mine = next((lb for lb in before if lb.user_id == user), None)
-            if mine is not None and mine.verdict == found and not note:
-                return LabelRefused(LABEL_ALREADY.format(verdict=found))
-            stored = self.store.add_label(
-                diagnosis,
-                found,
-                note=note,
-                user_id=user,
-                channel=channel,
-                source=source,
-                event_key=event_key,
-                at=self.clock(),
-            )
+            for _ in range(RACED_TRIES):
+                every = self.store.labels(diagnosis.id)
+                before, _ = current(every)
+                mine = next((lb for lb in before if lb.user_id == user), None)
+                if mine is not None and mine.verdict == found and not note:
+                    return LabelRefused(LABEL_ALREADY.format(verdict=found))
+                kept = self.store.add_label(
+                    diagnosis,
+                    found,
+                    note=note,
+                    user_id=user,
+                    channel=channel,
+                    source=source,
+                    event_key=event_key,
+                    at=self.clock(),
+                    turn=1 + sum(1 for lb in every if lb.user_id == user),
+                )
+                if kept != "raced":
+                    break
+            else:
+                return LabelRefused(LABEL_STORE_FAILED.format(reason=LABEL_BUSY))
         except StoreError as exc:
             return LabelRefused(LABEL_STORE_FAILED.format(reason=exc.message))
-        if not stored:
+        if kept == "repeat":
             return None
         others = sorted({lb.verdict for lb in before if lb.user_id != user} - {found})
         return LabelReply(

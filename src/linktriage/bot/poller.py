@@ -25,11 +25,10 @@ class PollRound:
     forgotten: int = 0  # polls older than [store] keep_polls_h, forgotten after this round
 
 
-#: Polls are forgotten a thousand packs per transaction, at most twenty per round: a store
-#: with a long backlog (a first run after a long stop) is worked down over a few rounds
-#: instead of holding the database for minutes.
+#: Polls are forgotten a thousand packs per transaction, as many transactions as the
+#: store is behind: each is short, so readers and writers are never held up for long, and
+#: the store never grows by what one round could not forget.
 PRUNE_BATCH = 1000
-PRUNE_BATCHES = 20
 #: Up to this many devices, their stored polls are read by the device index; beyond, one
 #: read of every poll of the window costs less than as many lookups.
 FEW_DEVICES = 200
@@ -58,7 +57,7 @@ class Poller:
         self.heard(polled)
         stored = self.store.add_polls(polled)
         cutoff = self.clock() - self.settings.store.keep_polls_h * 3600.0
-        forgotten = self.store.prune_polls(cutoff, batch=PRUNE_BATCH, batches=PRUNE_BATCHES)
+        forgotten = self.store.prune_polls(cutoff, batch=PRUNE_BATCH)
         return PollRound(stored, gathered.failed, forgotten)
 
     def polls_for(

@@ -191,12 +191,16 @@ class Triage:
 
     def _diagnosed(self, ref: PortRef) -> tuple[DiagnosisBatch, int]:
         """The port's polls gathered and diagnosed, with its far end's where LLDP names a
-        port this network reads: the batch and the port's row in it."""
-        polls, failed = self.poller.polls_for([ref])
-        if failed:
+        port this network reads: the batch and the port's row in it. The far end its last
+        stored poll names (or that last named it) is polled with it, at once, so both ends
+        share one wait; a far end that turns out otherwise is polled after."""
+        known = self._far_end(ref, self.store.latest_poll(ref.device))
+        refs = [ref] if known is None else [ref, known]
+        polls, failed = self.poller.polls_for(refs)
+        if ref.device in failed:
             raise PollError(ref.device, failed[ref.device])
         far = self._far_end(ref, polls)
-        if far is not None:
+        if far is not None and far != known:
             far_polls, far_failed = self.poller.polls_for([far])
             if not far_failed:  # a far end that cannot be read costs the answer nothing
                 polls = PollTable.concat([polls, far_polls])
@@ -210,10 +214,10 @@ class Triage:
         """The port at the other end of ``ref``'s link, as its latest poll's neighbor names
         it, else the port whose LLDP last named ``ref``, where the network reads that port."""
         mine = np.flatnonzero((polls.device == ref.device) & (polls.port == ref.port))
-        if not len(mine):
-            return None
-        latest = mine[np.argmax(polls.time[mine])]
-        far, far_port = polls.neighbor_device[latest], polls.neighbor_port[latest]
+        far = far_port = None
+        if len(mine):
+            latest = mine[np.argmax(polls.time[mine])]
+            far, far_port = polls.neighbor_device[latest], polls.neighbor_port[latest]
         if far is None or far_port is None:
             # It hears no neighbor: a port that still hears it, as last polled, may name it.
             named = self.poller.naming(ref.device, ref.port)
@@ -242,20 +246,32 @@ class Triage:
         self._audit(f"check again {stored.device} {stored.port}", reply, user=user, channel=channel)
         return reply
 
-    def posted(self, reply: Reply, *, channel: str, ts: str) -> bool:
-        """Remember where an answer was posted, so replies in its thread can label it.
-
-        Returns False for answers that have no thread worth reading (help, errors, ...).
-        """
+    def carried(self, reply: Reply, *, channel: str) -> tuple[int | None, int | None]:
+        """The answer (diagnosis id) or list of suspects (digest id) a reply carries into
+        a channel, a list kept now if it was not yet: what its message, once posted, is
+        attached to. (None, None) for replies with no thread worth reading (help, errors,
+        an empty list asked for)."""
         if isinstance(reply, DiagnosisReply):
-            self.store.attach_message(reply.diagnosis_id, channel, ts)
-            return True
+            return reply.diagnosis_id, None
         if isinstance(reply, SuspectsReply) and (reply.items or reply.kind == "digest"):
             digest_id = reply.digest_id
             if digest_id is None:
                 digest_id = self.store.add_digest(
                     listed(reply.items), at=reply.at, kind=reply.kind, channel=channel
                 )
+            return None, digest_id
+        return None, None
+
+    def posted(self, reply: Reply, *, channel: str, ts: str) -> bool:
+        """Remember where an answer was posted, so replies in its thread can label it.
+
+        Returns False for answers that have no thread worth reading (help, errors, ...).
+        """
+        diagnosis_id, digest_id = self.carried(reply, channel=channel)
+        if diagnosis_id is not None:
+            self.store.attach_message(diagnosis_id, channel, ts)
+            return True
+        if digest_id is not None:
             self.store.attach_digest_message(digest_id, channel, ts)
-            return bool(reply.items)
+            return isinstance(reply, SuspectsReply) and bool(reply.items)
         return False

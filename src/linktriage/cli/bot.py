@@ -52,7 +52,11 @@ def chat(config_path: Path | None, model_path: Path | None) -> None:
     help="Address to listen on in HTTP mode (default: [slack] http_host, loopback). "
     "Put a TLS-terminating proxy in front; 0.0.0.0 listens on every interface.",
 )
-@click.option("--no-jobs", is_flag=True, help="Answer only: no poll job, no digest job.")
+@click.option(
+    "--no-jobs",
+    is_flag=True,
+    help="Answer only: no poll, digest or tidying jobs (other copies on the store run them).",
+)
 @config_option
 @model_option
 def serve(
@@ -63,7 +67,10 @@ def serve(
     config_path: Path | None,
     model_path: Path | None,
 ) -> None:
-    """Run the chat bot in Slack, with the poll and digest jobs.
+    """Run the chat bot in Slack, with the poll, digest and tidying jobs.
+
+    Two or more copies may share one store: the jobs run once across them, and every
+    message goes out once, in order, through the store's outbox.
 
     Tokens come from the environment: SLACK_BOT_TOKEN always, SLACK_APP_TOKEN for Socket
     Mode (the default), SLACK_SIGNING_SECRET for HTTP mode (endpoint /slack/events).

@@ -413,7 +413,8 @@ def _first_message(reply: SuspectsReply) -> tuple[list[Block], int]:
     if reply.items:
         tail.append(_context(DIGEST_PROMPT))
     room = MAX_BLOCKS - len(blocks) - len(tail) - 1  # one for "and N more"
-    text_left = MAX_MESSAGE_TEXT - _size(blocks) - _size(tail) - 200
+    more = len(words.more_in_thread(len(reply.items)))
+    text_left = FIRST_SCREEN - text_size(blocks + tail) - more
     sections, shown = _pack(reply.items, room, text_left)
     blocks += sections
     if shown < len(reply.items):
@@ -423,8 +424,8 @@ def _first_message(reply: SuspectsReply) -> tuple[list[Block], int]:
 
 
 def suspects_message(reply: SuspectsReply) -> dict[str, Any]:
-    """The list as posted: the coverage, then the worst links that fit one message, and a
-    pointer to the rest, which :func:`suspects_thread` carries."""
+    """The list as posted: the coverage, then the worst links that fit one phone screen
+    (``FIRST_SCREEN``), and a pointer to the rest, which :func:`suspects_thread` carries."""
     blocks, _ = _first_message(reply)
     return _message(words.suspects_fallback(reply.title, len(reply.items)), blocks)
 

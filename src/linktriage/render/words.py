@@ -171,6 +171,7 @@ LABEL_NOT_A_FAULT = (
     "e.g. `cable_fault, crushed patch cord`."
 )
 LABEL_STORE_FAILED = "Could not record that label ({reason}). Please try again."
+LABEL_BUSY = "your labels of this answer kept changing while it was recorded"
 LABEL_GONE = "That answer is no longer in the store."
 LABEL_ALREADY = "You already said {verdict} on this answer; it is recorded once."
 
@@ -299,12 +300,26 @@ def negated_verdicts(verdicts: list[str]) -> str:
 WORKING = "On it: polling now. The answer will be posted in this channel."
 
 
-def cannot_post(error: str) -> str:
-    """Told privately to a person whose channel the bot may not post in."""
+def cannot_post(error: str, minutes: float) -> str:
+    """Told privately to a person whose channel the bot may not post in (yet)."""
     return (
         f"I could not post to this channel ({error}); invite me with "
-        "`/invite @linktriage`. Here is the answer meanwhile."
+        f"`/invite @linktriage` and I will post it within the next {minutes:g} min. "
+        "Here is the answer meanwhile."
     )
+
+
+def held_back(minutes: float) -> str:
+    """Told privately when Slack's rate limits held a message back past its time."""
+    return (
+        f"Slack held this message back for {minutes:g} min (its rate limits), so I did not "
+        "post it to the channel. Here it is; ask again for a fresh answer."
+    )
+
+
+def refused(error: str) -> str:
+    """Told privately when Slack refused a message outright."""
+    return f"Slack refused this message ({error}), so it was not posted. Here it is."
 
 
 SOCKET_MODE_NEEDS_TOKEN = (

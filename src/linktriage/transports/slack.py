@@ -9,6 +9,11 @@ history's chart and a tree's picture follow in that thread as PNG uploads. A men
 the bot at the top of a channel (``@linktriage lark-core1 up3``) is the same command,
 answered the same way. Thread replies and the label buttons become labels.
 
+Bolt's listeners only acknowledge; the slow part runs on a pool of its own, so an
+acknowledgement never waits behind an answer. Everything said goes through the store's
+outbox (:mod:`linktriage.transports.slack_sender`): in order per channel, waiting out
+Slack's rate limits, across restarts and replicas.
+
 Two ways in: Socket Mode (no public URL; the default) and HTTP mode, whose listener
 (:mod:`linktriage.transports.slack_http`) checks each request before it hands it to bolt.
 """
@@ -16,14 +21,17 @@ Two ways in: Socket Mode (no public URL; the default) and HTTP mode, whose liste
 from __future__ import annotations
 
 import logging
+import time
 import uuid
-from collections import OrderedDict
+from collections.abc import Callable
+from concurrent.futures import Executor, ThreadPoolExecutor
 from typing import Any, assert_never
 
 from slack_bolt import Ack, App, BoltContext, Respond
 from slack_sdk import WebClient
-from slack_sdk.errors import SlackApiError, SlackClientError
+from slack_sdk.errors import SlackApiError
 from slack_sdk.http_retry.builtin_handlers import RateLimitErrorRetryHandler
+from slack_sdk.http_retry.handler import RetryHandler
 
 from linktriage.bot.commands import (
     COMMAND,
@@ -44,45 +52,31 @@ from linktriage.render.blocks import (
     CORRECT_ACTION,
     RECHECK_ACTION,
     message_for,
-    thread_for,
 )
-from linktriage.render.charts import pictures_for
 from linktriage.render.replies import LabelReply, Reply
 from linktriage.settings import Settings
+from linktriage.transports.slack_sender import SlackSender, outgoing
 
 log = logging.getLogger("linktriage.slack")
 WORKING = words.WORKING
 
 
-def post_reply(client: WebClient, channel: str, reply: Reply, *, thread: str | None = None) -> str:
-    """Post a reply to a channel (into ``thread`` when given), and what follows it in its
-    thread, at once; returns its ``ts``. Raises SlackApiError when Slack refuses the first
-    message."""
-    posted = client.chat_postMessage(channel=channel, thread_ts=thread, **message_for(reply))
-    ts = str(posted["ts"])
-    for follow in thread_for(reply):
-        client.chat_postMessage(channel=channel, thread_ts=thread or ts, **follow)
-    return ts
-
-
-def upload_pictures(client: WebClient, channel: str, ts: str, reply: Reply) -> None:
-    """The reply's pictures (a history's chart, a tree's path) into its thread, through
-    Slack's external upload (files.getUploadURLExternal, the bytes, then
-    files.completeUploadExternal with the thread). The answer is already posted: a picture
-    that cannot go up is logged, not retried."""
-    for picture in pictures_for(reply):
-        try:
-            client.files_upload_v2(
-                channel=channel,
-                thread_ts=ts,
-                file=picture.data,
-                filename=picture.filename,
-                title=picture.title,
-                alt_txt=picture.alt,
-            )
-        except SlackClientError as exc:
-            error = exc.response.get("error") if isinstance(exc, SlackApiError) else exc
-            log.warning("could not upload %s to %s: %s", picture.filename, channel, error)
+def say_reply(
+    sender: SlackSender,
+    triage: Triage,
+    reply: Reply,
+    channel: str,
+    *,
+    thread: str | None = None,
+    asker: str | None = None,
+) -> None:
+    """A channel reply put in the outbox with what follows it; the answer or list it
+    carries is kept first, so its thread finds it the moment it is posted."""
+    diagnosis_id, digest_id = triage.carried(reply, channel=channel)
+    sender.say(
+        outgoing(reply, channel, thread=thread, asker=asker, diagnosis_id=diagnosis_id,
+                 digest_id=digest_id)
+    )  # fmt: skip
 
 
 def answered_later(command: Command) -> bool:
@@ -97,14 +91,15 @@ def answered_later(command: Command) -> bool:
             assert_never(command)
 
 
-def web_client(settings: Settings) -> WebClient:
-    """A Web API client for the bot token, at the configured base URL."""
+def web_client(settings: Settings, *, wait_out_limits: bool = True) -> WebClient:
+    """A Web API client for the bot token, at the configured base URL. Without
+    ``wait_out_limits`` a rate limit is raised at once (the sender waits it out itself,
+    without holding up other channels)."""
     token = settings.slack_bot_token.get_secret_value() if settings.slack_bot_token else None
-    return WebClient(
-        token=token,
-        base_url=settings.slack_api_url,
-        retry_handlers=[RateLimitErrorRetryHandler(max_retry_count=2)],
+    handlers: list[RetryHandler] = (
+        [RateLimitErrorRetryHandler(max_retry_count=2)] if wait_out_limits else []
     )
+    return WebClient(token=token, base_url=settings.slack_api_url, retry_handlers=handlers)
 
 
 def group_members(client: WebClient) -> Any:
@@ -120,37 +115,56 @@ def group_members(client: WebClient) -> Any:
     return members
 
 
-class _Seen:
-    """Event ids already handled, so a retried delivery does nothing twice."""
+#: Workers for the slow part of what Slack asks (polls, answers, labels), kept apart from
+#: bolt's own pool, which then only ever acknowledges: an acknowledgement never waits
+#: behind an answer.
+WORKERS = 8
+#: How long a reply in a thread not known yet is looked for again while the channel's
+#: outbox is still sending (its answer may be landing at this moment).
+UNKNOWN_THREAD_WAITS_S = (0.25, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0)
 
-    def __init__(self, size: int = 2000) -> None:
-        self._ids: OrderedDict[str, None] = OrderedDict()
-        self._size = size
 
-    def first_time(self, event_id: str) -> bool:
-        if event_id in self._ids:
-            return False
-        self._ids[event_id] = None
-        if len(self._ids) > self._size:
-            self._ids.popitem(last=False)
-        return True
+#: How long a mention's event id is remembered by every replica (Slack retries within
+#: minutes; an hour leaves room).
+EVENT_MEMORY_S = 3600.0
 
 
 def build_app(
     triage: Triage,
     settings: Settings,
     *,
+    sender: SlackSender,
     client: WebClient | None = None,
+    work: Executor | None = None,
     **app_options: Any,
 ) -> App:
-    """The bolt app answering ``/triage``, thread replies and the label buttons."""
+    """The bolt app answering ``/triage``, thread replies and the label buttons. Bolt's
+    listeners only acknowledge; the work runs on ``work`` (default: a pool of its own) and
+    everything said goes through ``sender``'s outbox."""
     secret = settings.slack_signing_secret
     app = App(
         client=client or web_client(settings),
         signing_secret=secret.get_secret_value() if secret else None,
         **app_options,
     )
-    seen = _Seen()
+    pool = work or ThreadPoolExecutor(WORKERS, thread_name_prefix="linktriage-work")
+
+    def first_time(event_id: str) -> bool:
+        """Whether any replica of the store has taken this event (a retry, maybe delivered
+        to another replica, is not new): the store's key decides."""
+        now = time.time()
+        return triage.store.first_sight(f"event:{event_id}", now + EVENT_MEMORY_S, now)
+
+    def later(job: Callable[..., None], *args: Any) -> None:
+        """Run ``job`` on the work pool, its failure logged with a reference."""
+
+        def run() -> None:
+            try:
+                job(*args)
+            except Exception:
+                log.exception("error %s in %s", uuid.uuid4().hex[:8], job.__name__)
+
+        pool.submit(run)
 
     def deferred(text: str) -> bool:
         """Whether a command needs polls, so its answer comes after the acknowledgement;
@@ -160,77 +174,46 @@ def build_app(
         except LinktriageError:
             return False  # answered at once, with the reason
 
-    def ack_triage(ack: Ack, command: dict[str, Any]) -> None:
+    def on_triage(ack: Ack, command: dict[str, Any], respond: Respond) -> None:
         text = command.get("text", "")
         if deferred(text):
             ack(response_type="ephemeral", text=WORKING)
+            later(answer_triage, command, respond)
             return
         reply = triage.handle(text, user=command.get("user_id"), channel=command.get("channel_id"))
         ack(response_type="ephemeral", **message_for(reply))
 
-    def answer_triage(command: dict[str, Any], client: WebClient, respond: Respond) -> None:
-        text = command.get("text", "")
-        if not deferred(text):
-            return  # already answered in the acknowledgement
-        channel = command["channel_id"]
-        reply = triage.handle(text, user=command.get("user_id"), channel=channel)
-        message = message_for(reply)
+    def answer_triage(command: dict[str, Any], respond: Respond) -> None:
+        channel, user = command["channel_id"], command.get("user_id")
+        reply = triage.handle(command.get("text", ""), user=user, channel=channel)
         if reply.visibility != "channel":
-            respond(response_type="ephemeral", replace_original=False, **message)
+            respond(response_type="ephemeral", replace_original=False, **message_for(reply))
             return
-        try:
-            ts = post_reply(client, channel, reply)
-        except SlackApiError as exc:
-            error = exc.response.get("error")
-            log.warning("could not post to %s: %s", channel, error)
-            respond(
-                response_type="ephemeral",
-                text=words.cannot_post(str(error)),
-                blocks=message["blocks"],
-            )
-            return
-        triage.posted(reply, channel=channel, ts=ts)
-        upload_pictures(client, channel, ts, reply)
+        say_reply(sender, triage, reply, channel, asker=user)
 
-    app.command(COMMAND)(ack=ack_triage, lazy=[answer_triage])
+    app.command(COMMAND)(on_triage)
 
-    def deliver(
-        reply: Reply, client: WebClient, *, channel: str, thread: str | None, user: str
-    ) -> str | None:
-        """A channel reply posted (in ``thread`` when given), returning its ``ts``; any
-        other told to ``user`` alone."""
-        message = message_for(reply)
+    def deliver(reply: Reply, *, channel: str, thread: str | None, user: str) -> None:
+        """A channel reply posted (in ``thread`` when given); any other told to ``user``."""
         if reply.visibility != "channel":
-            client.chat_postEphemeral(channel=channel, user=user, thread_ts=thread, **message)
-            return None
-        return str(client.chat_postMessage(channel=channel, thread_ts=thread, **message)["ts"])
+            sender.ephemeral(channel, user, message_for(reply), thread=thread)
+            return
+        say_reply(sender, triage, reply, channel, thread=thread, asker=user)
 
-    def answer_label(
-        reply: Reply | None, client: WebClient, *, channel: str, thread: str | None, user: str
-    ) -> None:
+    def answer_label(reply: Reply | None, *, channel: str, thread: str | None, user: str) -> None:
         """A stored label is said in the thread and redrawn on its answer; a refusal is
         told to its author alone."""
         if reply is None:
             return
-        deliver(reply, client, channel=channel, thread=thread, user=user)
+        deliver(reply, channel=channel, thread=thread, user=user)
         if isinstance(reply, LabelReply):
-            redraw(reply.diagnosis_id, client)
-
-    def redraw(diagnosis_id: int, client: WebClient) -> None:
-        """The answer updated in place: who labelled it, and buttons to match."""
-        found = triage.labels.answer(diagnosis_id)
-        if found is None:
-            return  # a label from a digest's thread: its answer was never posted alone
-        answer, channel, ts = found
-        try:
-            client.chat_update(channel=channel, ts=ts, **message_for(answer))
-        except SlackApiError as exc:
-            log.warning(
-                "could not update answer %s in %s: %s", ts, channel, exc.response.get("error")
-            )
+            found = triage.labels.answer(reply.diagnosis_id)
+            if found is not None:  # None: a label from a digest's thread
+                answer, answer_channel, ts = found
+                sender.update(answer_channel, ts, message_for(answer))
 
     @app.event("app_mention")
-    def on_mention(event: dict[str, Any], body: dict[str, Any], client: WebClient) -> None:
+    def on_mention(event: dict[str, Any], body: dict[str, Any]) -> None:
         """A command said by mentioning the bot: a port or a list posted to the channel,
         anything else told to the person alone. Inside a thread a mention is a reply there
         (read as a label by on_message), not a command."""
@@ -238,38 +221,51 @@ def build_app(
         if thread and thread != event.get("ts"):
             return
         event_id = str(body.get("event_id") or f"{event.get('channel')}:{event.get('ts')}")
-        if not seen.first_time(event_id):
-            return
+        if first_time(event_id):
+            later(answer_mention, event)
+
+    def answer_mention(event: dict[str, Any]) -> None:
         text, user, channel = event.get("text", ""), event["user"], event["channel"]
         if deferred(text):
-            client.chat_postEphemeral(channel=channel, user=user, text=WORKING)
+            sender.ephemeral(channel, user, {"text": WORKING})
         reply = triage.handle(text, user=user, channel=channel)
-        if reply.visibility != "channel":
-            deliver(reply, client, channel=channel, thread=None, user=user)
-            return
-        triage.posted(reply, channel=channel, ts=post_reply(client, channel, reply))
+        deliver(reply, channel=channel, thread=None, user=user)
 
     @app.event("message")
-    def on_message(event: dict[str, Any], body: dict[str, Any], client: WebClient) -> None:
+    def on_message(event: dict[str, Any], body: dict[str, Any]) -> None:
         thread = event.get("thread_ts")
         if event.get("subtype") or event.get("bot_id") or not thread or thread == event.get("ts"):
             return  # only people's replies inside threads
-        event_id = str(body.get("event_id") or f"{event.get('channel')}:{event.get('ts')}")
-        if not seen.first_time(event_id):
+        later(answer_thread_reply, event, body)
+
+    def answer_thread_reply(event: dict[str, Any], body: dict[str, Any]) -> None:
+        """A reply read as a label. Its thread is looked for again while the channel's
+        outbox is still sending (the answer may be landing this moment); a retried
+        delivery is one label (the store keeps each event once)."""
+        channel, thread = event["channel"], event["thread_ts"]
+        event_id = str(body.get("event_id") or f"{channel}:{event.get('ts')}")
+        known = triage.labels.knows(channel, thread)
+        for wait in UNKNOWN_THREAD_WAITS_S:
+            if known or not sender.outbox.waiting_in(channel):
+                break
+            time.sleep(wait)
+            known = triage.labels.knows(channel, thread)
+        if not known:
             return
         reply = triage.labels.reply(
             event.get("text", ""),
             user=event["user"],
-            channel=event["channel"],
+            channel=channel,
             thread_ts=thread,
             event_key=event_id,
         )
-        answer_label(reply, client, channel=event["channel"], thread=thread, user=event["user"])
+        answer_label(reply, channel=channel, thread=thread, user=event["user"])
 
-    def on_label_action(
-        ack: Ack, body: dict[str, Any], action: dict[str, Any], client: WebClient
-    ) -> None:
+    def on_label_action(ack: Ack, body: dict[str, Any], action: dict[str, Any]) -> None:
         ack()
+        later(answer_label_action, body, action)
+
+    def answer_label_action(body: dict[str, Any], action: dict[str, Any]) -> None:
         user = body["user"]["id"]
         channel = body.get("channel", {}).get("id")
         thread = body.get("container", {}).get("message_ts") or body.get("message", {}).get("ts")
@@ -287,15 +283,16 @@ def build_app(
             int(raw_id), verdict, user=user, channel=channel, event_key=key
         )
         if channel:
-            answer_label(reply, client, channel=channel, thread=thread, user=user)
+            answer_label(reply, channel=channel, thread=thread, user=user)
 
     app.action(CONFIRM_ACTION)(on_label_action)
     app.action(CORRECT_ACTION)(on_label_action)
 
-    def ack_recheck(ack: Ack) -> None:
+    def on_recheck(ack: Ack, body: dict[str, Any], action: dict[str, Any]) -> None:
         ack()
+        later(answer_recheck, body, action)
 
-    def answer_recheck(body: dict[str, Any], action: dict[str, Any], client: WebClient) -> None:
+    def answer_recheck(body: dict[str, Any], action: dict[str, Any]) -> None:
         """The port diagnosed again; the new answer goes in the first one's thread."""
         user = body["user"]["id"]
         channel = body.get("channel", {}).get("id")
@@ -305,12 +302,9 @@ def build_app(
             log.warning("ignored a check-again action with value %r", raw_id)
             return
         reply = triage.recheck(int(raw_id), user=user, channel=channel)
-        if reply.visibility != "channel":
-            deliver(reply, client, channel=channel, thread=thread, user=user)
-            return
-        triage.posted(reply, channel=channel, ts=post_reply(client, channel, reply, thread=thread))
+        deliver(reply, channel=channel, thread=thread, user=user)
 
-    app.action(RECHECK_ACTION)(ack=ack_recheck, lazy=[answer_recheck])
+    app.action(RECHECK_ACTION)(on_recheck)
 
     @app.error
     def on_error(error: Exception, body: dict[str, Any], context: BoltContext) -> None:
