@@ -688,3 +688,15 @@ def test_a_reply_arriving_while_its_answer_is_still_being_sent_lands_on_it(
         assert post(url, reply, signed(reply), "application/json")[0] == 200
         (label,) = triage.store.labels()
         assert label.verdict == "cable_fault" and "crushed patch cord" in label.note
+
+
+def test_an_answer_the_store_cannot_keep_to_post_is_told_to_the_asker_with_it(
+    bot: str, emulator: SlackEmulator, triage: Triage
+) -> None:
+    with triage.store.engine.begin() as conn:
+        conn.exec_driver_sql("DROP TABLE outbox")  # the store refuses to keep messages
+    slash(bot, emulator, "lark-east-idf2 port14")
+    (hook,) = emulator.wait_for("response_url")
+    assert hook.params["text"].startswith("I could not keep this answer to post it")
+    assert hook.params["blocks"][0]["text"]["text"].startswith("lark-east-idf2 port14")
+    assert emulator.called("chat.postMessage") == []

@@ -12,12 +12,15 @@ thread finds it from then on.
 from __future__ import annotations
 
 import json
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from typing import Any
 
 import sqlalchemy as sa
+from sqlalchemy.engine import Connection
 
+from linktriage.errors import StoreError
 from linktriage.store import Store, diagnoses_table, digests_table, outbox_table
 
 #: The lease a replica holds while it sends to one channel (see :meth:`Outbox.channel_lease`).
@@ -66,7 +69,7 @@ class Outbox:
     def put(self, messages: Sequence[Outgoing], *, now: float, give_up_s: float) -> list[int]:
         """Keep messages to send, in this order, in one transaction; their ids."""
         ids: list[int] = []
-        with self.store.engine.begin() as conn:
+        with self._writing("keep messages to send") as conn:
             for message in messages:
                 thread_of = ids[0] if message.in_first_thread and ids else None
                 result = conn.execute(
@@ -90,6 +93,15 @@ class Outbox:
                 assert key is not None
                 ids.append(int(key[0]))
         return ids
+
+    @contextmanager
+    def _writing(self, what: str) -> Iterator[Connection]:
+        """A write transaction whose database errors become :class:`StoreError`."""
+        try:
+            with self.store.engine.begin() as conn:
+                yield conn
+        except sa.exc.SQLAlchemyError as exc:
+            raise StoreError(f"Could not {what}: {exc.__class__.__name__}: {exc}") from exc
 
     def channels_waiting(self) -> list[str]:
         """Channels with messages still to send."""

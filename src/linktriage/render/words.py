@@ -317,6 +317,11 @@ def held_back(minutes: float) -> str:
     )
 
 
+def not_kept(reason: str) -> str:
+    """Told privately when an answer could not be kept in the store to be posted."""
+    return f"I could not keep this answer to post it to the channel ({reason}). Here it is."
+
+
 def refused(error: str) -> str:
     """Told privately when Slack refused a message outright."""
     return f"Slack refused this message ({error}), so it was not posted. Here it is."

@@ -45,7 +45,7 @@ from linktriage.bot.commands import (
 )
 from linktriage.bot.triage import Triage
 from linktriage.engine.verdicts import TREE_VERDICTS
-from linktriage.errors import LinktriageError
+from linktriage.errors import LinktriageError, StoreError
 from linktriage.render import words
 from linktriage.render.blocks import (
     CONFIRM_ACTION,
@@ -186,10 +186,16 @@ def build_app(
     def answer_triage(command: dict[str, Any], respond: Respond) -> None:
         channel, user = command["channel_id"], command.get("user_id")
         reply = triage.handle(command.get("text", ""), user=user, channel=channel)
+        message = message_for(reply)
         if reply.visibility != "channel":
-            respond(response_type="ephemeral", replace_original=False, **message_for(reply))
+            respond(response_type="ephemeral", replace_original=False, **message)
             return
-        say_reply(sender, triage, reply, channel, asker=user)
+        try:
+            say_reply(sender, triage, reply, channel, asker=user)
+        except StoreError as exc:  # not kept to post: the asker gets it, and why
+            log.warning("could not keep an answer to post in %s: %s", channel, exc.message)
+            respond(response_type="ephemeral", replace_original=False,
+                    **{**message, "text": words.not_kept(exc.message)})  # fmt: skip
 
     app.command(COMMAND)(on_triage)
 
