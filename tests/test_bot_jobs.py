@@ -8,7 +8,7 @@ from collections.abc import Callable
 from datetime import datetime
 from zoneinfo import ZoneInfo
 
-from linktriage.bot.jobs import Jobs, digest_trigger, missed_digest, start_scheduler
+from linktriage.bot.jobs import Jobs, digest_trigger, missed_due, start_scheduler
 from linktriage.bot.triage import Triage
 from linktriage.network.demo import DemoClock
 from linktriage.render.replies import SuspectsReply
@@ -33,9 +33,10 @@ def test_the_digest_runs_on_weekdays_at_its_local_time() -> None:
 def test_a_digest_missed_while_down_is_known_from_the_last_one() -> None:
     trigger = digest_trigger(SCHEDULE)
     monday = at(2, 7, 30)
-    assert missed_digest(trigger, monday, at(4, 9, 0), OSLO)  # Tue and Wed 07:30 passed
-    assert not missed_digest(trigger, monday, at(2, 18, 0), OSLO)  # nothing due yet
-    assert not missed_digest(trigger, None, at(4, 9, 0), OSLO)  # never ran: wait for the time
+    # Tue and Wed 07:30 passed: the latest is the one to catch up
+    assert missed_due(trigger, monday, at(4, 9, 0), OSLO) == at(4, 7, 30)
+    assert missed_due(trigger, monday, at(2, 18, 0), OSLO) is None  # nothing due yet
+    assert missed_due(trigger, None, at(4, 9, 0), OSLO) is None  # never ran: wait for the time
 
 
 def channel_of(triage: Triage, posted: list[SuspectsReply]) -> Callable[[SuspectsReply], None]:

@@ -12,15 +12,12 @@ thread finds it from then on.
 from __future__ import annotations
 
 import json
-from collections.abc import Iterator, Sequence
-from contextlib import contextmanager
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
 import sqlalchemy as sa
-from sqlalchemy.engine import Connection
 
-from linktriage.errors import StoreError
 from linktriage.store import Store, diagnoses_table, digests_table, outbox_table
 
 #: The lease a replica holds while it sends to one channel (see :meth:`Outbox.channel_lease`).
@@ -69,7 +66,7 @@ class Outbox:
     def put(self, messages: Sequence[Outgoing], *, now: float, give_up_s: float) -> list[int]:
         """Keep messages to send, in this order, in one transaction; their ids."""
         ids: list[int] = []
-        with self._writing("keep messages to send") as conn:
+        with self.store.writing("keep messages to send") as conn:
             for message in messages:
                 thread_of = ids[0] if message.in_first_thread and ids else None
                 result = conn.execute(
@@ -94,18 +91,9 @@ class Outbox:
                 ids.append(int(key[0]))
         return ids
 
-    @contextmanager
-    def _writing(self, what: str) -> Iterator[Connection]:
-        """A write transaction whose database errors become :class:`StoreError`."""
-        try:
-            with self.store.engine.begin() as conn:
-                yield conn
-        except sa.exc.SQLAlchemyError as exc:
-            raise StoreError(f"Could not {what}: {exc.__class__.__name__}: {exc}") from exc
-
     def channels_waiting(self) -> list[str]:
         """Channels with messages still to send."""
-        with self.store.engine.connect() as conn:
+        with self.store.reading("read the outbox") as conn:
             query = (
                 sa.select(outbox_table.c.channel)
                 .where(outbox_table.c.state == "waiting")
@@ -116,7 +104,7 @@ class Outbox:
     def waiting_in(self, channel: str) -> bool:
         """Whether anything is still to be sent to ``channel`` (a reply in a thread that
         is not known yet may belong to a message being sent there right now)."""
-        with self.store.engine.connect() as conn:
+        with self.store.reading("read the outbox") as conn:
             found = conn.execute(
                 sa.select(outbox_table.c.id)
                 .where((outbox_table.c.state == "waiting") & (outbox_table.c.channel == channel))
@@ -126,7 +114,7 @@ class Outbox:
 
     def head(self, channel: str) -> Queued | None:
         """The oldest message still to send to ``channel``: the only one that may go next."""
-        with self.store.engine.connect() as conn:
+        with self.store.reading("read the outbox") as conn:
             row = conn.execute(
                 sa.select(outbox_table)
                 .where((outbox_table.c.state == "waiting") & (outbox_table.c.channel == channel))
@@ -157,7 +145,7 @@ class Outbox:
     def sent(self, message_id: int, ts: str | None) -> None:
         """A message sent, with Slack's id for it; the answer or list it carries learns
         where it is, in the same transaction."""
-        with self.store.engine.begin() as conn:
+        with self.store.writing("note a message sent") as conn:
             row = conn.execute(
                 sa.select(outbox_table.c.channel, outbox_table.c.diagnosis_id,
                           outbox_table.c.digest_id).where(outbox_table.c.id == message_id)
@@ -179,7 +167,7 @@ class Outbox:
 
     def later(self, message_id: int, not_before: float, why: str) -> None:
         """A message held back (a rate limit, an outage): tried again at ``not_before``."""
-        with self.store.engine.begin() as conn:
+        with self.store.writing("hold a message back") as conn:
             conn.execute(
                 outbox_table.update()
                 .where(outbox_table.c.id == message_id)
@@ -190,7 +178,7 @@ class Outbox:
         """A message that will not be sent, and the ones waiting to go in its thread;
         returns every id dropped."""
         dropped = [message_id]
-        with self.store.engine.begin() as conn:
+        with self.store.writing("drop a message") as conn:
             dropped += conn.execute(
                 sa.select(outbox_table.c.id).where(
                     (outbox_table.c.thread_of == message_id) & (outbox_table.c.state == "waiting")

@@ -655,7 +655,7 @@ class Store:
         returns how many rows."""
         packs = _packs(table)
         if packs:
-            with self._writing("keep polls") as conn:
+            with self.writing("keep polls") as conn:
                 conn.execute(polls_table.insert(), packs)
         return len(table)
 
@@ -673,7 +673,7 @@ class Store:
         )
         if devices is not None:
             query = query.where(polls_table.c.device.in_(list(devices)))
-        with self._reading("read polls") as conn:
+        with self.reading("read polls") as conn:
             rows = conn.execute(query.order_by(polls_table.c.time)).all()
         tables = []
         for row in rows:
@@ -693,7 +693,7 @@ class Store:
             .order_by(polls_table.c.time.desc())
             .limit(1)
         )
-        with self._reading("read the latest poll") as conn:
+        with self.reading("read the latest poll") as conn:
             body = conn.execute(query).scalar()
         return PollTable.empty() if body is None else unpack(body, device)
 
@@ -704,7 +704,7 @@ class Store:
         many rows were forgotten."""
         forgotten = 0
         while True:
-            with self._writing("forget old polls") as conn:
+            with self.writing("forget old polls") as conn:
                 old = conn.execute(
                     sa.select(polls_table.c.id, polls_table.c.ports)
                     .where(polls_table.c.time < before)
@@ -731,14 +731,14 @@ class Store:
              (outbox_table.c.at < before) & (outbox_table.c.state != "waiting")),
         ):  # fmt: skip
             counts[name] = self._forget(table, where, batch)
-        with self._writing("forget old job runs") as conn:
+        with self.writing("forget old job runs") as conn:
             conn.execute(job_runs_table.delete().where(job_runs_table.c.due < before))
         return Forgotten(**counts)
 
     def _forget(self, table: sa.Table, where: sa.ColumnElement[bool], batch: int) -> int:
         forgotten = 0
         while True:
-            with self._writing(f"forget old {table.name}") as conn:
+            with self.writing(f"forget old {table.name}") as conn:
                 ids = conn.execute(sa.select(table.c.id).where(where).limit(batch)).scalars().all()
                 if not ids:
                     return forgotten
@@ -753,7 +753,7 @@ class Store:
                 conn.exec_driver_sql("PRAGMA wal_checkpoint(TRUNCATE)")
 
     def poll_history(self) -> PollHistory:
-        with self._reading("read the poll history") as conn:
+        with self.reading("read the poll history") as conn:
             return _history(conn)
 
     # --- diagnoses
@@ -782,7 +782,7 @@ class Store:
         insert = diagnoses_table.insert().returning(
             diagnoses_table.c.id, sort_by_parameter_order=True
         )
-        with self._writing("keep the diagnoses") as conn:
+        with self.writing("keep the diagnoses") as conn:
             return [int(row.id) for row in conn.execute(insert, rows)]
 
     def attach_message(self, diagnosis_id: int, channel: str, message_ts: str) -> None:
@@ -790,7 +790,7 @@ class Store:
         self._attach(diagnoses_table, diagnosis_id, channel, message_ts)
 
     def _attach(self, table: sa.Table, row_id: int, channel: str, message_ts: str) -> None:
-        with self._writing("remember the message") as conn:
+        with self.writing("remember the message") as conn:
             conn.execute(
                 table.update()
                 .where(table.c.id == row_id)
@@ -845,7 +845,7 @@ class Store:
         retry); ``raced``: another label of theirs took that turn since the caller read
         them (a second press, on another replica): read again and decide again."""
         try:
-            with self._writing("keep the label") as conn:
+            with self.writing("keep the label") as conn:
                 conn.execute(
                     labels_table.insert().values(
                         at=at,
@@ -872,7 +872,7 @@ class Store:
 
     def has_event(self, event_key: str) -> bool:
         """Whether a label from this event is stored (a retried delivery is not new)."""
-        with self._reading("read the labels") as conn:
+        with self.reading("read the labels") as conn:
             found = conn.execute(
                 sa.select(labels_table.c.id).where(labels_table.c.event_key == event_key)
             ).first()
@@ -884,7 +884,7 @@ class Store:
         query = sa.select(labels_table).order_by(labels_table.c.id)
         if diagnosis_id is not None:
             query = query.where(labels_table.c.diagnosis_id == diagnosis_id)
-        with self._reading("read the labels") as conn:
+        with self.reading("read the labels") as conn:
             rows = conn.execute(query).all()
         return [
             Label(
@@ -910,7 +910,7 @@ class Store:
         self, items: Sequence[dict[str, Any]], *, at: float, kind: str, channel: str | None
     ) -> int:
         """Keep a posted list of suspects (``kind``: digest or suspects); returns its id."""
-        with self._writing("keep the digest") as conn:
+        with self.writing("keep the digest") as conn:
             result = conn.execute(
                 digests_table.insert().values(
                     at=at, kind=kind, channel=channel, items=json.dumps(list(items))
@@ -946,7 +946,7 @@ class Store:
         self, command: str, outcome: str, *, at: float, user_id: str | None, channel: str | None
     ) -> None:
         """Note a command and how it ended."""
-        with self._writing("note the command") as conn:
+        with self.writing("note the command") as conn:
             conn.execute(
                 audit_table.insert().values(
                     at=at, user_id=user_id, channel=channel, command=command, outcome=outcome
@@ -961,7 +961,7 @@ class Store:
             ]
 
     # --- database errors as StoreError
-    def _reading(self, what: str) -> AbstractContextManager[Connection]:
+    def reading(self, what: str) -> AbstractContextManager[Connection]:
         """A read whose database errors become :class:`StoreError`."""
         return self._guarded(what, self.engine.connect)
 
@@ -995,7 +995,7 @@ class Store:
 
     def release_lease(self, name: str, holder: str) -> None:
         """Give a lease up at once (a clean stop), so another replica need not wait."""
-        with self._writing("give up a lease") as conn:
+        with self.writing("give up a lease") as conn:
             conn.execute(
                 leases_table.delete().where(
                     (leases_table.c.name == name) & (leases_table.c.holder == holder)
@@ -1004,7 +1004,7 @@ class Store:
 
     def lease_holder(self, name: str, *, now: float) -> str | None:
         """Who holds a lease now, if anyone."""
-        with self._reading("read a lease") as conn:
+        with self.reading("read a lease") as conn:
             row = conn.execute(
                 sa.select(leases_table.c.holder).where(
                     (leases_table.c.name == name) & (leases_table.c.expires_at >= now)
@@ -1042,7 +1042,7 @@ class Store:
             raise StoreError(f"Could not record a signed request: {exc}") from exc
         return True
 
-    def _writing(self, what: str) -> AbstractContextManager[Connection]:
+    def writing(self, what: str) -> AbstractContextManager[Connection]:
         """A write transaction whose database errors become :class:`StoreError`."""
         return self._guarded(what, self.engine.begin)
 

@@ -57,11 +57,6 @@ def poll_trigger(schedule: ScheduleSettings, now: float) -> IntervalTrigger:
     return IntervalTrigger(seconds=interval, start_date=start, timezone=schedule.zone)
 
 
-def missed_digest(trigger: CronTrigger, last_at: float | None, now: float, zone: tzinfo) -> bool:
-    """Whether a digest fell due after the last one and before now."""
-    return missed_due(trigger, last_at, now, zone) is not None
-
-
 def missed_due(
     trigger: CronTrigger, last_at: float | None, now: float, zone: tzinfo
 ) -> float | None:
