@@ -22,9 +22,8 @@ import pytest
 import sqlalchemy as sa
 from test_serve import free_port
 
-from linktriage.bot.jobs import JOBS_LEASE
 from linktriage.render.blocks import CONFIRM_ACTION
-from linktriage.store import Store
+from linktriage.store import JOBS_LEASE, Store, inspect_store
 
 from slack_emulator import SlackEmulator
 from test_transports_slack import CHANNEL, FORM, SECRET, action_body, post, signed, slash
@@ -205,6 +204,7 @@ def test_two_replicas_on_one_store_share_the_work_and_hand_it_over(
         # act is the digest missed meanwhile (the last one was two days ago), posted once.
         holder = holder_now(store)
         assert holder is not None
+        assert inspect_store(database_url).jobs_held_by == holder  # as `config check` says
         (running,) = [r for r in replicas if f":{r.process.pid}:" in holder]
         (other,) = [r for r in replicas if r is not running]
         store.add_digest([], at=time.time() - 2 * 86400.0, kind="digest", channel=DIGESTS)

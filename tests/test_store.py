@@ -8,6 +8,7 @@ import shutil
 import sqlite3
 import sys
 import threading
+import time
 from collections.abc import Iterator
 from functools import partial
 from pathlib import Path
@@ -25,8 +26,10 @@ from linktriage.engine.format.snapshot import read_snapshot_file
 from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.errors import StoreError
 from linktriage.network.demo import DemoClock, DemoNetwork
+from linktriage.outbox import Outbox, Outgoing
 from linktriage.settings import Settings
 from linktriage.store import (
+    JOBS_LEASE,
     MIGRATIONS,
     NewAnswer,
     PollHistory,
@@ -189,6 +192,20 @@ def test_inspecting_a_store_creates_nothing(tmp_path: Path) -> None:
     assert state.version == MIGRATIONS[-1].version
     assert state.history == PollHistory(1, 2, polls(line()).time[0], polls(line(T5)).time[0])
     assert state.size_bytes is not None and state.size_bytes >= path.stat().st_size
+    assert (state.jobs_held_by, state.waiting) == (None, 0)
+
+
+def test_inspecting_a_store_says_which_replica_runs_the_jobs_and_what_waits_to_be_sent(
+    tmp_path: Path,
+) -> None:
+    url = f"sqlite:///{tmp_path / 's.sqlite'}"
+    store = Store(url)
+    assert store.take_lease(JOBS_LEASE, "lark-ops1:4242:a1b2c3", now=time.time(), hold_s=600.0)
+    Outbox(store).put([Outgoing("C0NETOPS", "chat.postMessage", {"text": "x"})] * 2,
+                      now=time.time(), give_up_s=60.0)  # fmt: skip
+    store.close()
+    state = inspect_store(url)
+    assert (state.jobs_held_by, state.waiting) == ("lark-ops1:4242:a1b2c3", 2)
 
 
 def test_a_store_of_json_lines_is_packed_by_its_migration(database_url: str) -> None:

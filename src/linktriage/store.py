@@ -143,6 +143,8 @@ leases_table = sa.Table(
     sa.Column("holder", sa.Text, nullable=False),
     sa.Column("expires_at", sa.Float, nullable=False),
 )
+#: The lease of the replica that runs the jobs (poll rounds, digests, tidying).
+JOBS_LEASE = "jobs"
 #: Each run of a job by the time it fell due: a digest due at 07:30 is run (and posted) by
 #: one replica once, whatever the others' clocks say (since schema version 8).
 job_runs_table = sa.Table(
@@ -509,6 +511,8 @@ class StoreState:
     version: int | None  # None: no tables yet (created on first use)
     history: PollHistory | None
     size_bytes: int | None  # the database on disk, where it can tell
+    jobs_held_by: str | None = None  # the replica running the jobs now, if any
+    waiting: int = 0  # messages in the outbox not yet sent
 
 
 def inspect_store(url: str) -> StoreState:
@@ -526,13 +530,25 @@ def inspect_store(url: str) -> StoreState:
                 return StoreState(shown, True, None, None, None)
             version = conn.execute(sa.select(sa.func.max(schema_version_table.c.version))).scalar()
             history = _history(conn) if tables.has_table(polls_table.name) else None
+            holder, waiting = None, 0
+            if tables.has_table(leases_table.name):
+                holder = conn.execute(
+                    sa.select(leases_table.c.holder).where(
+                        (leases_table.c.name == JOBS_LEASE)
+                        & (leases_table.c.expires_at >= time.time())
+                    )
+                ).scalar()
+            if tables.has_table(outbox_table.name):
+                waiting = conn.execute(
+                    sa.select(sa.func.count()).where(outbox_table.c.state == "waiting")
+                ).scalar_one()
             size = None
             if engine.dialect.name == "postgresql":
                 size = conn.exec_driver_sql("SELECT pg_database_size(current_database())").scalar()
         if on_disk:
             files = [Path(f"{database}{suffix}") for suffix in ("", "-wal")]
             size = sum(f.stat().st_size for f in files if f.exists())
-        return StoreState(shown, True, int(version or 0), history, size)
+        return StoreState(shown, True, int(version or 0), history, size, holder, int(waiting))
     except sa.exc.SQLAlchemyError as exc:
         first = str(exc).splitlines()[0]
         raise StoreError(f"Cannot reach the store at {shown}: {first}") from exc

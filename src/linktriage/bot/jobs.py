@@ -28,14 +28,13 @@ from linktriage.bot.triage import Triage
 from linktriage.errors import StoreError
 from linktriage.render.replies import SuspectsReply
 from linktriage.settings import ScheduleSettings
+from linktriage.store import JOBS_LEASE
 
 log = logging.getLogger("linktriage.bot.jobs")
 
 #: Puts a digest wherever the transport posts (a channel's outbox, the console).
 Post = Callable[[SuspectsReply], None]
 
-#: The store's lease for the jobs (one holder across replicas).
-JOBS_LEASE = "jobs"
 #: Forgetting what is past its keep runs this often.
 TIDY_S = 3600.0
 

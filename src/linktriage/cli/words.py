@@ -158,6 +158,10 @@ def store_state(state: StoreState, keep_h: float) -> str:
     elif history is not None:
         parts.append("no polls yet")
     parts.append(f"polls kept {keep_h:g} h")
+    if state.jobs_held_by is not None:
+        parts.append(f"jobs run by {state.jobs_held_by}")
+    if state.waiting:
+        parts.append(f"{plural(state.waiting, 'message')} waiting to be sent to Slack")
     return "; ".join(parts)
 
 
