@@ -34,7 +34,7 @@ from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.snapshot import iter_snapshots
-from linktriage.engine.verdicts import FAULTS
+from linktriage.engine.verdicts import FAULTS, TREE_VERDICTS
 from linktriage.network.demo import DemoClock
 from linktriage.settings import Settings
 from linktriage.store import Store
@@ -46,8 +46,10 @@ POLL_S = 300.0
 TARGET_BYTES_PER_POLL = 200
 TARGET_WEEK_BYTES = 2e9
 TARGET_DIGEST_S = 10.0
-#: A site on a normal day: most ports healthy, a few per hundred in trouble.
-SITE_MIX = {"healthy": 0.97, **{fault: 0.03 / len(FAULTS) for fault in FAULTS}}
+#: A site on a normal day: most ports healthy, a few per hundred in trouble (the faults the
+#: simulator draws: the tree's).
+DRAWN_FAULTS = sorted(FAULTS & set(TREE_VERDICTS))
+SITE_MIX = {"healthy": 0.97, **{fault: 0.03 / len(DRAWN_FAULTS) for fault in DRAWN_FAULTS}}
 
 
 def fleet(ports: int, clock: DemoClock) -> FleetNetwork:

@@ -11,16 +11,22 @@ from linktriage.engine.format.answers import Verdict
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.prior import sample_mix, sample_parameters
 from linktriage.engine.simulate.polled import LiveCounters
+from linktriage.engine.verdicts import TREE_VERDICTS
 from linktriage.network.watched import Gathered, Network, PortRef
 
 
 class Fleet:
     """``devices`` switches of ``ports`` ports each, named sw0001.. and port1..; the ports'
-    verdicts drawn in the proportions of ``mix`` (default: the training prior's)."""
+    verdicts drawn in the proportions of ``mix`` (default: the training prior's), which
+    names only verdicts the simulator draws (the tree's): a port drawn as another would be
+    left out, and the network would list a port the fleet never answers for."""
 
     def __init__(
         self, devices: int, ports: int, *, seed: int = 11, mix: dict[Verdict, float] | None = None
     ) -> None:
+        undrawn = sorted(set(mix or ()) - set(TREE_VERDICTS))
+        if undrawn:
+            raise ValueError(f"the simulator does not draw {undrawn} as such")
         rng = np.random.default_rng(seed)
         n = devices * ports
         params = sample_parameters(sample_mix(n, rng, mix), rng)
