@@ -7,6 +7,7 @@ import logging
 import sqlite3
 import struct
 import zlib
+from collections.abc import Callable
 from pathlib import Path
 from typing import get_args
 
@@ -22,6 +23,7 @@ from linktriage.engine.format.packs import (
     pack,
     pack_columns,
     unpack,
+    unpack_many,
     upgraded,
 )
 from linktriage.engine.format.poll_table import PollTable
@@ -225,3 +227,110 @@ def test_the_fields_of_format_1_2_come_back_and_a_1_1_pack_is_as_before() -> Non
     assert back.extra["lanes"][0] == table.extra["lanes"][0]
     plain = polls(line(), line("2026-03-02T08:05:00Z"))
     assert b"extra" not in zlib.decompress(pack(plain)[struct.calcsize("<BII") :])
+
+
+def assert_identical(back: PollTable, table: PollTable) -> None:
+    """Every column row for row, the far end's names and the words of format 1.2 too."""
+    assert_same(back, table)
+    assert back.device.tolist() == table.device.tolist()
+    assert back.neighbor_device.tolist() == table.neighbor_device.tolist()
+    assert back.neighbor_port.tolist() == table.neighbor_port.tolist()
+    for name in table.extra:
+        assert back.extra[name].tolist() == table.extra[name].tolist(), name
+
+
+def one_by_one(packs: list[tuple[str, bytes]]) -> PollTable:
+    return PollTable.concat([unpack(body, device) for device, body in packs])
+
+
+def at_once(packs: list[tuple[str, bytes]]) -> PollTable:
+    return unpack_many([body for _, body in packs], [device for device, _ in packs])
+
+
+def test_many_packs_read_at_once_are_each_read_alone_one_after_the_other() -> None:
+    # Packs of other column sets (8- and 4-byte counters, readings carried or not), other
+    # row counts, far ends named or not, and 1.2 words in some packs, some in others,
+    # none in the rest (a 1.1 pack), interleaved as a digest reads them: oldest first.
+    from test_format_snapshot import EVERY_1_2_FIELD
+
+    fields = dict(EVERY_1_2_FIELD)
+    counters = fields.pop("counters")
+    later = "2026-03-02T08:05:00Z"
+    tables = [
+        polls(line(counters={"ifHCInOctets": 2**40, "ifInErrors": 3}, speed_bps=1e9),
+              line(counters={"ifHCInOctets": 7}, port="port2")),
+        polls(line(counters=counters, **fields, device="lark-test-sw2"),
+              line(device="lark-test-sw2", port="port2", aggregate="bundle1")),
+        polls(line(later, {"ifHCInOctets": 2**40 + 5, "ifInErrors": 4}, speed_bps=1e9),
+              line(later, {"ifHCInOctets": 9}, port="port2")),
+        polls(line(later, device="lark-test-sw3", neighbor={"device": "lark-core1", "port": "up3"}),
+              line(later, device="lark-test-sw3", port="Gi1/0/2 \u00fcbergabe",
+                   optics={"rx_power_dbm": -3.1, "pmd": "10GBASE-LR"})),
+        polls(line(later, counters=counters, **fields, device="lark-test-sw2")),
+        polls(line(later, {"ifInErrors": 2**32 - 1}, device="lark-test-sw4")),
+    ]  # fmt: skip
+    packs = [(str(t.device[0]), pack(t)) for t in tables]
+    layouts = [(_directory(body), struct.unpack_from("<BI", body)[1]) for _, body in packs]
+    assert 1 < len(set(layouts)) < len(packs)  # some read as one block, most alone
+    back = at_once(packs)
+    assert_identical(back, one_by_one(packs))
+    assert_identical(back, PollTable.concat(tables))
+    assert back.extra["lanes"][2] == tables[1].extra["lanes"][0]  # a tuple of lanes, whole
+
+
+def test_packs_laid_out_alike_keep_each_packs_own_names_and_values() -> None:
+    # One directory, one row count: read as one block, yet each pack's names are its own,
+    # even where the bytes of two packs' names are the same but cut elsewhere.
+    first = polls(line(counters={"ifInErrors": 1}, port="ab"), line(counters={}, port="c"))
+    second = polls(line("2026-03-02T08:05:00Z", {"ifInErrors": 2}, port="a"),
+                   line("2026-03-02T08:05:00Z", {}, port="bc"))  # fmt: skip
+    packs = [("lark-test-sw1", pack(first)), ("lark-test-sw9", pack(second))]
+    assert _directory(packs[0][1]) == _directory(packs[1][1])
+    back = at_once(packs)
+    assert back.port.tolist() == ["ab", "c", "a", "bc"]
+    assert back.device.tolist() == ["lark-test-sw1"] * 2 + ["lark-test-sw9"] * 2
+    assert_identical(back, one_by_one(packs))
+
+
+def test_packs_of_the_first_release_read_at_once_as_each_alone() -> None:
+    with sqlite3.connect(STORE) as conn:
+        rows = conn.execute("SELECT device, body FROM poll_packs ORDER BY id").fetchall()
+    legacy = [(device, body) for device, body in rows]
+    today = [(device, pack(unpack(body, device))) for device, body in legacy[:3]]
+    mixed = [legacy[0], *today, *legacy[1:]]  # formats 1, 2 and 3 in one read
+    assert {body[0] for _, body in mixed} == {*LEGACY_FORMATS, FORMAT}
+    assert_identical(at_once(mixed), one_by_one(mixed))
+    assert named(at_once(legacy)) == named(_recorded())
+
+
+def test_a_column_this_release_does_not_know_is_left_out_of_a_read_of_many(
+    caplog: pytest.LogCaptureFixture,
+) -> None:
+    table = polls(line(counters={"ifHCInOctets": 5, "dot3StatsFCSErrors": 7}, mtu=9000))
+    future = _renamed(pack(table), "dot3StatsFCSErrors", "dot3StatsFutureCounter")
+    future = _renamed(future, "state.mtu", "state.future_reading")
+    packs = [("lark-test-sw1", pack(table)), ("lark-test-sw2", future)]
+    with caplog.at_level(logging.WARNING, logger="linktriage.engine.format.packs"):
+        back = at_once(packs)
+    assert_identical(back, one_by_one(packs))
+    fcs = COLUMN_INDEX["dot3StatsFCSErrors"]
+    assert back.present[:, fcs].tolist() == [True, False]
+    assert back.state["mtu"][0] == 9000 and np.isnan(back.state["mtu"][1])
+
+
+def test_no_packs_read_as_an_empty_table() -> None:
+    assert len(unpack_many([], [])) == 0
+
+
+@pytest.mark.parametrize(
+    "damage",
+    [
+        lambda b: b[:-10],  # cut inside the compressed body
+        lambda b: b[:1] + struct.pack("<I", 3) + b[5:],  # more rows than the body holds
+    ],
+)
+def test_one_damaged_pack_among_many_is_refused(damage: Callable[[bytes], bytes]) -> None:
+    good = pack(polls(line(counters={"ifHCInOctets": 7}), line(port="port2")))
+    packs = [("lark-test-sw1", good), ("lark-test-sw2", damage(good)), ("lark-test-sw3", good)]
+    with pytest.raises(PackError):
+        at_once(packs)

@@ -87,6 +87,29 @@ def test_polls_come_back_as_they_went_in(store: Store) -> None:
     assert list(store.polls_since(0.0).port) == ["port2"]
 
 
+def test_many_devices_polls_come_back_in_one_read_as_each_devices_alone(store: Store) -> None:
+    # Devices of other column sets, one naming its far end, one carrying format 1.2's words;
+    # a pack holding two polls (T0 and T5) reaches back before T5 and is cut there.
+    store.add_polls(polls(line(counters={"ifHCInOctets": 2**40}), line(port="port2")))
+    far, sw3, lr = {"device": "sw1", "port": "p1"}, "lark-test-sw3", {"pmd": "10GBASE-LR"}
+    store.add_polls(polls(line(device="lark-test-sw2", neighbor=far),
+                          line(device=sw3, optics=lr, counters={"ifOutErrors": 1}),
+                          line(T5, device=sw3, counters={"ifOutErrors": 2})))  # fmt: skip
+    store.add_polls(polls(line(T5, counters={"ifHCInOctets": 2**40 + 9}), line(T5, port="port2")))
+    devices = ["lark-test-sw1", "lark-test-sw2", "lark-test-sw3"]
+    whole = store.polls_since(0.0)
+    alone = PollTable.concat([store.polls_since(0.0, devices=[d]) for d in devices])
+    assert len(whole) == 7 and named(whole) == named(alone)
+    assert whole.neighbor_device.tolist().count("sw1") == 1
+    assert whole.extra["pmd"].tolist().count("10GBASE-LR") == 1
+    since = float(whole.time.max())
+    later = store.polls_since(since)
+    assert named(later) == named(whole.take(np.flatnonzero(whole.time >= since)))
+    assert len(later) == 3 and set(later.port.tolist()) == {"port1", "port2"}
+    one = store.polls_since(since, devices=[sw3], port="port1")
+    assert one.time.tolist() == [since] and one.counters.max() == 2
+
+
 def _diagnosis(store: Store) -> int:
     record = {"device": "sw", "port": "p1", "verdict": "cable_fault", "confidence": 0.9,
               "model_version": "m1"}  # fmt: skip

@@ -28,8 +28,10 @@ import json
 import logging
 import struct
 import zlib
-from dataclasses import dataclass
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, field
 from functools import cache, lru_cache
+from itertools import chain, repeat
 from typing import Any
 
 import numpy as np
@@ -41,6 +43,7 @@ from linktriage.engine.format.poll_table import (
     OPTICS_FIELDS,
     STATE_FIELDS,
     PollTable,
+    unread_column,
 )
 
 log = logging.getLogger(__name__)
@@ -173,14 +176,6 @@ def _shuffled(array: npt.NDArray[np.generic]) -> bytes:
     return a.view(np.uint8).reshape(-1, a.dtype.itemsize).T.tobytes()
 
 
-def _unshuffled(data: memoryview, dtype: type[np.generic], count: int) -> npt.NDArray[Any]:
-    size = np.dtype(dtype).itemsize
-    planes = np.frombuffer(data, np.uint8, count * size)
-    if size == 1:
-        return planes.view(dtype)
-    return np.ascontiguousarray(planes.reshape(size, count).T).view(dtype).reshape(count)
-
-
 def _readings(table: PollTable) -> dict[str, npt.NDArray[np.float64]]:
     """Every reading column of a table by its pack name."""
     return {
@@ -304,7 +299,7 @@ def _tell_unknown(name: str) -> None:
 
 
 @lru_cache(maxsize=4096)
-def _counter_places(names: tuple[str, ...]) -> tuple[list[int], list[int]]:
+def _counter_places(names: tuple[str, ...]) -> tuple[npt.NDArray[np.intp], npt.NDArray[np.intp]]:
     """For counter ``names``: the positions known to today's catalogue, and their columns
     (worked out once per set of names: a device's packs name the same ones)."""
     kept, columns = [], []
@@ -315,85 +310,253 @@ def _counter_places(names: tuple[str, ...]) -> tuple[list[int], list[int]]:
             continue
         kept.append(k)
         columns.append(j)
-    return kept, columns
+    return np.array(kept, np.intp), np.array(columns, np.intp)
 
 
 def unpack(blob: bytes, device: str) -> PollTable:
     """The poll table a pack was made from, its rows all of ``device``; every column is
     placed by its name, and one this release does not know is left out (and logged)."""
-    rows, directory, body = _opened(blob)
-    at = 0
+    return unpack_many([blob], [device])
 
-    def take(dtype: type[np.generic], count: int) -> npt.NDArray[Any]:
-        nonlocal at
-        size = np.dtype(dtype).itemsize * count
-        if at + size > len(body):
-            raise PackError("a pack shorter than its header says")
-        array = _unshuffled(body[at : at + size], dtype, count)
-        at += size
-        return array
 
-    lengths = take(np.uint32, rows)
-    time = take(np.float64, rows)
-    status = take(np.uint8, rows)
-    if status.size and int(status.max()) >= len(STATUSES):
+def unpack_many(blobs: Sequence[bytes], devices: Sequence[str]) -> PollTable:
+    """The rows of many packs as one table, in their order, the rows of ``blobs[k]`` all of
+    ``devices[k]``: what :func:`unpack` of each, concatenated, gives. A store's digest reads
+    thousands of packs; those that share a directory and a row count (a device's polls, as
+    a rule) are laid out alike, so each of their columns is read for all of them at once,
+    and names are decoded once per distinct bytes (a device's polls name the same ports)."""
+    opened = [_opened(blob) for blob in blobs]
+    counts = np.array([rows for rows, _, _ in opened], np.intp)
+    ends = np.cumsum(counts)
+    starts = ends - counts
+    out = _Columns.sized(int(ends[-1]) if len(ends) else 0)
+    fixed = [0] * len(opened)  # where each body's port names begin
+    alike: dict[tuple[Directory, int], list[int]] = {}
+    for k, (rows, directory, _) in enumerate(opened):
+        alike.setdefault((directory, rows), []).append(k)
+    for (directory, rows), members in alike.items():
+        rows_at = (starts[members][:, None] + np.arange(rows)).ravel()
+        size = out.read_alike(directory, rows, [opened[k][2] for k in members], rows_at)
+        for k in members:
+            fixed[k] = size
+    if out.status.size and int(out.status.max()) >= len(STATUSES):
         raise PackError("an operational status code the format does not have")
-    counters = np.zeros((rows, len(COLUMNS)), np.uint64)
-    present = np.zeros((rows, len(COLUMNS)), np.bool_)
-    for names, dtype in ((directory.wide, np.uint64), (directory.narrow, np.uint32)):
-        block = take(dtype, rows * len(names)).reshape(rows, len(names))
-        kept, columns = _counter_places(names)
-        counters[:, columns] = block[:, kept]
-    bits = rows * len(directory.present)
-    unpacked = np.unpackbits(take(np.uint8, (bits + 7) // 8), count=bits)
-    flags = unpacked.reshape(rows, len(directory.present))
-    kept, columns = _counter_places(directory.present)
-    present[:, columns] = flags[:, kept].astype(np.bool_)
-    state = {k: np.full(rows, np.nan) for k in STATE_FIELDS}
-    optics = {k: np.full(rows, np.nan) for k in OPTICS_FIELDS}
-    places = {f"state.{k}": (state, k) for k in STATE_FIELDS}
-    places.update({f"optics.{k}": (optics, k) for k in OPTICS_FIELDS})
-    for name in directory.readings:
-        values = take(np.float64, rows)
-        place = places.get(name)
-        if place is None:
-            _tell_unknown(name)
-            continue
-        place[0][place[1]] = values
-    names_end = at + int(lengths.sum())
-    names_bytes = bytes(body[at:names_end])
-    if len(names_bytes) != int(lengths.sum()):
-        raise PackError("port names of another length than the pack says")
-    far: list[str | None] | None = None
-    far_port: list[str | None] | None = None
-    if directory.neighbors:
-        far, at = _read_strings(body, names_end, rows)
-        far_port, at = _read_strings(body, at, rows)
-        names_end = at
-    extra = _read_extra(directory.extra, bytes(body[names_end:]), rows) if directory.extra else {}
-    if not directory.extra and names_end != len(body):
-        raise PackError("a pack longer than its header says")
-    ends = np.cumsum(lengths)
-    starts = ends - lengths
-    try:
-        ports = [
-            names_bytes[s:e].decode() for s, e in zip(starts.tolist(), ends.tolist(), strict=True)
-        ]
-    except UnicodeDecodeError as exc:
-        raise PackError(f"port names that are not UTF-8: {exc}") from None
+    csum = np.concatenate([[0], np.cumsum(out.lengths, dtype=np.int64)])
+    name_bytes = (csum[ends] - csum[starts]).tolist()
+    words = _Words()
+    for k, (rows, directory, body) in enumerate(opened):
+        lengths = out.lengths[starts[k] : ends[k]]
+        at = words.ports(body, fixed[k], fixed[k] + name_bytes[k], lengths)
+        if directory.neighbors:
+            at = words.far_ends(body, at, rows)
+        else:
+            words.no_far_ends(rows)
+        if directory.extra:
+            words.extra(directory.extra, bytes(body[at:]), rows)
+        elif at != len(body):
+            raise PackError("a pack longer than its header says")
+        else:
+            words.no_extra(rows)
+    total = len(out.time)
+    neighbors = any(directory.neighbors for _, directory, _ in opened)
     return PollTable.from_columns(
-        device=np.full(rows, device, dtype=object),
-        port=ports,
-        time=time.astype(np.float64),
-        oper_status=np.array(STATUSES, dtype=object)[status],
-        state=state,
-        optics=optics,
-        counters=counters,
-        present=present,
-        neighbor_device=far,
-        neighbor_port=far_port,
-        extra=extra,
+        device=np.repeat(np.array(devices, dtype=object), counts),
+        port=np.fromiter(chain.from_iterable(words.port), dtype=object, count=total),
+        time=out.time,
+        oper_status=np.array(STATUSES, dtype=object)[out.status],
+        state={k: out.reading(f"state.{k}") for k in STATE_FIELDS},
+        optics={k: out.reading(f"optics.{k}") for k in OPTICS_FIELDS},
+        counters=out.counters,
+        present=out.present,
+        neighbor_device=words.column(words.far_device, total) if neighbors else None,
+        neighbor_port=words.column(words.far_port, total) if neighbors else None,
+        extra={name: words.column(parts, total) for name, parts in words.extras.items()},
     )
+
+
+@dataclass(slots=True)
+class _Columns:
+    """The fixed-size columns of many packs, filled a group of packs laid out alike at a
+    time."""
+
+    lengths: npt.NDArray[np.uint32]
+    time: npt.NDArray[np.float64]
+    status: npt.NDArray[np.uint8]
+    counters: npt.NDArray[np.uint64]
+    present: npt.NDArray[np.bool_]
+    readings: dict[str, npt.NDArray[np.float64]]  # by pack name, only those some pack holds
+
+    @classmethod
+    def sized(cls, rows: int) -> _Columns:
+        return cls(
+            lengths=np.empty(rows, np.uint32),
+            time=np.empty(rows, np.float64),
+            status=np.empty(rows, np.uint8),
+            counters=np.zeros((rows, len(COLUMNS)), np.uint64),
+            present=np.zeros((rows, len(COLUMNS)), np.bool_),
+            readings={},
+        )
+
+    def reading(self, name: str) -> npt.NDArray[np.float64]:
+        """A reading column; one no pack holds is "not reported" throughout, at no cost."""
+        column = self.readings.get(name)
+        return unread_column(len(self.time)) if column is None else column
+
+    def read_alike(
+        self, directory: Directory, rows: int, bodies: list[memoryview], at: npt.NDArray[np.intp]
+    ) -> int:
+        """Read the packs ``bodies``, each of ``rows`` rows under ``directory``, into the
+        rows ``at`` (theirs, one pack after the other); returns where their names begin."""
+        planes = _Planes.of(bodies, directory, rows)
+        self.lengths[at] = planes.take(np.uint32, rows).ravel()
+        self.time[at] = planes.take(np.float64, rows).ravel()
+        self.status[at] = planes.take(np.uint8, rows).ravel()
+        for names, dtype in ((directory.wide, np.uint64), (directory.narrow, np.uint32)):
+            block = planes.take(dtype, rows * len(names)).reshape(len(at), len(names))
+            kept, columns = _counter_places(names)
+            if columns.size:
+                self.counters[np.ix_(at, columns)] = block[:, kept]
+        bits = rows * len(directory.present)
+        packed = planes.take(np.uint8, (bits + 7) // 8)
+        flags = np.unpackbits(packed, axis=1, count=bits).reshape(len(at), len(directory.present))
+        kept, columns = _counter_places(directory.present)
+        if columns.size:
+            self.present[np.ix_(at, columns)] = flags[:, kept].astype(np.bool_)
+        for name in directory.readings:
+            values = planes.take(np.float64, rows).ravel()
+            if name not in _READING_NAMES:
+                _tell_unknown(name)
+                continue
+            column = self.readings.get(name)
+            if column is None:
+                column = self.readings[name] = np.full(len(self.time), np.nan)
+            column[at] = values
+        return planes.at
+
+
+#: Every reading column a pack may name that this release places.
+_READING_NAMES = frozenset(
+    [*(f"state.{k}" for k in STATE_FIELDS), *(f"optics.{k}" for k in OPTICS_FIELDS)]
+)
+
+
+@dataclass(slots=True)
+class _Planes:
+    """The fixed-size part of packs laid out alike (one directory, one row count), a pack
+    a row, read an array at a time for every pack at once."""
+
+    raw: npt.NDArray[np.uint8]  # shape (packs, bytes)
+    at: int = 0
+
+    @classmethod
+    def of(cls, bodies: list[memoryview], directory: Directory, rows: int) -> _Planes:
+        counters = 8 * len(directory.wide) + 4 * len(directory.narrow)
+        bits = rows * len(directory.present)
+        size = rows * (4 + 8 + 1 + counters + 8 * len(directory.readings)) + (bits + 7) // 8
+        if any(len(body) < size for body in bodies):
+            raise PackError("a pack shorter than its header says")
+        raw = np.frombuffer(b"".join(body[:size] for body in bodies), np.uint8)
+        return cls(raw.reshape(len(bodies), size))
+
+    def take(self, dtype: type[np.generic], count: int) -> npt.NDArray[Any]:
+        """The next array of ``count`` values of every pack, shape (packs, count): each
+        pack's byte planes put back together (see :func:`_shuffled`)."""
+        size = np.dtype(dtype).itemsize
+        planes = self.raw[:, self.at : self.at + size * count]
+        self.at += size * count
+        if size == 1:
+            return planes.view(dtype)
+        packs = len(self.raw)
+        values = np.ascontiguousarray(planes.reshape(packs, size, count).transpose(0, 2, 1))
+        return values.view(dtype).reshape(packs, count)
+
+
+@dataclass(slots=True)
+class _Words:
+    """The names and word columns of many packs, pack by pack; each distinct run of bytes
+    is decoded once (a device's polls name the same ports and far ends)."""
+
+    port: list[Sequence[str]] = field(default_factory=list)
+    far_device: list[Iterable[str | None]] = field(default_factory=list)
+    far_port: list[Iterable[str | None]] = field(default_factory=list)
+    extras: dict[str, list[Iterable[object]]] = field(default_factory=dict)
+    rows: list[int] = field(default_factory=list)  # each pack's rows, as its ports come
+    packs: int = 0  # packs whose extra columns are in
+    ports_of: dict[bytes, list[str]] = field(default_factory=dict)
+    far_ends_of: dict[bytes, tuple[list[str | None], list[str | None]]] = field(
+        default_factory=dict
+    )
+    extras_of: dict[tuple[tuple[str, ...], int, bytes], dict[str, list[object]]] = field(
+        default_factory=dict
+    )
+
+    def ports(self, body: memoryview, at: int, end: int, lengths: npt.NDArray[np.uint32]) -> int:
+        """A pack's port names, from ``at`` to ``end``; returns ``end``."""
+        data = bytes(body[at:end])
+        if len(data) != end - at:
+            raise PackError("port names of another length than the pack says")
+        key = lengths.tobytes() + data
+        names = self.ports_of.get(key)
+        if names is None:
+            stops = np.cumsum(lengths).tolist()
+            try:
+                names = [data[a:b].decode() for a, b in zip([0, *stops][:-1], stops, strict=True)]
+            except UnicodeDecodeError as exc:
+                raise PackError(f"port names that are not UTF-8: {exc}") from None
+            self.ports_of[key] = names
+        self.port.append(names)
+        self.rows.append(len(lengths))
+        return end
+
+    def far_ends(self, body: memoryview, at: int, rows: int) -> int:
+        """A pack's far-end names from ``at`` (see :func:`_strings`); returns where they end."""
+        end = _strings_end(body, _strings_end(body, at, rows), rows)
+        key = bytes(body[at:end])
+        names = self.far_ends_of.get(key)
+        if names is None:
+            device, middle = _read_strings(body, at, rows)
+            port, _ = _read_strings(body, middle, rows)
+            names = self.far_ends_of[key] = (device, port)
+        self.far_device.append(names[0])
+        self.far_port.append(names[1])
+        return end
+
+    def no_far_ends(self, rows: int) -> None:
+        self.far_device.append(repeat(None, rows))
+        self.far_port.append(repeat(None, rows))
+
+    def extra(self, names: tuple[str, ...], data: bytes, rows: int) -> None:
+        """A pack's word and list columns (the JSON that ends its body)."""
+        key = (names, rows, data)
+        columns = self.extras_of.get(key)
+        if columns is None:
+            columns = self.extras_of[key] = _read_extra(names, data, rows)
+        for name, values in columns.items():
+            parts = self.extras.get(name)
+            if parts is None:  # not carried by the packs before
+                parts = self.extras[name] = [repeat(None, r) for r in self.rows[: self.packs]]
+            parts.append(values)
+        self.no_extra(rows)
+
+    def no_extra(self, rows: int) -> None:
+        """Close a pack's extra columns: those it does not carry, "not carried"."""
+        self.packs += 1
+        for parts in self.extras.values():
+            if len(parts) < self.packs:
+                parts.append(repeat(None, rows))
+
+    @staticmethod
+    def column(parts: Sequence[Iterable[object]], rows: int) -> npt.NDArray[np.object_]:
+        """Parts one after the other as an object column (tuples kept whole)."""
+        return np.fromiter(chain.from_iterable(parts), dtype=object, count=rows)
+
+
+def _strings_end(body: memoryview, at: int, rows: int) -> int:
+    """Where names written by :func:`_strings` from ``at`` end."""
+    if at + 4 * rows > len(body):
+        raise PackError("a pack shorter than its header says")
+    lengths = np.frombuffer(body[at : at + 4 * rows], np.uint32)
+    return at + 4 * rows + int(lengths[lengths != _NONE].sum())
 
 
 def _tupled(value: object) -> object:

@@ -105,7 +105,7 @@ _READINGS = ("state.", "optics.")
 _NOT_REPORTED = np.full(1, np.nan)
 
 
-def _unread_column(n: int) -> FloatArray:
+def unread_column(n: int) -> FloatArray:
     """A read-only column of ``n`` readings "not reported" that takes no memory: one value
     seen ``n`` times (a stride of zero), for a column no row carries."""
     column: FloatArray = np.broadcast_to(_NOT_REPORTED, (n,))
@@ -116,7 +116,7 @@ def picked(column: FloatArray, rows: npt.NDArray[np.intp] | npt.NDArray[np.bool_
     """``column[rows]``; a column of "not reported" throughout stays one, at no cost."""
     if column.strides == (0,):
         n = int(np.count_nonzero(rows)) if rows.dtype == np.bool_ else len(rows)
-        return _unread_column(n)
+        return unread_column(n)
     taken: FloatArray = column[rows]
     return taken
 
@@ -282,7 +282,7 @@ class PollTable:
             return cls.empty()
         for column in columns.values():
             column.resize((rows, *column.shape[1:]), refcheck=False)
-        unread = _unread_column(rows)
+        unread = unread_column(rows)
         return cls(
             device=np.array(names["device"], object),
             port=np.array(names["port"], object),
