@@ -4,18 +4,24 @@ simulated time."""
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import pytest
 
 from linktriage.bot import poller
 from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
-from linktriage.network.demo import DemoClock
+from linktriage.engine.format.poll_table import PollTable
+from linktriage.errors import PollError
+from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.render.replies import (
     DiagnosisReply,
 )
+from linktriage.settings import Settings
+from linktriage.store import Store
 
-from helpers import line, polls
+from helpers import line, named, polls
 
 
 def test_a_port_with_no_history_gets_two_polls_a_quick_window_apart(triage: Triage) -> None:
@@ -100,23 +106,84 @@ def test_the_poll_job_forgets_polls_older_than_the_settings_keep(
     assert history.oldest is not None and history.oldest >= clock() - kept_h * 3600.0
 
 
+class Missed(DemoNetwork):
+    """The demo network, with switches that do not answer (``down``), counting the polls
+    it is asked for."""
+
+    def __init__(self, clock: DemoClock) -> None:
+        super().__init__(clock=clock)
+        self.down: set[str] = set()
+        self.polled: list[str] = []
+
+    def poll(self, device: str, ports: Sequence[str] | None = None) -> PollTable:
+        self.polled.append(device)
+        if device in self.down:
+            raise PollError(device, "no answer within 2 s")
+        return super().poll(device, ports)
+
+
+def rounds(triage: Triage, clock: DemoClock, n: int = 3) -> None:
+    """The poll job, every five minutes."""
+    for _ in range(n):
+        triage.poller.poll_round()
+        clock.sleep(300.0)
+
+
 def test_stored_polls_read_by_device_or_by_window_are_the_same(
     triage: Triage, clock: DemoClock, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    for _ in range(3):
-        triage.poller.poll_round()
-        clock.sleep(300.0)
+    rounds(triage, clock)
     devices = triage.network.device_names()[:3]
     since = clock() - 900.0
     by_index = triage.poller._stored(devices, since)
     monkeypatch.setattr(poller, "FEW_DEVICES", 0)  # as for a network of many devices
     by_window = triage.poller._stored(devices, since)
-    assert sorted(by_index) == sorted(by_window) == sorted(devices)
-    for device in devices:
-        a, b = by_index[device], by_window[device]
-        assert len(a) == 3 * len(triage.network.ports_of(device))
-        order_a, order_b = np.lexsort((a.time, a.port)), np.lexsort((b.time, b.port))
-        np.testing.assert_array_equal(a.counters[order_a], b.counters[order_b])
+    assert sorted(set(by_index.device.tolist())) == sorted(devices)
+    assert len(by_index) == 3 * sum(len(triage.network.ports_of(d)) for d in devices)
+    assert named(by_index) == named(
+        by_window.take(np.flatnonzero(np.isin(by_window.device, devices)))
+    )
+
+
+@pytest.mark.parametrize("few", [poller.FEW_DEVICES, 0])
+def test_a_digest_takes_the_stored_polls_of_the_ports_asked_about_and_polls_none_again(
+    store: Store, model: Model, clock: DemoClock, monkeypatch: pytest.MonkeyPatch, few: int
+) -> None:
+    monkeypatch.setattr(poller, "FEW_DEVICES", few)  # found by device, or all read at once
+    network = Missed(clock)
+    triage = Triage(network, store, model, Settings(), clock=clock, sleep=clock.sleep)
+    rounds(triage, clock)
+    network.polled.clear()
+    refs = network.ports()
+    polls, failed = triage.poller.polls_for(refs, fresh=False)
+    assert failed == {} and network.polled == []
+    assert named(polls) == named(store.polls_since(clock() - triage.settings.chat.recent_poll_s))
+    some = [r for r in refs if r.device == "lark-east-idf2"][:2] + refs[-1:]
+    polls, _ = triage.poller.polls_for(some, fresh=False)
+    assert network.polled == [] and len(polls) == 3 * len(some)
+    assert set(zip(polls.device, polls.port, strict=True)) == {(r.device, r.port) for r in some}
+
+
+def test_a_digest_polls_only_the_device_the_poll_job_missed_and_waits_for_it(
+    store: Store, model: Model, clock: DemoClock
+) -> None:
+    network = Missed(clock)
+    waited: list[float] = []
+    triage = Triage(network, store, model, Settings(), clock=clock,
+                    sleep=lambda s: (waited.append(s), clock.sleep(s))[1])  # fmt: skip
+    network.down.add("lark-west-idf1")
+    rounds(triage, clock)
+    network.down.clear()  # it answers again
+    network.polled.clear()
+    polls, failed = triage.poller.polls_for(network.ports(), fresh=False)
+    assert failed == {}
+    assert network.polled == ["lark-west-idf1"] * 2  # a first poll, and one a window later
+    assert waited == [triage.settings.chat.quick_window_s]
+    west = polls.device == "lark-west-idf1"
+    assert int(west.sum()) == 2 * len(network.ports_of("lark-west-idf1"))
+    assert int((~west).sum()) == 3 * (
+        len(network.ports()) - len(network.ports_of("lark-west-idf1"))
+    )
 
 
 def test_a_port_that_hears_no_lldp_is_found_by_the_port_that_names_it(triage: Triage) -> None:

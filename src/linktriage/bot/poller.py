@@ -8,6 +8,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
+import numpy.typing as npt
 
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.links import lldp_key
@@ -81,20 +82,22 @@ class Poller:
         recalled = self.network.history(wanted, since)
         failed = dict(recalled.failed)
         for device, table in recalled.tables.items():
-            short[device] = _short_of(table, wanted[device], now, quick, absent=False)
+            reach = _Reach.of(table, {device: wanted[device]}, now, quick, absent=False)
+            short[device] = reach.short.get(device, {})
             if not short[device]:
                 tables.append(table)
-        others = [d for d in wanted if d not in recalled.tables and d not in failed]
-        stored = self._stored(others, since)
+        others = {
+            d: ports for d, ports in wanted.items() if d not in recalled.tables and d not in failed
+        }
+        stored = self._stored(list(others), since)
+        reach = _Reach.of(stored, others, now, quick, absent=True)
+        tables.append(stored if len(reach.rows) == len(stored) else stored.take(reach.rows))
         to_poll: dict[str, list[str] | None] = {}
-        for device in others:
-            kept = stored.get(device, PollTable.empty())
-            kept = kept.take(np.flatnonzero(np.isin(kept.port, wanted[device])))
-            tables.append(kept)
-            if not fresh and _spans(kept, wanted[device], quick):
+        for device, ports in others.items():
+            if not fresh and device in reach.spanning:
                 continue
-            short[device] = _short_of(kept, wanted[device], now, quick, absent=True)
-            to_poll[device] = wanted[device]
+            short[device] = reach.short.get(device, {})
+            to_poll[device] = ports
         failed.update(self._poll_into(tables, to_poll))
         young = {d: list(waits) for d, waits in short.items() if waits and d not in failed}
         if young:
@@ -106,19 +109,19 @@ class Poller:
             failed.update(again.failed)
             retry = {d: ps for d, ps in young.items() if d not in recalled.tables}
             failed.update(self._poll_into(tables, dict(retry)))
-        return PollTable.concat(tables), failed
+        answered = [table for table in tables if len(table)]
+        # One table (a digest's stored polls, as a rule) is handed on as it is, not copied.
+        return (answered[0] if len(answered) == 1 else PollTable.concat(answered)), failed
 
-    def _stored(self, devices: list[str], since: float) -> dict[str, PollTable]:
-        """The stored polls of these devices since ``since``, by device: a few devices'
-        found by their index, many devices' in one read of every poll since then."""
+    def _stored(self, devices: list[str], since: float) -> PollTable:
+        """The stored polls of these devices since ``since`` (maybe of others too): a few
+        devices' found by their index, many devices' in one read of every poll since
+        then."""
         if not devices:
-            return {}
-        wanted = set(devices)
+            return PollTable.empty()
         if len(devices) <= FEW_DEVICES:
-            found = self.store.polls_since(since, devices=devices)
-        else:
-            found = self.store.polls_since(since)
-        return {name: rows for name, rows in found.by_device() if name in wanted}
+            return self.store.polls_since(since, devices=devices)
+        return self.store.polls_since(since)
 
     def _poll_into(
         self, tables: list[PollTable], wanted: dict[str, list[str] | None]
@@ -158,50 +161,54 @@ class Poller:
 
 
 @dataclass(frozen=True, slots=True)
-class _History:
-    """Each port's polls in a table: how many, the oldest and the newest time."""
+class _Reach:
+    """How far back a table's polls reach for the ports asked about, worked out for every
+    port at once (a digest asks about every port of the network)."""
 
-    counts: dict[str, int]
-    oldest: dict[str, float]
-    newest: dict[str, float]
+    rows: npt.NDArray[np.intp]  # the rows of the ports asked about
+    #: Devices each of whose ports asked about has two polls or more, ``quick`` seconds apart.
+    spanning: frozenset[str]
+    #: The ports whose polls reach back less than ``quick`` seconds, with how long to wait
+    #: until they do (device -> port -> seconds).
+    short: dict[str, dict[str, float]]
 
     @classmethod
-    def of(cls, table: PollTable) -> _History:
-        names, which = np.unique(table.port.astype(str), return_inverse=True)
-        oldest = np.full(len(names), np.inf)
-        newest = np.full(len(names), -np.inf)
-        np.minimum.at(oldest, which, table.time)
-        np.maximum.at(newest, which, table.time)
-        counts = np.bincount(which, minlength=len(names))
-        keys = names.tolist()
+    def of(
+        cls,
+        table: PollTable,
+        wanted: dict[str, list[str]],
+        now: float,
+        quick: float,
+        *,
+        absent: bool,
+    ) -> _Reach:
+        """The reach of ``table`` for the ports ``wanted`` (device -> ports) at ``now``;
+        a port without polls is short only if ``absent`` (a source that keeps history and
+        has none for a port will not after a wait either)."""
+        keys = list(dict.fromkeys((d, p) for d, ports in wanted.items() for p in ports))
+        number = {key: n for n, key in enumerate(keys)}.get
+        pairs = zip(table.device.tolist(), table.port.tolist(), strict=True)
+        codes = np.fromiter((number(pair, -1) for pair in pairs), np.intp, len(table))
+        rows = np.flatnonzero(codes >= 0)
+        codes, times = codes[rows], table.time[rows]
+        counts = np.bincount(codes, minlength=len(keys))
+        oldest = np.full(len(keys), np.inf)
+        newest = np.full(len(keys), -np.inf)
+        np.minimum.at(oldest, codes, times)
+        np.maximum.at(newest, codes, times)
+        spans = (counts >= 2) & (newest - oldest >= quick)
+        devices = list(wanted)
+        device_of = {d: k for k, d in enumerate(devices)}
+        key_device = np.array([device_of[d] for d, _ in keys], np.intp)
+        unspanned = np.bincount(key_device[~spans], minlength=len(devices))
+        seen = counts > 0
+        waits = np.where(seen, quick - (now - oldest), quick)
+        short: dict[str, dict[str, float]] = {}
+        for k in np.flatnonzero(np.where(seen, waits > 0, absent)).tolist():
+            device, port = keys[k]
+            short.setdefault(device, {})[port] = float(waits[k])
         return cls(
-            dict(zip(keys, counts.tolist(), strict=True)),
-            dict(zip(keys, oldest.tolist(), strict=True)),
-            dict(zip(keys, newest.tolist(), strict=True)),
+            rows,
+            frozenset(d for d, n in zip(devices, unspanned.tolist(), strict=True) if not n),
+            short,
         )
-
-
-def _spans(table: PollTable, ports: list[str], quick: float) -> bool:
-    """Whether every port has two polls or more in ``table``, spanning ``quick`` seconds."""
-    seen = _History.of(table)
-    return all(
-        seen.counts.get(port, 0) >= 2 and seen.newest[port] - seen.oldest[port] >= quick
-        for port in ports
-    )
-
-
-def _short_of(
-    table: PollTable, ports: list[str], now: float, quick: float, *, absent: bool
-) -> dict[str, float]:
-    """Ports whose history in ``table`` reaches back less than ``quick`` seconds from
-    ``now``, with how long to wait until it does; ports with none count only if
-    ``absent`` (a source that keeps history and has none for a port will not after a
-    wait either)."""
-    oldest = _History.of(table).oldest
-    short: dict[str, float] = {}
-    for port in ports:
-        if port in oldest and now - oldest[port] < quick:
-            short[port] = quick - (now - oldest[port])
-        elif port not in oldest and absent:
-            short[port] = quick
-    return short
