@@ -185,10 +185,21 @@ class _Reach:
         """The reach of ``table`` for the ports ``wanted`` (device -> ports) at ``now``;
         a port without polls is short only if ``absent`` (a source that keeps history and
         has none for a port will not after a wait either)."""
-        keys = list(dict.fromkeys((d, p) for d, ports in wanted.items() for p in ports))
-        number = {key: n for n, key in enumerate(keys)}.get
+        numbers: dict[str, dict[str, int]] = {}  # device -> port -> its number
+        keys: list[tuple[str, str]] = []  # by number: the port
+        key_device: list[int] = []  # by number: its device's place in ``wanted``
+        for k, (device, ports) in enumerate(wanted.items()):
+            mine = numbers[device] = {}
+            for port in ports:
+                if port not in mine:
+                    mine[port] = len(keys)
+                    keys.append((device, port))
+                    key_device.append(k)
+        none: dict[str, int] = {}
         pairs = zip(table.device.tolist(), table.port.tolist(), strict=True)
-        codes = np.fromiter((number(pair, -1) for pair in pairs), np.intp, len(table))
+        codes = np.fromiter(
+            (numbers.get(d, none).get(p, -1) for d, p in pairs), np.intp, len(table)
+        )
         rows = np.flatnonzero(codes >= 0)
         codes, times = codes[rows], table.time[rows]
         counts = np.bincount(codes, minlength=len(keys))
@@ -197,10 +208,7 @@ class _Reach:
         np.minimum.at(oldest, codes, times)
         np.maximum.at(newest, codes, times)
         spans = (counts >= 2) & (newest - oldest >= quick)
-        devices = list(wanted)
-        device_of = {d: k for k, d in enumerate(devices)}
-        key_device = np.array([device_of[d] for d, _ in keys], np.intp)
-        unspanned = np.bincount(key_device[~spans], minlength=len(devices))
+        unspanned = np.bincount(np.array(key_device, np.intp)[~spans], minlength=len(wanted))
         seen = counts > 0
         waits = np.where(seen, quick - (now - oldest), quick)
         short: dict[str, dict[str, float]] = {}
@@ -209,6 +217,6 @@ class _Reach:
             short.setdefault(device, {})[port] = float(waits[k])
         return cls(
             rows,
-            frozenset(d for d, n in zip(devices, unspanned.tolist(), strict=True) if not n),
+            frozenset(d for d, n in zip(wanted, unspanned.tolist(), strict=True) if not n),
             short,
         )
