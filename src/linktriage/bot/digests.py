@@ -16,6 +16,7 @@ from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, NOT_JUDGED, SEVERITY
 from linktriage.errors import AmbiguousNameError, CommandError
+from linktriage.gc_pause import gc_paused
 from linktriage.network.watched import Network, fitting
 from linktriage.render import words
 from linktriage.render.replies import SuspectItem, SuspectsReply
@@ -58,6 +59,12 @@ class Digests:
         """The suspect links of a site (default: everywhere), ranked by severity; without
         ``fresh``, from the stored polls where they already make a window."""
         scope = self.scope(site)
+        with gc_paused():  # every port's refs, polls and answers: many small acyclic objects
+            return self._suspects(scope, channel=channel, kind=kind, fresh=fresh)
+
+    def _suspects(
+        self, scope: Scope, *, channel: str | None, kind: str, fresh: bool
+    ) -> SuspectsReply:
         refs = [r for r in self.network.ports() if scope.covers(r.device, r.site)]
         polls, failed = self.poller.polls_for(refs, fresh=fresh)
         # Devices whose ports could not even be listed are not read either.
@@ -109,12 +116,15 @@ class Digests:
         current = self.suspects(channel=channel, kind="digest", fresh=False)
         before = {(i["device"], i["port"]) for i in previous.items} if previous else set()
         now = {(i.record["device"], i.record["port"]) for i in current.items}
-        items = [
-            replace(
-                i, new=previous is not None and (i.record["device"], i.record["port"]) not in before
-            )
-            for i in current.items
-        ]
+        with gc_paused():  # a copy of every suspect (see suspects)
+            items = [
+                replace(
+                    i,
+                    new=previous is not None
+                    and (i.record["device"], i.record["port"]) not in before,
+                )
+                for i in current.items
+            ]
         # Kept only once posted (see posted): a digest that never reached its channel is
         # not done, and is caught up.
         return SuspectsReply(
