@@ -15,7 +15,8 @@ Only counter columns some row reports are kept, a column whose values all fit 32
 bytes, and only readings some row carries. Each array's bytes are shuffled (byte planes
 together, so the zero high bytes of counters run together) before the whole is compressed
 with zlib: about 150 bytes per port per poll, where a JSON line took about 1 KB. A pack
-unpacks to the very table it was made from.
+unpacks to the very table it was made from; many packs (a digest reads thousands) unpack at
+once to the table of each in turn (:func:`unpack_many`).
 
 Formats 1 and 2 (the first releases) named nothing: bit ``i`` of their header meant the
 ``i``-th counter of the catalogue as it stood then. They are read through that catalogue,
