@@ -22,6 +22,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Literal
 
+import msgspec
 import numpy as np
 import sqlalchemy as sa
 from sqlalchemy.engine import Connection, Engine
@@ -442,6 +443,10 @@ class Digest:
     items: list[dict[str, Any]]
 
 
+#: Answers are kept as JSON text, encoded as ``diagnose --json`` encodes them (msgspec:
+#: a digest keeps thousands at once).
+_encode_json = msgspec.json.Encoder().encode
+
 #: How keeping a label went (:meth:`Store.add_label`).
 LabelKept = Literal["stored", "repeat", "raced"]
 
@@ -783,8 +788,8 @@ class Store:
                 "verdict": a.record["verdict"],
                 "confidence": a.record["confidence"],
                 "model_version": a.record["model_version"],
-                "features": json.dumps(a.features),
-                "record": json.dumps(a.record),
+                "features": _encode_json(a.features).decode(),
+                "record": _encode_json(a.record).decode(),
                 "origin": a.origin,
                 "asked_by": a.asked_by,
                 "channel": a.channel,
