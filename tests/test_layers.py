@@ -51,7 +51,7 @@ def test_every_arrow_of_the_house_points_down() -> None:
         ("engine/measure/window.py", "linktriage.render.words"),
         ("engine/measure/window.py", "linktriage.engine.physics"),  # inside the engine
         ("engine/format/counters.py", "linktriage.engine.format.snapshot"),  # inside a part
-        ("store.py", "linktriage.bot.triage"),  # the store reaching the bot
+        ("store/__init__.py", "linktriage.bot.triage"),  # the store reaching the bot
         ("render/blocks.py", "linktriage.transports.slack"),  # a drawer reaching a transport
         ("network/watched.py", "linktriage.network.inventory_network"),  # inside a folder
     ],

@@ -3,8 +3,7 @@
 from __future__ import annotations
 
 from linktriage.engine.model.features import FEATURE_NAMES
-from linktriage.engine.model.labels import label_frame, settle
-from linktriage.store import Label
+from linktriage.engine.model.labels import Label, label_frame, settle
 
 
 def label(n: int, answer: int, user: str, verdict: str) -> Label:

@@ -10,12 +10,12 @@ import pytest
 from linktriage.bot.triage import Triage
 from linktriage.engine.model.artefact import TreeArtefact
 from linktriage.engine.model.features import FEATURE_NAMES
+from linktriage.engine.model.labels import Label
 from linktriage.engine.model.learning import Outcome, labelled_rows, learn, split
 from linktriage.engine.model.registry import Entry, Registry
 from linktriage.engine.model.train import TrainingConfig
 from linktriage.errors import InputError, ModelError
 from linktriage.render.replies import DiagnosisReply
-from linktriage.store import Label
 
 SMALL = TrainingConfig(simulated_ports=3000, candidate_alphas=6, seed=4)
 

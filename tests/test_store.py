@@ -30,16 +30,14 @@ from linktriage.outbox import Outbox, Outgoing
 from linktriage.settings import Settings
 from linktriage.store import (
     JOBS_LEASE,
-    MIGRATIONS,
     NewAnswer,
     PollHistory,
     Store,
-    diagnoses_table,
     inspect_store,
     masked_url,
-    polls_table,
-    schema_version_table,
 )
+from linktriage.store.migrations import MIGRATIONS
+from linktriage.store.schema import diagnoses_table, polls_table, schema_version_table
 
 from helpers import line, named, package_copy, polls, run_in_copy
 

@@ -18,7 +18,8 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from linktriage.store import Store, diagnoses_table, digests_table, outbox_table
+from linktriage.store import Store
+from linktriage.store.schema import diagnoses_table, digests_table, outbox_table
 
 #: The lease a replica holds while it sends to one channel (see :meth:`Outbox.channel_lease`).
 CHANNEL_LEASE_PREFIX = "outbox:"
