@@ -32,10 +32,19 @@ class SlowOptions(Options):
 
 
 class HangingCollector(Collector[SlowOptions]):
-    """A device that never answers."""
+    """A device that never answers. It counts its tries, how many were cut short (given up
+    on at their deadline rather than waited out) and the most in flight at once, so tests
+    hold how waiting behaves without timing it."""
 
     needs_address = False
     calls: int = 0
+    cut_short: int = 0
+    in_flight: int = 0
+    most_in_flight: int = 0
+
+    @classmethod
+    def reset(cls) -> None:
+        cls.calls = cls.cut_short = cls.in_flight = cls.most_in_flight = 0
 
     async def ports(self) -> list[str]:
         await asyncio.sleep(3600)
@@ -43,8 +52,17 @@ class HangingCollector(Collector[SlowOptions]):
 
     async def read(self, ports: Sequence[str] | None = None) -> Reading:
         async def attempt() -> Reading:
-            type(self).calls += 1
-            await asyncio.sleep(self.options.seconds)
+            counts = type(self)
+            counts.calls += 1
+            counts.in_flight += 1
+            counts.most_in_flight = max(counts.most_in_flight, counts.in_flight)
+            try:
+                await asyncio.sleep(self.options.seconds)
+            except asyncio.CancelledError:
+                counts.cut_short += 1
+                raise
+            finally:
+                counts.in_flight -= 1
             return Reading([])
 
         return await self.retrying(attempt, "a read")

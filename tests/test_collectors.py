@@ -92,7 +92,7 @@ def test_a_collector_names_its_options_model_as_its_type_parameter() -> None:
 
 
 def test_timeouts_are_retried_with_backoff_then_named(monkeypatch: pytest.MonkeyPatch) -> None:
-    plugins.HangingCollector.calls = 0
+    plugins.HangingCollector.reset()
     collector = plugins.HangingCollector(Target("lark-slow", None, {}, timeout_s=0.05, retries=2))
     with pytest.raises(
         DeviceTimeoutError, match=r"lark-slow: no answer to a read within 0.05 s \(3 tries\)"

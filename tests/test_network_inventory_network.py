@@ -4,7 +4,6 @@ and nothing ever sent to an address that chat text names."""
 from __future__ import annotations
 
 import socket
-import time
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -14,7 +13,7 @@ from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.errors import UnknownPortError
 from linktriage.network.inventory import DeviceEntry, Inventory, demo_inventory
-from linktriage.network.inventory_network import InventoryNetwork, deadline_s
+from linktriage.network.inventory_network import InventoryNetwork
 from linktriage.render.replies import DiagnosisReply, ErrorReply
 from linktriage.settings import ChatSettings, Settings
 from linktriage.store import Store
@@ -57,30 +56,36 @@ def test_every_device_is_read_in_one_round(closing: list[InventoryNetwork]) -> N
 def test_a_device_that_never_answers_costs_only_its_deadline(
     with_plugins: None, closing: list[InventoryNetwork]
 ) -> None:
+    # Issue 22: this was timed (took < deadline + 1 s) and failed under load. What it means
+    # is held instead: each try of the silent device is given up at its deadline, not
+    # waited out (it would answer in an hour), and the other devices are read all the same.
+    plugins.HangingCollector.reset()
     hang = DeviceEntry(name="lark-dead1", site="annex", collector="hang", ports=["p1"])
     network = network_of(hang)
     closing.append(network)
-    start = time.monotonic()
     gathered = network.poll_many(dict.fromkeys(network.device_names()))
-    took = time.monotonic() - start
     assert gathered.failed == {"lark-dead1": "no answer to a read within 0.2 s (2 tries)"}
     assert set(gathered.tables) == {d.name for d in demo_inventory().devices}
-    assert took < deadline_s(0.2, 1) + 1.0
+    assert plugins.HangingCollector.calls == 2  # a try and one retry
+    assert plugins.HangingCollector.cut_short == 2  # both given up, neither waited out
+    assert plugins.HangingCollector.in_flight == 0
 
 
 def test_many_dead_devices_are_waited_for_together_not_one_after_another(
     with_plugins: None, closing: list[InventoryNetwork]
 ) -> None:
+    plugins.HangingCollector.reset()
     dead = [
         DeviceEntry(name=f"lark-dead{n}", site="annex", collector="hang", ports=["p1"])
         for n in range(20)
     ]
     network = network_of(*dead, concurrency=32)
     closing.append(network)
-    start = time.monotonic()
     gathered = network.poll_many({d.name: None for d in dead})
     assert len(gathered.failed) == 20
-    assert time.monotonic() - start < 2 * deadline_s(0.2, 1)
+    # All twenty were being waited for at the same moment: together, not in turn.
+    assert plugins.HangingCollector.most_in_flight == 20
+    assert plugins.HangingCollector.cut_short == plugins.HangingCollector.calls == 40
 
 
 def test_refusals_and_malformed_ports_are_named(
