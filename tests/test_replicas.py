@@ -122,6 +122,11 @@ def digests_posted(emulator: SlackEmulator) -> int:
     )
 
 
+def recorded(emulator: SlackEmulator) -> int:
+    """Labels said to be recorded in a thread."""
+    return sum(1 for c in emulator.called("chat.postMessage") if "Recorded" in json.dumps(c.params))
+
+
 def holder_now(store: Store) -> str | None:
     return store.lease_holder(JOBS_LEASE, now=time.time())
 
@@ -193,12 +198,14 @@ def test_two_replicas_on_one_store_share_the_work_and_hand_it_over(
         for thread in presses:
             thread.join(timeout=60)
         assert codes == [200, 200]
-        wait_until("a label", lambda: len(store.labels()) >= 1)
-        time.sleep(2.0)  # the other press, had it been stored, would be by now
+        # Both presses answered: one recorded in the thread, the other told privately that
+        # it was already said.
+        wait_until("the second press answered", lambda: any(
+            "already said" in json.dumps(c.params) for c in emulator.called("chat.postEphemeral")
+        ))  # fmt: skip
+        wait_until("the first press recorded in the thread", lambda: recorded(emulator))
         assert len(store.labels()) == 1
-        recorded = [c for c in emulator.called("chat.postMessage")
-                    if "Recorded" in json.dumps(c.params)]  # fmt: skip
-        assert len(recorded) == 1
+        assert recorded(emulator) == 1
 
         # The replica running the jobs is killed; the other takes them over, and its first
         # act is the digest missed meanwhile (the last one was two days ago), posted once.
