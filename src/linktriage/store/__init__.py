@@ -35,6 +35,7 @@ from linktriage.store.opening import (
     engine_for,
     history_of,
     inspect_store,
+    lease_holder_in,
     masked_url,
     sqlite_pragmas,
 )
@@ -235,19 +236,7 @@ class Store:
         readers and the bot's writes are never held up for long, until none is left however
         far behind (a first run after a long stop, more devices than ever); returns how
         many rows were forgotten."""
-        forgotten = 0
-        while True:
-            with self.writing("forget old polls") as conn:
-                old = conn.execute(
-                    sa.select(polls_table.c.id, polls_table.c.ports)
-                    .where(polls_table.c.time < before)
-                    .order_by(polls_table.c.time)
-                    .limit(batch)
-                ).all()
-                if not old:
-                    return forgotten
-                conn.execute(polls_table.delete().where(polls_table.c.id.in_([r.id for r in old])))
-            forgotten += sum(r.ports for r in old)
+        return self._forget(polls_table, polls_table.c.time < before, batch, polls_table.c.ports)
 
     def forget_answers(self, before: float, *, batch: int = 1000) -> Forgotten:
         """Forget answers, lists of suspects, audit entries, sent messages and job runs
@@ -268,15 +257,25 @@ class Store:
             conn.execute(job_runs_table.delete().where(job_runs_table.c.due < before))
         return Forgotten(**counts)
 
-    def _forget(self, table: sa.Table, where: sa.ColumnElement[bool], batch: int) -> int:
+    def _forget(
+        self,
+        table: sa.Table,
+        where: sa.ColumnElement[bool],
+        batch: int,
+        rows_in: sa.Column[Any] | None = None,
+    ) -> int:
+        """Delete ``table``'s rows matching ``where``, ``batch`` per short transaction, until
+        none is left; returns how many were forgotten (the sum of ``rows_in`` where a row
+        stands for several, as a poll pack does)."""
+        weight = rows_in if rows_in is not None else sa.literal(1)
         forgotten = 0
         while True:
             with self.writing(f"forget old {table.name}") as conn:
-                ids = conn.execute(sa.select(table.c.id).where(where).limit(batch)).scalars().all()
-                if not ids:
+                old = conn.execute(sa.select(table.c.id, weight).where(where).limit(batch)).all()
+                if not old:
                     return forgotten
-                conn.execute(table.delete().where(table.c.id.in_(ids)))
-            forgotten += len(ids)
+                conn.execute(table.delete().where(table.c.id.in_([row[0] for row in old])))
+            forgotten += sum(int(row[1]) for row in old)
 
     def compact(self) -> None:
         """Give back the space a SQLite write-ahead log grew to (its pages are in the
@@ -377,31 +376,25 @@ class Store:
         of theirs the caller decided on). ``repeat``: the same event was stored already (a
         retry); ``raced``: another label of theirs took that turn since the caller read
         them (a second press, on another replica): read again and decide again."""
-        try:
-            with self.writing("keep the label") as conn:
-                conn.execute(
-                    labels_table.insert().values(
-                        at=at,
-                        diagnosis_id=diagnosis.id,
-                        device=diagnosis.device,
-                        port=diagnosis.port,
-                        verdict=verdict,
-                        model_verdict=diagnosis.verdict,
-                        model_version=diagnosis.model_version,
-                        features=json.dumps(diagnosis.features),
-                        note=note,
-                        user_id=user_id,
-                        channel=channel,
-                        source=source,
-                        event_key=event_key,
-                        turn=turn,
-                    )
-                )
-        except StoreError as exc:
-            if not isinstance(exc.__cause__, sa.exc.IntegrityError):
-                raise
-            return "repeat" if self.has_event(event_key) else "raced"
-        return "stored"
+        label = labels_table.insert().values(
+            at=at,
+            diagnosis_id=diagnosis.id,
+            device=diagnosis.device,
+            port=diagnosis.port,
+            verdict=verdict,
+            model_verdict=diagnosis.verdict,
+            model_version=diagnosis.model_version,
+            features=json.dumps(diagnosis.features),
+            note=note,
+            user_id=user_id,
+            channel=channel,
+            source=source,
+            event_key=event_key,
+            turn=turn,
+        )
+        if self._written("keep the label", lambda conn: conn.execute(label)):
+            return "stored"
+        return "repeat" if self.has_event(event_key) else "raced"
 
     def has_event(self, event_key: str) -> bool:
         """Whether a label from this event is stored (a retried delivery is not new)."""
@@ -538,26 +531,13 @@ class Store:
     def lease_holder(self, name: str, *, now: float) -> str | None:
         """Who holds a lease now, if anyone."""
         with self.reading("read a lease") as conn:
-            row = conn.execute(
-                sa.select(leases_table.c.holder).where(
-                    (leases_table.c.name == name) & (leases_table.c.expires_at >= now)
-                )
-            ).first()
-        return None if row is None else str(row.holder)
+            return lease_holder_in(conn, name, now=now)
 
     def claim_run(self, job: str, due: float, holder: str, *, now: float) -> bool:
         """Whether this run of ``job`` (the one due at ``due``) is ``holder``'s to do:
         False when any replica claimed it before. The primary key decides."""
-        try:
-            with self.engine.begin() as conn:
-                conn.execute(
-                    job_runs_table.insert().values(job=job, due=due, holder=holder, at=now)
-                )
-        except sa.exc.IntegrityError:
-            return False
-        except sa.exc.SQLAlchemyError as exc:
-            raise StoreError(f"Could not claim the {job} run: {exc}") from exc
-        return True
+        run = job_runs_table.insert().values(job=job, due=due, holder=holder, at=now)
+        return self._written(f"claim the {job} run", lambda conn: conn.execute(run))
 
     # --- signed requests
     def first_sight(self, signature: str, expires_at: float, now: float) -> bool:
@@ -565,19 +545,29 @@ class Store:
         (its signature recorded until ``expires_at``); False for a replay. The database's
         key decides, so two replicas that see it at once cannot both let it in."""
         seen = seen_requests_table
-        try:
-            with self.engine.begin() as conn:
-                conn.execute(seen.delete().where(seen.c.expires_at < now))
-                conn.execute(seen.insert().values(signature=signature, expires_at=expires_at))
-        except sa.exc.IntegrityError:
-            return False
-        except sa.exc.SQLAlchemyError as exc:
-            raise StoreError(f"Could not record a signed request: {exc}") from exc
-        return True
+
+        def record(conn: Connection) -> None:
+            conn.execute(seen.delete().where(seen.c.expires_at < now))
+            conn.execute(seen.insert().values(signature=signature, expires_at=expires_at))
+
+        return self._written("record a signed request", record)
 
     def writing(self, what: str) -> AbstractContextManager[Connection]:
         """A write transaction whose database errors become :class:`StoreError`."""
         return self._guarded(what, self.engine.begin)
+
+    def _written(self, what: str, write: Callable[[Connection], object]) -> bool:
+        """Whether ``write`` went through in one transaction: False when a key of the
+        database refused it (a row another replica, or an earlier delivery, put there
+        first); any other failure is a :class:`StoreError`."""
+        try:
+            with self.writing(what) as conn:
+                write(conn)
+        except StoreError as exc:
+            if isinstance(exc.__cause__, sa.exc.IntegrityError):
+                return False
+            raise
+        return True
 
     @contextmanager
     def _guarded(

@@ -88,12 +88,7 @@ def inspect_store(url: str) -> StoreState:
             history = history_of(conn) if tables.has_table(polls_table.name) else None
             holder, waiting = None, 0
             if tables.has_table(leases_table.name):
-                holder = conn.execute(
-                    sa.select(leases_table.c.holder).where(
-                        (leases_table.c.name == JOBS_LEASE)
-                        & (leases_table.c.expires_at >= time.time())
-                    )
-                ).scalar()
+                holder = lease_holder_in(conn, JOBS_LEASE, now=time.time())
             if tables.has_table(outbox_table.name):
                 waiting = conn.execute(
                     sa.select(sa.func.count()).where(outbox_table.c.state == "waiting")
@@ -110,6 +105,16 @@ def inspect_store(url: str) -> StoreState:
         raise StoreError(f"Cannot reach the store at {shown}: {first}") from exc
     finally:
         engine.dispose()
+
+
+def lease_holder_in(conn: Connection, name: str, *, now: float) -> str | None:
+    """Who holds the lease ``name`` at ``now``, if anyone."""
+    holder = conn.execute(
+        sa.select(leases_table.c.holder).where(
+            (leases_table.c.name == name) & (leases_table.c.expires_at >= now)
+        )
+    ).scalar()
+    return None if holder is None else str(holder)
 
 
 def history_of(conn: Connection) -> PollHistory:
