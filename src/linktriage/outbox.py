@@ -19,7 +19,12 @@ from typing import Any
 import sqlalchemy as sa
 
 from linktriage.store import Store
-from linktriage.store.schema import diagnoses_table, digests_table, outbox_table
+from linktriage.store.schema import (
+    attach_message,
+    diagnoses_table,
+    digests_table,
+    outbox_table,
+)
 
 #: The lease a replica holds while it sends to one channel (see :meth:`Outbox.channel_lease`).
 CHANNEL_LEASE_PREFIX = "outbox:"
@@ -160,11 +165,7 @@ class Outbox:
                 return
             for table, key in ((diagnoses_table, row.diagnosis_id), (digests_table, row.digest_id)):
                 if key is not None:
-                    conn.execute(
-                        table.update()
-                        .where(table.c.id == key)
-                        .values(channel=row.channel, message_ts=ts)
-                    )
+                    attach_message(conn, table, key, row.channel, ts)
 
     def later(self, message_id: int, not_before: float, why: str) -> None:
         """A message held back (a rate limit, an outage): tried again at ``not_before``."""

@@ -50,6 +50,7 @@ from linktriage.store.records import (
 )
 from linktriage.store.schema import (
     JOBS_LEASE,
+    attach_message,
     audit_table,
     diagnoses_table,
     digests_table,
@@ -323,11 +324,7 @@ class Store:
 
     def _attach(self, table: sa.Table, row_id: int, channel: str, message_ts: str) -> None:
         with self.writing("remember the message") as conn:
-            conn.execute(
-                table.update()
-                .where(table.c.id == row_id)
-                .values(channel=channel, message_ts=message_ts)
-            )
+            attach_message(conn, table, row_id, channel, message_ts)
 
     def diagnosis(self, diagnosis_id: int) -> StoredDiagnosis | None:
         return self._one_diagnosis(diagnoses_table.c.id == diagnosis_id)

@@ -8,6 +8,7 @@ and what replicas share: the signed requests seen, leases, job runs and the outb
 from __future__ import annotations
 
 import sqlalchemy as sa
+from sqlalchemy.engine import Connection
 
 metadata = sa.MetaData()
 
@@ -157,3 +158,13 @@ outbox_table = sa.Table(
     sa.Index("outbox_waiting", "state", "channel", "id"),
     sa.Index("outbox_by_time", "at"),
 )
+
+
+def attach_message(
+    conn: Connection, table: sa.Table, row_id: int, channel: str, message_ts: str
+) -> None:
+    """Note which chat message carries an answer or a list (``table``: diagnoses or
+    digests), in the caller's transaction, so replies in its thread find it."""
+    conn.execute(
+        table.update().where(table.c.id == row_id).values(channel=channel, message_ts=message_ts)
+    )
