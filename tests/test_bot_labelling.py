@@ -13,6 +13,7 @@ from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.render.replies import (
     DiagnosisReply,
+    Labelled,
     LabelRefused,
     LabelReply,
 )
@@ -32,55 +33,94 @@ def test_a_thread_reply_is_stored_once_then_acknowledged(triage: Triage) -> None
     text = "cable_fault, crushed patch cord behind the desk"
     first = triage.labels.reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="Ev1")
     assert first == LabelReply("U2", "lark-east-idf2", "port14", "cable_fault", "cable_fault",
-                               "crushed patch cord behind the desk", diagnosis_id=1)  # fmt: skip
+                               "crushed patch cord behind the desk", diagnosis_id=1,
+                               finding="a damaged patch cord or cable")  # fmt: skip
     retry = triage.labels.reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="Ev1")
     assert retry is None
     (label,) = triage.store.labels()
     assert label.user_id == "U2" and label.note == "crushed patch cord behind the desk"
+    assert (label.finding, label.verdict) == ("damaged_cord", "cable_fault")
 
 
-def test_confirming_twice_stores_one_label_and_tells_only_its_author(triage: Triage) -> None:
-    # Issue 8.8: a second press of Confirm stored a second label, weighted 20 times again.
+def test_picking_the_same_finding_twice_stores_one_label_and_tells_only_its_author(
+    triage: Triage,
+) -> None:
+    # A second press once stored a second label, weighted 20 times again.
     reply = _posted(triage, "lark-east-idf2 port14")
-    first = triage.labels.button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a1")
-    again = triage.labels.button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a2")
+    first = triage.labels.button(
+        reply.diagnosis_id, "bad_jack", user="U2", channel="C1", event_key="a1"
+    )
+    again = triage.labels.button(
+        reply.diagnosis_id, "bad_jack", user="U2", channel="C1", event_key="a2"
+    )
     assert isinstance(first, LabelReply)
     assert isinstance(again, LabelRefused) and again.visibility == "ephemeral"
-    assert "already said cable_fault" in again.message
+    assert "already said a bad jack, outlet or patch-panel port" in again.message
     assert len(triage.store.labels()) == 1
 
 
 def test_a_person_who_changes_their_mind_replaces_their_label(triage: Triage) -> None:
     reply = _posted(triage, "lark-east-idf2 port14")
     said = []
-    for n, verdict in enumerate(["cable_fault", "duplex_mismatch", "healthy"]):
+    for n, found in enumerate(["damaged_cord", "speed_duplex_set", "nothing_found"]):
         label = triage.labels.button(
-            reply.diagnosis_id, verdict, user="U2", channel="C1", event_key=f"k{n}"
+            reply.diagnosis_id, found, user="U2", channel="C1", event_key=f"k{n}"
         )
         assert isinstance(label, LabelReply)
-        said.append((label.replaced, label.disputed_with))
-    assert said == [(None, ()), ("cable_fault", ()), ("duplex_mismatch", ())]
+        said.append((label.replaced, label.verdict))
+    assert said == [
+        (None, "cable_fault"),
+        ("a damaged patch cord or cable", "duplex_mismatch"),
+        ("speed or duplex set by hand at one end", ""),  # nothing found teaches nothing here
+    ]
     assert len(triage.store.labels()) == 3  # all kept for the audit
     answer, channel, ts = triage.labels.answer(reply.diagnosis_id) or pytest.fail("no answer")
     assert (channel, ts) == ("C1", "100.1")
-    assert answer.labels == (("U2", "healthy"),)  # one counts: the latest
+    # one counts: the latest
+    assert answer.labels == (Labelled("U2", "", "nothing found: the link is fine"),)
 
 
 def test_two_people_who_disagree_are_told_and_the_answer_is_marked(triage: Triage) -> None:
     reply = _posted(triage, "lark-east-idf2 port14")
-    triage.labels.button(reply.diagnosis_id, None, user="U2", channel="C1", event_key="a")
+    triage.labels.button(reply.diagnosis_id, "damaged_cord", user="U2", channel="C1", event_key="a")
     other = triage.labels.button(
-        reply.diagnosis_id, "duplex_mismatch", user="U3", channel="C1", event_key="b"
+        reply.diagnosis_id, "speed_duplex_set", user="U3", channel="C1", event_key="b"
     )
     assert isinstance(other, LabelReply) and other.disputed_with == ("cable_fault",)
     answer, _, _ = triage.labels.answer(reply.diagnosis_id) or pytest.fail("no answer")
     assert answer.disputed
-    assert answer.labels == (("U2", "cable_fault"), ("U3", "duplex_mismatch"))
+    assert answer.labels == (
+        Labelled("U2", "cable_fault", "a damaged patch cord or cable"),
+        Labelled("U3", "duplex_mismatch", "speed or duplex set by hand at one end"),
+    )
+
+
+def test_two_findings_that_teach_one_verdict_agree(triage: Triage) -> None:
+    # A crushed cord and a bad jack are both cable faults: the answer still teaches.
+    reply = _posted(triage, "lark-east-idf2 port14")
+    triage.labels.button(reply.diagnosis_id, "damaged_cord", user="U2", channel="C1", event_key="a")
+    other = triage.labels.button(
+        reply.diagnosis_id, "bad_jack", user="U3", channel="C1", event_key="b"
+    )
+    assert isinstance(other, LabelReply) and other.disputed_with == ()
+    answer, _, _ = triage.labels.answer(reply.diagnosis_id) or pytest.fail("no answer")
+    assert not answer.disputed
+
+
+def test_a_finding_said_not_to_be_the_answer_never_teaches_it(triage: Triage) -> None:
+    _posted(triage, "lark-east-idf2 port14")  # cable_fault
+    text = "not a cable fault, the far-end NIC was bad"
+    reply = triage.labels.reply(text, user="U2", channel="C1", thread_ts="100.1", event_key="n")
+    assert isinstance(reply, LabelReply)
+    assert reply.finding == "the far-end device itself (its port, power or software)"
+    assert reply.verdict == ""  # the far-end device says no fault of its own
+    (label,) = triage.store.labels()
+    assert (label.finding, label.verdict) == ("far_end_device", "")
 
 
 @pytest.mark.parametrize(
     "text",
-    ["not a cable fault, the far-end NIC was bad", "wasn't cable", "cable fault? no."],
+    ["wasn't cable", "cable fault? no."],
 )
 def test_a_reply_that_negates_the_verdict_stores_nothing_and_asks_back(
     triage: Triage, text: str
@@ -112,7 +152,8 @@ def test_an_unclear_reply_is_asked_about_not_stored(triage: Triage) -> None:
     reply = triage.labels.reply(
         "cable or optic?", user="U2", channel="C1", thread_ts="100.1", event_key="c"
     )
-    assert isinstance(reply, LabelRefused) and "`cable_fault` or `optic_degraded`" in reply.message
+    assert isinstance(reply, LabelRefused)
+    assert "a damaged patch cord or cable or a failing transceiver module" in reply.message
     assert triage.store.labels() == []
 
 
@@ -131,12 +172,26 @@ def test_only_configured_channels_and_groups_may_label(triage: Triage) -> None:
     assert not triage.labels.may_label("U2", "C7")
 
 
-def test_confirming_a_guard_verdict_is_not_a_label(triage: Triage) -> None:
-    _posted(triage, "lark-west-idf1 port9")  # link_down
+def test_agreeing_is_asked_what_was_found(triage: Triage) -> None:
+    _posted(triage, "lark-east-idf2 port14")
     reply = triage.labels.reply(
         "confirmed", user="U2", channel="C1", thread_ts="100.1", event_key="h"
     )
-    assert isinstance(reply, LabelRefused) and "`link_down`" in reply.message
+    assert isinstance(reply, LabelRefused) and "What did you find" in reply.message
+    assert triage.store.labels() == []
+
+
+def test_what_is_found_on_a_port_a_guard_answered_is_kept_and_teaches_nothing(
+    triage: Triage,
+) -> None:
+    _posted(triage, "lark-west-idf1 port9")  # link_down: the tree never answered it
+    reply = triage.labels.reply(
+        "unplugged cable at the display", user="U2", channel="C1", thread_ts="100.1",
+        event_key="h",
+    )  # fmt: skip
+    assert isinstance(reply, LabelReply) and reply.verdict == ""
+    (label,) = triage.store.labels()
+    assert (label.finding, label.verdict, label.model_verdict) == ("damaged_cord", "", "link_down")
 
 
 def test_a_label_that_cannot_be_written_is_not_acknowledged(tmp_path: Path, model: Model) -> None:
@@ -156,18 +211,18 @@ def test_a_label_that_cannot_be_written_is_not_acknowledged(tmp_path: Path, mode
     assert reply.message.startswith("Could not record that label")
 
 
-def test_a_button_confirms_or_corrects(triage: Triage) -> None:
-    posted = _posted(triage, "lark-east-idf2 port7")
-    confirm = triage.labels.button(
-        posted.diagnosis_id, None, user="U3", channel="C1", event_key="btn1"
+def test_a_finding_picked_teaches_the_answer_it_bears_out_else_its_own(triage: Triage) -> None:
+    posted = _posted(triage, "lark-east-idf2 port7")  # duplex_mismatch
+    bears_out = triage.labels.button(
+        posted.diagnosis_id, "speed_duplex_set", user="U3", channel="C1", event_key="btn1"
     )
-    assert isinstance(confirm, LabelReply) and confirm.verdict == "duplex_mismatch"
-    correct = triage.labels.button(posted.diagnosis_id, "negotiation_degraded", user="U3",
-                                  channel="C1", event_key="btn2")  # fmt: skip
-    assert isinstance(correct, LabelReply) and correct.model_verdict == "duplex_mismatch"
-    assert [label.verdict for label in triage.store.labels()] == [
-        "duplex_mismatch",
-        "negotiation_degraded",
+    assert isinstance(bears_out, LabelReply) and bears_out.verdict == "duplex_mismatch"
+    other = triage.labels.button(posted.diagnosis_id, "mtu_set", user="U3",
+                                 channel="C1", event_key="btn2")  # fmt: skip
+    assert isinstance(other, LabelReply) and other.model_verdict == "duplex_mismatch"
+    assert [(label.finding, label.verdict) for label in triage.store.labels()] == [
+        ("speed_duplex_set", "duplex_mismatch"),
+        ("mtu_set", "mtu_mismatch"),
     ]
 
 
@@ -196,13 +251,13 @@ def test_a_label_on_an_answer_the_link_decided_teaches_the_end_that_shows_it(
     triage: Triage,
 ) -> None:
     # lark-west-idf1 up1 sends into the broken strand: its own counters look healthy, and
-    # the answer (the link's) is one-way. Confirming it must not teach the tree that clean
-    # counters mean one-way: the row kept is the far end's, which receives nothing.
+    # the answer (the link's) is one-way. Finding the broken fibre must not teach the tree
+    # that clean counters mean one-way: the row kept is the far end's, which receives nothing.
     triage.poller.poll_round()
     reply = _posted(triage, "lark-west-idf1 up1")
     assert reply.record["verdict"] == "unidirectional"
     assert reply.record["own_view"]["verdict"] == "healthy"
-    confirmed = triage.labels.button(reply.diagnosis_id, None, user="U2", channel="C1",
+    confirmed = triage.labels.button(reply.diagnosis_id, "one_fibre", user="U2", channel="C1",
                                      event_key="b1")  # fmt: skip
     assert isinstance(confirmed, LabelReply)
     (label,) = triage.store.labels()

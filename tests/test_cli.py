@@ -190,13 +190,14 @@ def test_train_keeps_every_model_and_use_rolls_back() -> None:
 
 
 def test_train_with_labels_reports_the_held_out_comparison() -> None:
-    text = "lark-east-idf2 port14\nreply confirmed\nlark-core1 up3\nreply confirmed\n"
+    text = "lark-east-idf2 port14\nreply crushed patch cord\nlark-core1 up3\n"
+    text += "reply tx and rx swapped fibres\n"
     text += "lark-east-idf2 port7\nreply negotiation_degraded, the printer only does 100/full\n"
     CliRunner().invoke(main, ["chat"], input=text)
     code, out, err = run("train", "--with-labels", "--ports", "2000")
     assert code == 0, err
     assert "learnt from 2 labels; on 1 held out the candidate scores" in err
-    assert "and 2 confirmed labels" in out
+    assert "and 2 labels from what engineers found" in out
     _, out, _ = run("model", "--json")
     (kept,) = json.loads(out)["kept_versions"]
     assert kept["labelled_rows"] == 2 and kept["evaluation"]["held_out_labels"] == 1
@@ -355,25 +356,30 @@ def test_leaving_the_prompt_with_ctrl_d_ends_the_line(tmp_path: Path) -> None:
 
 
 def test_labels_export_writes_training_rows(tmp_path: Path) -> None:
-    CliRunner().invoke(main, ["chat"], input="lark-east-idf2 port14\nreply confirmed\n")
+    CliRunner().invoke(main, ["chat"], input="lark-east-idf2 port14\nreply bad jack\n")
     target = tmp_path / "labels.csv"
     code, _, err = run("labels", "export", str(target))
     assert code == 0 and "wrote 1 labelled row to" in err
     header, row = target.read_text().splitlines()
-    assert header.startswith("ber_over_objective,") and ",verdict," in header
-    assert ",cable_fault," in row
+    assert header.startswith("ber_over_objective,") and ",verdict,finding," in header
+    assert ",cable_fault,bad_jack," in row
 
 
 def test_labels_mark_a_replaced_label_and_export_only_what_counts(tmp_path: Path) -> None:
-    text = "lark-east-idf2 port14\nreply confirmed\nreply duplex_mismatch, forced on the printer\n"
+    text = "lark-east-idf2 port14\nreply dirty connector\n"
+    text += "reply duplex_mismatch, forced on the printer\n"
     CliRunner().invoke(main, ["chat"], input=text)
     code, out, _ = run("labels")
     assert code == 0
     assert out.splitlines()[0] == (
-        "2 labels: 1 counting, 1 replaced by their author's later one, 0 on 0 disputed answers"
+        "2 labels: 1 counting, 1 replaced by their author's later one, 0 on 0 disputed "
+        "answers, 0 teaching no verdict"
     )
-    replaced = "cable_fault (as answered), on answer 1, by console at the console [replaced]"
-    assert f"port14: {replaced}: confirmed" in out
+    replaced = (
+        "found a dirty or damaged fibre connector (teaches cable_fault, as answered), on "
+        "answer 1, by console at the console [replaced]"
+    )
+    assert f"port14: {replaced}: dirty connector" in out
     assert "[counts]: forced on the printer" in out
     target = tmp_path / "labels.csv"
     run("labels", "export", str(target))
@@ -411,7 +417,7 @@ def _labelled_in_slack(triage: Triage, tmp_path: Path) -> Path:
         event_key="Ev1",
     )
     triage.labels.button(
-        1, "duplex_mismatch", user="U0TECH", channel="C0NETOPS", event_key="action:1"
+        1, "speed_duplex_set", user="U0TECH", channel="C0NETOPS", event_key="action:1"
     )
     config = tmp_path / "c.toml"
     config.write_text(f'[store]\nurl = "{triage.store.url}"\n')
@@ -426,10 +432,12 @@ def test_labels_say_when_in_local_time_who_where_and_on_which_answer(
     assert code == 0
     # Asked at 08:00 UTC (two polls 30 s apart), labelled at 08:00:30 UTC: 09:00 CET.
     assert out.splitlines()[1:] == [
-        "   1  2026-03-02 09:00 CET  lark-east-idf2 port14: cable_fault (as answered), on "
-        "answer 1, by U0ENGINEER in a thread in C0NETOPS [disputed]: crushed cord",
-        "   2  2026-03-02 09:00 CET  lark-east-idf2 port14: duplex_mismatch (answered "
-        "cable_fault), on answer 1, by U0TECH with a button in C0NETOPS [disputed]",
+        "   1  2026-03-02 09:00 CET  lark-east-idf2 port14: found a damaged patch cord or "
+        "cable (teaches cable_fault, as answered), on answer 1, by U0ENGINEER in a thread in "
+        "C0NETOPS [disputed]: crushed cord",
+        "   2  2026-03-02 09:00 CET  lark-east-idf2 port14: found speed or duplex set by hand "
+        "at one end (teaches duplex_mismatch; answered cable_fault), on answer 1, by U0TECH "
+        "with a button in C0NETOPS [disputed]",
     ]
 
 

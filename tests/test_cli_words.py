@@ -20,12 +20,14 @@ from linktriage.cli import words
         (words.inventory_state("inv.toml", 1), "inventory: inv.toml, 1 device"),
         (words.kept_version("abc", 1, current=True), "  * kept abc: 1 label"),
         (
-            words.labels_summary(1, 1, 0, 0, 0),
-            "1 label: 1 counting, 0 replaced by their author's later one, 0 on 0 disputed answers",
+            words.labels_summary(1, 1, 0, 0, 0, 0),
+            "1 label: 1 counting, 0 replaced by their author's later one, 0 on 0 disputed "
+            "answers, 0 teaching no verdict",
         ),
         (
-            words.labels_summary(3, 2, 1, 1, 1),
-            "3 labels: 2 counting, 1 replaced by their author's later one, 1 on 1 disputed answer",
+            words.labels_summary(4, 2, 1, 1, 1, 1),
+            "4 labels: 2 counting, 1 replaced by their author's later one, 1 on 1 disputed "
+            "answer, 1 teaching no verdict",
         ),
         (
             words.device_setup("sw1", "annex", "snmp", "10.0.0.1", 1, "ok"),

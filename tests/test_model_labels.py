@@ -58,3 +58,12 @@ def test_training_rows_are_the_features_then_the_facts_of_the_label() -> None:
     frame = label_frame([label(1, 7, "U2", "cable_fault")])
     assert list(frame.columns[: len(FEATURE_NAMES)]) == list(FEATURE_NAMES)
     assert frame.loc[0, "verdict"] == "cable_fault" and frame.loc[0, "user_id"] == "U2"
+
+
+def test_a_label_whose_finding_teaches_nothing_is_set_aside_and_disputes_nothing() -> None:
+    # "nothing found" after a cable_fault answer is kept, teaches no verdict (verdict ""),
+    # and does not hold out another person's finding on the same answer.
+    settled = settle([label(1, 7, "U2", ""), label(2, 7, "U3", "cable_fault")])
+    assert [lb.id for lb in settled.kept] == [2]
+    assert [lb.id for lb in settled.untaught] == [1]
+    assert settled.disputed == {}

@@ -22,7 +22,7 @@ import pytest
 import sqlalchemy as sa
 from test_serve import free_port
 
-from linktriage.render.blocks import CONFIRM_ACTION
+from linktriage.render.blocks import FOUND_ACTION
 from linktriage.store import JOBS_LEASE, Store, inspect_store
 
 from slack_emulator import SlackEmulator
@@ -165,7 +165,7 @@ def test_two_replicas_on_one_store_share_the_work_and_hand_it_over(
         assert post(replicas[0].url, body, headers, FORM)[0] == 200
         assert post(replicas[1].url, body, headers, FORM)[0] == 401
 
-        # Confirm pressed at the same moment on both replicas: one label, said once.
+        # One finding picked at the same moment on both replicas: one label, said once.
         status, _ = slash(replicas[0].url, emulator, "lark-east-idf2 port14", trigger="7.7.7")
         # (lark-east-idf2 has many ports: this question's polls of port14 alone are not a
         # round's.)
@@ -180,13 +180,13 @@ def test_two_replicas_on_one_store_share_the_work_and_hand_it_over(
         stored = store.diagnosis_for_message(CHANNEL, ts)
         assert stored is not None and stored.message_ts == ts
         actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
-        confirm = next(e for e in actions["elements"] if e["action_id"] == CONFIRM_ACTION)
+        menu = next(e for e in actions["elements"] if e["action_id"] == FOUND_ACTION)
         barrier = threading.Barrier(2)
         codes: list[int] = []
 
         def press(replica: Replica, n: int) -> None:
-            action = {"type": "button", "action_id": CONFIRM_ACTION,
-                      "block_id": actions["block_id"], "value": confirm["value"],
+            action = {"type": "static_select", "action_id": FOUND_ACTION,
+                      "block_id": actions["block_id"], "selected_option": menu["options"][0],
                       "action_ts": f"1772438600.{n}"}  # fmt: skip
             pressed = action_body(action, stored.message_ts or "")
             barrier.wait(timeout=30)

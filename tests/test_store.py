@@ -23,6 +23,7 @@ from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.packs import FORMAT as PACK_FORMAT
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.format.snapshot import read_snapshot_file
+from linktriage.engine.model.labels import settle
 from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.errors import StoreError
 from linktriage.network.demo import DemoClock, DemoNetwork
@@ -393,6 +394,43 @@ def test_a_store_of_the_previous_release_is_migrated_and_reads_exactly(database_
         store.close()
 
 
+def test_labels_kept_before_findings_still_count_after_the_upgrade(database_url: str) -> None:
+    # A store at schema version 11 holds a label that named a verdict, as labels did then.
+    engine = sa.create_engine(database_url)
+    with engine.begin() as conn:
+        schema_version_table.create(conn)
+        for migration in MIGRATIONS[:11]:
+            migration.apply(conn)
+            conn.execute(
+                schema_version_table.insert().values(
+                    version=migration.version, description=migration.description, applied_at=0.0
+                )
+            )
+        conn.execute(
+            sa.text(
+                "INSERT INTO diagnoses (id, at, device, port, verdict, confidence, model_version,"
+                " features, record, origin, site, serves) VALUES (1, 0, 'lark-east-idf2', 'port14',"
+                " 'cable_fault', 0.9, 'm1', '{}', '{}', 'chat', 'east', 'desk')"
+            )
+        )
+        conn.execute(
+            sa.text(
+                "INSERT INTO labels (at, diagnosis_id, device, port, verdict, model_verdict,"
+                " model_version, features, note, user_id, channel, source, event_key, turn)"
+                " VALUES (1, 1, 'lark-east-idf2', 'port14', 'cable_fault', 'cable_fault', 'm1',"
+                " '{}', 'crushed cord', 'U2', 'C1', 'button', 'old-1', 1)"
+            )
+        )
+    engine.dispose()
+    store = Store(database_url)
+    try:
+        (label,) = store.labels()
+        assert (label.finding, label.verdict, label.note) == (None, "cable_fault", "crushed cord")
+        assert settle([label]).kept == [label]
+    finally:
+        store.close()
+
+
 #: A child interpreter's view of a store: its catalogue, what the store gives back, and what
 #: the recorded files say, each row by name (tests/helpers.py named).
 READ_BACK = """
@@ -401,6 +439,7 @@ from helpers import named
 from linktriage.engine.format.counters import COLUMNS
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.format.snapshot import read_snapshot_file
+from linktriage.engine.model.labels import settle
 from linktriage.store import Store
 store = Store(sys.argv[1])
 back = store.polls_since(0.0)

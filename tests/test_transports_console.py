@@ -29,14 +29,20 @@ def test_a_conversation_asks_labels_and_lists(triage: Triage) -> None:
     assert "`suspects [SITE]`" in text
     assert "lark-east-idf2 port14: cable or connector fault (cable_fault)" in text
     assert (
-        "Recorded: console confirms cable_fault on lark-east-idf2 port14: crushed patch cord"
-        in text
+        "Recorded: console found a damaged patch cord or cable at lark-east-idf2 port14: "
+        "crushed patch cord behind the desk. It bears out the answer (cable_fault)" in text
     )
     assert "not read as a label" in text
     assert "lark-annex-sw1 port3: MTU mismatch" in text
-    assert "Recorded: console confirms mtu_mismatch on lark-annex-sw1 port3" in text
+    assert (
+        "Recorded: console found MTU set differently at the two ends at lark-annex-sw1 port3"
+        in text
+    )
     assert "pruning:" not in text  # `model` came after quit: no card
-    assert [label.verdict for label in triage.store.labels()] == ["cable_fault", "mtu_mismatch"]
+    assert [(lb.finding, lb.verdict) for lb in triage.store.labels()] == [
+        ("damaged_cord", "cable_fault"),
+        ("mtu_set", "mtu_mismatch"),
+    ]
 
 
 def test_a_reply_before_any_answer_says_so(triage: Triage) -> None:
@@ -78,7 +84,7 @@ def test_reply_with_nothing_after_it_asks_for_what_was_found(triage: Triage) -> 
     console.say("lark-east-idf2 port14")
     for typed in ("reply", "reply   ", "REPLY"):
         assert console.say(typed) == (
-            "Say what you found after `reply`, e.g. `reply cable_fault, crushed patch cord`."
+            "Say what you found after `reply`, e.g. `reply crushed patch cord`."
         )
     assert triage.store.labels() == []
 

@@ -28,8 +28,7 @@ from linktriage.engine.verdict_kit.declaration import SHORT, Caution
 from linktriage.network.demo import PLANTED, DemoClock, DemoNetwork, DemoPort
 from linktriage.network.watched import Gathered
 from linktriage.render.blocks import (
-    CONFIRM_ACTION,
-    CORRECT_ACTION,
+    FOUND_ACTION,
     RECHECK_ACTION,
     escape,
     text_size,
@@ -386,63 +385,83 @@ def action_body(action: dict[str, Any], message_ts: str) -> str:
     return f"payload={quote(json.dumps(payload))}"
 
 
-def test_the_buttons_confirm_or_correct_the_verdict(
+def test_what_was_found_is_picked_from_the_answers_menu(
     bot: str, emulator: SlackEmulator, triage: Triage
 ) -> None:
     slash(bot, emulator, "lark-east-idf2 port7")
     answer = emulator.wait_for("chat.postMessage", 3)[0]  # the answer, then its thread
     actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
-    confirm = next(e for e in actions["elements"] if e["action_id"] == CONFIRM_ACTION)
-    menu = next(e for e in actions["elements"] if e["action_id"] == CORRECT_ACTION)
-    pick = next(o for o in menu["options"] if o["value"].endswith(":negotiation_degraded"))
+    menu = next(e for e in actions["elements"] if e["action_id"] == FOUND_ACTION)
+    assert menu["placeholder"]["text"] == "What did you find?"
+    # what bears out the answer (duplex_mismatch) is offered first
+    assert menu["options"][0]["text"]["text"] == "Speed or duplex set by hand"
     ts = "1772438401.000100"
-    press = {"type": "button", "action_id": CONFIRM_ACTION, "block_id": actions["block_id"],
-             "value": confirm["value"], "action_ts": "1772438600.1"}  # fmt: skip
-    choose = {"type": "static_select", "action_id": CORRECT_ACTION, "block_id": actions["block_id"],
-              "selected_option": pick, "action_ts": "1772438601.1"}  # fmt: skip
-    for action in (press, choose):
-        body = action_body(action, ts)
+    for n, found in enumerate(["speed_duplex_set", "slow_cabling"]):
+        pick = next(o for o in menu["options"] if o["value"].endswith(f":{found}"))
+        choose = {"type": "static_select", "action_id": FOUND_ACTION,
+                  "block_id": actions["block_id"], "selected_option": pick,
+                  "action_ts": f"1772438601.{n}"}  # fmt: skip
+        body = action_body(choose, ts)
         status, _ = post(bot, body, signed(body), FORM)
         assert status == 200
-    assert [(label.verdict, label.source) for label in triage.store.labels()] == [
-        ("duplex_mismatch", "button"),
-        ("negotiation_degraded", "button"),
+    assert [(lb.finding, lb.verdict, lb.source) for lb in triage.store.labels()] == [
+        ("speed_duplex_set", "duplex_mismatch", "button"),
+        ("slow_cabling", "negotiation_degraded", "button"),
     ]
     thread_posts = [
         c for c in emulator.called("chat.postMessage") if c.params.get("thread_ts") == ts
     ]
     assert len(thread_posts) == 4  # the answer's details, then two acknowledgements
     said = thread_posts[3].params["blocks"][0]["text"]["text"]
-    assert "instead of their earlier duplex_mismatch" in said
-    # The answer is redrawn after each label: who said what, and the buttons to match.
-    first, latest = emulator.wait_for("chat.update", 2)
+    assert "instead of their earlier speed or duplex set by hand at one end" in said
+    assert "It teaches negotiation_degraded where the answer said duplex_mismatch" in said
+    # The answer is redrawn after each label: who found what.
+    _, latest = emulator.wait_for("chat.update", 2)
     assert (latest.params["channel"], latest.params["ts"]) == (CHANNEL, ts)
     # Redrawn as it was first posted: who asked and when are kept with the answer.
     assert latest.params["blocks"][1] == answer.params["blocks"][1]
     lines = [e["text"] for b in latest.params["blocks"] if b["type"] == "context"
              for e in b["elements"]]  # fmt: skip
-    assert "Labelled: <@U0ENGINEER> found negotiation degraded" in lines
-    confirmed = [e["text"]["text"] for b in first.params["blocks"] if b["type"] == "actions"
-                 for e in b["elements"] if e["action_id"] == CONFIRM_ACTION]  # fmt: skip
-    assert confirmed == ["Confirm too (1 so far)"]
+    assert (
+        "Labelled: <@U0ENGINEER> found cabling that cannot carry the speed (two pairs, an "
+        "older category)" in lines
+    )
 
 
-def test_pressing_confirm_twice_records_one_label(
+def test_picking_the_same_finding_twice_records_one_label(
     bot: str, emulator: SlackEmulator, triage: Triage
 ) -> None:
     slash(bot, emulator, "lark-east-idf2 port14")
     answer = emulator.wait_for("chat.postMessage", 3)[0]  # the answer, then its thread
     actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
-    confirm = next(e for e in actions["elements"] if e["action_id"] == CONFIRM_ACTION)
+    menu = next(e for e in actions["elements"] if e["action_id"] == FOUND_ACTION)
     for n in range(2):
-        press = {"type": "button", "action_id": CONFIRM_ACTION, "block_id": actions["block_id"],
-                 "value": confirm["value"], "action_ts": f"1772438600.{n}"}  # fmt: skip
-        body = action_body(press, "1772438401.000100")
+        choose = {"type": "static_select", "action_id": FOUND_ACTION,
+                  "block_id": actions["block_id"], "selected_option": menu["options"][0],
+                  "action_ts": f"1772438600.{n}"}  # fmt: skip
+        body = action_body(choose, "1772438401.000100")
         post(bot, body, signed(body), FORM)
     assert len(triage.store.labels()) == 1
     (again,) = emulator.wait_for("chat.postEphemeral")
-    assert "already said cable_fault" in again.params["text"]
+    assert "already said a damaged patch cord or cable" in again.params["text"]
     assert len(emulator.called("chat.update")) == 1
+
+
+def test_a_confirm_button_of_an_earlier_release_asks_what_was_found(
+    bot: str, emulator: SlackEmulator, triage: Triage
+) -> None:
+    # Answers posted before findings carry "Confirm" (lt_confirm): pressed now, it stores
+    # nothing and asks, privately, what was found.
+    slash(bot, emulator, "lark-east-idf2 port14")
+    emulator.wait_for("chat.postMessage", 3)
+    press = {"type": "button", "action_id": "lt_confirm", "block_id": "labels-1",
+             "value": "1", "action_ts": "1772438600.1"}  # fmt: skip
+    body = action_body(press, "1772438401.000100")
+    status, _ = post(bot, body, signed(body), FORM)
+    assert status == 200
+    (asked,) = emulator.wait_for("chat.postEphemeral")
+    assert "What did you find at the link?" in asked.params["text"]
+    assert triage.store.labels() == []
 
 
 def test_a_quiet_port_is_checked_again_by_a_button_not_a_window_to_choose(
@@ -532,9 +551,9 @@ def test_a_button_press_refused_is_told_to_the_person_alone(
         update={"labels": LabelSettings(channels=["C0ELSEWHERE"])}
     )
     actions = next(b for b in answer.params["blocks"] if b["type"] == "actions")
-    confirm = next(e for e in actions["elements"] if e["action_id"] == CONFIRM_ACTION)
-    press = {"type": "button", "action_id": CONFIRM_ACTION, "block_id": actions["block_id"],
-             "value": confirm["value"], "action_ts": "1772438600.1"}  # fmt: skip
+    menu = next(e for e in actions["elements"] if e["action_id"] == FOUND_ACTION)
+    press = {"type": "static_select", "action_id": FOUND_ACTION, "block_id": actions["block_id"],
+             "selected_option": menu["options"][0], "action_ts": "1772438600.1"}  # fmt: skip
     body = action_body(press, "1772438401.000100")
     status, _ = post(bot, body, signed(body), FORM)
     assert status == 200

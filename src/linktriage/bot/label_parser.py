@@ -1,21 +1,24 @@
-"""Reading what an engineer found from a thread reply: "cable_fault, crushed patch cord".
+"""Reading what an engineer found from a thread reply: "crushed patch cord behind the desk".
 
-A reply names a verdict by its id ("cable_fault"), by its words ("cable fault"), or by a
-phrase of the trade ("crushed patch cord", "dirty SFP", "forced 100/full on the printer");
-"confirmed" or "correct" agrees with the bot. Whatever follows is kept as the note. In a
-digest's thread a reply first says which link it is about: its number ("3: duplex ...")
-or its name ("lark-east-idf2 port14 cable ..."). A reply that names no verdict is talk,
-not a label; one whose phrases point two ways is asked to pick.
+A reply says what was found in the trade's words ("crushed patch cord", "dirty SFP",
+"duplex forced on the printer"), read as one of the findings
+(:data:`linktriage.engine.model.findings.FINDINGS`); it may name a verdict instead, by its
+id ("cable_fault") or its words ("cable fault"), or by a phrase only a verdict has ("FEC
+codewords"). The whole reply is kept as the note. "Confirmed" alone says nothing found and
+is asked what was. In a digest's thread a reply first says which link it is about: its
+number ("3: duplex ...") or its name ("lark-east-idf2 port14 cable ..."). A reply that
+names nothing is talk, not a label; one whose phrases point two ways is asked to pick.
 """
 
 from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
+from typing import TypeVar
 
 from linktriage.engine.format.answers import Verdict
+from linktriage.engine.model.findings import FINDINGS, Finding
 from linktriage.engine.verdicts import TREE, TREE_VERDICTS, VERDICTS
-from linktriage.engine.verdicts.healthy import HEALTHY
 
 # Phrases of the trade, each with a weight, as each verdict declares them: a specific one
 # ("sfp") outweighs a general one ("connector") when a reply has both.
@@ -41,26 +44,38 @@ _PATTERNS = {
     verdict: tuple((re.compile(r"\b" + re.escape(phrase)), weight) for phrase, weight in phrases)
     for verdict, phrases in PHRASES.items()
 }
+_FOUND_PATTERNS = {
+    f.id: tuple((re.compile(r"\b" + re.escape(phrase)), weight) for phrase, weight in f.phrases)
+    for f in FINDINGS
+}
+_FINDING_ORDER = [f.id for f in FINDINGS]
+K = TypeVar("K", bound=str)
 
 
 @dataclass(frozen=True, slots=True)
 class LabelIntent:
-    """A label read from a reply: the verdict (None: agree with the bot) and the note."""
+    """A label read from a reply: what was found and the verdict it names (either may be
+    None, not both), and the note."""
 
     verdict: Verdict | None
     note: str
     item: int | None = None  # which link of a digest, by its number
     device: str | None = None
     port: str | None = None
+    finding: str | None = None  # a finding's id
+    ruled_out: frozenset[Verdict] = frozenset()  # verdicts the reply says it was not
 
 
 @dataclass(frozen=True, slots=True)
 class Unclear:
-    """A reply that reads as a label but points at more than one verdict, or only says what
-    it was not ("not a cable fault"): asked back, never stored as a verdict it negates."""
+    """A reply that reads as a label but points at more than one verdict or finding, only
+    says what it was not ("not a cable fault"), or only agrees ("confirmed"): asked back,
+    never stored as a verdict it negates."""
 
     candidates: list[Verdict]
     negated: list[Verdict] = field(default_factory=list)
+    findings: list[str] = field(default_factory=list)  # findings' ids it may mean
+    item: int | None = None
 
 
 def _explicit(text: str) -> list[tuple[Verdict, int, int]]:
@@ -80,19 +95,46 @@ def _negated(text: str, start: int, end: int) -> bool:
     )
 
 
-def _phrases(lowered: str) -> tuple[dict[Verdict, int], set[Verdict]]:
-    """Each verdict's weight from the phrases a reply uses, and the verdicts it negates."""
-    scores: dict[Verdict, int] = {}
-    negated: set[Verdict] = set()
-    for verdict, patterns in _PATTERNS.items():
+def _phrases(
+    lowered: str, patterns_of: dict[K, tuple[tuple[re.Pattern[str], int], ...]]
+) -> tuple[dict[K, int], set[K]]:
+    """Each verdict's (or finding's) weight from the phrases a reply uses, and those it
+    negates."""
+    scores: dict[K, int] = {}
+    negated: set[K] = set()
+    for key, patterns in patterns_of.items():
         for pattern, weight in patterns:
             for match in pattern.finditer(lowered):
                 if _negated(lowered, match.start(), match.end()):
-                    negated.add(verdict)
+                    negated.add(key)
                 else:
-                    scores[verdict] = scores.get(verdict, 0) + weight
+                    scores[key] = scores.get(key, 0) + weight
                 break  # a phrase counts once
     return scores, negated
+
+
+def _two_ways(scores: dict[K, int], order: list[K]) -> tuple[K | None, list[K]]:
+    """The strongest reading, or none and the two about as strong ("cable or optic?")."""
+    ranked = sorted(scores.items(), key=lambda kv: (-kv[1], order.index(kv[0])))
+    if not ranked:
+        return None, []
+    (first, best), runner_up = ranked[0], ranked[1][1] if len(ranked) > 1 else 0
+    if runner_up >= 2 and runner_up >= best - 1:
+        return None, sorted([first, ranked[1][0]], key=order.index)
+    return first, []
+
+
+def _found(lowered: str, ruled_out: set[Verdict]) -> tuple[Finding | None, list[str]]:
+    """The finding a reply describes, or the two it may mean. A finding that bears out only
+    verdicts the reply rules out ("not congestion, the backup job is fine") is not it."""
+    scores, negated = _phrases(lowered, _FOUND_PATTERNS)
+    for key in negated:
+        scores.pop(key, None)
+    for f in FINDINGS:
+        if f.bears_out and set(f.bears_out) <= ruled_out:
+            scores.pop(f.id, None)
+    first, both = _two_ways(scores, _FINDING_ORDER)
+    return (None if first is None else FINDINGS[_FINDING_ORDER.index(first)]), both
 
 
 def parse_label(
@@ -118,32 +160,43 @@ def parse_label(
             if match:
                 device, port, rest = d, p, rest[match.end() :]
                 break
-    explicit = [(v, s, e) for v, s, e in _explicit(rest) if not _negated(rest, s, e)]
-    negated = {v for v, s, e in _explicit(rest) if _negated(rest, s, e)}
+    named = _explicit(rest)
+    explicit = [(v, s, e) for v, s, e in named if not _negated(rest, s, e)]
+    negated = {v for v, s, e in named if _negated(rest, s, e)}
+    # Findings are read from what is left once verdicts named are taken out: the "cable"
+    # of "cable fault? no" is not a cable found.
+    unnamed = rest
+    for _, start, end in named:
+        unnamed = unnamed[:start] + " " * (end - start) + unnamed[end:]
+    finding, findings = _found(unnamed.lower(), negated)
+    found = None if finding is None else finding.id
     if explicit:
         verdicts = {v for v, _, _ in explicit}
         if len(verdicts) > 1:
-            return Unclear(sorted(verdicts, key=VERDICTS.index))
+            return Unclear(sorted(verdicts, key=VERDICTS.index), item=item)
         verdict, start, end = min(explicit, key=lambda e: e[1])
-        return LabelIntent(verdict, _note(rest[:start] + " " + rest[end:]), item, device, port)
+        note = _note(rest[:start] + " " + rest[end:])
+        return LabelIntent(verdict, note, item, device, port, found)
+    if finding is not None:
+        return LabelIntent(None, _note(rest), item, device, port, found, frozenset(negated))
+    if findings:
+        return Unclear([], findings=findings, item=item)
     lowered = rest.lower()
-    scores, negated_phrases = _phrases(lowered)
+    scores, negated_phrases = _phrases(lowered, _PATTERNS)
     negated |= negated_phrases
     for verdict in negated:
         scores.pop(verdict, None)
-    ranked = sorted(scores.items(), key=lambda kv: -kv[1]) + [(HEALTHY, 0)] * 2
-    (first, best), (second, runner_up) = ranked[0], ranked[1]
-    if best > 0:
-        # Two readings about as strong ("cable or optic?"): ask rather than guess.
-        if runner_up >= 2 and runner_up >= best - 1:
-            return Unclear(sorted([first, second], key=VERDICTS.index))
+    first, both = _two_ways(scores, list(VERDICTS))
+    if first is not None:
         return LabelIntent(first, _note(rest), item, device, port)
+    if both:
+        return Unclear(both, item=item)
     if negated:
         order = VERDICTS.index
         others = [v for v in TREE_VERDICTS if v not in negated]
-        return Unclear(sorted(others, key=order), sorted(negated, key=order))
+        return Unclear(sorted(others, key=order), sorted(negated, key=order), item=item)
     if _CONFIRM.search(lowered) and not _NEGATION.search(lowered):
-        return LabelIntent(None, _note(rest), item, device, port)
+        return Unclear([], item=item)  # agreeing says nothing found: asked what was
     return None
 
 

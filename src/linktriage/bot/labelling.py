@@ -11,20 +11,23 @@ from typing import cast
 
 from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
 from linktriage.engine.format.answers import DiagnosisRecord, Verdict
+from linktriage.engine.model.findings import Finding, finding, taught
 from linktriage.engine.model.labels import current
-from linktriage.engine.verdicts import TREE_VERDICTS, known
+from linktriage.engine.verdicts import TREE_VERDICTS
 from linktriage.errors import StoreError
-from linktriage.render.replies import DiagnosisReply, LabelRefused, LabelReply
+from linktriage.render.replies import DiagnosisReply, Labelled, LabelRefused, LabelReply
 from linktriage.render.words import (
     LABEL_ALREADY,
     LABEL_BUSY,
     LABEL_GONE,
-    LABEL_NOT_A_FAULT,
     LABEL_NOT_ALLOWED,
     LABEL_NOT_WHICH,
+    LABEL_SAY_FOUND,
     LABEL_STORE_FAILED,
     LABEL_WHICH,
+    LABEL_WHICH_FOUND,
     LABEL_WHICH_LINK,
+    finding_options,
     label_options,
     negated_verdicts,
 )
@@ -100,6 +103,11 @@ class Labelling:
         if not self.may_label(user, channel):
             return LabelRefused(LABEL_NOT_ALLOWED)
         if isinstance(intent, Unclear):
+            if intent.findings:
+                options = finding_options([finding(f).words for f in intent.findings])
+                return LabelRefused(LABEL_WHICH_FOUND.format(options=options))
+            if not intent.candidates:
+                return LabelRefused(LABEL_SAY_FOUND)
             options = label_options(list(intent.candidates))
             if intent.negated:
                 said = negated_verdicts(list(intent.negated))
@@ -113,7 +121,9 @@ class Labelling:
         return self.record(
             diagnosis,
             intent.verdict,
+            None if intent.finding is None else finding(intent.finding),
             intent.note,
+            ruled_out=intent.ruled_out,
             user=user,
             channel=channel,
             source=source,
@@ -137,42 +147,54 @@ class Labelling:
     def button(
         self,
         diagnosis_id: int,
-        verdict: str | None,
+        finding_id: str,
         *,
         user: str,
         channel: str | None,
         event_key: str,
     ) -> LabelReply | LabelRefused | None:
-        """A press of "confirm" (verdict None) or a pick of what it really was."""
+        """A pick from "What did you find?"."""
         diagnosis = self.store.diagnosis(diagnosis_id)
         if diagnosis is None:
             return LabelRefused(LABEL_GONE)
         if not self.may_label(user, channel):
             return LabelRefused(LABEL_NOT_ALLOWED)
-        chosen = None if verdict is None else known(verdict)
         return self.record(
-            diagnosis, chosen, "", user=user, channel=channel, source="button", event_key=event_key
+            diagnosis,
+            None,
+            finding(finding_id),
+            "",
+            user=user,
+            channel=channel,
+            source="button",
+            event_key=event_key,
         )
 
     def record(
         self,
         diagnosis: StoredDiagnosis,
         verdict: Verdict | None,
+        found: Finding | None,
         note: str,
         *,
         user: str,
         channel: str | None,
         source: str,
         event_key: str,
+        ruled_out: frozenset[str] = frozenset(),
     ) -> LabelReply | LabelRefused | None:
-        """Store a label, then say so. One label per person per answer counts: a new one
-        replaces theirs (the earlier stays for the audit), the same one again is not
-        stored twice, even pressed twice at once on two replicas (the store numbers each
-        person's labels of an answer, each number once), and a retry of a stored event
-        says nothing."""
-        found = verdict if verdict is not None else known(diagnosis.verdict)
-        if found not in TREE_VERDICTS:
-            return LabelRefused(LABEL_NOT_A_FAULT.format(verdict=found))
+        """Store a label (what was found, or a verdict named), then say so and what it
+        teaches. One label per person per answer counts: a new one replaces theirs (the
+        earlier stays for the audit), the same one again is not stored twice, even pressed
+        twice at once on two replicas (the store numbers each person's labels of an answer,
+        each number once), and a retry of a stored event says nothing."""
+        if verdict is not None:  # named outright: it teaches what it names, as it always did,
+            # unless the tree did not give the answer (a guard's, as for findings)
+            teaches: str = verdict if diagnosis.verdict in TREE_VERDICTS else ""
+        else:
+            assert found is not None
+            teaches = taught(found, diagnosis.verdict, ruled_out) or ""
+        found_id = None if found is None else found.id
         try:
             if self.store.has_event(event_key):
                 return None
@@ -180,11 +202,13 @@ class Labelling:
                 every = self.store.labels(diagnosis.id)
                 before, _ = current(every)
                 mine = next((lb for lb in before if lb.user_id == user), None)
-                if mine is not None and mine.verdict == found and not note:
-                    return LabelRefused(LABEL_ALREADY.format(verdict=found))
+                same = mine is not None and (mine.finding, mine.verdict) == (found_id, teaches)
+                if same and not note:
+                    return LabelRefused(LABEL_ALREADY.format(said=_said(found_id, teaches)))
                 kept = self.store.add_label(
                     diagnosis,
-                    found,
+                    teaches,
+                    finding=found_id,
                     note=note,
                     user_id=user,
                     channel=channel,
@@ -201,17 +225,19 @@ class Labelling:
             return LabelRefused(LABEL_STORE_FAILED.format(reason=exc.message))
         if kept == "repeat":
             return None
-        others = sorted({lb.verdict for lb in before if lb.user_id != user} - {found})
+        others = {lb.verdict for lb in before if lb.user_id != user and lb.verdict}
+        earlier = None if mine is None else _said(mine.finding, mine.verdict)
         return LabelReply(
             user,
             diagnosis.device,
             diagnosis.port,
-            found,
+            teaches,
             diagnosis.verdict,
             note,
             diagnosis_id=diagnosis.id,
-            replaced=mine.verdict if mine is not None and mine.verdict != found else None,
-            disputed_with=tuple(others),
+            replaced=earlier if earlier != _said(found_id, teaches) else None,
+            disputed_with=tuple(sorted(others - {teaches})) if teaches else (),
+            finding=None if found is None else found.words,
         )
 
     def answer(self, diagnosis_id: int) -> tuple[DiagnosisReply, str, str] | None:
@@ -226,8 +252,15 @@ class Labelling:
             stored.id,
             stored.site,
             stored.serves,
-            labels=tuple((lb.user_id, lb.verdict) for lb in latest),
+            labels=tuple(
+                Labelled(lb.user_id, lb.verdict, _said(lb.finding, lb.verdict)) for lb in latest
+            ),
             asked_by=stored.asked_by,
             at=stored.at,
         )
         return reply, stored.channel, stored.message_ts
+
+
+def _said(finding_id: str | None, verdict: str) -> str:
+    """A label as its author gave it: the finding's words, or the verdict named."""
+    return verdict if finding_id is None else finding(finding_id).words

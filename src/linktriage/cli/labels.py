@@ -18,13 +18,15 @@ from linktriage.cli.options import config_option
 @config_option
 @click.pass_context
 def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
-    """List the labels engineers gave (what they found on a port), each marked as
-    counting, replaced by its author's later one, or disputed (held out of training)."""
+    """List the labels engineers gave (what they found on a port, and the verdict it
+    teaches), each marked as counting, replaced by its author's later one, disputed (held
+    out of training), or teaching no verdict."""
     if ctx.invoked_subcommand is not None:
         return
     from dataclasses import asdict
 
     from linktriage.assembly import opened_store
+    from linktriage.engine.model.findings import finding
     from linktriage.engine.model.labels import settle
     from linktriage.settings import load_settings
 
@@ -33,10 +35,13 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
     settled = settle(found)
     replaced = {label.id for label in settled.replaced}
     disputed = {label.id for group in settled.disputed.values() for label in group}
+    untaught = {label.id for label in settled.untaught}
 
     def standing(label_id: int) -> str:
         if label_id in replaced:
             return "replaced"
+        if label_id in untaught:
+            return "teaches nothing"
         return "disputed" if label_id in disputed else "counts"
 
     if as_json:
@@ -45,11 +50,17 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
             click.echo(json.dumps({**asdict(label), **at}))
         return
     summary = words.labels_summary(
-        len(found), len(settled.kept), len(replaced), len(disputed), len(settled.disputed)
+        len(found),
+        len(settled.kept),
+        len(replaced),
+        len(disputed),
+        len(settled.disputed),
+        len(untaught),
     )
     click.echo(summary)
     for label in found:
-        click.echo(words.label_line(label, standing(label.id)))
+        said = label.verdict if label.finding is None else finding(label.finding).words
+        click.echo(words.label_line(label, standing(label.id), said))
 
 
 def _rfc3339(at: float) -> str:

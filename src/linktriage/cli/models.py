@@ -29,8 +29,8 @@ from linktriage.cli.options import config_option, model_option
 @click.option(
     "--with-labels",
     is_flag=True,
-    help="Learn from the confirmed labels in the store too; promote the result only if it "
-    "does no worse than the current model on labels held out.",
+    help="Learn from the labels in the store too (what engineers found); promote the result "
+    "only if it does no worse than the current model on labels held out.",
 )
 @config_option
 def train(

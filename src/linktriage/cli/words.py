@@ -184,10 +184,13 @@ def settings_problem(problem: str) -> str:
 SETTINGS_USABLE = "settings are usable"
 
 
-def labels_summary(total: int, kept: int, replaced: int, disputed: int, answers: int) -> str:
+def labels_summary(
+    total: int, kept: int, replaced: int, disputed: int, answers: int, untaught: int
+) -> str:
     return (
         f"{plural(total, 'label')}: {kept:,} counting, {replaced:,} replaced by their author's "
-        f"later one, {disputed:,} on {plural(answers, 'disputed answer')}"
+        f"later one, {disputed:,} on {plural(answers, 'disputed answer')}, {untaught:,} "
+        "teaching no verdict"
     )
 
 
@@ -199,12 +202,16 @@ LABEL_GIVEN = {
 }
 
 
-def label_line(label: Label, standing: str) -> str:
-    """One label in the list: when (local time), the port, what was found against what the
-    answer said, which answer, who, where, whether it counts, and the note."""
-    agreed = (
-        "as answered" if label.verdict == label.model_verdict else f"answered {label.model_verdict}"
-    )
+def label_line(label: Label, standing: str, said: str) -> str:
+    """One label in the list: when (local time), the port, what was found (``said``), what it
+    teaches against what the answer said, which answer, who, where, whether it counts, and
+    the note."""
+    if not label.verdict:
+        teaches = f"teaches nothing; answered {label.model_verdict}"
+    elif label.verdict == label.model_verdict:
+        teaches = f"teaches {label.verdict}, as answered"
+    else:
+        teaches = f"teaches {label.verdict}; answered {label.model_verdict}"
     channel = printable(label.channel or "an unknown channel")
     where = LABEL_GIVEN.get(label.source, f"by {label.source} in {{channel}}").format(
         channel=channel
@@ -212,7 +219,7 @@ def label_line(label: Label, standing: str) -> str:
     note = f": {printable(label.note)}" if label.note else ""
     return (
         f"{label.id:>4}  {_local(label.at)}  {printable(label.device)} {printable(label.port)}: "
-        f"{label.verdict} ({agreed}), on answer {label.diagnosis_id}, by "
+        f"found {said} ({teaches}), on answer {label.diagnosis_id}, by "
         f"{printable(label.user_id)} {where} [{standing}]{note}"
     )
 
@@ -283,17 +290,18 @@ DEMO_DIGEST = f"\n{RULE}\nThe digest, as posted to the team channel on weekday m
 
 def demo_reply(port: str) -> str:
     """What the demo's engineer found on the digest's first link."""
-    return f"1: swapped fibres at the patch panel, {port} was one-way"
+    return f"1: crushed patch cord under the desk at {port}, replaced it"
 
 
 def demo_engineer_replies(reply: str) -> str:
     return f"\nAn engineer replies in the digest's thread:\n  > {reply}"
 
 
-def demo_stored(label: Label) -> str:
+def demo_stored(label: Label, said: str) -> str:
     return (
-        f"Stored in SQLite: label {label.id}, {label.device} {label.port} = "
-        f"{label.verdict}, with the feature row the verdict was based on and model "
+        f"Stored in SQLite: label {label.id}, {label.device} {label.port}: found "
+        f"{said}, teaching {label.verdict or 'no verdict'}, with the "
+        "feature row the verdict was based on and model "
         f"{label.model_version}; `linktriage train --with-labels` learns from it."
     )
 

@@ -16,8 +16,9 @@ from typing import Any, assert_never
 
 from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.engine.measure.numbers import sig
+from linktriage.engine.model.findings import ranked_for
 from linktriage.engine.verdict_kit.declaration import SHORT
-from linktriage.engine.verdicts import TREE_VERDICTS, cautions_for, kind_of
+from linktriage.engine.verdicts import cautions_for, kind_of
 from linktriage.render import words
 from linktriage.render.card import card_text
 from linktriage.render.replies import (
@@ -60,9 +61,11 @@ FIRST_SCREEN = 1500
 #: Checks on the first screen, fewer where their cautions would not fit.
 FIRST_CHECKS = 3
 
-CONFIRM_ACTION = "lt_confirm"
-CORRECT_ACTION = "lt_correct"
+FOUND_ACTION = "lt_found"
 RECHECK_ACTION = "lt_recheck"
+#: The label buttons of answers posted by releases before findings ("confirm" and "it was
+#: really"): a press is answered with how to say what was found.
+EARLIER_LABEL_ACTIONS = ("lt_confirm", "lt_correct")
 
 Block = dict[str, Any]
 
@@ -270,57 +273,41 @@ def _both_ends(record: DiagnosisRecord) -> list[Block]:
 
 
 def _labels_line(reply: DiagnosisReply) -> str:
-    """Who said what on this answer (each person's latest), and whether it teaches."""
-    model = reply.record["verdict"]
-    said = [
-        words.person_labelled(_person(user), verdict == model, escape(kind_of(verdict).title))
-        for user, verdict in reply.labels
-    ]
+    """Who found what on this answer (each person's latest), and whether it teaches."""
+    said = [words.person_labelled(_person(lb.person), escape(lb.said)) for lb in reply.labels]
     return words.labelled(said, reply.disputed)
 
 
 def _label_actions(reply: DiagnosisReply) -> Block:
-    """A button to confirm the verdict, a menu to say what it really was, and one to
-    diagnose the port again."""
+    """A menu of what an engineer may find at the link (those that bear out the answer
+    first), and a button to diagnose the port again."""
     diagnosis = str(reply.diagnosis_id)
-    title = kind_of(reply.record["verdict"]).title
     options = [
         {
-            "text": {"type": "plain_text", "text": _clip(kind_of(v).title, MAX_OPTION_TEXT)},
-            "value": f"{diagnosis}:{v}",
+            "text": {"type": "plain_text", "text": _clip(f.short, MAX_OPTION_TEXT)},
+            "value": f"{diagnosis}:{f.id}",
         }
-        for v in TREE_VERDICTS
+        for f in ranked_for(reply.record["verdict"])
     ]
-    elements: list[Block] = []
-    confirmed = sum(1 for _, verdict in reply.labels if verdict == reply.record["verdict"])
-    confirm = words.confirm_button(title, confirmed)
-    if reply.record["verdict"] in TREE_VERDICTS:
-        elements.append(
+    return {
+        "type": "actions",
+        "block_id": f"labels-{diagnosis}",
+        "elements": [
+            {
+                "type": "static_select",
+                "action_id": FOUND_ACTION,
+                "placeholder": {"type": "plain_text", "text": words.WHAT_DID_YOU_FIND},
+                "options": options,
+            },
+            # A person in chat cannot choose a window: this asks again once more polls are in.
             {
                 "type": "button",
-                "action_id": CONFIRM_ACTION,
-                "text": {"type": "plain_text", "text": _clip(confirm, MAX_OPTION_TEXT)},
+                "action_id": RECHECK_ACTION,
+                "text": {"type": "plain_text", "text": words.CHECK_AGAIN},
                 "value": diagnosis,
-            }
-        )
-    elements.append(
-        {
-            "type": "static_select",
-            "action_id": CORRECT_ACTION,
-            "placeholder": {"type": "plain_text", "text": words.IT_WAS_REALLY},
-            "options": options,
-        }
-    )
-    # A person in chat cannot choose a window: this asks again once more polls are in.
-    elements.append(
-        {
-            "type": "button",
-            "action_id": RECHECK_ACTION,
-            "text": {"type": "plain_text", "text": words.CHECK_AGAIN},
-            "value": diagnosis,
-        }
-    )
-    return {"type": "actions", "block_id": f"labels-{diagnosis}", "elements": elements}
+            },
+        ],
+    }
 
 
 def history_message(reply: HistoryReply) -> dict[str, Any]:
@@ -500,6 +487,7 @@ def _label_message(reply: LabelReply) -> dict[str, Any]:
     where = f"`{escape(reply.device)} {escape(reply.port)}`"
     said = label_recorded(
         _person(reply.user),
+        escape(reply.finding or reply.verdict),
         reply.verdict,
         reply.model_verdict,
         where,
@@ -510,4 +498,5 @@ def _label_message(reply: LabelReply) -> dict[str, Any]:
     blocks = [_section(":white_check_mark: " + said)]
     if reply.note:
         blocks.append(_context(words.found_note(reply.note), plain=True))
-    return _message(words.recorded_fallback(reply.verdict, reply.device, reply.port), blocks)
+    found = reply.finding or reply.verdict
+    return _message(words.recorded_fallback(found, reply.device, reply.port), blocks)

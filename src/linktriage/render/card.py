@@ -54,7 +54,7 @@ def card_text(card: dict[str, Any]) -> str:
             f"ccp_alpha {t['ccp_alpha']:.3g}",
             f"  pruning: {t['selection']}",
             f"  trained on {t['rows']:,} rows from {t['simulated_ports']:,} simulated ports "
-            f"(seed {t['seed']}) and {t['labelled_rows']:,} confirmed labels",
+            f"(seed {t['seed']}) and {t['labelled_rows']:,} labels from what engineers found",
             f"  cross-validated macro-F1 {t['cv_macro_f1']:.3f} +/- {t['cv_macro_f1_se']:.3f} "
             f"({t['folds']} folds; best {t['best_cv_macro_f1']:.3f} "
             f"at ccp_alpha {t['best_ccp_alpha']:.3g})",

@@ -13,6 +13,15 @@ Visibility = Literal["channel", "ephemeral"]
 
 
 @dataclass(frozen=True, slots=True)
+class Labelled:
+    """One person's latest label on an answer: what it teaches ("" nothing) and its words."""
+
+    person: str
+    verdict: str
+    said: str  # the finding's words, or the verdict they named
+
+
+@dataclass(frozen=True, slots=True)
 class DiagnosisReply:
     """One port diagnosed: the record as answered, and the id that labels refer to."""
 
@@ -21,7 +30,7 @@ class DiagnosisReply:
     site: str
     serves: str
     visibility: Visibility = "channel"
-    labels: tuple[tuple[str, str], ...] = ()  # (person, verdict): each one's latest label
+    labels: tuple[Labelled, ...] = ()  # each person's latest label
     asked_by: str | None = None  # who asked (a Slack user id or a name)
     at: float | None = None  # when it was answered, seconds since the epoch
     changed: str | None = None  # a check again: what differs from the answer before
@@ -29,7 +38,7 @@ class DiagnosisReply:
     @property
     def disputed(self) -> bool:
         """Whether the people who labelled this answer disagree (so it teaches nothing)."""
-        return len({verdict for _, verdict in self.labels}) > 1
+        return len({label.verdict for label in self.labels if label.verdict}) > 1
 
 
 class HistoryPoint(TypedDict):
@@ -186,7 +195,8 @@ class ErrorReply:
 
 @dataclass(frozen=True, slots=True)
 class LabelReply:
-    """A label stored: who found what on which port, and what the model had said."""
+    """A label stored: who found what on which port, what it teaches ("" nothing), and what
+    the model had said."""
 
     user: str
     device: str
@@ -196,8 +206,9 @@ class LabelReply:
     note: str
     visibility: Visibility = "channel"
     diagnosis_id: int = 0
-    replaced: str | None = None  # this person's earlier verdict on the answer, if any
+    replaced: str | None = None  # this person's earlier label on the answer, if any
     disputed_with: tuple[str, ...] = ()  # others' differing verdicts on the answer
+    finding: str | None = None  # what was found, in words; None: a verdict was named
 
 
 @dataclass(frozen=True, slots=True)

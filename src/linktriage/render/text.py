@@ -239,6 +239,7 @@ def render(reply: Reply) -> str:
             where = f"{reply.device} {reply.port}"
             return label_recorded(
                 reply.user,
+                reply.finding or reply.verdict,
                 reply.verdict,
                 reply.model_verdict,
                 where,

@@ -153,32 +153,38 @@ def help_lines(command: str, forms: Sequence[tuple[str, str]]) -> list[str]:
     return lines
 
 
-LABEL_PROMPT = "Found it? Reply in this thread with what it was, or use the buttons."
-DIGEST_PROMPT = (
-    "Reply in this thread with a link's number and what you found: `3: cable_fault, crushed cord`."
+LABEL_PROMPT = (
+    "Been to the link? Say what you found: pick it above or reply in this thread "
+    "(`crushed patch cord behind the desk`). What is found teaches the model this site."
 )
+DIGEST_PROMPT = (
+    "Reply in this thread with a link's number and what you found: `3: crushed patch cord`."
+)
+WHAT_DID_YOU_FIND = "What did you find?"
 LABEL_NOT_ALLOWED = "Labels from this channel or person are not taken here."
 LABEL_WHICH = "Which was it: {options}? Reply with one of them."
+LABEL_WHICH_FOUND = "Which did you find: {options}? Reply with one of them."
+LABEL_SAY_FOUND = (
+    "Thanks. What did you find at the link? Say it in a reply (`dirty connector at the "
+    "panel`, `nothing found`) or pick it from the answer's menu: that is what teaches."
+)
 LABEL_NOT_WHICH = (
     "Not {negated}, then: nothing was recorded. Which was it: {options}? Reply with one of them."
 )
 LABEL_WHICH_LINK = (
     "Say which link first: its number in the list (`3: cable_fault ...`) or its name "
-    "(`DEVICE PORT cable_fault ...`)."
-)
-LABEL_NOT_A_FAULT = (
-    "The answer was `{verdict}`, which is not a fault or `healthy`; say what you found, "
-    "e.g. `cable_fault, crushed patch cord`."
+    "(`DEVICE PORT crushed cord ...`)."
 )
 LABEL_STORE_FAILED = "Could not record that label ({reason}). Please try again."
 LABEL_BUSY = "your labels of this answer kept changing while it was recorded"
 LABEL_GONE = "That answer is no longer in the store."
-LABEL_ALREADY = "You already said {verdict} on this answer; it is recorded once."
+LABEL_ALREADY = "You already said {said} on this answer; it is recorded once."
 
 
 def label_recorded(
     who: str,
-    verdict: str,
+    said: str,
+    teaches: str,
     model_verdict: str,
     where: str,
     note: str,
@@ -187,18 +193,32 @@ def label_recorded(
     disputed_with: tuple[str, ...] = (),
 ) -> str:
     """The thread's acknowledgement of a stored label (``who`` as the transport names people):
-    what it replaced, and whether others' labels on the answer disagree."""
-    agreed = "confirms" if verdict == model_verdict else f"corrects {model_verdict} to"
+    what was found, what it teaches, what it replaced, and whether others disagree."""
     note_text = f": {note}" if note else ""
     instead = f" (instead of their earlier {replaced})" if replaced else ""
+    found = f"Recorded: {who} found {said} at {where}{note_text}{instead}."
+    if not teaches:
+        return f"{found} {_teaches_nothing(model_verdict)}"
     if disputed_with:
         learning = (
-            f"Others said {', '.join(disputed_with)}: this answer is left out of training "
-            "until the labels agree."
+            f"Others' findings say {', '.join(disputed_with)}: this answer is left out of "
+            "training until they agree."
         )
+    elif teaches == model_verdict:
+        learning = f"It bears out the answer ({teaches}); the next training run learns from it."
     else:
-        learning = "The next training run learns from it."
-    return f"Recorded: {who} {agreed} {verdict} on {where}{note_text}{instead}. {learning}"
+        learning = (
+            f"It teaches {teaches} where the answer said {model_verdict}; the next training "
+            "run learns from it."
+        )
+    return f"{found} {learning}"
+
+
+def _teaches_nothing(model_verdict: str) -> str:
+    return (
+        f"It is kept with the answer ({model_verdict}) but teaches the model no verdict: "
+        "it does not say which fault the counters showed, or the answer was not the tree's."
+    )
 
 
 # --- the bot
@@ -293,6 +313,11 @@ def label_options(verdicts: list[str]) -> str:
     return " or ".join(f"`{v}`" for v in verdicts)
 
 
+def finding_options(said: list[str]) -> str:
+    """Findings offered to choose from, in their words: "a or b"."""
+    return " or ".join(said)
+
+
 def negated_verdicts(verdicts: list[str]) -> str:
     return ", ".join(f"`{v}`" for v in verdicts)
 
@@ -334,12 +359,12 @@ CONSOLE_GREETING = (
     "linktriage console: type a command (`help` lists them), `reply TEXT` to answer in "
     "the thread of the last answer, `quit` to leave."
 )
-CONSOLE_LABEL_PROMPT = f"({LABEL_PROMPT.replace('use the buttons', 'type reply TEXT')})"
-CONSOLE_NOTHING_TO_REPLY = "Nothing to reply to yet: ask about a port first."
-CONSOLE_REPLY_WHAT = (
-    "Say what you found after `reply`, e.g. `reply cable_fault, crushed patch cord`."
+CONSOLE_LABEL_PROMPT = (
+    "(Been to the link? Say what you found: `reply crushed patch cord behind the desk`.)"
 )
-CONSOLE_NOT_A_LABEL = "(not read as a label: name what you found, e.g. `cable_fault, crushed cord`)"
+CONSOLE_NOTHING_TO_REPLY = "Nothing to reply to yet: ask about a port first."
+CONSOLE_REPLY_WHAT = "Say what you found after `reply`, e.g. `reply crushed patch cord`."
+CONSOLE_NOT_A_LABEL = "(not read as a label: say what you found, e.g. `crushed patch cord`)"
 
 
 def cannot_start(why: str) -> str:
@@ -570,8 +595,8 @@ def serves_at(serves: str, site: str) -> str:
     return f"({serves}, {site})"
 
 
-def person_labelled(person: str, confirmed: bool, title: str) -> str:
-    return f"{person} {'confirmed' if confirmed else 'found'} {title}"
+def person_labelled(person: str, said: str) -> str:
+    return f"{person} found {said}"
 
 
 def labelled(said: list[str], disputed: bool) -> str:
@@ -582,11 +607,6 @@ def labelled(said: list[str], disputed: bool) -> str:
     return line
 
 
-def confirm_button(title: str, confirmed: int) -> str:
-    return f"Confirm too ({confirmed} so far)" if confirmed else f"Confirm: {title}"
-
-
-IT_WAS_REALLY = "It was really\u2026"
 CHECK_AGAIN = "Check again"
 HOW_TO_USE = "How to use linktriage"
 HELP_TITLE = "linktriage"
@@ -630,5 +650,5 @@ def found_note(note: str) -> str:
     return f"found: {note}"
 
 
-def recorded_fallback(verdict: str, device: str, port: str) -> str:
-    return f"Recorded {verdict} on {device} {port}"
+def recorded_fallback(said: str, device: str, port: str) -> str:
+    return f"Recorded: found {said} at {device} {port}"

@@ -368,6 +368,7 @@ class Store:
         event_key: str,
         at: float,
         turn: int,
+        finding: str | None = None,
     ) -> LabelKept:
         """Keep a label as its author's ``turn``-th on the answer (one more than the labels
         of theirs the caller decided on). ``repeat``: the same event was stored already (a
@@ -388,6 +389,7 @@ class Store:
             source=source,
             event_key=event_key,
             turn=turn,
+            finding=finding,
         )
         if self._written("keep the label", lambda conn: conn.execute(label)):
             return "stored"
@@ -424,6 +426,7 @@ class Store:
                 user_id=r.user_id,
                 channel=r.channel,
                 source=r.source,
+                finding=r.finding,
             )
             for r in rows
         ]

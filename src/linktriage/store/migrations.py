@@ -194,6 +194,11 @@ def _outbox(conn: Connection) -> None:
     metadata.create_all(conn, tables=[outbox_table])
 
 
+def _findings(conn: Connection) -> None:
+    if "finding" not in {c["name"] for c in sa.inspect(conn).get_columns("labels")}:
+        conn.exec_driver_sql("ALTER TABLE labels ADD COLUMN finding TEXT")
+
+
 def _retention_indexes(conn: Connection) -> None:
     for table in (diagnoses_table, digests_table, audit_table):
         _create_missing_indexes(conn, table)
@@ -221,4 +226,5 @@ MIGRATIONS: tuple[Migration, ...] = (
     Migration(9, "each person's labels of an answer numbered, each number once", _label_turns),
     Migration(10, "every message to Slack kept in an outbox until sent", _outbox),
     Migration(11, "answers, lists and the audit log found by time, to forget", _retention_indexes),
+    Migration(12, "labels keep what the engineer found", _findings),
 )

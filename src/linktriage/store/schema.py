@@ -63,7 +63,7 @@ labels_table = sa.Table(
     sa.Column("diagnosis_id", sa.BigInteger, sa.ForeignKey("diagnoses.id"), nullable=False),
     sa.Column("device", sa.Text, nullable=False),
     sa.Column("port", sa.Text, nullable=False),
-    sa.Column("verdict", sa.Text, nullable=False),  # what the engineer found
+    sa.Column("verdict", sa.Text, nullable=False),  # the verdict it teaches, "" if none
     sa.Column("model_verdict", sa.Text, nullable=False),  # what the model had said
     sa.Column("model_version", sa.Text, nullable=False),
     sa.Column("features", sa.Text, nullable=False),
@@ -75,6 +75,8 @@ labels_table = sa.Table(
     # Each person's labels of one answer numbered 1, 2, ... (since schema version 9): two
     # presses at once on two replicas both take the same number, and the database keeps one.
     sa.Column("turn", sa.Integer),
+    # What the engineer found (since schema version 12); NULL on labels that named a verdict.
+    sa.Column("finding", sa.Text),
     sa.Index("labels_one_per_turn", "diagnosis_id", "user_id", "turn", unique=True),
 )
 digests_table = sa.Table(

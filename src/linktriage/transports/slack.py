@@ -44,16 +44,16 @@ from linktriage.bot.commands import (
     ShowTree,
 )
 from linktriage.bot.triage import Triage
-from linktriage.engine.verdicts import TREE_VERDICTS
+from linktriage.engine.model.findings import BY_ID as FINDINGS_BY_ID
 from linktriage.errors import LinktriageError, StoreError
 from linktriage.render import words
 from linktriage.render.blocks import (
-    CONFIRM_ACTION,
-    CORRECT_ACTION,
+    EARLIER_LABEL_ACTIONS,
+    FOUND_ACTION,
     RECHECK_ACTION,
     message_for,
 )
-from linktriage.render.replies import LabelReply, Reply
+from linktriage.render.replies import LabelRefused, LabelReply, Reply
 from linktriage.settings import Settings
 from linktriage.transports.slack_sender import SlackSender, outgoing
 
@@ -275,24 +275,23 @@ def build_app(
         user = body["user"]["id"]
         channel = body.get("channel", {}).get("id")
         thread = body.get("container", {}).get("message_ts") or body.get("message", {}).get("ts")
-        if action["action_id"] == CONFIRM_ACTION:
-            raw_id, verdict = action.get("value", ""), None
-        else:
-            raw_id, _, verdict = (
-                (action.get("selected_option") or {}).get("value", "").partition(":")
-            )
-        if not raw_id.isdigit() or (verdict is not None and verdict not in TREE_VERDICTS):
-            log.warning("ignored a label action with value %r", action.get("value"))
-            return
         key = f"action:{thread}:{user}:{action.get('action_ts')}"
-        reply = triage.labels.button(
-            int(raw_id), verdict, user=user, channel=channel, event_key=key
-        )
+        if action["action_id"] in EARLIER_LABEL_ACTIONS:
+            reply: LabelReply | LabelRefused | None = LabelRefused(words.LABEL_SAY_FOUND)
+        else:
+            raw_id, _, found = (action.get("selected_option") or {}).get("value", "").partition(":")
+            if not raw_id.isdigit() or found not in FINDINGS_BY_ID:
+                log.warning("ignored a label action with value %r", action.get("value"))
+                return
+            reply = triage.labels.button(
+                int(raw_id), found, user=user, channel=channel, event_key=key
+            )
         if channel:
             answer_label(reply, channel=channel, thread=thread, user=user)
 
-    app.action(CONFIRM_ACTION)(on_label_action)
-    app.action(CORRECT_ACTION)(on_label_action)
+    app.action(FOUND_ACTION)(on_label_action)
+    for earlier in EARLIER_LABEL_ACTIONS:
+        app.action(earlier)(on_label_action)
 
     def on_recheck(ack: Ack, body: dict[str, Any], action: dict[str, Any]) -> None:
         ack()

@@ -1,8 +1,10 @@
 """Labels as training rows: the feature row a verdict was based on, and what was found.
 
 Which labels count: one per person per answer, the latest (a person who changes their
-mind replaces their label; the earlier one stays in the store for the audit), and none of
+mind replaces their label; the earlier one stays in the store for the audit), none whose
+finding teaches no verdict (:func:`linktriage.engine.model.findings.taught`), and none of
 an answer whose people disagree, until they agree: a disputed answer teaches nothing.
+Labels kept before findings name a verdict and no finding; they count as they did.
 """
 
 from __future__ import annotations
@@ -25,7 +27,7 @@ class Label:
     diagnosis_id: int
     device: str
     port: str
-    verdict: str
+    verdict: str  # the verdict it teaches; "" where its finding teaches none
     model_verdict: str
     model_version: str
     features: dict[str, float | None]
@@ -33,10 +35,12 @@ class Label:
     user_id: str
     channel: str | None
     source: str
+    finding: str | None = None  # what was found (findings.FINDINGS); None: a verdict named
 
 
 META = (
     "verdict",
+    "finding",
     "model_verdict",
     "device",
     "port",
@@ -68,6 +72,7 @@ class Settled:
     kept: list[Label]  # one per person per answer, of answers whose labels agree
     replaced: list[Label]  # earlier labels their person changed
     disputed: dict[int, list[Label]]  # answer (diagnosis id) -> its disagreeing labels
+    untaught: list[Label]  # latest labels whose finding teaches no verdict
 
 
 def current(labels: Sequence[Label]) -> tuple[list[Label], list[Label]]:
@@ -81,14 +86,16 @@ def current(labels: Sequence[Label]) -> tuple[list[Label], list[Label]]:
 def settle(labels: Sequence[Label]) -> Settled:
     """The labels that train the model (see the module's docstring)."""
     latest, replaced = current(labels)
+    untaught = [label for label in latest if not label.verdict]
+    teaching = [label for label in latest if label.verdict]
     verdicts: dict[int, set[str]] = {}
-    for label in latest:
+    for label in teaching:
         verdicts.setdefault(label.diagnosis_id, set()).add(label.verdict)
     disputed: dict[int, list[Label]] = {}
     kept: list[Label] = []
-    for label in latest:
+    for label in teaching:
         if len(verdicts[label.diagnosis_id]) > 1:
             disputed.setdefault(label.diagnosis_id, []).append(label)
         else:
             kept.append(label)
-    return Settled(kept, replaced, disputed)
+    return Settled(kept, replaced, disputed, untaught)

@@ -1,13 +1,13 @@
-"""The learning loop: the prior plus what engineers confirmed, promoted only if no worse.
+"""The learning loop: the prior plus what engineers found, promoted only if no worse.
 
-The labels that count (:func:`linktriage.engine.model.labels.settle`: each person's latest on each
-answer, none of a disputed answer) are split, deterministically for the seed, into rows
-to train on and rows held out (a share of them, at least one). The candidate is trained
-on the simulated prior plus the training labels, each label weighted above a simulated
-row; then the candidate and the current model are both scored on the held-out labels, and the
-candidate is promoted only if it does at least as well. The current model may have
-learnt from some of the held-out labels in an earlier round, which favours it: the rule
-errs towards keeping what already works.
+The labels that count (:func:`linktriage.engine.model.labels.settle`: each person's latest
+on each answer, as the verdict its finding teaches, none of a disputed answer) are split,
+deterministically for the seed, into rows to train on and rows held out (a share of them, at
+least one). The candidate is trained on the simulated prior plus the training labels, each
+label weighted above a simulated row; then the candidate and the current model are both
+scored on the held-out labels, and the candidate is promoted only if it does at least as
+well. The current model may have learnt from some of the held-out labels in an earlier
+round, which favours it: the rule errs towards keeping what already works.
 """
 
 from __future__ import annotations
@@ -95,9 +95,10 @@ def learn(labels: Sequence[Label], current: TreeArtefact, cfg: TrainingConfig) -
     if len(labels) < 2:
         also = f" ({older} more were recorded under an earlier release's inputs)" if older else ""
         raise InputError(
-            f"{len(labels)} usable confirmed labels{also}: at least 2 are needed, one to "
-            "learn from and one to check the result on.",
-            hint="Label more answers in the channel (reply in their threads), then train again.",
+            f"{len(labels)} usable labels{also}: at least 2 are needed, one to learn from and "
+            "one to check the result on.",
+            hint="Say what was found on more answers in the channel (pick it from an answer's "
+            "menu or reply in its thread), then train again.",
         )
     train_rows, held = split(labelled_rows(labels), cfg.seed)
     candidate = train(cfg, train_rows)

@@ -202,7 +202,7 @@ def choose_alpha(scores: list[AlphaScore], max_leaves: int) -> tuple[AlphaScore,
 
 
 def train(cfg: TrainingConfig | None = None, labelled: LabelledRows | None = None) -> TreeArtefact:
-    """Build the pruned tree from the simulated prior (and confirmed labels, weighted
+    """Build the pruned tree from the simulated prior (and the labels engineers gave, weighted
     ``label_weight`` each) and describe how it was chosen."""
     cfg = cfg or TrainingConfig()
     prior = prior_rows(cfg.simulated_ports, cfg.seed)
