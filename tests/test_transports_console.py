@@ -27,13 +27,14 @@ def test_a_conversation_asks_labels_and_lists(triage: Triage) -> None:
     )
     text = "\n".join(out)
     assert "`suspects [SITE]`" in text
-    assert "lark-east-idf2 port14: cable or connector fault (cable_fault)" in text
+    assert "Receive errors at lark-east-idf2 port14, " in text
+    assert "\ncable or connector fault (cable_fault), confidence" in text
     assert (
         "Recorded: console found a damaged patch cord or cable at lark-east-idf2 port14: "
         "crushed patch cord behind the desk. It bears out the answer (cable_fault)" in text
     )
     assert "not read as a label" in text
-    assert "lark-annex-sw1 port3: MTU mismatch" in text
+    assert "lark-annex-sw1 port3: MTU mismatch" in text  # in the list
     assert (
         "Recorded: console found MTU set differently at the two ends at lark-annex-sw1 port3"
         in text
@@ -62,7 +63,7 @@ def test_errors_have_no_thread(triage: Triage) -> None:
 def test_a_leading_mention_of_the_bot_is_understood(triage: Triage) -> None:
     answer = Console(triage).say("@linktriage lark-east-idf2 port14")
     assert answer is not None
-    assert "\nlark-east-idf2 port14: cable or connector fault (cable_fault)" in answer
+    assert "\nReceive errors at lark-east-idf2 port14, " in answer
 
 
 def test_help_at_the_prompt_shows_the_commands_as_typed_there(triage: Triage) -> None:

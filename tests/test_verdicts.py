@@ -11,11 +11,14 @@ import numpy as np
 import pytest
 
 from linktriage.engine.diagnosis.batch import DiagnosisBatch
+from linktriage.engine.diagnosis.loaded_model import Model
+from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.answers import Verdict
 from linktriage.engine.measure.signs import Signs
 from linktriage.engine.model.features import FEATURE_NAMES
 from linktriage.engine.simulate.ports import TRAINING, base
 from linktriage.engine.verdict_kit.declaration import (
+    NEEDS,
     SHORT,
     Caution,
     GuardVerdict,
@@ -33,7 +36,7 @@ from linktriage.engine.verdicts import (
     kind_of,
 )
 
-from helpers import package_copy, run_in_copy
+from helpers import T0, line, package_copy, polls, run_in_copy
 
 DOCS = Path(__file__).parents[1] / "docs" / "snapshot-format.md"
 
@@ -209,6 +212,44 @@ def test_every_check_that_handles_a_cord_or_module_says_so() -> None:
                 assert Touch.UNPLUG in check.touches, (kind.verdict, check.text)
 
 
+@pytest.mark.parametrize("verdict", VERDICTS)
+def test_an_answer_carries_only_the_cautions_its_checks_need(verdict: Verdict) -> None:
+    # A caution is for the work a check does (IEC 60825-1 for opening fibre ends, IEEE
+    # 802.3af/at/bt power for unplugging a PoE port; the rest common practice): one that no
+    # check of this answer calls for is noise that hides the ones that matter.
+    kind = kind_of(verdict)
+    for fiber in (False, True, None):
+        for poe in (False, True):
+            touched = frozenset().union(*(c.touches for c in kind.checks_for(fiber=fiber)))
+            for caution in kind.cautions_for(poe=poe, fiber=fiber):
+                if caution is not Caution.LOCAL_CODES:
+                    assert touched & NEEDS[caution], (verdict, caution.name, fiber, poe)
+
+
+def test_a_port_that_is_already_down_is_not_told_to_warn_its_users() -> None:
+    # Nothing crosses a link that is down: "tell its users first" would be wrong there.
+    for fiber in (False, True):
+        assert Caution.SERVICE_BREAK not in kind_of("link_down").cautions_for(poe=True, fiber=fiber)
+
+
+@pytest.mark.parametrize("fiber", [False, True])
+def test_what_stops_harm_comes_first_a_one_way_link_out_of_forwarding(fiber: bool) -> None:
+    # A one-way link can loop or black-hole traffic (IEEE 802.1D spanning tree assumes
+    # links carry both ways): keeping it out of forwarding comes before finding the fault.
+    (first, *rest) = kind_of("unidirectional").checks_for(fiber=fiber)
+    assert first.stops_harm and "out of forwarding" in first.text
+    assert not any(c.stops_harm for c in rest)
+
+
+def test_a_slow_link_asks_what_the_far_end_supports_before_testing_the_cable() -> None:
+    # Reading the far end's abilities disturbs nothing; testing the cable takes the link
+    # down (common practice: look before you handle).
+    texts = [c.text for c in kind_of("negotiation_degraded").checks]
+    supports = next(i for i, t in enumerate(texts) if "far end supports" in t)
+    cable = next(i for i, t in enumerate(texts) if "test the cable" in t)
+    assert supports < cable
+
+
 def test_every_caution_has_a_short_form_for_the_first_screen() -> None:
     assert set(SHORT) == set(Caution)
     assert all(len(text) <= 160 for text in SHORT.values())
@@ -325,8 +366,8 @@ print(json.dumps({"verdicts": VERDICTS, "classes": artefact.classes, "record": r
 def test_a_verdict_added_as_one_module_is_served_end_to_end(tmp_path: Path) -> None:
     # Nothing of the package changes but the new module: the registry finds it, the prior
     # simulates it, a model trained on that prior answers it, the demo network plants it,
-    # the bot answers it with its evidence and checks, Block Kit offers it as a label, and
-    # a thread reply that names it is read as it.
+    # the bot answers it with its evidence and checks and asks what was found, and a thread
+    # reply that names it is read as it.
     root = package_copy(tmp_path, {})
     (root / "linktriage" / "engine" / "verdicts" / "toy_fault.py").write_text(TOY)
     done = run_in_copy(root, SERVE_THE_TOY, str(tmp_path))
@@ -339,7 +380,7 @@ def test_a_verdict_added_as_one_module_is_served_end_to_end(tmp_path: Path) -> N
     assert record["next_checks"] == ["Look at the toy.", "Swap the toy's cord."]
     assert "a toy on the annex desk" in json.dumps(seen["message"])
     drawn = json.dumps(seen["message"])
-    assert ':toy_fault"' in drawn and '"toy fault"' in drawn  # offered as what it really was
+    assert '"What did you find?"' in drawn  # what was found is asked, as on every answer
     assert seen["label"] == "toy_fault"
 
 
@@ -349,3 +390,32 @@ def test_every_fault_names_the_tree_features_that_show_it_and_which_way() -> Non
     for kind in TREE:
         assert {r.feature for r in kind.shown_by} <= set(FEATURE_NAMES), kind.verdict
         assert bool(kind.shown_by) == (kind.severity is not None), kind.verdict
+
+
+def test_a_port_down_says_since_when_and_that_it_flapped_first(model: Model) -> None:
+    # SNAPSHOT-FORMAT 1.2: link_changes counts oper-status transitions (cumulative) and
+    # last_change is ifLastChange as a time (RFC 2863). Up at 08:00 with 3 changes so far;
+    # down at 08:05 after 15 more, the last at 08:04:10.
+    t5 = "2026-03-02T08:05:00Z"
+    table = polls(
+        line(T0, {"ifHCInOctets": 10**9}, speed_bps=10**9, link_changes=3),
+        line(t5, {"ifHCInOctets": 10**9}, oper_status="down", speed_bps=10**9,
+             link_changes=18, last_change="2026-03-02T08:04:10Z"),
+    )  # fmt: skip
+    record = diagnose(table, model).record(0)
+    assert record["verdict"] == "link_down"
+    said = [e["said"] for e in record["evidence"]]
+    assert said[0] == "the port is down, since 2026-03-02T08:04:10Z (its last change of state)"
+    assert said[1] == "before that, the link went down or up 15 times in 5 min (flapping)"
+
+
+def test_a_port_down_without_its_last_change_says_the_device_did_not_say(model: Model) -> None:
+    table = polls(
+        line(T0, {"ifHCInOctets": 10**9}, speed_bps=10**9),
+        line("2026-03-02T08:05:00Z", {"ifHCInOctets": 10**9}, oper_status="down",
+             speed_bps=10**9),
+    )  # fmt: skip
+    (only,) = diagnose(table, model).record(0)["evidence"]
+    assert only["said"] == (
+        "the port is down at the latest poll; the device does not say since when"
+    )

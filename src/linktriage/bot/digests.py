@@ -15,6 +15,7 @@ from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
 from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, NOT_JUDGED, SEVERITY
+from linktriage.engine.verdicts.link_down import LINK_DOWN
 from linktriage.errors import AmbiguousNameError, CommandError
 from linktriage.gc_pause import gc_paused
 from linktriage.network.watched import Network, fitting
@@ -83,7 +84,8 @@ class Digests:
             SuspectItem(rank, record, diagnosis_id, reason(record))
             for rank, (record, diagnosis_id) in enumerate(zip(records, ids, strict=True), start=1)
         ]
-        not_judged = Counter(GUARD_KINDS[batch.verdict[i]].not_judged for i in unjudged(batch))
+        quiet = unjudged(batch)
+        not_judged = Counter(GUARD_KINDS[batch.verdict[i]].not_judged for i in quiet)
         return SuspectsReply(
             title=scope.title,
             items=items,
@@ -91,6 +93,7 @@ class Digests:
             not_judged=dict(not_judged),
             failed=dict(failed),
             at=self.clock(),
+            down=down_ports(batch, quiet),
         )
 
     def scope(self, text: str | None) -> Scope:
@@ -137,6 +140,7 @@ class Digests:
             since=previous.at if previous else None,
             cleared=sorted(f"{d} {p}" for d, p in before - now),
             kind="digest",
+            down=current.down,
         )
 
 
@@ -196,6 +200,19 @@ def _listed_end(batch: DiagnosisBatch, i: int) -> tuple[int, int, int, str, str]
     named = view is not None and view.said[0].startswith(batch.end_name(i))
     severity = SEVERITY[own] if own in FAULTS else 0
     return (0 if agrees else 1, 0 if named else 1, -severity, batch.device[i], batch.port[i])
+
+
+def down_ports(batch: DiagnosisBatch, rows: list[int]) -> list[str]:
+    """The ports of ``rows`` that are down (not shut on purpose, by the switch or for want
+    of power), named with since when and how often the link changed before: an engineer
+    walks to them, so a count alone is not enough."""
+    since = batch.column("last_change")
+    changes = batch.column("link_changes")
+    return [
+        words.down_port(batch.device[i], batch.port[i], since[i], changes[i])
+        for i in rows
+        if batch.verdict[i] == LINK_DOWN
+    ]
 
 
 def unjudged(batch: DiagnosisBatch) -> list[int]:

@@ -21,6 +21,7 @@ from linktriage.engine.verdict_kit.declaration import SHORT
 from linktriage.engine.verdicts import cautions_for, kind_of
 from linktriage.render import words
 from linktriage.render.card import card_text
+from linktriage.render.headline import answer_headline, capitalised
 from linktriage.render.replies import (
     DiagnosisReply,
     ErrorReply,
@@ -147,7 +148,7 @@ def _slack_time(at: float) -> str:
 def _facts(reply: DiagnosisReply) -> str:
     """Confidence (for a tree verdict), where, who asked and when, on one line."""
     r = reply.record
-    facts = []
+    facts = [words.verdict_named(f"*{escape(r['title'])}*", f"`{r['verdict']}`")]
     if r["confidence"] is not None:  # a guard's answer is a fact, not a guess
         facts.append(words.confidence_fact(f"*{words.confidence_cell(r['confidence'])}*"))
     where = ", ".join(escape(part) for part in (reply.serves, reply.site) if part)
@@ -176,7 +177,7 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
     values, every check and every caution follow in its thread (:func:`diagnosis_thread`)."""
     r = reply.record
     head: list[Block] = [
-        _header(words.port_title(r["device"], r["port"], r["title"])),
+        _header(capitalised(answer_headline(r))),
         _context(_facts(reply)),
     ]
     if reply.changed:

@@ -159,11 +159,14 @@ class SuspectsReply:
     digest_id: int | None = None
     visibility: Visibility = "channel"
     kind: str = "suspects"  # or "digest": the scheduled one, kept once it is posted
+    down: list[str] = field(default_factory=list)  # the ports down, each named with since
 
     @property
     def coverage(self) -> str:
         """How much was read and judged, in words: never an all-clear for what was not."""
-        return coverage_words(len(self.items), self.ports_judged, self.not_judged, self.failed)
+        return coverage_words(
+            len(self.items), self.ports_judged, self.not_judged, self.failed, down=self.down
+        )
 
 
 @dataclass(frozen=True, slots=True)

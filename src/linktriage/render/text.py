@@ -10,10 +10,12 @@ from typing import IO, assert_never
 from linktriage.engine.diagnosis.batch import DiagnosisBatch, headline
 from linktriage.engine.format.answers import DiagnosisRecord
 from linktriage.engine.measure.numbers import sig
+from linktriage.engine.model.questions import NOT_REPORTED
 from linktriage.engine.verdicts import kind_of
 from linktriage.printable import printable
 from linktriage.render import words
 from linktriage.render.card import card_text
+from linktriage.render.headline import answer_headline, capitalised
 from linktriage.render.replies import (
     DiagnosisReply,
     ErrorReply,
@@ -73,9 +75,8 @@ def _wrapped(text: str, first: str, rest: str) -> list[str]:
 def explanation(record: DiagnosisRecord) -> str:
     """Everything about one port's diagnosis, for a person to read and act on."""
     lines = [
-        words.verdict_line(
-            printable(record["device"]),
-            printable(record["port"]),
+        *words.answer_lines(
+            printable(capitalised(answer_headline(record))),
             record["title"],
             record["verdict"],
             record["confidence"],
@@ -96,21 +97,13 @@ def explanation(record: DiagnosisRecord) -> str:
         lines += ["", words.own_view_heading(own["title"])]
         for item in own["evidence"]:
             lines += _wrapped(f"{item['said']} [{item['source']}]", "  * ", "    ")
-    if record["ruled_out"] is not None:
-        lines += ["", *_wrapped(ruled_out_line(record["ruled_out"]), "", "")]
-    lines += ["", words.QUESTIONS_ASKED if own is None else words.QUESTIONS_OF_THIS_END]
-    for n, q in enumerate(record["questions"], start=1):
-        lines += _wrapped(q["question"], f"  {n}. ", "     ")
-        lines += _wrapped(q["said"], "     -> ", "        ")
-    # An answer kept by an earlier release has no nearest_other.
-    nearest = record.get("nearest_other") if own is None else own["nearest_other"]
-    if nearest is not None:
-        lines += ["", *_wrapped(nearest_line(nearest), "", "")]
     ber = record["bit_errors"]
     if ber is not None:
         lines += ["", *_wrapped(ber_line(ber), "", "")]
     if own is None:
         lines += _both_ends(record)
+    # What to do comes before how the tree got there: checks (what stops harm first, as
+    # each verdict orders them) and the cautions they need, then the questions.
     lines += ["", words.CHECK_NEXT]
     for check in record["next_checks"]:
         lines += _wrapped(check, "  - ", "    ")
@@ -118,6 +111,22 @@ def explanation(record: DiagnosisRecord) -> str:
         lines += ["", words.SAFETY]
         for caution in record["cautions"]:
             lines += _wrapped(caution, "  ! ", "    ")
+    if record["ruled_out"] is not None:
+        lines += ["", *_wrapped(ruled_out_line(record["ruled_out"]), "", "")]
+    lines += ["", words.QUESTIONS_ASKED if own is None else words.QUESTIONS_OF_THIS_END]
+    unread = []
+    for n, q in enumerate(record["questions"], start=1):
+        if q["value"] is None and q["said"].endswith(NOT_REPORTED):  # light on copper
+            unread.append(n)
+            continue
+        lines += _wrapped(q["question"], f"  {n}. ", "     ")
+        lines += _wrapped(q["said"], "     -> ", "        ")
+    if unread:
+        lines += _wrapped(words.unread_questions(unread), "  ", "  ")
+    # An answer kept by an earlier release has no nearest_other.
+    nearest = record.get("nearest_other") if own is None else own["nearest_other"]
+    if nearest is not None:
+        lines += ["", *_wrapped(nearest_line(nearest), "", "")]
     return "\n".join(lines)
 
 

@@ -97,11 +97,21 @@ def plural(n: int, one: str, many: str | None = None) -> str:
     return f"{n:,} {one if n == 1 else (many or one + 's')}"
 
 
+#: Down ports a list names in its first paragraph; the rest are counted.
+NAMED_DOWN = 10
+
+
 def coverage_words(
-    suspects: int, judged: int, not_judged: Mapping[str, int], failed: Mapping[str, str]
+    suspects: int,
+    judged: int,
+    not_judged: Mapping[str, int],
+    failed: Mapping[str, str],
+    *,
+    down: Sequence[str] = (),
 ) -> str:
     """What a list of suspects covers, in one paragraph. It is an all-clear only when every
-    device was read and every port judged; anything unread or unjudged is named."""
+    device was read and every port judged; anything unread or unjudged is counted, and
+    the ports that are down are named (someone walks to them)."""
     if judged == 0 and not any(not_judged.values()) and failed:
         devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
         return (
@@ -117,10 +127,23 @@ def coverage_words(
     parts = [head]
     if any(not_judged.values()):
         parts.append(ports_not_judged(not_judged))
+    if down:
+        more = len(down) - NAMED_DOWN
+        named = "; ".join(down[:NAMED_DOWN]) + (f"; and {more:,} more" if more > 0 else "")
+        parts.append(f"down: {named}")
     if failed:
         devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
         parts.append(f"{plural(len(failed), 'device')} not read ({devices})")
     return "; ".join(parts) + "."
+
+
+def down_port(device: str, port: str, since: float, changes: float) -> str:
+    """A port that is down, as a list names it: since when (ifLastChange, where the device
+    says it) and how often the link changed before, within the window."""
+    said = [f"since {utc_minute(since)}"] if since == since else []
+    if changes == changes and changes >= 2:
+        said.append(f"after {changes:,.0f} link changes in the window")
+    return f"{device} {port}" + (f" ({', '.join(said)})" if said else "")
 
 
 def ports_not_judged(not_judged: Mapping[str, int]) -> str:
@@ -575,6 +598,19 @@ def steps_fallback(title: str) -> str:
     return f"Checks and cautions: {title}"
 
 
+def verdict_named(title: str, verdict: str) -> str:
+    """The verdict beside an answer's headline: its words, then its id."""
+    return f"{title} ({verdict})"
+
+
+def answer_lines(headline: str, title: str, verdict: str, confidence: float | None) -> list[str]:
+    """An answer's first lines in the terminal: what was measured where, then the verdict
+    (a guard's answer is a fact, with no confidence)."""
+    named = verdict_named(title, verdict)
+    sure = "" if confidence is None else f", confidence {confidence_cell(confidence)}"
+    return [headline, f"{named}{sure}"]
+
+
 def confidence_fact(value: str) -> str:
     return f"confidence {value}"
 
@@ -585,6 +621,17 @@ def window_fact(seconds: str, polls: int) -> str:
 
 def model_fact(version: str) -> str:
     return f"model {version}"
+
+
+def unread_questions(numbers: list[int]) -> str:
+    """The tree's questions about readings the port does not give (light on copper): one
+    line, since each answered "no evidence"."""
+    which = ", ".join(str(n) for n in numbers)
+    noun = "Question" if len(numbers) == 1 else "Questions"
+    return (
+        f"({noun} {which} asked of readings this port does not report, so no evidence of "
+        "them either way)"
+    )
 
 
 def note_line(note: str) -> str:

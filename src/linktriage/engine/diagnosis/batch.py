@@ -405,7 +405,13 @@ class DiagnosisBatch:
             at = self.end_name(self.far[i])
             said = [{**e, "said": f"at {at}: {e['said']}"} for e in far_end["evidence"]]
         reasons = [item("link", None, "", None, _LINK_SOURCE, reason) for reason in view["said"]]
-        checks = [*view["checks"], *(c.text for c in kind.checks_for(fiber=self.fiber[i]))]
+        own_checks = kind.checks_for(fiber=self.fiber[i])
+        # What stops harm first, then the checks naming each end, then the verdict's own.
+        checks = [
+            *(c.text for c in own_checks if c.stops_harm),
+            *view["checks"],
+            *(c.text for c in own_checks if not c.stops_harm),
+        ]
         _, warn = _advice_json(verdict, self.fiber[i], self.poe[i])
         own: OwnViewRecord = {
             "verdict": self.verdict[i],

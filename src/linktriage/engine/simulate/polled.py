@@ -119,8 +119,10 @@ class PortConstants:
         down: np.ndarray,
         link_changes: np.ndarray,
         discontinuity: np.ndarray | None = None,
+        last_change: np.ndarray | None = None,
     ) -> PollTable:
-        """The poll table when each quantity has grown by ``steps`` since the start."""
+        """The poll table when each quantity has grown by ``steps`` since the start;
+        ``last_change`` is when each port last changed state (NaN: not said)."""
         n = len(p)
         counters = np.zeros((n, len(COLUMNS)), np.uint64)
         for q in SIMULATED:
@@ -151,6 +153,7 @@ class PortConstants:
                 "mtu": p["mtu"].to_numpy(np.float64),
                 "link_changes": np.where(p["reports_link_changes"], links, np.nan),
                 "discontinuity": self.discontinuity if discontinuity is None else discontinuity,
+                "last_change": np.full(n, np.nan) if last_change is None else last_change,
                 "half_duplex": np.where(
                     duplex_known, p["half_duplex"].to_numpy(np.float64), np.nan
                 ),
@@ -288,6 +291,8 @@ class LiveCounters:
     def at(self, rows: np.ndarray, when: float) -> PollTable:
         """The counters of ``rows`` read at ``when``."""
         p = self.params.iloc[rows].reset_index(drop=True)
+        onset = self.onset[rows]
+        down = p["down"].to_numpy(np.bool_) & (when >= onset)  # up until it went down
         elapsed = max(when - self.epoch, 0.0)  # before the epoch, counters have not started
         before_s = np.clip(self.onset[rows] - self.epoch, 0.0, elapsed)
         after_s = elapsed - before_s
@@ -309,8 +314,10 @@ class LiveCounters:
             device=self.device[rows],
             port=self.port[rows],
             time=np.full(len(rows), when),
-            down=p["down"].to_numpy(np.bool_),
+            down=down,
             link_changes=self.flaps_before[rows] * before_s + self.flaps_per_s[rows] * after_s,
+            # A port that went down at its onset says so, as ifLastChange would (RFC 2863).
+            last_change=np.where(down & (onset > self.epoch), onset, np.nan),
         )
 
 

@@ -122,14 +122,16 @@ NEEDS: dict[Caution, frozenset[Touch]] = {
 
 @dataclass(frozen=True, slots=True)
 class Check:
-    """One physical check, and what doing it involves."""
+    """One physical check, what doing it involves, and whether it stops harm the link does
+    to others while it is found (a one-way link kept out of forwarding, a loop cut)."""
 
     text: str
     touches: frozenset[Touch] = frozenset()
+    stops_harm: bool = False
 
 
-def check(text: str, *touches: Touch) -> Check:
-    return Check(text, frozenset(touches))
+def check(text: str, *touches: Touch, stops_harm: bool = False) -> Check:
+    return Check(text, frozenset(touches), stops_harm)
 
 
 class When(Enum):
@@ -232,11 +234,17 @@ class VerdictKind:
         return self.checks
 
     def cautions_for(self, *, poe: bool | None, fiber: bool | None) -> list[Caution]:
-        """The cautions for acting on this verdict at this port; none where nothing is
-        touched, and local codes last wherever there is any."""
+        """The cautions for acting on this verdict at this port: those its checks here call
+        for (a caution no check's work needs is not shown), and local codes last wherever
+        there is any."""
         light = fiber is not False  # unknown medium: warn as if it could be fiber
         shown = {When.ALWAYS: True, When.LIGHT: light, When.POE: bool(poe)}
-        chosen = [caution for caution, when in self.cautions if shown[when]]
+        touched = frozenset().union(*(c.touches for c in self.checks_for(fiber=fiber)))
+        chosen = [
+            caution
+            for caution, when in self.cautions
+            if shown[when] and touched & NEEDS.get(caution, frozenset())
+        ]
         return [*chosen, Caution.LOCAL_CODES] if chosen else []
 
 

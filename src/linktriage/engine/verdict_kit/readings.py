@@ -354,8 +354,16 @@ def rx_light(c: PortGroup) -> MaybeItems:
         against = _REFERENCE.get(kind, f"the receiver's sensitivity ({phy or 'this PHY'})")
         margin = rx - reference
         side = "above" if margin >= 0 else "under"
-        also = f"; low alarm {alarm:.1f} dBm" if kind == 1.0 and alarm == alarm else ""
         where = f"{abs(margin):.1f} dB {side} {against} ({reference:.1f} dBm)"
+        if kind == 1.0 and alarm == alarm and rx < alarm:
+            # Under the alarm too: the alarm is the news (SFF-8472 sets warning above alarm).
+            where = (
+                f"{alarm - rx:.1f} dB under the module's low alarm ({alarm:.1f} dBm), "
+                f"{-margin:.1f} dB under its low warning ({reference:.1f} dBm)"
+            )
+            also = ""
+        else:
+            also = f"; low alarm {alarm:.1f} dBm" if kind == 1.0 and alarm == alarm else ""
         said = f"receiving {rx:.1f} dBm, {where}{also}"
         source = "SFF-8472 thresholds" if kind in _REFERENCE else "IEEE 802.3 receiver sensitivity"
         out.append(item("rx_power", rx, "dBm", reference, source, said))

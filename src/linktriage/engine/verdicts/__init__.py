@@ -63,6 +63,10 @@ def _checked(kinds: tuple[VerdictKind, ...]) -> tuple[VerdictKind, ...]:
             _refuse(kind, "is not an id of lower-case words joined by '_'")
         if not (kind.title and kind.meaning and kind.checks):
             _refuse(kind, "needs a title, a meaning and at least one check")
+        for checks in (kind.checks, kind.fiber_checks or ()):
+            first = [not c.stops_harm for c in checks]
+            if first != sorted(first):  # common practice of on-call work
+                _refuse(kind, "declares a check that stops harm after one that does not")
         for check in (*kind.checks, *(kind.fiber_checks or ())):
             if texts.setdefault(check.text, check) != check:
                 _refuse(

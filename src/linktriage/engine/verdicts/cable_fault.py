@@ -168,6 +168,7 @@ KIND = TreeVerdict(
         ),
     ),
     fiber_checks=(
+        check("Check received power against the module's thresholds at both ends."),
         check(
             "Clean both connectors and inspect the end faces with a fiber scope before "
             "re-seating (IEC 61300-3-35 describes what a clean end face looks like).",
@@ -179,7 +180,6 @@ KIND = TreeVerdict(
             Touch.UNPLUG,
             Touch.FIBER_END,
         ),
-        check("Check received power against the module's thresholds at both ends."),
     ),
     cautions=(
         (Caution.FIBER_EYES, When.LIGHT),

@@ -124,14 +124,14 @@ KIND = TreeVerdict(
     ),
     checks=(
         check(
+            "Compare the light and bias of every lane at both ends: one weak lane is that "
+            "lane's strand or the module."
+        ),
+        check(
             "Clean both ends' connectors and inspect the end faces with a fiber scope: the "
             "commonest cause of a rising corrected rate (re-seat a direct-attach cable).",
             Touch.UNPLUG,
             Touch.FIBER_END,
-        ),
-        check(
-            "Compare the light and bias of every lane at both ends: one weak lane is that "
-            "lane's strand or the module."
         ),
         check(
             "Swap the module at the end whose receiver corrects, then the patch cord, and "

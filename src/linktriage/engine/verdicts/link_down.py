@@ -6,7 +6,7 @@ from __future__ import annotations
 import numpy as np
 
 from linktriage.engine.format.answers import QuestionRecord, Verdict
-from linktriage.engine.measure.window import WindowStatus
+from linktriage.engine.measure.window import WindowStatus, moment
 from linktriage.engine.simulate.ports import COPPER_1G
 from linktriage.engine.verdict_kit.declaration import (
     BoolArray,
@@ -19,17 +19,28 @@ from linktriage.engine.verdict_kit.declaration import (
     check,
     question,
 )
-from linktriage.engine.verdict_kit.readings import Items, PortFacts, PortGroup, item
+from linktriage.engine.verdict_kit.readings import Items, PortFacts, PortGroup, flaps, item
 
 LINK_DOWN = Verdict("link_down")
 
 
 def _evidence(c: PortGroup) -> list[Items]:
+    """Down, since when (ifLastChange where the device gives it), and what came before in
+    the window: a port that went down and up many times first was failing, not unplugged."""
     out: list[Items] = []
-    for i in c.rows:
+    flapped = flaps(c)
+    for k, (i, changed) in enumerate(zip(c.rows, c["last_change"], strict=True)):
         state = str(c.facts.oper_status[i])
-        said = f"the port is {state} at the latest poll"
-        out.append([item("oper_status", state, "state", None, "RFC 2863 ifOperStatus", said)])
+        if changed == changed:
+            said = f"the port is {state}, since {moment(changed)} (its last change of state)"
+        else:
+            said = f"the port is {state} at the latest poll; the device does not say since when"
+        found = [item("oper_status", state, "state", None, "RFC 2863 ifOperStatus", said)]
+        before = flapped[k]
+        if before is not None:
+            before = {**before, "said": f"before that, the {before['said']}"}
+            found.append(before)
+        out.append(found)
     return out
 
 
@@ -72,11 +83,15 @@ KIND = GuardVerdict(
         (Caution.FIBER_EYES, When.LIGHT),
         (Caution.POE_POWER, When.POE),
         (Caution.WORK_AT_HEIGHT, When.ALWAYS),
-        (Caution.SERVICE_BREAK, When.ALWAYS),
-    ),
+    ),  # no service break: a port that is down carries nothing to interrupt
     evidence=_evidence,
     demo=DemoPlant(
-        "central", "lark-west-idf1", "port9", "meeting room display", {**COPPER_1G, "down": True}
+        "central",
+        "lark-west-idf1",
+        "port9",
+        "meeting room display",
+        {**COPPER_1G, "down": True},
+        since_s=1500.0,
     ),
     precedence=3,
     guard=_guard,

@@ -102,13 +102,13 @@ KIND = TreeVerdict(
             "limited to lower speeds."
         ),
         check(
+            "Check what the far end supports: an older device may only run at this speed, "
+            "in which case the link is as fast as it can be."
+        ),
+        check(
             "If both ends auto-negotiate and still come up slow, test the cable: a missing "
             "or broken pair leaves a gigabit link at 100 Mb/s.",
             Touch.UNPLUG,
-        ),
-        check(
-            "Check what the far end supports: an older device may only run at this speed, "
-            "in which case the link is as fast as it can be."
         ),
     ),
     cautions=((Caution.POE_POWER, When.POE), (Caution.SERVICE_BREAK, When.ALWAYS)),

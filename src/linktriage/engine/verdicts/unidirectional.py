@@ -114,6 +114,7 @@ _OUT_OF_FORWARDING = check(
     "Until it is fixed, keep the link out of forwarding: a one-way link can cause "
     "loops and black holes.",
     Touch.CONFIGURE,
+    stops_harm=True,
 )
 
 #: Phrases of the trade that name this verdict in a thread reply, each with a weight.
@@ -128,19 +129,19 @@ KIND = TreeVerdict(
     title="one-way link",
     meaning="Traffic flows one way only on a link that is up.",
     checks=(
-        check("Swap the patch cord, then test each pair of the cable run.", Touch.UNPLUG),
-        _FAR_END,
         _OUT_OF_FORWARDING,
+        _FAR_END,
+        check("Swap the patch cord, then test each pair of the cable run.", Touch.UNPLUG),
     ),
     fiber_checks=(
+        _OUT_OF_FORWARDING,
+        _FAR_END,
         check(
             "Check that transmit at each end is patched to receive at the other, and that "
             "neither strand is broken; compare received power at both ends.",
             Touch.UNPLUG,
             Touch.FIBER_END,
         ),
-        _FAR_END,
-        _OUT_OF_FORWARDING,
     ),
     cautions=(
         (Caution.FIBER_EYES, When.LIGHT),
