@@ -36,6 +36,16 @@ from linktriage.errors import CommandError
         ("<@U0LTBOT> suspects annex", ListSuspects("annex")),
         ("<@U0LTBOT|linktriage> lark-core1 up3", DiagnosePort("lark-core1", "up3")),
         ("@LinkTriage", ShowHelp()),
+        # Names as typed; the network settles what they name (network.watched).
+        ("idf2 Gi1/0/5", DiagnosePort("idf2", "Gi1/0/5")),
+        ("lark-circ-sw1 xe-0/0/1", DiagnosePort("lark-circ-sw1", "xe-0/0/1")),
+        ("10.20.0.5 port14", DiagnosePort("10.20.0.5", "port14")),
+        ("lark-core1.mgmt.example up3", DiagnosePort("lark-core1.mgmt.example", "up3")),
+        # IPv6 addresses as RFC 4291 section 2.2 writes them, an IPv4 address inside one too.
+        ("2001:db8:20::5 Te1/1/1", DiagnosePort("2001:db8:20::5", "Te1/1/1")),
+        ("2001:DB8:0:0:0:0:0:5 Po1", DiagnosePort("2001:DB8:0:0:0:0:0:5", "Po1")),
+        ("::ffff:10.20.0.5 port14", DiagnosePort("::ffff:10.20.0.5", "port14")),
+        ("history 2001:db8::5 Gi1/0/5 6h", ShowHistory("2001:db8::5", "Gi1/0/5", 21_600.0)),
     ],
 )
 def test_commands(text: str, command: object) -> None:
@@ -56,6 +66,14 @@ def test_commands(text: str, command: object) -> None:
         ("tree lark-core1 up3 6h", "`tree` takes a device and a port"),
         ("http://10.0.0.1/ x", "is not a device or port name"),
         ("port1 <@U123>", "is not a device or port name"),
+        # ":" makes a device word only as part of an IPv6 address.
+        ("10.20.0.5:161 port1", "is not a device or port name"),
+        ("[2001:db8::5] port1", "is not a device or port name"),
+        ("2001:db8::5/64 port1", "is not a device or port name"),
+        ("2001:db8::5%eth0 port1", "is not a device or port name"),
+        ("2001:db8:::5 port1", "is not a device or port name"),
+        ("fe80::1::2 port1", "is not a device or port name"),
+        ("lark:core1 up3", "is not a device or port name"),
     ],
 )
 def test_malformed_text_gets_a_short_answer_with_usage(text: str, complaint: str) -> None:

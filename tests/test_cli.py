@@ -573,6 +573,21 @@ def test_collect_from_a_device_that_never_answers_says_so_and_exits_4(
     assert "wrote 0 snapshots of lark-dead1 in 0 polls" in err
 
 
+def test_collect_finds_the_device_by_its_address(tmp_path: Path) -> None:
+    recording = tmp_path / "sw1.jsonl"
+    recording.write_text("\n".join(grown({"ifHCInUcastPkts": 10**6})) + "\n")
+    inventory = tmp_path / "inventory.toml"
+    inventory.write_text(
+        '[[devices]]\nname = "lark-test-sw1"\nsite = "annex"\ncollector = "file"\n'
+        f'address = "2001:db8:20::5"\n[devices.options]\npath = "{recording}"\n'
+    )
+    out = tmp_path / "out.jsonl"
+    code, _, err = run(
+        "collect", "--inventory", str(inventory), "--device", "2001:DB8:20:0::5", "--out", str(out)
+    )
+    assert code == 0 and "wrote 1 snapshot of lark-test-sw1 in 1 poll" in err
+
+
 def test_control_characters_in_names_are_shown_not_obeyed(tmp_path: Path) -> None:
     # A device name that clears the screen, a port name that forges a table row.
     lines = grown(

@@ -99,7 +99,12 @@ def ask(
     model_path: Path | None,
 ) -> None:
     """Diagnose one port, with the full explanation: of the inventory's devices when there
-    is one (read now, twice if the store holds no recent poll), else of the demo network."""
+    is one (read now, twice if the store holds no recent poll), else of the demo network.
+
+    DEVICE is a device's name, a unique part of it, or its address; PORT is the port's
+    name as the device lists it, in any case, or with its type written short or long
+    (Gi1/0/5 for GigabitEthernet1/0/5).
+    """
     from linktriage.render.jsonl import dumps
     from linktriage.render.text import explanation
 
