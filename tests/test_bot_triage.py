@@ -8,6 +8,7 @@ from pathlib import Path
 
 import pytest
 
+from linktriage.bot.commands import ShowTree
 from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.format.poll_table import PollTable
@@ -19,6 +20,7 @@ from linktriage.render.replies import (
     DiagnosisReply,
     ErrorReply,
     HelpReply,
+    HistoryReply,
     ModelReply,
 )
 from linktriage.settings import Settings
@@ -183,6 +185,44 @@ def test_a_port_is_answered_by_address_and_short_or_long_type(
     closets: Triage, text: str, port: tuple[str, str]
 ) -> None:
     assert _answered(closets.handle(text)) == port
+
+
+def test_a_port_is_answered_by_the_neighbor_its_stored_polls_name(closets: Triage) -> None:
+    # Nothing stored yet: nothing is known of what is behind any port.
+    early = closets.handle("port-of lark-circ-prn1")
+    assert isinstance(early, ErrorReply)
+    assert early.message.endswith("no stored poll names any neighbor yet.")
+    closets.poller.poll_round()  # the poll job stores what every port hears
+    assert _answered(closets.handle("port-of lark-circ-prn1")) == (
+        "lark-circ-sw1",
+        "GigabitEthernet1/0/5",
+    )
+    assert _answered(closets.handle("Port-Of LARK-CIRC-PHONE3")) == (
+        "lark-circ-sw1",
+        "GigabitEthernet1/0/24",
+    )
+    assert _answered(closets.handle("port-of lark-annex-srv1")) == ("lark-annex-sw2", "Gi1/0/5")
+    # What each port hears is read from the store: a bot started afresh knows it too.
+    fresh = Triage(closets.network, closets.store, closets.model, closets.settings,
+                   clock=closets.clock, sleep=closets.sleep)  # fmt: skip
+    assert isinstance(fresh.settle("tree port-of lark-circ-prn1"), ShowTree)
+    history = fresh.handle("history port-of lark-circ-prn1 1h")
+    assert isinstance(history, HistoryReply)
+    assert (history.device, history.port) == ("lark-circ-sw1", "GigabitEthernet1/0/5")
+
+
+def test_a_neighbor_two_ports_hear_or_none_hears_is_refused_naming_what_is_known(
+    closets: Triage,
+) -> None:
+    closets.poller.poll_round()
+    twice = closets.handle("port-of lark-core1")
+    assert isinstance(twice, ErrorReply)
+    assert twice.message == "'lark-core1' is the LLDP neighbor of 2 ports."
+    assert twice.hint == "Which one: lark-annex-sw2 Te1/1/1, lark-circ-sw1 TenGigabitEthernet1/1/1?"
+    nobody = closets.handle("port-of lark-circ-prn2")
+    assert isinstance(nobody, ErrorReply)
+    assert nobody.message == "No port has 'lark-circ-prn2' as its LLDP neighbor."
+    assert nobody.hint is not None and nobody.hint.startswith("Did you mean: lark-circ-prn1, ")
 
 
 def test_wrong_names_get_sensible_suggestions_and_nothing_is_polled(closets: Triage) -> None:

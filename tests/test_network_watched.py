@@ -1,5 +1,6 @@
 """Naming ports: exact, case-blind, by a unique part of the device name or its address,
-with the port's type written short or long; nothing else."""
+with the port's type written short or long, or by the LLDP neighbor behind it; nothing
+else."""
 
 from __future__ import annotations
 
@@ -9,7 +10,9 @@ import pytest
 
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.errors import AmbiguousNameError, UnknownPortError
-from linktriage.network.watched import Network, PortRef, device_named
+from linktriage.network.watched import BEHIND, Network, PortRef, device_named
+
+from helpers import T0, line, polls
 
 
 class Two(Network):
@@ -201,3 +204,77 @@ def test_two_devices_at_one_address_are_ambiguous() -> None:
 def test_a_device_whose_name_is_typed_in_full_wins_over_an_address() -> None:
     addresses = {"core": "10.20.0.1", "10.20.0.1": "10.20.0.9"}
     assert device_named("10.20.0.1", ["core", "10.20.0.1"], addresses) == "10.20.0.1"
+
+
+# --- a port by the LLDP neighbor at its far end
+
+
+def heard(*said: tuple[str, str, str | None, str]) -> PollTable:
+    """Polls of (device, port, the neighbor its LLDP names, when)."""
+    return polls(
+        *(
+            line(at, device=device, port=port,
+                 **({"neighbor": {"device": far, "port": "eth0"}} if far else {}))
+            for device, port, far, at in said
+        )
+    )  # fmt: skip
+
+
+T1 = "2026-03-02T08:05:00Z"
+
+
+def test_a_port_is_found_by_the_neighbor_lldp_names_behind_it() -> None:
+    said = heard(
+        ("lark-circ-sw1", "GigabitEthernet1/0/5", "lark-circ-prn1", T0),
+        ("lark-circ-sw1", "GigabitEthernet1/0/24", "lark-circ-phone3", T0),
+        ("lark-annex-sw2", "Po1", None, T0),
+    )
+    found = Closets().find(BEHIND, "lark-circ-prn1", heard=lambda: said)
+    assert found == PortRef("central", "lark-circ-sw1", "GigabitEthernet1/0/5")
+    assert Closets().behind("LARK-CIRC-PRN1", said).port == "GigabitEthernet1/0/5"
+    # LLDP's system name may be a full DNS name; its first label names it too (as the far
+    # ends of a link are paired: engine.links).
+    fqdn = heard(("lark-annex-sw2", "Gi1/0/5", "lark-annex-cam2.larkmoor.example", T0))
+    assert Closets().behind("lark-annex-cam2", fqdn).port == "Gi1/0/5"
+    assert Closets().behind("lark-annex-cam2.larkmoor.example", fqdn).port == "Gi1/0/5"
+
+
+def test_only_what_a_port_said_last_counts() -> None:
+    # The printer moved from Gi1/0/5 to Gi1/0/24; Gi1/0/5 then heard nobody.
+    moved = heard(
+        ("lark-circ-sw1", "GigabitEthernet1/0/5", "lark-circ-prn1", T0),
+        ("lark-circ-sw1", "GigabitEthernet1/0/24", "lark-circ-prn1", T1),
+        ("lark-circ-sw1", "GigabitEthernet1/0/5", None, T1),
+    )
+    assert Closets().behind("lark-circ-prn1", moved).port == "GigabitEthernet1/0/24"
+
+
+def test_a_neighbor_two_ports_hear_is_refused_naming_both() -> None:
+    twice = heard(
+        ("lark-circ-sw1", "GigabitEthernet1/0/5", "lark-circ-srv1", T0),
+        ("lark-annex-sw2", "Gi1/0/5", "lark-circ-srv1", T0),
+    )
+    with pytest.raises(AmbiguousNameError, match="LLDP neighbor of 2 ports") as caught:
+        Closets().behind("lark-circ-srv1", twice)
+    assert caught.value.candidates == [
+        "lark-annex-sw2 Gi1/0/5",
+        "lark-circ-sw1 GigabitEthernet1/0/5",
+    ]
+
+
+def test_a_neighbor_no_port_hears_is_refused_with_the_closest_heard() -> None:
+    said = heard(("lark-circ-sw1", "GigabitEthernet1/0/5", "lark-circ-prn1", T0))
+    with pytest.raises(UnknownPortError) as caught:
+        Closets().behind("lark-circ-prn2", said)
+    assert caught.value.message == "No port has 'lark-circ-prn2' as its LLDP neighbor."
+    assert caught.value.suggestions == ["lark-circ-prn1"]
+    with pytest.raises(UnknownPortError, match="no stored poll names any neighbor yet"):
+        Closets().find(BEHIND, "lark-circ-prn1", heard=PollTable.empty)
+    with pytest.raises(UnknownPortError, match="no stored poll names any neighbor yet"):
+        Closets().find(BEHIND, "lark-circ-prn1")  # nothing to look in
+
+
+def test_a_device_the_network_no_longer_lists_answers_for_no_neighbor() -> None:
+    gone = heard(("lark-old-sw9", "Gi0/1", "lark-circ-prn1", T0))
+    with pytest.raises(UnknownPortError, match="no stored poll names any neighbor yet"):
+        Closets().behind("lark-circ-prn1", gone)

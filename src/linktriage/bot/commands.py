@@ -16,6 +16,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from linktriage.errors import CommandError
+from linktriage.network.watched import BEHIND
 from linktriage.render import words
 
 COMMAND = "/triage"
@@ -35,8 +36,9 @@ _IPV6 = re.compile(r"[0-9A-Fa-f:.]{2,45}")
 
 @dataclass(frozen=True, slots=True)
 class DiagnosePort:
-    """One port, named as typed: ``device`` is a device's name, a part of it or its address;
-    the history and the tree name their ports alike."""
+    """One port, named as typed: ``device`` is a device's name, a part of it or its address,
+    or ``port-of`` (:data:`BEHIND`), which makes ``port`` the name of the LLDP neighbor at
+    the port's far end; the history and the tree name their ports alike."""
 
     device: str
     port: str
@@ -101,6 +103,12 @@ def _tree(words_: list[str], usage: str) -> Command:
     return ShowTree(*_names(words_, usage))
 
 
+def _behind(words_: list[str], usage: str) -> Command:
+    if len(words_) != 1:
+        raise CommandError(words.BEHIND_NAMES, hint=usage)
+    return DiagnosePort(*_names([BEHIND, *words_], usage))
+
+
 def _suspects(words_: list[str], usage: str) -> Command:
     if len(words_) > 1:
         raise CommandError(words.SUSPECTS_TAKES_ONE_SITE, hint=usage)
@@ -138,6 +146,13 @@ FORMS: tuple[Form, ...] = (
         "address, the port by its name with its type short or long (Gi1/0/5 or "
         "GigabitEthernet1/0/5).",
         _diagnose,
+    ),
+    Form(
+        BEHIND,
+        f"{BEHIND} NEIGHBOR",
+        "diagnose the port whose far end LLDP names NEIGHBOR, e.g. a printer or a phone "
+        f"(`{BEHIND} NEIGHBOR` names a port for history and tree too).",
+        _behind,
     ),
     Form(
         "history",

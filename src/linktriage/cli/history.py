@@ -50,7 +50,8 @@ def history(
 
     DEVICE is a device's name, a unique part of it, or its address; PORT is the port's
     name as the device lists it, in any case, or with its type written short or long
-    (Gi1/0/5 for GigabitEthernet1/0/5).
+    (Gi1/0/5 for GigabitEthernet1/0/5). "port-of NEIGHBOR" in their place names the port
+    whose far end LLDP calls NEIGHBOR, as the stored polls last said.
     """
     from linktriage.assembly import inventory_for, opened
     from linktriage.bot.commands import span_seconds

@@ -9,13 +9,19 @@ from __future__ import annotations
 import difflib
 import ipaddress
 from abc import ABC, abstractmethod
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
+
+import numpy as np
 
 from linktriage.engine.format.poll_table import PollTable
 from linktriage.errors import AmbiguousNameError, PollError, UnknownPortError
 from linktriage.network.port_names import normalise
 from linktriage.printable import printable
+
+#: Typed in place of a device (``port-of lark-circ-prn1``): the port is then named by the
+#: LLDP neighbor at its far end.
+BEHIND = "port-of"
 
 
 @dataclass(frozen=True, slots=True)
@@ -106,17 +112,48 @@ class Network(ABC):
         for people who name a device by where it is; by default: none."""
         return {}
 
-    def find(self, device: str, port: str) -> PortRef:
+    def find(
+        self, device: str, port: str, *, heard: Callable[[], PollTable] | None = None
+    ) -> PortRef:
         """The port a person named, refusing names the network does not have.
 
         A device may be named by its name, its address, or any unique part of its name
         ("idf2" for "lark-east-idf2"); a part that fits several devices is ambiguous. A
         port is named as its device lists it, in any case, or with its type written short
-        or long (:mod:`~linktriage.network.port_names`). The name is settled before any
-        device is contacted.
+        or long (:mod:`~linktriage.network.port_names`). With :data:`BEHIND` for the
+        device, ``port`` names what LLDP hears at the port's far end, as ``heard`` (what
+        the ports last said) tells. The name is settled before any device is contacted.
         """
+        if device.casefold() == BEHIND:
+            return self.behind(port, heard() if heard is not None else PollTable.empty())
         name = device_named(device, self.device_names(), self.addresses())
         return port_named(port, self.ports_of(name), name)
+
+    def behind(self, neighbor: str, heard: PollTable) -> PortRef:
+        """The port whose far end LLDP names ``neighbor`` (a printer, a phone, a server the
+        network need not read), as each port's newest poll in ``heard`` says: the name in
+        any case, else its first DNS label. Refuses a name no port hears, with the closest
+        names heard, and a name that several ports hear, naming each."""
+        devices = set(self.device_names())
+        last = {key: far for key, far in _last_heard(heard).items() if key[0] in devices}
+        fits = [key for key, far in last.items() if far.casefold() == neighbor.casefold()]
+        if not fits:
+            label = _first_label(neighbor)
+            fits = [key for key, far in last.items() if _first_label(far) == label]
+        refs = [r for device, port in sorted(fits) for r in self.ports_of(device) if r.port == port]
+        if len(refs) == 1:
+            return refs[0]
+        if refs:
+            raise AmbiguousNameError(
+                f"'{printable(neighbor)}' is the LLDP neighbor of {len(refs)} ports.",
+                candidates=[f"{r.device} {r.port}" for r in refs],
+            )
+        said = sorted(set(last.values()))
+        raise UnknownPortError(
+            f"No port has '{printable(neighbor)}' as its LLDP neighbor"
+            + ("." if said else ": no stored poll names any neighbor yet."),
+            suggestions=difflib.get_close_matches(neighbor, said, n=3, cutoff=0.5),
+        )
 
 
 def fitting(text: str, names: list[str]) -> list[str]:
@@ -188,6 +225,22 @@ def port_named(text: str, refs: list[PortRef], device: str) -> PortRef:
         f"{device} has no port named '{printable(text)}'.",
         suggestions=[port for key in close for port in alike[key]][:3],
     )
+
+
+def _last_heard(heard: PollTable) -> dict[tuple[str, str], str]:
+    """The LLDP neighbor each port's newest poll names (a port that names none is left
+    out: what it named before is no longer behind it)."""
+    last: dict[tuple[str, str], str | None] = {}
+    for row in np.argsort(heard.time, kind="stable").tolist():
+        last[(heard.device[row], heard.port[row])] = heard.neighbor_device[row]
+    return {key: far for key, far in last.items() if far is not None}
+
+
+def _first_label(name: str) -> str:
+    """A system name as LLDP may shorten it: its first DNS label (``lark-core1`` for
+    ``lark-core1.example``), in lower case; an IP address whole."""
+    ip = _ip(name)
+    return name.split(".", 1)[0].casefold() if ip is None else str(ip)
 
 
 def _ip(text: str) -> ipaddress.IPv4Address | ipaddress.IPv6Address | None:
