@@ -171,7 +171,7 @@ def device_named(text: str, names: list[str], addresses: Mapping[str, str] | Non
     addresses = addresses or {}
     lowered = text.lower()
     whole = [n for n in names if n.lower() == lowered]
-    at = [name for name, address in addresses.items() if same_address(address, text)]
+    at = [name for name, address in addresses.items() if _same_address(address, text)]
     partial = whole[:1] or at or [n for n in names if lowered in n.lower()]
     if len(partial) == 1:
         return partial[0]
@@ -190,7 +190,7 @@ def device_named(text: str, names: list[str], addresses: Mapping[str, str] | Non
     )
 
 
-def same_address(listed: str, typed: str) -> bool:
+def _same_address(listed: str, typed: str) -> bool:
     """Whether two addresses name one host: IP addresses by value, whatever their written
     form (RFC 4291 section 2.2 writes one IPv6 address several ways), host names in any
     case and with or without the root's final dot."""
