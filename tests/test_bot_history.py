@@ -16,7 +16,7 @@ from linktriage.engine.format.poll_table import PollTable
 from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.errors import NoHistoryError, PollError, UnknownPortError
 from linktriage.network.demo import PLANTED, DemoClock, DemoNetwork
-from linktriage.network.watched import Gathered
+from linktriage.network.watched import BEHIND, Gathered
 from linktriage.render.replies import HistoryPoint
 
 FIVE_MIN = 300.0
@@ -132,6 +132,15 @@ def test_a_history_reaches_back_only_as_far_as_asked(three_hours: Triage) -> Non
 def test_names_are_settled_before_anything_is_read(triage: Triage) -> None:
     with pytest.raises(UnknownPortError, match="lark-core1 has no port named 'up99'"):
         triage.histories.of("core1", "up99", 3600.0)
+
+
+def test_a_port_is_named_by_the_neighbor_its_stored_polls_hear(three_hours: Triage) -> None:
+    # The demo's label printer hangs on lark-east-idf2 port7 (LLDP names it there).
+    reply = three_hours.histories.of(BEHIND, "lark-circ-prn1", 3600.0)
+    assert (reply.device, reply.port) == ("lark-east-idf2", "port7")
+    assert reply.runs[-1]["verdict"] == "duplex_mismatch"
+    by_name = three_hours.histories.of("lark-east-idf2", "PORT7", 3600.0)
+    assert reply.points == by_name.points
 
 
 class _Recorded:

@@ -215,6 +215,24 @@ def test_a_port_recabled_no_longer_stands_for_its_old_far_end(triage: Triage) ->
     assert poller.naming("lark-core1", "up6") is None
 
 
+def test_what_each_port_last_said_outlasts_a_question_about_another_port(
+    triage: Triage, clock: DemoClock
+) -> None:
+    # A question about port14 stores a poll of lark-east-idf2 holding port14 alone (and its
+    # far end's, none); what port7 heard in the round before still stands: the printer.
+    triage.poller.poll_round()
+    clock.sleep(120.0)
+    assert isinstance(triage.handle("lark-east-idf2 port14"), DiagnosisReply)
+    newest = triage.store.latest_poll("lark-east-idf2")
+    assert newest.port.tolist() == ["port14"]
+    said = triage.poller.last_said()
+    port7 = np.flatnonzero((said.device == "lark-east-idf2") & (said.port == "port7"))
+    assert said.neighbor_device[port7].tolist() == ["lark-circ-prn1"]
+    answer = triage.handle("port-of lark-circ-prn1")
+    assert isinstance(answer, DiagnosisReply)
+    assert (answer.record["device"], answer.record["port"]) == ("lark-east-idf2", "port7")
+
+
 def test_the_poll_job_forgets_a_backlog_larger_than_any_batch_in_one_round(
     triage: Triage, clock: DemoClock
 ) -> None:

@@ -153,6 +153,16 @@ def test_ask_takes_a_unique_part_of_a_device_name_and_refuses_an_ambiguous_one()
     assert "'east' fits 2 devices" in err and "lark-east-idf1, lark-east-idf2" in err
 
 
+def test_ask_names_a_demo_port_by_the_neighbor_lldp_hears_behind_it() -> None:
+    # The demo's label printer, lark-circ-prn1, hangs on lark-east-idf2 port7.
+    code, out, _ = run("ask", "port-of", "lark-circ-prn1")
+    assert code == 0 and out.startswith("lark-east-idf2 port7: ")
+    code, _, err = run("ask", "port-of", "lark-circ-prn9")
+    assert code == 1
+    assert "No port has 'lark-circ-prn9' as its LLDP neighbor." in err
+    assert "Did you mean: lark-circ-prn1" in err
+
+
 def test_model_shows_the_card_and_json() -> None:
     code, out, _ = run("model")
     # The card says how the pruning level was chosen: the one-standard-error rule, or, where
@@ -582,6 +592,21 @@ def test_collect_from_a_device_that_never_answers_says_so_and_exits_4(
     assert "wrote 0 snapshots of lark-dead1 in 0 polls" in err
 
 
+def test_collect_finds_the_device_by_its_address(tmp_path: Path) -> None:
+    recording = tmp_path / "sw1.jsonl"
+    recording.write_text("\n".join(grown({"ifHCInUcastPkts": 10**6})) + "\n")
+    inventory = tmp_path / "inventory.toml"
+    inventory.write_text(
+        '[[devices]]\nname = "lark-test-sw1"\nsite = "annex"\ncollector = "file"\n'
+        f'address = "2001:db8:20::5"\n[devices.options]\npath = "{recording}"\n'
+    )
+    out = tmp_path / "out.jsonl"
+    code, _, err = run(
+        "collect", "--inventory", str(inventory), "--device", "2001:DB8:20:0::5", "--out", str(out)
+    )
+    assert code == 0 and "wrote 1 snapshot of lark-test-sw1 in 1 poll" in err
+
+
 def test_control_characters_in_names_are_shown_not_obeyed(tmp_path: Path) -> None:
     # A device name that clears the screen, a port name that forges a table row.
     lines = grown(
@@ -633,6 +658,12 @@ def test_history_answers_from_the_polls_the_poll_job_stored(tmp_path: Path) -> N
     assert all(
         re.search(r" cable_fault  0\.9\d  \d\.\de-05 ", line) for line in lines[header + 1 :]
     )
+
+
+def test_history_names_a_port_by_the_neighbor_its_stored_polls_hear(tmp_path: Path) -> None:
+    config = _polled_for_an_hour(tmp_path)
+    code, out, _ = run("history", "port-of", "lark-circ-prn1", "--config", str(config))
+    assert code == 0 and out.startswith("lark-east-idf2 port7: the last 24 h\n")
 
 
 def test_history_json_is_one_object_with_every_window_and_the_changes(tmp_path: Path) -> None:

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from linktriage.bot.commands import COMMAND
+from linktriage.bot.commands import COMMAND, FORMS
 from linktriage.network.inventory import load_inventory, problems
 from linktriage.settings import load_settings
 
@@ -19,6 +19,7 @@ def test_the_manifest_declares_what_the_bot_uses() -> None:
     manifest = json.loads((DEPLOY / "slack-app-manifest.json").read_text())
     (command,) = manifest["features"]["slash_commands"]
     assert command["command"] == COMMAND
+    assert command["usage_hint"] == " | ".join(form.form for form in FORMS)
     scopes = set(manifest["oauth_config"]["scopes"]["bot"])
     # slash command, posting, mentions, uploading pictures, reading thread replies,
     # checking user groups (Slack scopes)

@@ -51,6 +51,16 @@ def test_an_inventory_reads_with_defaults_and_overrides(tmp_path: Path, snapshot
 DEVICE = '[[devices]]\nname = "{name}"\nsite = "s"\ncollector = "demo"\n'
 
 
+def test_each_device_with_an_address_is_found_by_it(tmp_path: Path) -> None:
+    text = DEVICE.format(name="lark-circ-sw1") + 'address = "10.20.0.5"\n'
+    text += DEVICE.format(name="lark-annex-sw2") + 'address = "2001:db8:20::5"\n'
+    text += DEVICE.format(name="lark-core1")  # the demo collector needs no address
+    assert load_inventory(write(tmp_path, text)).addresses() == {
+        "lark-circ-sw1": "10.20.0.5",
+        "lark-annex-sw2": "2001:db8:20::5",
+    }
+
+
 @pytest.mark.parametrize(
     ("text", "complaint"),
     [

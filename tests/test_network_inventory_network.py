@@ -118,6 +118,31 @@ def test_a_collector_that_fails_with_a_bug_fails_its_device_only(
     assert len(gathered.tables) == len(network.device_names()) - 1
 
 
+def test_a_device_is_named_by_its_address_in_the_inventory_with_nothing_sent(
+    closing: list[InventoryNetwork],
+) -> None:
+    # The address settles which entry is meant; reading it is the collector's job, later.
+    listed = {"lark-circ-sw1": "10.20.0.5", "lark-annex-sw2": "2001:db8:20::5",
+              "lark-west-sw3": "lark-west-sw3.mgmt.larkmoor.example"}  # fmt: skip
+    network = network_of(
+        *(
+            DeviceEntry(name=name, site="central", collector="snmp", address=address,
+                        ports=["GigabitEthernet1/0/5", "Te1/1/1"])
+            for name, address in listed.items()
+        )
+    )  # fmt: skip
+    closing.append(network)
+    assert network.addresses() == listed
+    assert network.find("10.20.0.5", "Gi1/0/5").device == "lark-circ-sw1"
+    assert network.find("2001:DB8:20:0:0:0:0:5", "TenGigabitEthernet1/1/1").device == (
+        "lark-annex-sw2"
+    )
+    assert network.find("LARK-WEST-SW3.mgmt.larkmoor.example", "gi1/0/5").device == (
+        "lark-west-sw3"
+    )
+    assert network._collectors == {}  # no collector was even built
+
+
 def test_ports_are_listed_by_the_devices_that_are_not_told_them(
     with_plugins: None, closing: list[InventoryNetwork]
 ) -> None:

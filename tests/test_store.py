@@ -40,7 +40,7 @@ from linktriage.store import (
 from linktriage.store.migrations import MIGRATIONS
 from linktriage.store.schema import diagnoses_table, polls_table, schema_version_table
 
-from helpers import line, named, package_copy, polls, run_in_copy
+from helpers import T0, line, named, package_copy, polls, run_in_copy
 
 T5 = "2026-03-02T08:05:00Z"
 
@@ -107,6 +107,36 @@ def test_many_devices_polls_come_back_in_one_read_as_each_devices_alone(store: S
     assert len(later) == 3 and set(later.port.tolist()) == {"port1", "port2"}
     one = store.polls_since(since, devices=[sw3], port="port1")
     assert one.time.tolist() == [since] and one.counters.max() == 2
+
+
+def test_what_each_device_last_said_reaches_back_from_its_own_newest_poll(store: Store) -> None:
+    # sw1's round at T0 polled both its ports; a question at T5 polled port1 alone, so
+    # its newest poll does not hold port2, which its round before does. sw2 was last polled
+    # a day earlier: that is still what it last said. An older round of sw1 is left out.
+    printer = {"device": "lark-circ-prn1", "port": "eth0"}
+    day_before, hour_before = "2026-03-01T08:00:00Z", "2026-03-02T07:00:00Z"
+    store.add_polls(polls(line(day_before, device="lark-test-sw2", neighbor=printer)))
+    store.add_polls(polls(line(hour_before), line(hour_before, port="port2")))
+    store.add_polls(polls(line(T0), line(T0, port="port2", neighbor=printer)))
+    store.add_polls(polls(line(T5)))
+    said = store.last_said(600.0)
+    rows = zip(said.device.tolist(), said.port.tolist(), said.time.tolist(), strict=True)
+    assert sorted(rows) == sorted(
+        [
+            ("lark-test-sw1", "port1", _at(T0)),
+            ("lark-test-sw1", "port2", _at(T0)),
+            ("lark-test-sw1", "port1", _at(T5)),
+            ("lark-test-sw2", "port1", _at(day_before)),
+        ]
+    )
+    assert said.neighbor_device.tolist().count("lark-circ-prn1") == 2
+    assert len(store.last_said(0.0)) == 2  # each device's newest poll alone
+    assert len(store.last_said(86_400.0)) == 6  # all of sw1's
+
+
+def _at(text: str) -> float:
+    """A snapshot time as the poll table keeps it."""
+    return float(polls(line(text)).time[0])
 
 
 def _diagnosis(store: Store) -> int:

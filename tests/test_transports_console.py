@@ -75,8 +75,8 @@ def test_help_at_the_prompt_shows_the_commands_as_typed_there(triage: Triage) ->
     wrong = Console(triage).say("lark-core1")
     assert wrong is not None
     assert wrong.endswith(  # every command, as typed at the prompt
-        "Try `DEVICE PORT`, `history DEVICE PORT [SINCE]`, `tree DEVICE PORT`, "
-        "`suspects [SITE]`, `model`, or `help`."
+        "Try `DEVICE PORT`, `port-of NEIGHBOR`, `history DEVICE PORT [SINCE]`, "
+        "`tree DEVICE PORT`, `suspects [SITE]`, `model`, or `help`."
     )
 
 

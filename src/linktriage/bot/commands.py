@@ -10,11 +10,13 @@ makes mypy name each place it must be handled.
 
 from __future__ import annotations
 
+import ipaddress
 import re
 from collections.abc import Callable
 from dataclasses import dataclass
 
 from linktriage.errors import CommandError
+from linktriage.network.watched import BEHIND
 from linktriage.render import words
 
 COMMAND = "/triage"
@@ -22,13 +24,22 @@ COMMAND = "/triage"
 #: ("<@U0123>", "<@U0123|name>"), which is how an app mention's text begins.
 _MENTION = re.compile(r"@linktriage|<@[UW][A-Z0-9]+(?:\|[^>]*)?>", re.IGNORECASE)
 # What switches call themselves and their ports; a device name cannot hold a URL's ":" or
-# "/". (Whatever passes here must still be a name the network lists: nothing else is polled.)
+# "/". (Whatever passes here must still be a name or an address the network lists: nothing
+# else is polled.)
 _DEVICE = re.compile(r"[A-Za-z0-9][A-Za-z0-9._\-]{0,63}")
 _PORT = re.compile(r"[A-Za-z0-9][A-Za-z0-9._:/\-]{0,63}")
+# A device's IPv6 address holds ":" (RFC 4291 section 2.2): taken only where the whole word
+# reads as one, hexadecimal digits, colons and the dots of an embedded IPv4 address alone,
+# so no port, path or URL passes with it.
+_IPV6 = re.compile(r"[0-9A-Fa-f:.]{2,45}")
 
 
 @dataclass(frozen=True, slots=True)
 class DiagnosePort:
+    """One port, named as typed: ``device`` is a device's name, a part of it or its address,
+    or ``port-of`` (:data:`BEHIND`), which makes ``port`` the name of the LLDP neighbor at
+    the port's far end; the history and the tree name their ports alike."""
+
     device: str
     port: str
 
@@ -92,6 +103,12 @@ def _tree(words_: list[str], usage: str) -> Command:
     return ShowTree(*_names(words_, usage))
 
 
+def _behind(words_: list[str], usage: str) -> Command:
+    if len(words_) != 1:
+        raise CommandError(words.BEHIND_NAMES, hint=usage)
+    return DiagnosePort(*_names([BEHIND, *words_], usage))
+
+
 def _suspects(words_: list[str], usage: str) -> Command:
     if len(words_) > 1:
         raise CommandError(words.SUSPECTS_TAKES_ONE_SITE, hint=usage)
@@ -125,8 +142,17 @@ FORMS: tuple[Form, ...] = (
     Form(
         None,
         "DEVICE PORT",
-        "diagnose one port now (a unique part of the device name will do).",
+        "diagnose one port now: the device by its name, a unique part of it or its "
+        "address, the port by its name with its type short or long (Gi1/0/5 or "
+        "GigabitEthernet1/0/5).",
         _diagnose,
+    ),
+    Form(
+        BEHIND,
+        f"{BEHIND} NEIGHBOR",
+        "diagnose the port whose far end LLDP names NEIGHBOR, e.g. a printer or a phone "
+        f"(`{BEHIND} NEIGHBOR` names a port for history and tree too).",
+        _behind,
     ),
     Form(
         "history",
@@ -175,10 +201,24 @@ def parse(text: str, *, command: str = COMMAND) -> Command:
 
 def _names(tokens: list[str], usage: str) -> tuple[str, str]:
     """A device and a port name as typed, refusing anything that cannot be one."""
-    for word, pattern in zip(tokens, (_DEVICE, _PORT), strict=True):
-        if not pattern.fullmatch(word):
+    device, port = tokens
+    for word, fits in ((device, _device_word), (port, _PORT.fullmatch)):
+        if not fits(word):
             raise CommandError(words.not_a_name(word), hint=usage)
-    return tokens[0], tokens[1]
+    return device, port
+
+
+def _device_word(word: str) -> bool:
+    """Whether ``word`` can name a device: a name, or an IPv6 address written as one."""
+    if _DEVICE.fullmatch(word):
+        return True
+    if not _IPV6.fullmatch(word):
+        return False
+    try:
+        ipaddress.IPv6Address(word)
+    except ValueError:
+        return False
+    return True
 
 
 def span_seconds(text: str) -> float:

@@ -118,12 +118,14 @@ class Histories:
     network: Network
     store: Store
     model: Model
+    #: What each port last said (to find a port by the LLDP neighbor behind it).
+    heard: Callable[[], PollTable]
     clock: Callable[[], float] = time.time
 
     def of(self, device: str, port: str, since_s: float) -> HistoryReply:
         """The history of one port over the last ``since_s`` seconds; one that has no two
         polls far enough apart to make a window raises :class:`NoHistoryError`."""
-        ref = self.network.find(device, port)
+        ref = self.network.find(device, port, heard=self.heard)
         since = self.clock() - since_s
         points = history_points(self._polls(ref, since), self.model)
         if not points:

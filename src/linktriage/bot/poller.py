@@ -155,6 +155,12 @@ class Poller:
                 self.names[me] = key
                 self.named_by[key] = me
 
+    def last_said(self) -> PollTable:
+        """What each port last said, as stored (which LLDP neighbor it hears): every
+        device's polls over two poll job rounds back from its newest, which hold each of
+        its ports where the job runs."""
+        return self.store.last_said(2 * self.settings.schedule.poll_minutes * 60.0)
+
     def naming(self, device: str, port: str) -> tuple[str, str] | None:
         """The port whose LLDP last named ``device`` ``port`` as its neighbor, if any."""
         return self.named_by.get(lldp_key(device, port))

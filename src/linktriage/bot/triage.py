@@ -83,7 +83,9 @@ class Triage:
         self.labels = Labelling(
             self.store, self.settings, clock=self.clock, members_of=self.members_of
         )
-        self.histories = Histories(self.network, self.store, self.model, clock=self.clock)
+        self.histories = Histories(
+            self.network, self.store, self.model, self.poller.last_said, clock=self.clock
+        )
 
     # --- commands
     def handle(
@@ -131,7 +133,7 @@ class Triage:
         command = parse(text)
         match command:
             case DiagnosePort(device, port) | ShowHistory(device, port) | ShowTree(device, port):
-                self.network.find(device, port)
+                self.find(device, port)
             case ListSuspects(site):
                 self.digests.scope(site)
             case ShowModel() | ShowHelp():
@@ -156,6 +158,12 @@ class Triage:
         )
 
     # --- one port
+    def find(self, device: str, port: str) -> PortRef:
+        """The port a person named (:meth:`Network.find`); one named by the LLDP neighbor
+        at its far end (``port-of NAME``) is looked up in what the ports last said, as
+        stored."""
+        return self.network.find(device, port, heard=self.poller.last_said)
+
     def diagnose_port(
         self,
         device: str,
@@ -166,7 +174,7 @@ class Triage:
         origin: str = "chat",
     ) -> DiagnosisReply:
         """Diagnose one port now, from its stored history if recent, else two fresh polls."""
-        ref = self.network.find(device, port)
+        ref = self.find(device, port)
         batch, row = self._diagnosed(ref)
         record = batch.record(row)
         (diagnosis_id,) = keep_answers(
@@ -186,7 +194,7 @@ class Triage:
 
     def tree(self, device: str, port: str) -> TreeReply:
         """One port diagnosed now, with the tree it went through (to draw its path)."""
-        batch, row = self._diagnosed(self.network.find(device, port))
+        batch, row = self._diagnosed(self.find(device, port))
         return TreeReply(batch.record(row), batch.node[row], self.model.artefact)
 
     def _diagnosed(self, ref: PortRef) -> tuple[DiagnosisBatch, int]:

@@ -73,7 +73,11 @@ def inventory_check(reach: bool, inventory_path: Path | None, config_path: Path 
 
 
 @click.command()
-@click.option("--device", required=True, help="A device of the inventory (a unique part will do).")
+@click.option(
+    "--device",
+    required=True,
+    help="A device of the inventory: its name, a unique part of it, or its address.",
+)
 @click.option("--ports", "port_names", multiple=True, help="Only these ports (repeat, or a,b,c).")
 @click.option(
     "--out",
@@ -114,7 +118,7 @@ def collect(
     from linktriage.network.watched import device_named
 
     found = inventory_for(inventory_path, config_path)
-    name = device_named(device, [d.name for d in found.devices])
+    name = device_named(device, [d.name for d in found.devices], found.addresses())
     ports = [p for chunk in port_names for p in chunk.split(",") if p] or None
     network = InventoryNetwork(found)
     written = 0

@@ -47,6 +47,11 @@ def history(
 
     A port with no two stored polls far enough apart is said to have no history, never to
     be healthy. A device read through Prometheus answers from Prometheus's own history.
+
+    DEVICE is a device's name, a unique part of it, or its address; PORT is the port's
+    name as the device lists it, in any case, or with its type written short or long
+    (Gi1/0/5 for GigabitEthernet1/0/5). "port-of NEIGHBOR" in their place names the port
+    whose far end LLDP calls NEIGHBOR, as the stored polls last said.
     """
     from linktriage.assembly import inventory_for, opened
     from linktriage.bot.commands import span_seconds

@@ -99,7 +99,14 @@ def ask(
     model_path: Path | None,
 ) -> None:
     """Diagnose one port, with the full explanation: of the inventory's devices when there
-    is one (read now, twice if the store holds no recent poll), else of the demo network."""
+    is one (read now, twice if the store holds no recent poll), else of the demo network.
+
+    DEVICE is a device's name, a unique part of it, or its address; PORT is the port's
+    name as the device lists it, in any case, or with its type written short or long
+    (Gi1/0/5 for GigabitEthernet1/0/5). "port-of NEIGHBOR" in their place names the port
+    whose far end LLDP calls NEIGHBOR, as the stored polls last said (without an
+    inventory, the demo network's own).
+    """
     from linktriage.render.jsonl import dumps
     from linktriage.render.text import explanation
 
@@ -133,8 +140,9 @@ def _answered(
         with opened(settings, model_path=model_path, network=network) as parts:
             return parts.triage().tree(device, port)
     model = Model.load(model_path)
-    ref = DemoNetwork().find(device, port)
-    batch = diagnose(demo_polls(), model)
+    polls = demo_polls()
+    ref = DemoNetwork().find(device, port, heard=lambda: polls)
+    batch = diagnose(polls, model)
     row = batch.index_of(ref.device, ref.port)
     assert row is not None  # every demo port is polled
     return TreeReply(batch.record(row), batch.node[row], model.artefact)

@@ -77,6 +77,10 @@ class Inventory(BaseModel):
             seen.add(device.name.lower())
         return self
 
+    def addresses(self) -> dict[str, str]:
+        """Each device's address by its name, where it has one."""
+        return {d.name: d.address for d in self.devices if d.address}
+
     def entry(self, name: str) -> DeviceEntry | None:
         return next((d for d in self.devices if d.name == name), None)
 

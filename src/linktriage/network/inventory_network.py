@@ -175,6 +175,9 @@ class InventoryNetwork(Network):
     def device_names(self) -> list[str]:
         return [d.name for d in self.inventory.devices]
 
+    def addresses(self) -> dict[str, str]:
+        return self.inventory.addresses()
+
     def ports_of(self, device: str) -> list[PortRef]:
         entry = self._entry(device)
         if entry.ports is None and device not in self._ports:

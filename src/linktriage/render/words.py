@@ -257,6 +257,9 @@ HISTORY_NAMES = (
     "`history` takes a device, a port and how far back, e.g. `history lark-east-idf2 port14 6h`."
 )
 TREE_NAMES = "`tree` takes a device and a port, e.g. `tree lark-east-idf2 port14`."
+BEHIND_NAMES = (
+    "`port-of` takes the name LLDP gives the far end of the port, e.g. `port-of lark-circ-prn1`."
+)
 
 
 def not_a_span(text: str) -> str:

@@ -232,6 +232,27 @@ class Store:
             body = conn.execute(query).scalar()
         return PollTable.empty() if body is None else unpack(body, device)
 
+    def last_said(self, within_s: float) -> PollTable:
+        """Each device's stored polls from ``within_s`` before its newest one on, oldest
+        first: what it last said of each port (which LLDP neighbor it hears, say), where
+        its last poll of every port is that recent, however old that is. A question about
+        one port stores a poll of that port alone, so the newest poll of a device need
+        not hold them all."""
+        newest = (
+            sa.select(polls_table.c.device, sa.func.max(polls_table.c.time).label("newest"))
+            .group_by(polls_table.c.device)
+            .subquery()
+        )
+        query = (
+            sa.select(polls_table.c.device, polls_table.c.body)
+            .join(newest, polls_table.c.device == newest.c.device)
+            .where(polls_table.c.time >= newest.c.newest - within_s)
+            .order_by(polls_table.c.time)
+        )
+        with self.reading("read the last polls") as conn:
+            rows = conn.execute(query).all()
+        return unpack_many([row.body for row in rows], [row.device for row in rows])
+
     def prune_polls(self, before: float, *, batch: int = 1000) -> int:
         """Forget polls older than ``before``, ``batch`` packs per transaction so that
         readers and the bot's writes are never held up for long, until none is left however
