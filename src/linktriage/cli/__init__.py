@@ -32,7 +32,7 @@ for command in (
     bot.serve,
     devices.inventory,
     devices.collect,
-    devices.sweep,
+    devices.suspects,
     config.config,
     labels.labels,
     demo.demo,

@@ -32,6 +32,13 @@ SIGNING_SECRET_MISSING = "SLACK_SIGNING_SECRET is not set: HTTP mode cannot veri
 CHANNEL_UNSET = "[slack] channel is not set: digests have nowhere to go"
 
 
+SWEEP_RENAMED = (
+    "`linktriage sweep` is now `linktriage suspects [SITE]`: the same list, read the same "
+    "way, with the same exit codes, as /triage suspects gives in chat (its --json writes one "
+    "object)."
+)
+
+
 def cli_error(rendered: str) -> str:
     return f"linktriage: {rendered}"
 
