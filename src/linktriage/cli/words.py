@@ -309,3 +309,32 @@ DEMO_NEXT = (
     f"\n{RULE}\nAsk about any other port: linktriage ask DEVICE PORT "
     "(e.g. linktriage ask lark-core1 up3), or talk to the bot: linktriage chat."
 )
+
+
+def watching(
+    poll_minutes: float, days: str, at: str, zone: str, targets: list[str], waiting: int
+) -> str:
+    """What the watch runs and where its digests go, as it starts."""
+    kept = f" ({plural(waiting, 'digest')} kept from before go first)" if waiting else ""
+    return (
+        f"watching the network: a poll round every {poll_minutes:g} min, the digest "
+        f"{days} at {at} ({zone}), each digest to {', '.join(targets)}{kept}; Ctrl-C stops"
+    )
+
+
+def poll_round_done(stored: int, failed: Mapping[str, str]) -> str:
+    said = f"poll round: {plural(stored, 'port poll')} stored"
+    if failed:
+        devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
+        said += f"; {plural(len(failed), 'device')} not read ({devices})"
+    return said
+
+
+ROUND_RAN_ALREADY = (
+    "poll round: this interval's had been run (by another copy on the store, or an earlier "
+    "round): the digest reads its polls"
+)
+
+
+def digest_sent(at: float, targets: list[str]) -> str:
+    return f"digest of {utc_minute(at)} sent to {', '.join(targets)}"
