@@ -305,6 +305,36 @@ def demo_stored(label: Label) -> str:
     )
 
 
+#: What answers from the store the demo leaves, as an engineer would type it next.
+DEMO_FROM_THE_STORE = (
+    "  linktriage history lark-east-idf2 port14\n"
+    "  linktriage suspects central\n"
+    "  linktriage watch --once"
+)
+
+
+def demo_kept(store: str, rounds: int, elsewhere: str | None) -> str:
+    """What the demo left in the settings' store: the rounds it polled, or why none."""
+    if elsewhere is not None:
+        done = f"another copy ({printable(elsewhere)}) runs the poll job on it now"
+    elif rounds:
+        done = f"{plural(rounds, 'poll round')} of the demo network's last hour polled into it"
+    else:
+        done = "the poll job had polled every round of the last hour into it already"
+    return (
+        f"\n{RULE}\nThe store of your settings, {store}: {done}. These answer from it now:\n"
+        f"{DEMO_FROM_THE_STORE}"
+    )
+
+
+def demo_store_left_alone(store: str) -> str:
+    return (
+        f"\n{RULE}\nYour settings read an inventory: the demo keeps no simulated polls in "
+        f"their store ({store}). With settings that read the demo network, these answer from "
+        f"the store after the demo:\n{DEMO_FROM_THE_STORE}"
+    )
+
+
 DEMO_NEXT = (
     f"\n{RULE}\nAsk about any other port: linktriage ask DEVICE PORT "
     "(e.g. linktriage ask lark-core1 up3), or talk to the bot: linktriage chat."
