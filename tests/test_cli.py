@@ -23,7 +23,8 @@ from linktriage.store import Store
 import plugins
 from helpers import grown, polled_for_an_hour
 
-COMMANDS = ["diagnose", "ask", "train", "model", "demo", "chat", "config", "labels"]
+COMMANDS = ["diagnose", "ask", "train", "model", "demo", "chat", "config", "labels", "suspects",
+            "watch"]  # fmt: skip
 
 
 def run(*args: str) -> tuple[int, str, str]:

@@ -6,6 +6,7 @@ send each digest once."""
 from __future__ import annotations
 
 import json
+import logging
 import socket
 from pathlib import Path
 
@@ -16,6 +17,7 @@ from linktriage.bot.triage import Triage
 from linktriage.errors import DigestTargetError
 from linktriage.network.demo import DemoClock
 from linktriage.render.jsonl import dumps
+from linktriage.render.words import utc_minute
 from linktriage.settings import ScheduleSettings
 from linktriage.transports.digest_targets import (
     DigestFile,
@@ -67,8 +69,13 @@ def test_a_webhook_gets_each_digest_as_json_in_a_post(
 
 
 def test_a_digest_the_webhook_refuses_goes_again_before_the_next(
-    triage: Triage, clock: DemoClock, webhook: WebhookReceiver, tmp_path: Path
+    triage: Triage,
+    clock: DemoClock,
+    webhook: WebhookReceiver,
+    tmp_path: Path,
+    caplog: pytest.LogCaptureFixture,
 ) -> None:
+    caplog.set_level(logging.INFO, logger="linktriage.watch")
     webhook.answers = [503]  # RFC 9110 15.6.4: unavailable now, maybe not later
     target = Webhook(webhook.url, tmp_path / "spool")
     jobs, post = watching(triage, [target], "watch-a")
@@ -90,6 +97,11 @@ def test_a_digest_the_webhook_refuses_goes_again_before_the_next(
     assert [digest["at"] for digest in taken] == [first.at, second.at]
     assert taken[1]["since"] == first.at  # new and cleared since the one the webhook got
     assert target.waiting() == [] and not target.spool.exists()
+    # The watch's log says each: the refusal as a warning, then the delivery.
+    assert [(r.levelname, r.getMessage()) for r in caplog.records] == [
+        ("WARNING", said),
+        ("INFO", f"digest of {utc_minute(second.at)} delivered to {shown_url(webhook.url)}"),
+    ]
 
 
 def test_a_webhook_that_does_not_answer_keeps_the_digest_and_says_so(

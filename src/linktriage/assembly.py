@@ -245,9 +245,7 @@ def watch_once(
     return done, digest, post.undelivered
 
 
-def watch_forever(
-    parts: Parts, targets: Sequence[DigestTarget], *, say: Callable[[str], None]
-) -> None:
+def watch_forever(parts: Parts, targets: Sequence[DigestTarget]) -> None:
     """The poll rounds, the digest on the schedule and the tidying, out of chat, until
     stopped (SIGTERM or Ctrl-C): run once across every copy on the store, Slack's or not."""
     import signal
@@ -260,7 +258,7 @@ def watch_forever(
 
     triage = parts.triage()
     schedule = parts.settings.schedule
-    jobs = Jobs(triage, DigestPost(triage, targets, say), None, schedule, holder=holder_name())
+    jobs = Jobs(triage, DigestPost(triage, targets), None, schedule, holder=holder_name())
     scheduler = start_scheduler(jobs, schedule)
     signal.signal(signal.SIGTERM, lambda *_: sys.exit(0))  # systemd stops it: shut down cleanly
     try:

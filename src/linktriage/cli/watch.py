@@ -81,7 +81,7 @@ def watch(
     network = InventoryNetwork(inventory_for(inventory_path, config_path))
     with opened(settings, model_path=model_path, network=network) as parts:
         if once:
-            # The round says what it did itself; the jobs' log would say it twice.
+            # The round says what it did itself, below; the jobs' log would say it twice.
             logging.basicConfig(level=logging.ERROR)
             done, digest, undelivered = watch_once(parts, targets)
             if done is None:
@@ -99,7 +99,6 @@ def watch(
         )
         # The scheduler says every run it starts at INFO: that would bury what went wrong.
         logging.getLogger("apscheduler").setLevel(logging.WARNING)
-        log = logging.getLogger("linktriage.watch")
         schedule = settings.schedule
         waiting = sum(len(t.waiting()) for t in targets if isinstance(t, Webhook))
         click.echo(
@@ -107,4 +106,4 @@ def watch(
                            schedule.timezone, shown, waiting),
             err=True,
         )  # fmt: skip
-        watch_forever(parts, targets, say=log.warning)
+        watch_forever(parts, targets)

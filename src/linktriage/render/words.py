@@ -679,6 +679,10 @@ def digests_not_kept(spool: object, why: str) -> str:
     return f"it could not be kept in {spool} either ({why}), so it is lost"
 
 
+def digest_delivered(at: float, shown: str) -> str:
+    return f"digest of {utc_minute(at)} delivered to {shown}"
+
+
 def digest_not_delivered(shown: str, why: str, kept: str) -> str:
     return f"The digest was not delivered to {shown}: {why}; {kept}."
 

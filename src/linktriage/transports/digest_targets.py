@@ -13,6 +13,7 @@ by its host alone, because a webhook's path is often its secret.
 from __future__ import annotations
 
 import hashlib
+import logging
 import os
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -27,6 +28,8 @@ from linktriage.render import words
 from linktriage.render.jsonl import dumps
 from linktriage.render.replies import SuspectsReply
 from linktriage.render.text import suspects_text
+
+log = logging.getLogger("linktriage.watch")
 
 #: A webhook that has not answered within this long is taken not to have taken the digest.
 POST_TIMEOUT_S = 10.0
@@ -57,7 +60,10 @@ class StandardOutput:
     shown: str = words.STANDARD_OUTPUT
 
     def send(self, reply: SuspectsReply) -> str | None:
-        self.write(as_line(reply) if self.as_json else suspects_text(reply) + "\n")
+        try:
+            self.write(as_line(reply) if self.as_json else suspects_text(reply) + "\n")
+        except OSError as exc:  # a closed pipe, a full disk
+            return words.digest_not_written(self.shown, exc.strerror or str(exc))
         return None
 
 
@@ -213,19 +219,19 @@ def target_for(
 @dataclass
 class DigestPost:
     """What the jobs call with each digest when the watch runs them: the digest kept in the
-    store, then handed to every target; what could not be delivered is remembered, and
-    said at once by ``say`` if given (the long watch logs it; a single round says it last)."""
+    store, then handed to every target; each delivery is logged, and what could not be
+    delivered is also remembered (a single round's exit code says it)."""
 
     triage: Triage
     targets: Sequence[DigestTarget]
-    say: Callable[[str], None] | None = None
     undelivered: list[str] = field(default_factory=list)
 
     def __call__(self, reply: SuspectsReply) -> None:
         self.triage.carried(reply, channel=None)  # the next digest is new and cleared since it
         for target in self.targets:
             problem = target.send(reply)
-            if problem is not None:
+            if problem is None:
+                log.info("%s", words.digest_delivered(reply.at, target.shown))
+            else:
                 self.undelivered.append(problem)
-                if self.say is not None:
-                    self.say(problem)
+                log.warning("%s", problem)
