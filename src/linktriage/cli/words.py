@@ -345,7 +345,8 @@ def watching(
     poll_minutes: float, days: str, at: str, zone: str, targets: list[str], waiting: int
 ) -> str:
     """What the watch runs and where its digests go, as it starts."""
-    kept = f" ({plural(waiting, 'digest')} kept from before go first)" if waiting else ""
+    go = "goes" if waiting == 1 else "go"
+    kept = f" ({plural(waiting, 'digest')} kept from before {go} first)" if waiting else ""
     return (
         f"watching the network: a poll round every {poll_minutes:g} min, the digest "
         f"{days} at {at} ({zone}), each digest to {', '.join(targets)}{kept}; Ctrl-C stops"
