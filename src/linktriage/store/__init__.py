@@ -116,6 +116,9 @@ class Store:
             self.migrate()
         except sa.exc.SQLAlchemyError as exc:
             raise StoreError(f"Cannot open the store at {masked_url(url)}: {exc}") from exc
+        except OSError as exc:  # its folder or the migrations' lock file cannot be made
+            why = f"{exc.strerror}: {exc.filename}" if exc.filename else str(exc)
+            raise StoreError(f"Cannot open the store at {masked_url(url)}: {why}") from exc
 
     def describe(self) -> str:
         """The store's URL with any password hidden, fit to print."""
