@@ -70,3 +70,16 @@ def test_the_demo_polls_nothing_into_a_store_whose_jobs_another_copy_runs(
     assert "another copy (lark-ops2:4242:1a2b3c) runs the poll job on it now" in out
     assert store.poll_history().packs == 0
     store.close()
+
+
+def test_a_store_the_demo_cannot_open_is_said_at_its_end_and_the_demo_still_runs(
+    tmp_path: Path,
+) -> None:
+    blocker = tmp_path / "a-file"
+    blocker.write_text("")
+    config = tmp_path / "c.toml"
+    config.write_text(f'[store]\nurl = "sqlite:///{blocker / "s.sqlite"}"\n')
+    code, out, _ = run("demo", "--config", str(config))
+    assert code == 0  # the demo itself needs no store of the settings'
+    assert "Larkmoor Civic Library" in out
+    assert f"could not keep the demo's polls: Cannot open the store at sqlite:///{blocker}" in out

@@ -327,6 +327,13 @@ def demo_kept(store: str, rounds: int, elsewhere: str | None) -> str:
     )
 
 
+def demo_store_unusable(store: str, why: str) -> str:
+    return (
+        f"\n{RULE}\nThe store of your settings, {store}, could not keep the demo's polls: "
+        f"{why}\nOnce it can, these answer from it after the demo:\n{DEMO_FROM_THE_STORE}"
+    )
+
+
 def demo_store_left_alone(store: str) -> str:
     return (
         f"\n{RULE}\nYour settings read an inventory: the demo keeps no simulated polls in "
