@@ -21,6 +21,7 @@ from linktriage.store import Store
 
 from agents.postgres import fresh_database, postgres_server
 from slack_emulator import SlackEmulator
+from webhook_receiver import WebhookReceiver
 
 ROOT = Path(__file__).resolve().parent.parent
 SNAPSHOTS = ROOT / "fixtures" / "snapshots"
@@ -62,6 +63,14 @@ def snapshots() -> Path:
 def emulator() -> Iterator[SlackEmulator]:
     """A local Slack Web API that records every call (test_slack adds a user group)."""
     running = SlackEmulator().start()
+    yield running
+    running.stop()
+
+
+@pytest.fixture
+def webhook() -> Iterator[WebhookReceiver]:
+    """A webhook on loopback that takes every POST (a test may make some fail first)."""
+    running = WebhookReceiver().start()
     yield running
     running.stop()
 

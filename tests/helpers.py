@@ -203,3 +203,30 @@ def ask_once(collector: C, question: Callable[[C], Awaitable[R]]) -> R:
 def read_once(collector: Collector, ports: list[str] | None = None) -> Reading:
     """One read of a collector, as one poll of the service makes it."""
     return ask_once(collector, lambda c: c.read(ports))
+
+
+def polled_for_an_hour(folder: Path, settings: str = "") -> Path:
+    """A settings file (with ``settings`` added) whose store, a SQLite file in ``folder``,
+    holds the poll job's last hour of the demo network, up to five minutes ago: recent
+    enough that a question or a list needs one fresh poll, not two."""
+    import time
+
+    from linktriage.bot.jobs import Jobs
+    from linktriage.bot.triage import Triage
+    from linktriage.engine.diagnosis.loaded_model import Model
+    from linktriage.network.demo import DemoClock, DemoNetwork
+    from linktriage.settings import Settings
+    from linktriage.store import Store
+
+    store_path = folder / "s.sqlite"
+    config = folder / "c.toml"
+    config.write_text(f'[store]\nurl = "sqlite:///{store_path}"\n{settings}')
+    clock = DemoClock(time.time() - 3600.0)
+    store = Store(f"sqlite:///{store_path}")
+    triage = Triage(DemoNetwork(clock=clock), store, Model.load(), Settings(), clock=clock)
+    jobs = Jobs(triage, post=lambda reply: None, channel=None, holding=True)  # the only replica
+    for _ in range(12):
+        jobs.poll()
+        clock.sleep(300.0)
+    store.close()
+    return config

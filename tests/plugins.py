@@ -127,3 +127,18 @@ def install(folder: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     (info / "entry_points.txt").write_text(ENTRY_POINTS)
     monkeypatch.syspath_prepend(str(folder))
     monkeypatch.setitem(sys.modules, "plugins", sys.modules[__name__])
+
+
+def dead_inventory(folder: Path, names: list[str], *, with_demo: bool) -> Path:
+    """An inventory of devices that never answer (``names``, each given up after 0.2 s), and
+    with ``with_demo`` the demo network's annex switch beside them."""
+    devices = "".join(
+        f'[[devices]]\nname = "{name}"\nsite = "annex"\ncollector = "hang"\n'
+        "timeout_s = 0.2\nretries = 0\n"
+        for name in names
+    )
+    if with_demo:
+        devices += '[[devices]]\nname = "lark-annex-sw1"\nsite = "annex"\ncollector = "demo"\n'
+    path = folder / "inventory.toml"
+    path.write_text(devices)
+    return path

@@ -8,7 +8,6 @@ import re
 import shutil
 import subprocess
 import sys
-import time
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -16,15 +15,16 @@ import pytest
 from click.testing import CliRunner
 
 from linktriage.bot.triage import Triage
-from linktriage.cli import READ_NONE, READ_SOME, main
+from linktriage.cli import READ_NONE, main
 from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.network.demo import DemoClock, DemoNetwork
 from linktriage.store import Store
 
 import plugins
-from helpers import grown
+from helpers import grown, polled_for_an_hour
 
-COMMANDS = ["diagnose", "ask", "train", "model", "demo", "chat", "config", "labels"]
+COMMANDS = ["diagnose", "ask", "train", "model", "demo", "chat", "config", "labels", "suspects",
+            "watch"]  # fmt: skip
 
 
 def run(*args: str) -> tuple[int, str, str]:
@@ -537,52 +537,11 @@ def test_config_check_says_how_much_poll_history_the_store_holds(tmp_path: Path)
     assert " MB" in said and "polls kept 48 h" in said
 
 
-def _dead_inventory(tmp_path: Path, names: list[str], *, with_demo: bool) -> Path:
-    devices = "".join(
-        f'[[devices]]\nname = "{name}"\nsite = "annex"\ncollector = "hang"\n'
-        "timeout_s = 0.2\nretries = 0\n"
-        for name in names
-    )
-    if with_demo:
-        devices += '[[devices]]\nname = "lark-annex-sw1"\nsite = "annex"\ncollector = "demo"\n'
-    path = tmp_path / "inventory.toml"
-    path.write_text(devices)
-    return path
-
-
-def test_a_sweep_where_nothing_answers_names_every_device_and_clears_nothing(
-    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
-) -> None:
-    plugins.install(tmp_path / "site", monkeypatch)
-    inventory = _dead_inventory(tmp_path, ["lark-dead1", "lark-dead2"], with_demo=False)
-    code, out, _ = run("sweep", "--inventory", str(inventory))
-    assert code == READ_NONE == 4
-    assert "Nothing was read" in out
-    for name in ("lark-dead1", "lark-dead2"):
-        assert f"{name}: could not list its ports: no answer within" in out
-    assert "No suspects" not in out and "Nothing suspect" not in out
-
-
-def test_a_sweep_where_some_devices_answer_says_what_was_not_read(
-    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
-) -> None:
-    plugins.install(tmp_path / "site", monkeypatch)
-    inventory = _dead_inventory(tmp_path, ["lark-dead1"], with_demo=True)
-    settings = tmp_path / "config.toml"
-    settings.write_text("[chat]\nquick_window_s = 1\n")
-    code, out, err = run(
-        "sweep", "--json", "--inventory", str(inventory), "--config", str(settings)
-    )
-    assert code == READ_SOME == 3
-    assert "1 device not read (lark-dead1: could not list its ports: no answer" in err
-    assert any(json.loads(line)["device"] == "lark-annex-sw1" for line in out.splitlines())
-
-
 def test_collect_from_a_device_that_never_answers_says_so_and_exits_4(
     tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     plugins.install(tmp_path / "site", monkeypatch)
-    inventory = _dead_inventory(tmp_path, ["lark-dead1"], with_demo=False)
+    inventory = plugins.dead_inventory(tmp_path, ["lark-dead1"], with_demo=False)
     out = tmp_path / "out.jsonl"
     code, _, err = run(
         "collect", "--inventory", str(inventory), "--device", "dead1", "--out", str(out)
@@ -624,29 +583,8 @@ def test_control_characters_in_names_are_shown_not_obeyed(tmp_path: Path) -> Non
     assert json.loads(out)["port"] == "p1\nlark-core1  up1  healthy"  # JSON keeps it exact
 
 
-def _polled_for_an_hour(tmp_path: Path) -> Path:
-    """A settings file whose store holds the poll job's last hour of the demo network."""
-    from linktriage.bot.jobs import Jobs
-    from linktriage.bot.triage import Triage
-    from linktriage.engine.diagnosis.loaded_model import Model
-    from linktriage.settings import Settings
-
-    store_path = tmp_path / "s.sqlite"
-    config = tmp_path / "c.toml"
-    config.write_text(f'[store]\nurl = "sqlite:///{store_path}"\n')
-    clock = DemoClock(time.time() - 3600.0)
-    store = Store(f"sqlite:///{store_path}")
-    triage = Triage(DemoNetwork(clock=clock), store, Model.load(), Settings(), clock=clock)
-    jobs = Jobs(triage, post=lambda reply: None, channel=None, holding=True)  # the only replica
-    for _ in range(12):
-        jobs.poll()
-        clock.sleep(300.0)
-    store.close()
-    return config
-
-
 def test_history_answers_from_the_polls_the_poll_job_stored(tmp_path: Path) -> None:
-    config = _polled_for_an_hour(tmp_path)
+    config = polled_for_an_hour(tmp_path)
     code, out, _ = run("history", "idf2", "port14", "--since", "2h", "--config", str(config))
     assert code == 0
     lines = out.splitlines()
@@ -667,7 +605,7 @@ def test_history_names_a_port_by_the_neighbor_its_stored_polls_hear(tmp_path: Pa
 
 
 def test_history_json_is_one_object_with_every_window_and_the_changes(tmp_path: Path) -> None:
-    config = _polled_for_an_hour(tmp_path)
+    config = polled_for_an_hour(tmp_path)
     code, out, _ = run("history", "lark-core1", "up3", "--json", "--config", str(config))
     assert code == 0
     found = json.loads(out)
@@ -737,7 +675,7 @@ def test_ask_reads_a_device_of_an_inventory_now(tmp_path: Path, snapshots: Path)
 def test_history_plot_writes_the_chart_the_bot_would_post(tmp_path: Path) -> None:
     from PIL import Image
 
-    config = _polled_for_an_hour(tmp_path)
+    config = polled_for_an_hour(tmp_path)
     chart = tmp_path / "port14.png"
     code, _, err = run("history", "idf2", "port14", "--plot", str(chart), "--config", str(config))
     assert code == 0 and f"wrote {chart}" in err

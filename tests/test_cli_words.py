@@ -33,6 +33,15 @@ from linktriage.cli import words
             words.device_setup("sw1", "annex", "snmp", "10.0.0.1", 1, "ok"),
             "sw1 (annex): snmp at 10.0.0.1, 1 port listed: ok",
         ),
+        (
+            words.poll_round_done(1, {"sw1": "no answer within 2 s"}),
+            "poll round: 1 port poll stored; 1 device not read (sw1: no answer within 2 s)",
+        ),
+        (
+            words.watching(5.0, "mon-fri", "07:30", "UTC", ["standard output"], 1),
+            "watching the network: a poll round every 5 min, the digest mon-fri at 07:30 (UTC), "
+            "each digest to standard output (1 digest kept from before goes first); Ctrl-C stops",
+        ),
     ],
 )
 def test_counts_of_one_are_said_in_the_singular(said: str, expected: str) -> None:

@@ -51,3 +51,19 @@ def test_the_readme_ask_example_is_what_ask_prints() -> None:
     block = README.split("$ linktriage ask lark-east-idf2 port14\n", 1)[1].split("  ...")[0]
     out = CliRunner().invoke(main, ["ask", "lark-east-idf2", "port14"]).stdout
     assert out.startswith(block)
+
+
+def test_the_readme_diagnose_example_is_what_diagnose_prints() -> None:
+    block = README.split("```\n$ linktriage diagnose ", 1)[1].split("```", 1)[0]
+    command, *shown = block.splitlines()
+    result = CliRunner().invoke(main, ["diagnose", *command.split()])
+    assert result.exit_code == 0
+    # Every line shown is printed ("..." stands for lines left out), those of each stream
+    # (the table on standard output, what was skipped on standard error) in their order.
+    shown = [line for line in shown if line != "..."]
+    assert set(shown) <= set(result.stdout.splitlines()) | set(result.stderr.splitlines())
+    for stream in (result.stdout, result.stderr):
+        printed = stream.splitlines()
+        assert [line for line in shown if line in printed] == [
+            line for line in printed if line in shown
+        ]

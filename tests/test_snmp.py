@@ -424,7 +424,7 @@ def test_an_agent_without_sysuptime_still_reads(
     assert all(s.last_change is None for s in reading.snapshots)
 
 
-def test_a_sweep_over_recorded_hosts_and_a_dead_device_names_the_dead_one(
+def test_suspects_over_recorded_hosts_and_a_dead_device_names_the_dead_one(
     shipped: Snmpsim, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     devices = ""
@@ -447,7 +447,9 @@ def test_a_sweep_over_recorded_hosts_and_a_dead_device_names_the_dead_one(
     settings = tmp_path / "config.toml"
     settings.write_text("[chat]\nquick_window_s = 2\n")  # the second poll need not wait long
     runner = CliRunner()
-    swept = runner.invoke(main, ["sweep", "--inventory", str(inventory), "--config", str(settings)])
+    swept = runner.invoke(
+        main, ["suspects", "--inventory", str(inventory), "--config", str(settings)]
+    )
     assert swept.exception is None or isinstance(swept.exception, SystemExit)
     assert swept.exit_code == 3, swept.output  # some devices not read
     assert "lark-lab-dead: no answer" in swept.stdout

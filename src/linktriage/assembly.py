@@ -9,10 +9,11 @@ store's connections and a network's poll loop never outlive the work they were o
 from __future__ import annotations
 
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from linktriage.bot.labelling import GroupMembers
 from linktriage.bot.triage import Triage
@@ -23,6 +24,11 @@ from linktriage.network.inventory_network import InventoryNetwork
 from linktriage.network.watched import Network
 from linktriage.settings import Settings, load_settings
 from linktriage.store import Store
+
+if TYPE_CHECKING:
+    from linktriage.bot.poller import PollRound
+    from linktriage.render.replies import SuspectsReply
+    from linktriage.transports.digest_targets import DigestTarget
 
 
 @dataclass
@@ -136,7 +142,7 @@ def serve_slack(
     from linktriage.bot.jobs import Jobs, start_scheduler
     from linktriage.errors import LinktriageError
     from linktriage.render import words
-    from linktriage.render.replies import SuspectsReply
+    from linktriage.store import holder_name
     from linktriage.transports.slack import (
         build_app,
         group_members,
@@ -145,7 +151,7 @@ def serve_slack(
         web_client,
     )
     from linktriage.transports.slack_http import http_server
-    from linktriage.transports.slack_sender import SlackSender, holder_name
+    from linktriage.transports.slack_sender import SlackSender
 
     settings = parts.settings
     client = web_client(settings)
@@ -206,3 +212,59 @@ def serve_slack(
             scheduler.shutdown(wait=False)
             jobs_run.release()
         sender.stop()
+
+
+def watch_once(
+    parts: Parts, targets: Sequence[DigestTarget]
+) -> tuple[PollRound | None, SuspectsReply, list[str]]:
+    """One round of the jobs now, out of chat, as a script asks for it: this interval's poll
+    round (unless a copy on the store ran it already) and a digest at once, sent to the
+    targets. Returns the round (None if it had been run), the digest and what could not be
+    delivered. Another copy holding the store's jobs is an error: they run once."""
+    from linktriage.bot.jobs import Jobs
+    from linktriage.errors import LinktriageError
+    from linktriage.render import words
+    from linktriage.store import JOBS_LEASE, holder_name
+    from linktriage.transports.digest_targets import DigestPost
+
+    triage = parts.triage()
+    post = DigestPost(triage, targets)
+    # Taking the jobs catches nothing up here: the round and the digest follow at once.
+    jobs = Jobs(triage, post, None, parts.settings.schedule, holder=holder_name(),
+                taken=lambda: None)  # fmt: skip
+    if not jobs.heartbeat():
+        holder = triage.store.lease_holder(JOBS_LEASE, now=triage.clock())
+        raise LinktriageError(words.jobs_run_elsewhere(holder), hint=words.JOBS_ELSEWHERE_HINT)
+    try:
+        done = jobs.poll()
+        digest = jobs.digest(triage.clock())
+    finally:
+        jobs.release()
+    if digest is None:  # claimed by its very moment: only a copy holding the jobs too
+        raise LinktriageError(words.jobs_run_elsewhere(None), hint=words.JOBS_ELSEWHERE_HINT)
+    return done, digest, post.undelivered
+
+
+def watch_forever(parts: Parts, targets: Sequence[DigestTarget]) -> None:
+    """The poll rounds, the digest on the schedule and the tidying, out of chat, until
+    stopped (SIGTERM or Ctrl-C): run once across every copy on the store, Slack's or not."""
+    import signal
+    import sys
+    import threading
+
+    from linktriage.bot.jobs import Jobs, start_scheduler
+    from linktriage.store import holder_name
+    from linktriage.transports.digest_targets import DigestPost
+
+    triage = parts.triage()
+    schedule = parts.settings.schedule
+    jobs = Jobs(triage, DigestPost(triage, targets), None, schedule, holder=holder_name())
+    scheduler = start_scheduler(jobs, schedule)
+    signal.signal(signal.SIGTERM, lambda *_: sys.exit(0))  # systemd stops it: shut down cleanly
+    try:
+        threading.Event().wait()
+    except KeyboardInterrupt:
+        pass
+    finally:
+        scheduler.shutdown(wait=False)
+        jobs.release()

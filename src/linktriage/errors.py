@@ -12,7 +12,8 @@ drawing to the classes).
     │   ├── ConfigError              settings that cannot be used (every problem listed)
     │   ├── InventoryError           an inventory that cannot be used (what is wrong)
     │   │   └── DeviceSetupError         one device's entry cannot be read as set up (which, why)
-    │   └── UnknownCollectorError    no collector registered under that name (the ones that are)
+    │   ├── UnknownCollectorError    no collector registered under that name (the ones that are)
+    │   └── DigestTargetError        a place to send digests that cannot be used (a URL, a file)
     ├── PollError                a device could not be read; names the device
     │   └── CollectorError           ... as its collector found
     │       ├── DeviceTimeoutError       no answer within the timeout, after every retry
@@ -112,6 +113,11 @@ class DeviceSetupError(InventoryError):
 
 class UnknownCollectorError(InputError, LookupError):
     """No collector is registered under that name; the hint lists the ones that are."""
+
+
+class DigestTargetError(InputError):
+    """A place the watch is told to send digests cannot be used: a URL it cannot post to, a
+    file it cannot append to."""
 
 
 class CollectorError(PollError):

@@ -159,11 +159,11 @@ def listed(items: list[SuspectItem]) -> list[dict[str, object]]:
 
 def ranked_suspects(batch: DiagnosisBatch) -> list[int]:
     """The rows of the suspect links, worst first. A suspect link is a port with a fault
-    verdict (:data:`~linktriage.engine.verdicts.FAULTS`): the one definition behind every list and
-    count of suspects (``suspects``, the digest, ``sweep``, ``demo``). Where both ends of a
-    link are in the batch, the link's verdict from both views decides, and the link is
-    listed once, under the end that sees the fault itself (the worse, then the first by
-    name)."""
+    verdict (:data:`~linktriage.engine.verdicts.FAULTS`): the one definition behind every
+    list and count of suspects (``suspects`` in chat and on the command line, the digest,
+    ``demo``). Where both ends of a link are in the batch, the link's verdict from both
+    views decides, and the link is listed once, under the end that sees the fault itself
+    (the worse, then the first by name)."""
     verdicts = [batch.link_verdict(i) for i in range(len(batch))]
     rows = [i for i, v in enumerate(verdicts) if v in FAULTS]
     chosen = set(rows)

@@ -254,11 +254,11 @@ class Triage:
         self._audit(f"check again {stored.device} {stored.port}", reply, user=user, channel=channel)
         return reply
 
-    def carried(self, reply: Reply, *, channel: str) -> tuple[int | None, int | None]:
+    def carried(self, reply: Reply, *, channel: str | None) -> tuple[int | None, int | None]:
         """The answer (diagnosis id) or list of suspects (digest id) a reply carries into
-        a channel, a list kept now if it was not yet: what its message, once posted, is
-        attached to. (None, None) for replies with no thread worth reading (help, errors,
-        an empty list asked for)."""
+        a channel (None: out of chat, as the watch sends its digests), a list kept now if it
+        was not yet: what its message, once posted, is attached to. (None, None) for
+        replies with no thread worth reading (help, errors, an empty list asked for)."""
         if isinstance(reply, DiagnosisReply):
             return reply.diagnosis_id, None
         if isinstance(reply, SuspectsReply) and (reply.items or reply.kind == "digest"):

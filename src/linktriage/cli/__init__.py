@@ -5,7 +5,17 @@ from __future__ import annotations
 import click
 
 from linktriage import __version__
-from linktriage.cli import bot, config, demo, devices, history, labels, models, snapshots
+from linktriage.cli import (
+    bot,
+    config,
+    demo,
+    devices,
+    history,
+    labels,
+    models,
+    snapshots,
+    watch,
+)
 from linktriage.cli.options import READ_ALL, READ_NONE, READ_SOME, Group
 
 __all__ = ["READ_ALL", "READ_NONE", "READ_SOME", "main"]
@@ -30,9 +40,10 @@ for command in (
     models.model,
     bot.chat,
     bot.serve,
+    watch.watch,
     devices.inventory,
     devices.collect,
-    devices.sweep,
+    devices.suspects,
     config.config,
     labels.labels,
     demo.demo,

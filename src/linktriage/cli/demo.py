@@ -3,11 +3,15 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import click
 
 from linktriage.cli import words
-from linktriage.cli.options import model_option
+from linktriage.cli.options import config_option, model_option
+
+if TYPE_CHECKING:
+    from linktriage.settings import Settings
 
 #: The port whose history the demo shows: its cable fault began during the morning.
 _HISTORY_OF = ("lark-east-idf2", "port14")
@@ -16,9 +20,14 @@ _DEMO_STORIES = {"cable_fault", "duplex_mismatch", "optic_degraded", "insufficie
 
 
 @click.command()
+@config_option
 @model_option
-def demo(model_path: Path | None) -> None:
-    """Show the whole job on the built-in demo network, offline."""
+def demo(config_path: Path | None, model_path: Path | None) -> None:
+    """Show the whole job on the built-in demo network, offline.
+
+    It leaves the poll job's last hour of the demo network in the settings' store (unless
+    they read an inventory), so `history`, `suspects` and `watch --once` answer from it.
+    """
     from collections import Counter
 
     from linktriage.bot.digests import ranked_suspects, unjudged
@@ -27,7 +36,9 @@ def demo(model_path: Path | None) -> None:
     from linktriage.engine.verdicts import GUARD_KINDS
     from linktriage.network.demo import ORGANISATION, PLANTED, demo_polls
     from linktriage.render.text import explanation, table_rows
+    from linktriage.settings import load_settings
 
+    settings = load_settings(config_path)  # a settings file that cannot be used: said first
     loaded = Model.load(model_path)
     batch = diagnose(demo_polls(), loaded)
     suspects, quiet = ranked_suspects(batch), unjudged(batch)
@@ -46,6 +57,7 @@ def demo(model_path: Path | None) -> None:
         click.echo(explanation(batch.record(row)))
     _demo_digest_and_label(model_path)
     _demo_history(model_path)
+    _demo_keeps_polls(settings, model_path)
     click.echo(words.DEMO_NEXT)
 
 
@@ -126,3 +138,50 @@ def _demo_history(model_path: Path | None) -> None:
     path.parent.mkdir(parents=True, exist_ok=True)
     path.write_bytes(chart.data)
     click.echo(words.demo_chart(path))
+
+
+#: How far back the polls the demo leaves in the settings' store reach: windows enough for
+#: `linktriage history`, rounds few enough to take a second or two.
+_KEPT_S = 3600.0
+
+
+def _demo_keeps_polls(settings: Settings, model_path: Path | None) -> None:
+    """The poll job's last hour of the demo network, up to now, kept in the settings'
+    store, so the commands that answer from stored polls do after the demo. The jobs run
+    the rounds (the store's lease, each round claimed once), so a watch already polling
+    this store is not doubled; and only where the settings read the demo network: never
+    are simulated polls put in the store of a real one."""
+    import time
+
+    from linktriage.assembly import opened
+    from linktriage.bot.jobs import Jobs
+    from linktriage.errors import StoreError
+    from linktriage.network.demo import DemoClock, DemoNetwork
+    from linktriage.store import JOBS_LEASE, holder_name, masked_url
+
+    where = masked_url(settings.store.resolved_url())
+    if settings.network.inventory is not None:
+        click.echo(words.demo_store_left_alone(where))
+        return
+    now = time.time()
+    clock = DemoClock(now - _KEPT_S)
+    network = DemoNetwork(clock=clock)  # the demo collector's counters, on simulated time
+    rounds, elsewhere = 0, None
+    try:
+        with opened(settings, model_path=model_path, network=network, demo_clock=clock) as parts:
+            triage = parts.triage()
+            jobs = Jobs(triage, lambda reply: None, None, settings.schedule,
+                        holder=holder_name(), taken=lambda: None)  # fmt: skip
+            try:
+                while clock.now <= now:
+                    if not jobs.heartbeat():
+                        elsewhere = triage.store.lease_holder(JOBS_LEASE, now=clock.now) or "?"
+                        break
+                    rounds += jobs.poll() is not None  # an interval a watch polled: not redone
+                    clock.sleep(jobs.poll_s)
+            finally:
+                jobs.release()
+    except StoreError as exc:  # the demo itself ran offline: its end says what the store said
+        click.echo(words.demo_store_unusable(where, exc.render()))
+        return
+    click.echo(words.demo_kept(where, rounds, elsewhere))

@@ -1,4 +1,4 @@
-"""``inventory check``, ``collect`` and ``sweep``: reading the devices of an inventory."""
+"""``inventory check``, ``collect`` and ``suspects``: reading the devices of an inventory."""
 
 from __future__ import annotations
 
@@ -145,18 +145,29 @@ def collect(
 
 
 @click.command()
-@click.option("--json", "as_json", is_flag=True, help="One JSON object per suspect per line.")
+@click.argument("site", required=False)
+@click.option(
+    "--json", "as_json", is_flag=True, help="The list as one JSON object, what was not read in it."
+)
 @inventory_option
 @config_option
 @model_option
-def sweep(
-    as_json: bool, inventory_path: Path | None, config_path: Path | None, model_path: Path | None
+def suspects(
+    site: str | None,
+    as_json: bool,
+    inventory_path: Path | None,
+    config_path: Path | None,
+    model_path: Path | None,
 ) -> None:
-    """Diagnose every port of the inventory and list the suspect links, worst first.
+    """List the suspect links, worst first, as /triage suspects does in chat.
 
-    Every device that could not be read is named, and every port that could not be judged
-    counted: no all-clear covers what was not read. Exit 0 when every device was read, 3
-    when some were not, 4 when none was.
+    Every device of the inventory is read now (with the store's recent polls) and every
+    port diagnosed.
+
+    SITE narrows the list to a site (a unique part of its name will do) or to the devices
+    whose names hold it ("east"). Every device that could not be read is named, and every
+    port that could not be judged counted: no all-clear covers what was not read. Exit 0
+    when every device was read, 3 when some were not, 4 when none was.
     """
     from linktriage.assembly import inventory_for, opened
     from linktriage.network.inventory_network import InventoryNetwork
@@ -167,12 +178,8 @@ def sweep(
     settings = load_settings(config_path)
     network = InventoryNetwork(inventory_for(inventory_path, config_path))
     with opened(settings, model_path=model_path, network=network) as parts:
-        reply = parts.triage().digests.suspects(kind="sweep")
-    if as_json:
-        for item in reply.items:
-            click.echo(dumps(item.record))
-        click.echo(reply.coverage, err=True)
-    else:
-        click.echo(suspects_text(reply))
+        # Kept as "sweep", the command's earlier name: one origin for lists read here.
+        reply = parts.triage().digests.suspects(site, kind="sweep")
+    click.echo(dumps(reply.as_record()) if as_json else suspects_text(reply))
     read = reply.ports_judged + sum(reply.not_judged.values())
     read_exit(len(reply.failed), read)

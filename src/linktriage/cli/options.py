@@ -84,7 +84,7 @@ def write_plot(path: Path, reply: Reply) -> None:
     click.echo(words.wrote_picture(path), err=True)
 
 
-#: Exit codes of the commands that read devices (sweep, collect, inventory check --reach):
+#: Exit codes of the commands that read devices (suspects, collect, inventory check --reach):
 #: every device read, some not read (the rest were), nothing read; diagnose exits with the
 #: last where a file holds no usable line. 1 is an error of
 #: linktriage's own (a bad file or setting), 2 a wrong command line.
@@ -98,8 +98,20 @@ def read_exit(unread: int, read: int) -> None:
     sys.exit(READ_ALL)
 
 
+#: Commands that were renamed, by their old names, with what to type now.
+RENAMED = {"sweep": words.SWEEP_RENAMED}
+
+
 class Group(click.Group):
-    """Shows linktriage's own errors as a message and a hint, never a traceback."""
+    """Shows linktriage's own errors as a message and a hint, never a traceback; an old
+    command's name is refused with its new one (a wrong command line, exit 2)."""
+
+    def resolve_command(
+        self, ctx: click.Context, args: list[str]
+    ) -> tuple[str | None, click.Command | None, list[str]]:
+        if args and args[0] in RENAMED:
+            raise click.UsageError(RENAMED[args[0]], ctx)
+        return super().resolve_command(ctx, args)
 
     def invoke(self, ctx: click.Context) -> Any:
         try:

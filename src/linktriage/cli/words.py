@@ -32,6 +32,13 @@ SIGNING_SECRET_MISSING = "SLACK_SIGNING_SECRET is not set: HTTP mode cannot veri
 CHANNEL_UNSET = "[slack] channel is not set: digests have nowhere to go"
 
 
+SWEEP_RENAMED = (
+    "`linktriage sweep` is now `linktriage suspects [SITE]`: the same list, read the same "
+    "way, with the same exit codes, as /triage suspects gives in chat (its --json writes one "
+    "object)."
+)
+
+
 def cli_error(rendered: str) -> str:
     return f"linktriage: {rendered}"
 
@@ -306,7 +313,74 @@ def demo_stored(label: Label, said: str) -> str:
     )
 
 
+#: What answers from the store the demo leaves, as an engineer would type it next.
+DEMO_FROM_THE_STORE = (
+    "  linktriage history lark-east-idf2 port14\n"
+    "  linktriage suspects central\n"
+    "  linktriage watch --once"
+)
+
+
+def demo_kept(store: str, rounds: int, elsewhere: str | None) -> str:
+    """What the demo left in the settings' store: the rounds it polled, or why none."""
+    if elsewhere is not None:
+        done = f"another copy ({printable(elsewhere)}) runs the poll job on it now"
+    elif rounds:
+        done = f"{plural(rounds, 'poll round')} of the demo network's last hour polled into it"
+    else:
+        done = "the poll job had polled every round of the last hour into it already"
+    return (
+        f"\n{RULE}\nThe store of your settings, {store}: {done}. These answer from it now:\n"
+        f"{DEMO_FROM_THE_STORE}"
+    )
+
+
+def demo_store_unusable(store: str, why: str) -> str:
+    return (
+        f"\n{RULE}\nThe store of your settings, {store}, could not keep the demo's polls: "
+        f"{why}\nOnce it can, these answer from it after the demo:\n{DEMO_FROM_THE_STORE}"
+    )
+
+
+def demo_store_left_alone(store: str) -> str:
+    return (
+        f"\n{RULE}\nYour settings read an inventory: the demo keeps no simulated polls in "
+        f"their store ({store}). With settings that read the demo network, these answer from "
+        f"the store after the demo:\n{DEMO_FROM_THE_STORE}"
+    )
+
+
 DEMO_NEXT = (
     f"\n{RULE}\nAsk about any other port: linktriage ask DEVICE PORT "
     "(e.g. linktriage ask lark-core1 up3), or talk to the bot: linktriage chat."
 )
+
+
+def watching(
+    poll_minutes: float, days: str, at: str, zone: str, targets: list[str], waiting: int
+) -> str:
+    """What the watch runs and where its digests go, as it starts."""
+    go = "goes" if waiting == 1 else "go"
+    kept = f" ({plural(waiting, 'digest')} kept from before {go} first)" if waiting else ""
+    return (
+        f"watching the network: a poll round every {poll_minutes:g} min, the digest "
+        f"{days} at {at} ({zone}), each digest to {', '.join(targets)}{kept}; Ctrl-C stops"
+    )
+
+
+def poll_round_done(stored: int, failed: Mapping[str, str]) -> str:
+    said = f"poll round: {plural(stored, 'port poll')} stored"
+    if failed:
+        devices = "; ".join(f"{d}: {why}" for d, why in sorted(failed.items()))
+        said += f"; {plural(len(failed), 'device')} not read ({devices})"
+    return said
+
+
+ROUND_RAN_ALREADY = (
+    "poll round: this interval's had been run (by another copy on the store, or an earlier "
+    "round): the digest reads its polls"
+)
+
+
+def digest_sent(at: float, targets: list[str]) -> str:
+    return f"digest of {utc_minute(at)} sent to {', '.join(targets)}"

@@ -7,13 +7,12 @@ exactly ``dumps(batch.record(i))``.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-from typing import IO
+from collections.abc import Mapping, Sequence
+from typing import IO, Any
 
 import msgspec
 
 from linktriage.engine.diagnosis.batch import DiagnosisBatch
-from linktriage.engine.format.answers import DiagnosisRecord
 
 _encoder = msgspec.json.Encoder()
 _encode = _encoder.encode
@@ -21,8 +20,9 @@ _encode = _encoder.encode
 _CHUNK = 1024
 
 
-def dumps(record: DiagnosisRecord) -> str:
-    """One record as a single line of JSON (UTF-8 text kept as it is)."""
+def dumps(record: Mapping[str, Any]) -> str:
+    """One record (a diagnosis, a list of suspects) as a single line of JSON (UTF-8 text
+    kept as it is; a number that is not finite written as null)."""
     return _encode(record).decode()
 
 

@@ -132,6 +132,34 @@ class TreeReply:
     visibility: Visibility = "channel"
 
 
+class SuspectRecord(TypedDict):
+    """One suspect link of a list: its rank, whether it is new since the last digest, the
+    one-line reason, the stored answer's id, and the diagnosis as ``diagnose --json`` writes
+    it."""
+
+    rank: int
+    new: bool
+    reason: str
+    diagnosis_id: int
+    diagnosis: DiagnosisRecord
+
+
+class SuspectsRecord(TypedDict):
+    """A list of suspects as ``suspects --json`` writes it and the watch sends its digests:
+    times in seconds since the epoch, ``since`` and ``cleared`` set in a digest only."""
+
+    kind: str
+    title: str
+    at: float
+    coverage: str
+    ports_judged: int
+    not_judged: dict[str, int]
+    failed: dict[str, str]
+    suspects: list[SuspectRecord]
+    since: float | None
+    cleared: list[str]
+
+
 @dataclass(frozen=True, slots=True)
 class SuspectItem:
     """One suspect link in a list: its rank, verdict and the one-line reason."""
@@ -167,6 +195,29 @@ class SuspectsReply:
         return coverage_words(
             len(self.items), self.ports_judged, self.not_judged, self.failed, down=self.down
         )
+
+    def as_record(self) -> SuspectsRecord:
+        return {
+            "kind": self.kind,
+            "title": self.title,
+            "at": self.at,
+            "coverage": self.coverage,
+            "ports_judged": self.ports_judged,
+            "not_judged": self.not_judged,
+            "failed": self.failed,
+            "suspects": [
+                {
+                    "rank": item.rank,
+                    "new": item.new,
+                    "reason": item.reason,
+                    "diagnosis_id": item.diagnosis_id,
+                    "diagnosis": item.record,
+                }
+                for item in self.items
+            ],
+            "since": self.since,
+            "cleared": self.cleared,
+        }
 
 
 @dataclass(frozen=True, slots=True)

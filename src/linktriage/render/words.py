@@ -702,3 +702,67 @@ def found_note(note: str) -> str:
 
 def recorded_fallback(said: str, device: str, port: str) -> str:
     return f"Recorded: found {said} at {device} {port}"
+
+
+# --- the watch's digests, out of chat (transports/digest_targets.py)
+STANDARD_OUTPUT = "standard output"
+
+DIGEST_TARGET_HINT = (
+    "Give - for standard output, a file's path (each digest appended as one JSON object per "
+    "line), or an http:// or https:// URL (each digest POSTed as JSON)."
+)
+
+EMPTY_DIGEST_TARGET = "An empty name is no place to send digests."
+
+WEBHOOK_NO_HOST = "it names no host"
+
+
+def webhook_scheme(scheme: str) -> str:
+    return f"its scheme is {printable(scheme)!r}, not http or https"
+
+
+def not_a_webhook(why: str) -> str:
+    return f"Cannot post digests to that URL: {why}."
+
+
+def cannot_append_digests(path: object, why: str) -> str:
+    return f"Cannot append digests to {printable(str(path))}: {why}."
+
+
+def digest_not_written(path: object, why: str) -> str:
+    return f"The digest was not written to {printable(str(path))}: {why}."
+
+
+def webhook_unanswered(why: str) -> str:
+    return f"no answer ({why})"
+
+
+def webhook_refused(status: int, reason: str) -> str:
+    return f"it answered HTTP {status} {printable(reason)}".rstrip()
+
+
+def digests_kept(count: int, spool: object) -> str:
+    return f"{plural(count, 'digest')} kept in {spool}, sent again, oldest first, before the next"
+
+
+def digests_not_kept(spool: object, why: str) -> str:
+    return f"it could not be kept in {spool} either ({why}), so it is lost"
+
+
+def digest_delivered(at: float, shown: str) -> str:
+    return f"digest of {utc_minute(at)} delivered to {shown}"
+
+
+def digest_not_delivered(shown: str, why: str, kept: str) -> str:
+    return f"The digest was not delivered to {shown}: {why}; {kept}."
+
+
+def jobs_run_elsewhere(holder: str | None) -> str:
+    who = f"another copy ({printable(holder)})" if holder else "another copy"
+    return f"The jobs of this store are run by {who}: a round here would run them twice."
+
+
+JOBS_ELSEWHERE_HINT = (
+    "Its digests go where it sends them. A copy that stops hands the jobs on at once, or, "
+    "stopped without a word, half a poll interval later."
+)

@@ -15,7 +15,10 @@ answer are numbered, each number once, so two presses at once on two replicas ar
 from __future__ import annotations
 
 import json
+import os
+import socket
 import time
+import uuid
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import AbstractContextManager, contextmanager
 from pathlib import Path
@@ -73,6 +76,7 @@ __all__ = [
     "Store",
     "StoreState",
     "StoredDiagnosis",
+    "holder_name",
     "inspect_store",
     "masked_url",
 ]
@@ -87,6 +91,11 @@ def _new_id(result: sa.CursorResult[Any]) -> int:
     if key is None:
         raise StoreError("the database returned no id for a new row")
     return int(key[0])
+
+
+def holder_name() -> str:
+    """This replica's name in the store's leases: host, process and a random tail."""
+    return f"{socket.gethostname()}:{os.getpid()}:{uuid.uuid4().hex[:6]}"
 
 
 #: The PostgreSQL advisory lock migrations hold (any fixed 64-bit number the application
@@ -107,6 +116,9 @@ class Store:
             self.migrate()
         except sa.exc.SQLAlchemyError as exc:
             raise StoreError(f"Cannot open the store at {masked_url(url)}: {exc}") from exc
+        except OSError as exc:  # its folder or the migrations' lock file cannot be made
+            why = f"{exc.strerror}: {exc.filename}" if exc.filename else str(exc)
+            raise StoreError(f"Cannot open the store at {masked_url(url)}: {why}") from exc
 
     def describe(self) -> str:
         """The store's URL with any password hidden, fit to print."""

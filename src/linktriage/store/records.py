@@ -33,7 +33,7 @@ class NewAnswer:
     record: dict[str, Any]
     features: dict[str, float | None]
     at: float
-    origin: str  # chat, console, digest, suspects, sweep
+    origin: str  # chat, console, digest, suspects, sweep (the command line's suspects)
     asked_by: str | None = None
     channel: str | None = None
     site: str = ""

@@ -14,11 +14,8 @@ from __future__ import annotations
 
 import base64
 import logging
-import os
-import socket
 import threading
 import time
-import uuid
 from collections.abc import Callable, Mapping
 from typing import Any
 
@@ -30,7 +27,7 @@ from linktriage.render import words
 from linktriage.render.blocks import message_for, thread_for
 from linktriage.render.charts import pictures_for
 from linktriage.render.replies import Reply
-from linktriage.store import Store
+from linktriage.store import Store, holder_name
 
 log = logging.getLogger("linktriage.slack.sender")
 
@@ -47,11 +44,6 @@ RETRYABLE = frozenset({"not_in_channel", "channel_not_found", "fatal_error", "in
                        "service_unavailable", "request_timeout"})  # fmt: skip
 #: The answer Slack gives a client over its rate: HTTP 429, or this error in the body.
 RATE_LIMITED = "ratelimited"
-
-
-def holder_name() -> str:
-    """This replica's name in the store's leases: host, process and a random tail."""
-    return f"{socket.gethostname()}:{os.getpid()}:{uuid.uuid4().hex[:6]}"
 
 
 def outgoing(
