@@ -229,7 +229,7 @@ def test_a_history_says_when_it_changed_and_its_latest_runs_within_limits() -> N
         "*cable_fault since 12:55 UTC, healthy before (71 changes since Mon 02 Mar 07:00 UTC)*"
     )
     runs = "\n".join(b["text"]["text"] for b in blocks[3:-1])
-    assert blocks[-1]["elements"][0]["text"].startswith("Chart of errors")
+    assert blocks[-1]["elements"][0]["text"].startswith("Chart of the evidence")
     assert runs.count("\u2022 ") == MAX_RUNS and runs.endswith("cable_fault (1 window)")
     assert "<@U0BOSS>" not in json.dumps(blocks)  # what a device says it serves is escaped
 
