@@ -19,6 +19,7 @@ from linktriage.bot.triage import Triage
 from linktriage.engine.simulate.ports import DEFAULT_START
 from linktriage.network.demo import PLANTED, DemoClock
 from linktriage.render.charts import (
+    answer_chart,
     history_chart_of,
     history_png,
     pictures_for,
@@ -27,6 +28,7 @@ from linktriage.render.charts import (
 from linktriage.render.drawing import day, png
 from linktriage.render.history_chart import Chart
 from linktriage.render.replies import (
+    DiagnosisReply,
     HistoryPoint,
     HistoryReply,
     TreeReply,
@@ -286,6 +288,43 @@ def test_earlier_changes_are_drawn_and_the_latest_written_out() -> None:
     (said,) = drawn(chart, "change-words")
     assert said.get_text().endswith("link flapping\n(before: healthy)")
     assert "earlier verdict changes" in texts_of(chart)
+
+
+# --- an answer's picture
+def test_an_answer_with_stored_history_draws_it_headed_by_its_verdict(
+    history: HistoryReply, triage: Triage
+) -> None:
+    answer = triage.handle(f"{CABLE.device} {CABLE.port}")
+    assert isinstance(answer, DiagnosisReply) and answer.windows is not None
+    assert answer.windows.stored and len(answer.windows.points) == 36
+    chart = answer_chart(answer)
+    assert [p.key for p in chart.panels] == ["errors", "link_changes", "load"]
+    heading = chart.figure.texts[0].get_text()
+    assert heading == "lark-east-idf2 port14: cable or connector fault"
+    (picture,) = pictures_for(answer)
+    assert picture.filename == "answer-lark-east-idf2-port14.png"
+    assert picture.title == "lark-east-idf2 port14: evidence in each window, the last 6 h"
+    assert decoded(picture.data).size == chart.size_px
+
+
+def test_an_answer_without_stored_history_draws_the_polls_it_rests_on(triage: Triage) -> None:
+    answer = triage.handle(f"{CABLE.device} {CABLE.port}")  # nothing stored before: 2 polls
+    assert isinstance(answer, DiagnosisReply) and answer.windows is not None
+    windows = answer.windows
+    assert not windows.stored and len(windows.points) == 1
+    assert windows.points[0]["end"] - windows.points[0]["start"] == 30.0  # quick_window_s
+    chart = answer_chart(answer)
+    assert "The 2 polls this answer rests on, over 30 s" in texts_of(chart)
+    bars = bars_of(chart)
+    assert [b.get_height() for b in bars] == [windows.points[0]["rx_errors"]]
+    labels = [t.get_text() for t in chart.panels[-1].axes.get_xticklabels()]
+    assert any(label.count(":") == 2 for label in labels)  # a short window: to the second
+
+
+def test_an_answer_with_no_window_has_no_picture(triage: Triage) -> None:
+    answer = triage.handle(f"{CABLE.device} {CABLE.port}")
+    assert isinstance(answer, DiagnosisReply)
+    assert pictures_for(dataclasses.replace(answer, windows=None)) == []
 
 
 # --- the tree

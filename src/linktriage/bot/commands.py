@@ -125,13 +125,14 @@ FORMS: tuple[Form, ...] = (
     Form(
         None,
         "DEVICE PORT",
-        "diagnose one port now (a unique part of the device name will do).",
+        "diagnose one port now (a unique part of the device name will do), with a chart of "
+        "its evidence in the thread.",
         _diagnose,
     ),
     Form(
         "history",
         "history DEVICE PORT [SINCE]",
-        "the port's verdicts, errors, discards and load over time from the stored polls "
+        "the port's verdicts and evidence over time from the stored polls "
         "(since 24h unless told, e.g. 6h, 3d), with a chart in the thread.",
         _history,
     ),
