@@ -44,8 +44,10 @@ PANEL_TITLE_IN = 0.42
 LEGEND_ROW_IN = 0.3
 GAP_IN = 0.3  # between one panel's axis and the next one's title
 SUBTITLE_LINE_IN = 0.3
-#: The share of a panel's height its data may fill: the rest is room for the change's words.
+#: The share of a panel's height its data may fill: the rest is room for the change's
+#: words on the evidence panel, a little air on the others.
 FILL = 0.62
+FILL_OTHERS = 0.85
 #: Counts up to this many are drawn on a linear axis; more, linear to one and log above.
 LINEAR_UP_TO = 10.0
 #: Characters a line of the heading holds at its size.
@@ -124,7 +126,8 @@ def _errors(axes: Axes, points: Sequence[HistoryPoint]) -> None:
     """Errored frames against what the objective allows, window by window."""
     objective = next((p["objective"] for p in reversed(points) if p["objective"]), None)
     label = words.chart_at_objective(objective) if objective else None
-    _counts(axes, points, "rx_errors", "errors_at_objective", words.CHART_ERRORED, label)
+    _counts(axes, points, "rx_errors", "errors_at_objective", (words.CHART_ERRORED, label,
+            words.CHART_LEAST), FILL)  # fmt: skip
 
 
 def _counts(
@@ -132,11 +135,13 @@ def _counts(
     points: Sequence[HistoryPoint],
     key: str,
     allowed_key: str,
-    label: str,
-    allowed_label: str | None,
+    said: tuple[str, str | None, str],
+    fill: float,
 ) -> None:
     """Counts per window as hatched bars (zero: a hollow marker on the axis; not read: a
-    cross), the count each window allows as a black bar across it."""
+    cross), the count each window allows as a black bar across it; ``said``: the legend's
+    words for the counts, the count allowed, and the least one a window counts."""
+    label, allowed_label, least = said
     middle, widths = _middle(points), _widths(points)
     counts, allowed = _values(points, key), _values(points, allowed_key)
     read = [k for k, v in enumerate(counts) if not math.isnan(v)]
@@ -166,21 +171,28 @@ def _counts(
     highest = max([1.0, *(v for v in counts + allowed if not math.isnan(v))])
     if highest > LINEAR_UP_TO or any(a < 1.0 for a in allowed):
         # Where a window allows less than one, one frame is already over it.
-        axes.axhline(1.0, color=GREY, linestyle="-.", linewidth=2, label=words.CHART_LEAST,
-                     gid="least")  # fmt: skip
+        axes.axhline(1.0, color=GREY, linestyle="-.", linewidth=2, label=least, gid="least")
     if highest > LINEAR_UP_TO:
         from matplotlib.ticker import FuncFormatter
 
         axes.set_yscale("symlog", linthresh=1.0, linscale=0.6)
-        axes.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:,.0f}"))
+        axes.yaxis.set_major_formatter(FuncFormatter(lambda v, _: _count(v)))
         decades = 0.6 + math.log10(highest)  # the linear part weighs linscale decades
-        axes.set_ylim(0.0, 10 ** (decades / FILL - 0.6))
+        axes.set_ylim(0.0, 10 ** (decades / fill - 0.6))
     else:
         from matplotlib.ticker import MaxNLocator
 
         axes.yaxis.set_major_locator(MaxNLocator(integer=True))
-        axes.set_ylim(0.0, highest / FILL)
+        axes.set_ylim(0.0, highest / fill)
     axes.minorticks_off()
+
+
+def _count(value: float) -> str:
+    """A count on a log axis, short enough for the margin: 100, 10,000, 1M, 10G."""
+    for size, unit in ((1e9, "G"), (1e6, "M")):
+        if value >= size:
+            return f"{value / size:,.0f}{unit}"
+    return f"{value:,.0f}"
 
 
 def _link_changes(axes: Axes, points: Sequence[HistoryPoint]) -> None:
@@ -201,7 +213,7 @@ def _link_changes(axes: Axes, points: Sequence[HistoryPoint]) -> None:
         axes.text(0.5, 0.5, words.CHART_LINK_STEADY, transform=axes.transAxes, ha="center",
                   va="center", fontsize=16, gid="link-steady")  # fmt: skip
     axes.yaxis.set_major_locator(MaxNLocator(integer=True, nbins=3))
-    axes.set_ylim(0.0, max([1.0, *(c for _, c in moved)]) / FILL)
+    axes.set_ylim(0.0, max([1.0, *(c for _, c in moved)]) / FILL_OTHERS)
 
 
 # --- the other readings, drawn only where they hold something
@@ -215,7 +227,7 @@ def _each_way(
         values = [v * scale for v in _values(points, key)]
         axes.plot(middle, values, label=name, gid=key, **style)
         highest = max([highest, *(v for v in values if not math.isnan(v))])
-    axes.set_ylim(0.0, (highest or 1.0) / FILL)
+    axes.set_ylim(0.0, (highest or 1.0) / FILL_OTHERS)
 
 
 def _discards(axes: Axes, points: Sequence[HistoryPoint]) -> None:
@@ -240,12 +252,12 @@ def _light(axes: Axes, points: Sequence[HistoryPoint]) -> None:
     shown = [v for v in light + least if not math.isnan(v)]
     low, high = min(shown), max(shown)
     room = max(high - low, 2.0)
-    axes.set_ylim(low - room * 0.15, low + room / FILL)
+    axes.set_ylim(low - room * 0.15, low + room / FILL_OTHERS)
 
 
 def _fec(axes: Axes, points: Sequence[HistoryPoint]) -> None:
-    _counts(axes, points, "fec_bits", "fec_high_bits", words.CHART_FEC_CORRECTED,
-            words.CHART_FEC_HIGH)  # fmt: skip
+    _counts(axes, points, "fec_bits", "fec_high_bits", (words.CHART_FEC_CORRECTED,
+            words.CHART_FEC_HIGH, words.CHART_LEAST_BIT), FILL_OTHERS)  # fmt: skip
 
 
 KINDS: tuple[_Kind, ...] = (
