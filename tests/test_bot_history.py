@@ -7,7 +7,13 @@ import numpy as np
 import pytest
 
 from linktriage.bot.commands import DEFAULT_HISTORY_S
-from linktriage.bot.history import MIN_WINDOW_S, verdict_runs, window_bounds
+from linktriage.bot.history import (
+    ANSWER_SPAN_S,
+    MIN_STORED_WINDOWS,
+    MIN_WINDOW_S,
+    verdict_runs,
+    window_bounds,
+)
 from linktriage.bot.jobs import Jobs
 from linktriage.bot.triage import Triage
 from linktriage.engine.diagnosis.pipeline import diagnose
@@ -21,6 +27,7 @@ from linktriage.render.replies import HistoryPoint
 
 FIVE_MIN = 300.0
 (CABLE,) = [p for p in PLANTED if p.planted == "cable_fault"]
+(FLAPPING,) = [p for p in PLANTED if p.planted == "link_flapping"]
 
 
 def poll_job_runs(triage: Triage, clock: DemoClock, rounds: int) -> None:
@@ -84,12 +91,67 @@ def test_each_window_is_diagnosed_as_the_same_two_polls_would_be_alone(
         assert alone.measured(name, 0) == pytest.approx(point[key], rel=1e-5), name  # type: ignore[literal-required]
 
 
+def test_each_window_says_how_many_errored_frames_its_objective_allows(
+    three_hours: Triage,
+) -> None:
+    reply = three_hours.histories.of(CABLE.device, CABLE.port, 3 * 3600.0)
+    point = reply.points[-1]
+    stored = three_hours.store.polls_since(point["start"], devices=[CABLE.device], port=CABLE.port)
+    frame_bits = 8.0 * diagnose(stored, three_hours.model).measured("frame_octets", 0)
+    # A frame of b bits is errored with probability 1 - (1 - q)^b, about q b at a bit error
+    # ratio q (IEEE 802.3 clause 40.6.1.3.1 states the same for 1000BASE-T: a frame error
+    # ratio of 1e-7 on 125-octet frames is 1e-10): the objective times the bits in frames.
+    assert point["objective"] == 1e-10 and point["rx_frames"] is not None
+    expected = point["objective"] * point["rx_frames"] * frame_bits
+    assert point["errors_at_objective"] == pytest.approx(expected, rel=1e-5)
+    assert point["rx_errors"] is not None and point["rx_errors"] > 100 * expected
+
+
+def test_each_window_counts_the_link_changes_its_polls_saw(three_hours: Triage) -> None:
+    cable = three_hours.histories.of(CABLE.device, CABLE.port, 3 * 3600.0)
+    # The crushed cord drops the link 8 times in five minutes from 05:40 on (its demo port).
+    assert {p["link_changes"] for p in cable.points if p["verdict"] == "healthy"} == {0.0}
+    assert {p["link_changes"] for p in cable.points if p["verdict"] == "cable_fault"} == {8.0}
+    # The boot-looping camera goes down and up every ten seconds: 60 changes in five minutes.
+    camera = three_hours.histories.of(FLAPPING.device, FLAPPING.port, 3 * 3600.0)
+    assert {p["link_changes"] for p in camera.points} == {60.0}
+
+
+def test_an_answers_picture_draws_the_stored_history_where_there_is_some(
+    three_hours: Triage,
+) -> None:
+    ref = three_hours.network.find(CABLE.device, CABLE.port)
+    windows = three_hours.histories.of_answer(ref, PollTable.empty())
+    assert windows is not None and windows.stored and windows.span_s == ANSWER_SPAN_S
+    assert len(windows.points) == 36  # three hours of the poll job, all the store holds
+    assert [r["verdict"] for r in windows.runs] == ["healthy", "cable_fault"]
+
+
+def test_without_stored_history_an_answers_picture_draws_the_polls_it_rests_on(
+    triage: Triage, clock: DemoClock
+) -> None:
+    clock.now = DEFAULT_START - (MIN_STORED_WINDOWS - 1) * FIVE_MIN
+    poll_job_runs(triage, clock, MIN_STORED_WINDOWS - 1)  # with the answer's poll, a window short
+    ref = triage.network.find(CABLE.device, CABLE.port)
+    polls, _ = triage.poller.polls_for([ref])
+    windows = triage.histories.of_answer(ref, polls)
+    assert windows is not None and not windows.stored
+    mine = np.sort(polls.time[(polls.device == ref.device) & (polls.port == ref.port)])
+    assert [(p["start"], p["end"]) for p in windows.points] == list(
+        zip(mine[:-1].tolist(), mine[1:].tolist(), strict=True)
+    )  # cut at every poll
+    assert windows.span_s == mine[-1] - mine[0]
+    assert triage.histories.of_answer(ref, PollTable.empty()) is None
+
+
 def test_runs_join_consecutive_windows_of_one_verdict() -> None:
     def point(start: float, verdict: str) -> HistoryPoint:
         return {"start": start, "end": start + FIVE_MIN, "verdict": verdict, "confidence": 1.0,
                 "polls": 2, "error_ratio": None, "bit_error_ratio": None, "objective": None,
-                "rx_errors": None, "in_discards": None, "out_discards": None, "rx_util": None,
-                "tx_util": None}  # fmt: skip
+                "rx_errors": None, "rx_frames": None, "errors_at_objective": None,
+                "link_changes": None, "in_discards": None, "out_discards": None,
+                "rx_util": None, "tx_util": None, "rx_dbm": None, "rx_low_dbm": None,
+                "fec_bits": None, "fec_high_bits": None}  # fmt: skip
 
     verdicts = ["healthy", "healthy", "cable_fault", "healthy", "healthy", "healthy"]
     runs = verdict_runs([point(k * FIVE_MIN, v) for k, v in enumerate(verdicts)])

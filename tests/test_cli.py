@@ -156,7 +156,9 @@ def test_ask_takes_a_unique_part_of_a_device_name_and_refuses_an_ambiguous_one()
 def test_ask_names_a_demo_port_by_the_neighbor_lldp_hears_behind_it() -> None:
     # The demo's label printer, lark-circ-prn1, hangs on lark-east-idf2 port7.
     code, out, _ = run("ask", "port-of", "lark-circ-prn1")
-    assert code == 0 and out.startswith("lark-east-idf2 port7: ")
+    assert code == 0 and out.startswith(
+        "9,131 late collisions (5 in 100 sent frames) at lark-east-idf2 port7\n"
+    )
     code, _, err = run("ask", "port-of", "lark-circ-prn9")
     assert code == 1
     assert "No port has 'lark-circ-prn9' as its LLDP neighbor." in err
@@ -599,7 +601,7 @@ def test_history_answers_from_the_polls_the_poll_job_stored(tmp_path: Path) -> N
 
 
 def test_history_names_a_port_by_the_neighbor_its_stored_polls_hear(tmp_path: Path) -> None:
-    config = _polled_for_an_hour(tmp_path)
+    config = polled_for_an_hour(tmp_path)
     code, out, _ = run("history", "port-of", "lark-circ-prn1", "--config", str(config))
     assert code == 0 and out.startswith("lark-east-idf2 port7: the last 24 h\n")
 

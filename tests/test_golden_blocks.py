@@ -4,7 +4,7 @@ Guarded, each against one file in ``fixtures/golden/`` (JSON, indent 2, keys sor
 
 - one diagnosis answer per verdict, tree verdicts and guard verdicts alike, its first
   message and its thread (``diagnosis-<verdict>.json``), each the packaged model's real
-  answer for a port of a recorded snapshot file;
+  answer for a port of a recorded snapshot file, with its chart following in the thread;
 - a digest of suspect links with new links, cleared ones, a device not read and ports
   not judged (``digest.json``);
 - the packaged model's card (``model-card.json``).
@@ -30,6 +30,7 @@ from typing import Any
 import pytest
 from slack_sdk.models.blocks import Block
 
+from linktriage.bot.history import ANSWER_SPAN_S
 from linktriage.engine.diagnosis.batch import headline
 from linktriage.engine.diagnosis.loaded_model import Model
 from linktriage.engine.diagnosis.pipeline import diagnose
@@ -39,7 +40,13 @@ from linktriage.engine.verdicts import FAULTS, GUARD_KINDS, SEVERITY, VERDICTS
 from linktriage.engine.verdicts import NOT_JUDGED as NOT_JUDGED_VERDICTS
 from linktriage.render.blocks import message_for, thread_for
 from linktriage.render.card import model_card_data
-from linktriage.render.replies import DiagnosisReply, ModelReply, SuspectItem, SuspectsReply
+from linktriage.render.replies import (
+    AnswerWindows,
+    DiagnosisReply,
+    ModelReply,
+    SuspectItem,
+    SuspectsReply,
+)
 
 ROOT = Path(__file__).resolve().parent.parent
 GOLDEN = ROOT / "fixtures" / "golden"
@@ -147,9 +154,13 @@ def test_each_verdicts_answer_draws_as_its_golden_file(
         f"no port of {SOURCES} is answered {verdict}: build its snapshot lines with "
         "tests/helpers.py, saying where their counter values come from"
     )
+    # As the bot answers where the store holds the port's history: its chart follows the
+    # thread (what the messages say of it does not depend on the windows drawn).
+    windows = AnswerWindows([], [], stored=True, span_s=ANSWER_SPAN_S)
     reply = DiagnosisReply(
-        answers[verdict], DIAGNOSIS_IDS[verdict], SITE, SERVES, asked_by=ASKED_BY, at=AT
-    )
+        answers[verdict], DIAGNOSIS_IDS[verdict], SITE, SERVES, asked_by=ASKED_BY, at=AT,
+        windows=windows,
+    )  # fmt: skip
     matches_golden(f"diagnosis-{verdict}.json", message_for(reply), *thread_for(reply))
 
 

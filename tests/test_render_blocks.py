@@ -84,6 +84,22 @@ def test_an_answers_thread_holds_the_path_every_check_and_every_caution(
     )
 
 
+def test_an_answers_thread_says_its_chart_follows_and_what_it_draws(
+    cable: DiagnosisReply,
+) -> None:
+    # Nothing was stored before the question: the chart draws the polls it rests on.
+    assert cable.windows is not None and not cable.windows.stored
+    why, _ = thread_for(cable)
+    assert why["blocks"][-1]["elements"][0]["text"] == (
+        "The chart below draws the errored frames and link changes of each window of the "
+        "polls it rests on."
+    )
+    first = json.dumps(message_for(cable)["blocks"])
+    assert "chart" not in first  # redrawn when labelled, from the store, without windows
+    why, _ = thread_for(dataclasses.replace(cable, windows=None))
+    assert "chart" not in json.dumps(why["blocks"])  # no windows, no chart, no word of one
+
+
 def test_what_would_change_the_verdict_follows_the_questions(
     triage: Triage, cable: DiagnosisReply
 ) -> None:
@@ -229,7 +245,7 @@ def test_a_history_says_when_it_changed_and_its_latest_runs_within_limits() -> N
         "*cable_fault since 12:55 UTC, healthy before (71 changes since Mon 02 Mar 07:00 UTC)*"
     )
     runs = "\n".join(b["text"]["text"] for b in blocks[3:-1])
-    assert blocks[-1]["elements"][0]["text"].startswith("Chart of errors")
+    assert blocks[-1]["elements"][0]["text"].startswith("Chart of the evidence")
     assert runs.count("\u2022 ") == MAX_RUNS and runs.endswith("cable_fault (1 window)")
     assert "<@U0BOSS>" not in json.dumps(blocks)  # what a device says it serves is escaped
 

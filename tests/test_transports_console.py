@@ -2,6 +2,11 @@
 
 from __future__ import annotations
 
+import os
+import subprocess
+import sys
+from pathlib import Path
+
 from linktriage.bot.triage import Triage
 from linktriage.transports.console import Console
 
@@ -108,3 +113,26 @@ def test_a_reply_lands_on_the_answer_it_follows_across_sessions(triage: Triage) 
     second.say("reply congestion, the annex link is full")
     (label,) = triage.store.labels()
     assert (label.device, label.port, label.verdict) == ("lark-core1", "up5", "congestion")
+
+
+def test_the_console_draws_no_picture_for_an_answer_as_for_a_history(tmp_path: Path) -> None:
+    # The console shows text: an answer's chart, like a history's and a tree's picture, is
+    # left to Slack's thread; `history --plot` writes one to a file. So no answer or
+    # history at the prompt costs a drawing: matplotlib is never loaded.
+    code = (
+        "import sys\n"
+        "from linktriage.cli import main\n"
+        "try:\n"
+        "    main(['chat'])\n"
+        "except SystemExit:\n"
+        "    pass\n"
+        "print('matplotlib' in sys.modules)\n"
+    )
+    typed = "lark-east-idf2 port14\nhistory lark-east-idf2 port14 1h\ntree idf2 port14\nquit\n"
+    env = {**os.environ, "LINKTRIAGE_HOME": str(tmp_path)}
+    done = subprocess.run([sys.executable, "-c", code], input=typed, capture_output=True,
+                          text=True, check=True, env=env)  # fmt: skip
+    *said, loaded = done.stdout.rstrip().splitlines()
+    assert "\ncable or connector fault (cable_fault), confidence" in "\n".join(said)
+    assert "png" not in "\n".join(said).lower() and "picture" not in "\n".join(said).lower()
+    assert loaded == "False"

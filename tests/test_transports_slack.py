@@ -613,6 +613,40 @@ def test_a_history_is_posted_with_its_chart_in_the_answers_thread(
     assert asked.params["filename"] == "history-lark-east-idf2-port14.png"
 
 
+def test_an_answer_is_followed_in_its_thread_by_the_chart_of_its_evidence(
+    bot: str, emulator: SlackEmulator, triage: Triage, clock: DemoClock
+) -> None:
+    clock.now = DEFAULT_START - 3 * 3600.0
+    for _ in range(37):  # the poll job, every five minutes up to the demo's moment
+        triage.poller.poll_round()
+        clock.sleep(300.0)
+    clock.now = DEFAULT_START
+    slash(bot, emulator, "lark-east-idf2 port14")
+    _, why, _ = emulator.wait_for("chat.postMessage", 3)
+    chart = picture_in_thread(emulator, "1772438401.000100")
+    assert chart.width >= 400 and chart.height >= chart.width  # upright, for a phone
+    (asked,) = emulator.called("files.getUploadURLExternal")
+    assert asked.params["filename"] == "answer-lark-east-idf2-port14.png"
+    assert "cable or connector fault since 05:40 UTC, healthy before" in asked.params["alt_txt"]
+    # The answer and its thread went first: drawing never held them back.
+    said = [c.method for c in emulator.calls
+            if c.method in ("chat.postMessage", "files.getUploadURLExternal")]  # fmt: skip
+    assert said == ["chat.postMessage"] * 3 + ["files.getUploadURLExternal"]
+    assert "The chart below draws the errored frames and link changes of each window of the " \
+        "last 6 h of its stored polls." in json.dumps(why.params["blocks"])  # fmt: skip
+
+
+def test_an_answer_with_nothing_stored_carries_the_chart_of_its_own_polls(
+    bot: str, emulator: SlackEmulator
+) -> None:
+    slash(bot, emulator, "lark-core1 up1")
+    emulator.wait_for("chat.postMessage", 3)
+    picture_in_thread(emulator, "1772438401.000100")
+    (asked,) = emulator.called("files.getUploadURLExternal")
+    assert asked.params["filename"] == "answer-lark-core1-up1.png"
+    assert "The 2 polls this answer rests on, over 30 s" in asked.params["alt_txt"]
+
+
 def test_a_tree_is_asked_for_and_its_picture_follows_in_the_thread(
     bot: str, emulator: SlackEmulator
 ) -> None:
@@ -710,9 +744,14 @@ def test_a_reply_arriving_while_its_answer_is_still_being_sent_lands_on_it(
     # noting where it landed was dropped, and so was Slack's retry of it. Here the answer
     # is held back by a rate limit when the reply comes; the reply waits for it.
     with listening(triage, emulator) as (url, sender):
-        emulator.limited_until["chat.postMessage"] = time.time() + 1.0
+        # Slack's clock stands still while the answer and its picture are said, so its
+        # limit holds however long drawing takes; it runs again once the sender starts.
+        still = time.time()
+        emulator.clock = lambda: still
+        emulator.limited_until["chat.postMessage"] = still + 1.0
         slash(url, emulator, "lark-east-idf2 port14")
         assert emulator.called("chat.postMessage") == []  # held back: Retry-After 1 s
+        emulator.clock = time.time
         sender.start()  # sends it once Slack allows
         reply = event_body("confirmed, crushed patch cord", "1772438401.000100")
         assert post(url, reply, signed(reply), "application/json")[0] == 200

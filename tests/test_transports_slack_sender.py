@@ -13,12 +13,13 @@ from pydantic import SecretStr
 from linktriage.bot.triage import Triage
 from linktriage.network.demo import DemoClock
 from linktriage.render import words
+from linktriage.render.charts import pictures_for
 from linktriage.render.headline import answer_headline, capitalised
 from linktriage.render.replies import DiagnosisReply
 from linktriage.settings import Settings
 from linktriage.store import Store
 from linktriage.transports.slack import say_reply, web_client
-from linktriage.transports.slack_sender import SlackSender, retry_after
+from linktriage.transports.slack_sender import SlackSender, outgoing, retry_after, uploads
 
 from slack_emulator import SlackEmulator
 
@@ -106,6 +107,38 @@ def test_a_message_slack_holds_back_past_its_time_is_dropped_and_the_asker_told(
     assert told.params["text"] == words.held_back(GIVE_UP_S / 60.0)
     assert "rate limits" in told.params["text"]  # the truth, not "invite me"
     assert "lark-east-idf2 port14" in told.params["blocks"][0]["text"]["text"]
+    with triage.store.engine.connect() as conn:
+        states = conn.exec_driver_sql("SELECT DISTINCT state FROM outbox").scalars().all()
+    assert states == ["dropped"]
+
+
+def test_an_answers_picture_goes_in_its_thread_once_the_answer_is_posted(
+    triage: Triage, emulator: SlackEmulator, clock: DemoClock
+) -> None:
+    sender = sender_for(triage.store, emulator, clock, "replica-a")
+    (reply,) = answers(triage, 1)
+    emulator.limited_until["chat.postMessage"] = clock() + 60.0
+    say_reply(sender, triage, reply, CHANNEL, asker="U0ENG0")
+    assert emulator.called("files.getUploadURLExternal") == []  # it waits for the answer
+    wait_out(sender, clock, limit_s=120.0)
+    (top, *_) = emulator.called("chat.postMessage")
+    (completed,) = emulator.called("files.completeUploadExternal")
+    stored = triage.store.diagnosis(reply.diagnosis_id)
+    assert stored is not None and completed.params["thread_ts"] == stored.message_ts
+    assert "thread_ts" not in top.params
+
+
+def test_a_picture_kept_after_its_answer_was_dropped_is_never_posted(
+    triage: Triage, emulator: SlackEmulator, clock: DemoClock
+) -> None:
+    sender = sender_for(triage.store, emulator, clock, "replica-a")
+    (reply,) = answers(triage, 1)
+    emulator.limited_until["chat.postMessage"] = clock() + GIVE_UP_S + 600.0
+    first, *_ = sender.say(outgoing(reply, CHANNEL, asker="U0ENG0"))
+    wait_out(sender, clock, limit_s=GIVE_UP_S + 60.0)  # the answer is given up
+    sender.say(uploads(pictures_for(reply), CHANNEL, thread=None, under=first))
+    wait_out(sender, clock, limit_s=60.0)
+    assert emulator.called("files.getUploadURLExternal") == []  # not loose in the channel
     with triage.store.engine.connect() as conn:
         states = conn.exec_driver_sql("SELECT DISTINCT state FROM outbox").scalars().all()
     assert states == ["dropped"]

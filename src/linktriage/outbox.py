@@ -34,13 +34,15 @@ CHANNEL_LEASE_PREFIX = "outbox:"
 class Outgoing:
     """A message to send: a Web API ``method`` and its arguments (``body``) in a channel.
     ``in_first_thread``: it goes in the thread of the first message of its batch, once that
-    one is sent; ``diagnosis_id``/``digest_id``: that message carries this answer or list."""
+    one is sent; ``thread_of``: in the thread of that message kept earlier (its outbox id),
+    likewise; ``diagnosis_id``/``digest_id``: that message carries this answer or list."""
 
     channel: str
     method: str
     body: dict[str, Any] = field(default_factory=dict)
     thread_ts: str | None = None
     in_first_thread: bool = False
+    thread_of: int | None = None
     diagnosis_id: int | None = None
     digest_id: int | None = None
     asker: str | None = None
@@ -74,7 +76,7 @@ class Outbox:
         ids: list[int] = []
         with self.store.writing("keep messages to send") as conn:
             for message in messages:
-                thread_of = ids[0] if message.in_first_thread and ids else None
+                thread_of = ids[0] if message.in_first_thread and ids else message.thread_of
                 result = conn.execute(
                     outbox_table.insert().values(
                         at=now,

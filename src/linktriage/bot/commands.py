@@ -144,7 +144,7 @@ FORMS: tuple[Form, ...] = (
         "DEVICE PORT",
         "diagnose one port now: the device by its name, a unique part of it or its "
         "address, the port by its name with its type short or long (Gi1/0/5 or "
-        "GigabitEthernet1/0/5).",
+        "GigabitEthernet1/0/5); a chart of its evidence follows in the thread.",
         _diagnose,
     ),
     Form(
@@ -157,7 +157,7 @@ FORMS: tuple[Form, ...] = (
     Form(
         "history",
         "history DEVICE PORT [SINCE]",
-        "the port's verdicts, errors, discards and load over time from the stored polls "
+        "the port's verdicts and evidence over time from the stored polls "
         "(since 24h unless told, e.g. 6h, 3d), with a chart in the thread.",
         _history,
     ),

@@ -175,7 +175,7 @@ class Triage:
     ) -> DiagnosisReply:
         """Diagnose one port now, from its stored history if recent, else two fresh polls."""
         ref = self.find(device, port)
-        batch, row = self._diagnosed(ref)
+        batch, row, polls = self._diagnosed(ref)
         record = batch.record(row)
         (diagnosis_id,) = keep_answers(
             self.store,
@@ -189,19 +189,25 @@ class Triage:
             channel=channel,
         )
         return DiagnosisReply(
-            record, diagnosis_id, ref.site, ref.serves, asked_by=user, at=self.clock()
+            record,
+            diagnosis_id,
+            ref.site,
+            ref.serves,
+            asked_by=user,
+            at=self.clock(),
+            windows=self.histories.of_answer(ref, polls),
         )
 
     def tree(self, device: str, port: str) -> TreeReply:
         """One port diagnosed now, with the tree it went through (to draw its path)."""
-        batch, row = self._diagnosed(self.find(device, port))
+        batch, row, _ = self._diagnosed(self.find(device, port))
         return TreeReply(batch.record(row), batch.node[row], self.model.artefact)
 
-    def _diagnosed(self, ref: PortRef) -> tuple[DiagnosisBatch, int]:
+    def _diagnosed(self, ref: PortRef) -> tuple[DiagnosisBatch, int, PollTable]:
         """The port's polls gathered and diagnosed, with its far end's where LLDP names a
-        port this network reads: the batch and the port's row in it. The far end its last
-        stored poll names (or that last named it) is polled with it, at once, so both ends
-        share one wait; a far end that turns out otherwise is polled after."""
+        port this network reads: the batch, the port's row in it, and the polls. The far end
+        its last stored poll names (or that last named it) is polled with it, at once, so
+        both ends share one wait; a far end that turns out otherwise is polled after."""
         known = self._far_end(ref, self.store.latest_poll(ref.device))
         refs = [ref] if known is None else [ref, known]
         polls, failed = self.poller.polls_for(refs)
@@ -216,7 +222,7 @@ class Triage:
         row = batch.index_of(ref.device, ref.port)
         if row is None:
             raise PollError(ref.device, words.answered_without(ref.port))
-        return batch, row
+        return batch, row, polls
 
     def _far_end(self, ref: PortRef, polls: PollTable) -> PortRef | None:
         """The port at the other end of ``ref``'s link, as its latest poll's neighbor names

@@ -27,7 +27,10 @@ from linktriage.cli.options import (
     help="How far back to reach: 90m, 24h, 3d, ... (the store keeps [store] keep_polls_h).",
 )
 @click.option("--json", "as_json", is_flag=True, help="The history as one JSON object.")
-@plot_option("a chart of the verdicts, errors, discards and load each way")
+@plot_option(
+    "a chart of each window's errored frames against its objective, link changes, when "
+    "the verdict changed, and the other readings that counted something"
+)
 @inventory_option
 @config_option
 @model_option
@@ -43,7 +46,7 @@ def history(
 ) -> None:
     """A port's verdicts over time: its stored polls cut into windows of about the poll
     job's interval, each diagnosed, with its error ratio, discards and load each way, and
-    when the verdict changed.
+    when the verdict changed (the --json windows also carry link changes, light and FEC).
 
     A port with no two stored polls far enough apart is said to have no history, never to
     be healthy. A device read through Prometheus answers from Prometheus's own history.

@@ -206,8 +206,8 @@ def diagnosis_message(reply: DiagnosisReply) -> dict[str, Any]:
 
 def diagnosis_thread(reply: DiagnosisReply) -> list[dict[str, Any]]:
     """What follows an answer in its thread: why (the evidence, the questions the tree
-    asked with the measured values, the bit-error estimate), then every check and every
-    caution in full."""
+    asked with the measured values, the bit-error estimate, where its chart is), then
+    every check and every caution in full."""
     r = reply.record
     facts = [words.model_fact(f"`{escape(r['model_version'])}`")]
     if r["polls"] >= 2:  # fewer: there is no window to speak of (the evidence says why)
@@ -238,6 +238,8 @@ def diagnosis_thread(reply: DiagnosisReply) -> list[dict[str, Any]]:
         why.append(_context(escape(r["note"])))
     if own is None:
         why += _both_ends(r)
+    if reply.windows is not None:  # its picture follows these messages in the thread
+        why.append(_context(words.answer_chart_below(reply.windows.stored, reply.windows.span_s)))
     steps = _sections([f"\u2022 {escape(c)}" for c in r["next_checks"]], title=words.CHECK_NEXT)
     if r["cautions"]:
         steps += _sections([f":warning: {escape(c)}" for c in r["cautions"]], title=words.SAFETY)

@@ -1,52 +1,36 @@
-"""Pictures where an engineer would rather look than read: a port's history as a chart, and
-the tree with one port's path marked. PNG bytes, drawn off screen.
+"""Pictures where an engineer would rather look than read: a port's windows drawn to explain
+its verdict (a history's, and every answer's), and the tree with one port's path marked.
+PNG bytes, drawn off screen (:mod:`linktriage.render.drawing`).
 
-Drawn to be read on a phone: large type, units on every axis, the objective as a line,
-and nothing told by colour alone (each series has its own line style and marker, each
-verdict its name written on it, the path its own line weight and node shape). matplotlib
-is imported only when a picture is drawn, so the command line and the bot start without it;
-figures are built without pyplot, whose global state the bot's threads would share.
+Drawn to be read on a phone: large type, units on every axis, and nothing told by colour
+alone (each series has its own line style, marker or hatch, each verdict its words written
+on the picture, the path its own line weight and node shape).
 """
 
 from __future__ import annotations
 
-import io
-import math
 import textwrap
 from dataclasses import dataclass
-from datetime import UTC
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
+from linktriage.engine.verdicts import kind_of
 from linktriage.render import words
-from linktriage.render.replies import HistoryPoint, HistoryReply, Reply, TreeReply
+from linktriage.render.drawing import GREY, STYLE, VERMILION, figure, png
+from linktriage.render.history_chart import Chart, history_chart
+from linktriage.render.replies import (
+    AnswerWindows,
+    DiagnosisReply,
+    HistoryPoint,
+    HistoryReply,
+    Reply,
+    TreeReply,
+)
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
-    from matplotlib.figure import Figure
 
-#: Type large enough to read when Slack shrinks the picture to a phone's width.
-_STYLE: dict[Any, Any] = {
-    "date.epoch": "1970-01-01T00:00:00",  # dates as days since the Unix epoch: see _day
-    "font.size": 17,
-    "axes.titlesize": 19,
-    "axes.labelsize": 17,
-    "xtick.labelsize": 15,
-    "ytick.labelsize": 15,
-    "legend.fontsize": 14,
-    "lines.linewidth": 2.5,
-    "lines.markersize": 8,
-}
-_DPI = 100
-#: Room above the highest value for the legend, so that it never hides a reading.
-_HEADROOM = 1.6
-_HEALTHY = "healthy"
-#: Colours of the Okabe-Ito palette (distinct to colour-blind eyes); every series also has
-#: its own line style and marker.
-_IN: dict[str, Any] = {"color": "#0072B2", "linestyle": "-", "marker": "o"}
-_OUT: dict[str, Any] = {"color": "#D55E00", "linestyle": "--", "marker": "s"}
-_ERRORS: dict[str, Any] = {"color": "#CC79A7", "linestyle": "-", "marker": "D"}
-_PATH = "#D55E00"
-_OTHER = "#999999"
+_PATH = VERMILION
+_OTHER = GREY
 
 
 @dataclass(frozen=True, slots=True)
@@ -60,13 +44,31 @@ class Picture:
 
 
 def pictures_for(reply: Reply) -> list[Picture]:
-    """The pictures that go with a reply: a history's chart, a tree's path; most have none."""
+    """The pictures that go with a reply: an answer's and a history's windows, a tree's
+    path; the rest have none. Each is drawn here, when it is asked for."""
+    if isinstance(reply, DiagnosisReply) and reply.windows is not None:
+        r, windows = reply.record, reply.windows
+        return [
+            Picture(
+                f"answer-{_slug(r['device'])}-{_slug(r['port'])}.png",
+                words.answer_chart_title(r["device"], r["port"], windows.stored, windows.span_s),
+                _alt(
+                    r["device"], r["port"], f"{r['title']}. {answer_said(windows)}", windows.points
+                ),
+                png(answer_chart(reply).figure),
+            )
+        ]
     if isinstance(reply, HistoryReply):
         return [
             Picture(
                 f"history-{_slug(reply.device)}-{_slug(reply.port)}.png",
                 words.history_title(reply.device, reply.port, reply.span_s),
-                words.chart_alt(reply.device, reply.port, reply.summary),
+                _alt(
+                    reply.device,
+                    reply.port,
+                    words.history_summary(reply.runs, _title),
+                    reply.points,
+                ),
                 history_png(reply),
             )
         ]
@@ -87,138 +89,48 @@ def _slug(name: str) -> str:
     return "".join(c if c.isalnum() or c in "-_" else "_" for c in name)
 
 
-def _figure(width_in: float, height_in: float) -> Figure:
-    import matplotlib
-
-    matplotlib.use("Agg")  # no display: pictures go to files and uploads
-    from matplotlib.figure import Figure
-
-    return Figure(figsize=(width_in, height_in), dpi=_DPI, layout="constrained")
+def _title(verdict: str) -> str:
+    """A verdict as the pictures say it: its title, not its id."""
+    return kind_of(verdict).title
 
 
-def _png(figure: Figure) -> bytes:
-    out = io.BytesIO()
-    figure.savefig(out, format="png", dpi=_DPI)
-    return out.getvalue()
+def _alt(device: str, port: str, said: str, points: list[HistoryPoint]) -> str:
+    last = points[-1]
+    latest = words.chart_latest(last["rx_errors"], last["errors_at_objective"],
+                                last["link_changes"])  # fmt: skip
+    return words.chart_alt(device, port, said, latest)
 
 
-def _values(points: list[HistoryPoint], key: str) -> list[float]:
-    return [math.nan if p[key] is None else float(p[key]) for p in points]  # type: ignore[literal-required]
+# --- a port's windows
+def history_chart_of(reply: HistoryReply) -> Chart:
+    """A history's chart, before it is encoded."""
+    said = words.history_summary(reply.runs, named=_title)
+    title = words.chart_title(reply.device, reply.port, said)
+    subtitle = words.history_subtitle(reply.span_s)
+    return history_chart(title, subtitle, reply.points, reply.runs, _title)
 
 
-# --- a port's history
 def history_png(reply: HistoryReply) -> bytes:
-    """Verdicts, errors, discards and load of each window, over the history's span."""
-    import matplotlib
-
-    with matplotlib.rc_context(_STYLE):
-        figure = _figure(11.0, 13.0)
-        verdicts, errors, discards, load = figure.subplots(
-            4, 1, sharex=True, gridspec_kw={"height_ratios": [0.7, 2, 1.5, 1.5]}
-        )
-        title = f"{reply.device} {reply.port}: {reply.summary}"
-        figure.suptitle("\n".join(textwrap.wrap(title, 60)), fontsize=20)
-        middle = [_day((p["start"] + p["end"]) / 2) for p in reply.points]
-        _verdict_band(verdicts, reply)
-        _error_panel(errors, reply.points, middle)
-        _each_way(discards, reply.points, middle, ("in_discards", "out_discards"), 1.0)
-        discards.set_ylabel(words.CHART_DISCARDS)
-        _each_way(load, reply.points, middle, ("rx_util", "tx_util"), 100.0)
-        load.set_ylabel(words.CHART_LOAD)
-        _time_axis(load)
-        return _png(figure)
+    """A history's chart as a PNG."""
+    return png(history_chart_of(reply).figure)
 
 
-def _day(at: float) -> float:
-    """A time as matplotlib's dates count it: days since the Unix epoch (set in _STYLE)."""
-    return at / 86_400.0
+def answer_chart(reply: DiagnosisReply) -> Chart:
+    """The chart an answer carries in its thread, before it is encoded: headed with its
+    verdict, then what its windows say."""
+    windows = reply.windows
+    assert windows is not None
+    r = reply.record
+    title = words.chart_title(r["device"], r["port"], r["title"])
+    return history_chart(title, answer_said(windows), windows.points, windows.runs, _title)
 
 
-def _time_axis(axes: Axes) -> None:
-    from matplotlib import dates
-
-    locator = dates.AutoDateLocator(tz=UTC, minticks=3, maxticks=8)  # type: ignore[no-untyped-call]
-    axes.xaxis.set_major_locator(locator)
-    axes.xaxis.set_major_formatter(dates.DateFormatter("%H:%M", tz=UTC))  # type: ignore[no-untyped-call]
-    axes.set_xlabel(words.CHART_TIME)
-
-
-def _each_way(
-    axes: Axes,
-    points: list[HistoryPoint],
-    middle: list[float],
-    keys: tuple[str, str],
-    scale: float,
-) -> None:
-    """One reading in and out, each with its own line style and marker, from zero up with
-    room above for the legend."""
-    highest = 0.0
-    for key, style, name in zip(keys, (_IN, _OUT), (words.CHART_IN, words.CHART_OUT), strict=True):
-        values = [v * scale for v in _values(points, key)]
-        axes.plot(middle, values, label=name, **style)
-        highest = max([highest, *(v for v in values if not math.isnan(v))])
-    axes.set_ylim(0, highest * _HEADROOM or 1.0)
-    axes.grid(True, alpha=0.4)
-    axes.legend(loc="upper left", ncols=2)
-
-
-def _verdict_band(axes: Axes, reply: HistoryReply) -> None:
-    """Each run of one verdict as a band with its name on it; faults hatched, so the band
-    reads without its colours."""
-    for run in reply.runs:
-        healthy = run["verdict"] == _HEALTHY
-        start, end = _day(run["start"]), _day(run["end"])
-        axes.axvspan(
-            start,
-            end,
-            facecolor="#CCE5CC" if healthy else "#F4C7A1",
-            edgecolor="black",
-            hatch=None if healthy else "//",
-            linewidth=1,
-        )
-        width = run["end"] - run["start"]
-        span = reply.points[-1]["end"] - reply.points[0]["start"]
-        if width >= span / 8:  # room for the name
-            axes.text(
-                _day((run["start"] + run["end"]) / 2),
-                0.5,
-                run["verdict"],
-                ha="center",
-                va="center",
-                fontsize=16,
-                fontweight="bold",
-                bbox={"facecolor": "white", "edgecolor": "none", "pad": 2},
-            )
-    axes.set_yticks([])
-    axes.set_ylim(0, 1)
-
-
-def _error_panel(axes: Axes, points: list[HistoryPoint], middle: list[float]) -> None:
-    """The bit error ratio against the PHY's objective where the PHY is known, else the
-    frame error ratio; windows that counted no errors drawn on the floor, hollow."""
-    objectives = [p["objective"] for p in points if p["objective"] is not None]
-    key, label = (
-        ("bit_error_ratio", words.CHART_BER) if objectives else ("error_ratio", words.CHART_FER)
-    )
-    values = _values(points, key)
-    counted = [v for v in values if v > 0]
-    floor = min([*counted, *objectives, 1e-6]) / 100
-    axes.set_yscale("log")
-    axes.plot(middle, [v if v > 0 else math.nan for v in values], label=label, **_ERRORS)
-    zero = [(t, floor) for t, v in zip(middle, values, strict=True) if v == 0]
-    if zero:
-        axes.plot(
-            [t for t, _ in zero], [f for _, f in zero], linestyle="none", marker="v",
-            markerfacecolor="white", markeredgecolor="black", label=words.CHART_NONE_COUNTED,
-        )  # fmt: skip
-    if objectives:
-        objective = max(objectives)
-        axes.axhline(objective, color="black", linestyle=":", linewidth=3,
-                     label=f"{words.CHART_OBJECTIVE} {objective:.0e}")  # fmt: skip
-    axes.set_ylabel(label)
-    axes.set_ylim(floor / 3, max([*counted, *objectives, floor]) * 1e3)  # room for the legend
-    axes.grid(True, which="major", alpha=0.4)
-    axes.legend(loc="upper left", ncols=2)
+def answer_said(windows: AnswerWindows) -> str:
+    """What an answer's windows say, in words, under its verdict."""
+    if windows.stored:
+        return words.answer_stored(windows.span_s, words.history_summary(windows.runs, _title))
+    polls = sum(p["polls"] for p in windows.points) - len(windows.points) + 1
+    return words.answer_window(polls, windows.span_s)
 
 
 # --- the tree
@@ -232,11 +144,11 @@ def tree_png(reply: TreeReply) -> bytes:
     where = _layout(left, right)
     path = _path(left, right, reply.node)
     numbers = _question_numbers(reply, path)
-    with matplotlib.rc_context(_STYLE):
-        figure = _figure(11.0, 15.0)
-        drawing, listing = figure.subplots(2, 1, gridspec_kw={"height_ratios": [3, 2]})
+    with matplotlib.rc_context(STYLE):
+        drawn = figure(11.0, 15.0)
+        drawing, listing = drawn.subplots(2, 1, gridspec_kw={"height_ratios": [3, 2]})
         r = reply.record
-        figure.suptitle(
+        drawn.suptitle(
             "\n".join(textwrap.wrap(words.tree_title(r["device"], r["port"], r["verdict"]), 50)),
             fontsize=20,
         )
@@ -274,7 +186,7 @@ def tree_png(reply: TreeReply) -> bytes:
         depth = max(-y for _, y in where.values())
         drawing.set_ylim(-depth - 3.2, 0.8)
         _questions(listing, reply)
-        return _png(figure)
+    return png(drawn)
 
 
 def _layout(left: list[int], right: list[int]) -> dict[int, tuple[float, float]]:

@@ -23,7 +23,8 @@ class Labelled:
 
 @dataclass(frozen=True, slots=True)
 class DiagnosisReply:
-    """One port diagnosed: the record as answered, and the id that labels refer to."""
+    """One port diagnosed: the record as answered, and the id that labels refer to; with
+    the windows its picture draws, where the bot gathered them."""
 
     record: DiagnosisRecord
     diagnosis_id: int
@@ -34,6 +35,7 @@ class DiagnosisReply:
     asked_by: str | None = None  # who asked (a Slack user id or a name)
     at: float | None = None  # when it was answered, seconds since the epoch
     changed: str | None = None  # a check again: what differs from the answer before
+    windows: AnswerWindows | None = None  # what its picture draws; None: no picture
 
     @property
     def disputed(self) -> bool:
@@ -54,11 +56,20 @@ class HistoryPoint(TypedDict):
     error_ratio: float | None  # errored frames / received frames
     bit_error_ratio: float | None  # the estimate behind the error ratio, for the PHY
     objective: float | None  # the PHY's bit error ratio objective (IEEE 802.3)
-    rx_errors: float | None
+    rx_errors: float | None  # errored frames received (FCS and alignment errors)
+    rx_frames: float | None  # frames received, errored and discarded ones included
+    #: The errored frames a link just meeting ``objective`` would count on average over the
+    #: frames this window received (see linktriage.bot.history.errors_at_objective).
+    errors_at_objective: float | None
+    link_changes: float | None  # times the link went down or up
     in_discards: float | None
     out_discards: float | None
     rx_util: float | None
     tx_util: float | None
+    rx_dbm: float | None  # received light
+    rx_low_dbm: float | None  # the least light it should get: low warning, alarm or sensitivity
+    fec_bits: float | None  # bits FEC corrected
+    fec_high_bits: float | None  # the bits it would correct at its code's high pre-FEC level
 
 
 class VerdictRun(TypedDict):
@@ -68,6 +79,18 @@ class VerdictRun(TypedDict):
     start: float
     end: float
     windows: int
+
+
+@dataclass(frozen=True, slots=True)
+class AnswerWindows:
+    """What an answer's picture draws: the port's windows, oldest first, each diagnosed
+    alone, and the runs of one verdict they make. ``stored``: the windows of its stored
+    polls over the last ``span_s``; else the polls the answer rests on, cut at every poll."""
+
+    points: list[HistoryPoint]
+    runs: list[VerdictRun]
+    stored: bool
+    span_s: float
 
 
 class HistoryRecord(TypedDict):

@@ -11,7 +11,7 @@ under :mod:`linktriage.engine.verdicts`. The command line's and the demo's own w
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from datetime import UTC, datetime
 from typing import TYPE_CHECKING, Any
 
@@ -373,6 +373,9 @@ def not_kept(reason: str) -> str:
     return f"I could not keep this answer to post it to the channel ({reason}). Here it is."
 
 
+THREAD_NOT_POSTED = "the message whose thread it belongs in was not posted"
+
+
 def refused(error: str) -> str:
     """Told privately when Slack refused a message outright."""
     return f"Slack refused this message ({error}), so it was not posted. Here it is."
@@ -431,16 +434,20 @@ def utc_minute(at: float) -> str:
     return datetime.fromtimestamp(at, UTC).strftime("%Y-%m-%d %H:%M UTC")
 
 
-def history_summary(runs: Sequence[Mapping[str, Any]]) -> str:
+def history_summary(runs: Sequence[Mapping[str, Any]], named: Callable[[str], str] = str) -> str:
     """When the verdict last changed, in one line: "cable_fault since 02:40 UTC, healthy
-    before"; a history of one verdict says how long it has held."""
+    before"; a history of one verdict says how long it has held. ``named``: how a verdict
+    is said (its id unless told; a picture says its title)."""
     last = runs[-1]
     if len(runs) == 1:
         return (
-            f"{last['verdict']} throughout, {plural(last['windows'], 'window')} since "
+            f"{named(last['verdict'])} throughout, {plural(last['windows'], 'window')} since "
             f"{day_and_time(last['start'])}"
         )
-    said = f"{last['verdict']} since {clock_time(last['start'])}, {runs[-2]['verdict']} before"
+    said = (
+        f"{named(last['verdict'])} since {clock_time(last['start'])}, "
+        f"{named(runs[-2]['verdict'])} before"
+    )
     if len(runs) > 2:
         said += f" ({plural(len(runs) - 1, 'change')} since {day_and_time(runs[0]['start'])})"
     return said
@@ -456,7 +463,7 @@ def history_facts(windows: int, model_version: str) -> str:
 
 HISTORY_CHANGES = "Verdicts, oldest first"
 HISTORY_HEADER = ("FROM", "TO", "VERDICT", "CONF", "ERROR RATIO", "DISC IN/OUT", "LOAD IN/OUT")
-CHART_IN_THREAD = "Chart of errors, discards and load in the thread."
+CHART_IN_THREAD = "Chart of the evidence in each window in the thread."
 
 
 def run_line(verdict: str, start: float, end: float, windows: int) -> str:
@@ -484,26 +491,105 @@ def tree_guarded(verdict: str) -> str:
 
 
 TREE_IN_THREAD = "Picture of the tree with this port's path marked in the thread."
-CHART_BER = "Bit error ratio"
-CHART_FER = "Frame error ratio"
-CHART_OBJECTIVE = "IEEE 802.3 objective"
-CHART_NONE_COUNTED = "no errors counted (drawn at the floor)"
-CHART_DISCARDS = "Discards per window"
-CHART_LOAD = "Load, % of link speed"
-CHART_IN = "in (received)"
-CHART_OUT = "out (sent)"
-CHART_TIME = "time (UTC)"
 CHART_PATH = "the path taken"
 CHART_OTHER = "branches not taken"
 
+# --- the chart of a port's windows (render/history_chart.py)
+CHART_TIME = "time (UTC)"
+CHART_ERRORS = "Errored frames received, each window"
+CHART_FRAMES = "frames per window"
+CHART_ERRORED = "errored frames"
+CHART_LEAST = "1 frame: the least a window counts"
+CHART_LEAST_BIT = "1 bit: the least a window counts"
+CHART_NONE_COUNTED = "none counted (0)"
+CHART_NOT_COUNTED = "not counted"
+CHART_LINK = "Link went down or up, each window"
+CHART_CHANGES = "changes per window"
+CHART_LINK_CHANGES = "times down or up"
+CHART_LINK_STEADY = "no link change in any window"
+CHART_DISCARDS = "Frames discarded, each window"
+CHART_LOAD = "Load"
+CHART_LOAD_UNIT = "% of link speed"
+CHART_IN = "in (received)"
+CHART_OUT = "out (sent)"
+CHART_LIGHT = "Received light"
+CHART_LIGHT_UNIT = "dBm"
+CHART_LIGHT_LEAST = "the least it should get"
+CHART_LIGHT_RECEIVED = "received, each window"
+CHART_FEC = "Bits corrected by FEC, each window"
+CHART_BITS = "bits per window"
+CHART_FEC_CORRECTED = "corrected bits"
+CHART_FEC_HIGH = "the code's high level"
+CHART_EARLIER_CHANGES = "earlier verdict changes"
 
-def chart_alt(device: str, port: str, summary: str) -> str:
-    """What a chart shows, for people who cannot see it (Slack's alt text)."""
+
+def chart_at_objective(objective: float) -> str:
+    """The count a link just meeting its objective would show, as a legend names it."""
+    return f"at the IEEE 802.3 objective, {objective:.0e}"
+
+
+def chart_none_in_any(counted: str) -> str:
+    """Written across a panel of counts where no window counted any."""
+    return f"no {counted} in any window"
+
+
+def chart_change(at: float, before: str, after: str) -> str:
+    """The moment the verdict changed, written beside its line (verdicts as titles)."""
+    return f"{clock_time(at)}: {after}\n(before: {before})"
+
+
+def chart_title(device: str, port: str, said: str) -> str:
+    """A chart's heading: the port and, in words, what its windows say."""
+    return f"{device} {port}: {said}"
+
+
+def history_subtitle(span_s: float) -> str:
+    """Under a history chart's title: what its windows are."""
+    return f"Each window of its stored polls over the last {span(span_s)}, diagnosed alone"
+
+
+def answer_stored(span_s: float, said: str) -> str:
+    """Under an answer's chart title, where it draws the port's stored polls: what they
+    say (``said``, as :func:`history_summary` says it)."""
+    return f"Its stored polls over the last {span(span_s)}, each window diagnosed alone: {said}"
+
+
+def answer_window(polls: int, span_s: float) -> str:
+    """Under an answer's chart title, where it draws the polls the answer rests on."""
+    return f"The {plural(polls, 'poll')} this answer rests on, over {span(round(span_s))}"
+
+
+def answer_chart_below(stored: bool, span_s: float) -> str:
+    """Said in an answer's thread, where its chart follows."""
+    over = f"the last {span(span_s)} of its stored polls" if stored else "the polls it rests on"
+    return f"The chart below draws the errored frames and link changes of each window of {over}."
+
+
+def answer_chart_title(device: str, port: str, stored: bool, span_s: float) -> str:
+    """An answer's chart as Slack lists the file."""
+    over = f"the last {span(span_s)}" if stored else "the answer's window"
+    return f"{device} {port}: evidence in each window, {over}"
+
+
+def chart_alt(device: str, port: str, said: str, latest: str) -> str:
+    """What a chart of windows shows, for people who cannot see it (Slack's alt text)."""
     return (
-        f"Chart of {device} {port} over time: bit or frame error ratio against the "
-        f"objective, discards each way, load each way, and the verdict of each window. "
-        f"{summary}."
-    )
+        f"Chart of {device} {port} over time: errored frames in each window against the "
+        f"count the IEEE 802.3 objective allows, the link's changes, and the other readings "
+        f"that counted anything. {said}. {latest}"
+    ).rstrip()
+
+
+def chart_latest(errors: float | None, at_objective: float | None, changes: float | None) -> str:
+    """The latest window's evidence in one sentence, for the alt text."""
+    parts = []
+    if errors is not None:
+        parts.append(plural(round(errors), "errored frame"))
+    if at_objective is not None:
+        parts.append(f"about {at_objective:.2g} expected at the objective")
+    if changes is not None:
+        parts.append(plural(round(changes), "link change"))
+    return f"Latest window: {'; '.join(parts)}." if parts else ""
 
 
 def tree_alt(device: str, port: str, verdict: str, questions: int) -> str:

@@ -4,8 +4,9 @@ Slash commands are acknowledged at once (Slack wants an answer within 3 seconds)
 the model card and anything malformed or unknown (a name checked against the network,
 nothing polled) are answered in the acknowledgement itself, privately; a port or a list of
 suspects gets a short "looking" note, then the work runs after the acknowledgement and the
-answer is posted to the channel, where its thread collects what engineers found; a
-history's chart and a tree's picture follow in that thread as PNG uploads. A mention of
+answer is posted to the channel, where its thread collects what engineers found; its
+picture (an answer's or a history's windows, a tree's path) is drawn once the answer is on
+its way and follows in that thread as a PNG upload. A mention of
 the bot at the top of a channel (``@linktriage lark-core1 up3``) is the same command,
 answered the same way. Thread replies and the label buttons become labels.
 
@@ -53,9 +54,10 @@ from linktriage.render.blocks import (
     RECHECK_ACTION,
     message_for,
 )
+from linktriage.render.charts import pictures_for
 from linktriage.render.replies import LabelRefused, LabelReply, Reply
 from linktriage.settings import Settings
-from linktriage.transports.slack_sender import SlackSender, outgoing
+from linktriage.transports.slack_sender import SlackSender, outgoing, uploads
 
 log = logging.getLogger("linktriage.slack")
 WORKING = words.WORKING
@@ -71,12 +73,22 @@ def say_reply(
     asker: str | None = None,
 ) -> None:
     """A channel reply put in the outbox with what follows it; the answer or list it
-    carries is kept first, so its thread finds it the moment it is posted."""
+    carries is kept first, so its thread finds it the moment it is posted. Its pictures
+    are drawn after it has gone (or waits its turn), so drawing never holds an answer
+    back, and follow in its thread; one that cannot be kept is logged and the answer
+    stands."""
     diagnosis_id, digest_id = triage.carried(reply, channel=channel)
-    sender.say(
+    first, *_ = sender.say(
         outgoing(reply, channel, thread=thread, asker=asker, diagnosis_id=diagnosis_id,
                  digest_id=digest_id)
     )  # fmt: skip
+    pictures = pictures_for(reply)
+    if not pictures:
+        return
+    try:
+        sender.say(uploads(pictures, channel, thread=thread, under=first))
+    except StoreError as exc:
+        log.warning("could not keep a picture to post in %s: %s", channel, exc.message)
 
 
 def answered_later(command: Command) -> bool:

@@ -25,7 +25,7 @@ from slack_sdk.errors import SlackApiError, SlackClientError
 from linktriage.outbox import CHANNEL_LEASE_PREFIX, Outbox, Outgoing, Queued
 from linktriage.render import words
 from linktriage.render.blocks import message_for, thread_for
-from linktriage.render.charts import pictures_for
+from linktriage.render.charts import Picture
 from linktriage.render.replies import Reply
 from linktriage.store import Store, holder_name
 
@@ -55,8 +55,8 @@ def outgoing(
     diagnosis_id: int | None = None,
     digest_id: int | None = None,
 ) -> list[Outgoing]:
-    """A channel reply as messages: the reply (in ``thread`` when given), what follows it in
-    its thread, and its pictures there."""
+    """A channel reply as messages: the reply (in ``thread`` when given) and what follows it
+    in its thread. Its pictures follow on their own (:func:`uploads`)."""
     first = Outgoing(
         channel,
         "chat.postMessage",
@@ -71,7 +71,15 @@ def outgoing(
                  in_first_thread=thread is None)
         for follow in thread_for(reply)
     ]  # fmt: skip
-    pictures = [
+    return [first, *follows]
+
+
+def uploads(
+    pictures: list[Picture], channel: str, *, thread: str | None, under: int
+) -> list[Outgoing]:
+    """Pictures as file uploads in ``thread``, or where none is given, in the thread of the
+    message kept as ``under`` (an outbox id)."""
+    return [
         Outgoing(
             channel,
             "files.upload",
@@ -82,11 +90,10 @@ def outgoing(
                 "alt_txt": picture.alt,
             },
             thread_ts=thread,
-            in_first_thread=thread is None,
+            thread_of=None if thread is not None else under,
         )
-        for picture in pictures_for(reply)
+        for picture in pictures
     ]
-    return [first, *follows, *pictures]
 
 
 def retry_after(headers: Mapping[str, Any] | None) -> float:
@@ -200,6 +207,10 @@ class SlackSender:
             message = self.outbox.head(channel)
             if message is None:
                 return None
+            if message.thread_of is not None and message.thread_ts is None:
+                # What it follows was dropped before it was kept (a picture drawn late).
+                self.outbox.drop(message.id, words.THREAD_NOT_POSTED)
+                continue
             if now >= message.give_up_at:
                 self._give_up(message, words.held_back(round(self.give_up_s / 60.0, 1)))
                 continue
