@@ -594,14 +594,19 @@ def picture_in_thread(emulator: SlackEmulator, thread_ts: str) -> Image.Image:
     return image
 
 
-def test_a_history_is_posted_with_its_chart_in_the_answers_thread(
-    bot: str, emulator: SlackEmulator, triage: Triage, clock: DemoClock
-) -> None:
+def polled_for_three_hours(triage: Triage, clock: DemoClock) -> None:
+    """The poll job, every five minutes for three hours up to the demo's moment."""
     clock.now = DEFAULT_START - 3 * 3600.0
-    for _ in range(37):  # the poll job, every five minutes up to the demo's moment
+    for _ in range(37):
         triage.poller.poll_round()
         clock.sleep(300.0)
     clock.now = DEFAULT_START
+
+
+def test_a_history_is_posted_with_its_chart_in_the_answers_thread(
+    bot: str, emulator: SlackEmulator, triage: Triage, clock: DemoClock
+) -> None:
+    polled_for_three_hours(triage, clock)
     slash(bot, emulator, "history lark-east-idf2 port14 3h")
     (posted,) = emulator.wait_for("chat.postMessage")
     assert posted.params["channel"] == CHANNEL
@@ -616,11 +621,7 @@ def test_a_history_is_posted_with_its_chart_in_the_answers_thread(
 def test_an_answer_is_followed_in_its_thread_by_the_chart_of_its_evidence(
     bot: str, emulator: SlackEmulator, triage: Triage, clock: DemoClock
 ) -> None:
-    clock.now = DEFAULT_START - 3 * 3600.0
-    for _ in range(37):  # the poll job, every five minutes up to the demo's moment
-        triage.poller.poll_round()
-        clock.sleep(300.0)
-    clock.now = DEFAULT_START
+    polled_for_three_hours(triage, clock)
     slash(bot, emulator, "lark-east-idf2 port14")
     _, why, _ = emulator.wait_for("chat.postMessage", 3)
     chart = picture_in_thread(emulator, "1772438401.000100")

@@ -167,9 +167,9 @@ def help_lines(command: str, forms: Sequence[tuple[str, str]]) -> list[str]:
     are shown as typed there, and where the command's name goes in Slack."""
     lines = [f"{spelt(command, form)}: {does}" for form, does in forms]
     lines.append(
-        "Reply in the thread of an answer with what you found, e.g. "
-        "`cable_fault, crushed patch cord behind the desk`, or `confirmed`; in a digest's "
-        "thread start with the link's number: `3: duplex forced on the printer`."
+        "Say what you found at the link: pick it from the answer's menu, or reply in its "
+        "thread, e.g. `crushed patch cord behind the desk`; in a digest's thread start with "
+        "the link's number: `3: duplex forced on the printer`."
     )
     if not command:
         lines.append("In Slack, type them after `/triage` or a mention of the bot.")
