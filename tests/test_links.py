@@ -169,6 +169,40 @@ def test_a_far_end_is_matched_by_name_ignoring_case_and_domain(
     assert far.tolist() == ([1, 0] if paired else [-1, -1])
 
 
+@pytest.mark.parametrize(
+    ("listed", "lldp_says", "paired"),
+    [
+        ("GigabitEthernet1/0/5", "Gi1/0/5", True),  # LLDP's port id as the short ifName
+        ("Gi1/0/5", "GigabitEthernet1/0/5", True),  # or the long ifDescr
+        ("TenGigabitEthernet1/1/1", "te1/1/1", True),
+        ("Port-channel1", "Po1", True),
+        ("GigabitEthernet1/0/5", "Gi1/0/50", False),  # the numbers must be the same
+        ("xe-0/0/1", "XE-0/0/1", True),  # Junos names: only case differs
+    ],
+)
+def test_a_far_end_is_matched_with_its_port_type_written_long_or_short(
+    listed: str, lldp_says: str, paired: bool
+) -> None:
+    # IEEE 802.1AB: lldpRemPortId with subtype interfaceName(5) carries the far end's
+    # ifName (RFC 2863), which switches commonly give short while listing ifDescr long
+    # (common practice; the table of types is in engine/format/port_names.py).
+    far = pair_ends(
+        ["lark-east-idf2", "lark-core1"], ["port7", listed], ["lark-core1", None],
+        [lldp_says, None],
+    )  # fmt: skip
+    assert far.tolist() == ([1, 0] if paired else [-1, -1])
+
+
+def test_two_ports_whose_names_are_written_alike_are_not_guessed_between() -> None:
+    # A device listing both Gi1/0/5 and GigabitEthernet1/0/5 (an alias and its port):
+    # "gi1/0/5" fits one by case alone, "GIGABITETHERNET1/0/5" the other; "Gig1/0/5" both.
+    ports = ["port7", "Gi1/0/5", "GigabitEthernet1/0/5"]
+    devices = ["lark-east-idf2", "lark-core1", "lark-core1"]
+    for said, row in (("gi1/0/5", 1), ("GIGABITETHERNET1/0/5", 2), ("Gig1/0/5", -1)):
+        far = pair_ends(devices, ports, ["lark-core1", None, None], [said, None, None])
+        assert far.tolist()[0] == row, said
+
+
 def test_a_far_end_that_names_a_third_port_is_not_paired() -> None:
     # Two LLDP views that disagree: one of them is stale, and neither is believed.
     far = pair_ends(["a", "b", "c"], ["p1", "p1", "p1"], ["b", "c", None], ["p1", "p1", None])

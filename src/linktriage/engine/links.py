@@ -8,12 +8,14 @@ end's transmit counter; the light a fiber direction loses is the far end's trans
 minus the near end's received power.
 
 **Pairing.** A port's ``neighbor`` (the far end as LLDP reports it, IEEE 802.1AB) names a
-system and a port. It is matched to a port of the same input: the system name to a
-device exactly, else ignoring case, else by its first DNS label (``lark-core1.example``
-is ``lark-core1``) where that is one device only; the port name exactly, else ignoring
-case. A far end whose own neighbor names a third port is not paired (one of the two
-LLDP views is stale); a far end that names no neighbor is paired (LLDP may run on one
-side only).
+system and a port. It is matched to a port of the same input: the system name to a device
+exactly, else ignoring case, else by its first DNS label (``lark-core1.example`` is ``lark-
+core1``) where that is one device only; the port name exactly, else ignoring case, else with
+its interface type written long or short alike (LLDP's port id is often the short
+``ifName``, ``Gi1/0/5``, where a device lists ``GigabitEthernet1/0/5``:
+:mod:`~linktriage.engine.format.port_names`), where that fits one port only. A far end whose
+own neighbor names a third port is not paired (one of the two LLDP views is stale); a far
+end that names no neighbor is paired (LLDP may run on one side only).
 """
 
 from __future__ import annotations
@@ -24,6 +26,7 @@ import numpy as np
 import numpy.typing as npt
 
 from linktriage.engine.format.answers import Verdict
+from linktriage.engine.format.port_names import normalise
 from linktriage.engine.verdict_kit.ends import Column, Ends, LinkView
 from linktriage.engine.verdicts import FAULTS, GUARDS, SEVERITY, TREE, kind_of
 
@@ -41,8 +44,9 @@ def _short(name: str) -> str:
 
 def lldp_key(device: str, port: str) -> tuple[str, str]:
     """A port as a neighbor's LLDP may name it, loosely: the system's first DNS label and
-    the port, ignoring case (as :class:`PortMatcher` matches at its loosest)."""
-    return _short(device), port.casefold()
+    the port with its type written alike, ignoring case (as :class:`PortMatcher` matches
+    at its loosest)."""
+    return _short(device), normalise(port)
 
 
 class PortMatcher:
@@ -51,6 +55,7 @@ class PortMatcher:
     def __init__(self, device: Sequence[str], port: Sequence[str]) -> None:
         self.rows = {(d, p): i for i, (d, p) in enumerate(zip(device, port, strict=True))}
         self.folded = {(d.casefold(), p.casefold()): i for (d, p), i in self.rows.items()}
+        self._typed: dict[tuple[str, str], int] | None = None  # built at the first miss
         self.by_label: dict[str, set[str]] = {}
         for d in set(device):
             self.by_label.setdefault(_short(d), set()).add(d)
@@ -60,14 +65,30 @@ class PortMatcher:
         exact = self.rows.get((far, far_port))
         if exact is not None:
             return exact
-        found = self.folded.get((far.casefold(), far_port.casefold()))
+        found = self._on(far.casefold(), far_port)
         if found is not None:
             return found
         named = self.by_label.get(_short(far), set())
         if len(named) == 1:
             (only,) = named
-            return self.folded.get((only.casefold(), far_port.casefold()), -1)
-        return -1
+            found = self._on(only.casefold(), far_port)
+        return -1 if found is None else found
+
+    def _on(self, device: str, port: str) -> int | None:
+        """The row of ``port`` on the device named ``device`` (case folded): the port's
+        name in any case, else written alike (-1: two ports fit); None: none does."""
+        found = self.folded.get((device, port.casefold()))
+        return found if found is not None else self.typed().get((device, normalise(port)))
+
+    def typed(self) -> dict[tuple[str, str], int]:
+        """Every port by its name written alike (-1 where two ports of a device are), built
+        only when a neighbor names a port otherwise than it is listed: most name it as is."""
+        if self._typed is None:
+            self._typed = {}
+            for (d, p), i in self.folded.items():
+                key = (d, normalise(p))
+                self._typed[key] = -1 if key in self._typed else i
+        return self._typed
 
 
 def pair_ends(

@@ -15,8 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from linktriage.engine.format.poll_table import PollTable
+from linktriage.engine.format.port_names import normalise
 from linktriage.errors import AmbiguousNameError, PollError, UnknownPortError
-from linktriage.network.port_names import normalise
 from linktriage.printable import printable
 
 #: Typed in place of a device (``port-of lark-circ-prn1``): the port is then named by the
@@ -120,7 +120,7 @@ class Network(ABC):
         A device may be named by its name, its address, or any unique part of its name
         ("idf2" for "lark-east-idf2"); a part that fits several devices is ambiguous. A
         port is named as its device lists it, in any case, or with its type written short
-        or long (:mod:`~linktriage.network.port_names`). With :data:`BEHIND` for the
+        or long (:mod:`~linktriage.engine.format.port_names`). With :data:`BEHIND` for the
         device, ``port`` names what LLDP hears at the port's far end, as ``heard`` (what
         the ports last said) tells. The name is settled before any device is contacted.
         """

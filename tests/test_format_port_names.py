@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import pytest
 
-from linktriage.network.port_names import TYPES, normalise
+from linktriage.engine.format.port_names import TYPES, normalise
 
 #: Each type written short and long, with the numbers after it (common practice, from
 #: memory).
