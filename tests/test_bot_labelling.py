@@ -194,6 +194,20 @@ def test_what_is_found_on_a_port_a_guard_answered_is_kept_and_teaches_nothing(
     assert (label.finding, label.verdict, label.model_verdict) == ("damaged_cord", "", "link_down")
 
 
+def test_a_verdict_named_outright_is_stored_as_named_even_on_a_guards_answer(
+    triage: Triage,
+) -> None:
+    # Labels named verdicts before findings; one named now still teaches what it names.
+    _posted(triage, "lark-west-idf1 port9")  # link_down
+    reply = triage.labels.reply(
+        "cable_fault, the cord was cut", user="U2", channel="C1", thread_ts="100.1",
+        event_key="v",
+    )  # fmt: skip
+    assert isinstance(reply, LabelReply) and reply.verdict == "cable_fault"
+    (label,) = triage.store.labels()
+    assert (label.finding, label.verdict) == ("damaged_cord", "cable_fault")
+
+
 def test_a_label_that_cannot_be_written_is_not_acknowledged(tmp_path: Path, model: Model) -> None:
     clock = DemoClock(0.0)
     path = tmp_path / "s.sqlite"

@@ -13,7 +13,6 @@ from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
 from linktriage.engine.format.answers import DiagnosisRecord, Verdict
 from linktriage.engine.model.findings import Finding, finding, taught
 from linktriage.engine.model.labels import current
-from linktriage.engine.verdicts import TREE_VERDICTS
 from linktriage.errors import StoreError
 from linktriage.render.replies import DiagnosisReply, Labelled, LabelRefused, LabelReply
 from linktriage.render.words import (
@@ -188,9 +187,8 @@ class Labelling:
         earlier stays for the audit), the same one again is not stored twice, even pressed
         twice at once on two replicas (the store numbers each person's labels of an answer,
         each number once), and a retry of a stored event says nothing."""
-        if verdict is not None:  # named outright: it teaches what it names, as it always did,
-            # unless the tree did not give the answer (a guard's, as for findings)
-            teaches: str = verdict if diagnosis.verdict in TREE_VERDICTS else ""
+        if verdict is not None:  # named outright: it teaches what it names, as it always did
+            teaches: str = verdict
         else:
             assert found is not None
             teaches = taught(found, diagnosis.verdict, ruled_out) or ""
