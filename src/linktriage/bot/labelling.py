@@ -11,7 +11,7 @@ from typing import cast
 
 from linktriage.bot.label_parser import LabelIntent, Unclear, parse_label
 from linktriage.engine.format.answers import DiagnosisRecord, Verdict
-from linktriage.engine.model.findings import Finding, finding, taught
+from linktriage.engine.model.findings import Finding, finding, said_as, taught
 from linktriage.engine.model.labels import current
 from linktriage.errors import StoreError
 from linktriage.render.replies import DiagnosisReply, Labelled, LabelRefused, LabelReply
@@ -202,7 +202,7 @@ class Labelling:
                 mine = next((lb for lb in before if lb.user_id == user), None)
                 same = mine is not None and (mine.finding, mine.verdict) == (found_id, teaches)
                 if same and not note:
-                    return LabelRefused(LABEL_ALREADY.format(said=_said(found_id, teaches)))
+                    return LabelRefused(LABEL_ALREADY.format(said=said_as(found_id, teaches)))
                 kept = self.store.add_label(
                     diagnosis,
                     teaches,
@@ -224,7 +224,7 @@ class Labelling:
         if kept == "repeat":
             return None
         others = {lb.verdict for lb in before if lb.user_id != user and lb.verdict}
-        earlier = None if mine is None else _said(mine.finding, mine.verdict)
+        earlier = None if mine is None else said_as(mine.finding, mine.verdict)
         return LabelReply(
             user,
             diagnosis.device,
@@ -233,7 +233,7 @@ class Labelling:
             diagnosis.verdict,
             note,
             diagnosis_id=diagnosis.id,
-            replaced=earlier if earlier != _said(found_id, teaches) else None,
+            replaced=earlier if earlier != said_as(found_id, teaches) else None,
             disputed_with=tuple(sorted(others - {teaches})) if teaches else (),
             finding=None if found is None else found.words,
         )
@@ -251,14 +251,9 @@ class Labelling:
             stored.site,
             stored.serves,
             labels=tuple(
-                Labelled(lb.user_id, lb.verdict, _said(lb.finding, lb.verdict)) for lb in latest
+                Labelled(lb.user_id, lb.verdict, said_as(lb.finding, lb.verdict)) for lb in latest
             ),
             asked_by=stored.asked_by,
             at=stored.at,
         )
         return reply, stored.channel, stored.message_ts
-
-
-def _said(finding_id: str | None, verdict: str) -> str:
-    """A label as its author gave it: the finding's words, or the verdict named."""
-    return verdict if finding_id is None else finding(finding_id).words

@@ -66,7 +66,7 @@ def _demo_digest_and_label(model_path: Path | None) -> None:
     import tempfile
 
     from linktriage.assembly import opened
-    from linktriage.engine.model.findings import finding
+    from linktriage.engine.model.findings import said_as
     from linktriage.engine.simulate.ports import DEFAULT_START
     from linktriage.network.demo import DemoClock, DemoNetwork
     from linktriage.render.text import render
@@ -96,8 +96,7 @@ def _demo_digest_and_label(model_path: Path | None) -> None:
             if label is not None:
                 click.echo(f"  {render(label)}")
             (stored,) = parts.store.labels()
-            said = stored.verdict if stored.finding is None else finding(stored.finding).words
-            click.echo(words.demo_stored(stored, said))
+            click.echo(words.demo_stored(stored, said_as(stored.finding, stored.verdict)))
 
 
 #: How far back the demo's history reaches: across the cable fault's start at 05:40 UTC.

@@ -26,7 +26,7 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
     from dataclasses import asdict
 
     from linktriage.assembly import opened_store
-    from linktriage.engine.model.findings import finding
+    from linktriage.engine.model.findings import said_as
     from linktriage.engine.model.labels import settle
     from linktriage.settings import load_settings
 
@@ -59,8 +59,9 @@ def labels(ctx: click.Context, as_json: bool, config_path: Path | None) -> None:
     )
     click.echo(summary)
     for label in found:
-        said = label.verdict if label.finding is None else finding(label.finding).words
-        click.echo(words.label_line(label, standing(label.id), said))
+        click.echo(
+            words.label_line(label, standing(label.id), said_as(label.finding, label.verdict))
+        )
 
 
 def _rfc3339(at: float) -> str:

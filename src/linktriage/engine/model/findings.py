@@ -274,6 +274,12 @@ def finding(finding_id: str) -> Finding:
         raise ValueError(f"unknown finding {finding_id!r}: one of {', '.join(BY_ID)}") from None
 
 
+def said_as(finding_id: str | None, verdict: str) -> str:
+    """A label as its author gave it: what was found, in words, or the verdict it named (a
+    label kept before findings, or one that named a verdict outright)."""
+    return verdict if finding_id is None else finding(finding_id).words
+
+
 def taught(
     found: Finding, answered: str, ruled_out: frozenset[str] = frozenset()
 ) -> Verdict | None:
